@@ -1,0 +1,80 @@
+"""Write a set of output files completely or not at all.
+
+Writers elsewhere in :mod:`pipeline.export` are pure functions returning
+``bytes``; this module is the only one that touches the output folder.
+All files are first written into a temporary folder beside the target, then
+moved into place one by one with :func:`os.replace` (atomic per file on
+POSIX). If anything fails before the moves, nothing in the output folder has
+changed. A target that is one of the user's inputs is refused.
+"""
+
+from __future__ import annotations
+
+import os
+import shutil
+import tempfile
+from pathlib import Path
+from typing import Iterable, Mapping
+
+from ..errors import OutputError
+
+__all__ = ["write_all"]
+
+
+def write_all(
+    out_dir: str | os.PathLike,
+    files: Mapping[str, bytes],
+    *,
+    protect: Iterable[str | os.PathLike] = (),
+) -> list[Path]:
+    """Write ``files`` (name -> content) into ``out_dir`` all together.
+
+    Parameters
+    ----------
+    out_dir : path
+        Created if missing.
+    files : mapping of str to bytes
+        Plain file names (no folders) and their complete contents.
+    protect : iterable of paths
+        The user's input files; a target resolving to one of them raises
+        :class:`~pipeline.errors.OutputError` before anything is written.
+
+    Returns
+    -------
+    list of Path
+        The written paths, in name order.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp())
+    >>> [p.name for p in write_all(d / "out", {"b.txt": b"2", "a.txt": b"1"})]
+    ['a.txt', 'b.txt']
+    """
+    out = Path(out_dir)
+    protected = {Path(p).resolve() for p in protect}
+    names = sorted(files)
+    for name in names:
+        if Path(name).name != name or name in ("", ".", ".."):
+            raise OutputError(str(out / name), "output names must be plain file names")
+        if (out / name).resolve() in protected:
+            raise OutputError(str(out / name), "would overwrite one of your input files; choose another --out folder")
+    if out.exists() and not out.is_dir():
+        raise OutputError(str(out), "output path exists and is not a folder")
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+        tmp = Path(tempfile.mkdtemp(prefix=".snugboard-", dir=out))
+    except OSError as exc:
+        raise OutputError(str(out), f"cannot create the output folder ({exc.strerror})") from None
+    try:
+        for name in names:
+            (tmp / name).write_bytes(files[name])
+        written = []
+        for name in names:
+            os.replace(tmp / name, out / name)
+            written.append(out / name)
+        return written
+    except OSError as exc:
+        raise OutputError(str(out), f"cannot write outputs ({exc.strerror})") from None
+    finally:
+        shutil.rmtree(tmp, ignore_errors=True)

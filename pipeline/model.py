@@ -1,0 +1,414 @@
+"""Frozen values passed between snugboard's stages.
+
+Every stage takes some of these and returns others; no stage mutates what it
+was given. Lengths are millimetres, areas mm^2, heights mm, resistance ohms,
+capacitance farads, inductance henries, voltage volts, power watts.
+Tolerances are fractions (``0.01`` for 1 %).
+
+Stage-internal types live in their own stage modules; only what crosses a
+stage boundary is here.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any, Literal
+
+from shapely.geometry.base import BaseGeometry
+
+Severity = Literal["error", "warning", "info"]
+Side = Literal["top", "bottom"]
+Density = Literal["most", "nominal", "least"]
+
+#: Electrical roles a pin may have (DEVELOPERS.md, "Part kinds").
+PIN_ROLES = (
+    "power-in",
+    "power-out",
+    "input",
+    "output",
+    "open-collector",
+    "passive",
+    "no-connect",
+)
+
+SEVERITIES = ("error", "warning", "info")
+
+
+# --------------------------------------------------------------------------
+# Findings: every check, reader and stage reports through these.
+# --------------------------------------------------------------------------
+@dataclass(frozen=True)
+class Finding:
+    """One result of a check, or one warning of a reader.
+
+    ``check`` is a stable dotted code (``"connect.single-pin-net"``) so that
+    scripts can filter findings; ``subject`` lists the refs, ``REF.PIN``
+    pins or net names concerned; ``message`` is one sentence a user can act
+    on.
+    """
+
+    severity: Severity
+    check: str
+    subject: tuple[str, ...]
+    message: str
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "severity": self.severity,
+            "check": self.check,
+            "subject": list(self.subject),
+            "message": self.message,
+        }
+
+
+# --------------------------------------------------------------------------
+# Library: packages and part kinds (data under footprints/).
+# --------------------------------------------------------------------------
+@dataclass(frozen=True)
+class PinDef:
+    """A pin of a part kind: its number (as text), name and electrical role."""
+
+    number: str
+    name: str
+    role: str
+
+
+@dataclass(frozen=True)
+class PartKind:
+    """What a part is: its pins and how checks should treat it.
+
+    ``category`` is one of ``"passive"`` (two-terminal R, C, L, ferrite),
+    ``"polarized"``, ``"semiconductor"`` (diode, LED, transistor),
+    ``"ic"`` (has supply pins), ``"connector"`` (wire pad, test point,
+    header). ``value_unit`` is ``"ohm"``, ``"F"``, ``"H"`` or ``""`` when the
+    kind takes no value. A kind with ``pins_from_package`` (a header) gets
+    pins 1..N from its package's pin count.
+    """
+
+    name: str
+    category: str
+    pins: tuple[PinDef, ...]
+    value_unit: str = ""
+    pins_from_package: bool = False
+    description: str = ""
+    source: str = ""
+
+
+@dataclass(frozen=True)
+class Courtyard:
+    """IPC-7351B courtyard size at one density level, mm (length x width)."""
+
+    level: str
+    length_mm: float
+    width_mm: float
+
+    @property
+    def area_mm2(self) -> float:
+        return self.length_mm * self.width_mm
+
+
+@dataclass(frozen=True)
+class Package:
+    """A generic footprint: body, land extent, height and courtyards.
+
+    ``body_length_mm`` is along the pin rows (or the terminal axis of a
+    chip), ``land_length_mm`` the toe-to-toe land-pattern extent along the
+    same axis and ``land_width_mm`` side to side. ``courtyards`` holds one
+    :class:`Courtyard` per density level (``most``, ``nominal``,
+    ``least``).
+    """
+
+    name: str
+    aliases: tuple[str, ...]
+    family: str
+    body_length_mm: float
+    body_width_mm: float
+    height_mm: float
+    land_length_mm: float
+    land_width_mm: float
+    pin_count: int
+    pitch_mm: float
+    source: str
+    courtyards: tuple[Courtyard, ...]
+
+    def courtyard(self, level: str) -> Courtyard:
+        for c in self.courtyards:
+            if c.level == level:
+                return c
+        raise KeyError(level)
+
+
+# --------------------------------------------------------------------------
+# Design: parts and nets.
+# --------------------------------------------------------------------------
+@dataclass(frozen=True, order=True)
+class PinRef:
+    """A connected pin: part ref and pin number (text). ``str()`` is ``REF.PIN``."""
+
+    ref: str
+    pin: str
+
+    def __str__(self) -> str:
+        return f"{self.ref}.{self.pin}"
+
+
+@dataclass(frozen=True)
+class Part:
+    """One part of the design, with its kind's pins resolved.
+
+    ``value`` is the parsed number in SI base units (ohm, F, H) or ``None``;
+    ``value_text`` the text the user wrote. ``rating_v`` / ``rating_w`` are
+    the voltage and power ratings, ``None`` when not given. ``extra`` carries
+    keys snugboard passes through untouched (supplier, order code, ...), as
+    sorted ``(key, text)`` pairs. ``line`` is the design-file line the part
+    starts on, for messages (0 when unknown).
+    """
+
+    ref: str
+    kind: str
+    package: str
+    pins: tuple[PinDef, ...]
+    value: float | None = None
+    value_text: str = ""
+    tolerance: float | None = None
+    tolerance_text: str = ""
+    rating_v: float | None = None
+    rating_w: float | None = None
+    rating_text: str = ""
+    manufacturer: str = ""
+    mpn: str = ""
+    note: str = ""
+    dnp: bool = False
+    extra: tuple[tuple[str, str], ...] = ()
+    line: int = 0
+
+    def pin(self, number: str) -> PinDef:
+        for p in self.pins:
+            if p.number == number:
+                return p
+        raise KeyError(number)
+
+
+@dataclass(frozen=True)
+class Net:
+    """A named net and the pins on it, in the order the design lists them.
+
+    ``voltage`` is the declared nominal voltage (V) or ``None``;
+    ``voltage_max`` the highest it reaches (a charged cell); ``battery``
+    marks a net fed from a battery.
+    """
+
+    name: str
+    pins: tuple[PinRef, ...]
+    voltage: float | None = None
+    voltage_max: float | None = None
+    battery: bool = False
+    line: int = 0
+
+
+@dataclass(frozen=True)
+class RawTable:
+    """A table of the design file passed through for a later stage to read.
+
+    ``items`` are the table's key/value pairs as TOML gave them (values may
+    be nested dicts and lists); ``file`` and ``key`` locate it for messages.
+    """
+
+    name: str
+    items: tuple[tuple[str, Any], ...]
+    file: str
+    key: str
+    line: int = 0
+
+    def get(self, k: str, default: Any = None) -> Any:
+        for kk, v in self.items:
+            if kk == k:
+                return v
+        return default
+
+
+@dataclass(frozen=True)
+class Design:
+    """A sized design: parts, nets, and the declared stages (issue 4)."""
+
+    name: str
+    revision: str
+    source: str
+    parts: tuple[Part, ...]
+    nets: tuple[Net, ...]
+    stages: tuple[RawTable, ...] = ()
+    kinds: tuple[PartKind, ...] = ()
+
+    def part(self, ref: str) -> Part:
+        for p in self.parts:
+            if p.ref == ref:
+                return p
+        raise KeyError(ref)
+
+    def net(self, name: str) -> Net:
+        for n in self.nets:
+            if n.name == name:
+                return n
+        raise KeyError(name)
+
+
+# --------------------------------------------------------------------------
+# Project options.
+# --------------------------------------------------------------------------
+@dataclass(frozen=True)
+class BoardOptions:
+    """The ``[board]`` table of project.toml (CONTRACT section 1), extended.
+
+    ``outline`` is ``"region"`` (propose the usable region, simplified) or
+    ``"rectangle"`` (largest rectangle in any orientation);
+    ``min_inside_radius_mm`` is the smallest inside corner radius of a
+    proposed outline (a router bit's radius).
+    """
+
+    layers: int = 2
+    thickness_mm: float = 0.8
+    sides: int = 1
+    density: str = "nominal"
+    edge_clearance_mm: float = 0.5
+    wall_clearance_mm: float = 0.3
+    outline: str = "region"
+    min_inside_radius_mm: float = 0.5
+
+
+@dataclass(frozen=True)
+class OrderOptions:
+    """The ``[order]`` table: boards to build and spares.
+
+    ``min_spares`` is the least extra count per BOM line, ``multiple`` rounds
+    each line's order up to a multiple (reel or cut-tape steps).
+    """
+
+    boards: int = 1
+    spares_percent: float = 0.0
+    min_spares: int = 0
+    multiple: int = 1
+
+
+# --------------------------------------------------------------------------
+# Cavity and region (millimetres, drawing frame).
+# --------------------------------------------------------------------------
+@dataclass(frozen=True)
+class DepthZone:
+    """A closed zone where floor-to-lid depth is ``depth_mm``."""
+
+    polygon: BaseGeometry
+    depth_mm: float
+    layer: str
+
+
+@dataclass(frozen=True)
+class Cavity:
+    """The cavity drawing converted to millimetres.
+
+    ``outline`` is a shapely Polygon (may have holes); ``keepouts`` and
+    ``depth_zones`` are as drawn (not yet clipped); ``board`` is the user's
+    own board outline or ``None``; ``depth_mm`` the default depth.
+    ``unit_name`` and ``mm_per_unit`` record how drawing units were read.
+    """
+
+    source: str
+    outline: BaseGeometry
+    keepouts: tuple[BaseGeometry, ...]
+    depth_zones: tuple[DepthZone, ...]
+    board: BaseGeometry | None
+    depth_mm: float
+    unit_name: str
+    mm_per_unit: float
+
+
+@dataclass(frozen=True)
+class HeightZone:
+    """Part of the board region with one allowed component height, mm.
+
+    ``max_height_mm`` is what a top-side part may be (local depth minus
+    board thickness; bottom-side needs are the placer's to subtract).
+    """
+
+    polygon: BaseGeometry
+    max_height_mm: float
+
+
+@dataclass(frozen=True)
+class Region:
+    """Where a board may be, and how tall parts may be on it.
+
+    ``board_region``: cavity inset by the wall clearance, minus keep-outs
+    grown by it. ``zones`` partition ``board_region`` by allowed height.
+    """
+
+    board_region: BaseGeometry
+    zones: tuple[HeightZone, ...]
+    thickness_mm: float
+
+    @property
+    def area_mm2(self) -> float:
+        return float(self.board_region.area)
+
+
+# --------------------------------------------------------------------------
+# Placement and fit.
+# --------------------------------------------------------------------------
+@dataclass(frozen=True)
+class PlaceItem:
+    """A part as the placer sees it: courtyard size (rotation 0), height, nets."""
+
+    ref: str
+    length_mm: float
+    width_mm: float
+    height_mm: float
+    nets: tuple[str, ...]
+    pin_count: int = 2
+    package: str = ""
+
+
+@dataclass(frozen=True)
+class AreaEstimate:
+    """Board area estimate: courtyard sum and a low / expected / high range."""
+
+    courtyard_area_mm2: float
+    low_mm2: float
+    expected_mm2: float
+    high_mm2: float
+    rule: str
+
+
+@dataclass(frozen=True)
+class Placement:
+    """One placed part: courtyard centre, rotation (0/90/180/270) and side."""
+
+    ref: str
+    x_mm: float
+    y_mm: float
+    rotation_deg: int
+    side: Side
+    courtyard: BaseGeometry = field(compare=False, repr=False)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "ref": self.ref,
+            "x_mm": round(self.x_mm, 4),
+            "y_mm": round(self.y_mm, 4),
+            "rotation_deg": self.rotation_deg,
+            "side": self.side,
+        }
+
+
+@dataclass(frozen=True)
+class FitResult:
+    """The fit verdict with everything ``fit.json`` holds (CONTRACT section 4)."""
+
+    fits: bool
+    region_area_mm2: float
+    courtyard_area_mm2: float
+    estimate: AreaEstimate
+    placements: tuple[Placement, ...]
+    board_outline: BaseGeometry | None
+    blocked_by: tuple[str, ...]
+    unplaced: tuple[str, ...] = ()
+    wirelength_mm: float = 0.0
+    warnings: tuple[Finding, ...] = ()
