@@ -1,0 +1,216 @@
+"""The command line: the only module that imports click, prints or exits.
+
+Commands collect options and call one function each in
+:mod:`pipeline.project` or :mod:`pipeline.library`; :class:`_Group` is the
+one place where errors become messages and exit codes:
+
+* :class:`~pipeline.errors.SnugboardError` (bad input, unwritable output):
+  its message once on stderr, exit 2, no traceback;
+* anything else is a bug: one line saying so, exit 3; set
+  ``SNUGBOARD_DEBUG=1`` to see the traceback.
+
+Exit status (CONTRACT section 4): 0 clean and fits, 1 does not fit or the
+checks found errors, 2 bad input.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import sys
+from typing import Any
+
+import click
+
+from . import __version__
+from .errors import SnugboardError
+
+_SEV_MARK = {"error": "error", "warning": "warning", "info": "note"}
+
+
+class _Group(click.Group):
+    def invoke(self, ctx: click.Context) -> Any:
+        try:
+            return super().invoke(ctx)
+        except SnugboardError as exc:
+            if ctx.meta.get("snugboard.json"):
+                click.echo(json.dumps({"exit_status": exc.exit_status, "error": str(exc),
+                                       "findings": [], "fit": None}, indent=2))
+            click.echo(f"snugboard: {exc}", err=True)
+            ctx.exit(exc.exit_status)
+        except (click.exceptions.Exit, click.exceptions.Abort, click.ClickException):
+            raise
+        except Exception as exc:  # a bug, not bad input
+            if os.environ.get("SNUGBOARD_DEBUG"):
+                raise
+            click.echo(f"snugboard: internal error ({type(exc).__name__}: {exc}); "
+                       "set SNUGBOARD_DEBUG=1 to see where, and please report it.", err=True)
+            ctx.exit(3)
+
+
+class _Progress:
+    """Progress on stderr, only to a terminal and never under --json."""
+
+    def __init__(self, enabled: bool) -> None:
+        self.enabled = enabled and sys.stderr.isatty()
+        self.last = ""
+
+    def __call__(self, message: str, fraction: float) -> None:
+        if not self.enabled:
+            return
+        text = f"{message} {100 * max(0.0, min(1.0, fraction)):3.0f}%"
+        if text != self.last:
+            click.echo("\r" + text.ljust(60), err=True, nl=False)
+            self.last = text
+
+    def done(self) -> None:
+        if self.enabled and self.last:
+            click.echo("\r" + " " * 60 + "\r", err=True, nl=False)
+
+
+def _echo_findings(findings, err: bool) -> None:
+    for f in findings:
+        subj = f" [{', '.join(f.subject)}]" if f.subject else ""
+        click.echo(f"{_SEV_MARK[f.severity]}: {f.message}{subj}", err=err)
+
+
+def _counts(findings) -> str:
+    n = {s: sum(1 for f in findings if f.severity == s) for s in ("error", "warning", "info")}
+    return f"{n['error']} error(s), {n['warning']} warning(s), {n['info']} note(s)"
+
+
+@click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
+@click.version_option(__version__, prog_name="snugboard")
+def main() -> None:
+    """Check that a small add-on board fits the free cavity inside an enclosure,
+    and write its outline, netlist and ordering BOM."""
+
+
+@main.command("run")
+@click.argument("project_dir", type=click.Path(file_okay=False))
+@click.option("--design", "design", metavar="FILE", help="Design file to use instead of [project] design.")
+@click.option("--cavity", "cavity", metavar="FILE", help="Cavity drawing (DXF) to use instead of [project] cavity.")
+@click.option("--out", "out", metavar="DIR", help="Output folder (default PROJECT_DIR/out).")
+@click.option("--sweep", is_flag=True, help="Also re-run the fit with every two-terminal passive at 0201..1206.")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object to stdout; human text to stderr.")
+@click.pass_context
+def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: str | None, out: str | None,
+            sweep: bool, as_json: bool) -> None:
+    """Read PROJECT_DIR/project.toml, check the design, fit it in the cavity, write the outputs."""
+    from .project import load_project, run
+
+    ctx.meta["snugboard.json"] = as_json
+    project = load_project(project_dir, design=design, cavity=cavity, out=out)
+    progress = _Progress(not as_json)
+    try:
+        result = run(project, progress=progress, sweep=sweep)
+    finally:
+        progress.done()
+    err = as_json
+    _echo_findings(result.findings, err)
+    for rep in result.stage_reports:
+        click.echo(rep.summary() if hasattr(rep, "summary") else str(rep), err=err)
+    if result.sweep is not None:
+        click.echo(result.sweep.summary() if hasattr(result.sweep, "summary") else str(result.sweep.to_dict()), err=err)
+    if result.fit is not None:
+        f = result.fit
+        verdict = "FITS" if f.fits else "DOES NOT FIT"
+        click.echo(f"fit: {verdict}: usable region {f.region_area_mm2:.1f} mm2, courtyards {f.courtyard_area_mm2:.1f} mm2, "
+                   f"estimated board {f.estimate.low_mm2:.0f}..{f.estimate.high_mm2:.0f} mm2 "
+                   f"(expected {f.estimate.expected_mm2:.0f})", err=err)
+    click.echo(f"{result.design.name}: {_counts(result.findings)}; wrote {len(result.written)} files to "
+               f"{os.path.relpath(project.out_dir)}", err=err)
+    if as_json:
+        from .export.results import findings_list
+        click.echo(json.dumps({"exit_status": result.exit_status, "findings": findings_list(result.findings),
+                               "fit": result.fit_json or None}, indent=2, ensure_ascii=False))
+    ctx.exit(result.exit_status)
+
+
+@main.command("check")
+@click.argument("design_file", type=click.Path(dir_okay=False))
+@click.option("--parts-map", metavar="FILE", help="Parts map for a SPICE design (kinds and packages).")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object to stdout.")
+@click.pass_context
+def check_cmd(ctx: click.Context, design_file: str, parts_map: str | None, as_json: bool) -> None:
+    """Check a design file alone: read it, build the graph, run the connection and value checks."""
+    from pathlib import Path
+
+    from .project import check_design
+
+    ctx.meta["snugboard.json"] = as_json
+    design, findings = check_design(Path(design_file), shown=design_file,
+                                    parts_map=Path(parts_map) if parts_map else None)
+    status = 1 if any(f.severity == "error" for f in findings) else 0
+    if as_json:
+        from .export.results import findings_list
+        click.echo(json.dumps({"exit_status": status, "findings": findings_list(findings), "fit": None},
+                              indent=2, ensure_ascii=False))
+    else:
+        _echo_findings(findings, False)
+        click.echo(f"{design.name}: {len(design.parts)} parts, {len(design.nets)} nets; {_counts(findings)}")
+    ctx.exit(status)
+
+
+@main.command("packages")
+@click.argument("names", nargs=-1)
+@click.option("--json", "as_json", is_flag=True, help="Print JSON instead of a table.")
+@click.pass_context
+def packages_cmd(ctx: click.Context, names: tuple[str, ...], as_json: bool) -> None:
+    """List the footprint library's packages with their sizes and courtyards (mm)."""
+    from .library import load_library
+
+    ctx.meta["snugboard.json"] = as_json
+    lib = load_library()
+    try:
+        pkgs = [lib.package(n) for n in names] if names else list(lib.packages())
+    except KeyError as exc:
+        from .errors import LibraryError
+        raise LibraryError("footprints", str(exc.args[0]) if exc.args else "unknown package") from None
+    if as_json:
+        click.echo(json.dumps([_package_dict(p) for p in pkgs], indent=2))
+        return
+    head = f"{'package':<18}{'pins':>5}{'pitch':>7}{'body LxW':>13}{'H max':>7}{'land LxW':>13}  courtyard most / nominal / least"
+    click.echo(head)
+    for p in pkgs:
+        cy = " / ".join(f"{c.length_mm:.2f}x{c.width_mm:.2f}" for c in p.courtyards)
+        click.echo(f"{p.name:<18}{p.pin_count:>5}{p.pitch_mm:>7.2f}{p.body_length_mm:>7.2f}x{p.body_width_mm:<5.2f}"
+                   f"{p.height_mm:>7.2f}{p.land_length_mm:>7.2f}x{p.land_width_mm:<5.2f}  {cy}")
+        if names:
+            click.echo(f"  aliases: {', '.join(p.aliases) or '-'}; source: {p.source}")
+
+
+def _package_dict(p) -> dict[str, Any]:
+    return {
+        "name": p.name, "aliases": list(p.aliases), "family": p.family, "pin_count": p.pin_count,
+        "pitch_mm": p.pitch_mm, "body_length_mm": p.body_length_mm, "body_width_mm": p.body_width_mm,
+        "height_mm": p.height_mm, "land_length_mm": p.land_length_mm, "land_width_mm": p.land_width_mm,
+        "courtyards": {c.level: [c.length_mm, c.width_mm] for c in p.courtyards}, "source": p.source,
+    }
+
+
+@main.command("kinds")
+@click.argument("names", nargs=-1)
+@click.option("--json", "as_json", is_flag=True, help="Print JSON instead of a table.")
+@click.pass_context
+def kinds_cmd(ctx: click.Context, names: tuple[str, ...], as_json: bool) -> None:
+    """List the part kinds with their pins, pin names and electrical roles."""
+    from .library import load_library
+
+    ctx.meta["snugboard.json"] = as_json
+    lib = load_library()
+    try:
+        kinds = [lib.kind(n) for n in names] if names else list(lib.kinds())
+    except KeyError as exc:
+        from .errors import LibraryError
+        raise LibraryError("footprints", str(exc.args[0]) if exc.args else "unknown kind") from None
+    if as_json:
+        click.echo(json.dumps([{"name": k.name, "category": k.category, "value_unit": k.value_unit,
+                                "pins_from_package": k.pins_from_package, "source": k.source,
+                                "pins": [{"number": p.number, "name": p.name, "role": p.role} for p in k.pins]}
+                               for k in kinds], indent=2))
+        return
+    for k in kinds:
+        pins = "pins 1..N from the package" if k.pins_from_package else \
+            ", ".join(f"{p.number} {p.name} ({p.role})" for p in k.pins)
+        click.echo(f"{k.name:<22}{k.category:<14}{pins}")

@@ -1,0 +1,388 @@
+"""Stage 1: read a sized design from its TOML file.
+
+Entry point: :func:`read_design`. The format is CONTRACT.md section 2,
+extended with ``[kinds.NAME]`` (part kinds defined in the design),
+``[voltages]`` (declared net voltages) and ``[stages.NAME]`` (declared
+circuit stages, read by :mod:`pipeline.stages`). README.md documents every
+key.
+
+What the reader guarantees to later stages:
+
+* every part has a known kind and package, its pins resolved from the kind
+  (a header's pins from its package);
+* passive values are parsed to SI base units (ohm, F, H); tolerances to
+  fractions; ratings to volts and watts;
+* every pin on a net names an existing part and pin, and is stored by pin
+  *number*, whether the user wrote a number or a name.
+
+What it leaves to :mod:`pipeline.check` (findings, not errors): single-pin
+nets, a pin on two nets, net names differing only in case, unconnected
+parts and pins.
+"""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+from typing import Any, Iterable
+
+from . import values as _values
+from .errors import DesignError
+from .model import Design, Finding, Net, Part, PartKind, PinDef, PinRef, PIN_ROLES, RawTable
+from .tomlsrc import TomlSource, load
+
+__all__ = ["read_design", "read_design_text", "KIND_CATEGORIES"]
+
+KIND_CATEGORIES = ("passive", "polarized", "semiconductor", "ic", "connector")
+
+_TOP_KEYS = ("design", "kinds", "parts", "nets", "voltages", "stages")
+_DESIGN_KEYS = ("name", "revision", "note")
+_PART_KEYS = (
+    "kind", "value", "package", "tolerance", "rating", "manufacturer", "mpn",
+    "note", "dnp", "supplier", "order_code", "description",
+)
+_PASSTHROUGH = ("supplier", "order_code", "description")
+_KIND_KEYS = ("category", "package", "pins", "description", "value_unit")
+_PIN_KEYS = ("number", "name", "role")
+_REF_RE = re.compile(r"^[A-Za-z][A-Za-z0-9_]*$")
+_NET_RE = re.compile(r"^[^\s\"',;]+$")
+
+
+def read_design(path: Path, library: Any, *, display: str | None = None) -> tuple[Design, list[Finding]]:
+    """Read the design TOML file at ``path``.
+
+    Parameters
+    ----------
+    path : Path
+        The design file.
+    library : pipeline.library.Library
+        Packages and part kinds to resolve against.
+    display : str, optional
+        The file name as the user wrote it, for messages and
+        ``Design.source``.
+
+    Returns
+    -------
+    (Design, list of Finding)
+        The design and the reader's warnings.
+
+    Raises
+    ------
+    DesignError
+        Any bad input, naming the file, line and key (or ref / pin).
+    """
+    src = load(Path(path), display or str(path), DesignError)
+    return _read(src, library)
+
+
+def read_design_text(text: str, library: Any, *, display: str = "design.toml") -> tuple[Design, list[Finding]]:
+    """Like :func:`read_design` from text in memory (tests, tools).
+
+    Examples
+    --------
+    >>> from pipeline.library import load_library
+    >>> d, w = read_design_text('''
+    ... [parts.R1]
+    ... kind = "resistor"
+    ... value = "4k7"
+    ... package = "0603"
+    ... [parts.R2]
+    ... kind = "resistor"
+    ... value = "10k"
+    ... package = "0603"
+    ... [nets]
+    ... IN = ["R1.1"]
+    ... MID = ["R1.2", "R2.1"]
+    ... GND = ["R2.2"]
+    ... ''', load_library())
+    >>> d.part("R1").value
+    4700.0
+    >>> [str(p) for p in d.net("MID").pins]
+    ['R1.2', 'R2.1']
+    """
+    return _read(TomlSource.from_text(display, text, DesignError), library)
+
+
+# --------------------------------------------------------------------------
+def _err(src: TomlSource, key: str, reason: str, **kw: Any) -> DesignError:
+    return src.error(key, reason, DesignError, **kw)
+
+
+def _expect_table(src: TomlSource, key: str, value: Any) -> dict:
+    if not isinstance(value, dict):
+        raise _err(src, key, f"expected a table, found {type(value).__name__}")
+    return value
+
+
+def _expect_str(src: TomlSource, key: str, value: Any) -> str:
+    if isinstance(value, bool) or not isinstance(value, (str, int, float)):
+        raise _err(src, key, f"expected text, found {type(value).__name__}")
+    return str(value).strip()
+
+
+def _unknown(src: TomlSource, prefix: str, table: dict, allowed: Iterable[str]) -> None:
+    allowed = tuple(allowed)
+    for k in table:
+        if k not in allowed:
+            raise _err(src, f"{prefix}.{k}" if prefix else k,
+                       f"unknown key '{k}'; expected one of: {', '.join(allowed)}")
+
+
+def _read(src: TomlSource, library: Any) -> tuple[Design, list[Finding]]:
+    data = src.data
+    warnings: list[Finding] = []
+    _unknown(src, "", data, _TOP_KEYS)
+
+    head = _expect_table(src, "design", data.get("design", {}))
+    _unknown(src, "design", head, _DESIGN_KEYS)
+    name = _expect_str(src, "design.name", head.get("name", Path(src.display).stem))
+    revision = _expect_str(src, "design.revision", head.get("revision", ""))
+
+    kinds, default_pkgs = _read_kinds(src, _expect_table(src, "kinds", data.get("kinds", {})), library)
+    lib = library.with_kinds(kinds) if kinds else library
+
+    parts_tbl = _expect_table(src, "parts", data.get("parts", {}))
+    if not parts_tbl:
+        raise _err(src, "parts", "the design has no parts: add [parts.REF] tables")
+    parts = tuple(_read_part(src, ref, body, lib, default_pkgs) for ref, body in parts_tbl.items())
+    by_ref = {p.ref: p for p in parts}
+
+    nets_tbl = _expect_table(src, "nets", data.get("nets", {}))
+    volts = _read_voltages(src, _expect_table(src, "voltages", data.get("voltages", {})), nets_tbl)
+    nets = tuple(
+        _read_net(src, name_, pins, by_ref, volts.get(name_), warnings)
+        for name_, pins in nets_tbl.items()
+    )
+
+    stages_tbl = _expect_table(src, "stages", data.get("stages", {}))
+    stages = tuple(
+        RawTable(
+            name=sname,
+            items=tuple(_expect_table(src, f"stages.{sname}", body).items()),
+            file=src.display,
+            key=f"stages.{sname}",
+            line=src.line(f"stages.{sname}") or 0,
+        )
+        for sname, body in stages_tbl.items()
+    )
+    design = Design(
+        name=name, revision=revision, source=src.display, parts=parts, nets=nets,
+        stages=stages, kinds=tuple(kinds),
+    )
+    return design, warnings
+
+
+def _read_kinds(src: TomlSource, table: dict, library: Any) -> tuple[list[PartKind], dict[str, str]]:
+    """Design-defined kinds and their default packages (kind name -> package)."""
+    out = []
+    defaults: dict[str, str] = {}
+    for kname, body in table.items():
+        key = f"kinds.{kname}"
+        body = _expect_table(src, key, body)
+        _unknown(src, key, body, _KIND_KEYS)
+        try:
+            library.kind(kname)
+        except KeyError:
+            pass
+        else:
+            raise _err(src, key, f"kind '{kname}' already exists in the library; give yours another name")
+        category = _expect_str(src, f"{key}.category", body.get("category", "ic"))
+        if category not in KIND_CATEGORIES:
+            raise _err(src, f"{key}.category", f"unknown category '{category}'; expected one of: {', '.join(KIND_CATEGORIES)}")
+        unit = _expect_str(src, f"{key}.value_unit", body.get("value_unit", ""))
+        if unit not in ("", "ohm", "F", "H"):
+            raise _err(src, f"{key}.value_unit", f"unknown value unit '{unit}'; expected ohm, F, H or nothing")
+        pins_raw = body.get("pins")
+        if not isinstance(pins_raw, list) or not pins_raw:
+            raise _err(src, f"{key}.pins", "a kind needs a list of pins: pins = [ { number = 1, name = \"OUT\", role = \"output\" }, ... ]")
+        pins: list[PinDef] = []
+        seen_numbers: set[str] = set()
+        for i, p in enumerate(pins_raw):
+            pkey = f"{key}.pins"
+            if not isinstance(p, dict):
+                raise _err(src, pkey, f"pin {i + 1} must be a table {{ number, name, role }}")
+            _unknown(src, pkey, p, _PIN_KEYS)
+            if "number" not in p:
+                raise _err(src, pkey, f"pin {i + 1} has no number")
+            number = _expect_str(src, pkey, p["number"])
+            if number in seen_numbers:
+                raise _err(src, pkey, f"pin number {number} appears twice")
+            seen_numbers.add(number)
+            pname = _expect_str(src, pkey, p.get("name", number))
+            role = _expect_str(src, pkey, p.get("role", "passive"))
+            if role not in PIN_ROLES:
+                raise _err(src, pkey, f"pin {number}: unknown role '{role}'; expected one of: {', '.join(PIN_ROLES)}")
+            pins.append(PinDef(number, pname, role))
+        desc = _expect_str(src, f"{key}.description", body.get("description", ""))
+        default_pkg = _expect_str(src, f"{key}.package", body.get("package", ""))
+        if default_pkg and not library.has_package(default_pkg):
+            raise _err(src, f"{key}.package", _package_reason(library, default_pkg))
+        out.append(PartKind(
+            name=kname, category=category, pins=tuple(pins), value_unit=unit,
+            description=desc, source=f"defined in {src.display}" + (f"; default package {default_pkg}" if default_pkg else ""),
+        ))
+        defaults[kname] = default_pkg
+    return out, defaults
+
+
+def _package_reason(library: Any, name: str) -> str:
+    try:
+        library.package(name)
+    except KeyError as exc:
+        msg = exc.args[0] if exc.args else f"unknown package '{name}'"
+        return str(msg)
+    return ""
+
+
+def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dict[str, str]) -> Part:
+    key = f"parts.{ref}"
+    if not _REF_RE.match(ref):
+        raise _err(src, key, f"'{ref}' is not a usable reference: start with a letter, then letters, digits or _")
+    body = _expect_table(src, key, body)
+    _unknown(src, key, body, _PART_KEYS)
+    if "kind" not in body:
+        raise _err(src, f"{key}.kind", "every part needs a kind, e.g. kind = \"resistor\"")
+    kname = _expect_str(src, f"{key}.kind", body["kind"])
+    try:
+        kind = lib.kind(kname)
+    except KeyError as exc:
+        raise _err(src, f"{key}.kind", str(exc.args[0]) if exc.args else f"unknown kind '{kname}'") from None
+
+    pkg_name = body.get("package") or default_pkgs.get(kname, "")
+    if not pkg_name:
+        raise _err(src, f"{key}.package", "every part needs a package, e.g. package = \"0603\"")
+    pkg_name = _expect_str(src, f"{key}.package", pkg_name)
+    try:
+        package = lib.package(pkg_name)
+    except KeyError as exc:
+        raise _err(src, f"{key}.package", str(exc.args[0]) if exc.args else f"unknown package '{pkg_name}'") from None
+    pins = tuple(lib.pins_for(kind, package))
+    if not kind.pins_from_package and package.pin_count and package.pin_count != len(pins):
+        raise _err(src, f"{key}.package",
+                   f"package {package.name} has {package.pin_count} pins but kind {kind.name} has {len(pins)}")
+
+    value: float | None = None
+    value_text = ""
+    if "value" in body:
+        value_text = _expect_str(src, f"{key}.value", body["value"])
+        if kind.value_unit:
+            try:
+                value = _values.parse_value(value_text, kind.value_unit)
+            except ValueError as exc:
+                raise _err(src, f"{key}.value", str(exc)) from None
+    elif kind.value_unit:
+        raise _err(src, f"{key}.value", f"a {kind.name} needs a value, e.g. value = \"10k\"")
+
+    tol = None
+    tol_text = ""
+    if "tolerance" in body:
+        tol_text = _expect_str(src, f"{key}.tolerance", body["tolerance"])
+        try:
+            tol = _values.parse_tolerance(tol_text)
+        except ValueError as exc:
+            raise _err(src, f"{key}.tolerance", str(exc)) from None
+    rv = rw = None
+    rating_text = ""
+    if "rating" in body:
+        rating_text = _expect_str(src, f"{key}.rating", body["rating"])
+        try:
+            rv, rw = _values.parse_rating(rating_text)
+        except ValueError as exc:
+            raise _err(src, f"{key}.rating", str(exc)) from None
+    dnp = body.get("dnp", False)
+    if not isinstance(dnp, bool):
+        raise _err(src, f"{key}.dnp", "dnp must be true or false")
+    extra = tuple(sorted(
+        (k, _expect_str(src, f"{key}.{k}", body[k])) for k in _PASSTHROUGH if k in body
+    ))
+    return Part(
+        ref=ref, kind=kind.name, package=package.name, pins=pins, value=value, value_text=value_text,
+        tolerance=tol, tolerance_text=tol_text, rating_v=rv, rating_w=rw, rating_text=rating_text,
+        manufacturer=_expect_str(src, f"{key}.manufacturer", body.get("manufacturer", "")),
+        mpn=_expect_str(src, f"{key}.mpn", body.get("mpn", "")),
+        note=_expect_str(src, f"{key}.note", body.get("note", "")),
+        dnp=dnp, extra=extra, line=src.line(key) or 0,
+    )
+
+
+def _resolve_pin(src: TomlSource, key: str, text: str, by_ref: dict[str, Part]) -> PinRef:
+    if "." not in text:
+        raise _err(src, key, f"'{text}' is not a pin: write REF.PIN, e.g. R1.2 or U1.OUTA")
+    ref, pin = text.split(".", 1)
+    ref, pin = ref.strip(), pin.strip()
+    part = by_ref.get(ref)
+    if part is None:
+        close = [r for r in by_ref if r.lower() == ref.lower()]
+        hint = f"; did you mean {close[0]}?" if close else ""
+        raise _err(src, key, f"no part '{ref}' in the design{hint}", ref=text)
+    numbers = [p.number for p in part.pins]
+    if pin in numbers:
+        return PinRef(ref, pin)
+    named = [p.number for p in part.pins if p.name == pin]
+    if not named:
+        named = [p.number for p in part.pins if p.name.lower() == pin.lower()]
+    if len(named) == 1:
+        return PinRef(ref, named[0])
+    if len(named) > 1:
+        raise _err(src, key, f"{part.ref} has several pins named '{pin}' (numbers {', '.join(named)}): use the number", ref=text)
+    choices = ", ".join(f"{p.number} {p.name}" if p.name != p.number else p.number for p in part.pins)
+    raise _err(src, key, f"{part.ref} ({part.kind}, {part.package}) has no pin '{pin}'; its pins are: {choices}", ref=text)
+
+
+def _read_net(src: TomlSource, name: str, pins_raw: Any, by_ref: dict[str, Part],
+              volt: tuple[float | None, float | None, bool] | None, warnings: list[Finding]) -> Net:
+    key = f"nets.{name}"
+    if not _NET_RE.match(name):
+        raise _err(src, key, f"net name '{name}' must not be empty or contain spaces, quotes, commas or semicolons")
+    if not isinstance(pins_raw, list):
+        raise _err(src, key, "a net is a list of pins, e.g. GND = [\"R1.2\", \"U1.4\"]")
+    pins: list[PinRef] = []
+    for item in pins_raw:
+        if not isinstance(item, str):
+            raise _err(src, key, f"pins are written as text \"REF.PIN\", found {item!r}")
+        pr = _resolve_pin(src, key, item, by_ref)
+        if pr in pins:
+            warnings.append(Finding("warning", "design.duplicate-pin", (name, str(pr)),
+                                    f"{src.display}: net {name} lists {pr} twice; it is counted once."))
+            continue
+        pins.append(pr)
+    v, vmax, bat = volt if volt else (None, None, False)
+    return Net(name=name, pins=tuple(pins), voltage=v, voltage_max=vmax, battery=bat, line=src.line(key) or 0)
+
+
+def _read_voltages(src: TomlSource, table: dict, nets: dict) -> dict[str, tuple[float | None, float | None, bool]]:
+    out = {}
+    for name, spec in table.items():
+        key = f"voltages.{name}"
+        if name not in nets:
+            raise _err(src, key, f"no net '{name}' in [nets]")
+        if isinstance(spec, dict):
+            _unknown(src, key, spec, ("nominal", "max", "battery"))
+            nominal = _volts(src, f"{key}.nominal", spec["nominal"]) if "nominal" in spec else None
+            vmax = _volts(src, f"{key}.max", spec["max"]) if "max" in spec else None
+            bat = spec.get("battery", False)
+            if not isinstance(bat, bool):
+                raise _err(src, f"{key}.battery", "battery must be true or false")
+            if nominal is None and vmax is None:
+                raise _err(src, key, "give nominal = \"...V\" and/or max = \"...V\"")
+        else:
+            nominal, vmax, bat = _volts(src, key, spec), None, False
+        out[name] = (nominal, vmax, bat)
+    return out
+
+
+def _volts(src: TomlSource, key: str, spec: Any) -> float:
+    if isinstance(spec, bool):
+        raise _err(src, key, "expected a voltage such as \"3.3V\"")
+    if isinstance(spec, (int, float)):
+        return float(spec)
+    text = _expect_str(src, key, spec)
+    t = text.rstrip()
+    if t[-1:] in "vV":
+        t = t[:-1]
+    try:
+        neg = t.strip().startswith("-")
+        v = _values.parse_value(t.strip().lstrip("-"), "")
+    except ValueError:
+        raise _err(src, key, f"'{text}' is not a voltage; write e.g. \"3.3V\" or \"-5V\"") from None
+    return -v if neg else v

@@ -1,0 +1,140 @@
+"""Stage 2: the connectivity graph, built once and queried by later stages.
+
+Entry point: :func:`build_graph`. The graph is a bipartite
+:class:`networkx.MultiGraph`: one node per part, ``("part", ref)``, one
+node per net, ``("net", name)``, and one edge per connected pin, keyed by
+the pin number, carrying ``pin``, ``pin_name`` and ``role``. A pin listed on
+two nets gives two edges from its part (that is a check finding, not a
+reader error, so the graph must be able to hold it).
+
+The queries are plain functions over the graph, in the manner of networkx
+algorithms; each costs O(degree) of the node it starts from except
+:func:`connected_groups`, O(V + E).
+
+Examples
+--------
+>>> from pipeline.model import Design, Part, PinDef, Net, PinRef
+>>> pins = (PinDef("1", "1", "passive"), PinDef("2", "2", "passive"))
+>>> d = Design("x", "A", "x.toml",
+...     parts=(Part("R1", "resistor", "0603", pins), Part("R2", "resistor", "0603", pins)),
+...     nets=(Net("IN", (PinRef("R1", "1"),)), Net("MID", (PinRef("R1", "2"), PinRef("R2", "1")))))
+>>> g = build_graph(d)
+>>> parts_on_net(g, "MID")
+['R1', 'R2']
+>>> nets_of_part(g, "R1")
+['IN', 'MID']
+>>> pin_count(g, "IN")
+1
+>>> unconnected_pins(g, "R2")
+['2']
+"""
+
+from __future__ import annotations
+
+import re
+
+import networkx as nx
+
+from .model import Design
+
+__all__ = [
+    "build_graph",
+    "part_node",
+    "net_node",
+    "parts_on_net",
+    "nets_of_part",
+    "pins_on_net",
+    "pin_count",
+    "pin_nets",
+    "unconnected_pins",
+    "connected_groups",
+    "natural_key",
+]
+
+
+def natural_key(text: str) -> tuple:
+    """Sort key putting R2 before R10 and U1.2 before U1.10.
+
+    >>> sorted(["R10", "R2", "C1", "R1"], key=natural_key)
+    ['C1', 'R1', 'R2', 'R10']
+    """
+    return tuple((0, int(t), "") if t.isdigit() else (1, 0, t.lower() + "\0" + t)
+                 for t in re.split(r"(\d+)", text) if t != "")
+
+
+def part_node(ref: str) -> tuple[str, str]:
+    return ("part", ref)
+
+
+def net_node(name: str) -> tuple[str, str]:
+    return ("net", name)
+
+
+def build_graph(design: Design) -> nx.MultiGraph:
+    """Build the part-net graph of ``design``.
+
+    Part nodes carry ``kind``, ``package``, ``dnp`` and ``pins`` (the
+    kind's :class:`~pipeline.model.PinDef` tuple); net nodes carry
+    ``voltage``. Cost O(parts + pins).
+    """
+    g = nx.MultiGraph(design=design.name)
+    for p in design.parts:
+        g.add_node(part_node(p.ref), kind=p.kind, package=p.package, dnp=p.dnp, pins=p.pins)
+    for n in design.nets:
+        g.add_node(net_node(n.name), voltage=n.voltage)
+        for pr in n.pins:
+            part = design.part(pr.ref)
+            pd = part.pin(pr.pin)
+            g.add_edge(part_node(pr.ref), net_node(n.name), key=pr.pin, pin=pr.pin,
+                       pin_name=pd.name, role=pd.role)
+    return g
+
+
+def parts_on_net(g: nx.MultiGraph, net: str) -> list[str]:
+    """Refs of the parts with a pin on ``net``, natural order, each once."""
+    return sorted({n[1] for n in g.neighbors(net_node(net))}, key=natural_key)
+
+
+def nets_of_part(g: nx.MultiGraph, ref: str) -> list[str]:
+    """Names of the nets ``ref`` touches, natural order, each once."""
+    return sorted({n[1] for n in g.neighbors(part_node(ref))}, key=natural_key)
+
+
+def pins_on_net(g: nx.MultiGraph, net: str) -> list[tuple[str, str, str]]:
+    """``(ref, pin, role)`` of every pin on ``net``, natural order."""
+    out = [(u[1] if u[0] == "part" else v[1], d["pin"], d["role"])
+           for u, v, d in g.edges(net_node(net), data=True)]
+    return sorted(out, key=lambda t: (natural_key(t[0]), natural_key(t[1])))
+
+
+def pin_count(g: nx.MultiGraph, net: str) -> int:
+    """Number of pins on ``net``."""
+    return g.degree(net_node(net))
+
+
+def pin_nets(g: nx.MultiGraph, ref: str) -> dict[str, list[str]]:
+    """Pin number -> nets it is on, for every connected pin of ``ref``."""
+    out: dict[str, list[str]] = {}
+    for _, net, d in g.edges(part_node(ref), data=True):
+        out.setdefault(d["pin"], []).append(net[1])
+    return {k: sorted(v, key=natural_key) for k, v in sorted(out.items(), key=lambda kv: natural_key(kv[0]))}
+
+
+def unconnected_pins(g: nx.MultiGraph, ref: str) -> list[str]:
+    """Pin numbers of ``ref`` on no net, natural order."""
+    connected = {d["pin"] for _, _, d in g.edges(part_node(ref), data=True)}
+    return [p.number for p in g.nodes[part_node(ref)]["pins"] if p.number not in connected]
+
+
+def connected_groups(g: nx.MultiGraph) -> list[list[str]]:
+    """Groups of part refs joined through nets, largest first then by first ref.
+
+    Method: connected components of the bipartite graph (breadth-first
+    search), O(V + E); net nodes are dropped from the result.
+    """
+    groups = []
+    for comp in nx.connected_components(g):
+        refs = sorted((n[1] for n in comp if n[0] == "part"), key=natural_key)
+        if refs:
+            groups.append(refs)
+    return sorted(groups, key=lambda r: (-len(r), natural_key(r[0])))

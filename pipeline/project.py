@@ -1,0 +1,368 @@
+"""Read ``project.toml`` and run the stages in order.
+
+Entry points: :func:`load_project` (the project file to a frozen
+:class:`Project`), :func:`run` (every stage, then all outputs written at
+once) and :func:`check_design` (a design file alone: read, graph, checks).
+
+Nothing here prints or exits; :mod:`pipeline.cli` shows the
+:class:`RunResult`. Bad input raises :class:`~pipeline.errors.InputError`
+before any output is written (outputs are collected in memory and written
+by :func:`pipeline.export.atomic.write_all`).
+
+The keys of ``project.toml`` (CONTRACT section 1, extended; README.md
+documents them):
+
+=========  ====================================================================
+table      keys (default)
+=========  ====================================================================
+project    name, design, cavity, parts_map
+board      layers (2), thickness_mm (0.8), sides (1), density ("nominal"),
+           edge_clearance_mm (0.5), wall_clearance_mm (0.3),
+           outline ("region" or "rectangle"), min_inside_radius_mm (0.5)
+cavity     depth_mm (5.0), units ("mm"), layers (role map), chord_tolerance_mm (0.02)
+order      boards (1), spares_percent (0), min_spares (0), multiple (1)
+analysis   draws (10000), seed (1)
+=========  ====================================================================
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import os
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Callable
+
+from .errors import ProjectError
+from .model import BoardOptions, Design, FitResult, Finding, OrderOptions
+from .tomlsrc import TomlSource, load
+
+__all__ = ["Project", "RunResult", "load_project", "run", "check_design", "read_any_design",
+           "SPICE_SUFFIXES", "UNITS"]
+
+SPICE_SUFFIXES = (".cir", ".sp", ".spice", ".net")
+UNITS = ("mm", "cm", "m", "inch", "in", "foot", "ft", "mil", "um")
+DENSITIES = ("most", "nominal", "least")
+STANDARD_THICKNESS = (0.4, 0.6, 0.8, 1.0, 1.2, 1.6, 2.0)  # REFERENCES.md section 4, common practice
+
+Progress = Callable[[str, float], None]
+
+_KEYS: dict[str, tuple[str, ...]] = {
+    "project": ("name", "design", "cavity", "parts_map"),
+    "board": ("layers", "thickness_mm", "sides", "density", "edge_clearance_mm", "wall_clearance_mm",
+              "outline", "min_inside_radius_mm"),
+    "cavity": ("depth_mm", "units", "layers", "chord_tolerance_mm"),
+    "order": ("boards", "spares_percent", "min_spares", "multiple"),
+    "analysis": ("draws", "seed"),
+}
+
+
+@dataclass(frozen=True)
+class Project:
+    """Everything ``project.toml`` (and the command line) says.
+
+    Paths are resolved; ``shown`` maps each to the text the user wrote.
+    """
+
+    name: str
+    root: Path
+    file: str
+    design_path: Path
+    design_shown: str
+    cavity_path: Path | None
+    cavity_shown: str
+    parts_map: Path | None
+    out_dir: Path
+    board: BoardOptions
+    order: OrderOptions
+    depth_mm: float = 5.0
+    units: str = "mm"
+    layer_map: Any = None
+    chord_tolerance_mm: float = 0.02
+    draws: int = 10000
+    seed: int = 1
+    warnings: tuple[Finding, ...] = ()
+
+
+@dataclass(frozen=True)
+class RunResult:
+    """What a run produced: findings, the fit, stage reports, written files."""
+
+    design: Design
+    findings: tuple[Finding, ...]
+    fit: FitResult | None
+    exit_status: int
+    written: tuple[Path, ...] = ()
+    stage_reports: tuple[Any, ...] = ()
+    sweep: Any = None
+    fit_json: dict = field(default_factory=dict)
+
+
+# --------------------------------------------------------------------------
+def _num(src: TomlSource, key: str, v: Any, *, integer: bool = False, lo: float | None = None,
+         hi: float | None = None, lo_open: bool = False) -> Any:
+    if isinstance(v, bool) or not isinstance(v, (int, float)) or (integer and not isinstance(v, int)):
+        raise src.error(key, f"expected {'a whole number' if integer else 'a number'}, found {v!r}", ProjectError)
+    if lo is not None and (v < lo or (lo_open and v == lo)):
+        raise src.error(key, f"must be {'above' if lo_open else 'at least'} {lo:g}, found {v!r}", ProjectError)
+    if hi is not None and v > hi:
+        raise src.error(key, f"must be at most {hi:g}, found {v!r}", ProjectError)
+    return v
+
+
+def _text(src: TomlSource, key: str, v: Any, choices: tuple[str, ...] | None = None) -> str:
+    if not isinstance(v, str) or not v.strip():
+        raise src.error(key, f"expected text, found {v!r}", ProjectError)
+    if choices and v not in choices:
+        raise src.error(key, f"'{v}' is not one of: {', '.join(choices)}", ProjectError)
+    return v
+
+
+def _shown(p: Path) -> str:
+    """A path as shown in messages: relative to the working folder when inside it."""
+    try:
+        return os.path.relpath(p)
+    except ValueError:  # another drive
+        return str(p)
+
+
+def load_project(
+    project_dir: str | os.PathLike,
+    *,
+    design: str | None = None,
+    cavity: str | None = None,
+    out: str | None = None,
+) -> Project:
+    """Read ``PROJECT_DIR/project.toml`` with the command line's overrides.
+
+    ``design`` / ``cavity`` / ``out`` are paths as typed on the command
+    line (relative to the working folder); keys in the file are relative to
+    the file.
+    """
+    root = Path(project_dir)
+    if not root.is_dir():
+        raise ProjectError(str(project_dir), "not a folder: give the project folder that holds project.toml")
+    pfile = root / "project.toml"
+    src = load(pfile, _shown(pfile), ProjectError)
+    data = src.data
+    warnings: list[Finding] = []
+    for table, body in data.items():
+        if table not in _KEYS:
+            raise src.error(table, f"unknown table [{table}]; expected one of: {', '.join(_KEYS)}", ProjectError)
+        if not isinstance(body, dict):
+            raise src.error(table, f"[{table}] must be a table", ProjectError)
+        for k in body:
+            if k not in _KEYS[table]:
+                raise src.error(f"{table}.{k}", f"unknown key '{k}' in [{table}]; expected one of: "
+                                f"{', '.join(_KEYS[table])}", ProjectError)
+    pj = data.get("project", {})
+    bd = data.get("board", {})
+    cv = data.get("cavity", {})
+    od = data.get("order", {})
+    an = data.get("analysis", {})
+
+    def rel(key: str, value: Any) -> Path:
+        return (root / _text(src, key, value)).resolve()
+
+    if design is not None:
+        design_path, design_shown = Path(design).resolve(), design
+    elif "design" in pj:
+        design_path = rel("project.design", pj["design"])
+        design_shown = _shown(design_path)
+    else:
+        raise src.error("project.design", "no design: set [project] design = \"design.toml\" or pass --design",
+                        ProjectError)
+    if cavity is not None:
+        cavity_path, cavity_shown = Path(cavity).resolve(), cavity
+    elif "cavity" in pj:
+        cavity_path = rel("project.cavity", pj["cavity"])
+        cavity_shown = _shown(cavity_path)
+    else:
+        cavity_path, cavity_shown = None, ""
+    parts_map = rel("project.parts_map", pj["parts_map"]) if "parts_map" in pj else None
+
+    b = BoardOptions()
+    board = BoardOptions(
+        layers=_num(src, "board.layers", bd.get("layers", b.layers), integer=True, lo=1, hi=64),
+        thickness_mm=float(_num(src, "board.thickness_mm", bd.get("thickness_mm", b.thickness_mm), lo=0, lo_open=True, hi=10)),
+        sides=_num(src, "board.sides", bd.get("sides", b.sides), integer=True, lo=1, hi=2),
+        density=_text(src, "board.density", bd.get("density", b.density), DENSITIES),
+        edge_clearance_mm=float(_num(src, "board.edge_clearance_mm", bd.get("edge_clearance_mm", b.edge_clearance_mm), lo=0, hi=50)),
+        wall_clearance_mm=float(_num(src, "board.wall_clearance_mm", bd.get("wall_clearance_mm", b.wall_clearance_mm), lo=0, hi=50)),
+        outline=_text(src, "board.outline", bd.get("outline", b.outline), ("region", "rectangle")),
+        min_inside_radius_mm=float(_num(src, "board.min_inside_radius_mm", bd.get("min_inside_radius_mm", b.min_inside_radius_mm), lo=0, hi=50)),
+    )
+    if not any(abs(board.thickness_mm - t) < 1e-9 for t in STANDARD_THICKNESS):
+        warnings.append(Finding("warning", "project.thickness", ("board.thickness_mm",),
+                                f"{src.display}: board thickness {board.thickness_mm:g} mm is not a common stock thickness "
+                                f"({', '.join(f'{t:g}' for t in STANDARD_THICKNESS)} mm); check your fabricator offers it."))
+    o = OrderOptions()
+    order = OrderOptions(
+        boards=_num(src, "order.boards", od.get("boards", o.boards), integer=True, lo=1),
+        spares_percent=float(_num(src, "order.spares_percent", od.get("spares_percent", o.spares_percent), lo=0, hi=1000)),
+        min_spares=_num(src, "order.min_spares", od.get("min_spares", o.min_spares), integer=True, lo=0),
+        multiple=_num(src, "order.multiple", od.get("multiple", o.multiple), integer=True, lo=1),
+    )
+    layer_map = cv.get("layers")
+    if layer_map is not None and not isinstance(layer_map, dict):
+        raise src.error("cavity.layers", "expected a table such as { CAVITY = \"Outline\", KEEPOUT = [\"Bosses\"] }",
+                        ProjectError)
+    out_dir = Path(out).resolve() if out is not None else (root / "out").resolve()
+    return Project(
+        name=_text(src, "project.name", pj.get("name", root.resolve().name or "project")),
+        root=root.resolve(),
+        file=src.display,
+        design_path=design_path,
+        design_shown=design_shown,
+        cavity_path=cavity_path,
+        cavity_shown=cavity_shown,
+        parts_map=parts_map,
+        out_dir=out_dir,
+        board=board,
+        order=order,
+        depth_mm=float(_num(src, "cavity.depth_mm", cv.get("depth_mm", 5.0), lo=0, lo_open=True, hi=1000)),
+        units=_text(src, "cavity.units", cv.get("units", "mm"), UNITS),
+        layer_map=layer_map,
+        chord_tolerance_mm=float(_num(src, "cavity.chord_tolerance_mm", cv.get("chord_tolerance_mm", 0.02),
+                                      lo=0, lo_open=True, hi=5)),
+        draws=_num(src, "analysis.draws", an.get("draws", 10000), integer=True, lo=100, hi=1_000_000),
+        seed=_num(src, "analysis.seed", an.get("seed", 1), integer=True, lo=0),
+        warnings=tuple(warnings),
+    )
+
+
+# --------------------------------------------------------------------------
+def read_any_design(path: Path, library: Any, *, shown: str, parts_map: Path | None = None,
+                    root: Path | None = None) -> tuple[Design, list[Finding]]:
+    """Read a TOML design or, by its ending, a SPICE netlist."""
+    if path.suffix.lower() in SPICE_SUFFIXES:
+        from .spice import read_spice
+        return read_spice(path, library, display_name=shown, parts_map=parts_map,
+                          root=root if root is not None else path.parent)
+    from .design import read_design
+    return read_design(path, library, display=shown)
+
+
+def _categories(design: Design, library: Any) -> dict[str, str]:
+    return {p.kind: library.kind(p.kind).category for p in design.parts}
+
+
+def check_design(path: Path, *, shown: str | None = None, parts_map: Path | None = None,
+                 root: Path | None = None) -> tuple[Design, tuple[Finding, ...]]:
+    """Read a design file alone and run the connection and value checks."""
+    from .check import check_connections
+    from .graph import build_graph
+    from .library import load_library
+    from .ratings import check_values
+
+    library = load_library()
+    design, warnings = read_any_design(Path(path), library, shown=shown or str(path), parts_map=parts_map, root=root)
+    lib = library.with_kinds(design.kinds)
+    g = build_graph(design)
+    findings = (*warnings, *check_connections(design, g, _categories(design, lib)), *check_values(design))
+    return design, tuple(findings)
+
+
+def _source_date_epoch() -> int | None:
+    v = os.environ.get("SOURCE_DATE_EPOCH")
+    if v is None or not v.strip():
+        return None
+    try:
+        return int(v)
+    except ValueError:
+        raise ProjectError("SOURCE_DATE_EPOCH", f"must be a whole number of seconds, found {v!r}") from None
+
+
+def run(project: Project, *, progress: Progress | None = None, sweep: bool = False) -> RunResult:
+    """Run every stage of ``project`` and write all its outputs at once.
+
+    Order: design -> graph -> connection checks -> value and rating checks ->
+    declared stages -> (with a cavity) cavity -> region -> area -> placement
+    and outline -> outputs. Raises :class:`~pipeline.errors.InputError` on bad
+    input, before anything is written.
+    """
+    from .check import check_connections
+    from .export import atomic, bom, edif, netlist, results
+    from .export import spice as spice_out
+    from .graph import build_graph
+    from .library import load_library
+    from .ratings import check_values
+    from .stages import analyse_stages, stage_sections
+
+    timestamp = _source_date_epoch()
+    library = load_library()
+    design, warnings = read_any_design(project.design_path, library, shown=project.design_shown,
+                                       parts_map=project.parts_map, root=project.root)
+    lib = library.with_kinds(design.kinds)
+    g = build_graph(design)
+    findings: list[Finding] = [*project.warnings, *warnings]
+    findings += check_connections(design, g, _categories(design, lib))
+    findings += check_values(design)
+    reports, stage_findings = analyse_stages(design, draws=project.draws, seed=project.seed, progress=progress)
+    findings += stage_findings
+
+    files: dict[str, bytes] = {}
+    files.update(bom.bom_files(design, project.order))
+    files["netlist.csv"] = netlist.netlist_csv(design)
+    files["netlist.json"] = netlist.netlist_json(design)
+    files["netlist.edf"] = edif.edif_netlist(design, timestamp=timestamp)
+    files["design.cir"] = spice_out.spice_netlist(design)
+
+    fit = None
+    sweep_result = None
+    fit_json: dict = {}
+    sections = list(stage_sections(reports))
+    svg = None
+    if project.cavity_path is not None:
+        from .area import items_from_design
+        from .cavity import read_cavity
+        from .export import dxf as dxf_out
+        from .export import svg as svg_out
+        from .place import place_and_fit
+        from .region import usable_region
+
+        cavity, cw = read_cavity(project.cavity_path, display_name=project.cavity_shown,
+                                 layer_map=project.layer_map, default_units=project.units,
+                                 depth_mm=project.depth_mm, chord_tol_mm=project.chord_tolerance_mm)
+        region, rw = usable_region(cavity, project.board)
+        items = items_from_design(design, lib, project.board.density)
+        fit = place_and_fit(items, region, project.board, user_board=cavity.board, progress=progress)
+        fit = dataclasses.replace(fit, warnings=(*cw, *rw, *fit.warnings))
+        findings += [*cw, *rw]
+        findings += _fit_findings(fit)
+        extra: dict[str, Any] = {}
+        if sweep:
+            from .sweep import sweep_sizes
+            sweep_result = sweep_sizes(design, lib, region, project.board, progress=progress)
+            extra["passive_sizes"] = sweep_result.to_dict()
+        fit_json = results.fit_dict(fit, extra)
+        files["fit.json"] = results.dump_json(fit_json)
+        svg = svg_out.fit_svg(cavity, region, fit, title=design.name)
+        files["fit.svg"] = svg
+        if fit.board_outline is not None and not fit.board_outline.is_empty:
+            files["board-outline.dxf"] = dxf_out.board_outline_dxf(fit.board_outline)
+    else:
+        findings.append(Finding("info", "fit.no-cavity", (),
+                                "No cavity drawing given: the fit was not checked. Set [project] cavity or pass --cavity."))
+
+    files["findings.json"] = results.findings_json(findings)
+    from .export import report as report_out
+    files["report.html"] = report_out.report_html(title=f"{design.name} {design.revision}".strip(), fit=fit,
+                                                  findings=findings, fit_svg=svg, sections=sections)
+    errors = any(f.severity == "error" for f in findings)
+    status = 1 if errors or (fit is not None and not fit.fits) else 0
+    protect = [project.design_path, project.root / "project.toml"]
+    if project.cavity_path is not None:
+        protect.append(project.cavity_path)
+    if project.parts_map is not None:
+        protect.append(project.parts_map)
+    written = atomic.write_all(project.out_dir, files, protect=protect)
+    return RunResult(design=design, findings=tuple(findings), fit=fit, exit_status=status,
+                     written=tuple(written), stage_reports=tuple(reports), sweep=sweep_result, fit_json=fit_json)
+
+
+def _fit_findings(fit: FitResult) -> list[Finding]:
+    if fit.fits:
+        return [Finding("info", "fit.fits", (), f"All {len(fit.placements)} fitted parts are placed inside the cavity.")]
+    return [Finding("error", "fit.blocked", tuple(fit.unplaced), reason) for reason in fit.blocked_by] or [
+        Finding("error", "fit.blocked", tuple(fit.unplaced), "The parts do not fit in the cavity.")]

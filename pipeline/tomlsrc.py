@@ -1,0 +1,177 @@
+"""Read a TOML file and find the line each key stands on.
+
+:mod:`tomllib` gives values but no positions. Messages must name the line,
+so :func:`load` also scans the text for table headers and ``key =`` lines
+and keeps a map from dotted key path to line number. The scan follows the
+TOML grammar only as far as locating keys needs (headers, bare / quoted /
+dotted keys, multi-line strings and arrays are skipped over by tracking
+brackets and quotes); when it cannot place a key it falls back to the
+nearest enclosing table's line.
+
+Examples
+--------
+>>> src = TomlSource.from_text("a.toml", '[parts.R1]\\nkind = "resistor"\\nvalue = "10k"\\n')
+>>> src.data["parts"]["R1"]["value"]
+'10k'
+>>> src.line("parts.R1.value")
+3
+>>> src.line("parts.R1.package")   # missing key: the table's header line
+1
+"""
+
+from __future__ import annotations
+
+import re
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from .errors import InputError
+
+__all__ = ["TomlSource", "load"]
+
+_BARE = r"[A-Za-z0-9_\-]+"
+_QUOTED = r'"(?:[^"\\]|\\.)*"|\'[^\']*\''
+_KEYPART = rf"(?:{_BARE}|{_QUOTED})"
+_DOTTED = rf"{_KEYPART}(?:\s*\.\s*{_KEYPART})*"
+_HEADER_RE = re.compile(rf"^\s*\[(\[)?\s*({_DOTTED})\s*\]?\]\s*(?:#.*)?$")
+_KEY_RE = re.compile(rf"^\s*({_DOTTED})\s*=")
+_PART_RE = re.compile(rf"\s*({_KEYPART})\s*(?:\.|$)")
+
+
+def _split_dotted(text: str) -> list[str]:
+    out = []
+    pos = 0
+    while pos < len(text):
+        m = _PART_RE.match(text, pos)
+        if not m:
+            break
+        k = m.group(1)
+        if k[0] in "\"'":
+            k = k[1:-1]
+        out.append(k)
+        pos = m.end()
+    return out
+
+
+def _scan_lines(text: str) -> dict[str, int]:
+    """Map dotted key paths to 1-based line numbers (first occurrence)."""
+    lines: dict[str, int] = {}
+    table: list[str] = []
+    depth = 0  # bracket / brace depth of an unfinished value
+    in_ml: str | None = None  # inside a multi-line string: its delimiter
+    array_counts: dict[str, int] = {}
+    for no, raw in enumerate(text.splitlines(), start=1):
+        line = raw
+        if in_ml:
+            if in_ml in line:
+                in_ml = None
+            continue
+        if depth == 0:
+            h = _HEADER_RE.match(line)
+            if h:
+                keys = _split_dotted(h.group(2))
+                path = ".".join(keys)
+                if h.group(1):  # [[array of tables]]
+                    n = array_counts.get(path, 0)
+                    array_counts[path] = n + 1
+                    path = f"{path}.{n}"
+                    keys = path.split(".")
+                table = keys
+                lines.setdefault(path, no)
+                continue
+            k = _KEY_RE.match(line)
+            if k:
+                keys = table + _split_dotted(k.group(1))
+                lines.setdefault(".".join(keys), no)
+                rest = line[k.end():]
+            else:
+                rest = line
+        else:
+            rest = line
+        # track multi-line strings and open brackets in the value part
+        i = 0
+        while i < len(rest):
+            c = rest[i]
+            if c == "#":
+                break
+            if rest.startswith('"""', i) or rest.startswith("'''", i):
+                delim = rest[i:i + 3]
+                j = rest.find(delim, i + 3)
+                if j < 0:
+                    in_ml = delim
+                    break
+                i = j + 3
+                continue
+            if c in "\"'":
+                j = i + 1
+                while j < len(rest) and rest[j] != c:
+                    j += 2 if (c == '"' and rest[j] == "\\") else 1
+                i = j + 1
+                continue
+            if c in "[{":
+                depth += 1
+            elif c in "]}":
+                depth = max(0, depth - 1)
+            i += 1
+    return lines
+
+
+@dataclass(frozen=True)
+class TomlSource:
+    """A parsed TOML file with key-to-line lookup.
+
+    ``display`` is the file name as shown to the user.
+    """
+
+    display: str
+    data: dict[str, Any]
+    lines: dict[str, int] = field(repr=False)
+
+    @classmethod
+    def from_text(cls, display: str, text: str, error: type[InputError] = InputError) -> "TomlSource":
+        try:
+            data = tomllib.loads(text)
+        except tomllib.TOMLDecodeError as exc:
+            msg = str(exc)
+            m = re.search(r"\(at line (\d+), column (\d+)\)", msg)
+            line = int(m.group(1)) if m else None
+            reason = re.sub(r"\s*\(at line \d+, column \d+\)", "", msg)
+            if m:
+                reason += f" (column {m.group(2)})"
+            raise error(display, f"not valid TOML: {reason}", line=line) from None
+        return cls(display, data, _scan_lines(text))
+
+    def line(self, key: str) -> int | None:
+        """Line of ``key`` (dotted path), or of its nearest enclosing key."""
+        parts = key.split(".")
+        while parts:
+            k = ".".join(parts)
+            if k in self.lines:
+                return self.lines[k]
+            parts.pop()
+        return None
+
+    def error(self, key: str, reason: str, cls: type[InputError] = InputError, **kw: Any) -> InputError:
+        """Build an error located at ``key`` (never raised here)."""
+        return cls(self.display, reason, line=self.line(key), key=key, **kw)
+
+
+def load(path: Path, display: str | None = None, error: type[InputError] = InputError) -> TomlSource:
+    """Read and parse ``path``; unreadable or malformed files raise ``error``."""
+    shown = display or str(path)
+    try:
+        raw = Path(path).read_bytes()
+    except FileNotFoundError:
+        raise error(shown, "file not found") from None
+    except IsADirectoryError:
+        raise error(shown, "is a folder, expected a file") from None
+    except OSError as exc:
+        raise error(shown, f"cannot read the file ({exc.strerror})") from None
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        line = raw[: exc.start].count(b"\n") + 1
+        raise error(shown, "not UTF-8 text", line=line) from None
+    return TomlSource.from_text(shown, text, error)

@@ -1,0 +1,146 @@
+"""Connectivity graph and connection checks, each check triggered by a small design."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import networkx as nx
+import pytest
+
+from pipeline.check import check_connections
+from pipeline.graph import (build_graph, connected_groups, natural_key, nets_of_part, parts_on_net,
+                            pin_count, pin_nets, pins_on_net)
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+def _run(design_from, library, text):
+    d, _ = design_from(text)
+    lib = library.with_kinds(d.kinds)
+    g = build_graph(d)
+    cats = {p.kind: lib.kind(p.kind).category for p in d.parts}
+    return d, g, check_connections(d, g, cats)
+
+
+# A clean buffered divider: an op-amp follower with decoupling, fed by a divider from a pad.
+CLEAN = """
+[parts.P1]
+kind = "wire-pad"
+package = "pad-1.5mm"
+[parts.P2]
+kind = "wire-pad"
+package = "pad-1.5mm"
+[parts.P3]
+kind = "wire-pad"
+package = "pad-1.5mm"
+[parts.R1]
+kind = "resistor"
+value = "10k"
+package = "0603"
+[parts.R2]
+kind = "resistor"
+value = "10k"
+package = "0603"
+[parts.C1]
+kind = "capacitor"
+value = "100n"
+package = "0603"
+[parts.U1]
+kind = "opamp-single"
+package = "SOT-23-5"
+[nets]
+VCC = ["P1.1", "R1.1", "U1.V+", "C1.1"]
+GND = ["P2.1", "R2.2", "U1.V-", "C1.2"]
+MID = ["R1.2", "R2.1", "U1.+IN"]
+OUT = ["U1.OUT", "U1.-IN", "P3.1"]
+"""
+
+
+def test_clean_design_has_no_findings(design_from, library):
+    _, _, f = _run(design_from, library, CLEAN)
+    assert f == ()
+
+
+def test_graph_queries(design_from, library):
+    d, g, _ = _run(design_from, library, CLEAN)
+    assert parts_on_net(g, "MID") == ["R1", "R2", "U1"]
+    assert nets_of_part(g, "U1") == ["GND", "MID", "OUT", "VCC"]
+    assert pin_count(g, "VCC") == 4
+    assert pins_on_net(g, "OUT") == [("P3", "1", "passive"), ("U1", "1", "output"), ("U1", "4", "input")]
+    assert connected_groups(g) == [["C1", "P1", "P2", "P3", "R1", "R2", "U1"]]
+    # Independent check of the bipartite structure with networkx's own algorithm.
+    assert nx.is_bipartite(g)
+    assert g.number_of_edges() == sum(len(n.pins) for n in d.nets)
+
+
+def _variant(old: str, new: str) -> str:
+    assert old in CLEAN
+    return CLEAN.replace(old, new)
+
+
+CASES = [
+    # (design text, expected check code, severity, subject that must appear)
+    (_variant('OUT = ["U1.OUT", "U1.-IN", "P3.1"]', 'OUT = ["U1.OUT", "U1.-IN"]\nLONE = ["P3.1"]'),
+     "connect.single-pin-net", "error", "LONE"),
+    (_variant('MID = ["R1.2", "R2.1", "U1.+IN"]', 'MID = ["R1.2", "R2.1"]'),
+     "connect.unconnected-pin", "error", "U1.3"),
+    (_variant('OUT = ["U1.OUT", "U1.-IN", "P3.1"]', 'OUT = ["U1.-IN", "P3.1"]'),
+     "connect.floating-output", "warning", "U1.1"),
+    (_variant('MID = ["R1.2", "R2.1", "U1.+IN"]', 'MID = ["R1.2", "R2.1"]\nX = ["U1.+IN", "U1.-IN"]')
+     .replace('"U1.OUT", "U1.-IN", "P3.1"', '"U1.OUT", "P3.1"'),
+     "connect.undriven-input", "error", "X"),
+    (_variant('OUT = ["U1.OUT", "U1.-IN", "P3.1"]', 'OUT = ["U1.OUT", "U1.-IN", "P3.1", "U2.OUT"]')
+     + '[parts.U2]\nkind = "opamp-single"\npackage = "SOT-23-5"\n',
+     "connect.output-conflict", "error", "U2.1"),
+    (_variant('GND = ["P2.1", "R2.2", "U1.V-", "C1.2"]', 'GND = ["P2.1", "R2.2", "C1.2"]')
+     .replace('"U1.V+", "C1.1"', '"U1.V+", "U1.V-", "C1.1"'),
+     "connect.supply-short", "error", "U1"),
+    (_variant('GND = ["P2.1", "R2.2", "U1.V-", "C1.2"]', 'GND = ["P2.1", "R2.2", "U1.V-", "C1.1"]')
+     .replace('"U1.V+", "C1.1"', '"U1.V+", "C1.2"'),
+     None, None, None),  # capacitor reversed is still across the supply: no finding
+    (_variant('GND = ["P2.1", "R2.2", "U1.V-", "C1.2"]', 'GND = ["P2.1", "R2.2", "U1.V-"]\nCX = ["C1.2", "R2.1"]'),
+     "connect.no-decoupling", "warning", "U1"),
+    (CLEAN + '[parts.R9]\nkind = "resistor"\nvalue = "1k"\npackage = "0603"\n',
+     "connect.unconnected-part", "error", "R9"),
+    (_variant('OUT = ["U1.OUT", "U1.-IN", "P3.1"]', 'OUT = ["U1.OUT", "U1.-IN", "P3.1"]\nout = ["R3.1", "R3.2"]')
+     + '[parts.R3]\nkind = "resistor"\nvalue = "1k"\npackage = "0603"\n',
+     "connect.case-clash", "warning", "out"),
+    (_variant('MID = ["R1.2", "R2.1", "U1.+IN"]', 'MID = ["R1.2", "R2.1", "U1.+IN"]\nSHORT = ["R1.2", "P3.1"]'),
+     "connect.pin-on-two-nets", "error", "R1.2"),
+    (_variant('OUT = ["U1.OUT", "U1.-IN", "P3.1"]', 'OUT = ["U1.OUT", "U1.-IN", "P3.1"]\nEMPTY = []'),
+     "connect.empty-net", "error", "EMPTY"),
+]
+
+
+@pytest.mark.parametrize("text, code, severity, subject", CASES)
+def test_each_check_fires(design_from, library, text, code, severity, subject):
+    _, _, found = _run(design_from, library, text)
+    if code is None:
+        assert found == ()
+        return
+    hits = [f for f in found if f.check == code]
+    assert hits, [f.check for f in found]
+    assert hits[0].severity == severity
+    assert subject in hits[0].subject
+    assert hits[0].message.endswith(".")
+
+
+def test_pin_on_two_nets_in_graph(design_from, library):
+    _, g, _ = _run(design_from, library, CASES[-2][0])
+    assert pin_nets(g, "R1")["2"] == ["MID", "SHORT"]
+
+
+def test_natural_order():
+    # Common practice for reference designators: numeric parts compare as numbers.
+    assert sorted(["R10", "R2", "R1", "C10", "C9", "U1"], key=natural_key) == ["C9", "C10", "R1", "R2", "R10", "U1"]
+
+
+def test_demo_design_is_clean(library):
+    from pipeline.design import read_design
+
+    d, w = read_design(ROOT / "demo_project" / "design.toml", library)
+    lib = library.with_kinds(d.kinds)
+    g = build_graph(d)
+    found = check_connections(d, g, {p.kind: lib.kind(p.kind).category for p in d.parts})
+    assert w == [] and found == (), found
+    assert 20 <= len(d.parts) <= 35

@@ -1,0 +1,177 @@
+"""Design reader: CONTRACT.md section 2 plus our extensions; every bad input located."""
+
+from __future__ import annotations
+
+import pytest
+
+from pipeline.errors import DesignError
+
+# A design written only from CONTRACT.md section 2 (not from the demo).
+CONTRACT_DESIGN = """
+[design]
+name = "contract example"
+revision = "A"
+
+[parts.R1]
+kind = "resistor"
+value = "10k"
+package = "0603"
+tolerance = "1%"
+rating = "0.1W"
+manufacturer = "Acme"
+mpn = "R-10K-0603"
+note = "pull-up"
+
+[parts.U1]
+kind = "opamp-single"
+package = "SOT-23-5"
+
+[parts.C1]
+kind = "capacitor"
+value = "100n"
+package = "0603"
+rating = "16V"
+
+[parts.R2]
+kind = "resistor"
+value = "4k7"
+package = "0402"
+dnp = true
+
+[nets]
+GND = ["R1.2", "U1.2", "C1.2", "R2.2"]
+VCC = ["U1.V+", "C1.1"]
+OUT = ["U1.OUT", "U1.-IN", "R1.1"]
+IN = ["U1.+IN", "R2.1"]
+"""
+
+
+def test_contract_design_reads(design_from):
+    d, warnings = design_from(CONTRACT_DESIGN)
+    assert warnings == []
+    assert d.name == "contract example" and d.revision == "A"
+    r1 = d.part("R1")
+    assert (r1.value, r1.tolerance, r1.rating_w, r1.rating_v) == (10_000.0, 0.01, 0.1, None)
+    assert (r1.manufacturer, r1.mpn, r1.note) == ("Acme", "R-10K-0603", "pull-up")
+    assert d.part("C1").rating_v == 16.0
+    assert d.part("R2").dnp and d.part("R2").value == 4700.0
+    # Pin names resolve to the contract's pin numbers (opamp-single: 1 OUT, 2 V-, 3 +IN, 4 -IN, 5 V+).
+    assert [str(p) for p in d.net("OUT").pins] == ["U1.1", "U1.4", "R1.1"]
+    assert [str(p) for p in d.net("VCC").pins] == ["U1.5", "C1.1"]
+    assert [str(p) for p in d.net("IN").pins] == ["U1.3", "R2.1"]
+
+
+def test_user_kind_and_pins_by_name(design_from):
+    d, _ = design_from("""
+[kinds.trigger-sensor]
+category = "ic"
+package = "SOT-23"
+pins = [ { number = 1, name = "VDD", role = "power-in" },
+         { number = 2, name = "OUT", role = "output" },
+         { number = 3, name = "GND", role = "power-in" } ]
+[parts.U7]
+kind = "trigger-sensor"
+[parts.C1]
+kind = "capacitor"
+value = "100nF"
+package = "0402"
+[nets]
+VDD = ["U7.VDD", "C1.1"]
+GND = ["U7.gnd", "C1.2"]
+""")
+    u7 = d.part("U7")
+    assert u7.package == "SOT-23" and [p.role for p in u7.pins] == ["power-in", "output", "power-in"]
+    assert [str(p) for p in d.net("GND").pins] == ["U7.3", "C1.2"]
+    assert d.kinds[0].name == "trigger-sensor"
+
+
+def test_header_pins_from_package_and_voltages_and_stages(design_from):
+    d, _ = design_from("""
+[parts.J1]
+kind = "header"
+package = "header-1x4-2.54"
+[parts.R1]
+kind = "resistor"
+value = "1R0"
+package = "0805"
+[nets]
+VBAT = ["J1.1", "R1.1"]
+GND = ["J1.4", "R1.2"]
+[voltages]
+VBAT = { nominal = "3.7V", max = "4.2V", battery = true }
+GND = "0V"
+[stages.lp]
+type = "rc-lowpass"
+parts = { R = "R1" }
+""")
+    assert [p.number for p in d.part("J1").pins] == ["1", "2", "3", "4"]
+    vb = d.net("VBAT")
+    assert (vb.voltage, vb.voltage_max, vb.battery) == (3.7, 4.2, True)
+    assert d.net("GND").voltage == 0.0
+    assert d.stages[0].name == "lp" and d.stages[0].get("type") == "rc-lowpass"
+    assert d.stages[0].key == "stages.lp" and d.stages[0].line > 0
+
+
+def test_duplicate_pin_in_net_warns(design_from):
+    d, w = design_from("""
+[parts.R1]
+kind = "resistor"
+value = "1k"
+package = "0603"
+[nets]
+A = ["R1.1", "R1.1"]
+B = ["R1.2"]
+""")
+    assert [str(p) for p in d.net("A").pins] == ["R1.1"]
+    assert w[0].check == "design.duplicate-pin"
+
+
+_OK_PART = '[parts.R1]\nkind = "resistor"\nvalue = "1k"\npackage = "0603"\n'
+
+# (text, expected line, substring of the message); each must name the key or pin.
+BAD = [
+    ('[parts.R1]\nkind = "resistor"\nvalue = "4x7"\npackage = "0603"\n', 3, "parts.R1.value"),
+    ('[parts.R1]\nkind = "resistor"\npackage = "0603"\n', 1, "needs a value"),
+    ('[parts.R1]\nkind = "resistr"\nvalue = "1k"\npackage = "0603"\n', 2, "parts.R1.kind"),
+    ('[parts.R1]\nkind = "resistor"\nvalue = "1k"\npackage = "0604"\n', 4, "parts.R1.package"),
+    ('[parts.R1]\nkind = "resistor"\nvalue = "1k"\n', 1, "needs a package"),
+    ('[parts.R1]\nkind = "resistor"\nvalue = "1k"\npackage = "0603"\ncolour = "blue"\n', 5, "unknown key 'colour'"),
+    ('[parts.R1]\nkind = "resistor"\nvalue = "1k"\npackage = "0603"\ntolerance = "lots"\n', 5, "parts.R1.tolerance"),
+    ('[parts.R1]\nkind = "resistor"\nvalue = "1k"\npackage = "0603"\nrating = "big"\n', 5, "parts.R1.rating"),
+    ('[parts.R1]\nkind = "resistor"\nvalue = "1k"\npackage = "0603"\ndnp = "yes"\n', 5, "dnp must be"),
+    (_OK_PART + '[nets]\nA = ["R9.1"]\n', 6, "no part 'R9'"),
+    (_OK_PART + '[nets]\nA = ["R1.3"]\n', 6, "has no pin '3'"),
+    (_OK_PART + '[nets]\nA = ["R1"]\n', 6, "REF.PIN"),
+    (_OK_PART + '[nets]\nA = "R1.1"\n', 6, "list of pins"),
+    (_OK_PART + '[nets]\n"A B" = ["R1.1"]\n', 6, "must not"),
+    (_OK_PART + '[nets]\nA = ["R1.1", "R1.2"]\n[voltages]\nB = "5V"\n', 8, "no net 'B'"),
+    (_OK_PART + '[nets]\nA = ["R1.1", "R1.2"]\n[voltages]\nA = "five"\n', 8, "not a voltage"),
+    (_OK_PART + '[wires]\nA = 1\n', 5, "unknown key 'wires'"),
+    ('[parts.1R]\nkind = "resistor"\nvalue = "1k"\npackage = "0603"\n', 1, "not a usable reference"),
+    ('[design]\nname = "x"\n', None, "no parts"),
+    ('[parts.R1\nkind = "resistor"\n', 1, "not valid TOML"),
+    ('[kinds.x]\npins = []\n' + _OK_PART, 1, "list of pins"),
+    ('[kinds.x]\npins = [ { number = 1, role = "sideways" } ]\n' + _OK_PART, 2, "unknown role"),
+    ('[kinds.resistor]\npins = [ { number = 1 } ]\n' + _OK_PART, 1, "already exists"),
+    ('[parts.U1]\nkind = "opamp-single"\npackage = "SOIC-8"\n', 3, "has 8 pins but kind opamp-single has 5"),
+]
+
+
+@pytest.mark.parametrize("text, line, needle", BAD, ids=[b[2] for b in BAD])
+def test_bad_design_is_located(design_from, text, line, needle):
+    with pytest.raises(DesignError) as ei:
+        design_from(text, display="bad.toml")
+    msg = str(ei.value)
+    assert msg.startswith("bad.toml"), msg
+    assert needle in msg, msg
+    assert ei.value.line == line, msg
+
+
+def test_missing_file_is_input_error(library, tmp_path):
+    from pipeline.design import read_design
+
+    with pytest.raises(DesignError, match="file not found"):
+        read_design(tmp_path / "nope.toml", library, display="nope.toml")
+    (tmp_path / "bin.toml").write_bytes(b"\xff\xfe[parts]")
+    with pytest.raises(DesignError, match="not UTF-8"):
+        read_design(tmp_path / "bin.toml", library, display="bin.toml")
