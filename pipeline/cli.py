@@ -40,6 +40,10 @@ class _Group(click.Group):
             ctx.exit(exc.exit_status)
         except (click.exceptions.Exit, click.exceptions.Abort, click.ClickException):
             raise
+        except BrokenPipeError:  # output piped into `head` and closed: not an error
+            devnull = os.open(os.devnull, os.O_WRONLY)
+            os.dup2(devnull, sys.stdout.fileno())
+            ctx.exit(0)
         except Exception as exc:  # a bug, not bad input
             if os.environ.get("SNUGBOARD_DEBUG"):
                 raise
@@ -68,8 +72,11 @@ class _Progress:
             click.echo("\r" + " " * 60 + "\r", err=True, nl=False)
 
 
-def _echo_findings(findings, err: bool) -> None:
+def _echo_findings(findings, err: bool, verbose: bool = False) -> None:
+    """Errors and warnings always; notes (info) only with --verbose."""
     for f in findings:
+        if f.severity == "info" and not verbose:
+            continue
         subj = f" [{', '.join(f.subject)}]" if f.subject else ""
         click.echo(f"{_SEV_MARK[f.severity]}: {f.message}{subj}", err=err)
 
@@ -93,9 +100,10 @@ def main() -> None:
 @click.option("--out", "out", metavar="DIR", help="Output folder (default PROJECT_DIR/out).")
 @click.option("--sweep", is_flag=True, help="Also re-run the fit with every two-terminal passive at 0201..1206.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object to stdout; human text to stderr.")
+@click.option("-v", "--verbose", is_flag=True, help="Also show notes (info findings).")
 @click.pass_context
 def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: str | None, out: str | None,
-            sweep: bool, as_json: bool) -> None:
+            sweep: bool, as_json: bool, verbose: bool) -> None:
     """Read PROJECT_DIR/project.toml, check the design, fit it in the cavity, write the outputs."""
     from .project import load_project, run
 
@@ -107,7 +115,7 @@ def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: st
     finally:
         progress.done()
     err = as_json
-    _echo_findings(result.findings, err)
+    _echo_findings(result.findings, err, verbose)
     for rep in result.stage_reports:
         click.echo(rep.summary() if hasattr(rep, "summary") else str(rep), err=err)
     if result.sweep is not None:
@@ -131,8 +139,9 @@ def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: st
 @click.argument("design_file", type=click.Path(dir_okay=False))
 @click.option("--parts-map", metavar="FILE", help="Parts map for a SPICE design (kinds and packages).")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object to stdout.")
+@click.option("-v", "--verbose", is_flag=True, help="Also show notes (info findings).")
 @click.pass_context
-def check_cmd(ctx: click.Context, design_file: str, parts_map: str | None, as_json: bool) -> None:
+def check_cmd(ctx: click.Context, design_file: str, parts_map: str | None, as_json: bool, verbose: bool) -> None:
     """Check a design file alone: read it, build the graph, run the connection and value checks."""
     from pathlib import Path
 
@@ -147,7 +156,7 @@ def check_cmd(ctx: click.Context, design_file: str, parts_map: str | None, as_js
         click.echo(json.dumps({"exit_status": status, "findings": findings_list(findings), "fit": None},
                               indent=2, ensure_ascii=False))
     else:
-        _echo_findings(findings, False)
+        _echo_findings(findings, False, verbose)
         click.echo(f"{design.name}: {len(design.parts)} parts, {len(design.nets)} nets; {_counts(findings)}")
     ctx.exit(status)
 
@@ -214,3 +223,7 @@ def kinds_cmd(ctx: click.Context, names: tuple[str, ...], as_json: bool) -> None
         pins = "pins 1..N from the package" if k.pins_from_package else \
             ", ".join(f"{p.number} {p.name} ({p.role})" for p in k.pins)
         click.echo(f"{k.name:<22}{k.category:<14}{pins}")
+
+
+if __name__ == "__main__":  # python -m pipeline.cli
+    main()

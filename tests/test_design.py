@@ -150,7 +150,7 @@ BAD = [
     ('[parts.1R]\nkind = "resistor"\nvalue = "1k"\npackage = "0603"\n', 1, "not a usable reference"),
     ('[design]\nname = "x"\n', None, "no parts"),
     ('[parts.R1\nkind = "resistor"\n', 1, "not valid TOML"),
-    ('[kinds.x]\npins = []\n' + _OK_PART, 1, "list of pins"),
+    ('[kinds.x]\npins = []\n' + _OK_PART, 2, "list of pins"),
     ('[kinds.x]\npins = [ { number = 1, role = "sideways" } ]\n' + _OK_PART, 2, "unknown role"),
     ('[kinds.resistor]\npins = [ { number = 1 } ]\n' + _OK_PART, 1, "already exists"),
     ('[parts.U1]\nkind = "opamp-single"\npackage = "SOIC-8"\n', 3, "has 8 pins but kind opamp-single has 5"),

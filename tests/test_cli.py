@@ -1,0 +1,167 @@
+"""The command line through click's runner: exit codes, --json, bad input, no half-written output."""
+
+from __future__ import annotations
+
+import json
+import re
+import shutil
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+
+from pipeline.cli import main
+
+ROOT = Path(__file__).resolve().parents[1]
+
+MINI_DESIGN = """
+[design]
+name = "mini"
+[parts.P1]
+kind = "wire-pad"
+package = "pad-1.5mm"
+[parts.P2]
+kind = "wire-pad"
+package = "pad-1.5mm"
+[parts.R1]
+kind = "resistor"
+value = "10k"
+package = "0603"
+[parts.R2]
+kind = "resistor"
+value = "4k7"
+package = "0603"
+[parts.R3]
+kind = "resistor"
+value = "4k7"
+package = "0603"
+dnp = true
+[nets]
+A = ["P1.1", "R1.1"]
+B = ["R1.2", "R2.1", "R3.1"]
+GND = ["R2.2", "R3.2", "P2.1"]
+"""
+
+
+def _project(tmp_path: Path, design: str = MINI_DESIGN, project: str | None = None) -> Path:
+    d = tmp_path / "proj"
+    d.mkdir()
+    (d / "design.toml").write_text(design)
+    (d / "project.toml").write_text(project or '[project]\nname = "mini"\ndesign = "design.toml"\n'
+                                    '[order]\nboards = 10\nspares_percent = 10\n')
+    return d
+
+
+def _invoke(*args):
+    return CliRunner().invoke(main, list(args), catch_exceptions=False)
+
+
+def test_run_without_cavity_writes_bom_and_netlist(tmp_path):
+    proj = _project(tmp_path)
+    r = _invoke("run", str(proj))
+    assert r.exit_code == 0, r.output
+    out = proj / "out"
+    for name in ("bom.csv", "netlist.csv", "netlist.json", "findings.json", "netlist.edf", "report.html"):
+        assert (out / name).is_file(), name
+    bom = (out / "bom.csv").read_text()
+    assert "R1" in bom and "R2" in bom and "R3" not in bom.split("\r\n", 1)[1]
+    # 1 part x 10 boards + 10 % spares = 11 (hand computed)
+    assert ",10,1,11\r\n" in bom
+
+
+def test_json_output_shape(tmp_path):
+    proj = _project(tmp_path)
+    r = CliRunner().invoke(main, ["run", str(proj), "--json"])
+    assert r.exit_code == 0
+    data = json.loads(r.stdout)
+    assert set(data) >= {"exit_status", "findings", "fit"} and data["exit_status"] == 0
+    assert all(set(f) >= {"severity", "subject", "message"} for f in data["findings"])
+
+
+def test_connectivity_error_exits_1(tmp_path):
+    proj = _project(tmp_path, MINI_DESIGN.replace('A = ["P1.1", "R1.1"]', 'A = ["R1.1"]'))
+    r = _invoke("run", str(proj))
+    assert r.exit_code == 1
+    assert "only one pin" in r.output
+
+
+BAD_PROJECTS = [
+    # (project.toml text, design text, what the message must name)
+    ('[project]\ndesign = "design.toml"\ncolour = 1\n', MINI_DESIGN, "project.toml:3: project.colour"),
+    ('[project]\ndesign = "design.toml"\n[board]\nsides = 3\n', MINI_DESIGN, "project.toml:4: board.sides"),
+    ('[project]\ndesign = "design.toml"\n[board]\ndensity = "dense"\n', MINI_DESIGN, "board.density"),
+    ('[project]\ndesign = "missing.toml"\n', MINI_DESIGN, "missing.toml: file not found"),
+    ('[project]\ndesign = "design.toml"\n[order]\nboards = 0\n', MINI_DESIGN, "order.boards"),
+    ('[project]\ndesign = "design.toml"\n[nonsense]\n', MINI_DESIGN, "unknown table [nonsense]"),
+    ('[project\n', MINI_DESIGN, "project.toml:1: not valid TOML"),
+    ('[project]\ndesign = "design.toml"\n', MINI_DESIGN.replace('value = "10k"', 'value = "10q"'),
+     "design.toml:9: parts.R1.value"),
+    ('[project]\ndesign = "design.toml"\n', MINI_DESIGN.replace('"R1.2", "R2.1"', '"R1.2", "R2.7"'),
+     "design.toml:25: nets.B: R2.7"),
+]
+
+
+@pytest.mark.parametrize("project, design, needle", BAD_PROJECTS, ids=[b[2] for b in BAD_PROJECTS])
+def test_bad_input_exits_2_names_culprit_writes_nothing(tmp_path, project, design, needle):
+    proj = _project(tmp_path, design, project)
+    r = CliRunner().invoke(main, ["run", str(proj)])
+    assert r.exit_code == 2, r.output
+    assert needle in r.stderr, r.stderr
+    assert "Traceback" not in r.output
+    assert not (proj / "out").exists()
+
+
+def test_bad_input_json_still_one_object(tmp_path):
+    proj = _project(tmp_path, project='[project]\ndesign = "nope.toml"\n')
+    r = CliRunner().invoke(main, ["run", str(proj), "--json"])
+    assert r.exit_code == 2
+    assert json.loads(r.stdout)["exit_status"] == 2
+
+
+def test_outputs_never_overwrite_inputs(tmp_path):
+    proj = _project(tmp_path)
+    shutil.copy(proj / "design.toml", proj / "bom.csv")
+    r = CliRunner().invoke(main, ["run", str(proj), "--design", str(proj / "bom.csv"), "--out", str(proj)])
+    assert r.exit_code == 2 and "input" in r.stderr
+    assert (proj / "bom.csv").read_text() == MINI_DESIGN
+
+
+def test_failed_run_keeps_previous_outputs(tmp_path):
+    proj = _project(tmp_path)
+    assert _invoke("run", str(proj)).exit_code == 0
+    before = (proj / "out" / "bom.csv").read_bytes()
+    (proj / "design.toml").write_text(MINI_DESIGN.replace('value = "10k"', 'value = "ten"'))
+    r = CliRunner().invoke(main, ["run", str(proj)])
+    assert r.exit_code == 2
+    assert (proj / "out" / "bom.csv").read_bytes() == before
+
+
+def test_check_command(tmp_path):
+    p = tmp_path / "d.toml"
+    p.write_text(MINI_DESIGN)
+    r = _invoke("check", str(p))
+    assert r.exit_code == 0 and "mini: 5 parts, 3 nets" in r.output
+    p.write_text(MINI_DESIGN + '[parts.R9]\nkind = "resistor"\nvalue = "1k"\npackage = "0603"\n')
+    r = _invoke("check", str(p), "--json")
+    assert r.exit_code == 1
+    assert any(f["check"] == "connect.unconnected-part" for f in json.loads(r.stdout)["findings"])
+
+
+def test_packages_and_kinds_listings():
+    r = _invoke("packages")
+    assert r.exit_code == 0 and "SOIC-8" in r.output and "0603" in r.output
+    r = _invoke("packages", "so-8", "--json")
+    data = json.loads(r.output)
+    assert data[0]["name"] == "SOIC-8" and set(data[0]["courtyards"]) == {"most", "nominal", "least"}
+    r = CliRunner().invoke(main, ["packages", "SOIC-9"])
+    assert r.exit_code == 2 and "SOIC-9" in r.stderr
+    r = _invoke("kinds", "comparator-dual")
+    assert "OUTA" in r.output and "open-collector" in r.output
+
+
+def test_readme_test_command_is_what_ci_runs():
+    readme = (ROOT / "README.md").read_text()
+    ci = (ROOT / ".ci" / "run").read_text()
+    blocks = re.findall(r"```(?:sh|bash)?\n(.*?)```", readme, re.S)
+    test_cmd = next(b.strip() for b in blocks if "pytest" in b)
+    assert test_cmd in ci
