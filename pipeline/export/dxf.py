@@ -1,0 +1,203 @@
+"""The board outline for a layout program: ``board-outline.dxf``.
+
+Entry point: :func:`board_outline_dxf`.
+
+What the file holds
+-------------------
+- Units: ``$INSUNITS = 4`` (millimetres) and ``$MEASUREMENT = 1`` (metric),
+  so a layout program imports the outline at true size. Coordinates are
+  millimetres in the cavity drawing's frame, unchanged.
+- One closed ``LWPOLYLINE`` for the outline's exterior, counter-clockwise,
+  on layer ``SNUG-BOARD-EDGE``. A board with cut-outs (a polygon with holes)
+  gets one further closed ``LWPOLYLINE`` per hole on the same layer,
+  clockwise, so that a layout program reading "all closed shapes on the edge
+  layer" sees the board and its cut-outs. Nothing else is drawn.
+- The model-space view and extents frame the board.
+
+Reproducible bytes
+------------------
+The same outline gives the same bytes in every run and process. Two things
+in ezdxf (1.4.5) stand in the way, and both are dealt with here:
+
+- It stamps a file with the clock (``$TDCREATE``, ``$TDUPDATE`` and their
+  UTC twins, and its own "created/written by" marker) and with random GUIDs
+  (``$FINGERPRINTGUID``, ``$VERSIONGUID``). Its option
+  ``ezdxf.options.write_fixed_meta_data_for_testing`` replaces all of these
+  by constants (GUIDs of zeros, 2000-01-01). It is a process-wide option, so
+  it is switched on only while this module builds and writes its document
+  (under a lock) and restored afterwards. The dates written are then
+  ezdxf's fixed date or, when a timestamp is given (argument, else the
+  ``SOURCE_DATE_EPOCH`` environment variable of the reproducible-builds
+  convention), that moment in UTC, in the DXF header's date convention:
+  Julian day number plus the fraction of the day.
+- It adds one CLASS per entity type in use by iterating a ``set`` of type
+  names, so the CLASSES section's order follows the process's string hash
+  seed (``PYTHONHASHSEED``). Those classes are registered here first, in
+  sorted order.
+"""
+
+from __future__ import annotations
+
+import io
+import os
+import threading
+from contextlib import contextmanager
+from datetime import datetime, timezone
+from typing import Iterator
+
+import ezdxf
+import shapely
+from ezdxf.tools.juliandate import juliandate
+from shapely.geometry import MultiPolygon, Polygon
+from shapely.geometry.polygon import orient
+
+__all__ = ["board_outline_dxf", "EDGE_LAYER"]
+
+#: Layer of the board edge (our own name).
+EDGE_LAYER = "SNUG-BOARD-EDGE"
+
+#: Header variables holding dates (DXF header reference: Julian date.fraction).
+_DATE_VARS = ("$TDCREATE", "$TDUCREATE", "$TDUPDATE", "$TDUUPDATE")
+
+_LOCK = threading.Lock()
+
+
+def board_outline_dxf(outline: Polygon, *, timestamp: int | None = None) -> bytes:
+    """Write a board outline as a millimetre DXF drawing.
+
+    Parameters
+    ----------
+    outline : shapely Polygon
+        The board outline in mm (drawing frame). Holes become cut-outs. A
+        MultiPolygon of exactly one polygon is accepted as that polygon.
+    timestamp : int, optional
+        Seconds since 1970-01-01 UTC to write as the drawing's creation and
+        update date. Default: ``SOURCE_DATE_EPOCH`` from the environment when
+        it is set to a whole number, else ezdxf's fixed date (2000-01-01).
+        Never the clock.
+
+    Returns
+    -------
+    bytes
+        The DXF file (R2013, UTF-8, ``\\n`` line ends).
+
+    Raises
+    ------
+    ValueError
+        When ``outline`` is not one non-empty, valid polygon. The outline is
+        made by the pipeline (proposed, or the user's ``BOARD`` layer already
+        checked by the cavity reader), so this is a caller's error, not bad
+        user input.
+
+    Examples
+    --------
+    >>> from shapely.geometry import box
+    >>> data = board_outline_dxf(box(0, 0, 30, 20))
+    >>> data == board_outline_dxf(box(0, 0, 30, 20))
+    True
+    >>> b"SNUG-BOARD-EDGE" in data and b"LWPOLYLINE" in data
+    True
+    """
+    poly = _one_polygon(outline)
+    stamp = _timestamp(timestamp)
+    poly = orient(poly, sign=1.0)  # exterior CCW, holes CW
+    with _fixed_metadata():
+        doc = ezdxf.new("R2013", units=ezdxf.units.MM)
+        doc.header["$MEASUREMENT"] = 1  # metric
+        doc.header["$LUNITS"] = 2  # decimal lengths
+        doc.layers.add(EDGE_LAYER, color=7)
+        msp = doc.modelspace()
+        attribs = {"layer": EDGE_LAYER}
+        msp.add_lwpolyline(_ring_points(poly.exterior), format="xy", close=True, dxfattribs=attribs)
+        for hole in poly.interiors:
+            msp.add_lwpolyline(_ring_points(hole), format="xy", close=True, dxfattribs=attribs)
+        minx, miny, maxx, maxy = (float(v) for v in poly.bounds)
+        msp.dxf.extmin = (minx, miny, 0.0)
+        msp.dxf.extmax = (maxx, maxy, 0.0)
+        span = max(maxx - minx, maxy - miny, 1.0)
+        doc.set_modelspace_vport(height=1.2 * span, center=((minx + maxx) / 2, (miny + maxy) / 2))
+        # ezdxf adds a CLASS per entity type in use by iterating a set, so the
+        # CLASSES section's order would follow the string hash seed of the
+        # process; registering those classes first, in sorted order, fixes it.
+        for dxftype in sorted(doc.entitydb.dxf_types_in_use()):
+            doc.classes.add_class(dxftype)
+        stream = io.StringIO()
+        doc.write(stream)
+        encoding = doc.output_encoding
+    text = stream.getvalue()
+    if stamp is not None:
+        text = _set_header_values(text, {name: repr(juliandate(stamp)) for name in _DATE_VARS})
+    return text.encode(encoding)
+
+
+# --------------------------------------------------------------------------
+# helpers
+# --------------------------------------------------------------------------
+def _one_polygon(outline) -> Polygon:
+    geom = outline
+    if isinstance(geom, MultiPolygon) and len(geom.geoms) == 1:
+        geom = geom.geoms[0]
+    if not isinstance(geom, Polygon):
+        raise ValueError(f"a board outline must be one polygon, not {geom.geom_type}")
+    if geom.is_empty or geom.area <= 0.0:
+        raise ValueError("a board outline must not be empty")
+    if not geom.is_valid:
+        raise ValueError(f"the board outline is not a valid polygon: {shapely.is_valid_reason(geom)}")
+    return geom
+
+
+def _ring_points(ring) -> list[tuple[float, float]]:
+    """Ring vertices without the repeated closing vertex; -0.0 written as 0.0."""
+    pts = [(float(x) + 0.0, float(y) + 0.0) for x, y in ring.coords]
+    if len(pts) > 1 and pts[0] == pts[-1]:
+        pts.pop()
+    return pts
+
+
+def _timestamp(timestamp: int | None) -> datetime | None:
+    """The UTC moment to write, or ``None`` for ezdxf's fixed date."""
+    if timestamp is None:
+        env = os.environ.get("SOURCE_DATE_EPOCH", "").strip()
+        if not env.isdigit():  # unset or not a whole number: ignored, as the convention says
+            return None
+        timestamp = int(env)
+    stamp = datetime.fromtimestamp(int(timestamp), tz=timezone.utc)
+    return stamp.replace(tzinfo=None)
+
+
+@contextmanager
+def _fixed_metadata() -> Iterator[None]:
+    """Switch ezdxf's constant-metadata option on for one document, then restore it."""
+    with _LOCK:
+        before = ezdxf.options.write_fixed_meta_data_for_testing
+        ezdxf.options.write_fixed_meta_data_for_testing = True
+        try:
+            yield
+        finally:
+            ezdxf.options.write_fixed_meta_data_for_testing = before
+
+
+def _set_header_values(text: str, values: dict[str, str]) -> str:
+    """Replace the value of each named header variable in ASCII DXF ``text``.
+
+    Works on the tag stream (group code line, value line) of the HEADER
+    section only; each variable must occur exactly once.
+    """
+    lines = text.split("\n")
+    seen: dict[str, int] = {}
+    in_header = False
+    i = 0
+    while i + 1 < len(lines):
+        code, value = lines[i].strip(), lines[i + 1]
+        if code == "2" and value == "HEADER":
+            in_header = True
+        elif code == "0" and value == "ENDSEC" and in_header:
+            break
+        elif in_header and code == "9" and value in values and i + 3 < len(lines):
+            lines[i + 3] = values[value]
+            seen[value] = seen.get(value, 0) + 1
+        i += 2
+    missing = sorted(k for k in values if seen.get(k) != 1)
+    if missing:  # ezdxf changed how it writes its header: fail loudly, never write a half-set date
+        raise RuntimeError(f"DXF header variables not found exactly once: {', '.join(missing)}")
+    return "\n".join(lines)

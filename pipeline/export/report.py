@@ -1,0 +1,333 @@
+"""The one-page report: ``report.html``.
+
+Entry point: :func:`report_html`.
+
+One self-contained HTML5 file: inline CSS, the fit picture inlined as SVG,
+no scripts, no external fonts, images or style sheets, so it opens from a
+mail attachment or a USB stick and prints as it shows. In order:
+
+1. the verdict banner ("Fits", "Does not fit", or "No cavity given" when
+   no fit was run) with the count of findings per severity;
+2. the area figures in mm^2: usable region, courtyard sum, the estimated
+   board area (low / expected / high, with the estimate's rule), how much
+   of the region the expected area takes, and the board outline's area;
+3. why it does not fit (``blocked_by``) and the parts not placed;
+4. the picture;
+5. the placements (ref in natural order, centre x / y in mm in the
+   drawing's frame, rotation, side);
+6. every finding, grouped by severity (error, warning, info), in the
+   order given; the fit's own warnings are added when the caller did not
+   already pass them;
+7. the extra sections, each a heading and an HTML fragment.
+
+Escaping: the extra sections' fragments are trusted HTML made by
+snugboard's own modules and are inserted as given; the SVG is snugboard's
+own output. Everything else (title, refs, finding text, blocked-by reasons,
+section headings) may come from the user and is HTML-escaped; characters
+HTML cannot hold are replaced by U+FFFD.
+
+The output is deterministic: no clock, no random ids, fixed number
+formatting.
+"""
+
+from __future__ import annotations
+
+import re
+from typing import Sequence
+
+from ..model import SEVERITIES, FitResult, Finding
+
+__all__ = ["report_html"]
+
+_INVALID = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\x7f\ud800-\udfff\ufffe\uffff]")
+_XML_PROLOG = re.compile(r"^\s*<\?xml[^>]*\?>\s*")
+
+_SEVERITY_HEADING = {"error": "Errors", "warning": "Warnings", "info": "Notes"}
+
+_CSS = """
+:root { --ink: #1f252d; --muted: #5b6470; --rule: #d5d9de; --band: #f4f6f8;
+        --ok: #17694f; --ok-bg: #e3f3ec; --bad: #9c2417; --bad-bg: #fbe9e6;
+        --none: #4a5361; --none-bg: #eceef1; --warn: #8a5a00; --info: #2f4f9e; }
+* { box-sizing: border-box; }
+html { font-family: system-ui, sans-serif; color: var(--ink); background: #fff; line-height: 1.45; }
+body { max-width: 60rem; margin: 0 auto; padding: 1.5rem 1.25rem 3rem; }
+h1 { font-size: 1.6rem; margin: 0 0 .75rem; }
+h2 { font-size: 1.2rem; margin: 2rem 0 .6rem; padding-bottom: .2rem; border-bottom: 2px solid var(--rule); }
+h3 { font-size: 1rem; margin: 1.2rem 0 .4rem; }
+nav { font-size: .9rem; margin: 0 0 1rem; color: var(--muted); }
+nav a { color: inherit; margin-right: .9rem; }
+.verdict { border-radius: .4rem; padding: .9rem 1.1rem; margin: 0 0 1rem; border-left: .5rem solid; }
+.verdict strong { font-size: 1.35rem; display: block; }
+.verdict.fits { background: var(--ok-bg); border-color: var(--ok); color: var(--ok); }
+.verdict.no-fit { background: var(--bad-bg); border-color: var(--bad); color: var(--bad); }
+.verdict.no-cavity { background: var(--none-bg); border-color: var(--none); color: var(--none); }
+.verdict span { color: var(--ink); }
+table { border-collapse: collapse; width: 100%; font-size: .92rem; margin: .3rem 0 .8rem; }
+th, td { text-align: left; padding: .3rem .55rem; border-bottom: 1px solid var(--rule); vertical-align: top; }
+th { background: var(--band); font-weight: 600; }
+td.num, th.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+table.figures { width: auto; min-width: 28rem; }
+table.placements { width: auto; min-width: 32rem; }
+table.findings { table-layout: fixed; }
+col.message { width: 62%; } col.concerns { width: 16%; } col.check { width: 22%; }
+table.findings code { overflow-wrap: anywhere; }
+code { font-size: .88em; }
+ul.reasons li { margin: .2rem 0; }
+.refs { font-family: ui-monospace, monospace; font-size: .9rem; }
+figure { margin: .5rem 0; }
+figure svg { display: block; width: 100%; height: auto; border: 1px solid var(--rule); }
+.sev-error { color: var(--bad); }
+.sev-warning { color: var(--warn); }
+.sev-info { color: var(--info); }
+.quiet { color: var(--muted); }
+footer { margin-top: 2.5rem; font-size: .8rem; color: var(--muted); }
+@media print {
+  body { max-width: none; padding: 0; }
+  nav { display: none; }
+  .verdict, th { -webkit-print-color-adjust: exact; print-color-adjust: exact; }
+  h2 { break-after: avoid; }
+  tr, figure { break-inside: avoid; }
+  figure svg { max-height: 180mm; }
+}
+"""
+
+
+def report_html(
+    *,
+    title: str,
+    fit: FitResult | None,
+    findings: Sequence[Finding],
+    fit_svg: bytes | None,
+    sections: Sequence[tuple[str, str]] = (),
+) -> bytes:
+    """Build the self-contained HTML report.
+
+    Parameters
+    ----------
+    title : str
+        Page title and heading (user text, escaped).
+    fit : FitResult or None
+        The fit verdict; ``None`` when the project gives no cavity.
+    findings : sequence of Finding
+        Every finding of every check, in the order to show them within
+        each severity.
+    fit_svg : bytes or None
+        The picture from :func:`pipeline.export.svg.fit_svg` (UTF-8), inlined.
+    sections : sequence of (str, str)
+        Extra ``(heading, html_fragment)`` pairs; the heading is escaped, the
+        fragment is trusted HTML and inserted as given.
+
+    Returns
+    -------
+    bytes
+        UTF-8 HTML5 document.
+
+    Examples
+    --------
+    >>> from pipeline.model import Finding
+    >>> page = report_html(title="Demo <1>", fit=None,
+    ...                    findings=[Finding("warning", "x.y", ("R1",), "Check R1 & R2.")], fit_svg=None)
+    >>> b"No cavity given" in page and b"Check R1 &amp; R2." in page and b"Demo &lt;1&gt;" in page
+    True
+    """
+    all_findings = _with_fit_warnings(findings, fit)
+    counts = {sev: sum(1 for f in all_findings if f.severity == sev) for sev in SEVERITIES}
+    nav = [("verdict", "Verdict")]
+    if fit is not None:
+        nav.append(("areas", "Areas"))
+        if fit_svg:
+            nav.append(("picture", "Picture"))
+        nav.append(("placements", "Placements"))
+    nav.append(("findings", "Findings"))
+    nav.extend((f"section-{i + 1}", heading) for i, (heading, _) in enumerate(sections))
+
+    out: list[str] = []
+    add = out.append
+    add("<!DOCTYPE html>")
+    add('<html lang="en">')
+    add("<head>")
+    add('<meta charset="utf-8">')
+    add('<meta name="viewport" content="width=device-width, initial-scale=1">')
+    add('<meta name="generator" content="snugboard">')
+    add(f"<title>{_esc(title)}</title>")
+    add(f"<style>{_CSS}</style>")
+    add("</head>")
+    add("<body>")
+    add("<header>")
+    add(f"<h1>{_esc(title)}</h1>")
+    add("<nav>" + "".join(f'<a href="#{key}">{_esc(text)}</a>' for key, text in nav) + "</nav>")
+    add("</header>")
+    add("<main>")
+    add(_verdict(fit, counts))
+    if fit is not None:
+        add(_areas(fit))
+        add(_blocked(fit))
+        if fit_svg:
+            add('<section id="picture"><h2>Picture</h2>')
+            add(f'<figure>{_inline_svg(fit_svg)}<figcaption class="quiet">Millimetres in the cavity '
+                "drawing's frame; the scale bar and legend are in the picture.</figcaption></figure>")
+            add("</section>")
+        add(_placements(fit))
+    elif fit_svg:
+        add(f'<section id="picture"><h2>Picture</h2><figure>{_inline_svg(fit_svg)}</figure></section>')
+    add(_findings(all_findings))
+    for i, (heading, fragment) in enumerate(sections):
+        add(f'<section id="section-{i + 1}" class="extra"><h2>{_esc(heading)}</h2>')
+        add(fragment)
+        add("</section>")
+    add("</main>")
+    add('<footer>Written by snugboard. All lengths in millimetres, areas in mm\u00b2.</footer>')
+    add("</body>")
+    add("</html>")
+    return ("\n".join(out) + "\n").encode("utf-8")
+
+
+# --------------------------------------------------------------------------
+# parts of the page
+# --------------------------------------------------------------------------
+def _verdict(fit: FitResult | None, counts: dict[str, int]) -> str:
+    if fit is None:
+        cls, head = "no-cavity", "No cavity given"
+        line = "The project names no cavity drawing, so the fit was not checked."
+    elif fit.fits:
+        cls, head = "fits", "Fits"
+        line = f"All {len(fit.placements)} parts are placed inside the usable board region."
+    else:
+        cls, head = "no-fit", "Does not fit"
+        total = len(fit.placements) + len(fit.unplaced)
+        line = f"{len(fit.placements)} of {total} parts placed; see below for what blocks the rest."
+    tally = ", ".join(_count(counts[s], s) for s in SEVERITIES)
+    return (
+        f'<section id="verdict" class="verdict {cls}"><strong>{_esc(head)}</strong>'
+        f"<span>{_esc(line)} Findings: {_esc(tally)}.</span></section>"
+    )
+
+
+def _count(n: int, severity: str) -> str:
+    word = {"error": "error", "warning": "warning", "info": "note"}.get(severity, severity)
+    return f"{n} {word}" + ("" if n == 1 else "s")
+
+
+def _areas(fit: FitResult) -> str:
+    est = fit.estimate
+    rows = [
+        ("Usable board region", _area(fit.region_area_mm2)),
+        ("Courtyards of the fitted parts (sum)", _area(fit.courtyard_area_mm2)),
+        ("Estimated board area, low", _area(est.low_mm2)),
+        ("Estimated board area, expected", _area(est.expected_mm2)),
+        ("Estimated board area, high", _area(est.high_mm2)),
+    ]
+    if fit.region_area_mm2 > 0:
+        share = 100.0 * est.expected_mm2 / fit.region_area_mm2
+        rows.append(("Expected area as a share of the region", f"{share:.1f} %"))
+    if fit.board_outline is not None and not fit.board_outline.is_empty:
+        rows.append(("Board outline", _area(float(fit.board_outline.area))))
+    if fit.wirelength_mm > 0:
+        rows.append(("Half-perimeter wirelength of the placement", f"{fit.wirelength_mm:.1f} mm"))
+    body = "".join(f'<tr><th scope="row">{_esc(k)}</th><td class="num">{_esc(v)}</td></tr>' for k, v in rows)
+    rule = f'<p class="quiet">Estimate: {_esc(est.rule)}</p>' if est.rule else ""
+    return f'<section id="areas"><h2>Areas</h2><table class="figures">{body}</table>{rule}</section>'
+
+
+def _area(v: float) -> str:
+    return f"{float(v):.1f} mm\u00b2"
+
+
+def _blocked(fit: FitResult) -> str:
+    if fit.fits and not fit.blocked_by and not fit.unplaced:
+        return ""
+    out = ['<section id="blocked"><h2>What blocks the fit</h2>']
+    if fit.blocked_by:
+        out.append('<ul class="reasons">' + "".join(f"<li>{_esc(r)}</li>" for r in fit.blocked_by) + "</ul>")
+    if fit.unplaced:
+        refs = " ".join(sorted(fit.unplaced, key=_natural_key))
+        out.append(f'<p>Not placed ({len(fit.unplaced)}): <span class="refs">{_esc(refs)}</span></p>')
+    out.append("</section>")
+    return "".join(out)
+
+
+def _placements(fit: FitResult) -> str:
+    out = [f'<section id="placements"><h2>Placements ({len(fit.placements)})</h2>']
+    if not fit.placements:
+        out.append('<p class="quiet">No part was placed.</p></section>')
+        return "".join(out)
+    out.append(
+        '<table class="placements"><thead><tr><th>Ref</th><th class="num">x (mm)</th>'
+        '<th class="num">y (mm)</th><th class="num">Rotation (\u00b0)</th><th>Side</th></tr></thead><tbody>'
+    )
+    for p in sorted(fit.placements, key=lambda p: (_natural_key(p.ref), p.side)):
+        out.append(
+            f"<tr><td>{_esc(p.ref)}</td><td class=\"num\">{_fix(p.x_mm)}</td>"
+            f"<td class=\"num\">{_fix(p.y_mm)}</td><td class=\"num\">{int(p.rotation_deg)}</td>"
+            f"<td>{_esc(p.side)}</td></tr>"
+        )
+    out.append("</tbody></table></section>")
+    return "".join(out)
+
+
+def _findings(findings: Sequence[Finding]) -> str:
+    out = [f'<section id="findings"><h2>Findings ({len(findings)})</h2>']
+    if not findings:
+        out.append('<p class="quiet">No findings.</p>')
+    order = list(SEVERITIES) + sorted({f.severity for f in findings} - set(SEVERITIES))
+    for sev in order:
+        group = [f for f in findings if f.severity == sev]
+        if not group:
+            continue
+        head = _SEVERITY_HEADING.get(sev, sev.capitalize())
+        out.append(f'<h3 class="sev-{_esc(_slug(sev))}">{_esc(head)} ({len(group)})</h3>')
+        out.append(
+            f'<table class="findings findings-{_esc(_slug(sev))}">'
+            '<colgroup><col class="message"><col class="concerns"><col class="check"></colgroup>'
+            "<thead><tr><th>Message</th>"
+            "<th>Concerns</th><th>Check</th></tr></thead><tbody>"
+        )
+        for f in group:
+            out.append(
+                f"<tr><td>{_esc(f.message)}</td><td class=\"refs\">{_esc(' '.join(f.subject))}</td>"
+                f"<td><code>{_esc(f.check)}</code></td></tr>"
+            )
+        out.append("</tbody></table>")
+    out.append("</section>")
+    return "".join(out)
+
+
+# --------------------------------------------------------------------------
+# helpers
+# --------------------------------------------------------------------------
+def _with_fit_warnings(findings: Sequence[Finding], fit: FitResult | None) -> list[Finding]:
+    """The findings, then the fit's own warnings not already among them (order kept)."""
+    out = list(findings)
+    seen = set(out)
+    for f in fit.warnings if fit is not None else ():
+        if f not in seen:
+            out.append(f)
+            seen.add(f)
+    return out
+
+
+def _inline_svg(svg: bytes) -> str:
+    text = svg.decode("utf-8", errors="replace")
+    return _XML_PROLOG.sub("", text, count=1).strip()
+
+
+def _esc(text: object) -> str:
+    s = _INVALID.sub("\ufffd", str(text))
+    return (
+        s.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+        .replace('"', "&quot;").replace("'", "&#39;")
+    )
+
+
+def _slug(text: str) -> str:
+    return re.sub(r"[^a-z0-9-]+", "-", text.lower()).strip("-") or "other"
+
+
+def _fix(v: float) -> str:
+    s = f"{float(v):.3f}"
+    return "0.000" if s == "-0.000" else s
+
+
+def _natural_key(ref: str) -> tuple:
+    parts = re.split(r"(\d+)", ref)
+    return tuple(int(t) if i % 2 else t.lower() for i, t in enumerate(parts)) + (ref,)
