@@ -118,12 +118,16 @@ def _text(src: TomlSource, key: str, v: Any, choices: tuple[str, ...] | None = N
     return v
 
 
-def _shown(p: Path) -> str:
-    """A path as shown in messages: relative to the working folder when inside it."""
+def _shown(p: Path, root: Path) -> str:
+    """A path as shown in messages and findings: relative to the project folder.
+
+    Never absolute and never relative to the working folder, so that the
+    files a run writes do not depend on where it was started.
+    """
     try:
-        return os.path.relpath(p)
+        return Path(os.path.relpath(p, root)).as_posix()
     except ValueError:  # another drive
-        return str(p)
+        return p.name
 
 
 def load_project(
@@ -143,7 +147,7 @@ def load_project(
     if not root.is_dir():
         raise ProjectError(str(project_dir), "not a folder: give the project folder that holds project.toml")
     pfile = root / "project.toml"
-    src = load(pfile, _shown(pfile), ProjectError)
+    src = load(pfile, "project.toml", ProjectError)
     data = src.data
     warnings: list[Finding] = []
     for table, body in data.items():
@@ -168,7 +172,7 @@ def load_project(
         design_path, design_shown = Path(design).resolve(), design
     elif "design" in pj:
         design_path = rel("project.design", pj["design"])
-        design_shown = _shown(design_path)
+        design_shown = _shown(design_path, root.resolve())
     else:
         raise src.error("project.design", "no design: set [project] design = \"design.toml\" or pass --design",
                         ProjectError)
@@ -176,7 +180,7 @@ def load_project(
         cavity_path, cavity_shown = Path(cavity).resolve(), cavity
     elif "cavity" in pj:
         cavity_path = rel("project.cavity", pj["cavity"])
-        cavity_shown = _shown(cavity_path)
+        cavity_shown = _shown(cavity_path, root.resolve())
     else:
         cavity_path, cavity_shown = None, ""
     parts_map = rel("project.parts_map", pj["parts_map"]) if "parts_map" in pj else None

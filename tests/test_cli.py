@@ -63,7 +63,7 @@ def test_run_without_cavity_writes_bom_and_netlist(tmp_path):
     out = proj / "out"
     for name in ("bom.csv", "netlist.csv", "netlist.json", "findings.json", "netlist.edf", "report.html"):
         assert (out / name).is_file(), name
-    bom = (out / "bom.csv").read_text()
+    bom = (out / "bom.csv").read_bytes().decode("utf-8")
     assert "R1" in bom and "R2" in bom and "R3" not in bom.split("\r\n", 1)[1]
     # 1 part x 10 boards + 10 % spares = 11 (hand computed)
     assert ",10,1,11\r\n" in bom
@@ -88,6 +88,7 @@ def test_connectivity_error_exits_1(tmp_path):
 BAD_PROJECTS = [
     # (project.toml text, design text, what the message must name)
     ('[project]\ndesign = "design.toml"\ncolour = 1\n', MINI_DESIGN, "project.toml:3: project.colour"),
+    ('[project]\ndesign = "design.toml"\ncavity = "bay.dxf"\n', MINI_DESIGN, "bay.dxf"),
     ('[project]\ndesign = "design.toml"\n[board]\nsides = 3\n', MINI_DESIGN, "project.toml:4: board.sides"),
     ('[project]\ndesign = "design.toml"\n[board]\ndensity = "dense"\n', MINI_DESIGN, "board.density"),
     ('[project]\ndesign = "missing.toml"\n', MINI_DESIGN, "missing.toml: file not found"),
@@ -95,7 +96,7 @@ BAD_PROJECTS = [
     ('[project]\ndesign = "design.toml"\n[nonsense]\n', MINI_DESIGN, "unknown table [nonsense]"),
     ('[project\n', MINI_DESIGN, "project.toml:1: not valid TOML"),
     ('[project]\ndesign = "design.toml"\n', MINI_DESIGN.replace('value = "10k"', 'value = "10q"'),
-     "design.toml:9: parts.R1.value"),
+     "design.toml:12: parts.R1.value"),
     ('[project]\ndesign = "design.toml"\n', MINI_DESIGN.replace('"R1.2", "R2.1"', '"R1.2", "R2.7"'),
      "design.toml:25: nets.B: R2.7"),
 ]
