@@ -116,8 +116,10 @@ def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: st
         progress.done()
     err = as_json
     _echo_findings(result.findings, err, verbose)
-    for rep in result.stage_reports:
-        click.echo(rep.summary() if hasattr(rep, "summary") else str(rep), err=err)
+    if not verbose:  # the declared stages' figures and spread are shown even without -v
+        for f in result.findings:
+            if f.check == "stage.summary":
+                click.echo(f"stage: {f.message}", err=err)
     if result.sweep is not None:
         click.echo(result.sweep.summary() if hasattr(result.sweep, "summary") else str(result.sweep.to_dict()), err=err)
     if result.fit is not None:
