@@ -1,0 +1,287 @@
+"""The netlist as EDIF 2 0 0 (EIA-548, IEC 61690-1): ``netlist.edf``.
+
+Entry point: :func:`edif_netlist`.
+
+What the file holds
+-------------------
+::
+
+    (edif NAME (edifVersion 2 0 0) (edifLevel 0) (keywordMap (keywordLevel 0))
+      (status (written (timeStamp Y M D h m s) (program "snugboard")))
+      (library SNUG_PARTS ...            one cell per kind and package:
+        (cell (rename resistor_0603 "resistor/0603") (cellType GENERIC)
+          (view netlist (viewType NETLIST)
+            (interface (port (rename &1 "1") (direction INOUT)
+                         (property pin_name (string "1"))) ...))
+          (property kind (string "resistor")) (property package (string "0603"))))
+      (library SNUG_DESIGN ...           the board:
+        (cell NAME (cellType GENERIC)
+          (view netlist (viewType NETLIST) (interface)
+            (contents
+              (instance R1 (viewRef netlist (cellRef resistor_0603 (libraryRef SNUG_PARTS)))
+                (property value (string "10k")) ...)
+              (net GND (joined (portRef &2 (instanceRef R1)) ...))))))
+      (design NAME (cellRef NAME (libraryRef SNUG_DESIGN))))
+
+* Ports are named by **pin number** (what a layout program matches to a
+  footprint's pads); the pin's name is the port property ``pin_name``.
+  Directions follow the pin roles: ``input`` and ``power-in`` INPUT;
+  ``output``, ``open-collector`` and ``power-out`` OUTPUT; others INOUT.
+* Instances carry the properties ``value`` (the design's text, else
+  :func:`pipeline.values.format_value` of the number), ``kind``, ``package``, ``mpn``,
+  ``manufacturer``, and ``dnp`` ``"true"`` for unfitted parts (which stay
+  in the netlist, CONTRACT section 2).
+* **Names.** An EDIF identifier starts with a letter (or ``&``, which lets
+  it start with a digit) followed by letters, digits and ``_``; identifiers
+  are compared without regard to case. Every name that is not such an
+  identifier is written with EDIF's ``(rename legal "original")``, so the
+  original survives: characters outside the set become ``_`` (``+`` and
+  ``-`` become ``p`` and ``n``), runs of ``_`` shrink to one, a leading
+  digit gets ``&``; a clash (``in`` next to ``IN``, ``V+`` next to ``Vp``)
+  gets ``_2``, ``_3`` ... Names that are legal already keep their spelling
+  and are placed first. Identifiers stay under 200 characters.
+* **Strings** are ASCII: ``"`` and ``%`` and any character outside
+  printable ASCII are written as EDIF escapes ``%N%`` (N the character's
+  code point), which the standard defines for ASCII codes. ``[`` and ``]``
+  are escaped too (``%91%``, ``%93%``), so that no reader takes a net such
+  as ``D[3]`` for a member of a bus ``D`` (every snugboard net is a single
+  wire), and because one general-purpose reader fails on a name ending in
+  ``[``.
+* The time stamp is ``timestamp`` (seconds since 1970, UTC: pass
+  ``SOURCE_DATE_EPOCH``), else 1970-01-01 00:00:00; never the clock.
+  The output is identical for identical designs and holds no path.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import re
+from typing import Iterable
+
+from ..model import Design, Part, PinDef
+from ..values import format_value
+
+__all__ = ["edif_netlist", "edif_identifier", "edif_string"]
+
+_PARTS_LIB = "SNUG_PARTS"
+_DESIGN_LIB = "SNUG_DESIGN"
+_ID_RE = re.compile(r"^[A-Za-z][A-Za-z0-9_]*$")
+_MAX_ID = 200
+_DIRECTION = {"input": "INPUT", "power-in": "INPUT", "output": "OUTPUT", "open-collector": "OUTPUT",
+              "power-out": "OUTPUT"}
+_MAX_EPOCH = 253402300799  # 9999-12-31 23:59:59 UTC
+
+
+def edif_string(text: str) -> str:
+    """An EDIF string token: quoted, with ``%N%`` escapes.
+
+    Examples
+    --------
+    >>> edif_string('say "hi" 100%')
+    '"say %34%hi%34% 100%37%"'
+    """
+    out = []
+    for ch in str(text):
+        code = ord(ch)
+        if ch in '"%[]' or code < 32 or code > 126:
+            out.append(f"%{code}%")
+        else:
+            out.append(ch)
+    return '"' + "".join(out) + '"'
+
+
+def _between_words(text: str, i: int) -> bool:
+    """Whether ``text[i]`` stands between two letters or digits (a hyphen, not a sign)."""
+    return 0 < i < len(text) - 1 and text[i - 1].isalnum() and text[i + 1].isalnum()
+
+
+def edif_identifier(name: str) -> str:
+    """The legal identifier a name is written as (before clash suffixes).
+
+    Examples
+    --------
+    >>> edif_identifier("R1"), edif_identifier("1"), edif_identifier("+INA"), edif_identifier("my net.2")
+    ('R1', '&1', 'pINA', 'my_net_2')
+    """
+    text = str(name)
+    chars = []
+    for i, ch in enumerate(text):
+        if ch.isascii() and (ch.isalnum() or ch == "_"):
+            chars.append(ch)
+        elif ch == "+":
+            chars.append("p")
+        elif ch == "-" and not _between_words(text, i):
+            chars.append("n")
+        else:
+            chars.append("_")
+    s = re.sub(r"_+", "_", "".join(chars)).strip("_")[:_MAX_ID].rstrip("_")
+    if not s:
+        return "&x"
+    if not s[0].isalpha():
+        return "&" + s
+    return s
+
+
+class _Scope:
+    """One EDIF name space: original name -> unique legal identifier."""
+
+    def __init__(self, names: Iterable[str]) -> None:
+        self.ids: dict[str, str] = {}
+        used: set[str] = set()
+        unique = sorted(set(names), key=lambda n: (not _ID_RE.match(n) or len(n) > _MAX_ID, n))
+        for name in unique:
+            base = name if (_ID_RE.match(name) and len(name) <= _MAX_ID) else edif_identifier(name)
+            ident, n = base, 2
+            while ident.lower() in used:
+                ident = f"{base}_{n}"
+                n += 1
+            used.add(ident.lower())
+            self.ids[name] = ident
+
+    def ref(self, name: str) -> str:
+        return self.ids[name]
+
+    def define(self, name: str) -> str:
+        ident = self.ids[name]
+        return ident if ident == name else f"(rename {ident} {edif_string(name)})"
+
+
+def _cell_name(part: Part) -> str:
+    return f"{part.kind}/{part.package}"
+
+
+def _value(part: Part) -> str:
+    if part.value_text:
+        return part.value_text
+    if part.value is None:
+        return ""
+    return format_value(part.value)
+
+
+def _stamp(timestamp: int | None) -> list:
+    ts = 0 if timestamp is None else min(max(int(timestamp), 0), _MAX_EPOCH)
+    t = _dt.datetime.fromtimestamp(ts, tz=_dt.timezone.utc)
+    return ["timeStamp", *(str(x) for x in (t.year, t.month, t.day, t.hour, t.minute, t.second))]
+
+
+def _natural(text: str) -> tuple:
+    return tuple((0, int(t), "") if t.isdigit() else (1, 0, t) for t in re.split(r"(\d+)", text) if t)
+
+
+def edif_netlist(design: Design, *, timestamp: int | None = None) -> bytes:
+    """Write ``design``'s parts and nets as an EDIF 2 0 0 netlist.
+
+    Parameters
+    ----------
+    design : Design
+        The sized design.
+    timestamp : int, optional
+        Seconds since 1970-01-01 UTC for the ``written`` time stamp
+        (``SOURCE_DATE_EPOCH``); default 0. Clamped to years 1970 .. 9999.
+
+    Returns
+    -------
+    bytes
+        ASCII text, ``\\n`` line ends, identical for identical input.
+
+    Examples
+    --------
+    >>> from pipeline.model import Design, Net, Part, PinDef, PinRef
+    >>> pins = (PinDef("1", "1", "passive"), PinDef("2", "2", "passive"))
+    >>> d = Design("demo", "A", "d.toml", (Part("R1", "resistor", "0603", pins, 1e3, "1k"),),
+    ...            (Net("IN", (PinRef("R1", "1"),)), Net("GND", (PinRef("R1", "2"),))))
+    >>> text = edif_netlist(d).decode()
+    >>> "(portRef (rename &1 \\"1\\")" in text, "(portRef &1 (instanceRef R1))" in text
+    (False, True)
+    """
+    cells: dict[str, dict[str, PinDef]] = {}
+    cell_info: dict[str, tuple[str, str]] = {}
+    for part in design.parts:
+        cname = _cell_name(part)
+        pins = cells.setdefault(cname, {})
+        cell_info[cname] = (part.kind, part.package)
+        for p in part.pins:
+            pins.setdefault(p.number, p)
+    # Pins a net names that the part does not list still need a port.
+    by_ref = {p.ref: p for p in design.parts}
+    for net in design.nets:
+        for pr in net.pins:
+            part = by_ref.get(pr.ref)
+            if part is not None:
+                cells[_cell_name(part)].setdefault(pr.pin, PinDef(pr.pin, pr.pin, "passive"))
+
+    top_original = design.name or "design"
+    cell_scope = _Scope(list(cells) + [top_original])
+    inst_scope = _Scope(p.ref for p in design.parts)
+    net_scope = _Scope(n.name for n in design.nets)
+    port_scopes = {c: _Scope(pins) for c, pins in cells.items()}
+    top = cell_scope.ref(top_original)
+    top_def = cell_scope.define(top_original)
+
+    library: list = ["library", _PARTS_LIB, ["edifLevel", "0"], ["technology", ["numberDefinition"]]]
+    for cname in sorted(cells, key=_natural):
+        kind, package = cell_info[cname]
+        scope = port_scopes[cname]
+        interface: list = ["interface"]
+        for number in sorted(cells[cname], key=_natural):
+            pin = cells[cname][number]
+            interface.append(["port", scope.define(number), ["direction", _DIRECTION.get(pin.role, "INOUT")],
+                              ["property", "pin_name", ["string", edif_string(pin.name)]]])
+        library.append(["cell", cell_scope.define(cname), ["cellType", "GENERIC"],
+                        ["view", "netlist", ["viewType", "NETLIST"], interface],
+                        ["property", "kind", ["string", edif_string(kind)]],
+                        ["property", "package", ["string", edif_string(package)]]])
+
+    contents: list = ["contents"]
+    for part in design.parts:
+        inst: list = ["instance", inst_scope.define(part.ref),
+                      ["viewRef", "netlist", ["cellRef", cell_scope.ref(_cell_name(part)), ["libraryRef", _PARTS_LIB]]]]
+        for k, v in (("value", _value(part)), ("kind", part.kind), ("package", part.package),
+                     ("manufacturer", part.manufacturer), ("mpn", part.mpn), ("dnp", "true" if part.dnp else "")):
+            if v:
+                inst.append(["property", k, ["string", edif_string(v)]])
+        contents.append(inst)
+    for net in design.nets:
+        joined: list = ["joined"]
+        for pr in net.pins:
+            part = by_ref.get(pr.ref)
+            if part is None:
+                continue
+            joined.append(["portRef", port_scopes[_cell_name(part)].ref(pr.pin), ["instanceRef", inst_scope.ref(pr.ref)]])
+        contents.append(["net", net_scope.define(net.name), joined])
+
+    tree = [
+        "edif", top_def,
+        ["edifVersion", "2", "0", "0"],
+        ["edifLevel", "0"],
+        ["keywordMap", ["keywordLevel", "0"]],
+        ["status", ["written", _stamp(timestamp), ["program", edif_string("snugboard")]]],
+        library,
+        ["library", _DESIGN_LIB, ["edifLevel", "0"], ["technology", ["numberDefinition"]],
+         ["cell", top_def, ["cellType", "GENERIC"],
+          ["view", "netlist", ["viewType", "NETLIST"], ["interface"], contents]]],
+        ["design", top_def, ["cellRef", top, ["libraryRef", _DESIGN_LIB]]],
+    ]
+    return (_render(tree, 0) + "\n").encode("ascii")
+
+
+def _flat(node: list | str) -> str:
+    if isinstance(node, str):
+        return node
+    return "(" + " ".join(_flat(c) for c in node) + ")"
+
+
+def _render(node: list | str, indent: int) -> str:
+    """Pretty-print an S-expression: short lists on one line, others one child a line."""
+    if isinstance(node, str):
+        return node
+    one = _flat(node)
+    if len(one) + indent <= 100 or not any(isinstance(c, list) for c in node):
+        return one
+    head = [c for c in node if isinstance(c, str)]
+    pad = " " * (indent + 2)
+    lines = ["(" + " ".join(head)]
+    for c in node:
+        if isinstance(c, list):
+            lines.append(pad + _render(c, indent + 2))
+    return "\n".join(lines) + ")"
