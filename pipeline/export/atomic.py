@@ -68,13 +68,46 @@ def write_all(
         raise OutputError(str(out), f"cannot create the output folder ({exc.strerror})") from None
     try:
         for name in names:
+            target = out / name
+            if target.is_symlink() or (target.exists() and not target.is_file()):
+                raise OutputError(str(target), "is in the way of an output file (not a plain file); remove it")
             (tmp / name).write_bytes(files[name])
-        written = []
-        for name in names:
-            os.replace(tmp / name, out / name)
-            written.append(out / name)
-        return written
+        _swap_in(tmp, out, names)
+        return [out / name for name in names]
     except OSError as exc:
-        raise OutputError(str(out), f"cannot write outputs ({exc.strerror})") from None
+        raise OutputError(str(out), f"cannot write outputs ({exc.strerror or exc})") from None
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
+
+
+def _swap_in(tmp: Path, out: Path, names: list[str]) -> None:
+    """Move ``tmp/name`` to ``out/name`` for every name, or change nothing.
+
+    Existing targets are first moved aside into ``tmp/.old``; if any move
+    fails, the new files already moved are removed and the old ones put
+    back, so the folder is as it was.
+    """
+    old = tmp / ".old"
+    old.mkdir()
+    moved_aside: list[str] = []
+    moved_in: list[str] = []
+    try:
+        for name in names:
+            if (out / name).exists():
+                os.replace(out / name, old / name)
+                moved_aside.append(name)
+        for name in names:
+            os.replace(tmp / name, out / name)
+            moved_in.append(name)
+    except OSError:
+        for name in moved_in:
+            try:
+                os.remove(out / name)
+            except OSError:
+                pass
+        for name in moved_aside:
+            try:
+                os.replace(old / name, out / name)
+            except OSError:
+                pass
+        raise

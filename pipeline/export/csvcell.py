@@ -17,11 +17,13 @@ from __future__ import annotations
 
 import csv
 import io
-from typing import Iterable, Sequence
+import re
+from typing import Callable, Iterable, Sequence
 
-__all__ = ["inert", "csv_bytes"]
+__all__ = ["inert", "inert_name", "csv_bytes"]
 
 _TRIGGERS = ("=", "+", "-", "@", "\t", "\r")
+_PLAIN_SIGNED = re.compile(r"^[+-][A-Za-z0-9_]*$")
 
 
 def inert(cell: str) -> str:
@@ -29,11 +31,26 @@ def inert(cell: str) -> str:
     return "'" + cell if cell.startswith(_TRIGGERS) else cell
 
 
-def csv_bytes(header: Sequence[str], rows: Iterable[Sequence[object]]) -> bytes:
-    """UTF-8 CSV (RFC 4180 quoting, CRLF) with every cell made inert."""
+def inert_name(cell: str) -> str:
+    """Like :func:`inert`, but keeps the trade's signed pin names as they are.
+
+    ``+``, ``-``, ``+IN``, ``-INA``: a sign followed only by letters, digits
+    or ``_`` cannot call a function or reach another program, so a
+    spreadsheet shows at worst an error value; anything else starting with a
+    trigger is made inert.
+
+    >>> inert_name("-INA"), inert_name("+"), inert_name("-1+cmd|x")
+    ('-INA', '+', "'-1+cmd|x")
+    """
+    return cell if _PLAIN_SIGNED.match(cell) else inert(cell)
+
+
+def csv_bytes(header: Sequence[str], rows: Iterable[Sequence[object]], *,
+              cell: Callable[[str], str] = inert) -> bytes:
+    """UTF-8 CSV (RFC 4180 quoting, CRLF) with every cell passed through ``cell``."""
     buf = io.StringIO(newline="")
     w = csv.writer(buf, lineterminator="\r\n")
-    w.writerow([inert(h) for h in header])
+    w.writerow([cell(h) for h in header])
     for r in rows:
-        w.writerow([inert("" if c is None else str(c)) for c in r])
+        w.writerow([cell("" if c is None else str(c)) for c in r])
     return buf.getvalue().encode("utf-8")
