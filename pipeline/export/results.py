@@ -13,7 +13,7 @@ from typing import Any, Iterable
 from ..model import FitResult, Finding
 from .netlist import dump_json
 
-__all__ = ["findings_list", "findings_json", "fit_dict", "fit_json", "outline_coords"]
+__all__ = ["findings_list", "findings_json", "fit_dict", "fit_json", "outline_coords", "outline_holes"]
 
 _ORDER = {"error": 0, "warning": 1, "info": 2}
 
@@ -43,6 +43,15 @@ def outline_coords(geom) -> list[list[float]]:
     return [[_r(x), _r(y)] for x, y in geom.exterior.coords]
 
 
+def outline_holes(geom) -> list[list[list[float]]]:
+    """Interior rings (cut-outs around bosses and posts) of the outline's largest part."""
+    if geom is None or geom.is_empty:
+        return []
+    if geom.geom_type == "MultiPolygon":
+        geom = max(geom.geoms, key=lambda g: g.area)
+    return [[[_r(x), _r(y)] for x, y in ring.coords] for ring in geom.interiors]
+
+
 def fit_dict(fit: FitResult, extra: dict[str, Any] | None = None) -> dict[str, Any]:
     d: dict[str, Any] = {
         "fits": fit.fits,
@@ -57,6 +66,7 @@ def fit_dict(fit: FitResult, extra: dict[str, Any] | None = None) -> dict[str, A
         },
         "placements": [p.to_dict() for p in fit.placements],
         "board_outline": outline_coords(fit.board_outline),
+        "board_outline_holes": outline_holes(fit.board_outline),
         "board_area_mm2": _r(fit.board_outline.area) if fit.board_outline is not None else 0.0,
         "blocked_by": list(fit.blocked_by),
         "unplaced": list(fit.unplaced),
