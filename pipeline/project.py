@@ -337,7 +337,8 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
         extra: dict[str, Any] = {}
         if sweep:
             from .sweep import sweep_sizes
-            sweep_result = sweep_sizes(design, lib, region, project.board, progress=progress)
+            sweep_result = sweep_sizes(design, lib, region, project.board, progress=progress,
+                                       user_board=cavity.board)
             extra["passive_sizes"] = sweep_result.to_dict()
         fit_json = results.fit_dict(fit, extra)
         files["fit.json"] = results.dump_json(fit_json)

@@ -1,0 +1,887 @@
+"""Placement that proves the fit: every courtyard on the board, or why not.
+
+Entry point: :func:`place_and_fit`. Also :func:`hpwl` (total half-perimeter
+wirelength of placed parts) for the benchmark and tests.
+
+The model (millimetres; heights above the board's top face)
+------------------------------------------------------------
+* **Board.** The proposed outline (:func:`pipeline.outline.propose_outline`)
+  or the user's own ``BOARD`` outline. Courtyards must keep
+  ``edge_clearance_mm`` from every board edge (and from the edge of the
+  usable region, when a user's board pokes out of it): the placement area
+  is the board eroded by that distance.
+* **Courtyards.** Rectangles of the item's length x width, rotated by 0
+  or 90 degrees (180 and 270 give the same rectangle, so the report uses
+  0 and 90). Courtyards on one side may touch but not overlap (IPC-7351B:
+  courtyards must not overlap; memory, REFERENCES.md section 3).
+* **Heights.** A part may stand only where the courtyard lies wholly in
+  height zones whose ``max_height_mm`` (depth minus board thickness) is at
+  least the part's height. Outside every zone nothing may stand; a region
+  with no zones at all has no height limit.
+* **Two sides** (``sides = 2``). The cavity floor is taken as flat and the
+  lid as what varies (depth zones are lower lids). Bottom-side parts stand
+  between the floor and the board, so the board is raised on the tallest
+  of them: with a gap ``g`` every top-side part must satisfy
+  ``height + g <= max_height_mm`` of its zones, every bottom part
+  ``height <= g``, and ``g`` may not exceed the lowest zone's
+  ``max_height_mm`` (the raised board must still clear the lid
+  everywhere). The placer first tries ``g = 0`` (all parts on top), then
+  larger gaps taken from the parts' own heights, and keeps the smallest
+  that fits. Bottom-side courtyards obey the same edge clearance.
+
+The method
+----------
+1. *Grid.* The placement area is rasterised onto square cells (0.05 mm
+   when the courtyard sizes allow and the grid stays under
+   ``CELL_BUDGET`` cells; IPC-7351B rounds courtyards to 0.05 mm). A cell
+   is free only when it lies wholly in the area (exact Minkowski erosion
+   by the half cell, :func:`pipeline.outline.cells_inside`), and for each
+   height level only when it lies wholly in the zones allowed at that
+   level. A courtyard occupies the cells its rectangle covers (rounded up),
+   so anything legal on the grid is legal in the plane.
+2. *Constructive packing: bottom-left fill* (Chazelle 1983; Baker, Coffman
+   and Rivest 1980). Parts are grouped into classes of equal cell size,
+   height level and side eligibility, taken largest first. For a class
+   the feasible origins of each orientation are one boolean map (a
+   sliding-window AND of the free cells, done by doubling in O(cells log
+   size)); parts of the class then take, one after another, the origin
+   whose top edge is lowest (ties: lowest, then leftmost, then the flatter
+   orientation), and each placement clears only the neighbourhood of the
+   maps it blocks. Within a class parts go in a connectivity order
+   (breadth-first over shared small nets), so connected parts get
+   neighbouring slots. Cost: O(classes x cells log s + parts).
+   When the area is roomy (at least ``ROOMY`` times the courtyard sum),
+   the packing is first tried in a band of columns about
+   sqrt(ROOMY x courtyard sum) wide around the area's centroid, which
+   keeps the parts in one compact block instead of a strip along the
+   bottom edge (shorter nets); if that does not fit, the whole area is
+   used.
+3. *Improvement: pairwise swaps* (pairwise interchange, a classic
+   placement improvement; e.g. Goto 1981). Parts of the same class can trade
+   slots without touching legality. In seeded random order, each part
+   looks at the few slots of its class nearest the median of the parts it
+   shares nets with and takes the swap that lowers the half-perimeter
+   wirelength most; at most ``SWAP_PASSES`` passes and ``SWAP_BUDGET``
+   evaluations. Nets with more than ``OPT_FANOUT`` parts (ground, supply)
+   are left out of the improvement, as placers commonly do, but are
+   counted in the reported wirelength.
+4. *Self-check.* Every placed courtyard is checked with shapely against the
+   exact area, zones and its neighbours (STRtree); a failure would be a
+   defect and drops the part with a warning instead of reporting a false
+   fit.
+
+Everything is deterministic: classes and parts are sorted with refs as
+the last key and the improvement's random order uses a fixed seed.
+
+References (cited from memory)
+------------------------------
+B. Chazelle, "The bottom-left bin-packing heuristic: an efficient
+implementation", IEEE Trans. Computers C-32(8), 1983.
+B. S. Baker, E. G. Coffman, R. L. Rivest, "Orthogonal packings in two
+dimensions", SIAM J. Computing 9(4), 1980.
+S. Goto, "An efficient algorithm for the two-dimensional placement problem
+in electrical circuit layout", IEEE Trans. Circuits and Systems 28(1), 1981.
+"""
+
+from __future__ import annotations
+
+import bisect
+import math
+import re
+from collections import deque
+from dataclasses import dataclass, field
+from typing import Callable, Iterable, Sequence
+
+import numpy as np
+import shapely
+from shapely.geometry import Polygon, box
+from shapely.geometry.base import BaseGeometry
+from shapely.geometry.polygon import orient
+
+from .area import estimate_area
+from .errors import DesignError, ProjectError
+from .model import BoardOptions, FitResult, Finding, PlaceItem, Placement, Region
+from .outline import QUAD_SEGS, cells_inside, polygons_of, propose_outline
+
+__all__ = ["place_and_fit", "hpwl", "CELL_BUDGET", "OPT_FANOUT"]
+
+Progress = Callable[[str, float], None]
+
+#: Most grid cells a placement grid may have.
+CELL_BUDGET = 9_000_000
+#: Grid sizes tried, mm (the smallest that divides every courtyard and keeps within the budget).
+CELL_SIZES = (0.05, 0.1, 0.2, 0.25, 0.5, 1.0)
+#: Nets with more parts than this are left out of the swap improvement.
+OPT_FANOUT = 32
+#: Swap improvement limits.
+SWAP_PASSES = 4
+SWAP_BUDGET = 60_000
+SWAP_CANDIDATES = 6
+#: Geometric tolerance of the self-check, mm.
+TOL = 1e-6
+#: Seed of the improvement's random order.
+SEED = 20240613
+#: Most bottom-gap values tried with sides = 2.
+MAX_GAPS = 8
+#: A board at least this many times the courtyard sum first gets a compact block of parts.
+ROOMY = 2.5
+
+
+# --------------------------------------------------------------------------
+# helpers
+# --------------------------------------------------------------------------
+def _natural_key(ref: str) -> tuple:
+    return tuple((0, int(t), "") if t.isdigit() else (1, 0, t) for t in re.findall(r"\d+|\D+", ref))
+
+
+def _fmt(v: float) -> str:
+    return f"{v:.2f}".rstrip("0").rstrip(".") if abs(v) < 1000 else f"{v:.0f}"
+
+
+def _area(v: float) -> str:
+    return f"{v:.1f}" if v < 100 else f"{v:.0f}"
+
+
+def _names(refs: Sequence[str], limit: int = 12) -> str:
+    refs = list(refs)
+    if len(refs) <= limit:
+        return ", ".join(refs)
+    return ", ".join(refs[:limit]) + f" and {len(refs) - limit} more"
+
+
+def _inset(geom: BaseGeometry, d: float) -> BaseGeometry:
+    """Points at least ``d`` from the outside of ``geom`` (polygon arcs kept outside the true circle)."""
+    if geom.is_empty or d <= 0:
+        return geom
+    return geom.buffer(-d / math.cos(math.pi / (4 * QUAD_SEGS)), quad_segs=QUAD_SEGS)
+
+
+def _window_and(a: np.ndarray, n: int, axis: int) -> np.ndarray:
+    """``out[i] = all(a[i : i + n])`` along ``axis`` (doubling; O(size log n))."""
+    length = a.shape[axis]
+    if n > length:
+        shape = list(a.shape)
+        shape[axis] = 0
+        return np.zeros(shape, dtype=bool)
+    if n <= 1:
+        return a
+
+    def cut(x, lo, hi):
+        return x[lo:hi] if axis == 0 else x[:, lo:hi]
+
+    b = a
+    k = 1
+    while 2 * k <= n:
+        m = b.shape[axis]
+        b = cut(b, 0, m - k) & cut(b, k, m)
+        k *= 2
+    m = length - n + 1
+    s = n - k
+    if s == 0:
+        return np.ascontiguousarray(cut(b, 0, m))
+    return cut(b, 0, m) & cut(b, s, s + m)
+
+
+def _feasible(free: np.ndarray, h: int, w: int) -> np.ndarray:
+    """Origins ``(row, col)`` whose ``h x w`` window of ``free`` is all true."""
+    return np.ascontiguousarray(_window_and(_window_and(free, w, 1), h, 0))
+
+
+def _next_true(flat: np.ndarray, p: int) -> int:
+    n = flat.size
+    step = 4096
+    while p < n:
+        e = min(n, p + step)
+        seg = flat[p:e]
+        k = int(seg.argmax())
+        if seg[k]:
+            return p + k
+        p = e
+        step *= 2
+    return -1
+
+
+def hpwl(nets: Iterable[Sequence[int]], xs: Sequence[float], ys: Sequence[float]) -> float:
+    """Total half-perimeter wirelength of ``nets`` (lists of item indices), mm.
+
+    For each net with two or more members: (max x - min x) + (max y - min y)
+    of the members' courtyard centres.
+
+    Examples
+    --------
+    >>> hpwl([[0, 1, 2], [1]], [0.0, 3.0, 1.0], [0.0, 1.0, 4.0])
+    7.0
+    """
+    total = 0.0
+    x = np.asarray(xs, dtype=float)
+    y = np.asarray(ys, dtype=float)
+    for m in nets:
+        if len(m) < 2:
+            continue
+        idx = np.asarray(m)
+        total += float(x[idx].max() - x[idx].min() + y[idx].max() - y[idx].min())
+    return total
+
+
+# --------------------------------------------------------------------------
+# packing on a grid
+# --------------------------------------------------------------------------
+@dataclass
+class _Grid:
+    x0: float
+    y0: float
+    cell: float
+    nx: int
+    ny: int
+
+
+@dataclass
+class _Run:
+    gap: float
+    slots: dict = field(default_factory=dict)  # item -> (side, orient, row, col)
+    unplaced: list = field(default_factory=list)
+    cols: tuple | None = None
+    classes: dict = field(default_factory=dict)  # key -> list of items
+    class_of: dict = field(default_factory=dict)
+    top_level: dict = field(default_factory=dict)  # item -> level index or None
+    bottom_ok: dict = field(default_factory=dict)
+
+    @property
+    def placed(self) -> int:
+        return len(self.slots)
+
+
+def _choose_cell(bounds, dims: Sequence[float], budget: int) -> float:
+    minx, miny, maxx, maxy = bounds
+    span = max(maxx - minx, 1e-9) * max(maxy - miny, 1e-9)
+    c_min = math.sqrt(span / budget)
+    for c in CELL_SIZES:
+        if c < c_min:
+            continue
+        if all(abs(d / c - round(d / c)) < 1e-6 for d in dims):
+            return c
+    return max(CELL_SIZES[0], c_min)
+
+
+class _Packer:
+    """Bottom-left fill of classes of equal rectangles on a boolean grid."""
+
+    def __init__(self, items: Sequence[PlaceItem], area: BaseGeometry, zones, rank: Sequence[int],
+                 budget: int = CELL_BUDGET):
+        self.items = items
+        self.area = area
+        self.rank = rank
+        dims = [d for it in items for d in (it.length_mm, it.width_mm)]
+        minx, miny, maxx, maxy = area.bounds
+        c = _choose_cell(area.bounds, dims, budget)
+        nx = max(1, int(math.ceil((maxx - minx) / c - 1e-9)))
+        ny = max(1, int(math.ceil((maxy - miny) / c - 1e-9)))
+        self.grid = _Grid(minx, miny, c, nx, ny)
+        g = self.grid
+        self.base = cells_inside(area, g.x0, g.y0, c, nx, ny)
+        # height levels: zone heights ascending; level k = zones with max >= heights[k]
+        self.zones = [(float(z.max_height_mm), z.polygon) for z in zones if not z.polygon.is_empty]
+        self.heights = sorted({h for h, _ in self.zones})
+        self._masks: dict[int, np.ndarray] = {}
+        self.wc = [max(1, int(math.ceil(it.length_mm / c - 1e-9))) for it in items]
+        self.hc = [max(1, int(math.ceil(it.width_mm / c - 1e-9))) for it in items]
+
+    # -- masks -------------------------------------------------------------
+    def zone_union(self, k: int) -> BaseGeometry:
+        polys = [p for h, p in self.zones if h >= self.heights[k]]
+        u = shapely.union_all(polys)
+        # heal hairline seams between neighbouring zones
+        return u.buffer(1e-7, join_style="mitre").buffer(-1e-7, join_style="mitre")
+
+    def mask(self, k: int) -> np.ndarray:
+        """Free cells at height level ``k`` (before any part is placed)."""
+        if not self.zones:
+            return self.base
+        if k not in self._masks:
+            g = self.grid
+            self._masks[k] = self.base & cells_inside(self.zone_union(k), g.x0, g.y0, g.cell, g.nx, g.ny)
+        return self._masks[k]
+
+    def level(self, height: float) -> int | None:
+        """Smallest level whose zones allow ``height``; None when none does."""
+        if not self.zones:
+            return 0
+        k = bisect.bisect_left(self.heights, height - 1e-9)
+        return k if k < len(self.heights) else None
+
+    @property
+    def lowest_zone(self) -> float:
+        return self.heights[0] if self.heights else math.inf
+
+    # -- one packing ---------------------------------------------------------
+    def band(self, width: float) -> tuple[int, int] | None:
+        """Cell columns of a band ``width`` mm wide centred on the area's centroid (None: the band
+        would be nearly as wide as the area)."""
+        g = self.grid
+        n = int(math.ceil(width / g.cell))
+        if n >= 0.8 * g.nx:
+            return None
+        mid = int(round((self.area.centroid.x - g.x0) / g.cell))
+        lo = min(max(0, mid - n // 2), g.nx - n)
+        return (lo, lo + n)
+
+    def run(self, gap: float, sides: int, progress: Progress | None = None,
+            frac: tuple[float, float] = (0.0, 1.0), cols: tuple[int, int] | None = None) -> _Run:
+        items = self.items
+        run = _Run(gap)
+        run.cols = cols
+        classes: dict[tuple, list[int]] = {}
+        for i, it in enumerate(items):
+            lvl = self.level(it.height_mm + gap)
+            bot = sides == 2 and gap > 0 and it.height_mm <= gap + 1e-9
+            run.top_level[i] = lvl
+            run.bottom_ok[i] = bot
+            key = (bot, self.wc[i], self.hc[i], -1 if lvl is None else lvl)
+            classes.setdefault(key, []).append(i)
+        for members in classes.values():
+            members.sort(key=lambda i: self.rank[i])
+
+        def order(key):
+            bot, w, h, lvl = key
+            return (bot, -(w * h), -max(w, h), -min(w, h), -lvl, w, h)
+
+        keys = sorted(classes, key=order)
+        run.classes = {k: classes[k] for k in keys}
+        for k, members in run.classes.items():
+            for i in members:
+                run.class_of[i] = k
+        g = self.grid
+        occ = {"top": np.zeros((g.ny, g.nx), dtype=bool)}
+        if sides == 2 and gap > 0:
+            occ["bottom"] = np.zeros((g.ny, g.nx), dtype=bool)
+        bottom_mask = self.mask(self.level(gap) or 0) if "bottom" in occ else None
+        n_items = max(len(items), 1)
+        done = 0
+        for ci, key in enumerate(keys):
+            bot, w0, h0, lvl = key
+            members = run.classes[key]
+            sides_here = []
+            if lvl >= 0:
+                sides_here.append(("top", self.mask(lvl)))
+            if bot and bottom_mask is not None:
+                sides_here.append(("bottom", bottom_mask))
+            maps = []  # [side, orient, h, w, F, flat, pointer, row offset]
+            for side, base in sides_here:
+                free = base & ~occ[side]
+                if cols is not None:
+                    free[:, :cols[0]] = False
+                    free[:, cols[1]:] = False
+                # rows below the lowest free cell hold no origin: leave them out of the maps
+                rows_free = free.any(axis=1)
+                r0 = int(rows_free.argmax()) if rows_free.any() else free.shape[0]
+                free = free[r0:]
+                shapes = [(0, h0, w0)] + ([(1, w0, h0)] if w0 != h0 else [])
+                for o, h, w in shapes:
+                    F = _feasible(free, h, w)
+                    maps.append([side, o, h, w, F, F.reshape(-1), 0, r0])
+            for pos, i in enumerate(members):
+                best = None
+                for side_name in ("top", "bottom"):
+                    for m in maps:
+                        if m[0] != side_name or m[4].size == 0:
+                            continue
+                        p = _next_true(m[5], m[6])
+                        m[6] = p if p >= 0 else m[5].size
+                        if p < 0:
+                            continue
+                        ncol = m[4].shape[1]
+                        row, col = divmod(p, ncol)
+                        row += m[7]
+                        cand = (row + m[2], row, col, m[2], m[1])
+                        if best is None or cand < best[0]:
+                            best = (cand, m, row, col)
+                    if best is not None:
+                        break
+                if best is None:
+                    run.unplaced.extend(members[pos:])
+                    break
+                _, m, row, col = best
+                side, o, h, w = m[0], m[1], m[2], m[3]
+                occ[side][row:row + h, col:col + w] = True
+                run.slots[i] = (side, o, row, col)
+                for mm in maps:
+                    if mm[0] != side or mm[4].size == 0:
+                        continue
+                    hh, ww, r0 = mm[2], mm[3], mm[7]
+                    F = mm[4]
+                    F[max(0, row - r0 - hh + 1):max(0, row - r0 + h), max(0, col - ww + 1):col + w] = False
+            done += len(members)
+            if progress is not None and (ci % 4 == 0 or ci == len(keys) - 1):
+                progress("placing parts", frac[0] + (frac[1] - frac[0]) * done / n_items)
+        return run
+
+    # -- geometry of a slot --------------------------------------------------
+    def rect(self, i: int, slot) -> tuple[float, float, float, float]:
+        side, o, row, col = slot
+        g = self.grid
+        it = self.items[i]
+        dx, dy = (it.length_mm, it.width_mm) if o == 0 else (it.width_mm, it.length_mm)
+        x = g.x0 + col * g.cell
+        y = g.y0 + row * g.cell
+        return (x, y, x + dx, y + dy)
+
+    def static_fit(self, i: int, k: int | None) -> bool:
+        """Does item ``i`` fit anywhere at level ``k`` (None: ignoring heights) on an empty board?"""
+        base = self.base if k is None else self.mask(k)
+        w, h = self.wc[i], self.hc[i]
+        for hh, ww in ((h, w), (w, h)):
+            F = _feasible(base, hh, ww)
+            if F.size and F.any():
+                return True
+        return False
+
+
+# --------------------------------------------------------------------------
+# connectivity
+# --------------------------------------------------------------------------
+def _nets(items: Sequence[PlaceItem]) -> list[list[int]]:
+    """Nets as sorted lists of item indices (two or more members), in name order."""
+    members: dict[str, set[int]] = {}
+    for i, it in enumerate(items):
+        for n in it.nets:
+            members.setdefault(n, set()).add(i)
+    return [sorted(members[n]) for n in sorted(members) if len(members[n]) >= 2]
+
+
+def _rank(items: Sequence[PlaceItem], nets: list[list[int]]) -> list[int]:
+    """Breadth-first order over shared small nets, started at the parts with most pins."""
+    n = len(items)
+    nbr: list[dict[int, float]] = [dict() for _ in range(n)]
+    for m in nets:
+        if len(m) > OPT_FANOUT:
+            continue
+        w = 1.0 / (len(m) - 1)
+        for a in m:
+            for b in m:
+                if a != b:
+                    nbr[a][b] = nbr[a].get(b, 0.0) + w
+    keys = [_natural_key(it.ref) for it in items]
+    start = sorted(range(n), key=lambda i: (-items[i].pin_count, keys[i]))
+    rank = [0] * n
+    seen = [False] * n
+    r = 0
+    for s in start:
+        if seen[s]:
+            continue
+        seen[s] = True
+        q = deque([s])
+        while q:
+            a = q.popleft()
+            rank[a] = r
+            r += 1
+            for b in sorted(nbr[a], key=lambda b: (-nbr[a][b], keys[b])):
+                if not seen[b]:
+                    seen[b] = True
+                    q.append(b)
+    return rank
+
+
+def _improve(packer: _Packer, run: _Run, nets: list[list[int]], progress: Progress | None) -> None:
+    """Pairwise swaps inside classes that lower the wirelength (module notes, step 3)."""
+    from scipy.spatial import cKDTree
+
+    items = packer.items
+    slots = run.slots
+    n = len(items)
+    xs = [0.0] * n
+    ys = [0.0] * n
+    for i, s in slots.items():
+        x1, y1, x2, y2 = packer.rect(i, s)
+        xs[i] = (x1 + x2) / 2
+        ys[i] = (y1 + y2) / 2
+    opt_nets = [[i for i in m if i in slots] for m in nets if len(m) <= OPT_FANOUT]
+    opt_nets = [m for m in opt_nets if len(m) >= 2]
+    nets_of: list[list[int]] = [[] for _ in range(n)]
+    for k, m in enumerate(opt_nets):
+        for i in m:
+            nets_of[i].append(k)
+    groups: dict[tuple, list[int]] = {}
+    for i in sorted(slots):
+        groups.setdefault(run.class_of[i], []).append(i)
+    trees = {}
+    occupant: dict[tuple, list[int]] = {}
+    slot_xy: dict[tuple, np.ndarray] = {}
+    where: dict[int, int] = {}
+    for key, members in groups.items():
+        if len(members) < 2:
+            continue
+        pts = np.array([[xs[i], ys[i]] for i in members])
+        trees[key] = cKDTree(pts)
+        occupant[key] = list(members)
+        slot_xy[key] = pts
+        for s, i in enumerate(members):
+            where[i] = s
+    movable = [i for i in sorted(where) if nets_of[i]]
+    if not movable:
+        return
+
+    def cost(k: int) -> float:
+        m = opt_nets[k]
+        xv = [xs[i] for i in m]
+        yv = [ys[i] for i in m]
+        return max(xv) - min(xv) + max(yv) - min(yv)
+
+    rng = np.random.default_rng(SEED)
+    budget = SWAP_BUDGET
+    for p in range(SWAP_PASSES):
+        gained = 0.0
+        order = [movable[j] for j in rng.permutation(len(movable))]
+        for i in order:
+            if budget <= 0:
+                break
+            key = run.class_of[i]
+            nb_x = []
+            nb_y = []
+            for k in nets_of[i]:
+                for j in opt_nets[k]:
+                    if j != i:
+                        nb_x.append(xs[j])
+                        nb_y.append(ys[j])
+            if not nb_x:
+                continue
+            tx = float(np.median(nb_x))
+            ty = float(np.median(nb_y))
+            kq = min(SWAP_CANDIDATES, len(occupant[key]))
+            _, cand = trees[key].query((tx, ty), k=kq)
+            cand = np.atleast_1d(cand)
+            best = (-1e-9, None)
+            si = where[i]
+            for s in cand:
+                s = int(s)
+                j = occupant[key][s]
+                if j == i:
+                    continue
+                budget -= 1
+                touched = sorted(set(nets_of[i]) | set(nets_of[j]))
+                before = sum(cost(k) for k in touched)
+                xi, yi, xj, yj = xs[i], ys[i], xs[j], ys[j]
+                # same class: swap slot origins, keep each item's own size
+                xs[i], ys[i] = xj + 0.0, yj + 0.0
+                xs[j], ys[j] = xi, yi
+                after = sum(cost(k) for k in touched)
+                xs[i], ys[i], xs[j], ys[j] = xi, yi, xj, yj
+                d = after - before
+                if d < best[0]:
+                    best = (d, s)
+            if best[1] is not None:
+                s = best[1]
+                j = occupant[key][s]
+                slots[i], slots[j] = slots[j], slots[i]
+                for a in (i, j):
+                    x1, y1, x2, y2 = packer.rect(a, slots[a])
+                    xs[a] = (x1 + x2) / 2
+                    ys[a] = (y1 + y2) / 2
+                occupant[key][si], occupant[key][s] = j, i
+                where[i], where[j] = s, si
+                gained -= best[0]
+        if progress is not None:
+            progress("improving wirelength", (p + 1) / SWAP_PASSES)
+        if gained <= 1e-9 or budget <= 0:
+            break
+
+
+# --------------------------------------------------------------------------
+# entry point
+# --------------------------------------------------------------------------
+def _check_inputs(items: Sequence[PlaceItem], board: BoardOptions) -> None:
+    if board.sides not in (1, 2):
+        raise ProjectError("project.toml", f"sides must be 1 or 2, not {board.sides!r}", key="board.sides")
+    for name in ("edge_clearance_mm", "min_inside_radius_mm", "thickness_mm"):
+        v = getattr(board, name)
+        if not isinstance(v, (int, float)) or not math.isfinite(v) or v < 0:
+            raise ProjectError("project.toml", f"{name} must be a number of 0 or more, not {v!r}",
+                               key=f"board.{name}")
+    seen = set()
+    for it in items:
+        for name in ("length_mm", "width_mm", "height_mm"):
+            v = getattr(it, name)
+            if not isinstance(v, (int, float)) or not math.isfinite(v) or v < 0 or (v == 0 and name != "height_mm"):
+                raise DesignError("design", f"courtyard {name} must be a positive number, not {v!r}", ref=it.ref)
+        if it.ref in seen:
+            raise DesignError("design", "the part is listed twice", ref=it.ref)
+        seen.add(it.ref)
+
+
+def place_and_fit(items: Sequence[PlaceItem], region: Region, board: BoardOptions, *,
+                  user_board: BaseGeometry | None = None, progress: Progress | None = None) -> FitResult:
+    """Place every item's courtyard on a board inside ``region``, or say what blocks it.
+
+    Parameters
+    ----------
+    items : sequence of PlaceItem
+        The fitted parts (:func:`pipeline.area.items_from_design`).
+    region : Region
+        Usable board region and height zones, mm.
+    board : BoardOptions
+        ``edge_clearance_mm``, ``sides``, ``layers`` (for the estimate),
+        ``outline`` and ``min_inside_radius_mm`` (for the proposed outline).
+    user_board : Polygon, optional
+        The user's own board outline (layer ``BOARD``): it is the outline;
+        the fit is checked on it, and a board reaching outside the usable
+        region does not fit.
+    progress : callable(message, fraction), optional
+
+    Returns
+    -------
+    FitResult
+        ``fits`` is true when every item is placed (and a user's board lies
+        inside the region); ``placements`` sorted by ref (natural order);
+        ``blocked_by`` plain sentences naming what to change;
+        ``wirelength_mm`` the total half-perimeter wirelength over all nets;
+        ``warnings`` findings (tight routing, bottom side used, ...).
+
+    Notes
+    -----
+    The model and the method are in the module notes. Cost for n parts
+    in c classes on a grid of G cells: O(c G log s + n) for the packing and
+    O(n) swap evaluations of bounded fanout; a 2,000-part design runs in a
+    few seconds (bench/bench_place.py).
+
+    Examples
+    --------
+    >>> from shapely.geometry import box
+    >>> from pipeline.model import HeightZone
+    >>> reg = Region(box(0, 0, 20, 10), (HeightZone(box(0, 0, 20, 10), 3.0),), 0.8)
+    >>> items = [PlaceItem("R1", 2.8, 1.3, 0.5, ("A",)), PlaceItem("R2", 2.8, 1.3, 0.5, ("A",))]
+    >>> fit = place_and_fit(items, reg, BoardOptions())
+    >>> fit.fits, [p.ref for p in fit.placements]
+    (True, ['R1', 'R2'])
+    """
+    items = tuple(items)
+    _check_inputs(items, board)
+    estimate = estimate_area(items, board.layers)
+    warnings: list[Finding] = []
+    blocked: list[str] = []
+    if progress is not None:
+        progress("proposing the board outline", 0.0)
+
+    board_region = region.board_region
+    if user_board is not None and not user_board.is_empty:
+        outline = orient(user_board, 1.0) if user_board.geom_type == "Polygon" else user_board
+        outside = outline.difference(board_region) if board_region is not None else outline
+        if outside.area > 1e-6:
+            c = outside.representative_point()
+            blocked.append(
+                f"The board outline you gave reaches {_area(outside.area)} mm² outside the usable region "
+                f"(cavity minus wall clearance and keep-outs), near ({_fmt(c.x)}, {_fmt(c.y)}) mm: "
+                f"shrink it there or remove the BOARD outline to have one proposed.")
+        where = outline.intersection(board_region) if board_region is not None else outline
+    else:
+        outline = propose_outline(region, (), board)
+        where = outline
+        pieces = [p for p in polygons_of(board_region) if p.area > 1e-3]
+        if len(pieces) > 1:
+            warnings.append(Finding(
+                "warning", "fit.region-split", (),
+                f"The usable region is in {len(pieces)} separate pieces; the proposed board uses the largest "
+                f"({_area(outline.area)} mm² of {_area(sum(p.area for p in pieces))} mm²)."))
+    area = _inset(where, board.edge_clearance_mm) if not where.is_empty else where
+    area = shapely.union_all([p for p in polygons_of(area)]) if not area.is_empty else Polygon()
+
+    refs = [it.ref for it in items]
+    nets = _nets(items)
+    placements: list[Placement] = []
+    unplaced: list[str] = []
+    gap = 0.0
+    xs = [0.0] * len(items)
+    ys = [0.0] * len(items)
+    if items and area.is_empty:
+        unplaced = sorted(refs, key=_natural_key)
+        blocked.append(
+            f"Nothing is left to place parts on: the board area is {_area(where.area)} mm² and keeping "
+            f"{_fmt(board.edge_clearance_mm)} mm from its edges leaves no room.")
+    elif items:
+        rank = _rank(items, nets)
+        packer = _Packer(items, area, region.zones, rank)
+        gaps = [0.0]
+        if board.sides == 2:
+            hs = sorted({float(it.height_mm) for it in items if 0 < it.height_mm <= packer.lowest_zone + 1e-9})
+            if len(hs) > MAX_GAPS - 1:
+                pick = np.unique(np.linspace(0, len(hs) - 1, MAX_GAPS - 1).round().astype(int))
+                hs = [hs[k] for k in pick]
+            gaps += hs
+        # a roomy board: first try a compact block (a band about sqrt(ROOMY x courtyards) wide)
+        tries: list[tuple[float, tuple[int, int] | None]] = []
+        if estimate.courtyard_area_mm2 * ROOMY <= area.area:
+            longest = max(max(it.length_mm, it.width_mm) for it in items)
+            cols = packer.band(max(math.sqrt(ROOMY * estimate.courtyard_area_mm2), 1.5 * longest))
+            if cols is not None:
+                tries.append((0.0, cols))
+        tries += [(gp, None) for gp in gaps]
+        best = None
+        for gi, (gp, cols) in enumerate(tries):
+            lo = 0.05 + 0.75 * gi / len(tries)
+            run = packer.run(gp, board.sides, progress, (lo, lo + 0.75 / len(tries)), cols)
+            better = best is None or (run.placed, -run.gap) > (best.placed, -best.gap)
+            if better:
+                best = run
+            if not run.unplaced:
+                break
+        run = best
+        gap = run.gap
+        _improve(packer, run, nets, progress)
+        # self-check and output
+        idx = sorted(run.slots, key=lambda i: _natural_key(refs[i]))
+        rects = {i: packer.rect(i, run.slots[i]) for i in idx}
+        bad = _self_check(packer, run, rects, gap)
+        if bad:
+            warnings.append(Finding(
+                "warning", "fit.self-check", tuple(refs[i] for i in sorted(bad)),
+                f"The placement self-check rejected {len(bad)} placed parts; they are reported as unplaced."))
+        for i in idx:
+            if i in bad:
+                continue
+            side, o, _, _ = run.slots[i]
+            x1, y1, x2, y2 = rects[i]
+            xs[i] = (x1 + x2) / 2
+            ys[i] = (y1 + y2) / 2
+            placements.append(Placement(refs[i], xs[i], ys[i], 90 if o else 0, side, box(x1, y1, x2, y2)))
+        not_placed = sorted(set(run.unplaced) | bad)
+        unplaced = sorted((refs[i] for i in not_placed), key=_natural_key)
+        blocked += _diagnose(packer, run, not_placed, region, board)
+        if gap > 0 and any(p.side == "bottom" for p in placements):
+            bottom = [p.ref for p in placements if p.side == "bottom"]
+            warnings.append(Finding(
+                "info", "fit.bottom-side", tuple(bottom),
+                f"{len(bottom)} parts go on the bottom side; the board then sits {_fmt(gap)} mm above the "
+                f"floor on them, which leaves that much less height for the top side."))
+
+    placed_set = {p.ref for p in placements}
+    wl = 0.0
+    if placements:
+        live = [[i for i in m if refs[i] in placed_set] for m in nets]
+        wl = hpwl(live, xs, ys)
+    fits = not unplaced and not blocked
+    board_area = float(outline.area) if outline is not None else 0.0
+    if not fits:
+        blocked.append(
+            f"The usable board area is {_area(board_area)} mm² after clearances; the parts' courtyards "
+            f"take {_area(estimate.courtyard_area_mm2)} mm² and, with room to route, need about "
+            f"{_area(estimate.expected_mm2)} mm² ({_area(estimate.low_mm2)} to {_area(estimate.high_mm2)}).")
+    elif items and estimate.expected_mm2 > board_area:
+        warnings.append(Finding(
+            "warning", "fit.tight", (),
+            f"Every part fits, but the board's {_area(board_area)} mm² is less than the "
+            f"{_area(estimate.expected_mm2)} mm² the routing rule of thumb suggests: routing may be hard; "
+            f"consider more layers or smaller packages."))
+    if progress is not None:
+        progress("placement done", 1.0)
+    return FitResult(
+        fits=fits,
+        region_area_mm2=float(region.area_mm2),
+        courtyard_area_mm2=float(estimate.courtyard_area_mm2),
+        estimate=estimate,
+        placements=tuple(placements),
+        board_outline=outline,
+        blocked_by=tuple(blocked),
+        unplaced=tuple(unplaced),
+        wirelength_mm=float(wl),
+        warnings=tuple(warnings),
+    )
+
+
+def _self_check(packer: _Packer, run: _Run, rects: dict, gap: float) -> set[int]:
+    """Items whose courtyard breaks a rule when checked exactly with shapely."""
+    if not rects:
+        return set()
+    idx = list(rects)
+    boxes = shapely.box(*np.array([rects[i] for i in idx]).T)
+    bad: set[int] = set()
+    ok = shapely.covers(packer.area.buffer(TOL, join_style="mitre"), boxes)
+    bad |= {i for i, good in zip(idx, ok) if not good}
+    if packer.zones:
+        by_level: dict[int, list[int]] = {}
+        for n, i in enumerate(idx):
+            side = run.slots[i][0]
+            h = packer.items[i].height_mm + (gap if side == "top" else 0.0)
+            if side == "bottom":
+                h = max(gap, 0.0)
+            lvl = packer.level(h)
+            if lvl is None:
+                bad.add(i)
+                continue
+            by_level.setdefault(lvl, []).append(n)
+        for lvl, ns in by_level.items():
+            allowed = packer.zone_union(lvl).buffer(TOL, join_style="mitre")
+            okz = shapely.covers(allowed, boxes[ns])
+            bad |= {idx[n] for n, good in zip(ns, okz) if not good}
+    for side in ("top", "bottom"):
+        ns = [n for n, i in enumerate(idx) if run.slots[i][0] == side]
+        if len(ns) < 2:
+            continue
+        sub = boxes[ns]
+        tree = shapely.STRtree(sub)
+        a, b = tree.query(sub, predicate="intersects")
+        keep = a < b
+        a, b = a[keep], b[keep]
+        if len(a):
+            inter = shapely.area(shapely.intersection(sub[a], sub[b]))
+            for x, y, v in zip(a, b, inter):
+                if v > 1e-9:
+                    bad.add(idx[ns[int(y)]])
+    return bad
+
+
+def _diagnose(packer: _Packer, run: _Run, not_placed: Sequence[int], region: Region,
+              board: BoardOptions) -> list[str]:
+    """Plain sentences for the parts that found no place."""
+    if not not_placed:
+        return []
+    items = packer.items
+    out: list[str] = []
+    too_tall: list[int] = []
+    too_big: list[int] = []
+    no_zone_room: list[int] = []
+    no_room: list[int] = []
+    static: dict[tuple, str] = {}
+    for i in not_placed:
+        key = run.class_of.get(i)
+        lvl = run.top_level.get(i)
+        if lvl is None and not run.bottom_ok.get(i):
+            too_tall.append(i)
+            continue
+        if key not in static:
+            if not packer.static_fit(i, None):
+                static[key] = "big"
+            elif lvl is not None and not packer.static_fit(i, lvl) and not run.bottom_ok.get(i):
+                static[key] = "zone"
+            else:
+                static[key] = "room"
+        {"big": too_big, "zone": no_zone_room, "room": no_room}[static[key]].append(i)
+
+    def refs(ids):
+        return _names(sorted((items[i].ref for i in ids), key=_natural_key))
+
+    deepest = packer.heights[-1] if packer.heights else math.inf
+    for i in sorted(too_tall, key=lambda i: (-items[i].height_mm, _natural_key(items[i].ref))):
+        it = items[i]
+        raised = f" with the board raised {_fmt(run.gap)} mm on bottom-side parts" if run.gap > 0 else ""
+        out.append(
+            f"{it.ref} is {_fmt(it.height_mm)} mm tall, but the deepest part of the cavity leaves only "
+            f"{_fmt(deepest - run.gap)} mm above a {_fmt(region.thickness_mm)} mm board{raised}: "
+            f"use a lower package, a thinner board or a deeper cavity.")
+    for i in sorted(too_big, key=lambda i: _natural_key(items[i].ref)):
+        it = items[i]
+        out.append(
+            f"{it.ref}'s courtyard ({_fmt(it.length_mm)} x {_fmt(it.width_mm)} mm) is larger than any "
+            f"place on the board in both orientations (after the {_fmt(board.edge_clearance_mm)} mm edge "
+            f"clearance): it cannot fit whatever else is placed.")
+    if no_zone_room:
+        hmin = min(items[i].height_mm for i in no_zone_room)
+        out.append(
+            f"{refs(no_zone_room)}: no part of the board where the lid leaves at least "
+            f"{_fmt(hmin + run.gap)} mm above it is large enough for the courtyard; move them to lower "
+            f"packages or make the deep area larger.")
+    if no_room:
+        area = sum(items[i].length_mm * items[i].width_mm for i in no_room)
+        out.append(
+            f"No room left for {len(no_room)} part{'s' if len(no_room) != 1 else ''} after placing the "
+            f"others: {refs(no_room)} ({_area(area)} mm² of courtyard). Use smaller packages, "
+            + ("a two-sided board (sides = 2), " if board.sides == 1 else "")
+            + "or a larger cavity.")
+    return out

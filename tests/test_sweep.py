@@ -1,0 +1,116 @@
+"""Tests of pipeline.sweep: the largest passive size that still fits."""
+
+from __future__ import annotations
+
+import json
+import math
+
+import pytest
+from shapely.geometry import box
+
+from pipeline.errors import ProjectError
+from pipeline.model import BoardOptions, Design, HeightZone, Net, Part, PartKind, PinDef, PinRef, Region
+from pipeline.sweep import sweep_sizes, two_terminal_passives
+
+SIZES = ("0201", "0402", "0603", "0805", "1206")
+
+
+@pytest.fixture(scope="module")
+def lib():
+    library = pytest.importorskip("pipeline.library")
+    return library.load_library()
+
+
+def _two(ref, kind, package, dnp=False):
+    return Part(ref, kind, package, (PinDef("1", "1", "passive"), PinDef("2", "2", "passive")), dnp=dnp)
+
+
+def _design():
+    parts = [_two(f"R{i}", "resistor", "0603") for i in range(1, 13)]
+    parts += [_two(f"C{i}", "capacitor", "0603") for i in range(1, 7)]
+    parts += [_two("L1", "inductor", "0805"), _two("FB1", "ferrite", "0603")]
+    parts += [_two("C99", "capacitor", "0603", dnp=True)]  # not fitted: not swept, not placed
+    parts += [Part("D1", "diode", "SOD-123", (PinDef("1", "K", "passive"), PinDef("2", "A", "passive")))]
+    parts += [Part("Q1", "my-cap-array", "0603", (PinDef("1", "1", "passive"), PinDef("2", "2", "passive"),
+                                                   PinDef("3", "3", "passive")))]
+    nets = [Net("A", tuple(PinRef(f"R{i}", "1") for i in range(1, 13)) + (PinRef("D1", "1"),)),
+            Net("B", tuple(PinRef(f"C{i}", "2") for i in range(1, 7)) + (PinRef("L1", "1"), PinRef("FB1", "2")))]
+    kinds = (PartKind("my-cap-array", "passive", (PinDef("1", "1", "passive"), PinDef("2", "2", "passive"),
+                                                  PinDef("3", "3", "passive"))),)
+    return Design("sweep", "A", "design.toml", tuple(parts), tuple(nets), kinds=kinds)
+
+
+def test_swept_parts(lib):
+    # resistor, capacitor, inductor, ferrite (two pins, category passive) are swept; the diode
+    # (semiconductor), the three-pin passive array and the dnp part are not
+    swept = two_terminal_passives(_design(), lib)
+    assert set(swept) == {f"R{i}" for i in range(1, 13)} | {f"C{i}" for i in range(1, 7)} | {"L1", "FB1"}
+
+
+def _areas(lib, design, size, swept, level="nominal"):
+    total = 0.0
+    for p in design.parts:
+        if p.dnp:
+            continue
+        cy = lib.package(size if p.ref in swept else p.package).courtyard(level)
+        total += cy.length_mm * cy.width_mm
+    return total
+
+
+def test_sweep_largest_fitting(lib):
+    design = _design()
+    swept = two_terminal_passives(design, lib)
+    a0603 = _areas(lib, design, "0603", swept)
+    a1206 = _areas(lib, design, "1206", swept)
+    # a square board whose usable area lies between 2.2 x the 0603 courtyards (roomy) and the
+    # 1206 courtyards (which then cannot fit: area argument, non-overlapping courtyards)
+    usable = (2.2 * a0603 + a1206) / 2
+    assert 2.2 * a0603 < usable < a1206
+    side = math.sqrt(usable)
+    board = BoardOptions(edge_clearance_mm=0.0, min_inside_radius_mm=0.0, sides=1)
+    geom = box(0, 0, side, side)
+    region = Region(geom, (HeightZone(geom, 4.0),), 0.8)
+    progress = []
+    res = sweep_sizes(design, lib, region, board, SIZES, progress=lambda m, f: progress.append(f))
+    assert [r.size for r in res.rows] == list(SIZES)
+    assert res.row("1206").fits is False and res.row("1206").unplaced
+    for s in ("0201", "0402", "0603"):
+        assert res.row(s).fits, s
+    assert res.largest_fitting in ("0603", "0805")
+    assert res.largest_fitting == ("0805" if res.row("0805").fits else "0603")
+    best = res.row(res.largest_fitting)
+    assert res.margin_mm2 == best.margin_mm2
+    # margin = board area - expected estimate (closed form of the stated rule, pipeline.area):
+    # expected = A_c (1 + 0.5 sqrt(p/2) / (layers/2))
+    parts = [p for p in design.parts if not p.dnp]
+    p_mean = sum(len(p.pins) for p in parts) / len(parts)
+    a_c = _areas(lib, design, best.size, swept)
+    expected = a_c * (1 + 0.5 * math.sqrt(p_mean / 2) / (board.layers / 2))
+    assert best.courtyard_area_mm2 == pytest.approx(a_c)
+    assert best.estimated_board_area_mm2 == pytest.approx(expected)
+    # the proposed outline is the square less the 0.005 mm simplification inset on each side
+    assert best.board_area_mm2 == pytest.approx((side - 0.01) ** 2, rel=1e-9)
+    assert best.margin_mm2 == pytest.approx(best.board_area_mm2 - expected)
+    assert best.free_mm2 == pytest.approx(best.board_area_mm2 - a_c)
+    # courtyard areas rise with the EIA size code (REFERENCES.md s1 body sizes rise 0201 -> 1206)
+    areas = [r.courtyard_area_mm2 for r in res.rows]
+    assert areas == sorted(areas) and len(set(areas)) == len(areas)
+    assert progress and progress[-1] == 1.0
+    d = res.to_dict()
+    assert json.loads(json.dumps(d)) == d
+    assert d["largest_fitting"] == res.largest_fitting and len(d["sizes"]) == len(SIZES)
+
+
+def test_sweep_nothing_fits(lib):
+    geom = box(0, 0, 3, 3)
+    region = Region(geom, (HeightZone(geom, 4.0),), 0.8)
+    res = sweep_sizes(_design(), lib, region, BoardOptions(), ("0402", "0603"))
+    assert res.largest_fitting is None and res.margin_mm2 is None
+    assert not any(r.fits for r in res.rows)
+
+
+def test_sweep_unknown_size(lib):
+    geom = box(0, 0, 30, 30)
+    region = Region(geom, (HeightZone(geom, 4.0),), 0.8)
+    with pytest.raises(ProjectError):
+        sweep_sizes(_design(), lib, region, BoardOptions(), ("0603", "0604x"))
