@@ -60,17 +60,17 @@ def _new(version: str = "R2010", unit: int | None = units.MM):
 
 
 def controller_bay():
-    """The demo controller's accessory bay: a 46 x 30 mm pocket, corner radius 4 mm,
-    two 5 mm screw bosses and a 4 mm wide lid rib (depth 2.0 mm) across it."""
+    """The demo controller's accessory bay: a 28 x 17 mm pocket, corner radius 3 mm,
+    two 4 mm screw bosses and a 3.5 mm wide lid rib (depth 2.0 mm) across it."""
     doc, msp = _new()
     for name in ("CAVITY", "KEEPOUT", "DEPTH-2.0"):
         doc.layers.add(name)
-    msp.add_lwpolyline(rounded_rect(0, 0, 46, 30, 4), format="xyb", close=True,
+    msp.add_lwpolyline(rounded_rect(0, 0, 28, 17, 3), format="xyb", close=True,
                        dxfattribs={"layer": "CAVITY"})
-    msp.add_circle((7, 23), 2.5, dxfattribs={"layer": "KEEPOUT"})
-    msp.add_circle((39, 7), 2.5, dxfattribs={"layer": "KEEPOUT"})
+    msp.add_circle((4.5, 12.5), 2.0, dxfattribs={"layer": "KEEPOUT"})
+    msp.add_circle((23.5, 4.5), 2.0, dxfattribs={"layer": "KEEPOUT"})
     # the rib runs across the whole lid, so it is drawn past the walls
-    msp.add_lwpolyline(rect(21, -1, 25, 31), close=True, dxfattribs={"layer": "DEPTH-2.0"})
+    msp.add_lwpolyline(rect(12.5, -1, 16, 18), close=True, dxfattribs={"layer": "DEPTH-2.0"})
     return doc
 
 

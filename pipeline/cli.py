@@ -81,6 +81,22 @@ def _echo_findings(findings, err: bool, verbose: bool = False) -> None:
         click.echo(f"{_SEV_MARK[f.severity]}: {f.message}{subj}", err=err)
 
 
+def _echo_sweep(sw: dict, err: bool) -> None:
+    click.echo(f"passive sizes ({len(sw['swept_refs'])} two-terminal passives swept):", err=err)
+    click.echo(f"  {'size':<6}{'fits':<6}{'courtyards mm2':>15}{'estimate mm2':>14}{'margin mm2':>12}  not placed",
+               err=err)
+    for row in sw["sizes"]:
+        click.echo(f"  {row['size']:<6}{'yes' if row['fits'] else 'no':<6}{row['courtyard_area_mm2']:>15.1f}"
+                   f"{row['estimated_board_area_mm2']:>14.1f}{row['margin_mm2']:>12.1f}  "
+                   f"{' '.join(row['unplaced']) or '-'}", err=err)
+    best = sw.get("largest_fitting")
+    if best:
+        click.echo(f"  largest size that fits: {best} (margin {sw['margin_mm2']:.1f} mm2: {sw['margin_definition']})",
+                   err=err)
+    else:
+        click.echo("  no size fits", err=err)
+
+
 def _counts(findings) -> str:
     n = {s: sum(1 for f in findings if f.severity == s) for s in ("error", "warning", "info")}
     return f"{n['error']} error(s), {n['warning']} warning(s), {n['info']} note(s)"
@@ -121,7 +137,7 @@ def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: st
             if f.check == "stage.summary":
                 click.echo(f"stage: {f.message}", err=err)
     if result.sweep is not None:
-        click.echo(result.sweep.summary() if hasattr(result.sweep, "summary") else str(result.sweep.to_dict()), err=err)
+        _echo_sweep(result.sweep.to_dict(), err)
     if result.fit is not None:
         f = result.fit
         verdict = "FITS" if f.fits else "DOES NOT FIT"

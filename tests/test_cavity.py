@@ -850,9 +850,9 @@ T = 0.02  # default chord tolerance, mm
 # name: (layer map, default units, cavity area, keep-out areas, depth zones (depth, area),
 #        chord allowance on the outline = arc length x tolerance)
 OUTLINE_FILES = {
-    # rounded rectangle w h - (4 - pi) r^2; bosses pi r^2; rib strip 4 x 30 inside
-    "controller-bay.dxf": (None, "mm", 46 * 30 - (4 - math.pi) * 16, [math.pi * 2.5 ** 2] * 2,
-                           [(2.0, 4 * 32)], 2 * math.pi * 4 * T),  # drawn 4 x 32
+    # rounded rectangle w h - (4 - pi) r^2; bosses pi r^2; rib strip 3.5 x 17 inside
+    "controller-bay.dxf": (None, "mm", 28 * 17 - (4 - math.pi) * 9, [math.pi * 2.0 ** 2] * 2,
+                           [(2.0, 3.5 * 19)], 2 * math.pi * 3 * T),  # drawn 3.5 x 19
     # L-shape 1260 plus the concave fillet's corner square minus quarter disc: 16 - 4 pi
     "chain-pocket.dxf": (None, "mm", 50 * 18 + 20 * 18 + 16 - 4 * math.pi, [3 * 8], [],
                          math.pi / 2 * 4 * T),

@@ -311,12 +311,12 @@ def test_controller_bay_region():
     assert findings == []
     (rib, rest) = region.zones
     assert (rib.max_height_mm, rest.max_height_mm) == (pytest.approx(1.2), pytest.approx(5.2))
-    # the 4 mm rib strip grown by c each side, across the inset pocket's 30 - 2c
-    assert rib.polygon.area == pytest.approx((4 + 2 * c) * (30 - 2 * c), rel=1e-12)
+    # the 3.5 mm rib strip grown by c each side, across the inset pocket's 17 - 2c
+    assert rib.polygon.area == pytest.approx((3.5 + 2 * c) * (17 - 2 * c), rel=1e-12)
     # rounded rectangle inset by c: (w - 2c)(h - 2c) - (4 - pi)(r - c)^2, less two
     # bosses grown to radius 2.5 + c; the chords (0.02 mm) shift this by under
     # perimeter x tolerance
-    expect = (46 - 2 * c) * (30 - 2 * c) - (4 - math.pi) * (4 - c) ** 2 - 2 * math.pi * (2.5 + c) ** 2
-    allowance = (2 * math.pi * 4 + 2 * 2 * math.pi * 2.8) * 0.02
+    expect = (28 - 2 * c) * (17 - 2 * c) - (4 - math.pi) * (3 - c) ** 2 - 2 * math.pi * (2.0 + c) ** 2
+    allowance = (2 * math.pi * 3 + 2 * 2 * math.pi * 2.3) * 0.02
     assert abs(region.area_mm2 - expect) <= allowance
     assert_partition(region)
