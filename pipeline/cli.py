@@ -132,9 +132,9 @@ def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: st
         progress.done()
     err = as_json
     _echo_findings(result.findings, err, verbose)
-    if not verbose:  # the declared stages' figures and spread are shown even without -v
+    if not verbose:  # the declared stages' figures, spread and retune proposals show even without -v
         for f in result.findings:
-            if f.check == "stage.summary":
+            if f.check in ("stage.summary", "stage.retune"):
                 click.echo(f"stage: {f.message}", err=err)
     if result.sweep is not None:
         _echo_sweep(result.sweep.to_dict(), err)

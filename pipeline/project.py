@@ -311,6 +311,8 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     files["netlist.json"] = netlist.netlist_json(design)
     files["netlist.edf"] = edif.edif_netlist(design, timestamp=timestamp)
     files["design.cir"] = spice_out.spice_netlist(design)
+    if reports:
+        files["stages.json"] = results.dump_json([r.to_dict() for r in reports])
 
     fit = None
     sweep_result = None

@@ -166,3 +166,73 @@ def test_readme_test_command_is_what_ci_runs():
     blocks = re.findall(r"```(?:sh|bash)?\n(.*?)```", readme, re.S)
     test_cmd = next(b.strip() for b in blocks if "pytest" in b)
     assert test_cmd in ci
+
+
+def _demo_copy(tmp_path: Path) -> Path:
+    shutil.copytree(ROOT / "demo_project", tmp_path / "demo_project", ignore=shutil.ignore_patterns("out"))
+    shutil.copytree(ROOT / "outlines", tmp_path / "outlines", ignore=shutil.ignore_patterns("*.py", "__pycache__"))
+    return tmp_path / "demo_project"
+
+
+def test_demo_runs_clean_and_shows_its_stages(tmp_path):
+    proj = _demo_copy(tmp_path)
+    r = CliRunner().invoke(main, ["run", str(proj), "--sweep"])
+    assert r.exit_code == 0, r.stdout
+    for stage in ("antinoise", "click", "lamp"):
+        assert f"stage: Stage '{stage}'" in r.stdout
+    assert "largest size that fits: " in r.stdout
+    names = sorted(p.name for p in (proj / "out").iterdir())
+    for name in ("bom.csv", "netlist.csv", "netlist.json", "fit.json", "findings.json", "fit.svg",
+                 "board-outline.dxf", "netlist.edf", "report.html", "stages.json", "design.cir"):
+        assert name in names
+    report = (proj / "out" / "report.html").read_text()
+    assert "antinoise" in report and "<svg" in report
+
+
+def test_unwritable_out_folder_is_bad_input():
+    r = CliRunner().invoke(main, ["run", str(ROOT / "demo_project"), "--out", "/dev/null/x"])
+    assert r.exit_code == 2  # an output folder that cannot exist: bad input, named
+    assert "/dev/null/x" in r.stderr
+
+
+def test_missed_stage_target_exits_1_and_applied_retune_passes(tmp_path):
+    proj = _demo_copy(tmp_path)
+    design = proj / "design.toml"
+    text = design.read_text()
+    assert 'f0 = "490Hz ±7%"' in text
+    design.write_text(text.replace('f0 = "490Hz ±7%"', 'f0 = "400Hz ±5%"'))
+    r = CliRunner().invoke(main, ["run", str(proj)])
+    assert r.exit_code == 1
+    assert "outside its target 400Hz" in r.stdout and "stage: " in r.stdout
+    stages = json.loads((proj / "out" / "stages.json").read_text())
+    antinoise = next(s for s in stages if s["name"] == "antinoise")
+    best = antinoise["retune"]["proposals"][0]
+    assert best["passes"]
+    # Apply the proposal to the design file and run again: every target must pass.
+    from pipeline.values import format_value
+    text = design.read_text()
+    for v in best["values"]:
+        block = f"[parts.{v['ref']}]\n"
+        head, tail = text.split(block, 1)
+        body, rest = tail.split("\n\n", 1)
+        body = re.sub(r'value = "[^"]*"', f'value = "{format_value(v["value"])}"', body)
+        text = head + block + body + "\n\n" + rest
+    design.write_text(text)
+    r = CliRunner().invoke(main, ["run", str(proj)])
+    assert r.exit_code == 0, r.stdout
+    findings = json.loads((proj / "out" / "findings.json").read_text())
+    assert not [f for f in findings if f["check"] == "stage.target-missed"]
+
+
+def test_off_series_value_names_nearest_values(tmp_path):
+    proj = _demo_copy(tmp_path)
+    design = proj / "design.toml"
+    # 1.234M is in no series; IEC 60063 tables: E192 neighbours 1.23M / 1.24M, E24 (5 %) 1.2M / 1.3M
+    design.write_text(design.read_text().replace('[parts.R3]\nkind = "resistor"\nvalue = "1M"',
+                                                 '[parts.R3]\nkind = "resistor"\nvalue = "1.234M"'))
+    r = CliRunner().invoke(main, ["run", str(proj), "--json"])
+    data = json.loads(r.stdout)
+    off = [f for f in data["findings"] if f["check"] == "values.off-series"]
+    assert off and "R3" in off[0]["subject"]
+    for near in ("1.23M", "1.24M", "1.2M", "1.3M"):
+        assert near in off[0]["message"], off[0]["message"]
