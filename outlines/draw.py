@@ -14,8 +14,6 @@ in ``tests/test_cavity.py`` read every file and check those areas.
 
 from __future__ import annotations
 
-import contextlib
-import io
 import logging
 import math
 import sys
@@ -24,6 +22,8 @@ from typing import Callable
 
 import ezdxf
 from ezdxf import units
+
+from pipeline.export.dxf import document_text, fixed_metadata
 
 HERE = Path(__file__).resolve().parent
 #: Bulge of a 90 degree counter-clockwise arc: tan(90 deg / 4).
@@ -196,31 +196,9 @@ DRAWINGS: dict[str, Callable] = {
 }
 
 
-@contextlib.contextmanager
-def fixed_metadata():
-    """ezdxf's fixed-metadata option (constant timestamps and GUIDs) while drawing."""
-    saved = ezdxf.options.write_fixed_meta_data_for_testing
-    ezdxf.options.write_fixed_meta_data_for_testing = True
-    try:
-        yield
-    finally:
-        ezdxf.options.write_fixed_meta_data_for_testing = saved
-
-
 def dxf_bytes(doc) -> bytes:
-    """The drawing as DXF bytes.
-
-    ezdxf registers the CLASS entries of the entity types in use in set
-    order, which changes with Python's string hashing between runs;
-    registering them first in sorted order keeps the CLASSES section
-    identical.
-    """
-    if doc.dxfversion > "AC1009":
-        for dxftype in sorted(doc.entitydb.dxf_types_in_use()):
-            doc.classes.add_class(dxftype)
-    stream = io.StringIO()
-    doc.write(stream)
-    return stream.getvalue().encode(doc.output_encoding, errors="dxfreplace")
+    """The drawing as DXF bytes, identical on every run (see :func:`document_text`)."""
+    return document_text(doc).encode(doc.output_encoding, errors="dxfreplace")
 
 
 def draw_all() -> dict[str, bytes]:

@@ -59,7 +59,24 @@ EDGE_LAYER = "SNUG-BOARD-EDGE"
 #: Header variables holding dates (DXF header reference: Julian date.fraction).
 _DATE_VARS = ("$TDCREATE", "$TDUCREATE", "$TDUPDATE", "$TDUUPDATE")
 
-_LOCK = threading.Lock()
+_LOCK = threading.RLock()
+
+
+def document_text(doc) -> str:
+    """DXF text of ``doc`` that is the same on every run and in every process.
+
+    ezdxf's fixed-metadata option replaces the clock timestamps and random
+    GUIDs; and since ezdxf adds a CLASS per entity type in use by iterating a
+    set, the CLASSES section's order would follow the string hash seed of
+    the process, so those classes are registered first, in sorted order.
+    """
+    with fixed_metadata():
+        if doc.dxfversion > "AC1009":
+            for dxftype in sorted(doc.entitydb.dxf_types_in_use()):
+                doc.classes.add_class(dxftype)
+        stream = io.StringIO()
+        doc.write(stream)
+    return stream.getvalue()
 
 
 def board_outline_dxf(outline: Polygon, *, timestamp: int | None = None) -> bytes:
@@ -101,7 +118,7 @@ def board_outline_dxf(outline: Polygon, *, timestamp: int | None = None) -> byte
     poly = _one_polygon(outline)
     stamp = _timestamp(timestamp)
     poly = orient(poly, sign=1.0)  # exterior CCW, holes CW
-    with _fixed_metadata():
+    with fixed_metadata():
         doc = ezdxf.new("R2013", units=ezdxf.units.MM)
         doc.header["$MEASUREMENT"] = 1  # metric
         doc.header["$LUNITS"] = 2  # decimal lengths
@@ -116,15 +133,8 @@ def board_outline_dxf(outline: Polygon, *, timestamp: int | None = None) -> byte
         msp.dxf.extmax = (maxx, maxy, 0.0)
         span = max(maxx - minx, maxy - miny, 1.0)
         doc.set_modelspace_vport(height=1.2 * span, center=((minx + maxx) / 2, (miny + maxy) / 2))
-        # ezdxf adds a CLASS per entity type in use by iterating a set, so the
-        # CLASSES section's order would follow the string hash seed of the
-        # process; registering those classes first, in sorted order, fixes it.
-        for dxftype in sorted(doc.entitydb.dxf_types_in_use()):
-            doc.classes.add_class(dxftype)
-        stream = io.StringIO()
-        doc.write(stream)
+        text = document_text(doc)
         encoding = doc.output_encoding
-    text = stream.getvalue()
     if stamp is not None:
         text = _set_header_values(text, {name: repr(juliandate(stamp)) for name in _DATE_VARS})
     return text.encode(encoding)
@@ -166,8 +176,13 @@ def _timestamp(timestamp: int | None) -> datetime | None:
 
 
 @contextmanager
-def _fixed_metadata() -> Iterator[None]:
-    """Switch ezdxf's constant-metadata option on for one document, then restore it."""
+def fixed_metadata() -> Iterator[None]:
+    """Switch ezdxf's constant-metadata option on while documents are made and written.
+
+    ezdxf stamps a document with the clock when it is created and again when
+    it is written; both must happen inside this block. The option is
+    process-wide, so a lock keeps two threads from interleaving.
+    """
     with _LOCK:
         before = ezdxf.options.write_fixed_meta_data_for_testing
         ezdxf.options.write_fixed_meta_data_for_testing = True
