@@ -40,6 +40,7 @@ import math
 import re
 import tomllib
 from dataclasses import dataclass, field, replace
+import sys
 from pathlib import Path
 from types import MappingProxyType
 from typing import Any, Iterable, Mapping
@@ -67,7 +68,17 @@ __all__ = [
 ]
 
 #: The repository's own footprint data folder.
-DEFAULT_ROOT = Path(__file__).resolve().parent.parent / "footprints"
+def _default_root() -> Path:
+    """The footprint data: the checkout's ``footprints/`` (editable install), else the
+    copy a regular install puts under ``<prefix>/share/snugboard/footprints``."""
+    here = Path(__file__).resolve().parent.parent / "footprints"
+    if here.is_dir():
+        return here
+    installed = Path(sys.prefix) / "share" / "snugboard" / "footprints"
+    return installed if installed.is_dir() else here
+
+
+DEFAULT_ROOT = _default_root()
 
 #: IPC-7351B density levels, in the order A, B, C.
 LEVELS = ("most", "nominal", "least")
