@@ -97,6 +97,12 @@ def _echo_sweep(sw: dict, err: bool) -> None:
         click.echo("  no size fits", err=err)
 
 
+def _where(path) -> str:
+    """A folder as the user would type it: relative when below the working folder."""
+    rel = os.path.relpath(path)
+    return str(path) if rel.startswith("..") else rel
+
+
 def _counts(findings) -> str:
     n = {s: sum(1 for f in findings if f.severity == s) for s in ("error", "warning", "info")}
     return f"{n['error']} error(s), {n['warning']} warning(s), {n['info']} note(s)"
@@ -145,7 +151,7 @@ def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: st
                    f"estimated board {f.estimate.low_mm2:.0f}..{f.estimate.high_mm2:.0f} mm2 "
                    f"(expected {f.estimate.expected_mm2:.0f})", err=err)
     click.echo(f"{result.design.name}: {_counts(result.findings)}; wrote {len(result.written)} files to "
-               f"{os.path.relpath(project.out_dir)}", err=err)
+               f"{_where(project.out_dir)}", err=err)
     if as_json:
         from .export.results import findings_list
         click.echo(json.dumps({"exit_status": result.exit_status, "findings": findings_list(result.findings),
