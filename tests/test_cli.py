@@ -236,3 +236,49 @@ def test_off_series_value_names_nearest_values(tmp_path):
     assert off and "R3" in off[0]["subject"]
     for near in ("1.23M", "1.24M", "1.2M", "1.3M"):
         assert near in off[0]["message"], off[0]["message"]
+
+
+def _dxf(path: Path, draw) -> Path:
+    import ezdxf
+
+    doc = ezdxf.new("R2010", units=ezdxf.units.MM)
+    draw(doc.modelspace())
+    doc.saveas(path)
+    return path
+
+
+def _box(msp, x0, y0, x1, y1, layer):
+    msp.add_lwpolyline([(x0, y0), (x1, y0), (x1, y1), (x0, y1)], close=True, dxfattribs={"layer": layer})
+
+
+REFUSALS = {
+    # name: (drawing, text the message must hold)
+    "open-chain": (lambda m: [m.add_line((0, 0), (40, 0), dxfattribs={"layer": "CAVITY"}),
+                              m.add_line((40, 0), (40, 30), dxfattribs={"layer": "CAVITY"}),
+                              m.add_line((40, 30), (0, 30), dxfattribs={"layer": "CAVITY"}),
+                              m.add_line((0, 30), (0, 2), dxfattribs={"layer": "CAVITY"})],
+                   "(0, 2)"),  # the free end, in drawing units
+    "bow-tie": (lambda m: m.add_lwpolyline([(0, 0), (40, 30), (40, 0), (0, 30)], close=True,
+                                           dxfattribs={"layer": "CAVITY"}), "(20, 15)"),  # the crossing
+    "no-outline": (lambda m: _box(m, 0, 0, 40, 30, "Walls"), "CAVITY"),
+    "two-outlines": (lambda m: [_box(m, 0, 0, 40, 30, "CAVITY"), _box(m, 50, 0, 90, 30, "CAVITY")], "outline"),
+    "open-keepout": (lambda m: [_box(m, 0, 0, 40, 30, "CAVITY"),
+                                m.add_line((5, 5), (10, 5), dxfattribs={"layer": "KEEPOUT"}),
+                                m.add_line((10, 5), (10, 10), dxfattribs={"layer": "KEEPOUT"})],
+                     "KEEPOUT"),
+    "open-depth-zone": (lambda m: [_box(m, 0, 0, 40, 30, "CAVITY"),
+                                   m.add_line((5, 5), (10, 5), dxfattribs={"layer": "DEPTH-1.5"})],
+                        "DEPTH-1.5"),
+}
+
+
+@pytest.mark.parametrize("name", sorted(REFUSALS))
+def test_every_cavity_refusal_exits_2_located_writes_nothing(tmp_path, name):
+    draw, needle = REFUSALS[name]
+    proj = _project(tmp_path)
+    cav = _dxf(tmp_path / f"{name}.dxf", draw)
+    r = CliRunner().invoke(main, ["run", str(proj), "--cavity", str(cav)])
+    assert r.exit_code == 2, r.output
+    assert f"{name}.dxf" in r.stderr and needle in r.stderr, r.stderr
+    assert "Traceback" not in r.output
+    assert not (proj / "out").exists()
