@@ -521,8 +521,11 @@ def check_values(design: Design) -> tuple[Finding, ...]:
     pin_nets = _pin_nets(design)
     head = _caution(design) + _no_voltages(design)
     per_part: list[tuple[tuple, list[Finding]]] = []
+    in_series: list[Finding] = []
     for part in design.parts:
-        found = _value_findings(part)
+        found = []
+        for f in _value_findings(part):
+            (in_series if f.check == "values.series" else found).append(f)
         if not part.dnp:
             if part.kind in ("capacitor", "capacitor-polarized"):
                 found += _capacitor_findings(part, pin_nets)
@@ -531,4 +534,24 @@ def check_values(design: Design) -> tuple[Finding, ...]:
         if found:
             per_part.append((_natural_key(part.ref), found))
     per_part.sort(key=lambda t: t[0])
-    return tuple(head + [f for _, fs in per_part for f in fs])
+    parts = {p.ref: p for p in design.parts}
+    return tuple(head + _series_summary(in_series, parts) + [f for _, fs in per_part for f in fs])
+
+
+def _series_summary(found: list[Finding], parts: dict[str, Part]) -> list[Finding]:
+    """One ``values.series`` finding for all parts on preferred values, grouped
+    by the coarsest series each belongs to (one line per part would drown
+    the findings that need action); a single part keeps its own message."""
+    if len(found) <= 1:
+        return found
+    by_series: dict[str, list[str]] = {}
+    refs = sorted((f.subject[0] for f in found), key=_natural_key)
+    for ref in refs:
+        part = parts[ref]
+        v = float(part.value)
+        by_series.setdefault(series_of(v)[0], []).append(f"{ref} {_show(v, _VALUE_UNIT[part.kind])}")
+    order = sorted(by_series, key=lambda name: int(name[1:]))
+    groups = "; ".join(f"{name}: {', '.join(by_series[name])}" for name in order)
+    return [Finding("info", "values.series", tuple(refs),
+                    f"{len(refs)} values are IEC 60063 preferred values, each listed under the coarsest "
+                    f"series that holds it: {groups}.")]

@@ -290,3 +290,19 @@ def test_docstring_examples_run():
 
     result = doctest.testmod(pipeline.ratings)
     assert result.attempted > 0 and result.failed == 0
+
+
+def test_series_findings_grouped_into_one():
+    # IEC 60063 tables: 10k is in E3; 2.7k first appears in E12; 1.02k first appears in E96
+    # (E48 has 1.00 and 1.05, E96 has 1.02).
+    parts = [res("R1", 10e3, 0.1), res("R2", 1.02e3, 0.1), res("R3", 2.7e3, 0.1)]
+    f = only(check_values(design(parts, {}, {"A": [(p.ref, "1") for p in parts],
+                                             "B": [(p.ref, "2") for p in parts]})), "values")
+    assert [x.check for x in f] == ["values.series"]
+    assert f[0].subject == ("R1", "R2", "R3")
+    msg = f[0].message
+    assert "E3: R1 10k" in msg and "E12: R3 2.7k" in msg and "E96: R2 1.02k" in msg, msg
+    # the cross-check against the independent tables of the eseries package
+    import eseries
+    assert 1.02 in [round(v, 2) for v in eseries.erange(eseries.E96, 1, 10)]
+    assert 1.02 not in [round(v, 2) for v in eseries.erange(eseries.E48, 1, 10)]
