@@ -185,6 +185,46 @@ def check_cmd(ctx: click.Context, design_file: str, parts_map: str | None, as_js
     ctx.exit(status)
 
 
+@main.command("cavity")
+@click.argument("dxf_file", type=click.Path(dir_okay=False))
+@click.option("--project", "project_dir", metavar="DIR",
+              help="Take the layer map, units, depth and board options from DIR/project.toml.")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object to stdout.")
+@click.pass_context
+def cavity_cmd(ctx: click.Context, dxf_file: str, project_dir: str | None, as_json: bool) -> None:
+    """Read a cavity drawing alone: units, outline, keep-outs, depth zones, usable region."""
+    from pathlib import Path
+
+    from .project import inspect_cavity, load_project
+
+    ctx.meta["snugboard.json"] = as_json
+    project = load_project(project_dir) if project_dir else None
+    cavity, region, findings = inspect_cavity(Path(dxf_file), shown=dxf_file, project=project)
+    zones = [{"max_part_height_mm": round(z.max_height_mm, 4), "area_mm2": round(z.polygon.area, 4)}
+             for z in region.zones]
+    x0, y0, x1, y1 = (round(v, 4) for v in cavity.outline.bounds)
+    info = {
+        "units": cavity.unit_name, "mm_per_unit": cavity.mm_per_unit,
+        "cavity_area_mm2": round(cavity.outline.area, 4), "cavity_bounds_mm": [x0, y0, x1, y1],
+        "keepouts": len(cavity.keepouts),
+        "depth_zones": [{"depth_mm": z.depth_mm, "layer": z.layer, "area_mm2": round(z.polygon.area, 4)}
+                        for z in cavity.depth_zones],
+        "board_given": cavity.board is not None,
+        "region_area_mm2": round(region.area_mm2, 4), "height_zones": zones,
+    }
+    if as_json:
+        from .export.results import findings_list
+        click.echo(json.dumps({"exit_status": 0, "cavity": info, "findings": findings_list(findings)}, indent=2))
+        return
+    _echo_findings(findings, False)
+    click.echo(f"{dxf_file}: units {cavity.unit_name} ({cavity.mm_per_unit:g} mm each); cavity "
+               f"{x1 - x0:.2f} x {y1 - y0:.2f} mm, {cavity.outline.area:.1f} mm2; {len(cavity.keepouts)} keep-out(s); "
+               f"{len(cavity.depth_zones)} depth zone(s)" + ("; BOARD outline given" if cavity.board is not None else ""))
+    click.echo(f"usable board region {region.area_mm2:.1f} mm2:")
+    for z in region.zones:
+        click.echo(f"  parts up to {z.max_height_mm:.2f} mm tall on {z.polygon.area:.1f} mm2")
+
+
 @main.command("packages")
 @click.argument("names", nargs=-1)
 @click.option("--json", "as_json", is_flag=True, help="Print JSON instead of a table.")

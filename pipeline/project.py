@@ -37,7 +37,7 @@ from .errors import ProjectError
 from .model import BoardOptions, Design, FitResult, Finding, OrderOptions
 from .tomlsrc import TomlSource, load
 
-__all__ = ["Project", "RunResult", "load_project", "run", "check_design", "read_any_design",
+__all__ = ["Project", "RunResult", "load_project", "run", "check_design", "inspect_cavity", "read_any_design",
            "SPICE_SUFFIXES", "UNITS"]
 
 SPICE_SUFFIXES = (".cir", ".sp", ".spice", ".net")
@@ -265,6 +265,27 @@ def check_design(path: Path, *, shown: str | None = None, parts_map: Path | None
     g = build_graph(design)
     findings = (*warnings, *check_connections(design, g, _categories(design, lib)), *check_values(design))
     return design, tuple(findings)
+
+
+def inspect_cavity(path: Path, *, shown: str | None = None, project: Project | None = None):
+    """Read a cavity drawing alone and derive its usable region.
+
+    Layer map, units, depth and board options come from ``project`` when
+    given, else the defaults of CONTRACT section 1. Returns ``(cavity,
+    region, findings)``; bad drawings raise
+    :class:`~pipeline.errors.CavityError`.
+    """
+    from .cavity import read_cavity
+    from .region import usable_region
+
+    p = project
+    cavity, cw = read_cavity(Path(path), display_name=shown or str(path),
+                             layer_map=p.layer_map if p else None,
+                             default_units=p.units if p else "mm",
+                             depth_mm=p.depth_mm if p else 5.0,
+                             chord_tol_mm=p.chord_tolerance_mm if p else 0.02)
+    region, rw = usable_region(cavity, p.board if p else BoardOptions())
+    return cavity, region, (*cw, *rw)
 
 
 def _source_date_epoch() -> int | None:

@@ -282,3 +282,17 @@ def test_every_cavity_refusal_exits_2_located_writes_nothing(tmp_path, name):
     assert f"{name}.dxf" in r.stderr and needle in r.stderr, r.stderr
     assert "Traceback" not in r.output
     assert not (proj / "out").exists()
+
+
+def test_cavity_command_reads_a_drawing_alone():
+    import math
+    r = _invoke("cavity", str(ROOT / "outlines" / "controller-bay.dxf"), "--project", str(ROOT / "demo_project"),
+                "--json")
+    assert r.exit_code == 0
+    info = json.loads(r.stdout)["cavity"]
+    # closed form of the drawn pocket: rounded rectangle w h - (4 - pi) r^2, chords within 0.02 mm x perimeter
+    assert abs(info["cavity_area_mm2"] - (28 * 17 - (4 - math.pi) * 9)) < 2 * math.pi * 3 * 0.02
+    # demo depth 6 mm, board 0.8 mm: 5.2 mm parts off the rib, 1.2 mm under the 2 mm rib
+    assert sorted(z["max_part_height_mm"] for z in info["height_zones"]) == [1.2, 5.2]
+    r = CliRunner().invoke(main, ["cavity", str(ROOT / "outlines" / "user-layers.dxf")])
+    assert r.exit_code == 2 and "map your layer" in r.stderr
