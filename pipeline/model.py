@@ -111,11 +111,14 @@ class Courtyard:
 class Package:
     """A generic footprint: body, land extent, height and courtyards.
 
-    ``body_length_mm`` is along the pin rows (or the terminal axis of a
-    chip), ``land_length_mm`` the toe-to-toe land-pattern extent along the
-    same axis and ``land_width_mm`` side to side. ``courtyards`` holds one
-    :class:`Courtyard` per density level (``most``, ``nominal``,
-    ``least``).
+    Both extents lie along the body's axes: ``body_length_mm`` and
+    ``land_length_mm`` along the pin rows (for a chip, its terminal axis, so
+    there the land length is toe to toe), ``body_width_mm`` and
+    ``land_width_mm`` across them (for a gull-wing IC, the land width is the
+    toe-to-toe span across the rows). ``height_mm`` is the tallest a part in
+    this package may be. ``courtyards`` holds one :class:`Courtyard` per
+    density level (``most``, ``nominal``, ``least``). footprints/README.md
+    gives the basis of every figure.
     """
 
     name: str
