@@ -38,8 +38,9 @@ from typing import Callable, Mapping
 
 import networkx as nx
 
-from .graph import natural_key, net_node, part_node, pin_count, pin_nets, pins_on_net, unconnected_pins
+from .graph import part_node, pin_count, pin_nets, pins_on_net, unconnected_pins
 from .model import Design, Finding
+from .order import natural_key
 
 __all__ = ["check_connections", "CHECKS"]
 

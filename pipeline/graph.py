@@ -31,11 +31,10 @@ Examples
 
 from __future__ import annotations
 
-import re
-
 import networkx as nx
 
 from .model import Design
+from .order import natural_key
 
 __all__ = [
     "build_graph",
@@ -48,18 +47,7 @@ __all__ = [
     "pin_nets",
     "unconnected_pins",
     "connected_groups",
-    "natural_key",
 ]
-
-
-def natural_key(text: str) -> tuple:
-    """Sort key putting R2 before R10 and U1.2 before U1.10.
-
-    >>> sorted(["R10", "R2", "C1", "R1"], key=natural_key)
-    ['C1', 'R1', 'R2', 'R10']
-    """
-    return tuple((0, int(t), "") if t.isdigit() else (1, 0, t.lower() + "\0" + t)
-                 for t in re.split(r"(\d+)", text) if t != "")
 
 
 def part_node(ref: str) -> tuple[str, str]:

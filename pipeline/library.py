@@ -38,15 +38,16 @@ import csv
 import difflib
 import math
 import re
+import sys
 import tomllib
 from dataclasses import dataclass, field, replace
-import sys
 from pathlib import Path
 from types import MappingProxyType
 from typing import Any, Iterable, Mapping
 
 from pipeline.errors import LibraryError
 from pipeline.model import PIN_ROLES, Courtyard, Package, PartKind, PinDef
+from pipeline.order import natural_key
 
 __all__ = [
     "DEFAULT_ROOT",
@@ -241,13 +242,6 @@ def pin_mismatch(kind: PartKind, package: Package) -> str | None:
             f"'{package.name}' has {package.pin_count}"
         )
     return None
-
-
-def _natural_key(name: str) -> tuple:
-    parts = [t for t in re.split(r"(\d+)", name.casefold()) if t]
-    return tuple((0, int(t), "") if t.isdigit() else (1, 0, t) for t in parts) + (
-        (-1, 0, name),
-    )
 
 
 def _compact(text: str) -> str:
@@ -529,7 +523,7 @@ class Library:
 
     def packages(self) -> tuple[Package, ...]:
         """The listed packages (not family members), in natural name order."""
-        return tuple(sorted(self.listed, key=lambda p: _natural_key(p.name)))
+        return tuple(sorted(self.listed, key=lambda p: natural_key(p.name)))
 
     def families(self) -> tuple[PackageFamily, ...]:
         """The parametric families, sorted by name."""

@@ -87,7 +87,6 @@ from __future__ import annotations
 
 import bisect
 import math
-import re
 from collections import deque
 from dataclasses import dataclass, field
 from typing import Callable, Iterable, Sequence
@@ -101,6 +100,7 @@ from shapely.geometry.polygon import orient
 from .area import estimate_area
 from .errors import DesignError, ProjectError
 from .model import BoardOptions, FitResult, Finding, PlaceItem, Placement, Region
+from .order import natural_key
 from .outline import QUAD_SEGS, cells_inside, polygons_of, propose_outline
 
 __all__ = ["place_and_fit", "hpwl", "CELL_BUDGET", "OPT_FANOUT"]
@@ -130,8 +130,6 @@ ROOMY = 2.5
 # --------------------------------------------------------------------------
 # helpers
 # --------------------------------------------------------------------------
-def _natural_key(ref: str) -> tuple:
-    return tuple((0, int(t), "") if t.isdigit() else (1, 0, t) for t in re.findall(r"\d+|\D+", ref))
 
 
 def _fmt(v: float) -> str:
@@ -460,7 +458,7 @@ def _rank(items: Sequence[PlaceItem], nets: list[list[int]]) -> list[int]:
             for b in m:
                 if a != b:
                     nbr[a][b] = nbr[a].get(b, 0.0) + w
-    keys = [_natural_key(it.ref) for it in items]
+    keys = [natural_key(it.ref) for it in items]
     start = sorted(range(n), key=lambda i: (-items[i].pin_count, keys[i]))
     rank = [0] * n
     seen = [False] * n
@@ -691,7 +689,7 @@ def place_and_fit(items: Sequence[PlaceItem], region: Region, board: BoardOption
     xs = [0.0] * len(items)
     ys = [0.0] * len(items)
     if items and area.is_empty:
-        unplaced = sorted(refs, key=_natural_key)
+        unplaced = sorted(refs, key=natural_key)
         blocked.append(
             f"Nothing is left to place parts on: the board area is {_area(where.area)} mm² and keeping "
             f"{_fmt(board.edge_clearance_mm)} mm from its edges leaves no room.")
@@ -726,7 +724,7 @@ def place_and_fit(items: Sequence[PlaceItem], region: Region, board: BoardOption
         gap = run.gap
         _improve(packer, run, nets, progress)
         # self-check and output
-        idx = sorted(run.slots, key=lambda i: _natural_key(refs[i]))
+        idx = sorted(run.slots, key=lambda i: natural_key(refs[i]))
         rects = {i: packer.rect(i, run.slots[i]) for i in idx}
         bad = _self_check(packer, run, rects, gap)
         if bad:
@@ -742,7 +740,7 @@ def place_and_fit(items: Sequence[PlaceItem], region: Region, board: BoardOption
             ys[i] = (y1 + y2) / 2
             placements.append(Placement(refs[i], xs[i], ys[i], 90 if o else 0, side, box(x1, y1, x2, y2)))
         not_placed = sorted(set(run.unplaced) | bad)
-        unplaced = sorted((refs[i] for i in not_placed), key=_natural_key)
+        unplaced = sorted((refs[i] for i in not_placed), key=natural_key)
         blocked += _diagnose(packer, run, not_placed, region, board)
         if gap > 0 and any(p.side == "bottom" for p in placements):
             bottom = [p.ref for p in placements if p.side == "bottom"]
@@ -855,17 +853,17 @@ def _diagnose(packer: _Packer, run: _Run, not_placed: Sequence[int], region: Reg
         {"big": too_big, "zone": no_zone_room, "room": no_room}[static[key]].append(i)
 
     def refs(ids):
-        return _names(sorted((items[i].ref for i in ids), key=_natural_key))
+        return _names(sorted((items[i].ref for i in ids), key=natural_key))
 
     deepest = packer.heights[-1] if packer.heights else math.inf
-    for i in sorted(too_tall, key=lambda i: (-items[i].height_mm, _natural_key(items[i].ref))):
+    for i in sorted(too_tall, key=lambda i: (-items[i].height_mm, natural_key(items[i].ref))):
         it = items[i]
         raised = f" with the board raised {_fmt(run.gap)} mm on bottom-side parts" if run.gap > 0 else ""
         out.append(
             f"{it.ref} is {_fmt(it.height_mm)} mm tall, but the deepest part of the cavity leaves only "
             f"{_fmt(deepest - run.gap)} mm above a {_fmt(region.thickness_mm)} mm board{raised}: "
             f"use a lower package, a thinner board or a deeper cavity.")
-    for i in sorted(too_big, key=lambda i: _natural_key(items[i].ref)):
+    for i in sorted(too_big, key=lambda i: natural_key(items[i].ref)):
         it = items[i]
         out.append(
             f"{it.ref}'s courtyard ({_fmt(it.length_mm)} x {_fmt(it.width_mm)} mm) is larger than any "

@@ -73,6 +73,7 @@ import re
 from dataclasses import dataclass
 
 from pipeline.model import Design, Finding, Net, Part, PinRef
+from pipeline.order import natural_key
 from pipeline.values import (
     format_value,
     nearest_in_series,
@@ -129,11 +130,6 @@ _TYPE_FRACTION = {
 # --------------------------------------------------------------------------
 # Small helpers
 # --------------------------------------------------------------------------
-def _natural_key(ref: str) -> tuple:
-    # re.split with a group alternates text, digits, text, ... so positions
-    # always compare like with like.
-    parts = re.split(r"(\d+)", ref)
-    return tuple(int(p) if i % 2 else p.lower() for i, p in enumerate(parts)) + (ref,)
 
 
 def _show(value: float, unit: str) -> str:
@@ -437,13 +433,13 @@ def _resistor_findings(part: Part, pin_nets: dict[PinRef, list[Net]]) -> list[Fi
 # Design-level findings
 # --------------------------------------------------------------------------
 def _caution(design: Design) -> list[Finding]:
-    battery = sorted((n.name for n in design.nets if n.battery), key=_natural_key)
+    battery = sorted((n.name for n in design.nets if n.battery), key=natural_key)
     high: list[tuple[str, float]] = []
     for n in design.nets:
         vs = [abs(float(v)) for v in (n.voltage, n.voltage_max) if v is not None]
         if vs and max(vs) > CAUTION_VOLTS:
             high.append((n.name, max(vs)))
-    high.sort(key=lambda t: _natural_key(t[0]))
+    high.sort(key=lambda t: natural_key(t[0]))
     if not battery and not high:
         return []
     what = []
@@ -460,7 +456,7 @@ def _caution(design: Design) -> list[Finding]:
     advice += ", and defer to your local electrical codes and licensed practice"
     if high:
         advice += " for anything above 30 V"
-    subject = tuple(sorted({*battery, *(name for name, _ in high)}, key=_natural_key))
+    subject = tuple(sorted({*battery, *(name for name, _ in high)}, key=natural_key))
     return [Finding("warning", "safety.caution", subject, f"{' and '.join(what)}: {advice}.")]
 
 
@@ -532,7 +528,7 @@ def check_values(design: Design) -> tuple[Finding, ...]:
             elif part.kind == "resistor":
                 found += _resistor_findings(part, pin_nets)
         if found:
-            per_part.append((_natural_key(part.ref), found))
+            per_part.append((natural_key(part.ref), found))
     per_part.sort(key=lambda t: t[0])
     parts = {p.ref: p for p in design.parts}
     return tuple(head + _series_summary(in_series, parts) + [f for _, fs in per_part for f in fs])
@@ -545,7 +541,7 @@ def _series_summary(found: list[Finding], parts: dict[str, Part]) -> list[Findin
     if len(found) <= 1:
         return found
     by_series: dict[str, list[str]] = {}
-    refs = sorted((f.subject[0] for f in found), key=_natural_key)
+    refs = sorted((f.subject[0] for f in found), key=natural_key)
     for ref in refs:
         part = parts[ref]
         v = float(part.value)

@@ -1537,7 +1537,7 @@ def stage_sections(reports: Sequence[StageReport]) -> list[tuple[str, str]]:
                          _fmt(f.corner_min, f.unit), _fmt(f.corner_max, f.unit),
                          _fmt(f.p01, f.unit), _fmt(f.p50, f.unit), _fmt(f.p99, f.unit),
                          "" if f.share_out is None else _pct(f.share_out), verdict))
-        bits = [f'<div class="stage">',
+        bits = ['<div class="stage">',
                 f'<p>{_E(rep.type)}' + (f": {_E(rep.note)}" if rep.note else "") +
                 f'. Spread: every tolerance corner, and {rep.draws} Monte Carlo builds (seed {rep.seed}, '
                 f'each part uniform within its tolerance).</p>']

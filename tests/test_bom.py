@@ -16,7 +16,8 @@ from hypothesis import strategies as st
 from pipeline.export.bom import BOM_COLUMNS, bom_files, bom_lines, order_quantity
 from pipeline.export.csvcell import inert
 from pipeline.export.netlist import netlist_csv, netlist_dict, netlist_json
-from pipeline.graph import build_graph, natural_key
+from pipeline.graph import build_graph
+from pipeline.order import natural_key
 from pipeline.model import Design, Net, OrderOptions, Part, PinDef, PinRef
 
 TWO = (PinDef("1", "1", "passive"), PinDef("2", "2", "passive"))

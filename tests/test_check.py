@@ -8,8 +8,8 @@ import networkx as nx
 import pytest
 
 from pipeline.check import check_connections
-from pipeline.graph import (build_graph, connected_groups, natural_key, nets_of_part, parts_on_net,
-                            pin_count, pin_nets, pins_on_net)
+from pipeline.graph import build_graph, connected_groups, nets_of_part, parts_on_net, pin_count, pin_nets, pins_on_net
+from pipeline.order import natural_key
 
 ROOT = Path(__file__).resolve().parents[1]
 

@@ -33,7 +33,7 @@ from fractions import Fraction
 from math import ceil
 from typing import Iterable
 
-from ..graph import natural_key
+from ..order import natural_key
 from ..model import Design, OrderOptions, Part
 from ..values import format_value
 from .csvcell import csv_bytes

@@ -59,6 +59,7 @@ import re
 from typing import Iterable
 
 from ..model import Design, Part, PinDef
+from ..order import natural_key
 from ..values import format_value
 
 __all__ = ["edif_netlist", "edif_identifier", "edif_string"]
@@ -164,10 +165,6 @@ def _stamp(timestamp: int | None) -> list:
     return ["timeStamp", *(str(x) for x in (t.year, t.month, t.day, t.hour, t.minute, t.second))]
 
 
-def _natural(text: str) -> tuple:
-    return tuple((0, int(t), "") if t.isdigit() else (1, 0, t) for t in re.split(r"(\d+)", text) if t)
-
-
 def edif_netlist(design: Design, *, timestamp: int | None = None) -> bytes:
     """Write ``design``'s parts and nets as an EDIF 2 0 0 netlist.
 
@@ -219,11 +216,11 @@ def edif_netlist(design: Design, *, timestamp: int | None = None) -> bytes:
     top_def = cell_scope.define(top_original)
 
     library: list = ["library", _PARTS_LIB, ["edifLevel", "0"], ["technology", ["numberDefinition"]]]
-    for cname in sorted(cells, key=_natural):
+    for cname in sorted(cells, key=natural_key):
         kind, package = cell_info[cname]
         scope = port_scopes[cname]
         interface: list = ["interface"]
-        for number in sorted(cells[cname], key=_natural):
+        for number in sorted(cells[cname], key=natural_key):
             pin = cells[cname][number]
             interface.append(["port", scope.define(number), ["direction", _DIRECTION.get(pin.role, "INOUT")],
                               ["property", "pin_name", ["string", edif_string(pin.name)]]])

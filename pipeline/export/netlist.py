@@ -26,7 +26,7 @@ from __future__ import annotations
 import json
 from typing import Any
 
-from ..graph import natural_key
+from ..order import natural_key
 from ..model import Design
 from ..values import format_value
 from .csvcell import csv_bytes, inert_name

@@ -36,6 +36,7 @@ import re
 from typing import Sequence
 
 from ..model import SEVERITIES, FitResult, Finding
+from ..order import natural_key
 
 __all__ = ["report_html"]
 
@@ -240,7 +241,7 @@ def _blocked(fit: FitResult) -> str:
     if fit.blocked_by:
         out.append('<ul class="reasons">' + "".join(f"<li>{_esc(r)}</li>" for r in fit.blocked_by) + "</ul>")
     if fit.unplaced:
-        refs = " ".join(sorted(fit.unplaced, key=_natural_key))
+        refs = " ".join(sorted(fit.unplaced, key=natural_key))
         out.append(f'<p>Not placed ({len(fit.unplaced)}): <span class="refs">{_esc(refs)}</span></p>')
     out.append("</section>")
     return "".join(out)
@@ -255,7 +256,7 @@ def _placements(fit: FitResult) -> str:
         '<table class="placements"><thead><tr><th>Ref</th><th class="num">x (mm)</th>'
         '<th class="num">y (mm)</th><th class="num">Rotation (\u00b0)</th><th>Side</th></tr></thead><tbody>'
     )
-    for p in sorted(fit.placements, key=lambda p: (_natural_key(p.ref), p.side)):
+    for p in sorted(fit.placements, key=lambda p: (natural_key(p.ref), p.side)):
         out.append(
             f"<tr><td>{_esc(p.ref)}</td><td class=\"num\">{_fix(p.x_mm)}</td>"
             f"<td class=\"num\">{_fix(p.y_mm)}</td><td class=\"num\">{int(p.rotation_deg)}</td>"
@@ -326,8 +327,3 @@ def _slug(text: str) -> str:
 def _fix(v: float) -> str:
     s = f"{float(v):.3f}"
     return "0.000" if s == "-0.000" else s
-
-
-def _natural_key(ref: str) -> tuple:
-    parts = re.split(r"(\d+)", ref)
-    return tuple(int(t) if i % 2 else t.lower() for i, t in enumerate(parts)) + (ref,)

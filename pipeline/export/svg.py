@@ -50,6 +50,7 @@ from shapely.geometry import LinearRing, LineString, Polygon
 from shapely.geometry.base import BaseGeometry, BaseMultipartGeometry
 
 from ..model import Cavity, FitResult, Placement, Region
+from ..order import natural_key
 
 __all__ = ["fit_svg", "nice_length", "drawing_scale"]
 
@@ -128,7 +129,7 @@ def fit_svg(cavity: Cavity, region: Region, fit: FitResult, *, title: str = "") 
     True
     """
     board = fit.board_outline if fit.board_outline is not None else cavity.board
-    placements = sorted(fit.placements, key=lambda p: (p.side != "bottom", _natural_key(p.ref)))
+    placements = sorted(fit.placements, key=lambda p: (p.side != "bottom", natural_key(p.ref)))
     minx, miny, maxx, maxy = _bounds(
         [cavity.outline, region.board_region, board, *cavity.keepouts]
         + [z.polygon for z in cavity.depth_zones]
@@ -142,7 +143,7 @@ def fit_svg(cavity: Cavity, region: Region, fit: FitResult, *, title: str = "") 
     depths, colour_of = _depth_palette(cavity)
     thickness = float(region.thickness_mm)
     labels, skipped = _labels(placements, u)
-    unplaced = sorted(fit.unplaced, key=_natural_key) if not fit.fits else []
+    unplaced = sorted(fit.unplaced, key=natural_key) if not fit.fits else []
 
     heading = title or "Board fit"
     # frame: drawing block on the left, legend on the right
@@ -294,11 +295,6 @@ def _esc(text: object) -> str:
     )
 
 
-def _natural_key(ref: str) -> tuple:
-    parts = re.split(r"(\d+)", ref)
-    return tuple(int(t) if i % 2 else t.lower() for i, t in enumerate(parts)) + (ref,)
-
-
 # --------------------------------------------------------------------------
 # geometry
 # --------------------------------------------------------------------------
@@ -414,7 +410,7 @@ def _labels(placements: Sequence[Placement], u: float) -> tuple[dict, list[str]]
     skipped: list[str] = []
     fmax, fmin = _LABEL_MAX * u, _LABEL_MIN * u
     taken = _BoxGrid(4.0 * fmax)
-    for pl in sorted(placements, key=lambda p: (p.side == "bottom", _natural_key(p.ref))):
+    for pl in sorted(placements, key=lambda p: (p.side == "bottom", natural_key(p.ref))):
         g = pl.courtyard
         if g is None or g.is_empty:
             skipped.append(pl.ref)
@@ -434,7 +430,7 @@ def _labels(placements: Sequence[Placement], u: float) -> tuple[dict, list[str]]
         else:
             taken.add(box)
             labels[(pl.side, pl.ref)] = (size, vertical)
-    return labels, sorted(set(skipped), key=_natural_key)
+    return labels, sorted(set(skipped), key=natural_key)
 
 
 class _BoxGrid:
