@@ -251,19 +251,28 @@ def _categories(design: Design, library: Any) -> dict[str, str]:
     return {p.kind: library.kind(p.kind).category for p in design.parts}
 
 
-def check_design(path: Path, *, shown: str | None = None, parts_map: Path | None = None,
-                 root: Path | None = None) -> tuple[Design, tuple[Finding, ...]]:
-    """Read a design file alone and run the connection and value checks."""
+def _read_and_check(path: Path, shown: str, parts_map: Path | None, root: Path | None):
+    """Read a design, build its graph and run the connection and value checks.
+
+    Returns ``(design, library with the design's own kinds, findings)``.
+    """
     from .check import check_connections
     from .graph import build_graph
     from .library import load_library
     from .ratings import check_values
 
     library = load_library()
-    design, warnings = read_any_design(Path(path), library, shown=shown or str(path), parts_map=parts_map, root=root)
+    design, warnings = read_any_design(Path(path), library, shown=shown, parts_map=parts_map, root=root)
     lib = library.with_kinds(design.kinds)
     g = build_graph(design)
     findings = (*warnings, *check_connections(design, g, _categories(design, lib)), *check_values(design))
+    return design, lib, findings
+
+
+def check_design(path: Path, *, shown: str | None = None, parts_map: Path | None = None,
+                 root: Path | None = None) -> tuple[Design, tuple[Finding, ...]]:
+    """Read a design file alone and run the connection and value checks."""
+    design, _, findings = _read_and_check(Path(path), shown or str(path), parts_map, root)
     return design, tuple(findings)
 
 
@@ -306,23 +315,14 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     and outline -> outputs. Raises :class:`~pipeline.errors.InputError` on bad
     input, before anything is written.
     """
-    from .check import check_connections
     from .export import atomic, bom, edif, netlist, results
     from .export import spice as spice_out
-    from .graph import build_graph
-    from .library import load_library
-    from .ratings import check_values
     from .stages import analyse_stages, stage_sections
 
     timestamp = _source_date_epoch()
-    library = load_library()
-    design, warnings = read_any_design(project.design_path, library, shown=project.design_shown,
-                                       parts_map=project.parts_map, root=project.root)
-    lib = library.with_kinds(design.kinds)
-    g = build_graph(design)
-    findings: list[Finding] = [*project.warnings, *warnings]
-    findings += check_connections(design, g, _categories(design, lib))
-    findings += check_values(design)
+    design, lib, checked = _read_and_check(project.design_path, project.design_shown, project.parts_map,
+                                           project.root)
+    findings: list[Finding] = [*project.warnings, *checked]
     reports, stage_findings = analyse_stages(design, draws=project.draws, seed=project.seed, progress=progress)
     findings += stage_findings
 
