@@ -923,20 +923,8 @@ def _collect(lines: list[_Line], rd: _Reader) -> _Netlist:
             if len(toks) < 2:
                 raise DesignError(ln.file, ".subckt needs a name", line=ln.line)
             name = toks[1]
-            ports: list[str] = []
-            params: dict[str, tuple[str, str, int]] = {}
-            for t in toks[2:]:
-                if t.lower() in ("params:", "param:"):
-                    continue
-                if _is_kv(t):
-                    k, v = t.split("=", 1)
-                    if not k or not v:
-                        raise DesignError(ln.file, f"cannot read the parameter '{t}'", line=ln.line)
-                    params[k.lower()] = (v, ln.file, ln.line)
-                elif params:
-                    raise DesignError(ln.file, f"port '{t}' after the parameters of .subckt {name}", line=ln.line)
-                else:
-                    ports.append(t)
+            ports, params = _nodes_and_params(toks[2:], ln, prefix="",
+                                              after=lambda t: f"port '{t}' after the parameters of .subckt {name}")
             if name.lower() in nl.subckts:
                 other = nl.subckts[name.lower()]
                 raise DesignError(ln.file, f"subcircuit '{name}' is defined twice (first at {other.file}:{other.line})",
@@ -1411,23 +1399,37 @@ def _semiconductor(ln: _Line, letter: str, ctx: _Ctx, b: _Build, spice_name: str
     _add(b, ln, letter, spice_name, ref, nodes, kind, package, mapped, new_ref, rspec, cspec, model=model)
 
 
-def _instance(ln: _Line, ctx: _Ctx, b: _Build, spice_name: str) -> None:
-    toks = _tokens(ln.text, drop_brackets=True)
-    name = toks[0]
-    plain: list[str] = []
-    overrides: dict[str, tuple[str, str, int]] = {}
-    for t in toks[1:]:
+def _nodes_and_params(
+    toks: list[str], ln: _Line, *, prefix: str, after: Callable[[str], str]
+) -> tuple[list[str], dict[str, tuple[str, str, int]]]:
+    """Split a ``.subckt`` header's or an X line's tokens into nodes and ``key=value`` parameters.
+
+    An optional ``params:`` marker is skipped; parameters come last, so a
+    node after one is an error (``after(token)`` gives its message).
+    Parameter values keep their file and line for later messages.
+    """
+    nodes: list[str] = []
+    params: dict[str, tuple[str, str, int]] = {}
+    for t in toks:
         if t.lower() in ("params:", "param:"):
             continue
         if _is_kv(t):
             k, v = t.split("=", 1)
             if not k or not v:
-                raise DesignError(ln.file, f"{name}: cannot read the parameter '{t}'", line=ln.line)
-            overrides[k.lower()] = (v, ln.file, ln.line)
-        elif overrides:
-            raise DesignError(ln.file, f"{name}: '{t}' after the parameters", line=ln.line)
+                raise DesignError(ln.file, f"{prefix}cannot read the parameter '{t}'", line=ln.line)
+            params[k.lower()] = (v, ln.file, ln.line)
+        elif params:
+            raise DesignError(ln.file, after(t), line=ln.line)
         else:
-            plain.append(t)
+            nodes.append(t)
+    return nodes, params
+
+
+def _instance(ln: _Line, ctx: _Ctx, b: _Build, spice_name: str) -> None:
+    toks = _tokens(ln.text, drop_brackets=True)
+    name = toks[0]
+    plain, overrides = _nodes_and_params(toks[1:], ln, prefix=f"{name}: ",
+                                         after=lambda t: f"{name}: '{t}' after the parameters")
     if len(plain) < 1:
         raise DesignError(ln.file, f"{name}: expected {name} nodes... SUBCIRCUIT", line=ln.line)
     subname = plain[-1]
