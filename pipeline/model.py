@@ -241,6 +241,9 @@ class Design:
     nets: tuple[Net, ...]
     stages: tuple[RawTable, ...] = ()
     kinds: tuple[PartKind, ...] = ()
+    #: every file the reader opened (the design, its includes, a parts map and its
+    #: includes), resolved; outputs never write over any of them.
+    inputs: tuple[str, ...] = ()
 
     def part(self, ref: str) -> Part:
         for p in self.parts:
