@@ -800,16 +800,11 @@ def _read_parts_map(path: Path, shown: str, library: Any) -> _PartsMap:
         unknown(key, body, allowed)
         kind = text(f"{key}.kind", body["kind"]) if "kind" in body else ""
         if kind:
-            try:
-                library.kind(kind)
-            except KeyError as exc:
-                raise err(f"{key}.kind", _key_reason(exc, f"unknown kind '{kind}'")) from None
+            library.kind(kind, file=shown, line=src.line(f"{key}.kind"), key=f"{key}.kind")
         package = text(f"{key}.package", body["package"]) if "package" in body else ""
         if package:
-            try:
-                package = library.package(package).name
-            except KeyError as exc:
-                raise err(f"{key}.package", _key_reason(exc, f"unknown package '{package}'")) from None
+            package = library.package(package, file=shown, line=src.line(f"{key}.package"),
+                                      key=f"{key}.package").name
         pins = None
         if "pins" in body:
             raw = body["pins"]
@@ -856,10 +851,6 @@ def _read_parts_map(path: Path, shown: str, library: Any) -> _PartsMap:
         for n, b in stages.items()
     )
     return pm
-
-
-def _key_reason(exc: KeyError, fallback: str) -> str:
-    return str(exc.args[0]) if exc.args else fallback
 
 
 # ==========================================================================
@@ -1203,12 +1194,7 @@ def _resolve(b: _Build, ln: _Line, letter: str, spice_name: str, ref: str, model
     if kind_name:
         kind = _kind(b, kind_name, kind_spec, ln)
     elif auto_kind:
-        for k in auto_kind:
-            try:
-                kind = b.library.kind(k)
-                break
-            except KeyError:
-                continue
+        kind = next((b.library.kind(k) for k in auto_kind if b.library.has_kind(k)), None)
         if kind is None:
             raise DesignError(ln.file, f"{spice_name}: the library has no kind {' or '.join(auto_kind)}; "
                               f"name its kind in the parts map ([refs.{spice_name}] kind = ...)", line=ln.line)
@@ -1222,24 +1208,17 @@ def _resolve(b: _Build, ln: _Line, letter: str, spice_name: str, ref: str, model
     if kind is not None and defaulted:
         b.defaulted.setdefault(f"{kind.name} in {package}", []).append(new_ref or ref)
     if kind is not None:
-        try:
-            package = b.library.package(package).name
-        except KeyError as exc:
-            src = next((s for s in chain if s.package), None)
-            where = (src.file, src.line, src.key + ".package") if src else (ln.file, ln.line, None)
-            raise DesignError(where[0], _key_reason(exc, f"unknown package '{package}'"), line=where[1],
-                              key=where[2]) from None
+        src = next((s for s in chain if s.package), None)
+        where = {"file": src.file, "line": src.line, "key": src.key + ".package"} if src else \
+            {"file": ln.file, "line": ln.line}
+        package = b.library.package(package, **where).name
     return kind, package, pins, new_ref, ref_spec, rec_spec
 
 
 def _kind(b: _Build, name: str, spec: _Spec | None, ln: _Line) -> PartKind:
-    try:
-        return b.library.kind(name)
-    except KeyError as exc:
-        if spec is not None and spec.origin != "record":
-            raise DesignError(spec.file, _key_reason(exc, f"unknown kind '{name}'"), line=spec.line,
-                              key=spec.key + ".kind") from None
-        raise DesignError(ln.file, _key_reason(exc, f"unknown kind '{name}'"), line=ln.line) from None
+    if spec is not None and spec.origin != "record":
+        return b.library.kind(name, file=spec.file, line=spec.line, key=spec.key + ".kind")
+    return b.library.kind(name, file=ln.file, line=ln.line)
 
 
 def _map_pins(b: _Build, ln: _Line, spice_name: str, letter: str, kind: PartKind, package: str,
@@ -1691,10 +1670,7 @@ def _loose_part(b: _Build, kv: dict[str, str], file: str, line: int) -> None:
     if not _REF_RE.match(ref):
         raise DesignError(file, f"part record: '{ref}' is not a usable reference", line=line)
     kind = _kind(b, kv.get("kind", ""), None, ln)
-    try:
-        package = b.library.package(kv.get("package", "")).name
-    except KeyError as exc:
-        raise DesignError(file, _key_reason(exc, "unknown package"), line=line) from None
+    package = b.library.package(kv.get("package", ""), file=file, line=line).name
     pins = tuple(kv["pins"].split(",")) if kv.get("pins") else None
     node_list = kv["nodes"].split(",")
     if pins is None and node_list == [""]:
