@@ -118,6 +118,32 @@ class Courtyard:
         return self.length_mm * self.width_mm
 
 
+#: Pad shapes (Pad.shape).
+PAD_SHAPES = ("rect", "roundrect", "circle", "oblong")
+
+
+@dataclass(frozen=True)
+class Pad:
+    """One land of a package, mm.
+
+    In the package's frame (pipeline.library.lands: x along the length, pin 1
+    where the outline puts it) or, from ``pipeline.library.pads_on_board``, on
+    the board. ``width_mm`` is the pad's extent along x and ``height_mm`` along
+    y before its ``rotation`` (0 or 90 degrees) is applied; ``drill_mm`` is the
+    finished hole of a through-hole pad, 0 for surface mount. ``number`` is the
+    pin number as text (``"EP"`` for an exposed pad).
+    """
+
+    number: str
+    x_mm: float
+    y_mm: float
+    shape: str
+    width_mm: float
+    height_mm: float
+    drill_mm: float = 0.0
+    rotation: int = 0
+
+
 @dataclass(frozen=True)
 class Package:
     """A generic footprint: body, land extent, height and courtyards.
@@ -126,9 +152,10 @@ class Package:
     ``land_length_mm`` along the pin rows (for a chip, its terminal axis, so
     there the land length is toe to toe), ``body_width_mm`` and
     ``land_width_mm`` across them (for a gull-wing IC, the land width is the
-    toe-to-toe span across the rows). ``height_mm`` is the tallest a part in
-    this package may be. ``courtyards`` holds one :class:`Courtyard` per
-    density level (``most``, ``nominal``, ``least``). footprints/README.md
+    toe-to-toe span across the rows); both are the extent of the nominal-level
+    pads. ``height_mm`` is the tallest a part in this package may be.
+    ``courtyards`` holds one :class:`Courtyard` per density level (``most``,
+    ``nominal``, ``least``), each around the body and that level's pads. footprints/README.md
     gives the basis of every figure.
     """
 
@@ -144,12 +171,26 @@ class Package:
     pitch_mm: float
     source: str
     courtyards: tuple[Courtyard, ...]
+    #: ``(level, pads)`` per density level: the land pattern (IPC-7351B lands differ by level).
+    pads_by_level: tuple[tuple[str, tuple[Pad, ...]], ...] = ()
 
     def courtyard(self, level: str) -> Courtyard:
         for c in self.courtyards:
             if c.level == level:
                 return c
         raise KeyError(level)
+
+    def pads_at(self, level: str) -> tuple[Pad, ...]:
+        """The pads at density ``level`` (empty when the package has none)."""
+        for lv, pads in self.pads_by_level:
+            if lv == level:
+                return pads
+        return ()
+
+    @property
+    def pads(self) -> tuple[Pad, ...]:
+        """The pads at the nominal density level (IPC-7351B level B)."""
+        return self.pads_at("nominal")
 
 
 # --------------------------------------------------------------------------

@@ -25,7 +25,7 @@ Examples
 '0603'
 >>> cy = courtyard(lib.package("0603"), "nominal")
 >>> (cy.length_mm, cy.width_mm)
-(2.8, 1.3)
+(2.95, 1.45)
 >>> [p.name for p in lib.pins_for(lib.kind("header"), lib.package("header-1x3-2.54"))]
 ['1', '2', '3']
 """
