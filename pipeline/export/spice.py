@@ -387,8 +387,9 @@ def spice_netlist(design: Design) -> bytes:
         except (TypeError, ValueError):
             out.append(f"* stage {_ascii(st.name)}: its table holds values JSON cannot carry; not recorded")
             continue
-        out.append(_record("stage", [("name", st.name), ("file", st.file), ("key", st.key), ("line", str(st.line)),
-                                     ("items", items)]))
+        # No file or line: the reader locates a stage record in the file it reads
+        # (and the design's own path would put a path into the output).
+        out.append(_record("stage", [("name", st.name), ("key", st.key), ("items", items)]))
 
     out.append("*")
     out.append("* Nets")
