@@ -154,8 +154,17 @@ program reads them as comments.
 
 from __future__ import annotations
 
-from .numbers import SCALE_FACTORS, parse_number
-from .reader import read_spice
-from .records import RECORD_PREFIX
+from typing import Any
 
 __all__ = ["read_spice", "parse_number", "SCALE_FACTORS", "RECORD_PREFIX"]
+
+_HOMES = {"read_spice": "reader", "parse_number": "numbers", "SCALE_FACTORS": "numbers", "RECORD_PREFIX": "records"}
+
+
+def __getattr__(name: str) -> Any:
+    """Import the reader on first use, so that ``pipeline.spice.limits`` alone stays cheap."""
+    if name in _HOMES:
+        from importlib import import_module
+
+        return getattr(import_module(f".{_HOMES[name]}", __name__), name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")

@@ -69,7 +69,7 @@ def assemble(b: Build, net_records: dict[str, dict[str, str]]) -> tuple[tuple[Pa
         name = rec.get("name") or b.net_names.get(node, node)
         if node == "0":
             name = "GND"
-        file, line = rec.get("_file", ""), 0
+        file, line = rec.get("_file", b.rd.shown), int(rec.get("_line", "0") or 0)
         v = float_or_none(rec.get("voltage"), file, line, "voltage") if "voltage" in rec else voltages.get(node)
         vmax = float_or_none(rec.get("voltage_max"), file, line, "voltage_max")
         nets.append(Net(name=name, pins=tuple(pins), voltage=v, voltage_max=vmax,

@@ -16,10 +16,10 @@ FILE_BYTES = 50_000_000
 #: Most ``.include`` / ``.lib`` splices in one reading, counted as they are
 #: made (a file included twice counts twice; 25 files each including the
 #: next twice would be 2^24 splices).
-INCLUDE_SPLICES = 10_000
+INCLUDE_SPLICES = 1_000
 #: Most element lines elaborated in one reading, counted as subcircuit
 #: instances are flattened (the flattened netlist's size).
-EXPANSION_PARTS = 200_000
+EXPANSION_PARTS = 100_000
 #: Deepest nesting of an expression (brackets, signs, ``^`` chains) and
 #: longest chain of parameters defined by one another.
 EXPRESSION_DEPTH = 1_000
