@@ -22,16 +22,10 @@ from pipeline.project import load_project
 from pipeline.spice import read_spice
 from pipeline.spice.expr import evaluate
 from pipeline.spice.limits import DEFAULTS, EXPRESSION_DEPTH, SpiceLimits
+from test_spice import _write
 
 ROOT = Path(__file__).resolve().parent.parent
 LIB = load_library()
-
-
-def _write(folder: Path, files: dict[str, str]) -> None:
-    for name, text in files.items():
-        p = folder / name
-        p.parent.mkdir(parents=True, exist_ok=True)
-        p.write_text(text)
 
 
 def _check(folder: Path, name: str = "main.cir"):
