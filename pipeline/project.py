@@ -22,6 +22,8 @@ board      layers (2), thickness_mm (0.8), sides (1), density ("nominal"),
 cavity     depth_mm (5.0), units ("mm"), layers (role map), chord_tolerance_mm (0.02)
 order      boards (1), spares_percent (0), min_spares (0), multiple (1)
 analysis   draws (10000), seed (1)
+limits     spice_file_bytes, spice_include_splices, spice_expansion_parts,
+           expression_depth (defaults in pipeline/spice/limits.py; README "Limits")
 =========  ====================================================================
 """
 
@@ -35,6 +37,7 @@ from typing import Any, Callable
 
 from .errors import ProjectError
 from .model import BoardOptions, Design, FitResult, Finding, OrderOptions
+from .spice.limits import DEFAULTS as SPICE_LIMITS
 from .tomlsrc import TomlSource, load
 
 __all__ = ["Project", "RunResult", "load_project", "run", "check_design", "inspect_cavity", "read_any_design",
@@ -54,6 +57,7 @@ _KEYS: dict[str, tuple[str, ...]] = {
     "cavity": ("depth_mm", "units", "layers", "chord_tolerance_mm"),
     "order": ("boards", "spares_percent", "min_spares", "multiple"),
     "analysis": ("draws", "seed"),
+    "limits": tuple(SPICE_LIMITS),  # README "Limits"; each a whole number >= 1
 }
 
 
@@ -82,6 +86,7 @@ class Project:
     draws: int = 10000
     seed: int = 1
     warnings: tuple[Finding, ...] = ()
+    limits: tuple[tuple[str, int], ...] = ()  # [limits] keys given, sorted
 
 
 @dataclass(frozen=True)
@@ -232,17 +237,20 @@ def load_project(
         draws=_num(src, "analysis.draws", an.get("draws", 10000), integer=True, lo=100, hi=1_000_000),
         seed=_num(src, "analysis.seed", an.get("seed", 1), integer=True, lo=0),
         warnings=tuple(warnings),
+        limits=tuple(sorted((k, _num(src, f"limits.{k}", v, integer=True, lo=1))
+                            for k, v in data.get("limits", {}).items())),
     )
 
 
 # --------------------------------------------------------------------------
 def read_any_design(path: Path, library: Any, *, shown: str, parts_map: Path | None = None,
-                    root: Path | None = None) -> tuple[Design, list[Finding]]:
-    """Read a TOML design or, by its ending, a SPICE netlist."""
+                    root: Path | None = None, limits: tuple[tuple[str, int], ...] = ()) -> tuple[Design, list[Finding]]:
+    """Read a TOML design or, by its ending, a SPICE netlist (``limits``: the project's ``[limits]``)."""
     if path.suffix.lower() in SPICE_SUFFIXES:
         from .spice import read_spice
+        from .spice.limits import SpiceLimits
         return read_spice(path, library, display_name=shown, parts_map=parts_map,
-                          root=root if root is not None else path.parent)
+                          root=root if root is not None else path.parent, limits=SpiceLimits.from_table(dict(limits)))
     from .design import read_design
     return read_design(path, library, display=shown)
 
@@ -251,7 +259,8 @@ def _categories(design: Design, library: Any) -> dict[str, str]:
     return {p.kind: library.kind(p.kind).category for p in design.parts}
 
 
-def _read_and_check(path: Path, shown: str, parts_map: Path | None, root: Path | None):
+def _read_and_check(path: Path, shown: str, parts_map: Path | None, root: Path | None,
+                    limits: tuple[tuple[str, int], ...] = ()):
     """Read a design, build its graph and run the connection and value checks.
 
     Returns ``(design, library with the design's own kinds, findings)``.
@@ -262,7 +271,8 @@ def _read_and_check(path: Path, shown: str, parts_map: Path | None, root: Path |
     from .ratings import check_values
 
     library = load_library()
-    design, warnings = read_any_design(Path(path), library, shown=shown, parts_map=parts_map, root=root)
+    design, warnings = read_any_design(Path(path), library, shown=shown, parts_map=parts_map, root=root,
+                                       limits=limits)
     lib = library.with_kinds(design.kinds)
     g = build_graph(design)
     findings = (*warnings, *check_connections(design, g, _categories(design, lib)), *check_values(design))
@@ -321,7 +331,7 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
 
     timestamp = _source_date_epoch()
     design, lib, checked = _read_and_check(project.design_path, project.design_shown, project.parts_map,
-                                           project.root)
+                                           project.root, project.limits)
     findings: list[Finding] = [*project.warnings, *checked]
     reports, stage_findings = analyse_stages(design, draws=project.draws, seed=project.seed, progress=progress)
     findings += stage_findings
