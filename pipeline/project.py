@@ -317,13 +317,14 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     """
     from .export import atomic, bom, edif, netlist, results
     from .export import spice as spice_out
-    from .stages import analyse_stages, stage_sections
+    from .circuit import analyse_blocks
+    from .export.blocks import block_sections
 
     timestamp = _source_date_epoch()
     design, lib, checked = _read_and_check(project.design_path, project.design_shown, project.parts_map,
                                            project.root)
     findings: list[Finding] = [*project.warnings, *checked]
-    reports, stage_findings = analyse_stages(design, draws=project.draws, seed=project.seed, progress=progress)
+    reports, stage_findings = analyse_blocks(design, draws=project.draws, seed=project.seed, progress=progress)
     findings += stage_findings
 
     files: dict[str, bytes] = {}
@@ -338,7 +339,7 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     fit = None
     sweep_result = None
     fit_json: dict = {}
-    sections = list(stage_sections(reports))
+    sections = list(block_sections(reports))
     svg = None
     if project.cavity_path is not None:
         from .area import items_from_design
