@@ -14,12 +14,16 @@ import json
 import math
 import shutil
 import subprocess
+import sys
 import xml.etree.ElementTree as ET
 from dataclasses import replace
+from pathlib import Path
 
 import eseries
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from scipy import optimize, signal
 
 from pipeline.circuit import formulas as F
@@ -169,6 +173,44 @@ def test_butterworth_response_matches_scipy_prototype():
     b, a = signal.butter(2, w0, analog=True)
     _, h = signal.freqs(b, a, worN=2 * np.pi * np.asarray(resp.f_hz))
     assert np.allclose(resp.nominal_db, 20 * np.log10(np.abs(h)), atol=1e-6)
+
+
+@settings(max_examples=60, deadline=None)
+@given(num=st.lists(st.floats(-1e3, 1e3), min_size=1, max_size=3),
+       den=st.lists(st.floats(1e-6, 1e3), min_size=2, max_size=4),
+       f=st.lists(st.floats(1e-3, 1e6), min_size=1, max_size=20))
+def test_response_db_matches_scipy_freqs(num, den, f):
+    # Source: scipy.signal.freqs, the general-purpose reference for H(jw) of an analogue
+    # transfer function (positive denominator coefficients: no pole on the jw axis).
+    got_mag, got_ph = F.response_db(np.array(num), np.array(den), np.array(f))
+    _, h = signal.freqs(num, den, worN=2 * np.pi * np.asarray(f))
+    with np.errstate(divide="ignore"):
+        want = 20 * np.log10(np.abs(h))
+    assert np.allclose(got_mag, want, rtol=1e-12, atol=1e-9, equal_nan=True)
+    assert np.allclose(got_ph, np.degrees(np.angle(h)), rtol=1e-12, atol=1e-9)
+
+
+_IMPORT_PROBE = """
+import sys
+import pipeline.cli
+after_cli = sorted(m for m in sys.modules if m == "scipy" or m.startswith("scipy."))
+from click.testing import CliRunner
+r = CliRunner().invoke(pipeline.cli.main, ["run", sys.argv[1], "--out", sys.argv[2]])
+assert r.exit_code in (0, 1), r.output
+print(",".join(after_cli) + "|" + str("scipy.signal" in sys.modules) + "|" + str("pipeline.circuit" in sys.modules))
+"""
+
+
+def test_cli_and_demo_do_not_import_scipy_signal(tmp_path):
+    # Cost guard (issue 10 item 8, issue 11 item 2): importing pipeline.cli loads no scipy at all,
+    # and a whole demo run (which analyses its declared blocks) never loads scipy.signal.
+    root = Path(__file__).resolve().parents[1]
+    out = subprocess.run([sys.executable, "-c", _IMPORT_PROBE, str(root / "demo_project"), str(tmp_path / "out")],
+                         cwd=root, capture_output=True, text=True, check=True).stdout.strip()
+    after_cli, signal_loaded, circuit_loaded = out.split("|")
+    assert after_cli == ""
+    assert circuit_loaded == "True"        # the probe really ran the block analysis
+    assert signal_loaded == "False"
 
 
 # --------------------------------------------------------------------------
