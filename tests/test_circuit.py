@@ -846,3 +846,38 @@ def test_filters_helpers():
     assert F.corner_signs(2).tolist() == [[-1, -1], [1, -1], [-1, 1], [1, 1]]
     x1, x2 = F.solve_quadratic_positive(np.array([1.0, 1.0]), np.array([3.0, 1.0]), np.array([2.0, 1.0]))
     assert x1[0] == 2.0 and x2[0] == 1.0 and np.isnan(x1[1]) and np.isnan(x2[1])
+
+
+# --------------------------------------------------------------------------
+# `check` runs the declared blocks exactly as `run` does
+# --------------------------------------------------------------------------
+def _cli_json(*args):
+    from click.testing import CliRunner
+
+    from pipeline.cli import main
+    r = CliRunner().invoke(main, [*args, "--json"])
+    assert r.exit_code in (0, 1), r.output
+    return r.exit_code, json.loads(r.stdout)["findings"]
+
+
+@pytest.mark.parametrize("target", [None, 'f0 = "900Hz ±5%", q = "0.72 ±10%"'])
+def test_check_gives_the_same_findings_and_status_as_run(tmp_path, target):
+    # The demo (all blocks pass) and the demo with a missed low-pass target (exit 1 from the block
+    # alone); `run` without a cavity adds only its fit.no-cavity note.
+    root = Path(__file__).resolve().parents[1]
+    proj = tmp_path / "p"
+    shutil.copytree(root / "demo_project", proj)
+    toml = (proj / "project.toml").read_text(encoding="utf-8")
+    (proj / "project.toml").write_text(toml.replace('cavity = "../outlines/controller-bay.dxf"\n', ""),
+                                       encoding="utf-8")
+    if target is not None:
+        d = proj / "design.toml"
+        text = d.read_text(encoding="utf-8")
+        assert 'targets = { f0 = "490Hz ±7%", q = "0.72 ±10%" }' in text
+        d.write_text(text.replace('f0 = "490Hz ±7%", q = "0.72 ±10%"', target), encoding="utf-8")
+    run_status, run_findings = _cli_json("run", str(proj), "--out", str(tmp_path / "out"))
+    check_status, check_findings = _cli_json("check", str(proj / "design.toml"))
+    assert [f for f in run_findings if f["check"] != "fit.no-cavity"] == check_findings
+    assert run_status == check_status == (0 if target is None else 1)
+    assert any(f["check"] == "stage.summary" for f in check_findings)
+    assert any(f["check"] == "stage.target-missed" for f in check_findings) == (target is not None)
