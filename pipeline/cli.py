@@ -166,7 +166,7 @@ def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: st
 @click.option("-v", "--verbose", is_flag=True, help="Also show notes (info findings).")
 @click.pass_context
 def check_cmd(ctx: click.Context, design_file: str, parts_map: str | None, as_json: bool, verbose: bool) -> None:
-    """Check a design file alone: read it, build the graph, run the connection and value checks."""
+    """Check a design file alone: connections, values and declared blocks (everything but the fit)."""
     from pathlib import Path
 
     from .project import check_design

@@ -259,13 +259,15 @@ def _categories(design: Design, library: Any) -> dict[str, str]:
     return {p.kind: library.kind(p.kind).category for p in design.parts}
 
 
-def _read_and_check(path: Path, shown: str, parts_map: Path | None, root: Path | None,
-                    limits: tuple[tuple[str, int], ...] = ()):
-    """Read a design, build its graph and run the connection and value checks.
+def _read_and_check(path: Path, shown: str, parts_map: Path | None, root: Path | None, *,
+                    limits: tuple[tuple[str, int], ...] = (), draws: int = 10000, seed: int = 1,
+                    progress: Progress | None = None):
+    """Read a design, build its graph, run the connection and value checks and analyse its blocks.
 
-    Returns ``(design, library with the design's own kinds, findings)``.
+    Returns ``(design, library with the design's own kinds, findings, block reports)``.
     """
     from .check import check_connections
+    from .circuit import analyse_blocks
     from .graph import build_graph
     from .library import load_library
     from .ratings import check_values
@@ -276,13 +278,15 @@ def _read_and_check(path: Path, shown: str, parts_map: Path | None, root: Path |
     lib = library.with_kinds(design.kinds)
     g = build_graph(design)
     findings = (*warnings, *check_connections(design, g, _categories(design, lib)), *check_values(design))
-    return design, lib, findings
+    reports, block_findings = analyse_blocks(design, draws=draws, seed=seed, progress=progress)
+    return design, lib, (*findings, *block_findings), reports
 
 
 def check_design(path: Path, *, shown: str | None = None, parts_map: Path | None = None,
                  root: Path | None = None) -> tuple[Design, tuple[Finding, ...]]:
-    """Read a design file alone and run the connection and value checks."""
-    design, _, findings = _read_and_check(Path(path), shown or str(path), parts_map, root)
+    """Read a design file alone and run every check that needs no drawing: connections, values
+    and the declared blocks (Monte Carlo with the default draws and seed of ``[analysis]``)."""
+    design, _, findings, _ = _read_and_check(Path(path), shown or str(path), parts_map, root)
     return design, tuple(findings)
 
 
@@ -327,14 +331,13 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     """
     from .export import atomic, bom, edif, netlist, results
     from .export import spice as spice_out
-    from .stages import analyse_stages, stage_sections
+    from .export.blocks import block_sections
 
     timestamp = _source_date_epoch()
-    design, lib, checked = _read_and_check(project.design_path, project.design_shown, project.parts_map,
-                                           project.root, project.limits)
+    design, lib, checked, reports = _read_and_check(project.design_path, project.design_shown, project.parts_map,
+                                                    project.root, limits=project.limits, draws=project.draws,
+                                                    seed=project.seed, progress=progress)
     findings: list[Finding] = [*project.warnings, *checked]
-    reports, stage_findings = analyse_stages(design, draws=project.draws, seed=project.seed, progress=progress)
-    findings += stage_findings
 
     files: dict[str, bytes] = {}
     files.update(bom.bom_files(design, project.order))
@@ -348,7 +351,7 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     fit = None
     sweep_result = None
     fit_json: dict = {}
-    sections = list(stage_sections(reports))
+    sections = list(block_sections(reports))
     svg = None
     if project.cavity_path is not None:
         from .area import items_from_design
