@@ -235,7 +235,7 @@ def packages_cmd(ctx: click.Context, names: tuple[str, ...], as_json: bool) -> N
 
     ctx.meta["snugboard.json"] = as_json
     lib = load_library()
-    pkgs = _lookup(lib.package, names) if names else list(lib.packages())
+    pkgs = [lib.package(n) for n in names] if names else list(lib.packages())
     if as_json:
         click.echo(json.dumps([_package_dict(p) for p in pkgs], indent=2))
         return
@@ -247,16 +247,6 @@ def packages_cmd(ctx: click.Context, names: tuple[str, ...], as_json: bool) -> N
                    f"{p.height_mm:>7.2f}{p.land_length_mm:>7.2f}x{p.land_width_mm:<5.2f}  {cy}")
         if names:
             click.echo(f"  aliases: {', '.join(p.aliases) or '-'}; source: {p.source}")
-
-
-def _lookup(find, names: tuple[str, ...]) -> list:
-    """Library entries by name; an unknown name is bad input naming the closest ones."""
-    from .errors import LibraryError
-
-    try:
-        return [find(n) for n in names]
-    except KeyError as exc:
-        raise LibraryError("footprints", str(exc.args[0]) if exc.args else "unknown name") from None
 
 
 def _package_dict(p) -> dict[str, Any]:
@@ -278,7 +268,7 @@ def kinds_cmd(ctx: click.Context, names: tuple[str, ...], as_json: bool) -> None
 
     ctx.meta["snugboard.json"] = as_json
     lib = load_library()
-    kinds = _lookup(lib.kind, names) if names else list(lib.kinds())
+    kinds = [lib.kind(n) for n in names] if names else list(lib.kinds())
     if as_json:
         click.echo(json.dumps([{"name": k.name, "category": k.category, "value_unit": k.value_unit,
                                 "pins_from_package": k.pins_from_package, "source": k.source,

@@ -23,6 +23,10 @@ Severity = Literal["error", "warning", "info"]
 Side = Literal["top", "bottom"]
 Density = Literal["most", "nominal", "least"]
 
+#: IPC-7351B density levels, in the order A (most), B (nominal), C (least):
+#: the one list of level names (project.toml, the library, the area stage).
+DENSITY_LEVELS: tuple[str, ...] = ("most", "nominal", "least")
+
 #: Electrical roles a pin may have (DEVELOPERS.md, "Part kinds").
 PIN_ROLES = (
     "power-in",

@@ -36,7 +36,7 @@ from pathlib import Path
 from typing import Any, Callable
 
 from .errors import ProjectError
-from .model import BoardOptions, Design, FitResult, Finding, OrderOptions
+from .model import DENSITY_LEVELS, BoardOptions, Design, FitResult, Finding, OrderOptions
 from .spice.limits import DEFAULTS as SPICE_LIMITS
 from .tomlsrc import TomlSource, load
 
@@ -45,7 +45,6 @@ __all__ = ["Project", "RunResult", "load_project", "run", "check_design", "inspe
 
 SPICE_SUFFIXES = (".cir", ".sp", ".spice", ".net")
 UNITS = ("mm", "cm", "m", "inch", "in", "foot", "ft", "mil", "um")
-DENSITIES = ("most", "nominal", "least")
 STANDARD_THICKNESS = (0.4, 0.6, 0.8, 1.0, 1.2, 1.6, 2.0)  # REFERENCES.md section 4, common practice
 
 Progress = Callable[[str, float], None]
@@ -195,7 +194,7 @@ def load_project(
         layers=_num(src, "board.layers", bd.get("layers", b.layers), integer=True, lo=1, hi=64),
         thickness_mm=float(_num(src, "board.thickness_mm", bd.get("thickness_mm", b.thickness_mm), lo=0, lo_open=True, hi=10)),
         sides=_num(src, "board.sides", bd.get("sides", b.sides), integer=True, lo=1, hi=2),
-        density=_text(src, "board.density", bd.get("density", b.density), DENSITIES),
+        density=_text(src, "board.density", bd.get("density", b.density), DENSITY_LEVELS),
         edge_clearance_mm=float(_num(src, "board.edge_clearance_mm", bd.get("edge_clearance_mm", b.edge_clearance_mm), lo=0, hi=50)),
         wall_clearance_mm=float(_num(src, "board.wall_clearance_mm", bd.get("wall_clearance_mm", b.wall_clearance_mm), lo=0, hi=50)),
         outline=_text(src, "board.outline", bd.get("outline", b.outline), ("region", "rectangle")),
