@@ -48,6 +48,7 @@ from typing import Any, Iterable, Mapping
 from pipeline.errors import LibraryError
 from pipeline.model import PIN_ROLES, Courtyard, Package, PartKind, PinDef
 from pipeline.order import natural_key
+from pipeline.tomlsrc import number_problem
 
 __all__ = [
     "DEFAULT_ROOT",
@@ -753,17 +754,10 @@ def _toml_number(
     value: Any, path: Path, key: str, line: int | None, *, minimum: float | None = 0.0,
     strict: bool = False,
 ) -> float:
-    if isinstance(value, bool) or not isinstance(value, (int, float)):
-        raise LibraryError(str(path), f"expected a number, got {value!r}", line=line, key=key)
-    v = float(value)
-    if not math.isfinite(v):
-        raise LibraryError(str(path), f"expected a finite number, got {value!r}", line=line, key=key)
-    if minimum is not None and (v <= minimum if strict else v < minimum):
-        rel = "greater than" if strict else "at least"
-        raise LibraryError(
-            str(path), f"must be {rel} {_fmt_number(minimum)}, got {value!r}", line=line, key=key
-        )
-    return v
+    problem = number_problem(value, lo=minimum, lo_open=strict)  # the one rule for TOML numbers
+    if problem:
+        raise LibraryError(str(path), problem, line=line, key=key)
+    return float(value)
 
 
 def _toml_text(value: Any, path: Path, key: str, line: int | None, *, required: bool = True) -> str:
