@@ -200,7 +200,8 @@ def load_project(
     if layer_map is not None and not isinstance(layer_map, dict):
         raise src.error("cavity.layers", "expected a table such as { CAVITY = \"Outline\", KEEPOUT = [\"Bosses\"] }",
                         ProjectError)
-    out_dir = Path(out).resolve() if out is not None else (root / "out").resolve()
+    # not resolved: a symbolic link as the output folder is refused by the writer, not followed
+    out_dir = Path(os.path.abspath(out if out is not None else root.resolve() / "out"))
     return Project(
         name=_text(src, "project.name", pj.get("name", root.resolve().name or "project")),
         root=root.resolve(),
@@ -368,7 +369,7 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
                                                   findings=findings, fit_svg=svg, sections=sections)
     errors = any(f.severity == "error" for f in findings)
     status = 1 if errors or (fit is not None and not fit.fits) else 0
-    protect = [project.design_path, project.root / "project.toml"]
+    protect = [project.design_path, project.root / "project.toml", *design.inputs]
     if project.cavity_path is not None:
         protect.append(project.cavity_path)
     if project.parts_map is not None:
