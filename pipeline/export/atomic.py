@@ -100,9 +100,9 @@ def write_all(
     """
     out = Path(os.path.abspath(out_dir))
     names = sorted(files)
+    _clean_leftovers(out)
     _check_names(out, names)
     _check_folder(out, protect)
-    _clean_leftovers(out)
     _check_owned(out, set(names))
     try:
         out.parent.mkdir(parents=True, exist_ok=True)
