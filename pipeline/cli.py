@@ -17,8 +17,11 @@ from __future__ import annotations
 
 import json
 import os
+import signal
 import sys
-from typing import Any
+import threading
+from contextlib import contextmanager
+from typing import Any, Iterator
 
 import click
 
@@ -28,10 +31,41 @@ from .errors import SnugboardError
 _SEV_MARK = {"error": "error", "warning": "warning", "info": "note"}
 
 
+class _Stopped(KeyboardInterrupt):
+    """SIGTERM or SIGHUP, raised like Ctrl-C so that every clean-up on the way out runs."""
+
+    def __init__(self, signum: int) -> None:
+        super().__init__(signum)
+        self.signum = signum
+
+
+def _raise_stopped(signum: int, _frame: Any) -> None:
+    raise _Stopped(signum)
+
+
+@contextmanager
+def _stoppable() -> Iterator[None]:
+    """SIGTERM and SIGHUP end the command as Ctrl-C does (the main thread only; restored after)."""
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    saved = {s: signal.signal(s, _raise_stopped) for s in (signal.SIGTERM, signal.SIGHUP)}
+    try:
+        yield
+    finally:
+        for s, h in saved.items():
+            signal.signal(s, h)
+
+
 class _Group(click.Group):
     def invoke(self, ctx: click.Context) -> Any:
         try:
-            return super().invoke(ctx)
+            with _stoppable():
+                return super().invoke(ctx)
+        except KeyboardInterrupt as exc:
+            signum = getattr(exc, "signum", signal.SIGINT)
+            click.echo("snugboard: stopped; the output folder keeps its previous files", err=True)
+            ctx.exit(128 + signum)
         except SnugboardError as exc:
             if ctx.meta.get("snugboard.json"):
                 click.echo(json.dumps({"exit_status": exc.exit_status, "error": str(exc),

@@ -103,23 +103,12 @@ class RunResult:
 
 
 # --------------------------------------------------------------------------
-def _num(src: TomlSource, key: str, v: Any, *, integer: bool = False, lo: float | None = None,
-         hi: float | None = None, lo_open: bool = False) -> Any:
-    if isinstance(v, bool) or not isinstance(v, (int, float)) or (integer and not isinstance(v, int)):
-        raise src.error(key, f"expected {'a whole number' if integer else 'a number'}, found {v!r}", ProjectError)
-    if lo is not None and (v < lo or (lo_open and v == lo)):
-        raise src.error(key, f"must be {'above' if lo_open else 'at least'} {lo:g}, found {v!r}", ProjectError)
-    if hi is not None and v > hi:
-        raise src.error(key, f"must be at most {hi:g}, found {v!r}", ProjectError)
-    return v
+def _num(src: TomlSource, key: str, v: Any, **checks: Any) -> Any:
+    return src.number(key, v, ProjectError, **checks)
 
 
-def _text(src: TomlSource, key: str, v: Any, choices: tuple[str, ...] | None = None) -> str:
-    if not isinstance(v, str) or not v.strip():
-        raise src.error(key, f"expected text, found {v!r}", ProjectError)
-    if choices and v not in choices:
-        raise src.error(key, f"'{v}' is not one of: {', '.join(choices)}", ProjectError)
-    return v
+def _text(src: TomlSource, key: str, v: Any, choices: tuple[str, ...] | None = None, *, path: bool = False) -> str:
+    return src.text(key, v, ProjectError, choices=choices, path=path)
 
 
 def _shown(p: Path, root: Path) -> str:
@@ -170,7 +159,7 @@ def load_project(
     an = data.get("analysis", {})
 
     def rel(key: str, value: Any) -> Path:
-        return (root / _text(src, key, value)).resolve()
+        return (root / _text(src, key, value, path=True)).resolve()
 
     if design is not None:
         design_path, design_shown = Path(design).resolve(), design
@@ -215,7 +204,8 @@ def load_project(
     if layer_map is not None and not isinstance(layer_map, dict):
         raise src.error("cavity.layers", "expected a table such as { CAVITY = \"Outline\", KEEPOUT = [\"Bosses\"] }",
                         ProjectError)
-    out_dir = Path(out).resolve() if out is not None else (root / "out").resolve()
+    # not resolved: a symbolic link as the output folder is refused by the writer, not followed
+    out_dir = Path(os.path.abspath(out if out is not None else root.resolve() / "out"))
     return Project(
         name=_text(src, "project.name", pj.get("name", root.resolve().name or "project")),
         root=root.resolve(),
@@ -391,7 +381,7 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
                                                   findings=findings, fit_svg=svg, sections=sections)
     errors = any(f.severity == "error" for f in findings)
     status = 1 if errors or (fit is not None and not fit.fits) else 0
-    protect = [project.design_path, project.root / "project.toml"]
+    protect = [project.design_path, project.root / "project.toml", *design.inputs]
     if project.cavity_path is not None:
         protect.append(project.cavity_path)
     if project.parts_map is not None:
