@@ -137,20 +137,21 @@ def _cavity_dxf() -> bytes:
     import ezdxf
     from ezdxf import units
 
-    from .export.dxf import document_text
+    from .export.dxf import document_text, fixed_metadata
 
     q = math.tan(math.pi / 8)  # bulge of a 90 degree counter-clockwise arc: tan(90 deg / 4)
     w, h, r = 30.0, 20.0, 2.0
-    doc = ezdxf.new("R2010", units=units.MM)
-    for name in ("CAVITY", "KEEPOUT", "DEPTH-2.5"):
-        doc.layers.add(name)
-    msp = doc.modelspace()
     corners = [(r, 0, 0), (w - r, 0, q), (w, r, 0), (w, h - r, q), (w - r, h, 0), (r, h, q), (0, h - r, 0), (0, r, q)]
-    msp.add_lwpolyline(corners, format="xyb", close=True, dxfattribs={"layer": "CAVITY"})
-    msp.add_circle((25.0, 15.0), 1.8, dxfattribs={"layer": "KEEPOUT"})
-    msp.add_lwpolyline([(20.0, -1.0), (23.0, -1.0), (23.0, 21.0), (20.0, 21.0)], close=True,
-                       dxfattribs={"layer": "DEPTH-2.5"})
-    return document_text(doc).encode(doc.output_encoding)
+    with fixed_metadata():  # ezdxf stamps a document when it is made, too: both inside
+        doc = ezdxf.new("R2010", units=units.MM)
+        for name in ("CAVITY", "KEEPOUT", "DEPTH-2.5"):
+            doc.layers.add(name)
+        msp = doc.modelspace()
+        msp.add_lwpolyline(corners, format="xyb", close=True, dxfattribs={"layer": "CAVITY"})
+        msp.add_circle((25.0, 15.0), 1.8, dxfattribs={"layer": "KEEPOUT"})
+        msp.add_lwpolyline([(20.0, -1.0), (23.0, -1.0), (23.0, 21.0), (20.0, 21.0)], close=True,
+                           dxfattribs={"layer": "DEPTH-2.5"})
+        return document_text(doc).encode(doc.output_encoding)
 
 
 def starter_files() -> dict[str, bytes]:
