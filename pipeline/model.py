@@ -12,9 +12,10 @@ stage boundary is here.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any, Literal
+from typing import TYPE_CHECKING, Any, Literal
 
-from shapely.geometry.base import BaseGeometry
+if TYPE_CHECKING:  # geometry types only annotate: importing shapely here would slow every command's start
+    from shapely.geometry.base import BaseGeometry
 
 from .codes import allowed
 from .values import round_sig as _sig

@@ -100,6 +100,7 @@ class RunResult:
     stage_reports: tuple[Any, ...] = ()
     sweep: Any = None
     fit_json: dict = field(default_factory=dict)
+    verdict: Any = None
 
 
 # --------------------------------------------------------------------------
@@ -329,7 +330,8 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     findings: list[Finding] = [*project.warnings, *checked]
 
     files: dict[str, bytes] = {}
-    files.update(bom.bom_files(design, project.order))
+    order_files = bom.bom_files(design, project.order)
+    files.update(order_files)
     files["netlist.csv"] = netlist.netlist_csv(design)
     files["netlist.json"] = netlist.netlist_json(design)
     files["netlist.edf"] = edif.edif_netlist(design, timestamp=timestamp)
@@ -339,48 +341,37 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
 
     fit = None
     sweep_result = None
-    fit_json: dict = {}
+    extra: dict[str, Any] = {}
     sections = list(block_sections(reports))
-    svg = None
     if project.cavity_path is not None:
-        from .area import items_from_design
-        from .cavity import read_cavity
-        from .export import dxf as dxf_out
-        from .export import svg as svg_out
-        from .place import place_and_fit
-        from .region import usable_region
-
-        cavity, cw = read_cavity(project.cavity_path, display_name=project.cavity_shown,
-                                 layer_map=project.layer_map, default_units=project.units,
-                                 depth_mm=project.depth_mm, chord_tol_mm=project.chord_tolerance_mm)
-        region, rw = usable_region(cavity, project.board)
-        items = items_from_design(design, lib, project.board.density)
-        fit = place_and_fit(items, region, project.board, user_board=cavity.board, progress=progress)
-        fit = dataclasses.replace(fit, warnings=(*cw, *rw, *fit.warnings))
-        findings += [*cw, *rw]
-        findings += _fit_findings(fit)
-        extra: dict[str, Any] = {}
-        if sweep:
-            from .sweep import sweep_sizes
-            sweep_result = sweep_sizes(design, lib, region, project.board, progress=progress,
-                                       user_board=cavity.board)
+        cavity, region, items, fit, sweep_result, fit_findings = _fit(project, design, lib, sweep, progress)
+        findings += fit_findings
+        if sweep_result is not None:
             extra["passive_sizes"] = sweep_result.to_dict()
-        fit_json = results.fit_dict(fit, extra)
-        files["fit.json"] = results.dump_json(fit_json)
-        svg = svg_out.fit_svg(cavity, region, fit, title=design.name)
-        files["fit.svg"] = svg
-        if fit.board_outline is not None and not fit.board_outline.is_empty:
-            files["board-outline.dxf"] = dxf_out.board_outline_dxf(fit.board_outline)
     else:
         findings.append(Finding("info", "fit.no-cavity", (),
                                 "No cavity drawing given: the fit was not checked. Set [project] cavity or pass --cavity."))
+    from .verdict import decide
+    verdict = decide(findings, fit)
+    fit_json: dict = {}
+    svg = None
+    if fit is not None:
+        from .export import dxf as dxf_out
+        from .export import svg as svg_out
+        fit_json = results.fit_dict(fit, extra, verdict=verdict)
+        files["fit.json"] = results.dump_json(fit_json)
+        svg = svg_out.fit_svg(cavity, region, fit, title=design.name, verdict=verdict,
+                              facts=svg_out.part_facts(design, items))
+        files["fit.svg"] = svg
+        if fit.board_outline is not None and not fit.board_outline.is_empty:
+            files["board-outline.dxf"] = dxf_out.board_outline_dxf(fit.board_outline)
 
     files["findings.json"] = results.findings_json(findings)
     from .export import report as report_out
     files["report.html"] = report_out.report_html(title=f"{design.name} {design.revision}".strip(), fit=fit,
-                                                  findings=findings, fit_svg=svg, sections=sections)
-    errors = any(f.severity == "error" for f in findings)
-    status = 1 if errors or (fit is not None and not fit.fits) else 0
+                                                  findings=findings, fit_svg=svg, sections=sections,
+                                                  verdict=verdict, order_files=order_files, board=project.board)
+    status = verdict.exit_status
     protect = [project.design_path, project.root / "project.toml", *design.inputs]
     if project.cavity_path is not None:
         protect.append(project.cavity_path)
@@ -388,7 +379,34 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
         protect.append(project.parts_map)
     written = atomic.write_all(project.out_dir, files, protect=protect)
     return RunResult(design=design, findings=tuple(findings), fit=fit, exit_status=status,
-                     written=tuple(written), stage_reports=tuple(reports), sweep=sweep_result, fit_json=fit_json)
+                     written=tuple(written), stage_reports=tuple(reports), sweep=sweep_result, fit_json=fit_json,
+                     verdict=verdict)
+
+
+def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Progress | None):
+    """Cavity, region, placement (with tried advice) and, with ``sweep``, the size sweep.
+
+    Returns ``(cavity, region, placer items, fit, sweep_result, findings)``.
+    """
+    from .advice import tried_advice
+    from .area import items_from_design
+    from .cavity import read_cavity
+    from .place import place_and_fit
+    from .region import usable_region
+
+    cavity, cw = read_cavity(project.cavity_path, display_name=project.cavity_shown,
+                             layer_map=project.layer_map, default_units=project.units,
+                             depth_mm=project.depth_mm, chord_tol_mm=project.chord_tolerance_mm)
+    region, rw = usable_region(cavity, project.board)
+    items = items_from_design(design, lib, project.board.density)
+    fit = place_and_fit(items, region, project.board, user_board=cavity.board, progress=progress)
+    fit = tried_advice(fit, items, cavity, project.board, STANDARD_THICKNESS, progress=progress)
+    fit = dataclasses.replace(fit, warnings=(*cw, *rw, *fit.warnings))
+    sweep_result = None
+    if sweep:
+        from .sweep import sweep_sizes
+        sweep_result = sweep_sizes(design, lib, region, project.board, progress=progress, user_board=cavity.board)
+    return cavity, region, items, fit, sweep_result, [*cw, *rw, *_fit_findings(fit)]
 
 
 def _fit_findings(fit: FitResult) -> list[Finding]:

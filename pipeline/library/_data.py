@@ -14,8 +14,7 @@ from pathlib import Path
 from typing import Any, Iterable, Mapping
 
 from pipeline.errors import LibraryError
-from pipeline.tomlsrc import number_problem
-from pipeline.tomlsrc import TomlSource, load
+from pipeline.tomlsrc import TomlSource, load, number_problem
 
 #: Package, family and alias names: a letter or digit, then letters, digits, ``.+-``.
 NAME_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9.+\-]*$")
