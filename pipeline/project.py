@@ -22,6 +22,8 @@ board      layers (2), thickness_mm (0.8), sides (1), density ("nominal"),
 cavity     depth_mm (5.0), units ("mm"), layers (role map), chord_tolerance_mm (0.02)
 order      boards (1), spares_percent (0), min_spares (0), multiple (1)
 analysis   draws (10000), seed (1)
+copper     route (true), track_width_mm, clearance_mm, via_diameter_mm, via_drill_mm,
+           edge_clearance_mm, vias_in_pads (false), areas, currents, ... (pipeline.route.rules)
 =========  ====================================================================
 """
 
@@ -35,6 +37,7 @@ from typing import Any, Callable
 
 from .errors import ProjectError
 from .model import BoardOptions, Design, FitResult, Finding, OrderOptions
+from .route.rules import COPPER_KEYS, CopperRules, read_copper
 from .tomlsrc import TomlSource, load
 
 __all__ = ["Project", "RunResult", "load_project", "run", "check_design", "inspect_cavity", "read_any_design",
@@ -54,6 +57,7 @@ _KEYS: dict[str, tuple[str, ...]] = {
     "cavity": ("depth_mm", "units", "layers", "chord_tolerance_mm"),
     "order": ("boards", "spares_percent", "min_spares", "multiple"),
     "analysis": ("draws", "seed"),
+    "copper": COPPER_KEYS,
 }
 
 
@@ -82,6 +86,7 @@ class Project:
     draws: int = 10000
     seed: int = 1
     warnings: tuple[Finding, ...] = ()
+    copper: CopperRules = CopperRules()
 
 
 @dataclass(frozen=True)
@@ -232,6 +237,7 @@ def load_project(
         draws=_num(src, "analysis.draws", an.get("draws", 10000), integer=True, lo=100, hi=1_000_000),
         seed=_num(src, "analysis.seed", an.get("seed", 1), integer=True, lo=0),
         warnings=tuple(warnings),
+        copper=read_copper(src, data.get("copper", {}), board.layers),
     )
 
 
