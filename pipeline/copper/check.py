@@ -196,6 +196,13 @@ def _gap_to(p: _Piece, geo) -> float:
     return shapely.distance(p.core, geo) - p.grow
 
 
+def _joined(a: _Piece, b: _Piece) -> bool:
+    """Copper of one net joins where it overlaps (polygons: where they meet)."""
+    if a.grow == 0 and b.grow == 0:
+        return bool(a.core.intersects(b.core))
+    return _gap(a, b) < -1e-9
+
+
 def _connected(pieces: list[_Piece]) -> list[CopperProblem]:
     parent = list(range(len(pieces)))
 
@@ -210,7 +217,7 @@ def _connected(pieces: list[_Piece]) -> list[CopperProblem]:
     for i, a in enumerate(pieces):
         for j in tree.query(a.core, predicate="dwithin", distance=a.grow + reach):
             b = pieces[int(j)]
-            if int(j) > i and a.net == b.net and set(a.layers) & set(b.layers) and _gap(a, b) < -1e-9:
+            if int(j) > i and a.net == b.net and set(a.layers) & set(b.layers) and _joined(a, b):
                 parent[find(i)] = find(int(j))
     out = []
     nets: dict[str, list[int]] = {}
@@ -219,7 +226,10 @@ def _connected(pieces: list[_Piece]) -> list[CopperProblem]:
     for net, idx in sorted(nets.items()):
         pad_groups = sorted({find(i) for i in idx if pieces[i].is_pad})
         if len(pad_groups) > 1:
-            for g in pad_groups[1:]:
+            # the piece with most copper is "the rest"; each other group is reported at its first pad
+            size = {g: sum(1 for i in idx if find(i) == g) for g in pad_groups}
+            main = max(pad_groups, key=lambda g: (size[g], -min(i for i in idx if find(i) == g)))
+            for g in (g for g in pad_groups if g != main):
                 first = min(i for i in idx if find(i) == g and pieces[i].is_pad)
                 c = pieces[first].core.centroid
                 out.append(CopperProblem("open", (net,), ",".join(pieces[first].layers), c.x, c.y,
