@@ -24,6 +24,8 @@ order      boards (1), spares_percent (0), min_spares (0), multiple (1)
 analysis   draws (10000), seed (1)
 limits     spice_file_bytes, spice_include_splices, spice_expansion_parts,
            expression_depth (defaults in pipeline/spice/limits.py; README "Limits")
+copper     route (true), track_width_mm, clearance_mm, via_diameter_mm, via_drill_mm,
+           edge_clearance_mm, vias_in_pads (false), areas, currents, ... (pipeline.route.rules)
 =========  ====================================================================
 """
 
@@ -38,6 +40,7 @@ from typing import Any, Callable
 from .errors import ProjectError
 from .model import DENSITY_LEVELS, BoardOptions, Design, FitResult, Finding, OrderOptions
 from .spice.limits import DEFAULTS as SPICE_LIMITS
+from .route.rules import COPPER_KEYS, CopperRules, read_copper
 from .tomlsrc import TomlSource, load
 
 __all__ = ["Project", "RunResult", "load_project", "run", "check_design", "inspect_cavity", "read_any_design",
@@ -57,6 +60,7 @@ _KEYS: dict[str, tuple[str, ...]] = {
     "order": ("boards", "spares_percent", "min_spares", "multiple"),
     "analysis": ("draws", "seed"),
     "limits": tuple(SPICE_LIMITS),  # README "Limits"; each a whole number >= 1
+    "copper": COPPER_KEYS,
 }
 
 
@@ -86,6 +90,7 @@ class Project:
     seed: int = 1
     warnings: tuple[Finding, ...] = ()
     limits: tuple[tuple[str, int], ...] = ()  # [limits] keys given, sorted
+    copper: CopperRules = CopperRules()
 
 
 @dataclass(frozen=True)
@@ -229,6 +234,7 @@ def load_project(
         warnings=tuple(warnings),
         limits=tuple(sorted((k, _num(src, f"limits.{k}", v, integer=True, lo=1))
                             for k, v in data.get("limits", {}).items())),
+        copper=read_copper(src, data.get("copper", {}), board.layers),
     )
 
 
