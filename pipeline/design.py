@@ -357,11 +357,16 @@ def _read_voltages(src: TomlSource, table: dict, nets: dict) -> dict[str, tuple[
     return out
 
 
+#: the largest net voltage a design may declare, either sign (100 kV: far above any board this tool
+#: sizes; it keeps figures derived from it finite). Common practice, not a standard.
+MAX_VOLTS = 1e5
+
+
 def _volts(src: TomlSource, key: str, spec: Any) -> float:
     if isinstance(spec, bool):
         raise _err(src, key, "expected a voltage such as \"3.3V\"")
     if isinstance(spec, (int, float)):
-        return float(spec)
+        return float(src.number(key, spec, DesignError, lo=-MAX_VOLTS, hi=MAX_VOLTS))
     text = _expect_str(src, key, spec)
     t = text.rstrip()
     if t[-1:] in "vV":
@@ -371,4 +376,4 @@ def _volts(src: TomlSource, key: str, spec: Any) -> float:
         v = _values.parse_value(t.strip().lstrip("-"), "")
     except ValueError:
         raise _err(src, key, f"'{text}' is not a voltage; write e.g. \"3.3V\" or \"-5V\"") from None
-    return -v if neg else v
+    return float(src.number(key, -v if neg else v, DesignError, lo=-MAX_VOLTS, hi=MAX_VOLTS))

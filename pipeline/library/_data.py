@@ -14,7 +14,7 @@ from pathlib import Path
 from typing import Any, Iterable, Mapping
 
 from pipeline.errors import LibraryError
-from pipeline.tomlsrc import TomlSource, load
+from pipeline.tomlsrc import TomlSource, load, number_problem
 
 #: Package, family and alias names: a letter or digit, then letters, digits, ``.+-``.
 NAME_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9.+\-]*$")
@@ -82,15 +82,10 @@ class Fields:
     def number(self, name: str, value: Any, *, minimum: float | None = 0.0,
                strict: bool = False) -> float:
         """A finite number, at least (``strict``: above) ``minimum`` unless that is None."""
-        if isinstance(value, bool) or not isinstance(value, (int, float)):
-            raise self.error(name, f"expected a number, got {value!r}")
-        v = float(value)
-        if not math.isfinite(v):
-            raise self.error(name, f"expected a finite number, got {value!r}")
-        if minimum is not None and (v <= minimum if strict else v < minimum):
-            rel = "greater than" if strict else "at least"
-            raise self.error(name, f"must be {rel} {fmt_number(minimum)}, got {value!r}")
-        return v
+        problem = number_problem(value, lo=minimum, lo_open=strict)  # the one rule for TOML numbers
+        if problem:
+            raise self.error(name, problem)
+        return float(value)
 
     def text(self, name: str, value: Any, *, required: bool = True) -> str:
         """A text; an empty one is an error when ``required``."""
