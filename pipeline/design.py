@@ -28,7 +28,7 @@ from typing import Any, Iterable
 
 from . import values as _values
 from .errors import DesignError
-from .model import Design, Finding, Net, Part, PartKind, PinDef, PinRef, PIN_ROLES, RawTable
+from .model import OLD_PIN_ROLES, PIN_ROLES, Design, Finding, Net, Part, PartKind, PinDef, PinRef, RawTable
 from .tomlsrc import TomlSource, load
 
 __all__ = ["read_design", "read_design_text", "KIND_CATEGORIES"]
@@ -138,7 +138,8 @@ def _read(src: TomlSource, library: Any) -> tuple[Design, list[Finding]]:
     name = _expect_str(src, "design.name", head.get("name", Path(src.display).stem))
     revision = _expect_str(src, "design.revision", head.get("revision", ""))
 
-    kinds, default_pkgs = _read_kinds(src, _expect_table(src, "kinds", data.get("kinds", {})), library)
+    kinds, default_pkgs = _read_kinds(src, _expect_table(src, "kinds", data.get("kinds", {})), library,
+                                      warnings)
     lib = library.with_kinds(kinds) if kinds else library
 
     parts_tbl = _expect_table(src, "parts", data.get("parts", {}))
@@ -172,7 +173,8 @@ def _read(src: TomlSource, library: Any) -> tuple[Design, list[Finding]]:
     return design, warnings
 
 
-def _read_kinds(src: TomlSource, table: dict, library: Any) -> tuple[list[PartKind], dict[str, str]]:
+def _read_kinds(src: TomlSource, table: dict, library: Any,
+                warnings: list[Finding]) -> tuple[list[PartKind], dict[str, str]]:
     """Design-defined kinds and their default packages (kind name -> package)."""
     out = []
     defaults: dict[str, str] = {}
@@ -205,7 +207,13 @@ def _read_kinds(src: TomlSource, table: dict, library: Any) -> tuple[list[PartKi
                 raise _err(src, pkey, f"pin number {number} appears twice")
             seen_numbers.add(number)
             pname = _expect_str(src, pkey, p.get("name", number))
-            role = _expect_str(src, pkey, p.get("role", "passive"))
+            role = _expect_str(src, pkey, p.get("role", "terminal"))
+            if role in OLD_PIN_ROLES:
+                warnings.append(Finding(
+                    "warning", "design.old-role-name", (f"{kname}.{number}",),
+                    f"{src.display}: {pkey}: pin {number} role '{role}' is the previous release's "
+                    f"spelling; write '{OLD_PIN_ROLES[role]}' (the old one is read until the next release)"))
+                role = OLD_PIN_ROLES[role]
             if role not in PIN_ROLES:
                 raise _err(src, pkey, f"pin {number}: unknown role '{role}'; expected one of: {', '.join(PIN_ROLES)}")
             pins.append(PinDef(number, pname, role))

@@ -28,16 +28,18 @@ Density = Literal["most", "nominal", "least"]
 #: the one list of level names (project.toml, the library, the area stage).
 DENSITY_LEVELS: tuple[str, ...] = ("most", "nominal", "least")
 
-#: Electrical roles a pin may have (DEVELOPERS.md, "Part kinds").
-PIN_ROLES = (
-    "power-in",
-    "power-out",
-    "input",
-    "output",
-    "open-collector",
-    "passive",
-    "no-connect",
-)
+#: Electrical roles a pin may have, in datasheet words: a supply pin, a supply output
+#: (a regulator's output), a signal input, a push-pull output, an open-drain (or
+#: open-collector) output, a plain terminal (resistor, capacitor, connector), and a
+#: pin with no connection inside (NC). footprints/README.md, "Part kinds".
+PIN_ROLES = ("supply", "supply-out", "in", "out", "open-drain", "terminal", "nc")
+
+#: The role spellings of the previous release, still read for one release (with a
+#: warning where a user wrote them): old spelling -> role.
+OLD_PIN_ROLES = {
+    "power-in": "supply", "power-out": "supply-out", "input": "in", "output": "out",
+    "open-collector": "open-drain", "passive": "terminal", "no-connect": "nc",
+}
 
 SEVERITIES = ("error", "warning", "info")
 
@@ -79,11 +81,19 @@ class Finding:
 # --------------------------------------------------------------------------
 @dataclass(frozen=True)
 class PinDef:
-    """A pin of a part kind: its number (as text), name and electrical role."""
+    """A pin of a part kind: its number (as text), name and electrical role.
+
+    A role of the previous release's spelling (:data:`OLD_PIN_ROLES`) is
+    stored as its new name.
+    """
 
     number: str
     name: str
     role: str
+
+    def __post_init__(self) -> None:
+        if self.role in OLD_PIN_ROLES:
+            object.__setattr__(self, "role", OLD_PIN_ROLES[self.role])
 
 
 @dataclass(frozen=True)

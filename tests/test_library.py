@@ -447,15 +447,15 @@ def test_contract_header_kind(lib):
 
 
 ROLE_EXPECTATIONS = {
-    # industry-standard parts (common practice): comparator outputs are open-collector
-    "comparator-dual": {"OUTA": "open-collector", "OUTB": "open-collector", "GND": "power-in",
-                        "VCC": "power-in", "+INA": "input"},
-    "comparator-quad": {"OUT1": "open-collector", "OUT4": "open-collector", "VCC": "power-in"},
-    "opamp-dual": {"OUTA": "output", "V-": "power-in", "V+": "power-in", "-INB": "input"},
-    "and2-quad": {"1Y": "output", "4A": "input", "GND": "power-in", "VCC": "power-in"},
-    # a regulator's output feeds a rail; NC is a no-connect (CONTRACT.md s2 pin name)
-    "ldo-regulator": {"IN": "power-in", "OUT": "power-out", "NC": "no-connect", "EN": "input"},
-    "comparator-single": {"OUT": "output"},
+    # industry-standard parts (common practice): comparator outputs are open collector (open-drain)
+    "comparator-dual": {"OUTA": "open-drain", "OUTB": "open-drain", "GND": "supply",
+                        "VCC": "supply", "+INA": "in"},
+    "comparator-quad": {"OUT1": "open-drain", "OUT4": "open-drain", "VCC": "supply"},
+    "opamp-dual": {"OUTA": "out", "V-": "supply", "V+": "supply", "-INB": "in"},
+    "and2-quad": {"1Y": "out", "4A": "in", "GND": "supply", "VCC": "supply"},
+    # a regulator's output feeds a rail; NC is not connected (CONTRACT.md s2 pin name)
+    "ldo-regulator": {"IN": "supply", "OUT": "supply-out", "NC": "nc", "EN": "in"},
+    "comparator-single": {"OUT": "out"},
 }
 
 
@@ -482,7 +482,7 @@ def test_every_ic_has_two_supply_pins(lib):
     # an IC has a positive and a negative/ground supply pin (common practice)
     for kind in lib.kinds():
         if kind.category == "ic":
-            assert sum(p.role == "power-in" for p in kind.pins) >= 2, kind.name
+            assert sum(p.role == "supply" for p in kind.pins) >= 2, kind.name
 
 
 @pytest.mark.parametrize(
@@ -582,8 +582,8 @@ def test_listing_is_sorted_and_unique(lib):
 
 
 def test_with_kinds_adds_and_keeps_original(lib):
-    trig = PartKind("trigger-ic", "ic", (PinDef("1", "OUT", "output"), PinDef("2", "GND", "power-in"),
-                                         PinDef("3", "VDD", "power-in")))
+    trig = PartKind("trigger-ic", "ic", (PinDef("1", "OUT", "out"), PinDef("2", "GND", "supply"),
+                                         PinDef("3", "VDD", "supply")))
     lib2 = lib.with_kinds([trig])
     assert lib2.kind("trigger-ic") is trig and not lib.has_kind("trigger-ic")
     assert lib2.package("SOT-23") == lib.package("SOT-23")
@@ -700,18 +700,18 @@ def test_duplicate_package_name(fp_copy):
 @pytest.mark.parametrize(
     "old,new,key,reason,anchor",
     [
-        ('{ number = 3, name = "+INA", role = "input" }', '{ number = 3, name = "+INA", role = "sink" }',
+        ('{ number = 3, name = "+INA", role = "in" }', '{ number = 3, name = "+INA", role = "sink" }',
          "opamp-dual.pins[2].role", "unknown role", '  { number = 3, name = "+INA"'),
-        ('{ number = 8, name = "V+", role = "power-in" },\n]\n\n[opamp-quad]',
-         '{ number = 7, name = "V+", role = "power-in" },\n]\n\n[opamp-quad]',
+        ('{ number = 8, name = "V+", role = "supply" },\n]\n\n[opamp-quad]',
+         '{ number = 7, name = "V+", role = "supply" },\n]\n\n[opamp-quad]',
          "opamp-dual.pins[7].number", "appears twice", '  { number = 7, name = "V+"'),
         ('category = "passive"\nvalue_unit = "ohm"\ndescription = "two-terminal resistor',
          'category = "resistive"\nvalue_unit = "ohm"\ndescription = "two-terminal resistor',
          "resistor.category", "unknown category", 'category = "resistive"'),
         ('[led]\ncategory = "semiconductor"', '[led]\ncolour = "red"\ncategory = "semiconductor"',
          "led.colour", "unknown key", 'colour = "red"'),
-        ('{ number = 2, name = "E", role = "passive" },\n  { number = 3, name = "C"',
-         '{ number = 2, name = "3", role = "passive" },\n  { number = 3, name = "C"',
+        ('{ number = 2, name = "E", role = "terminal" },\n  { number = 3, name = "C"',
+         '{ number = 2, name = "3", role = "terminal" },\n  { number = 3, name = "C"',
          "npn.pins[1].name", "ambiguous", '  { number = 2, name = "3"'),
     ],
 )

@@ -216,12 +216,12 @@ class Library:
         """The pins a part of ``kind`` in ``package`` has.
 
         A kind with ``pins_from_package`` (a header) gets pins ``1 .. N``,
-        N = ``package.pin_count``, role passive; any other kind its own pins.
+        N = ``package.pin_count``, role terminal; any other kind its own pins.
         Whether the counts agree is :func:`pin_mismatch`'s question.
         """
         if kind.pins_from_package:
             return tuple(
-                PinDef(str(i), str(i), "passive") for i in range(1, package.pin_count + 1))
+                PinDef(str(i), str(i), "terminal") for i in range(1, package.pin_count + 1))
         return kind.pins
 
     def with_kinds(self, extra: Iterable[PartKind]) -> "Library":
