@@ -42,7 +42,7 @@ _PART_KEYS = (
     "note", "dnp", "supplier", "order_code", "description",
 )
 _PASSTHROUGH = ("supplier", "order_code", "description")
-_KIND_KEYS = ("category", "package", "pins", "description", "value_unit")
+_KIND_KEYS = ("category", "package", "pins", "description", "value_unit", "board_feature")
 _PIN_KEYS = ("number", "name", "role")
 _REF_RE = re.compile(r"^[A-Za-z][A-Za-z0-9_]*$")
 _NET_RE = re.compile(r"^[^\s\"',;]+$")
@@ -218,11 +218,14 @@ def _read_kinds(src: TomlSource, table: dict, library: Any,
                 raise _err(src, pkey, f"pin {number}: unknown role '{role}'; expected one of: {', '.join(PIN_ROLES)}")
             pins.append(PinDef(number, pname, role))
         desc = _expect_str(src, f"{key}.description", body.get("description", ""))
+        feature = body.get("board_feature", False)
+        if not isinstance(feature, bool):
+            raise _err(src, f"{key}.board_feature", "board_feature must be true or false")
         default_pkg = _expect_str(src, f"{key}.package", body.get("package", ""))
         if default_pkg:
             library.package(default_pkg, **_at(src, f"{key}.package"))
         out.append(PartKind(
-            name=kname, category=category, pins=tuple(pins), value_unit=unit,
+            name=kname, category=category, pins=tuple(pins), value_unit=unit, board_feature=feature,
             description=desc, source=f"defined in {src.display}" + (f"; default package {default_pkg}" if default_pkg else ""),
         ))
         defaults[kname] = default_pkg

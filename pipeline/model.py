@@ -115,6 +115,9 @@ class PartKind:
     pins_from_package: bool = False
     description: str = ""
     source: str = ""
+    #: Copper or holes of the board itself (wire pad, test point, mounting hole, fiducial):
+    #: in the netlists and the picture, never ordered in the BOM.
+    board_feature: bool = False
 
 
 @dataclass(frozen=True)
