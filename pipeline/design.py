@@ -39,7 +39,7 @@ _TOP_KEYS = ("design", "kinds", "parts", "nets", "voltages", "stages")
 _DESIGN_KEYS = ("name", "revision", "note")
 _PART_KEYS = (
     "kind", "value", "package", "tolerance", "rating", "manufacturer", "mpn",
-    "note", "dnp", "supplier", "order_code", "description",
+    "note", "dnp", "supplier", "order_code", "description", "height_mm",
 )
 _PASSTHROUGH = ("supplier", "order_code", "description")
 _KIND_KEYS = ("category", "package", "pins", "description", "value_unit", "board_feature")
@@ -147,6 +147,7 @@ def _read(src: TomlSource, library: Any) -> tuple[Design, list[Finding]]:
         raise _err(src, "parts", "the design has no parts: add [parts.REF] tables")
     parts = tuple(_read_part(src, ref, body, lib, default_pkgs) for ref, body in parts_tbl.items())
     by_ref = {p.ref: p for p in parts}
+    warnings.extend(_height_notes(parts, lib))
 
     nets_tbl = _expect_table(src, "nets", data.get("nets", {}))
     volts = _read_voltages(src, _expect_table(src, "voltages", data.get("voltages", {})), nets_tbl)
@@ -232,6 +233,25 @@ def _read_kinds(src: TomlSource, table: dict, library: Any,
     return out, defaults
 
 
+def _height_notes(parts: tuple[Part, ...], lib: Any) -> list[Finding]:
+    """One note naming the chip capacitors that take the package's (capacitor) height.
+
+    Chip resistors take their size code's resistor thickness (``heights.csv``);
+    a chip capacitor's thickness depends on its value, so it takes the package
+    height unless the design gives ``height_mm``.
+    """
+    refs = [p.ref for p in parts if p.kind == "capacitor" and p.height_mm is None
+            and lib.package(p.package).family == "chip"]
+    if not refs:
+        return []
+    sizes = sorted({p.package for p in parts if p.ref in refs})
+    shown = ", ".join(f"{s} {lib.package(s).height_mm:.2f} mm" for s in sizes)
+    return [Finding("info", "design.height-default", tuple(refs),
+                    f"{', '.join(refs)}: chip capacitors take the package height ({shown}, a "
+                    "thick capacitor's); chip resistors take the resistor thickness. Give "
+                    "height_mm on a part to use its datasheet figure")]
+
+
 def _at(src: TomlSource, key: str) -> dict[str, Any]:
     """Where a library lookup reports an unknown name: this file, at ``key``."""
     return {"file": src.display, "line": src.line(key), "key": key}
@@ -292,6 +312,11 @@ def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dic
     extra = tuple(sorted(
         (k, _expect_str(src, f"{key}.{k}", body[k])) for k in _PASSTHROUGH if k in body
     ))
+    height = body.get("height_mm")
+    if height is not None and (isinstance(height, bool) or not isinstance(height, (int, float))
+                               or not 0 < height < 100):
+        raise _err(src, f"{key}.height_mm", f"height_mm must be a number of millimetres above 0, "
+                                            f"got {height!r}")
     return Part(
         ref=ref, kind=kind.name, package=package.name, pins=pins, value=value, value_text=value_text,
         tolerance=tol, tolerance_text=tol_text, rating_v=rv, rating_w=rw, rating_text=rating_text,
@@ -299,6 +324,7 @@ def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dic
         mpn=_expect_str(src, f"{key}.mpn", body.get("mpn", "")),
         note=_expect_str(src, f"{key}.note", body.get("note", "")),
         dnp=dnp, extra=extra, line=src.line(key) or 0,
+        height_mm=None if height is None else float(height),
     )
 
 

@@ -251,6 +251,9 @@ class Part:
     dnp: bool = False
     extra: tuple[tuple[str, str], ...] = ()
     line: int = 0
+    #: The part's own seated height, mm, when the design gives one (a 10 uF 0603
+    #: capacitor is thicker than the package default); ``None``: by kind and package.
+    height_mm: float | None = None
 
     def pin(self, number: str) -> PinDef:
         for p in self.pins:

@@ -48,7 +48,8 @@ IN = ["U1.+IN", "R2.1"]
 
 def test_contract_design_reads(design_from):
     d, warnings = design_from(CONTRACT_DESIGN)
-    assert warnings == []
+    # the only note: chip capacitors take the package (capacitor) height
+    assert [w.check for w in warnings] in ([], ["design.height-default"])
     assert d.name == "contract example" and d.revision == "A"
     r1 = d.part("R1")
     assert (r1.value, r1.tolerance, r1.rating_w, r1.rating_v) == (10_000.0, 0.01, 0.1, None)
@@ -83,7 +84,7 @@ GND = ["U7.gnd", "C1.2"]
     u7 = d.part("U7")
     # the previous release's role spellings are read as the new names, each with a warning
     assert u7.package == "SOT-23" and [p.role for p in u7.pins] == ["supply", "out", "supply"]
-    assert [w.check for w in warnings] == ["design.old-role-name"] * old
+    assert [w.check for w in warnings if w.severity == "warning"] == ["design.old-role-name"] * old
     assert [str(p) for p in d.net("GND").pins] == ["U7.3", "C1.2"]
     assert d.kinds[0].name == "trigger-sensor"
 
@@ -178,3 +179,31 @@ def test_missing_file_is_input_error(library, tmp_path):
     (tmp_path / "bin.toml").write_bytes(b"\xff\xfe[parts]")
     with pytest.raises(DesignError, match="not UTF-8"):
         read_design(tmp_path / "bin.toml", library, display="bin.toml")
+
+
+@pytest.mark.parametrize("height,ok", [("1.25", True), ("0", False), ("\"tall\"", False), ("true", False)])
+def test_part_height_override(design_from, height, ok):
+    text = f"""
+[parts.C1]
+kind = "capacitor"
+value = "10uF"
+package = "0603"
+height_mm = {height}
+[parts.C2]
+kind = "capacitor"
+value = "100nF"
+package = "0603"
+[nets]
+A = ["C1.1", "C2.1"]
+B = ["C1.2", "C2.2"]
+"""
+    if not ok:
+        with pytest.raises(DesignError) as info:
+            design_from(text)
+        assert info.value.key == "parts.C1.height_mm" and info.value.line == 6  # the key's line
+        return
+    d, warnings = design_from(text)
+    assert d.part("C1").height_mm == 1.25 and d.part("C2").height_mm is None
+    # the note names only the capacitor that takes the package height
+    note = [w for w in warnings if w.check == "design.height-default"]
+    assert len(note) == 1 and note[0].subject == ("C2",) and "0603 0.90 mm" in note[0].message
