@@ -28,14 +28,15 @@ from typing import Any, Iterable
 
 from . import values as _values
 from .errors import DesignError
-from .model import OLD_PIN_ROLES, PIN_ROLES, Design, Finding, Net, Part, PartKind, PinDef, PinRef, RawTable
+from .library.custom import package_from_table
+from .model import Package, OLD_PIN_ROLES, PIN_ROLES, Design, Finding, Net, Part, PartKind, PinDef, PinRef, RawTable
 from .tomlsrc import TomlSource, load
 
 __all__ = ["read_design", "read_design_text", "KIND_CATEGORIES"]
 
 KIND_CATEGORIES = ("passive", "polarized", "semiconductor", "ic", "connector")
 
-_TOP_KEYS = ("design", "kinds", "parts", "nets", "voltages", "stages")
+_TOP_KEYS = ("design", "packages", "kinds", "parts", "nets", "voltages", "stages")
 _DESIGN_KEYS = ("name", "revision", "note")
 _PART_KEYS = (
     "kind", "value", "package", "tolerance", "rating", "manufacturer", "mpn",
@@ -138,6 +139,8 @@ def _read(src: TomlSource, library: Any) -> tuple[Design, list[Finding]]:
     name = _expect_str(src, "design.name", head.get("name", Path(src.display).stem))
     revision = _expect_str(src, "design.revision", head.get("revision", ""))
 
+    packages = _read_packages(src, _expect_table(src, "packages", data.get("packages", {})), library)
+    library = library.with_packages(packages)
     kinds, default_pkgs = _read_kinds(src, _expect_table(src, "kinds", data.get("kinds", {})), library,
                                       warnings)
     lib = library.with_kinds(kinds) if kinds else library
@@ -169,7 +172,7 @@ def _read(src: TomlSource, library: Any) -> tuple[Design, list[Finding]]:
     )
     design = Design(
         name=name, revision=revision, source=src.display, parts=parts, nets=nets,
-        stages=stages, kinds=tuple(kinds),
+        stages=stages, kinds=tuple(kinds), packages=packages,
     )
     return design, warnings
 
@@ -231,6 +234,18 @@ def _read_kinds(src: TomlSource, table: dict, library: Any,
         ))
         defaults[kname] = default_pkg
     return out, defaults
+
+
+def _read_packages(src: TomlSource, table: dict, library: Any) -> tuple[Package, ...]:
+    """The design's own packages (``[packages.NAME]``, pipeline.library.custom)."""
+    out = []
+    for name, body in table.items():
+        key = f"packages.{name}"
+        if library.has_package(name):
+            raise _err(src, key, f"package '{name}' already exists in the library; give yours another name")
+        out.append(package_from_table(name, body, key, lambda k, why: _err(src, k, why),
+                                      library.general_rule(), library.grid_mm))
+    return tuple(out)
 
 
 def _height_notes(parts: tuple[Part, ...], lib: Any) -> list[Finding]:

@@ -311,6 +311,8 @@ class Design:
     nets: tuple[Net, ...]
     stages: tuple[RawTable, ...] = ()
     kinds: tuple[PartKind, ...] = ()
+    #: Packages the design defines itself (``[packages.NAME]``).
+    packages: tuple["Package", ...] = ()
     #: every file the reader opened (the design, its includes, a parts map and its
     #: includes), resolved; outputs never write over any of them.
     inputs: tuple[str, ...] = ()

@@ -245,6 +245,18 @@ class Library:
                 PinDef(str(i), str(i), "terminal") for i in range(1, package.pin_count + 1))
         return kind.pins
 
+    def with_packages(self, extra: Iterable[Package]) -> "Library":
+        """A copy of this library with ``extra`` packages (a design's own) listed too.
+
+        Callers refuse a name the library already knows (:meth:`has_package`) first.
+        """
+        extra = tuple(extra)
+        return self if not extra else replace(self, listed=self.listed + extra)
+
+    def general_rule(self) -> CourtyardRule:
+        """The general courtyard-excess class, for packages defined outside the library."""
+        return self._rule("general")
+
     def with_kinds(self, extra: Iterable[PartKind]) -> "Library":
         """A copy of this library with ``extra`` kinds added.
 
