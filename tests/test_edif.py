@@ -258,10 +258,7 @@ def test_generated_designs_read_back(tmp_path, d):
 # --------------------------------------------------------------------------
 # determinism
 # --------------------------------------------------------------------------
-def test_two_calls_identical():
-    assert edif_netlist(_nasty(), timestamp=5) == edif_netlist(_nasty(), timestamp=5)
-
-
+# Two calls in one process share a hash seed and prove little: compared across processes.
 _SCRIPT = """
 import hashlib, sys
 sys.path.insert(0, sys.argv[1])
