@@ -8,7 +8,7 @@ from ..errors import DesignError
 from ..model import PartKind, PinDef
 from .lines import Line
 from .tokens import REF_RE
-from .partsmap import Spec, key_reason
+from .partsmap import Spec
 from .state import Build, Cand
 
 DEFAULTS = {
@@ -90,12 +90,7 @@ def resolve(b: Build, ln: Line, letter: str, spice_name: str, ref: str, model: s
     if kind_name:
         kind = lookup_kind(b, kind_name, kind_spec, ln)
     elif auto_kind:
-        for k in auto_kind:
-            try:
-                kind = b.library.kind(k)
-                break
-            except KeyError:
-                continue
+        kind = next((b.library.kind(k) for k in auto_kind if b.library.has_kind(k)), None)
         if kind is None:
             raise DesignError(ln.file, f"{spice_name}: the library has no kind {' or '.join(auto_kind)}; "
                               f"name its kind in the parts map ([refs.{spice_name}] kind = ...)", line=ln.line)
@@ -109,24 +104,17 @@ def resolve(b: Build, ln: Line, letter: str, spice_name: str, ref: str, model: s
     if kind is not None and defaulted:
         b.defaulted.setdefault(f"{kind.name} in {package}", []).append(new_ref or ref)
     if kind is not None:
-        try:
-            package = b.library.package(package).name
-        except KeyError as exc:
-            src = next((s for s in chain if s.package), None)
-            where = (src.file, src.line, src.key + ".package") if src else (ln.file, ln.line, None)
-            raise DesignError(where[0], key_reason(exc, f"unknown package '{package}'"), line=where[1],
-                              key=where[2]) from None
+        src = next((s for s in chain if s.package), None)
+        where = {"file": src.file, "line": src.line, "key": src.key + ".package"} if src else \
+            {"file": ln.file, "line": ln.line}
+        package = b.library.package(package, **where).name
     return kind, package, pins, new_ref, ref_spec, rec_spec
 
 
 def lookup_kind(b: Build, name: str, spec: Spec | None, ln: Line) -> PartKind:
-    try:
-        return b.library.kind(name)
-    except KeyError as exc:
-        if spec is not None and spec.origin != "record":
-            raise DesignError(spec.file, key_reason(exc, f"unknown kind '{name}'"), line=spec.line,
-                              key=spec.key + ".kind") from None
-        raise DesignError(ln.file, key_reason(exc, f"unknown kind '{name}'"), line=ln.line) from None
+    if spec is not None and spec.origin != "record":
+        return b.library.kind(name, file=spec.file, line=spec.line, key=spec.key + ".kind")
+    return b.library.kind(name, file=ln.file, line=ln.line)
 
 
 def map_pins(b: Build, ln: Line, spice_name: str, letter: str, kind: PartKind, package: str,

@@ -86,16 +86,11 @@ def read_parts_map(path: Path, shown: str, library: Any) -> PartsMap:
         unknown(key, body, allowed)
         kind = text(f"{key}.kind", body["kind"]) if "kind" in body else ""
         if kind:
-            try:
-                library.kind(kind)
-            except KeyError as exc:
-                raise err(f"{key}.kind", key_reason(exc, f"unknown kind '{kind}'")) from None
+            library.kind(kind, file=shown, line=src.line(f"{key}.kind"), key=f"{key}.kind")
         package = text(f"{key}.package", body["package"]) if "package" in body else ""
         if package:
-            try:
-                package = library.package(package).name
-            except KeyError as exc:
-                raise err(f"{key}.package", key_reason(exc, f"unknown package '{package}'")) from None
+            package = library.package(package, file=shown, line=src.line(f"{key}.package"),
+                                      key=f"{key}.package").name
         pins = None
         if "pins" in body:
             raw = body["pins"]
@@ -144,5 +139,3 @@ def read_parts_map(path: Path, shown: str, library: Any) -> PartsMap:
     return pm
 
 
-def key_reason(exc: KeyError, fallback: str) -> str:
-    return str(exc.args[0]) if exc.args else fallback

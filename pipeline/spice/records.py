@@ -10,7 +10,6 @@ from ..errors import DesignError
 from ..model import PartKind, PinDef, PIN_ROLES, RawTable
 from .lines import Line, Reader
 from .tokens import REF_RE
-from .partsmap import key_reason
 from .state import Build, Cand, Ctx, global_scope
 from .mapping import lookup_kind, map_pins
 from .elaborate import net_key
@@ -59,10 +58,7 @@ def loose_part(b: Build, kv: dict[str, str], file: str, line: int) -> None:
     if not REF_RE.match(ref):
         raise DesignError(file, f"part record: '{ref}' is not a usable reference", line=line)
     kind = lookup_kind(b, kv.get("kind", ""), None, ln)
-    try:
-        package = b.library.package(kv.get("package", "")).name
-    except KeyError as exc:
-        raise DesignError(file, key_reason(exc, "unknown package"), line=line) from None
+    package = b.library.package(kv.get("package", ""), file=file, line=line).name
     pins = tuple(kv["pins"].split(",")) if kv.get("pins") else None
     node_list = kv["nodes"].split(",")
     if pins is None and node_list == [""]:
