@@ -82,10 +82,13 @@ from decimal import Decimal
 from typing import Any, Iterable
 
 from ..model import Design, Part, PinDef
+from ..values import EXPONENT_PREFIX
 
 __all__ = ["spice_netlist", "spice_number"]
 
-_SCALE = {12: "T", 9: "G", 6: "Meg", 3: "k", 0: "", -3: "m", -6: "u", -9: "n", -12: "p", -15: "f"}
+#: Power of ten -> the letter written: the SI prefixes of pipeline.values, with ``Meg`` for
+#: mega because SPICE reads ``M`` as milli (ngspice manual, "Conventions").
+_SCALE = {e: ("Meg" if p == "M" else p) for e, p in EXPONENT_PREFIX.items()}
 _BARE_RE = re.compile(r"^[A-Za-z0-9_.+\-]+$")
 _CONNECTORS = ("wire-pad", "test-point", "header")
 _PASSIVE_LETTER = {"resistor": "R", "capacitor": "C", "capacitor-polarized": "C", "inductor": "L"}
