@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import json
-from dataclasses import dataclass, field
 from typing import Any
 
 from .. import values as _values
@@ -97,24 +96,6 @@ def _nets(b: Build, net_pins: dict[str, list[PinRef]], net_records: dict[str, di
     return tuple(nets)
 
 
-@dataclass
-class _Fields:
-    """A part's values and order data as the element, then its record, then its parts-map entry give them."""
-
-    value: float | None
-    value_text: str
-    tolerance: float | None = None
-    tolerance_text: str = ""
-    rating_v: float | None = None
-    rating_w: float | None = None
-    rating_text: str = ""
-    manufacturer: str = ""
-    mpn: str = ""
-    note: str = ""
-    dnp: bool = False
-    extra: dict[str, str] = field(default_factory=dict)
-
-
 def _part(b: Build, cands: list[Cand]) -> Part:
     """One board part from its candidates (one, or several sections)."""
     c = cands[0]
@@ -126,48 +107,50 @@ def _part(b: Build, cands: list[Cand]) -> Part:
     if not kind.pins_from_package and pkg.pin_count and pkg.pin_count != len(pins):
         raise DesignError(where[0], f"{c.ref}: package {pkg.name} has {pkg.pin_count} pins but kind {kind.name} has "
                           f"{len(pins)}", line=where[1])
-    f = _Fields(c.value, c.value_text)
+    # Part fields as the element, then its record, then its parts-map entry give them.
+    f: dict[str, Any] = {"value": c.value, "value_text": c.value_text}
+    extra: dict[str, str] = {}
     if c.model and c.model.lower() not in POLARITY_KINDS and c.record is None:
-        f.extra["spice_model"] = c.model
+        extra["spice_model"] = c.model
     if c.record is not None:
-        _from_record(f, c, c.record, kind)
+        extra = _from_record(f, c, c.record, kind) or extra
     if spec is not None and spec.origin == "refs":
-        _from_map(f, spec, kind)
-    if kind.value_unit and f.value is None and c.letter == "x" and c.record is None:
+        _from_map(f, extra, spec, kind)
+    if kind.value_unit and f["value"] is None and c.letter == "x" and c.record is None:
         raise DesignError(where[0], f"{c.ref}: a {kind.name} needs a value; give value = \"...\" in the parts map",
                           line=where[1])
-    return Part(ref=c.ref, kind=kind.name, package=package, pins=pins, value=f.value, value_text=f.value_text,
-                tolerance=f.tolerance, tolerance_text=f.tolerance_text, rating_v=f.rating_v, rating_w=f.rating_w,
-                rating_text=f.rating_text, manufacturer=f.manufacturer, mpn=f.mpn, note=f.note, dnp=f.dnp,
-                extra=tuple(sorted(f.extra.items())), line=c.line)
+    return Part(ref=c.ref, kind=kind.name, package=package, pins=pins, **f, extra=tuple(sorted(extra.items())),
+                line=c.line)
 
 
-def _from_record(f: _Fields, c: Cand, rec: dict[str, str], kind: PartKind) -> None:
-    """What a ``* snugboard: part`` record adds (the element's own value stays when they agree)."""
+def _from_record(f: dict[str, Any], c: Cand, rec: dict[str, str], kind: PartKind) -> dict[str, str]:
+    """What a ``* snugboard: part`` record adds to ``f`` (the element's own value stays when they agree).
+
+    Returns the record's pass-through data (empty when it has none).
+    """
     file, line = rec.get("_file", c.file), int(rec.get("_line", "0") or 0)
     rv_val = float_or_none(rec.get("value"), file, line, "value")
     if c.letter in "rcl" and c.value is not None:
         if rv_val is not None and rv_val == c.value:
-            f.value_text = rec.get("value_text", "")
+            f["value_text"] = rec.get("value_text", "")
     elif rv_val is not None or "value_text" in rec:
-        f.value = rv_val if kind.value_unit else None
-        f.value_text = rec.get("value_text", "")
-    f.tolerance = float_or_none(rec.get("tolerance"), file, line, "tolerance")
-    f.tolerance_text = rec.get("tolerance_text", "")
-    f.rating_v = float_or_none(rec.get("rating_v"), file, line, "rating_v")
-    f.rating_w = float_or_none(rec.get("rating_w"), file, line, "rating_w")
-    f.rating_text = rec.get("rating_text", "")
-    f.manufacturer, f.mpn, f.note = rec.get("manufacturer", ""), rec.get("mpn", ""), rec.get("note", "")
-    f.dnp = rec.get("dnp") == "true"
-    if rec.get("extra"):
-        try:
-            f.extra = {str(k): str(v) for k, v in json.loads(rec["extra"])}
-        except (json.JSONDecodeError, TypeError, ValueError):
-            raise DesignError(file, "the part record's extra is not a JSON list of pairs", line=line) from None
+        f["value"] = rv_val if kind.value_unit else None
+        f["value_text"] = rec.get("value_text", "")
+    for key in ("tolerance", "rating_v", "rating_w"):
+        f[key] = float_or_none(rec.get(key), file, line, key)
+    for key in ("tolerance_text", "rating_text", "manufacturer", "mpn", "note"):
+        f[key] = rec.get(key, "")
+    f["dnp"] = rec.get("dnp") == "true"
+    if not rec.get("extra"):
+        return {}
+    try:
+        return {str(k): str(v) for k, v in json.loads(rec["extra"])}
+    except (json.JSONDecodeError, TypeError, ValueError):
+        raise DesignError(file, "the part record's extra is not a JSON list of pairs", line=line) from None
 
 
-def _from_map(f: _Fields, spec: Spec, kind: PartKind) -> None:
-    """What a ``[refs.NAME]`` table adds; its values in TOML design notation (pipeline.values)."""
+def _from_map(f: dict[str, Any], extra: dict[str, str], spec: Spec, kind: PartKind) -> None:
+    """What a ``[refs.NAME]`` table adds to ``f`` and ``extra``; values in TOML design notation (pipeline.values)."""
     def parsed(key: str, parse: Any, *args: Any) -> Any:
         try:
             return parse(spec.get(key), *args)
@@ -175,19 +158,18 @@ def _from_map(f: _Fields, spec: Spec, kind: PartKind) -> None:
             raise DesignError(spec.file, str(exc), line=spec.line, key=f"{spec.key}.{key}") from None
 
     if spec.get("value") is not None:
-        f.value_text = spec.get("value")
+        f["value_text"] = spec.get("value")
         if kind.value_unit:
-            f.value = parsed("value", _values.parse_value, kind.value_unit)
+            f["value"] = parsed("value", _values.parse_value, kind.value_unit)
     if spec.get("tolerance") is not None:
-        f.tolerance_text = spec.get("tolerance")
-        f.tolerance = parsed("tolerance", _values.parse_tolerance)
+        f["tolerance_text"] = spec.get("tolerance")
+        f["tolerance"] = parsed("tolerance", _values.parse_tolerance)
     if spec.get("rating") is not None:
-        f.rating_text = spec.get("rating")
-        f.rating_v, f.rating_w = parsed("rating", _values.parse_rating)
-    f.manufacturer = spec.get("manufacturer", f.manufacturer)
-    f.mpn = spec.get("mpn", f.mpn)
-    f.note = spec.get("note", f.note)
-    f.dnp = spec.get("dnp", f.dnp)
+        f["rating_text"] = spec.get("rating")
+        f["rating_v"], f["rating_w"] = parsed("rating", _values.parse_rating)
+    for key in ("manufacturer", "mpn", "note", "dnp"):
+        if spec.get(key) is not None:
+            f[key] = spec.get(key)
     for k in PASSTHROUGH:
         if spec.get(k) is not None:
-            f.extra[k] = spec.get(k)
+            extra[k] = spec.get(k)
