@@ -22,6 +22,8 @@ board      layers (2), thickness_mm (0.8), sides (1), density ("nominal"),
 cavity     depth_mm (5.0), units ("mm"), layers (role map), chord_tolerance_mm (0.02)
 order      boards (1), spares_percent (0), min_spares (0), multiple (1)
 analysis   draws (10000), seed (1)
+limits     dxf_bytes, dxf_entities, dxf_vertices, cavity_coordinate_mm
+           (defaults in :mod:`pipeline.cavity.limits`)
 =========  ====================================================================
 """
 
@@ -54,6 +56,7 @@ _KEYS: dict[str, tuple[str, ...]] = {
     "cavity": ("depth_mm", "units", "layers", "chord_tolerance_mm"),
     "order": ("boards", "spares_percent", "min_spares", "multiple"),
     "analysis": ("draws", "seed"),
+    "limits": ("dxf_bytes", "dxf_entities", "dxf_vertices", "cavity_coordinate_mm"),
 }
 
 
@@ -82,6 +85,7 @@ class Project:
     draws: int = 10000
     seed: int = 1
     warnings: tuple[Finding, ...] = ()
+    limits: dict = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -232,6 +236,8 @@ def load_project(
         draws=_num(src, "analysis.draws", an.get("draws", 10000), integer=True, lo=100, hi=1_000_000),
         seed=_num(src, "analysis.seed", an.get("seed", 1), integer=True, lo=0),
         warnings=tuple(warnings),
+        limits={k: _num(src, f"limits.{k}", v, integer=k != "cavity_coordinate_mm", lo=0, lo_open=True)
+                for k, v in data.get("limits", {}).items()},
     )
 
 
@@ -284,7 +290,7 @@ def inspect_cavity(path: Path, *, shown: str | None = None, project: Project | N
     region, findings)``; bad drawings raise
     :class:`~pipeline.errors.CavityError`.
     """
-    from .cavity import read_cavity
+    from .cavity import Limits, read_cavity
     from .region import usable_region
 
     p = project
@@ -292,7 +298,8 @@ def inspect_cavity(path: Path, *, shown: str | None = None, project: Project | N
                              layer_map=p.layer_map if p else None,
                              default_units=p.units if p else "mm",
                              depth_mm=p.depth_mm if p else 5.0,
-                             chord_tol_mm=p.chord_tolerance_mm if p else 0.02)
+                             chord_tol_mm=p.chord_tolerance_mm if p else 0.02,
+                             limits=Limits.from_table(p.limits if p else None))
     region, rw = usable_region(cavity, p.board if p else BoardOptions())
     return cavity, region, (*cw, *rw)
 
@@ -342,7 +349,7 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     svg = None
     if project.cavity_path is not None:
         from .area import items_from_design
-        from .cavity import read_cavity
+        from .cavity import Limits, read_cavity
         from .export import dxf as dxf_out
         from .export import svg as svg_out
         from .place import place_and_fit
@@ -350,7 +357,8 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
 
         cavity, cw = read_cavity(project.cavity_path, display_name=project.cavity_shown,
                                  layer_map=project.layer_map, default_units=project.units,
-                                 depth_mm=project.depth_mm, chord_tol_mm=project.chord_tolerance_mm)
+                                 depth_mm=project.depth_mm, chord_tol_mm=project.chord_tolerance_mm,
+                                 limits=Limits.from_table(project.limits))
         region, rw = usable_region(cavity, project.board)
         items = items_from_design(design, lib, project.board.density)
         fit = place_and_fit(items, region, project.board, user_board=cavity.board, progress=progress)

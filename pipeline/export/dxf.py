@@ -45,11 +45,14 @@ from contextlib import contextmanager
 from datetime import datetime, timezone
 from typing import Iterator
 
-import ezdxf
 import shapely
-from ezdxf.tools.juliandate import juliandate
 from shapely.geometry import MultiPolygon, Polygon
 from shapely.geometry.polygon import orient
+
+from pipeline.dxflib import import_ezdxf
+
+ezdxf = import_ezdxf()
+from ezdxf.tools.juliandate import juliandate  # noqa: E402  (after the guarded import)
 
 __all__ = ["board_outline_dxf", "EDGE_LAYER"]
 
