@@ -75,7 +75,7 @@ def _read_bytes(path: Path, name: str, limits: Limits) -> bytes:
         if size > limits.dxf_bytes:
             raise CavityError(name, f"the file is {size / 2**20:.0f} MiB, more than the "
                               f"{limits.dxf_bytes // 2**20} MiB snugboard reads: save a drawing with "
-                              f"only the cavity layers, or {Limits.how_to_raise('dxf_bytes')}")
+                              f"only the cavity layers; {Limits.how_to_raise('dxf_bytes')}")
         return path.read_bytes()
     except (OSError, ValueError) as exc:  # a name too long, a NUL byte, no permission
         raise CavityError(name, f"cannot be read: {getattr(exc, 'strerror', None) or exc}") from None

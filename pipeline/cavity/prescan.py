@@ -87,7 +87,7 @@ def prescan(data: bytes, name: str, limits: Limits) -> Prescan | None:
                 raise CavityError(
                     name, f"the drawing has more than {limits.dxf_entities} entities (counted before "
                     f"reading it; this is the first one over): save a drawing with only the cavity "
-                    f"layers, or {Limits.how_to_raise('dxf_entities')}",
+                    f"layers; {Limits.how_to_raise('dxf_entities')}",
                     line=_line_of(data, m.start(1)), entity=kind.decode("ascii"))
     return Prescan(has_header=has_header, entities=count)
 

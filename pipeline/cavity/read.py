@@ -227,7 +227,7 @@ def _collect_pieces(walker: Walker, roles: LayerRoles, tol: float, k: float, lim
         n_vertices += len(pts3)
         if n_vertices > limits.dxf_vertices:
             raise CavityError(name, f"the role layers flatten to more than {limits.dxf_vertices} "
-                              "vertices: simplify the drawing or check its units, or "
+                              "vertices: simplify the drawing or check its units; "
                               f"{Limits.how_to_raise('dxf_vertices')}", entity=leaf.label)
         if len(pts3) and float(np.ptp(pts3[:, 2])) > max(tol, join_tol):
             found.not_flat.append(leaf.label)
@@ -256,7 +256,7 @@ def _check_coordinates(pts3: np.ndarray, k: float, limits: Limits, name: str, la
         raise CavityError(
             name, f"this entity reaches {reach:.3g} mm from the drawing's origin, beyond the "
             f"{limits.cavity_coordinate_mm:g} mm snugboard reads: wrong units or a damaged file are "
-            f"the usual causes; move the cavity near the origin, or "
+            f"the usual causes; move the cavity near the origin; "
             f"{Limits.how_to_raise('cavity_coordinate_mm')}", entity=label,
             at=(float(pts3[far, 0]), float(pts3[far, 1])))
 

@@ -55,7 +55,7 @@ class Walker:
         if self.count > self.limit:
             raise CavityError(self.name, f"the drawing has more than {self.limit} entities "
                               "(block references expanded): save a drawing with only the cavity "
-                              f"layers, or {Limits.how_to_raise('dxf_entities')}")
+                              f"layers; {Limits.how_to_raise('dxf_entities')}")
 
     def leaves(self, entities, matrix, inherit: str | None, stack: tuple[str, ...],
                via: str) -> Iterator[Leaf]:
