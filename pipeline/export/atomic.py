@@ -69,6 +69,7 @@ def write_all(
     files: Mapping[str, bytes],
     *,
     protect: Iterable[str | os.PathLike] = (),
+    manifest: bool = True,
 ) -> list[Path]:
     """Replace the output folder ``out_dir`` with the set ``files`` in one step.
 
@@ -81,6 +82,9 @@ def write_all(
         Plain file names (no folders) and their complete contents.
     protect : iterable of paths
         The user's input files; a folder holding any of them is refused.
+    manifest : bool
+        Write the manifest beside the files (``False`` for a folder that is
+        not an output set, such as a starter project).
 
     Returns
     -------
@@ -110,7 +114,7 @@ def write_all(
     except OSError as exc:
         raise OutputError(str(out), f"cannot create the output folder ({exc.strerror or exc})") from None
     try:
-        _fill(stage, files, names, _mode(out))
+        _fill(stage, files, names, _mode(out), manifest)
         old = _swap_in(stage, out)
     except OSError as exc:
         raise OutputError(str(out), f"cannot write outputs ({exc.strerror or exc})") from None
@@ -119,7 +123,7 @@ def write_all(
             shutil.rmtree(stage, ignore_errors=True)
     if old is not None:
         shutil.rmtree(old, ignore_errors=True)
-    return [out / n for n in sorted([*names, MANIFEST])]
+    return [out / n for n in sorted([*names, *([MANIFEST] if manifest else [])])]
 
 
 def manifest_bytes(files: Mapping[str, bytes]) -> bytes:
@@ -235,9 +239,10 @@ def _mode(out: Path) -> int:
         return 0o777 & ~mask
 
 
-def _fill(stage: Path, files: Mapping[str, bytes], names: list[str], mode: int) -> None:
-    """Write every file, the manifest last, each flushed to disk."""
-    for name, data in [*((n, files[n]) for n in names), (MANIFEST, manifest_bytes(files))]:
+def _fill(stage: Path, files: Mapping[str, bytes], names: list[str], mode: int, manifest: bool) -> None:
+    """Write every file, the manifest last (when asked), each flushed to disk."""
+    last = [(MANIFEST, manifest_bytes(files))] if manifest else []
+    for name, data in [*((n, files[n]) for n in names), *last]:
         fd = os.open(stage / name, os.O_WRONLY | os.O_CREAT | os.O_EXCL | os.O_NOFOLLOW, 0o666)
         try:
             view = memoryview(data)
