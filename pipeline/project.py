@@ -18,7 +18,8 @@ table      keys (default)
 project    name, design, cavity, parts_map
 board      layers (2), thickness_mm (0.8), sides (1), density ("nominal"),
            edge_clearance_mm (0.5), wall_clearance_mm (0.3),
-           outline ("region" or "rectangle"), min_inside_radius_mm (0.5)
+           outline ("region" or "rectangle"), min_inside_radius_mm (0.5),
+           outline_units ("mm" or "drawing": board-outline.dxf in the cavity's units)
 cavity     depth_mm (5.0), units ("mm"), layers (role map), chord_tolerance_mm (0.02)
 order      boards (1), spares_percent (0), min_spares (0), multiple (1)
 analysis   draws (10000), seed (1)
@@ -57,7 +58,7 @@ Progress = Callable[[str, float], None]
 _KEYS: dict[str, tuple[str, ...]] = {
     "project": ("name", "design", "cavity", "parts_map"),
     "board": ("layers", "thickness_mm", "sides", "density", "edge_clearance_mm", "wall_clearance_mm",
-              "outline", "min_inside_radius_mm"),
+              "outline", "min_inside_radius_mm", "outline_units"),
     "cavity": ("depth_mm", "units", "layers", "chord_tolerance_mm"),
     "order": ("boards", "spares_percent", "min_spares", "multiple"),
     "analysis": ("draws", "seed"),
@@ -92,6 +93,7 @@ class Project:
     seed: int = 1
     warnings: tuple[Finding, ...] = ()
     limits: tuple[tuple[str, int], ...] = ()  # [limits] keys given, sorted
+    outline_units: str = "mm"  # board-outline.dxf in "mm" or in the cavity drawing's units
     copper: CopperRules = CopperRules()
 
 
@@ -228,6 +230,7 @@ def load_project(
         order=order,
         depth_mm=float(_num(src, "cavity.depth_mm", cv.get("depth_mm", 5.0), lo=0, lo_open=True, hi=1000)),
         units=_text(src, "cavity.units", cv.get("units", "mm"), UNITS),
+        outline_units=_text(src, "board.outline_units", bd.get("outline_units", "mm"), ("mm", "drawing")),
         layer_map=layer_map,
         chord_tolerance_mm=float(_num(src, "cavity.chord_tolerance_mm", cv.get("chord_tolerance_mm", 0.02),
                                       lo=0, lo_open=True, hi=5)),
@@ -365,6 +368,7 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     fit_json: dict = {}
     svg = None
     if fit is not None:
+        from .cavity import cavity_units
         from .export import dxf as dxf_out
         from .export import svg as svg_out
         fit_json = results.fit_dict(fit, extra, verdict=verdict)
@@ -373,7 +377,8 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
                               facts=svg_out.part_facts(design, items))
         files["fit.svg"] = svg
         if fit.board_outline is not None and not fit.board_outline.is_empty:
-            files["board-outline.dxf"] = dxf_out.board_outline_dxf(fit.board_outline)
+            units = cavity_units(cavity) if project.outline_units == "drawing" else (4, 1.0)
+            files["board-outline.dxf"] = dxf_out.board_outline_dxf(fit.board_outline, units=units)
 
     files["findings.json"] = results.findings_json(findings)
     from .export import report as report_out
