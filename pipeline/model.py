@@ -16,6 +16,7 @@ from typing import Any, Literal
 
 from shapely.geometry.base import BaseGeometry
 
+from .codes import allowed
 from .values import round_sig as _sig
 
 Severity = Literal["error", "warning", "info"]
@@ -53,6 +54,11 @@ class Finding:
     check: str
     subject: tuple[str, ...]
     message: str
+
+    def __post_init__(self) -> None:
+        if not allowed(self.check, self.severity):
+            raise AssertionError(f"finding code {self.check!r} with severity {self.severity!r} is not in "
+                                 "pipeline/codes.py (add it there and to README)")
 
     def to_dict(self) -> dict[str, Any]:
         return {
