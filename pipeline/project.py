@@ -21,7 +21,7 @@ board      layers (2), thickness_mm (0.8), sides (1), density ("nominal"),
            outline ("region" or "rectangle"), min_inside_radius_mm (0.5)
 cavity     depth_mm (5.0), units ("mm"), layers (role map), chord_tolerance_mm (0.02)
 order      boards (1), spares_percent (0), min_spares (0), multiple (1)
-analysis   draws (10000), seed (1)
+analysis   draws (10000), seed (1), retune_above_share (0.01)
 =========  ====================================================================
 """
 
@@ -53,7 +53,7 @@ _KEYS: dict[str, tuple[str, ...]] = {
               "outline", "min_inside_radius_mm"),
     "cavity": ("depth_mm", "units", "layers", "chord_tolerance_mm"),
     "order": ("boards", "spares_percent", "min_spares", "multiple"),
-    "analysis": ("draws", "seed"),
+    "analysis": ("draws", "seed", "retune_above_share"),
 }
 
 
@@ -82,6 +82,7 @@ class Project:
     draws: int = 10000
     seed: int = 1
     warnings: tuple[Finding, ...] = ()
+    retune_above_share: float | None = None     # None: pipeline.circuit.RETUNE_ABOVE_SHARE
 
 
 @dataclass(frozen=True)
@@ -231,6 +232,8 @@ def load_project(
                                       lo=0, lo_open=True, hi=5)),
         draws=_num(src, "analysis.draws", an.get("draws", 10000), integer=True, lo=100, hi=1_000_000),
         seed=_num(src, "analysis.seed", an.get("seed", 1), integer=True, lo=0),
+        retune_above_share=(float(_num(src, "analysis.retune_above_share", an["retune_above_share"], lo=0, hi=1))
+                            if "retune_above_share" in an else None),
         warnings=tuple(warnings),
     )
 
@@ -252,7 +255,7 @@ def _categories(design: Design, library: Any) -> dict[str, str]:
 
 
 def _read_and_check(path: Path, shown: str, parts_map: Path | None, root: Path | None, *,
-                    draws: int = 10000, seed: int = 1, progress: Progress | None = None):
+                    progress: Progress | None = None, **analysis: Any):
     """Read a design, build its graph, run the connection and value checks and analyse its blocks.
 
     Returns ``(design, library with the design's own kinds, findings, block reports)``.
@@ -268,8 +271,16 @@ def _read_and_check(path: Path, shown: str, parts_map: Path | None, root: Path |
     lib = library.with_kinds(design.kinds)
     g = build_graph(design)
     findings = (*warnings, *check_connections(design, g, _categories(design, lib)), *check_values(design))
-    reports, block_findings = analyse_blocks(design, draws=draws, seed=seed, progress=progress)
+    reports, block_findings = analyse_blocks(design, progress=progress, **analysis)
     return design, lib, (*findings, *block_findings), reports
+
+
+def _analysis(project: Project) -> dict[str, Any]:
+    """The ``[analysis]`` keys as keyword arguments of :func:`pipeline.circuit.analyse_blocks`."""
+    out: dict[str, Any] = {"draws": project.draws, "seed": project.seed}
+    if project.retune_above_share is not None:
+        out["retune_above_share"] = project.retune_above_share
+    return out
 
 
 def check_design(path: Path, *, shown: str | None = None, parts_map: Path | None = None,
@@ -325,8 +336,7 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
 
     timestamp = _source_date_epoch()
     design, lib, checked, reports = _read_and_check(project.design_path, project.design_shown, project.parts_map,
-                                                    project.root, draws=project.draws, seed=project.seed,
-                                                    progress=progress)
+                                                    project.root, progress=progress, **_analysis(project))
     findings: list[Finding] = [*project.warnings, *checked]
 
     files: dict[str, bytes] = {}
