@@ -17,8 +17,11 @@ from __future__ import annotations
 
 import json
 import os
+import signal
 import sys
-from typing import Any
+import threading
+from contextlib import contextmanager
+from typing import Any, Iterator
 
 import click
 
@@ -28,10 +31,41 @@ from .errors import SnugboardError
 _SEV_MARK = {"error": "error", "warning": "warning", "info": "note"}
 
 
+class _Stopped(KeyboardInterrupt):
+    """SIGTERM or SIGHUP, raised like Ctrl-C so that every clean-up on the way out runs."""
+
+    def __init__(self, signum: int) -> None:
+        super().__init__(signum)
+        self.signum = signum
+
+
+def _raise_stopped(signum: int, _frame: Any) -> None:
+    raise _Stopped(signum)
+
+
+@contextmanager
+def _stoppable() -> Iterator[None]:
+    """SIGTERM and SIGHUP end the command as Ctrl-C does (the main thread only; restored after)."""
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    saved = {s: signal.signal(s, _raise_stopped) for s in (signal.SIGTERM, signal.SIGHUP)}
+    try:
+        yield
+    finally:
+        for s, h in saved.items():
+            signal.signal(s, h)
+
+
 class _Group(click.Group):
     def invoke(self, ctx: click.Context) -> Any:
         try:
-            return super().invoke(ctx)
+            with _stoppable():
+                return super().invoke(ctx)
+        except KeyboardInterrupt as exc:
+            signum = getattr(exc, "signum", signal.SIGINT)
+            click.echo("snugboard: stopped; the output folder keeps its previous files", err=True)
+            ctx.exit(128 + signum)
         except SnugboardError as exc:
             if ctx.meta.get("snugboard.json"):
                 click.echo(json.dumps({"exit_status": exc.exit_status, "error": str(exc),
@@ -146,17 +180,26 @@ def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: st
         _echo_sweep(result.sweep.to_dict(), err)
     if result.fit is not None:
         f = result.fit
-        verdict = "FITS" if f.fits else "DOES NOT FIT"
-        click.echo(f"fit: {verdict}: usable region {f.region_area_mm2:.1f} mm2, courtyards {f.courtyard_area_mm2:.1f} mm2, "
+        click.echo(f"fit: usable region {f.region_area_mm2:.1f} mm2, courtyards {f.courtyard_area_mm2:.1f} mm2, "
                    f"estimated board {f.estimate.low_mm2:.0f}..{f.estimate.high_mm2:.0f} mm2 "
                    f"(expected {f.estimate.expected_mm2:.0f})", err=err)
     click.echo(f"{result.design.name}: {_counts(result.findings)}; wrote {len(result.written)} files to "
                f"{_where(project.out_dir)}", err=err)
+    _echo_verdict(result.verdict, err)
     if as_json:
         from .export.results import findings_list
-        click.echo(json.dumps({"exit_status": result.exit_status, "findings": findings_list(result.findings),
-                               "fit": result.fit_json or None}, indent=2, ensure_ascii=False))
-    ctx.exit(result.exit_status)
+        click.echo(json.dumps({"exit_status": result.verdict.exit_status, "verdict": result.verdict.to_dict(),
+                               "findings": findings_list(result.findings), "fit": result.fit_json or None},
+                              indent=2, ensure_ascii=False))
+    ctx.exit(result.verdict.exit_status)
+
+
+def _echo_verdict(verdict, err: bool) -> None:
+    """The verdict last, where the eye lands: its headline, then each blocking reason."""
+    click.echo(f"verdict: {verdict.headline}", err=err)
+    for r in verdict.reasons:
+        if r.blocking:
+            click.echo(f"  blocks: {r.message}", err=err)
 
 
 @main.command("check")
@@ -172,17 +215,32 @@ def check_cmd(ctx: click.Context, design_file: str, parts_map: str | None, as_js
     from .project import check_design
 
     ctx.meta["snugboard.json"] = as_json
+    from .verdict import decide
+
     design, findings = check_design(Path(design_file), shown=design_file,
                                     parts_map=Path(parts_map) if parts_map else None)
-    status = 1 if any(f.severity == "error" for f in findings) else 0
+    verdict = decide(findings, None, fit_asked=False)
     if as_json:
         from .export.results import findings_list
-        click.echo(json.dumps({"exit_status": status, "findings": findings_list(findings), "fit": None},
-                              indent=2, ensure_ascii=False))
+        click.echo(json.dumps({"exit_status": verdict.exit_status, "verdict": verdict.to_dict(),
+                               "findings": findings_list(findings), "fit": None}, indent=2, ensure_ascii=False))
     else:
         _echo_findings(findings, False, verbose)
         click.echo(f"{design.name}: {len(design.parts)} parts, {len(design.nets)} nets; {_counts(findings)}")
-    ctx.exit(status)
+        _echo_verdict(verdict, False)
+    ctx.exit(verdict.exit_status)
+
+
+@main.command("new")
+@click.argument("folder", type=click.Path())
+@click.pass_context
+def new_cmd(ctx: click.Context, folder: str) -> None:
+    """Write a starter project into FOLDER (new or empty): project.toml, a design and a cavity drawing."""
+    from .starter import write_starter
+
+    written = write_starter(folder)
+    click.echo(f"wrote {', '.join(p.name for p in written)} to {_where(folder)}; "
+               f"try: snugboard run {_where(folder)}")
 
 
 @main.command("cavity")
@@ -235,7 +293,7 @@ def packages_cmd(ctx: click.Context, names: tuple[str, ...], as_json: bool) -> N
 
     ctx.meta["snugboard.json"] = as_json
     lib = load_library()
-    pkgs = _lookup(lib.package, names) if names else list(lib.packages())
+    pkgs = [lib.package(n) for n in names] if names else list(lib.packages())
     if as_json:
         click.echo(json.dumps([_package_dict(p) for p in pkgs], indent=2))
         return
@@ -247,16 +305,6 @@ def packages_cmd(ctx: click.Context, names: tuple[str, ...], as_json: bool) -> N
                    f"{p.height_mm:>7.2f}{p.land_length_mm:>7.2f}x{p.land_width_mm:<5.2f}  {cy}")
         if names:
             click.echo(f"  aliases: {', '.join(p.aliases) or '-'}; source: {p.source}")
-
-
-def _lookup(find, names: tuple[str, ...]) -> list:
-    """Library entries by name; an unknown name is bad input naming the closest ones."""
-    from .errors import LibraryError
-
-    try:
-        return [find(n) for n in names]
-    except KeyError as exc:
-        raise LibraryError("footprints", str(exc.args[0]) if exc.args else "unknown name") from None
 
 
 def _package_dict(p) -> dict[str, Any]:
@@ -278,7 +326,7 @@ def kinds_cmd(ctx: click.Context, names: tuple[str, ...], as_json: bool) -> None
 
     ctx.meta["snugboard.json"] = as_json
     lib = load_library()
-    kinds = _lookup(lib.kind, names) if names else list(lib.kinds())
+    kinds = [lib.kind(n) for n in names] if names else list(lib.kinds())
     if as_json:
         click.echo(json.dumps([{"name": k.name, "category": k.category, "value_unit": k.value_unit,
                                 "pins_from_package": k.pins_from_package, "source": k.source,

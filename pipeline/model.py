@@ -12,9 +12,10 @@ stage boundary is here.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any, Literal
+from typing import TYPE_CHECKING, Any, Literal
 
-from shapely.geometry.base import BaseGeometry
+if TYPE_CHECKING:  # geometry types only annotate: importing shapely here would slow every command's start
+    from shapely.geometry.base import BaseGeometry
 
 from .codes import allowed
 from .values import round_sig as _sig
@@ -22,6 +23,10 @@ from .values import round_sig as _sig
 Severity = Literal["error", "warning", "info"]
 Side = Literal["top", "bottom"]
 Density = Literal["most", "nominal", "least"]
+
+#: IPC-7351B density levels, in the order A (most), B (nominal), C (least):
+#: the one list of level names (project.toml, the library, the area stage).
+DENSITY_LEVELS: tuple[str, ...] = ("most", "nominal", "least")
 
 #: Electrical roles a pin may have (DEVELOPERS.md, "Part kinds").
 PIN_ROLES = (
