@@ -830,7 +830,7 @@ def test_block_sections_svg_is_wellformed_and_escaped():
     svg = root.find(".//{http://www.w3.org/2000/svg}svg")
     assert svg is not None
     texts = " ".join(t.text or "" for t in svg.iter("{http://www.w3.org/2000/svg}text"))
-    assert "f0 " in texts and "-3 dB " in texts and "a<b>&c" in texts
+    assert "f0 " in texts and "\u22123 dB " in texts and "a<b>&c" in texts
     assert root.find(".//table[@class='stage-retune']") is not None   # it misses: proposals shown
     # a stage that is not a filter has no plot
     d2 = design([res("R1", 1e3), res("R2", 1e3)],
