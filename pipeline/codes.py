@@ -80,7 +80,7 @@ CODES: dict[str, Code] = {
                                   "across them is unknown, or they need more than the smallest common rating"),
     "ratings.no-voltages": _c("info", "no net voltage declared, so ratings could not be checked"),
     "safety.caution": _c("warning", "a net above 30 V or a battery supply: the usual caution"),
-    # declared stages (pipeline/stages.py)
+    # declared circuit blocks (pipeline/circuit/)
     "stage.summary": _c("info", "a declared stage's figures with their 1st..99th percentiles and the share "
                                 "of builds out of target"),
     "stage.target-met": _c("info", "a target passes at nominal values"),
