@@ -44,7 +44,7 @@ CODES: dict[str, Code] = {
     "connect.pin-on-two-nets": _c("error", "one pin listed on two nets (they are shorted)"),
     "connect.unconnected-part": _c("error", "a part connected to nothing"),
     "connect.unconnected-pin": _c("error", "an IC input or supply pin, or a passive's pin, on no net "
-                                           "(no-connect pins excepted)"),
+                                           "(NC pins excepted)"),
     "connect.floating-output": _c("warning", "an IC output on no net"),
     "connect.undriven-input": _c("error", "inputs on a net that no output, supply, passive or connector drives"),
     "connect.output-conflict": _c("error", "two push-pull outputs on one net"),
@@ -54,6 +54,8 @@ CODES: dict[str, Code] = {
     "connect.case-clash": _c("warning", "net names that differ only in case"),
     # design readers (pipeline/design.py, pipeline/spice.py)
     "design.duplicate-pin": _c("warning", "a pin listed twice on one net"),
+    "design.old-role-name": _c("warning", "a pin role in the previous release's spelling (power-in, "
+                                          "passive, ...): read as its new name for one more release"),
     "spice.title-line": _c("warning", "the first line of a SPICE file is read as its title, as SPICE does"),
     "spice.not-a-part": _c("warning/info", "a SPICE element or line that is not a board part "
                                            "(sources, analyses, couplings)"),

@@ -353,7 +353,8 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     findings: list[Finding] = [*project.warnings, *checked]
 
     files: dict[str, bytes] = {}
-    order_files = bom.bom_files(design, project.order)
+    features = frozenset(k.name for k in lib.kinds() if k.board_feature)  # never ordered
+    order_files = bom.bom_files(design, project.order, features)
     files.update(order_files)
     files["netlist.csv"] = netlist.netlist_csv(design)
     files["netlist.json"] = netlist.netlist_json(design)
