@@ -115,10 +115,11 @@ def write_all(
     except OSError as exc:
         raise OutputError(str(out), f"cannot write outputs ({exc.strerror or exc})") from None
     finally:
-        if stage.exists():  # not swapped in (or holding the old set after the swap)
-            shutil.rmtree(stage, ignore_errors=True)
+        with _signals_held():  # an interrupt now must not leave half a folder behind
+            shutil.rmtree(stage, ignore_errors=True)  # not swapped in, or holding the old set after the swap
     if old is not None:
-        shutil.rmtree(old, ignore_errors=True)
+        with _signals_held():
+            shutil.rmtree(old, ignore_errors=True)
     return [out / n for n in sorted([*names, MANIFEST])]
 
 
@@ -196,6 +197,9 @@ def _tag(out: Path) -> str:
 
 
 def _alive(pid: int) -> bool:
+    """Whether the run that made a temporary folder may still be going (our own pid: an earlier process's)."""
+    if pid == os.getpid():
+        return False
     try:
         os.kill(pid, 0)
     except ProcessLookupError:
