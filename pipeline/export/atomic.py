@@ -12,8 +12,10 @@ RENAME_EXCHANGE)`` (Linux 3.15+), or, where the system has no such call, by
 two renames with the old set kept until the new one is in place. Only then
 is the old set deleted. So at any moment the folder holds the complete old
 set or the complete new one, and no file of an earlier run stays beside the
-new set. Interrupt signals are held back for the few system calls of the
-swap; a run stopped before it leaves the old set as it was. A run killed
+new set. Interrupt signals (SIGINT, SIGTERM, SIGHUP, SIGQUIT) are held back
+while the set is written and swapped; one that arrives is acted on between
+files or just before the swap, by deleting the new set and keeping the old,
+and is then delivered as usual. A run killed
 outright (SIGKILL, power loss) may leave its hidden folder behind: the next
 run deletes it (or puts an old set back if it was caught between the two
 renames of the fallback).
@@ -104,22 +106,10 @@ def write_all(
     _check_names(out, names)
     _check_folder(out, protect)
     _check_owned(out, set(names))
-    try:
-        out.parent.mkdir(parents=True, exist_ok=True)
-        stage = Path(tempfile.mkdtemp(prefix=f".{_tag(out)}.snugboard-new-{os.getpid()}-", dir=out.parent))
-    except OSError as exc:
-        raise OutputError(str(out), f"cannot create the output folder ({exc.strerror or exc})") from None
-    try:
-        _fill(stage, files, names, _mode(out))
-        old = _swap_in(stage, out)
-    except OSError as exc:
-        raise OutputError(str(out), f"cannot write outputs ({exc.strerror or exc})") from None
-    finally:
-        with _signals_held():  # an interrupt now must not leave half a folder behind
-            shutil.rmtree(stage, ignore_errors=True)  # not swapped in, or holding the old set after the swap
-    if old is not None:
-        with _signals_held():
-            shutil.rmtree(old, ignore_errors=True)
+    with _signals_held():  # an interrupt is acted on only between steps: see _stop_requested
+        swapped = _write_and_swap(out, files, names)
+    if not swapped:  # stopped by a signal whose handler did not end the program
+        raise OutputError(str(out), "stopped before the new files were in place; the previous files are unchanged")
     return [out / n for n in sorted([*names, MANIFEST])]
 
 
@@ -240,8 +230,10 @@ def _mode(out: Path) -> int:
 
 
 def _fill(stage: Path, files: Mapping[str, bytes], names: list[str], mode: int) -> None:
-    """Write every file, the manifest last, each flushed to disk."""
+    """Write every file, the manifest last, each flushed to disk; stop early on an interrupt."""
     for name, data in [*((n, files[n]) for n in names), (MANIFEST, manifest_bytes(files))]:
+        if _stop_requested():
+            raise _Stopped
         fd = os.open(stage / name, os.O_WRONLY | os.O_CREAT | os.O_EXCL | os.O_NOFOLLOW, 0o666)
         try:
             view = memoryview(data)
@@ -263,22 +255,60 @@ def _signals_held() -> Iterator[None]:
         signal.pthread_sigmask(signal.SIG_SETMASK, old)
 
 
+def _stop_requested() -> bool:
+    """Whether an interrupt signal is waiting (held back by :func:`_signals_held`)."""
+    return bool(signal.sigpending() & set(_HELD))
+
+
+class _Stopped(Exception):
+    """An interrupt arrived before the swap: the new set is dropped, the old one stays."""
+
+
+def _write_and_swap(out: Path, files: Mapping[str, bytes], names: list[str]) -> bool:
+    """Write the new set beside ``out`` and swap it in, with interrupt signals held.
+
+    A waiting interrupt is checked between files and just before the swap: if
+    one came, the new set is deleted and nothing else changes; the signal is
+    delivered when the caller's block ends (so Ctrl-C still stops the run).
+    Returns whether the new set was swapped in.
+    """
+    try:
+        out.parent.mkdir(parents=True, exist_ok=True)
+        stage = Path(tempfile.mkdtemp(prefix=f".{_tag(out)}.snugboard-new-{os.getpid()}-", dir=out.parent))
+    except OSError as exc:
+        raise OutputError(str(out), f"cannot create the output folder ({exc.strerror or exc})") from None
+    old = None
+    try:
+        _fill(stage, files, names, _mode(out))
+        if _stop_requested():
+            raise _Stopped
+        old = _swap_in(stage, out)
+    except _Stopped:
+        return False
+    except OSError as exc:
+        raise OutputError(str(out), f"cannot write outputs ({exc.strerror or exc})") from None
+    finally:
+        shutil.rmtree(stage, ignore_errors=True)  # not swapped in, or holding the old set after the swap
+        if old is not None:
+            shutil.rmtree(old, ignore_errors=True)
+    return True
+
+
 def _swap_in(stage: Path, out: Path) -> Path | None:
     """Make ``stage`` the folder ``out`` in one step; return where the old set now is (or ``None``)."""
-    with _signals_held():
-        if not os.path.lexists(out):
-            os.rename(stage, out)
-            return None
-        if _exchange(stage, out):
-            return stage
-        old = out.parent / stage.name.replace("-new-", "-old-", 1)
-        os.rename(out, old)
-        try:
-            os.rename(stage, out)
-        except OSError:
-            os.rename(old, out)
-            raise
-        return old
+    if not os.path.lexists(out):
+        os.rename(stage, out)
+        return None
+    if _exchange(stage, out):
+        return stage
+    old = out.parent / stage.name.replace("-new-", "-old-", 1)
+    os.rename(out, old)
+    try:
+        os.rename(stage, out)
+    except OSError:
+        os.rename(old, out)
+        raise
+    return old
 
 
 def _exchange(a: Path, b: Path) -> bool:
