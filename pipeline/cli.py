@@ -187,17 +187,26 @@ def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: st
         _echo_sweep(result.sweep.to_dict(), err)
     if result.fit is not None:
         f = result.fit
-        verdict = "FITS" if f.fits else "DOES NOT FIT"
-        _say(f"fit: {verdict}: usable region {f.region_area_mm2:.1f} mm2, courtyards {f.courtyard_area_mm2:.1f} mm2, "
+        _say(f"fit: usable region {f.region_area_mm2:.1f} mm2, courtyards {f.courtyard_area_mm2:.1f} mm2, "
                    f"estimated board {f.estimate.low_mm2:.0f}..{f.estimate.high_mm2:.0f} mm2 "
                    f"(expected {f.estimate.expected_mm2:.0f})", err=err)
     _say(f"{result.design.name}: {_counts(result.findings)}; wrote {len(result.written)} files to "
                f"{_where(project.out_dir)}", err=err)
+    _echo_verdict(result.verdict, err)
     if as_json:
         from .export.results import findings_list
-        click.echo(json.dumps({"exit_status": result.exit_status, "findings": findings_list(result.findings),
-                               "fit": result.fit_json or None}, indent=2))
-    ctx.exit(result.exit_status)
+        click.echo(json.dumps({"exit_status": result.verdict.exit_status, "verdict": result.verdict.to_dict(),
+                               "findings": findings_list(result.findings), "fit": result.fit_json or None},
+                              indent=2))
+    ctx.exit(result.verdict.exit_status)
+
+
+def _echo_verdict(verdict, err: bool) -> None:
+    """The verdict last, where the eye lands: its headline, then each blocking reason."""
+    _say(f"verdict: {verdict.headline}", err=err)
+    for r in verdict.reasons:
+        if r.blocking:
+            _say(f"  blocks: {r.message}", err=err)
 
 
 @main.command("check")
@@ -207,23 +216,38 @@ def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: st
 @click.option("-v", "--verbose", is_flag=True, help="Also show notes (info findings).")
 @click.pass_context
 def check_cmd(ctx: click.Context, design_file: str, parts_map: str | None, as_json: bool, verbose: bool) -> None:
-    """Check a design file alone: read it, build the graph, run the connection and value checks."""
+    """Check a design file alone: connections, values and declared blocks (everything but the fit)."""
     from pathlib import Path
 
     from .project import check_design
 
     ctx.meta["snugboard.json"] = as_json
+    from .verdict import decide
+
     design, findings = check_design(Path(design_file), shown=design_file,
                                     parts_map=Path(parts_map) if parts_map else None)
-    status = 1 if any(f.severity == "error" for f in findings) else 0
+    verdict = decide(findings, None, fit_asked=False)
     if as_json:
         from .export.results import findings_list
-        click.echo(json.dumps({"exit_status": status, "findings": findings_list(findings), "fit": None},
-                              indent=2))
+        click.echo(json.dumps({"exit_status": verdict.exit_status, "verdict": verdict.to_dict(),
+                               "findings": findings_list(findings), "fit": None}, indent=2))
     else:
         _echo_findings(findings, False, verbose)
         _say(f"{design.name}: {len(design.parts)} parts, {len(design.nets)} nets; {_counts(findings)}")
-    ctx.exit(status)
+        _echo_verdict(verdict, False)
+    ctx.exit(verdict.exit_status)
+
+
+@main.command("new")
+@click.argument("folder", type=click.Path())
+@click.pass_context
+def new_cmd(ctx: click.Context, folder: str) -> None:
+    """Write a starter project into FOLDER (new or empty): project.toml, a design and a cavity drawing."""
+    from .starter import write_starter
+
+    written = write_starter(folder)
+    _say(f"wrote {', '.join(p.name for p in written)} to {_where(folder)}; "
+               f"try: snugboard run {_where(folder)}")
 
 
 @main.command("cavity")
@@ -276,7 +300,7 @@ def packages_cmd(ctx: click.Context, names: tuple[str, ...], as_json: bool) -> N
 
     ctx.meta["snugboard.json"] = as_json
     lib = load_library()
-    pkgs = _lookup(lib.package, names) if names else list(lib.packages())
+    pkgs = [lib.package(n) for n in names] if names else list(lib.packages())
     if as_json:
         click.echo(json.dumps([_package_dict(p) for p in pkgs], indent=2))
         return
@@ -288,16 +312,6 @@ def packages_cmd(ctx: click.Context, names: tuple[str, ...], as_json: bool) -> N
                    f"{p.height_mm:>7.2f}{p.land_length_mm:>7.2f}x{p.land_width_mm:<5.2f}  {cy}")
         if names:
             _say(f"  aliases: {', '.join(p.aliases) or '-'}; source: {p.source}")
-
-
-def _lookup(find, names: tuple[str, ...]) -> list:
-    """Library entries by name; an unknown name is bad input naming the closest ones."""
-    from .errors import LibraryError
-
-    try:
-        return [find(n) for n in names]
-    except KeyError as exc:
-        raise LibraryError("footprints", str(exc.args[0]) if exc.args else "unknown name") from None
 
 
 def _package_dict(p) -> dict[str, Any]:
@@ -319,7 +333,7 @@ def kinds_cmd(ctx: click.Context, names: tuple[str, ...], as_json: bool) -> None
 
     ctx.meta["snugboard.json"] = as_json
     lib = load_library()
-    kinds = _lookup(lib.kind, names) if names else list(lib.kinds())
+    kinds = [lib.kind(n) for n in names] if names else list(lib.kinds())
     if as_json:
         click.echo(json.dumps([{"name": k.name, "category": k.category, "value_unit": k.value_unit,
                                 "pins_from_package": k.pins_from_package, "source": k.source,

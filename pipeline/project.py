@@ -22,6 +22,10 @@ board      layers (2), thickness_mm (0.8), sides (1), density ("nominal"),
 cavity     depth_mm (5.0), units ("mm"), layers (role map), chord_tolerance_mm (0.02)
 order      boards (1), spares_percent (0), min_spares (0), multiple (1)
 analysis   draws (10000), seed (1)
+limits     spice_file_bytes, spice_include_splices, spice_expansion_parts,
+           expression_depth (defaults in pipeline/spice/limits.py; README "Limits")
+copper     route (true), track_width_mm, clearance_mm, via_diameter_mm, via_drill_mm,
+           edge_clearance_mm, vias_in_pads (false), areas, currents, ... (pipeline.route.rules)
 =========  ====================================================================
 """
 
@@ -34,7 +38,9 @@ from pathlib import Path
 from typing import Any, Callable
 
 from .errors import ProjectError
-from .model import BoardOptions, Design, FitResult, Finding, OrderOptions
+from .model import DENSITY_LEVELS, BoardOptions, Design, FitResult, Finding, OrderOptions
+from .spice.limits import DEFAULTS as SPICE_LIMITS
+from .route.rules import COPPER_KEYS, CopperRules, read_copper
 from .tomlsrc import TomlSource, load
 
 __all__ = ["Project", "RunResult", "load_project", "run", "check_design", "inspect_cavity", "read_any_design",
@@ -42,7 +48,6 @@ __all__ = ["Project", "RunResult", "load_project", "run", "check_design", "inspe
 
 SPICE_SUFFIXES = (".cir", ".sp", ".spice", ".net")
 UNITS = ("mm", "cm", "m", "inch", "in", "foot", "ft", "mil", "um")
-DENSITIES = ("most", "nominal", "least")
 STANDARD_THICKNESS = (0.4, 0.6, 0.8, 1.0, 1.2, 1.6, 2.0)  # REFERENCES.md section 4, common practice
 
 Progress = Callable[[str, float], None]
@@ -54,6 +59,8 @@ _KEYS: dict[str, tuple[str, ...]] = {
     "cavity": ("depth_mm", "units", "layers", "chord_tolerance_mm"),
     "order": ("boards", "spares_percent", "min_spares", "multiple"),
     "analysis": ("draws", "seed"),
+    "limits": tuple(SPICE_LIMITS),  # README "Limits"; each a whole number >= 1
+    "copper": COPPER_KEYS,
 }
 
 
@@ -82,6 +89,8 @@ class Project:
     draws: int = 10000
     seed: int = 1
     warnings: tuple[Finding, ...] = ()
+    limits: tuple[tuple[str, int], ...] = ()  # [limits] keys given, sorted
+    copper: CopperRules = CopperRules()
 
 
 @dataclass(frozen=True)
@@ -96,6 +105,7 @@ class RunResult:
     stage_reports: tuple[Any, ...] = ()
     sweep: Any = None
     fit_json: dict = field(default_factory=dict)
+    verdict: Any = None
 
 
 # --------------------------------------------------------------------------
@@ -179,7 +189,7 @@ def load_project(
         layers=_num(src, "board.layers", bd.get("layers", b.layers), integer=True, lo=1, hi=64),
         thickness_mm=float(_num(src, "board.thickness_mm", bd.get("thickness_mm", b.thickness_mm), lo=0, lo_open=True, hi=10)),
         sides=_num(src, "board.sides", bd.get("sides", b.sides), integer=True, lo=1, hi=2),
-        density=_text(src, "board.density", bd.get("density", b.density), DENSITIES),
+        density=_text(src, "board.density", bd.get("density", b.density), DENSITY_LEVELS),
         edge_clearance_mm=float(_num(src, "board.edge_clearance_mm", bd.get("edge_clearance_mm", b.edge_clearance_mm), lo=0, hi=50)),
         wall_clearance_mm=float(_num(src, "board.wall_clearance_mm", bd.get("wall_clearance_mm", b.wall_clearance_mm), lo=0, hi=50)),
         outline=_text(src, "board.outline", bd.get("outline", b.outline), ("region", "rectangle")),
@@ -222,17 +232,21 @@ def load_project(
         draws=_num(src, "analysis.draws", an.get("draws", 10000), integer=True, lo=100, hi=1_000_000),
         seed=_num(src, "analysis.seed", an.get("seed", 1), integer=True, lo=0),
         warnings=tuple(warnings),
+        limits=tuple(sorted((k, _num(src, f"limits.{k}", v, integer=True, lo=1))
+                            for k, v in data.get("limits", {}).items())),
+        copper=read_copper(src, data.get("copper", {}), board.layers),
     )
 
 
 # --------------------------------------------------------------------------
 def read_any_design(path: Path, library: Any, *, shown: str, parts_map: Path | None = None,
-                    root: Path | None = None) -> tuple[Design, list[Finding]]:
-    """Read a TOML design or, by its ending, a SPICE netlist."""
+                    root: Path | None = None, limits: tuple[tuple[str, int], ...] = ()) -> tuple[Design, list[Finding]]:
+    """Read a TOML design or, by its ending, a SPICE netlist (``limits``: the project's ``[limits]``)."""
     if path.suffix.lower() in SPICE_SUFFIXES:
         from .spice import read_spice
+        from .spice.limits import SpiceLimits
         return read_spice(path, library, display_name=shown, parts_map=parts_map,
-                          root=root if root is not None else path.parent)
+                          root=root if root is not None else path.parent, limits=SpiceLimits.from_table(dict(limits)))
     from .design import read_design
     return read_design(path, library, display=shown)
 
@@ -241,28 +255,34 @@ def _categories(design: Design, library: Any) -> dict[str, str]:
     return {p.kind: library.kind(p.kind).category for p in design.parts}
 
 
-def _read_and_check(path: Path, shown: str, parts_map: Path | None, root: Path | None):
-    """Read a design, build its graph and run the connection and value checks.
+def _read_and_check(path: Path, shown: str, parts_map: Path | None, root: Path | None, *,
+                    limits: tuple[tuple[str, int], ...] = (), draws: int = 10000, seed: int = 1,
+                    progress: Progress | None = None):
+    """Read a design, build its graph, run the connection and value checks and analyse its blocks.
 
-    Returns ``(design, library with the design's own kinds, findings)``.
+    Returns ``(design, library with the design's own kinds, findings, block reports)``.
     """
     from .check import check_connections
+    from .circuit import analyse_blocks
     from .graph import build_graph
     from .library import load_library
     from .ratings import check_values
 
     library = load_library()
-    design, warnings = read_any_design(Path(path), library, shown=shown, parts_map=parts_map, root=root)
+    design, warnings = read_any_design(Path(path), library, shown=shown, parts_map=parts_map, root=root,
+                                       limits=limits)
     lib = library.with_kinds(design.kinds)
     g = build_graph(design)
     findings = (*warnings, *check_connections(design, g, _categories(design, lib)), *check_values(design))
-    return design, lib, findings
+    reports, block_findings = analyse_blocks(design, draws=draws, seed=seed, progress=progress)
+    return design, lib, (*findings, *block_findings), reports
 
 
 def check_design(path: Path, *, shown: str | None = None, parts_map: Path | None = None,
                  root: Path | None = None) -> tuple[Design, tuple[Finding, ...]]:
-    """Read a design file alone and run the connection and value checks."""
-    design, _, findings = _read_and_check(Path(path), shown or str(path), parts_map, root)
+    """Read a design file alone and run every check that needs no drawing: connections, values
+    and the declared blocks (Monte Carlo with the default draws and seed of ``[analysis]``)."""
+    design, _, findings, _ = _read_and_check(Path(path), shown or str(path), parts_map, root)
     return design, tuple(findings)
 
 
@@ -307,17 +327,17 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     """
     from .export import atomic, bom, edif, netlist, results
     from .export import spice as spice_out
-    from .stages import analyse_stages, stage_sections
+    from .export.blocks import block_sections
 
     timestamp = _source_date_epoch()
-    design, lib, checked = _read_and_check(project.design_path, project.design_shown, project.parts_map,
-                                           project.root)
+    design, lib, checked, reports = _read_and_check(project.design_path, project.design_shown, project.parts_map,
+                                                    project.root, limits=project.limits, draws=project.draws,
+                                                    seed=project.seed, progress=progress)
     findings: list[Finding] = [*project.warnings, *checked]
-    reports, stage_findings = analyse_stages(design, draws=project.draws, seed=project.seed, progress=progress)
-    findings += stage_findings
 
     files: dict[str, bytes] = {}
-    files.update(bom.bom_files(design, project.order))
+    order_files = bom.bom_files(design, project.order)
+    files.update(order_files)
     files["netlist.csv"] = netlist.netlist_csv(design)
     files["netlist.json"] = netlist.netlist_json(design)
     files["netlist.edf"] = edif.edif_netlist(design, timestamp=timestamp)
@@ -327,48 +347,37 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
 
     fit = None
     sweep_result = None
-    fit_json: dict = {}
-    sections = list(stage_sections(reports))
-    svg = None
+    extra: dict[str, Any] = {}
+    sections = list(block_sections(reports))
     if project.cavity_path is not None:
-        from .area import items_from_design
-        from .cavity import read_cavity
-        from .export import dxf as dxf_out
-        from .export import svg as svg_out
-        from .place import place_and_fit
-        from .region import usable_region
-
-        cavity, cw = read_cavity(project.cavity_path, display_name=project.cavity_shown,
-                                 layer_map=project.layer_map, default_units=project.units,
-                                 depth_mm=project.depth_mm, chord_tol_mm=project.chord_tolerance_mm)
-        region, rw = usable_region(cavity, project.board)
-        items = items_from_design(design, lib, project.board.density)
-        fit = place_and_fit(items, region, project.board, user_board=cavity.board, progress=progress)
-        fit = dataclasses.replace(fit, warnings=(*cw, *rw, *fit.warnings))
-        findings += [*cw, *rw]
-        findings += _fit_findings(fit)
-        extra: dict[str, Any] = {}
-        if sweep:
-            from .sweep import sweep_sizes
-            sweep_result = sweep_sizes(design, lib, region, project.board, progress=progress,
-                                       user_board=cavity.board)
+        cavity, region, items, fit, sweep_result, fit_findings = _fit(project, design, lib, sweep, progress)
+        findings += fit_findings
+        if sweep_result is not None:
             extra["passive_sizes"] = sweep_result.to_dict()
-        fit_json = results.fit_dict(fit, extra)
-        files["fit.json"] = results.dump_json(fit_json)
-        svg = svg_out.fit_svg(cavity, region, fit, title=design.name)
-        files["fit.svg"] = svg
-        if fit.board_outline is not None and not fit.board_outline.is_empty:
-            files["board-outline.dxf"] = dxf_out.board_outline_dxf(fit.board_outline)
     else:
         findings.append(Finding("info", "fit.no-cavity", (),
                                 "No cavity drawing given: the fit was not checked. Set [project] cavity or pass --cavity."))
+    from .verdict import decide
+    verdict = decide(findings, fit)
+    fit_json: dict = {}
+    svg = None
+    if fit is not None:
+        from .export import dxf as dxf_out
+        from .export import svg as svg_out
+        fit_json = results.fit_dict(fit, extra, verdict=verdict)
+        files["fit.json"] = results.dump_json(fit_json)
+        svg = svg_out.fit_svg(cavity, region, fit, title=design.name, verdict=verdict,
+                              facts=svg_out.part_facts(design, items))
+        files["fit.svg"] = svg
+        if fit.board_outline is not None and not fit.board_outline.is_empty:
+            files["board-outline.dxf"] = dxf_out.board_outline_dxf(fit.board_outline)
 
     files["findings.json"] = results.findings_json(findings)
     from .export import report as report_out
     files["report.html"] = report_out.report_html(title=f"{design.name} {design.revision}".strip(), fit=fit,
-                                                  findings=findings, fit_svg=svg, sections=sections)
-    errors = any(f.severity == "error" for f in findings)
-    status = 1 if errors or (fit is not None and not fit.fits) else 0
+                                                  findings=findings, fit_svg=svg, sections=sections,
+                                                  verdict=verdict, order_files=order_files, board=project.board)
+    status = verdict.exit_status
     protect = [project.design_path, project.root / "project.toml", *design.inputs]
     if project.cavity_path is not None:
         protect.append(project.cavity_path)
@@ -376,7 +385,34 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
         protect.append(project.parts_map)
     written = atomic.write_all(project.out_dir, files, protect=protect)
     return RunResult(design=design, findings=tuple(findings), fit=fit, exit_status=status,
-                     written=tuple(written), stage_reports=tuple(reports), sweep=sweep_result, fit_json=fit_json)
+                     written=tuple(written), stage_reports=tuple(reports), sweep=sweep_result, fit_json=fit_json,
+                     verdict=verdict)
+
+
+def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Progress | None):
+    """Cavity, region, placement (with tried advice) and, with ``sweep``, the size sweep.
+
+    Returns ``(cavity, region, placer items, fit, sweep_result, findings)``.
+    """
+    from .advice import tried_advice
+    from .area import items_from_design
+    from .cavity import read_cavity
+    from .place import place_and_fit
+    from .region import usable_region
+
+    cavity, cw = read_cavity(project.cavity_path, display_name=project.cavity_shown,
+                             layer_map=project.layer_map, default_units=project.units,
+                             depth_mm=project.depth_mm, chord_tol_mm=project.chord_tolerance_mm)
+    region, rw = usable_region(cavity, project.board)
+    items = items_from_design(design, lib, project.board.density)
+    fit = place_and_fit(items, region, project.board, user_board=cavity.board, progress=progress)
+    fit = tried_advice(fit, items, cavity, project.board, STANDARD_THICKNESS, progress=progress)
+    fit = dataclasses.replace(fit, warnings=(*cw, *rw, *fit.warnings))
+    sweep_result = None
+    if sweep:
+        from .sweep import sweep_sizes
+        sweep_result = sweep_sizes(design, lib, region, project.board, progress=progress, user_board=cavity.board)
+    return cavity, region, items, fit, sweep_result, [*cw, *rw, *_fit_findings(fit)]
 
 
 def _fit_findings(fit: FitResult) -> list[Finding]:

@@ -76,6 +76,8 @@ def _scan_lines(text: str) -> dict[str, int]:
     depth = 0  # bracket / brace depth of an unfinished value
     in_ml: str | None = None  # inside a multi-line string: its delimiter
     array_counts: dict[str, int] = {}
+    array_key: str | None = None  # the key whose multi-line array is open
+    elements = 0  # inline tables seen so far in that array
     for no, raw in enumerate(text.splitlines(), start=1):
         line = raw
         if in_ml:
@@ -100,6 +102,7 @@ def _scan_lines(text: str) -> dict[str, int]:
                 keys = table + _split_dotted(k.group(1))
                 lines.setdefault(".".join(keys), no)
                 rest = line[k.end():]
+                array_key, elements = ".".join(keys), 0
             else:
                 rest = line
         else:
@@ -125,6 +128,9 @@ def _scan_lines(text: str) -> dict[str, int]:
                 i = j + 1
                 continue
             if c in "[{":
+                if c == "{" and depth == 1 and array_key is not None:
+                    lines.setdefault(f"{array_key}[{elements}]", no)  # KEY[i]: i-th inline table
+                    elements += 1
                 depth += 1
             elif c in "]}":
                 depth = max(0, depth - 1)

@@ -46,6 +46,7 @@ import shutil
 import signal
 import stat
 import tempfile
+import threading
 from contextlib import contextmanager
 from pathlib import Path
 from typing import Iterable, Iterator, Mapping
@@ -71,6 +72,7 @@ def write_all(
     files: Mapping[str, bytes],
     *,
     protect: Iterable[str | os.PathLike] = (),
+    manifest: bool = True,
 ) -> list[Path]:
     """Replace the output folder ``out_dir`` with the set ``files`` in one step.
 
@@ -83,6 +85,9 @@ def write_all(
         Plain file names (no folders) and their complete contents.
     protect : iterable of paths
         The user's input files; a folder holding any of them is refused.
+    manifest : bool
+        Write the manifest beside the files (``False`` for a folder that is
+        not an output set, such as a starter project).
 
     Returns
     -------
@@ -106,11 +111,11 @@ def write_all(
     _check_names(out, names)
     _check_folder(out, protect)
     _check_owned(out, set(names))
-    with _signals_held():  # an interrupt is acted on only between steps: see _stop_requested
-        swapped = _write_and_swap(out, files, names)
+    with _signals_held() as stop:  # an interrupt is acted on only between steps
+        swapped = _write_and_swap(out, files, names, manifest, stop)
     if not swapped:  # stopped by a signal whose handler did not end the program
         raise OutputError(str(out), "stopped before the new files were in place; the previous files are unchanged")
-    return [out / n for n in sorted([*names, MANIFEST])]
+    return [out / n for n in sorted([*names, *([MANIFEST] if manifest else [])])]
 
 
 def manifest_bytes(files: Mapping[str, bytes]) -> bytes:
@@ -229,10 +234,12 @@ def _mode(out: Path) -> int:
         return 0o777 & ~mask
 
 
-def _fill(stage: Path, files: Mapping[str, bytes], names: list[str], mode: int) -> None:
-    """Write every file, the manifest last, each flushed to disk; stop early on an interrupt."""
-    for name, data in [*((n, files[n]) for n in names), (MANIFEST, manifest_bytes(files))]:
-        if _stop_requested():
+def _fill(stage: Path, files: Mapping[str, bytes], names: list[str], mode: int, manifest: bool,
+          stop: list[int]) -> None:
+    """Write every file, the manifest last (when asked), each flushed to disk; stop early on an interrupt."""
+    last = [(MANIFEST, manifest_bytes(files))] if manifest else []
+    for name, data in [*((n, files[n]) for n in names), *last]:
+        if stop:
             raise _Stopped
         fd = os.open(stage / name, os.O_WRONLY | os.O_CREAT | os.O_EXCL | os.O_NOFOLLOW, 0o666)
         try:
@@ -246,28 +253,38 @@ def _fill(stage: Path, files: Mapping[str, bytes], names: list[str], mode: int) 
 
 
 @contextmanager
-def _signals_held() -> Iterator[None]:
-    """Hold back interrupt signals; they are delivered when the block ends."""
-    old = signal.pthread_sigmask(signal.SIG_BLOCK, _HELD)
+def _signals_held() -> Iterator[list[int]]:
+    """Hold back interrupt signals; yields the list they are recorded in; the first is delivered at the end.
+
+    A Python-level handler records the signal instead of blocking it with a
+    signal mask: a mask covers only the calling thread, and a process-wide
+    signal taken by another thread would still interrupt the swap. Outside
+    the main thread (where handlers cannot be set) the block runs as is.
+    """
+    got: list[int] = []
+    if threading.current_thread() is not threading.main_thread():
+        yield got
+        return
+    old = {s: signal.signal(s, lambda n, _frame: got.append(n)) for s in _HELD}
     try:
-        yield
+        yield got
     finally:
-        signal.pthread_sigmask(signal.SIG_SETMASK, old)
-
-
-def _stop_requested() -> bool:
-    """Whether an interrupt signal is waiting (held back by :func:`_signals_held`)."""
-    return bool(signal.sigpending() & set(_HELD))
+        for s, handler in old.items():
+            signal.signal(s, handler if handler is not None else signal.SIG_DFL)
+        if got:
+            signal.raise_signal(got[0])
 
 
 class _Stopped(Exception):
     """An interrupt arrived before the swap: the new set is dropped, the old one stays."""
 
 
-def _write_and_swap(out: Path, files: Mapping[str, bytes], names: list[str]) -> bool:
+def _write_and_swap(out: Path, files: Mapping[str, bytes], names: list[str], manifest: bool,
+                    stop: list[int]) -> bool:
     """Write the new set beside ``out`` and swap it in, with interrupt signals held.
 
-    A waiting interrupt is checked between files and just before the swap: if
+    ``stop`` records the interrupts that came (:func:`_signals_held`); it is
+    checked between files and just before the swap: if
     one came, the new set is deleted and nothing else changes; the signal is
     delivered when the caller's block ends (so Ctrl-C still stops the run).
     Returns whether the new set was swapped in.
@@ -279,8 +296,8 @@ def _write_and_swap(out: Path, files: Mapping[str, bytes], names: list[str]) -> 
         raise OutputError(str(out), f"cannot create the output folder ({exc.strerror or exc})") from None
     old = None
     try:
-        _fill(stage, files, names, _mode(out))
-        if _stop_requested():
+        _fill(stage, files, names, _mode(out), manifest, stop)
+        if stop:
             raise _Stopped
         old = _swap_in(stage, out)
     except _Stopped:
