@@ -79,6 +79,9 @@ nav a { color: inherit; margin-right: .9rem; }
 .tip { position: fixed; z-index: 10; pointer-events: none; background: #fff; border: 1px solid var(--ink);
        border-radius: .25rem; padding: .3rem .5rem; font-size: .85rem; max-width: 22rem; }
 figure svg { touch-action: none; }
+.wide { overflow-x: auto; }
+table.order { font-size: .85rem; }
+table.order td:nth-child(3) { white-space: nowrap; }
 svg.hide-zones .depth-zones, svg.hide-zones .cavity-floor, svg.hide-keepouts .keepouts,
 svg.hide-courtyards .placements, svg.hide-labels .labels { display: none; }
 svg .net-hit path { fill: #f2c200; fill-opacity: .9; stroke: #6b5200; }
