@@ -17,8 +17,11 @@ from __future__ import annotations
 
 import json
 import os
+import signal
 import sys
-from typing import Any
+import threading
+from contextlib import contextmanager
+from typing import Any, Iterator
 
 import click
 
@@ -28,10 +31,41 @@ from .errors import SnugboardError
 _SEV_MARK = {"error": "error", "warning": "warning", "info": "note"}
 
 
+class _Stopped(KeyboardInterrupt):
+    """SIGTERM or SIGHUP, raised like Ctrl-C so that every clean-up on the way out runs."""
+
+    def __init__(self, signum: int) -> None:
+        super().__init__(signum)
+        self.signum = signum
+
+
+def _raise_stopped(signum: int, _frame: Any) -> None:
+    raise _Stopped(signum)
+
+
+@contextmanager
+def _stoppable() -> Iterator[None]:
+    """SIGTERM and SIGHUP end the command as Ctrl-C does (the main thread only; restored after)."""
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    saved = {s: signal.signal(s, _raise_stopped) for s in (signal.SIGTERM, signal.SIGHUP)}
+    try:
+        yield
+    finally:
+        for s, h in saved.items():
+            signal.signal(s, h)
+
+
 class _Group(click.Group):
     def invoke(self, ctx: click.Context) -> Any:
         try:
-            return super().invoke(ctx)
+            with _stoppable():
+                return super().invoke(ctx)
+        except KeyboardInterrupt as exc:
+            signum = getattr(exc, "signum", signal.SIGINT)
+            click.echo("snugboard: stopped; the output folder keeps its previous files", err=True)
+            ctx.exit(128 + signum)
         except SnugboardError as exc:
             if ctx.meta.get("snugboard.json"):
                 click.echo(json.dumps({"exit_status": exc.exit_status, "error": str(exc),
@@ -175,7 +209,7 @@ def _echo_verdict(verdict, err: bool) -> None:
 @click.option("-v", "--verbose", is_flag=True, help="Also show notes (info findings).")
 @click.pass_context
 def check_cmd(ctx: click.Context, design_file: str, parts_map: str | None, as_json: bool, verbose: bool) -> None:
-    """Check a design file alone: read it, build the graph, run the connection and value checks."""
+    """Check a design file alone: connections, values and declared blocks (everything but the fit)."""
     from pathlib import Path
 
     from .project import check_design
@@ -259,7 +293,7 @@ def packages_cmd(ctx: click.Context, names: tuple[str, ...], as_json: bool) -> N
 
     ctx.meta["snugboard.json"] = as_json
     lib = load_library()
-    pkgs = _lookup(lib.package, names) if names else list(lib.packages())
+    pkgs = [lib.package(n) for n in names] if names else list(lib.packages())
     if as_json:
         click.echo(json.dumps([_package_dict(p) for p in pkgs], indent=2))
         return
@@ -271,16 +305,6 @@ def packages_cmd(ctx: click.Context, names: tuple[str, ...], as_json: bool) -> N
                    f"{p.height_mm:>7.2f}{p.land_length_mm:>7.2f}x{p.land_width_mm:<5.2f}  {cy}")
         if names:
             click.echo(f"  aliases: {', '.join(p.aliases) or '-'}; source: {p.source}")
-
-
-def _lookup(find, names: tuple[str, ...]) -> list:
-    """Library entries by name; an unknown name is bad input naming the closest ones."""
-    from .errors import LibraryError
-
-    try:
-        return [find(n) for n in names]
-    except KeyError as exc:
-        raise LibraryError("footprints", str(exc.args[0]) if exc.args else "unknown name") from None
 
 
 def _package_dict(p) -> dict[str, Any]:
@@ -302,7 +326,7 @@ def kinds_cmd(ctx: click.Context, names: tuple[str, ...], as_json: bool) -> None
 
     ctx.meta["snugboard.json"] = as_json
     lib = load_library()
-    kinds = _lookup(lib.kind, names) if names else list(lib.kinds())
+    kinds = [lib.kind(n) for n in names] if names else list(lib.kinds())
     if as_json:
         click.echo(json.dumps([{"name": k.name, "category": k.category, "value_unit": k.value_unit,
                                 "pins_from_package": k.pins_from_package, "source": k.source,

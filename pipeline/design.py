@@ -180,11 +180,7 @@ def _read_kinds(src: TomlSource, table: dict, library: Any) -> tuple[list[PartKi
         key = f"kinds.{kname}"
         body = _expect_table(src, key, body)
         _unknown(src, key, body, _KIND_KEYS)
-        try:
-            library.kind(kname)
-        except KeyError:
-            pass
-        else:
+        if library.has_kind(kname):
             raise _err(src, key, f"kind '{kname}' already exists in the library; give yours another name")
         category = _expect_str(src, f"{key}.category", body.get("category", "ic"))
         if category not in KIND_CATEGORIES:
@@ -215,8 +211,8 @@ def _read_kinds(src: TomlSource, table: dict, library: Any) -> tuple[list[PartKi
             pins.append(PinDef(number, pname, role))
         desc = _expect_str(src, f"{key}.description", body.get("description", ""))
         default_pkg = _expect_str(src, f"{key}.package", body.get("package", ""))
-        if default_pkg and not library.has_package(default_pkg):
-            raise _err(src, f"{key}.package", _package_reason(library, default_pkg))
+        if default_pkg:
+            library.package(default_pkg, **_at(src, f"{key}.package"))
         out.append(PartKind(
             name=kname, category=category, pins=tuple(pins), value_unit=unit,
             description=desc, source=f"defined in {src.display}" + (f"; default package {default_pkg}" if default_pkg else ""),
@@ -225,13 +221,9 @@ def _read_kinds(src: TomlSource, table: dict, library: Any) -> tuple[list[PartKi
     return out, defaults
 
 
-def _package_reason(library: Any, name: str) -> str:
-    try:
-        library.package(name)
-    except KeyError as exc:
-        msg = exc.args[0] if exc.args else f"unknown package '{name}'"
-        return str(msg)
-    return ""
+def _at(src: TomlSource, key: str) -> dict[str, Any]:
+    """Where a library lookup reports an unknown name: this file, at ``key``."""
+    return {"file": src.display, "line": src.line(key), "key": key}
 
 
 def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dict[str, str]) -> Part:
@@ -243,19 +235,13 @@ def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dic
     if "kind" not in body:
         raise _err(src, f"{key}.kind", "every part needs a kind, e.g. kind = \"resistor\"")
     kname = _expect_str(src, f"{key}.kind", body["kind"])
-    try:
-        kind = lib.kind(kname)
-    except KeyError as exc:
-        raise _err(src, f"{key}.kind", str(exc.args[0]) if exc.args else f"unknown kind '{kname}'") from None
+    kind = lib.kind(kname, **_at(src, f"{key}.kind"))
 
     pkg_name = body.get("package") or default_pkgs.get(kname, "")
     if not pkg_name:
         raise _err(src, f"{key}.package", "every part needs a package, e.g. package = \"0603\"")
     pkg_name = _expect_str(src, f"{key}.package", pkg_name)
-    try:
-        package = lib.package(pkg_name)
-    except KeyError as exc:
-        raise _err(src, f"{key}.package", str(exc.args[0]) if exc.args else f"unknown package '{pkg_name}'") from None
+    package = lib.package(pkg_name, **_at(src, f"{key}.package"))
     pins = tuple(lib.pins_for(kind, package))
     if not kind.pins_from_package and package.pin_count and package.pin_count != len(pins):
         raise _err(src, f"{key}.package",
@@ -371,11 +357,16 @@ def _read_voltages(src: TomlSource, table: dict, nets: dict) -> dict[str, tuple[
     return out
 
 
+#: the largest net voltage a design may declare, either sign (100 kV: far above any board this tool
+#: sizes; it keeps figures derived from it finite). Common practice, not a standard.
+MAX_VOLTS = 1e5
+
+
 def _volts(src: TomlSource, key: str, spec: Any) -> float:
     if isinstance(spec, bool):
         raise _err(src, key, "expected a voltage such as \"3.3V\"")
     if isinstance(spec, (int, float)):
-        return float(spec)
+        return float(src.number(key, spec, DesignError, lo=-MAX_VOLTS, hi=MAX_VOLTS))
     text = _expect_str(src, key, spec)
     t = text.rstrip()
     if t[-1:] in "vV":
@@ -385,4 +376,4 @@ def _volts(src: TomlSource, key: str, spec: Any) -> float:
         v = _values.parse_value(t.strip().lstrip("-"), "")
     except ValueError:
         raise _err(src, key, f"'{text}' is not a voltage; write e.g. \"3.3V\" or \"-5V\"") from None
-    return -v if neg else v
+    return float(src.number(key, -v if neg else v, DesignError, lo=-MAX_VOLTS, hi=MAX_VOLTS))

@@ -23,6 +23,7 @@ __all__ = [
     "DesignError",
     "CavityError",
     "LibraryError",
+    "UnknownNameError",
     "OutputError",
 ]
 
@@ -119,6 +120,22 @@ class CavityError(InputError):
 
 class LibraryError(InputError):
     """Bad footprint or part-kind data under ``footprints/``."""
+
+
+class UnknownNameError(LibraryError, DesignError):
+    """A package, kind or density level the library does not know.
+
+    Raised where the name was written (a design file and key, the command
+    line); ``name`` is what was asked for, ``suggestions`` the closest known
+    names, already part of the message. It is a design error as much as a
+    library one, so callers need not translate it.
+    """
+
+    def __init__(self, file: str, reason: str, *, name: str = "",
+                 suggestions: tuple[str, ...] = (), **where: object) -> None:
+        self.name = name
+        self.suggestions = tuple(suggestions)
+        super().__init__(file, reason, **where)  # type: ignore[arg-type]
 
 
 class OutputError(SnugboardError):

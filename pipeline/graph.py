@@ -33,7 +33,7 @@ from __future__ import annotations
 
 import networkx as nx
 
-from .model import Design
+from .model import Design, Net, PinRef
 from .order import natural_key
 
 __all__ = [
@@ -47,7 +47,37 @@ __all__ = [
     "pin_nets",
     "unconnected_pins",
     "connected_groups",
+    "GROUND_NAMES",
+    "is_ground",
+    "pin_net_map",
 ]
+
+#: Net names that mean ground (0 V when a net declares no voltage), compared
+#: without regard to case; ``0`` is the SPICE ground node (ngspice manual,
+#: "circuit description": node 0 is ground).
+GROUND_NAMES = frozenset({"GND", "AGND", "DGND", "PGND", "0"})
+
+
+def is_ground(name: str) -> bool:
+    """True for a ground net name (:data:`GROUND_NAMES`, any case).
+
+    >>> is_ground("agnd"), is_ground("0"), is_ground("VCC")
+    (True, True, False)
+    """
+    return name.upper() in GROUND_NAMES
+
+
+def pin_net_map(design: Design) -> dict[PinRef, list[Net]]:
+    """Every connected pin -> the nets it is on, in design order. Cost O(pins).
+
+    A pin listed on two nets (a check finding) maps to both; callers that
+    want one take the first.
+    """
+    out: dict[PinRef, list[Net]] = {}
+    for net in design.nets:
+        for p in net.pins:
+            out.setdefault(p, []).append(net)
+    return out
 
 
 def part_node(ref: str) -> tuple[str, str]:

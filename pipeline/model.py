@@ -17,9 +17,16 @@ from typing import TYPE_CHECKING, Any, Literal
 if TYPE_CHECKING:  # geometry types only annotate: importing shapely here would slow every command's start
     from shapely.geometry.base import BaseGeometry
 
+from .codes import allowed
+from .values import round_sig as _sig
+
 Severity = Literal["error", "warning", "info"]
 Side = Literal["top", "bottom"]
 Density = Literal["most", "nominal", "least"]
+
+#: IPC-7351B density levels, in the order A (most), B (nominal), C (least):
+#: the one list of level names (project.toml, the library, the area stage).
+DENSITY_LEVELS: tuple[str, ...] = ("most", "nominal", "least")
 
 #: Electrical roles a pin may have (DEVELOPERS.md, "Part kinds").
 PIN_ROLES = (
@@ -52,6 +59,11 @@ class Finding:
     check: str
     subject: tuple[str, ...]
     message: str
+
+    def __post_init__(self) -> None:
+        if not allowed(self.check, self.severity):
+            raise AssertionError(f"finding code {self.check!r} with severity {self.severity!r} is not in "
+                                 "pipeline/codes.py (add it there and to README)")
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -419,3 +431,176 @@ class FitResult:
     unplaced: tuple[str, ...] = ()
     wirelength_mm: float = 0.0
     warnings: tuple[Finding, ...] = ()
+
+
+# --------------------------------------------------------------------------
+# Declared circuit blocks: what pipeline.circuit reports about each one.
+# SI units (Hz, V, A, W, ohm, F); tolerances and shares as fractions.
+# --------------------------------------------------------------------------
+@dataclass(frozen=True)
+class Target:
+    """A figure's target: the text written, the aim and the allowed range."""
+
+    figure: str
+    text: str
+    aim: float
+    lo: float
+    hi: float
+
+    @property
+    def half(self) -> float:
+        return (self.hi - self.lo) / 2.0
+
+    def contains(self, x: Any) -> Any:
+        """True where ``x`` (a number or numpy array) lies in ``[lo, hi]`` (a hair of float slack)."""
+        import numpy as np
+
+        eps = 1e-12 * max(abs(self.lo), abs(self.hi))
+        x = np.asarray(x, dtype=float)
+        return (x >= self.lo - eps) & (x <= self.hi + eps)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"text": self.text, "aim": _sig(self.aim), "lo": _sig(self.lo), "hi": _sig(self.hi)}
+
+
+@dataclass(frozen=True)
+class RolePart:
+    """A part playing a role in a block: its value (SI) and tolerance (fraction)."""
+
+    role: str
+    ref: str
+    kind: str
+    value: float | None
+    value_text: str
+    tolerance: float | None
+    tolerance_assumed: bool
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "role": self.role, "ref": self.ref, "kind": self.kind, "value": _sig(self.value),
+            "value_text": self.value_text, "tolerance": _sig(self.tolerance),
+            "tolerance_assumed": self.tolerance_assumed,
+        }
+
+
+@dataclass(frozen=True)
+class FigureReport:
+    """One figure of a block: nominal, target, corner extremes, percentiles."""
+
+    name: str
+    unit: str
+    label: str
+    nominal: float
+    target: Target | None
+    corner_min: float
+    corner_max: float
+    p01: float | None
+    p50: float | None
+    p99: float | None
+    share_out: float | None
+    passes: bool | None
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "name": self.name, "unit": self.unit, "label": self.label,
+            "nominal": _sig(self.nominal),
+            "target": self.target.to_dict() if self.target else None,
+            "corners": {"min": _sig(self.corner_min), "max": _sig(self.corner_max)},
+            "monte_carlo": {"p1": _sig(self.p01), "p50": _sig(self.p50), "p99": _sig(self.p99)},
+            "share_out": _sig(self.share_out, 4),
+            "passes": self.passes,
+        }
+
+
+@dataclass(frozen=True)
+class Proposal:
+    """A retune proposal: preferred values per role and what they give.
+
+    ``error`` is the sum over targets of ((figure - aim) / half-width)^2;
+    ``share_out`` the Monte Carlo share of builds (same tolerances, same
+    seed) missing some target.
+    """
+
+    values: tuple[tuple[str, str, float], ...]      # (role, ref, value)
+    figures: tuple[tuple[str, float], ...]
+    error: float
+    passes: bool
+    share_out: float | None
+    changed: tuple[str, ...]
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "values": [{"role": r, "ref": ref, "value": _sig(v)} for r, ref, v in self.values],
+            "figures": {k: _sig(v) for k, v in self.figures},
+            "error": _sig(self.error, 4),
+            "passes": self.passes,
+            "share_out": _sig(self.share_out, 4),
+            "changed": list(self.changed),
+        }
+
+
+@dataclass(frozen=True)
+class Response:
+    """Frequency response (dB) at ``f_hz``: nominal and corner envelope."""
+
+    f_hz: tuple[float, ...]
+    nominal_db: tuple[float, ...]
+    low_db: tuple[float, ...]
+    high_db: tuple[float, ...]
+    f0_hz: float
+    f3db_hz: float
+    passband_db: float
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "f_hz": [_sig(v) for v in self.f_hz],
+            "nominal_db": [_sig(v, 5) for v in self.nominal_db],
+            "low_db": [_sig(v, 5) for v in self.low_db],
+            "high_db": [_sig(v, 5) for v in self.high_db],
+            "f0_hz": _sig(self.f0_hz), "f3db_hz": _sig(self.f3db_hz), "passband_db": _sig(self.passband_db),
+        }
+
+
+@dataclass(frozen=True)
+class BlockReport:
+    """Everything the analysis found about one declared circuit block."""
+
+    name: str
+    type: str
+    key: str
+    parts: tuple[RolePart, ...]
+    settings: tuple[tuple[str, float], ...]
+    options: tuple[tuple[str, str], ...]
+    figures: tuple[FigureReport, ...]
+    draws: int
+    seed: int
+    share_out: float | None
+    passes: bool | None
+    response: Response | None
+    series: tuple[tuple[str, str], ...]
+    proposals: tuple[Proposal, ...]
+    assumptions: tuple[str, ...]
+    note: str = ""
+
+    distribution = "uniform within +-tolerance, parts independent"
+
+    def figure(self, name: str) -> FigureReport:
+        for f in self.figures:
+            if f.name == name:
+                return f
+        raise LookupError(name)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "name": self.name, "type": self.type, "key": self.key, "note": self.note,
+            "parts": [p.to_dict() for p in self.parts],
+            "settings": {k: _sig(v) for k, v in self.settings},
+            "options": dict(self.options),
+            "figures": [f.to_dict() for f in self.figures],
+            "monte_carlo": {"draws": self.draws, "seed": self.seed,
+                            "distribution": self.distribution, "share_out": _sig(self.share_out, 4)},
+            "passes": self.passes,
+            "response": self.response.to_dict() if self.response else None,
+            "retune": {"series": dict(self.series), "proposals": [p.to_dict() for p in self.proposals]},
+            "assumptions": list(self.assumptions),
+        }

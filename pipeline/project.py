@@ -22,6 +22,10 @@ board      layers (2), thickness_mm (0.8), sides (1), density ("nominal"),
 cavity     depth_mm (5.0), units ("mm"), layers (role map), chord_tolerance_mm (0.02)
 order      boards (1), spares_percent (0), min_spares (0), multiple (1)
 analysis   draws (10000), seed (1)
+limits     spice_file_bytes, spice_include_splices, spice_expansion_parts,
+           expression_depth (defaults in pipeline/spice/limits.py; README "Limits")
+copper     route (true), track_width_mm, clearance_mm, via_diameter_mm, via_drill_mm,
+           edge_clearance_mm, vias_in_pads (false), areas, currents, ... (pipeline.route.rules)
 =========  ====================================================================
 """
 
@@ -34,7 +38,9 @@ from pathlib import Path
 from typing import Any, Callable
 
 from .errors import ProjectError
-from .model import BoardOptions, Design, FitResult, Finding, OrderOptions
+from .model import DENSITY_LEVELS, BoardOptions, Design, FitResult, Finding, OrderOptions
+from .spice.limits import DEFAULTS as SPICE_LIMITS
+from .route.rules import COPPER_KEYS, CopperRules, read_copper
 from .tomlsrc import TomlSource, load
 
 __all__ = ["Project", "RunResult", "load_project", "run", "check_design", "inspect_cavity", "read_any_design",
@@ -42,7 +48,6 @@ __all__ = ["Project", "RunResult", "load_project", "run", "check_design", "inspe
 
 SPICE_SUFFIXES = (".cir", ".sp", ".spice", ".net")
 UNITS = ("mm", "cm", "m", "inch", "in", "foot", "ft", "mil", "um")
-DENSITIES = ("most", "nominal", "least")
 STANDARD_THICKNESS = (0.4, 0.6, 0.8, 1.0, 1.2, 1.6, 2.0)  # REFERENCES.md section 4, common practice
 
 Progress = Callable[[str, float], None]
@@ -54,6 +59,8 @@ _KEYS: dict[str, tuple[str, ...]] = {
     "cavity": ("depth_mm", "units", "layers", "chord_tolerance_mm"),
     "order": ("boards", "spares_percent", "min_spares", "multiple"),
     "analysis": ("draws", "seed"),
+    "limits": tuple(SPICE_LIMITS),  # README "Limits"; each a whole number >= 1
+    "copper": COPPER_KEYS,
 }
 
 
@@ -82,6 +89,8 @@ class Project:
     draws: int = 10000
     seed: int = 1
     warnings: tuple[Finding, ...] = ()
+    limits: tuple[tuple[str, int], ...] = ()  # [limits] keys given, sorted
+    copper: CopperRules = CopperRules()
 
 
 @dataclass(frozen=True)
@@ -100,23 +109,12 @@ class RunResult:
 
 
 # --------------------------------------------------------------------------
-def _num(src: TomlSource, key: str, v: Any, *, integer: bool = False, lo: float | None = None,
-         hi: float | None = None, lo_open: bool = False) -> Any:
-    if isinstance(v, bool) or not isinstance(v, (int, float)) or (integer and not isinstance(v, int)):
-        raise src.error(key, f"expected {'a whole number' if integer else 'a number'}, found {v!r}", ProjectError)
-    if lo is not None and (v < lo or (lo_open and v == lo)):
-        raise src.error(key, f"must be {'above' if lo_open else 'at least'} {lo:g}, found {v!r}", ProjectError)
-    if hi is not None and v > hi:
-        raise src.error(key, f"must be at most {hi:g}, found {v!r}", ProjectError)
-    return v
+def _num(src: TomlSource, key: str, v: Any, **checks: Any) -> Any:
+    return src.number(key, v, ProjectError, **checks)
 
 
-def _text(src: TomlSource, key: str, v: Any, choices: tuple[str, ...] | None = None) -> str:
-    if not isinstance(v, str) or not v.strip():
-        raise src.error(key, f"expected text, found {v!r}", ProjectError)
-    if choices and v not in choices:
-        raise src.error(key, f"'{v}' is not one of: {', '.join(choices)}", ProjectError)
-    return v
+def _text(src: TomlSource, key: str, v: Any, choices: tuple[str, ...] | None = None, *, path: bool = False) -> str:
+    return src.text(key, v, ProjectError, choices=choices, path=path)
 
 
 def _shown(p: Path, root: Path) -> str:
@@ -167,7 +165,7 @@ def load_project(
     an = data.get("analysis", {})
 
     def rel(key: str, value: Any) -> Path:
-        return (root / _text(src, key, value)).resolve()
+        return (root / _text(src, key, value, path=True)).resolve()
 
     if design is not None:
         design_path, design_shown = Path(design).resolve(), design
@@ -191,7 +189,7 @@ def load_project(
         layers=_num(src, "board.layers", bd.get("layers", b.layers), integer=True, lo=1, hi=64),
         thickness_mm=float(_num(src, "board.thickness_mm", bd.get("thickness_mm", b.thickness_mm), lo=0, lo_open=True, hi=10)),
         sides=_num(src, "board.sides", bd.get("sides", b.sides), integer=True, lo=1, hi=2),
-        density=_text(src, "board.density", bd.get("density", b.density), DENSITIES),
+        density=_text(src, "board.density", bd.get("density", b.density), DENSITY_LEVELS),
         edge_clearance_mm=float(_num(src, "board.edge_clearance_mm", bd.get("edge_clearance_mm", b.edge_clearance_mm), lo=0, hi=50)),
         wall_clearance_mm=float(_num(src, "board.wall_clearance_mm", bd.get("wall_clearance_mm", b.wall_clearance_mm), lo=0, hi=50)),
         outline=_text(src, "board.outline", bd.get("outline", b.outline), ("region", "rectangle")),
@@ -212,7 +210,8 @@ def load_project(
     if layer_map is not None and not isinstance(layer_map, dict):
         raise src.error("cavity.layers", "expected a table such as { CAVITY = \"Outline\", KEEPOUT = [\"Bosses\"] }",
                         ProjectError)
-    out_dir = Path(out).resolve() if out is not None else (root / "out").resolve()
+    # not resolved: a symbolic link as the output folder is refused by the writer, not followed
+    out_dir = Path(os.path.abspath(out if out is not None else root.resolve() / "out"))
     return Project(
         name=_text(src, "project.name", pj.get("name", root.resolve().name or "project")),
         root=root.resolve(),
@@ -233,17 +232,21 @@ def load_project(
         draws=_num(src, "analysis.draws", an.get("draws", 10000), integer=True, lo=100, hi=1_000_000),
         seed=_num(src, "analysis.seed", an.get("seed", 1), integer=True, lo=0),
         warnings=tuple(warnings),
+        limits=tuple(sorted((k, _num(src, f"limits.{k}", v, integer=True, lo=1))
+                            for k, v in data.get("limits", {}).items())),
+        copper=read_copper(src, data.get("copper", {}), board.layers),
     )
 
 
 # --------------------------------------------------------------------------
 def read_any_design(path: Path, library: Any, *, shown: str, parts_map: Path | None = None,
-                    root: Path | None = None) -> tuple[Design, list[Finding]]:
-    """Read a TOML design or, by its ending, a SPICE netlist."""
+                    root: Path | None = None, limits: tuple[tuple[str, int], ...] = ()) -> tuple[Design, list[Finding]]:
+    """Read a TOML design or, by its ending, a SPICE netlist (``limits``: the project's ``[limits]``)."""
     if path.suffix.lower() in SPICE_SUFFIXES:
         from .spice import read_spice
+        from .spice.limits import SpiceLimits
         return read_spice(path, library, display_name=shown, parts_map=parts_map,
-                          root=root if root is not None else path.parent)
+                          root=root if root is not None else path.parent, limits=SpiceLimits.from_table(dict(limits)))
     from .design import read_design
     return read_design(path, library, display=shown)
 
@@ -252,28 +255,34 @@ def _categories(design: Design, library: Any) -> dict[str, str]:
     return {p.kind: library.kind(p.kind).category for p in design.parts}
 
 
-def _read_and_check(path: Path, shown: str, parts_map: Path | None, root: Path | None):
-    """Read a design, build its graph and run the connection and value checks.
+def _read_and_check(path: Path, shown: str, parts_map: Path | None, root: Path | None, *,
+                    limits: tuple[tuple[str, int], ...] = (), draws: int = 10000, seed: int = 1,
+                    progress: Progress | None = None):
+    """Read a design, build its graph, run the connection and value checks and analyse its blocks.
 
-    Returns ``(design, library with the design's own kinds, findings)``.
+    Returns ``(design, library with the design's own kinds, findings, block reports)``.
     """
     from .check import check_connections
+    from .circuit import analyse_blocks
     from .graph import build_graph
     from .library import load_library
     from .ratings import check_values
 
     library = load_library()
-    design, warnings = read_any_design(Path(path), library, shown=shown, parts_map=parts_map, root=root)
+    design, warnings = read_any_design(Path(path), library, shown=shown, parts_map=parts_map, root=root,
+                                       limits=limits)
     lib = library.with_kinds(design.kinds)
     g = build_graph(design)
     findings = (*warnings, *check_connections(design, g, _categories(design, lib)), *check_values(design))
-    return design, lib, findings
+    reports, block_findings = analyse_blocks(design, draws=draws, seed=seed, progress=progress)
+    return design, lib, (*findings, *block_findings), reports
 
 
 def check_design(path: Path, *, shown: str | None = None, parts_map: Path | None = None,
                  root: Path | None = None) -> tuple[Design, tuple[Finding, ...]]:
-    """Read a design file alone and run the connection and value checks."""
-    design, _, findings = _read_and_check(Path(path), shown or str(path), parts_map, root)
+    """Read a design file alone and run every check that needs no drawing: connections, values
+    and the declared blocks (Monte Carlo with the default draws and seed of ``[analysis]``)."""
+    design, _, findings, _ = _read_and_check(Path(path), shown or str(path), parts_map, root)
     return design, tuple(findings)
 
 
@@ -318,14 +327,13 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     """
     from .export import atomic, bom, edif, netlist, results
     from .export import spice as spice_out
-    from .stages import analyse_stages, stage_sections
+    from .export.blocks import block_sections
 
     timestamp = _source_date_epoch()
-    design, lib, checked = _read_and_check(project.design_path, project.design_shown, project.parts_map,
-                                           project.root)
+    design, lib, checked, reports = _read_and_check(project.design_path, project.design_shown, project.parts_map,
+                                                    project.root, limits=project.limits, draws=project.draws,
+                                                    seed=project.seed, progress=progress)
     findings: list[Finding] = [*project.warnings, *checked]
-    reports, stage_findings = analyse_stages(design, draws=project.draws, seed=project.seed, progress=progress)
-    findings += stage_findings
 
     files: dict[str, bytes] = {}
     order_files = bom.bom_files(design, project.order)
@@ -340,7 +348,7 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     fit = None
     sweep_result = None
     extra: dict[str, Any] = {}
-    sections = list(stage_sections(reports))
+    sections = list(block_sections(reports))
     if project.cavity_path is not None:
         cavity, region, items, fit, sweep_result, fit_findings = _fit(project, design, lib, sweep, progress)
         findings += fit_findings
@@ -370,7 +378,7 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
                                                   findings=findings, fit_svg=svg, sections=sections,
                                                   verdict=verdict, order_files=order_files, board=project.board)
     status = verdict.exit_status
-    protect = [project.design_path, project.root / "project.toml"]
+    protect = [project.design_path, project.root / "project.toml", *design.inputs]
     if project.cavity_path is not None:
         protect.append(project.cavity_path)
     if project.parts_map is not None:

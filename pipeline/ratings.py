@@ -72,9 +72,11 @@ import math
 import re
 from dataclasses import dataclass
 
+from pipeline.graph import is_ground, pin_net_map
 from pipeline.model import Design, Finding, Net, Part, PinRef
 from pipeline.order import natural_key
 from pipeline.values import (
+    format_quantity,
     format_value,
     nearest_in_series,
     series_for_tolerance,
@@ -106,7 +108,6 @@ RESISTOR_POWER_FRACTION = 0.5
 
 _VALUE_UNIT = {"resistor": "ohm", "capacitor": "F", "capacitor-polarized": "F", "inductor": "H"}
 _DEFAULT_SERIES = {"resistor": "E24", "capacitor": "E12", "capacitor-polarized": "E12", "inductor": "E12"}
-_GROUND_NAMES = frozenset({"GND", "AGND", "DGND", "PGND", "0"})
 _EPS = 1e-9
 
 _TYPE_PATTERNS: tuple[tuple[str, re.Pattern[str]], ...] = (
@@ -137,19 +138,12 @@ def _show(value: float, unit: str) -> str:
     return f"{text} ohm" if unit == "ohm" else text
 
 
-def _spaced(value: float, unit: str) -> str:
-    # Three significant digits, a space before prefix and unit: "250 mW", "3.3 V".
-    m = re.match(r"(-?[\d.]+(?:e-?\d+)?)(.*)", format_value(float(f"{value:.3g}"), unit))
-    assert m is not None
-    return f"{m.group(1)} {m.group(2)}"
-
-
 def _volts(v: float) -> str:
-    return _spaced(v, "V")
+    return format_quantity(v, "V", 3)
 
 
 def _watts(w: float) -> str:
-    return _spaced(w, "W")
+    return format_quantity(w, "W", 3)
 
 
 def _pct(fraction: float) -> str:
@@ -161,7 +155,7 @@ def _net_volts(net: Net) -> tuple[float, ...] | None:
     vs = tuple(float(v) for v in (net.voltage, net.voltage_max) if v is not None)
     if vs:
         return vs
-    if net.name.upper() in _GROUND_NAMES:
+    if is_ground(net.name):
         return (0.0,)
     return None
 
@@ -173,14 +167,6 @@ class _Across:
     volts: float
     net_a: str
     net_b: str
-
-
-def _pin_nets(design: Design) -> dict[PinRef, list[Net]]:
-    out: dict[PinRef, list[Net]] = {}
-    for net in design.nets:
-        for p in net.pins:
-            out.setdefault(p, []).append(net)
-    return out
 
 
 def _across(part: Part, pin_a: str, pin_b: str, pin_nets: dict[PinRef, list[Net]]) -> _Across | None:
@@ -514,7 +500,7 @@ def check_values(design: Design) -> tuple[Finding, ...]:
     >>> [f.check for f in check_values(Design("d", "A", "d.toml", (r1,), nets))]
     ['values.series', 'ratings.resistor-power']
     """
-    pin_nets = _pin_nets(design)
+    pin_nets = pin_net_map(design)
     head = _caution(design) + _no_voltages(design)
     per_part: list[tuple[tuple, list[Finding]]] = []
     in_series: list[Finding] = []

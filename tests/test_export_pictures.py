@@ -397,8 +397,8 @@ def _check_html(data: bytes) -> _Checker:
 FINDINGS = (
     Finding("warning", "values.off-series", ("R7",), "R7 is 4.75k <not in E24> & 'off' \"series\"."),
     Finding("error", "connect.single-pin-net", ("N1",), "Net N1 has one pin <script>alert(1)</script>."),
-    Finding("info", "ratings.none", ("C3",), "C3 has no voltage rating."),
-    Finding("warning", "fit.tall", ("U1",), "U1 is taller than the rib allows."),
+    Finding("info", "ratings.missing", ("C3",), "C3 has no voltage rating."),
+    Finding("warning", "fit.tight", ("U1",), "U1 is taller than the rib allows."),
 )
 
 
@@ -478,7 +478,7 @@ def test_report_area_figures_placements_and_sections():
 
 def test_report_adds_fit_warnings_once():
     cav, reg, fit = _scene()
-    w = Finding("warning", "place.edge", ("J1",), "J1 sits at the board edge.")
+    w = Finding("warning", "fit.tight", ("J1",), "J1 sits at the board edge.")
     fit = FitResult(fit.fits, fit.region_area_mm2, fit.courtyard_area_mm2, fit.estimate, fit.placements,
                     fit.board_outline, fit.blocked_by, warnings=(w,))
     once = report_html(title="t", fit=fit, findings=(w,), fit_svg=None)

@@ -1,4 +1,4 @@
-"""Tests of pipeline/library.py and the footprints/ data.
+"""Tests of pipeline/library/ and the footprints/ data.
 
 Reference figures are typed here from /work/shared/REFERENCES.md (which names
 the published tables they come from) and CONTRACT.md section 2, not read from
@@ -15,7 +15,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from pipeline.errors import LibraryError
+from pipeline.errors import LibraryError, UnknownNameError
 from pipeline.library import (
     DEFAULT_ROOT,
     LEVELS,
@@ -313,7 +313,7 @@ def test_density_level_names(text, level):
 
 @pytest.mark.parametrize("bad", ["", "D", "medium", "max"])
 def test_bad_density_level(lib, bad):
-    with pytest.raises(KeyError, match="most, nominal or least"):
+    with pytest.raises(UnknownNameError, match="most, nominal or least"):
         courtyard(lib.package("0603"), bad)
 
 
@@ -546,7 +546,7 @@ def test_aliases(lib, alias, name):
      ("", "empty package name"), ("resistor", "unknown package 'resistor'")],
 )
 def test_bad_package_names(lib, bad, hint):
-    with pytest.raises(KeyError) as info:
+    with pytest.raises(UnknownNameError) as info:
         lib.package(bad)
     assert hint in str(info.value)
     assert not lib.has_package(bad)
@@ -555,7 +555,7 @@ def test_bad_package_names(lib, bad, hint):
 @pytest.mark.parametrize("bad,hint", [("resister", "resistor"), ("opamp", "opamp-single"),
                                       ("comparator", "comparator-dual"), ("LDO", "unknown part kind")])
 def test_bad_kind_names(lib, bad, hint):
-    with pytest.raises(KeyError) as info:
+    with pytest.raises(UnknownNameError) as info:
         lib.kind(bad)
     assert hint in str(info.value)
 

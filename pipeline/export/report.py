@@ -161,7 +161,7 @@ def report_html(
     --------
     >>> from pipeline.model import Finding
     >>> page = report_html(title="Demo <1>", fit=None,
-    ...                    findings=[Finding("warning", "x.y", ("R1",), "Check R1 & R2.")], fit_svg=None)
+    ...                    findings=[Finding("warning", "connect.case-clash", ("R1",), "Check R1 & R2.")], fit_svg=None)
     >>> b"Needs attention" in page and b"Check R1 &amp; R2." in page and b"Demo &lt;1&gt;" in page
     True
     """

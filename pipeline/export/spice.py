@@ -197,7 +197,10 @@ def _kv(key: str, value: Any) -> str:
     text = str(value)
     if text and _BARE_RE.match(text) and text[0] != '"':
         return f"{key}={text}"
-    return f"{key}={json.dumps(text, ensure_ascii=True)}"
+    # JSON escapes every control character but DEL; escape that too, so that a record
+    # is printable ASCII on one line whatever the user wrote.
+    quoted = json.dumps(text, ensure_ascii=True).replace("\x7f", "\\u007f")
+    return f"{key}={quoted}"
 
 
 def _record(kind: str, pairs: Iterable[tuple[str, Any]]) -> str:
@@ -206,6 +209,7 @@ def _record(kind: str, pairs: Iterable[tuple[str, Any]]) -> str:
 
 
 def _ascii(text: str) -> str:
+    """``text`` as printable ASCII: any other character (a newline above all) becomes ``?``."""
     return "".join(ch if (ch.isascii() and ch.isprintable()) else "?" for ch in text)
 
 
@@ -329,7 +333,7 @@ def _stub(kind: str, pins: tuple[PinDef, ...], subname: str) -> list[str]:
     for i, pt in enumerate(ports, start=1):
         if pt not in used_ports:
             body.append(f"RS{i} {pt} 0 {_SUPPLY_LOAD if pt in (vpos, vneg) else _OPEN}")
-    lines.append(f"* {kind}: {note}")
+    lines.append(f"* {_ascii(kind)}: {note}")  # a user's kind name: one comment line whatever it holds
     lines.append(f".subckt {subname} {' '.join(ports)}{params}")
     lines += body
     lines.append(f".ends {subname}")
@@ -387,8 +391,9 @@ def spice_netlist(design: Design) -> bytes:
         except (TypeError, ValueError):
             out.append(f"* stage {_ascii(st.name)}: its table holds values JSON cannot carry; not recorded")
             continue
-        out.append(_record("stage", [("name", st.name), ("file", st.file), ("key", st.key), ("line", str(st.line)),
-                                     ("items", items)]))
+        # No file or line: the reader locates a stage record in the file it reads
+        # (and the design's own path would put a path into the output).
+        out.append(_record("stage", [("name", st.name), ("key", st.key), ("items", items)]))
 
     out.append("*")
     out.append("* Nets")
