@@ -3,11 +3,13 @@
 Entry point: :func:`fit_svg`.
 
 What it shows, bottom to top: the cavity floor shaded by its default depth,
-the depth zones shaded by their depth (clipped to the cavity), the keep-outs
-(hatched), the cavity outline, the usable board region (dashed), the board
-outline, the placed courtyards (bottom side dashed, top side solid) labelled
-by ref, then a title, a legend (one entry per depth), a scale bar and, when
-the design does not fit, the parts that found no room.
+the depth zones shaded by their depth (clipped to the cavity; shades of
+grey, so that no depth can be read as copper, which is drawn warm), the
+keep-outs (hatched), the cavity outline, the usable board region (dashed),
+the board outline, the placed courtyards (bottom side dashed, top side
+solid), the labels layer, then a header (title, the run's verdict line,
+figures, source), a legend (one entry per depth), a scale bar and, when the
+design does not fit, the parts that found no room.
 
 Coordinates
 -----------
@@ -26,15 +28,17 @@ and courtyards are drawn in a sorted order; all user text (title, source,
 refs) is XML-escaped, and characters XML 1.0 cannot hold are replaced by
 U+FFFD.
 
-Labels: a courtyard's ref is written across its longer fitting direction at
-the largest size that fits (estimated advance 0.62 em per character for a
-sans-serif face, from memory of common sans-serif metrics), capped at
-3.5 mm on paper and at 0.8 of the courtyard side it stands across. A label that
-would come out under 1.5 mm on paper, or would overlap a label already
-placed (top-side labels go first), is left out and its ref listed in the
-legend instead (the legend's lists of unlabelled and unplaced refs are
-cut at a few lines and the rest counted). Every courtyard also carries its
-ref, side and rotation as an SVG ``<title>`` (shown on hover).
+Labels (:func:`place_labels`): a courtyard's ref is written inside it, across
+its longer fitting direction at the largest size that fits (estimated
+advance 0.62 em per character for a sans-serif face, from memory of common
+sans-serif metrics), capped at 3.5 mm on paper and at 0.8 of the courtyard
+side it stands across. A part whose label would come out under 1.5 mm on
+paper, or would overlap a label already placed (top-side labels go first),
+gets a leader label beside it instead; only a part with no free spot
+anywhere near is listed in the legend. No two labels overlap. Every
+courtyard carries its ref, value, package, height, side, rotation and nets
+as an SVG ``<title>`` (shown on hover) and as ``data-*`` attributes (read by
+the report's script).
 
 Bottom-side courtyards are drawn as seen from the top, through the board
 (not mirrored), dashed, under the top-side ones.
