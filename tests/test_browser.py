@@ -12,6 +12,7 @@ The screenshot of the report is kept in pytest's temporary folder of the run
 
 from __future__ import annotations
 
+import csv
 import shutil
 from pathlib import Path
 
@@ -110,7 +111,7 @@ def test_hover_shows_the_part_facts(page):
     assert _errors(page) == []
 
 
-def test_clicking_a_net_lights_its_parts(page):
+def test_clicking_a_net_lights_its_parts_and_pins(page, report):
     button = page.find_element("css selector", '#picture-nets button[data-net-button="GND"]')
     page.execute_script("arguments[0].scrollIntoView({block: 'center'})", button)
     button.click()
@@ -120,6 +121,17 @@ def test_clicking_a_net_lights_its_parts(page):
         "return Array.from(document.querySelectorAll('g.part')).filter("
         "g => g.dataset.nets.split(' ').includes('GND')).map(g => g.dataset.ref)"))
     assert hit == on_net and len(hit) >= 5
+    # every pin of the net lights up, no other: the pins of GND as netlist.csv of the same run lists them,
+    # less those of unfitted parts (bom-unfitted.csv), which are not on the board
+    pins = set(map(tuple, page.execute_script(
+        "return Array.from(document.querySelectorAll('path.pad.net-hit')).map(p => [p.dataset.ref, p.dataset.pin])")))
+    with open(report.parent / "bom-unfitted.csv", newline="") as f:
+        unfitted = {row["ref"] for row in csv.DictReader(f)}
+    with open(report.parent / "netlist.csv", newline="") as f:
+        want = {(row["ref"], row["pin"]) for row in csv.DictReader(f)
+                if row["net"] == "GND" and row["ref"] not in unfitted}
+    assert unfitted  # the demo's R7 is unfitted and sits on GND: the exclusion is exercised
+    assert pins == want and len(want) >= 5
     fill = page.execute_script(
         "return getComputedStyle(document.querySelector('g.part.net-hit path')).fill")
     assert fill == "rgb(242, 194, 0)"  # the highlight colour of the page's style sheet (#f2c200)
