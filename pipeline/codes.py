@@ -79,10 +79,12 @@ CODES: dict[str, Code] = {
     "ratings.capacitor-polarity": _c("error", "a polarised capacitor reverse-biased by the declared voltages"),
     "ratings.resistor-power": _c("error/warning", "V^2/R above the power rating (error) or above 50 % of it "
                                                   "(warning)"),
-    "ratings.missing": _c("info", "a rating that matters is not given"),
+    "values.zero": _c("error", "a capacitor or inductor of value 0 (a 0 ohm resistor is a link and fine)"),
+    "ratings.missing": _c("info", "parts without a rating they need, one note per kind of rating: the voltage "
+                                  "across them is unknown, or they need more than the smallest common rating"),
     "ratings.no-voltages": _c("info", "no net voltage declared, so ratings could not be checked"),
     "safety.caution": _c("warning", "a net above 30 V or a battery supply: the usual caution"),
-    # declared stages (pipeline/stages.py)
+    # declared circuit blocks (pipeline/circuit/)
     "stage.summary": _c("info", "a declared stage's figures with their 1st..99th percentiles and the share "
                                 "of builds out of target"),
     "stage.target-met": _c("info", "a target passes at nominal values"),

@@ -3,7 +3,7 @@
 Entry point: :func:`read_design`. The format is CONTRACT.md section 2,
 extended with ``[kinds.NAME]`` (part kinds defined in the design),
 ``[voltages]`` (declared net voltages) and ``[stages.NAME]`` (declared
-circuit stages, read by :mod:`pipeline.stages`). README.md documents every
+circuit blocks, read by :mod:`pipeline.circuit`). README.md documents every
 key.
 
 What the reader guarantees to later stages:
