@@ -120,7 +120,7 @@ from .limits import (
 )
 from .read import read_cavity
 from .roles import LayerRoles, parse_layer_map
-from .units import MM_PER_UNIT, UNIT_NAMES, unit_code
+from .units import MM_PER_UNIT, UNIT_NAMES, cavity_units, unit_code
 
 __all__ = [
     "read_cavity",
@@ -130,6 +130,7 @@ __all__ = [
     "MM_PER_UNIT",
     "UNIT_NAMES",
     "unit_code",
+    "cavity_units",
     "JOIN_TOL_MM",
     "REL_TOL",
     "MAX_FILE_BYTES",

@@ -25,8 +25,8 @@ What the file holds
 
 * Ports are named by **pin number** (what a layout program matches to a
   footprint's pads); the pin's name is the port property ``pin_name``.
-  Directions follow the pin roles: ``input`` and ``power-in`` INPUT;
-  ``output``, ``open-collector`` and ``power-out`` OUTPUT; others INOUT.
+  Directions follow the pin roles: ``in`` and ``supply`` INPUT;
+  ``out``, ``open-drain`` and ``supply-out`` OUTPUT; others INOUT.
 * Instances carry the properties ``value`` (the design's text, else
   :func:`pipeline.values.format_value` of the number), ``kind``, ``package``, ``mpn``,
   ``manufacturer``, and ``dnp`` ``"true"`` for unfitted parts (which stay
@@ -68,8 +68,8 @@ _PARTS_LIB = "SNUG_PARTS"
 _DESIGN_LIB = "SNUG_DESIGN"
 _ID_RE = re.compile(r"^[A-Za-z][A-Za-z0-9_]*$")
 _MAX_ID = 200
-_DIRECTION = {"input": "INPUT", "power-in": "INPUT", "output": "OUTPUT", "open-collector": "OUTPUT",
-              "power-out": "OUTPUT"}
+_DIRECTION = {"in": "INPUT", "supply": "INPUT", "out": "OUTPUT", "open-drain": "OUTPUT",
+              "supply-out": "OUTPUT"}
 _MAX_EPOCH = 253402300799  # 9999-12-31 23:59:59 UTC
 
 

@@ -109,7 +109,7 @@ _OPAMP_GAIN = "1e6"
 _R_OUT = "1"  # series output resistance of behavioural outputs, ohm
 _R_SINK = "10"  # on-resistance of an open-collector comparator output, ohm
 _R_REG = "10m"
-_DRIVEN_ROLES = ("power-out", "output")
+_DRIVEN_ROLES = ("supply-out", "out")
 
 
 # --------------------------------------------------------------------------
@@ -293,7 +293,7 @@ def _comparator_body(ports: _Ports) -> tuple[list[str], str]:
     for s, out, inp, inn, pin in ports.sections(r"OUT(\w*)", ("+IN{}", "-IN{}")):
         tag = s or "A"
         on = f"(0.5 + 0.5 * tanh(1e4 * (V({inp}) - V({inn}))))"
-        if pin.role == "open-collector":
+        if pin.role == "open-drain":
             # sinks to the negative supply pin while -IN is above +IN, else open
             body.append(f"B{tag} {out} {vneg} I = V({out}, {vneg}) * (1 - {on}) / {_R_SINK}")
         else:
