@@ -143,5 +143,6 @@ def test_demo_design_is_clean(library):
     lib = library.with_kinds(d.kinds)
     g = build_graph(d)
     found = check_connections(d, g, {p.kind: lib.kind(p.kind).category for p in d.parts})
-    assert w == [] and found == (), found
+    # the reader's notes (which default heights were taken) are information, not problems
+    assert [x for x in w if x.severity != "info"] == [] and found == (), found
     assert 20 <= len(d.parts) <= 35
