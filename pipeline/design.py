@@ -3,7 +3,7 @@
 Entry point: :func:`read_design`. The format is CONTRACT.md section 2,
 extended with ``[kinds.NAME]`` (part kinds defined in the design),
 ``[voltages]`` (declared net voltages) and ``[stages.NAME]`` (declared
-circuit stages, read by :mod:`pipeline.stages`). README.md documents every
+circuit blocks, read by :mod:`pipeline.circuit`). README.md documents every
 key.
 
 What the reader guarantees to later stages:
@@ -28,7 +28,7 @@ from typing import Any, Iterable
 
 from . import values as _values
 from .errors import DesignError
-from .model import Design, Finding, Net, Part, PartKind, PinDef, PinRef, PIN_ROLES, RawTable
+from .model import OLD_PIN_ROLES, PIN_ROLES, Design, Finding, Net, Part, PartKind, PinDef, PinRef, RawTable
 from .tomlsrc import TomlSource, load
 
 __all__ = ["read_design", "read_design_text", "KIND_CATEGORIES"]
@@ -42,7 +42,7 @@ _PART_KEYS = (
     "note", "dnp", "supplier", "order_code", "description",
 )
 _PASSTHROUGH = ("supplier", "order_code", "description")
-_KIND_KEYS = ("category", "package", "pins", "description", "value_unit")
+_KIND_KEYS = ("category", "package", "pins", "description", "value_unit", "board_feature")
 _PIN_KEYS = ("number", "name", "role")
 _REF_RE = re.compile(r"^[A-Za-z][A-Za-z0-9_]*$")
 _NET_RE = re.compile(r"^[^\s\"',;]+$")
@@ -138,7 +138,8 @@ def _read(src: TomlSource, library: Any) -> tuple[Design, list[Finding]]:
     name = _expect_str(src, "design.name", head.get("name", Path(src.display).stem))
     revision = _expect_str(src, "design.revision", head.get("revision", ""))
 
-    kinds, default_pkgs = _read_kinds(src, _expect_table(src, "kinds", data.get("kinds", {})), library)
+    kinds, default_pkgs = _read_kinds(src, _expect_table(src, "kinds", data.get("kinds", {})), library,
+                                      warnings)
     lib = library.with_kinds(kinds) if kinds else library
 
     parts_tbl = _expect_table(src, "parts", data.get("parts", {}))
@@ -172,7 +173,8 @@ def _read(src: TomlSource, library: Any) -> tuple[Design, list[Finding]]:
     return design, warnings
 
 
-def _read_kinds(src: TomlSource, table: dict, library: Any) -> tuple[list[PartKind], dict[str, str]]:
+def _read_kinds(src: TomlSource, table: dict, library: Any,
+                warnings: list[Finding]) -> tuple[list[PartKind], dict[str, str]]:
     """Design-defined kinds and their default packages (kind name -> package)."""
     out = []
     defaults: dict[str, str] = {}
@@ -205,16 +207,25 @@ def _read_kinds(src: TomlSource, table: dict, library: Any) -> tuple[list[PartKi
                 raise _err(src, pkey, f"pin number {number} appears twice")
             seen_numbers.add(number)
             pname = _expect_str(src, pkey, p.get("name", number))
-            role = _expect_str(src, pkey, p.get("role", "passive"))
+            role = _expect_str(src, pkey, p.get("role", "terminal"))
+            if role in OLD_PIN_ROLES:
+                warnings.append(Finding(
+                    "warning", "design.old-role-name", (f"{kname}.{number}",),
+                    f"{src.display}: {pkey}: pin {number} role '{role}' is the previous release's "
+                    f"spelling; write '{OLD_PIN_ROLES[role]}' (the old one is read until the next release)"))
+                role = OLD_PIN_ROLES[role]
             if role not in PIN_ROLES:
                 raise _err(src, pkey, f"pin {number}: unknown role '{role}'; expected one of: {', '.join(PIN_ROLES)}")
             pins.append(PinDef(number, pname, role))
         desc = _expect_str(src, f"{key}.description", body.get("description", ""))
+        feature = body.get("board_feature", False)
+        if not isinstance(feature, bool):
+            raise _err(src, f"{key}.board_feature", "board_feature must be true or false")
         default_pkg = _expect_str(src, f"{key}.package", body.get("package", ""))
         if default_pkg:
             library.package(default_pkg, **_at(src, f"{key}.package"))
         out.append(PartKind(
-            name=kname, category=category, pins=tuple(pins), value_unit=unit,
+            name=kname, category=category, pins=tuple(pins), value_unit=unit, board_feature=feature,
             description=desc, source=f"defined in {src.display}" + (f"; default package {default_pkg}" if default_pkg else ""),
         ))
         defaults[kname] = default_pkg

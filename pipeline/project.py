@@ -22,7 +22,7 @@ board      layers (2), thickness_mm (0.8), sides (1), density ("nominal"),
            outline_units ("mm" or "drawing": board-outline.dxf in the cavity's units)
 cavity     depth_mm (5.0), units ("mm"), layers (role map), chord_tolerance_mm (0.02)
 order      boards (1), spares_percent (0), min_spares (0), multiple (1)
-analysis   draws (10000), seed (1)
+analysis   draws (10000), seed (1), retune_above_share (0.01)
 limits     spice_file_bytes, spice_include_splices, spice_expansion_parts,
            expression_depth (defaults in pipeline/spice/limits.py), dxf_bytes, dxf_entities,
            dxf_vertices, cavity_coordinate_mm (defaults in pipeline/cavity/limits.py; README "Limits")
@@ -61,7 +61,7 @@ _KEYS: dict[str, tuple[str, ...]] = {
               "outline", "min_inside_radius_mm", "outline_units"),
     "cavity": ("depth_mm", "units", "layers", "chord_tolerance_mm"),
     "order": ("boards", "spares_percent", "min_spares", "multiple"),
-    "analysis": ("draws", "seed"),
+    "analysis": ("draws", "seed", "retune_above_share"),
     "limits": tuple(SPICE_LIMITS) + tuple(CAVITY_LIMITS),  # README "Limits"; each a whole number >= 1
     "copper": COPPER_KEYS,
 }
@@ -92,6 +92,7 @@ class Project:
     draws: int = 10000
     seed: int = 1
     warnings: tuple[Finding, ...] = ()
+    retune_above_share: float | None = None     # None: pipeline.circuit.RETUNE_ABOVE_SHARE
     limits: tuple[tuple[str, int], ...] = ()  # [limits] keys given, sorted
     outline_units: str = "mm"  # board-outline.dxf in "mm" or in the cavity drawing's units
     copper: CopperRules = CopperRules()
@@ -236,6 +237,8 @@ def load_project(
                                       lo=0, lo_open=True, hi=5)),
         draws=_num(src, "analysis.draws", an.get("draws", 10000), integer=True, lo=100, hi=1_000_000),
         seed=_num(src, "analysis.seed", an.get("seed", 1), integer=True, lo=0),
+        retune_above_share=(float(_num(src, "analysis.retune_above_share", an["retune_above_share"], lo=0, hi=1))
+                            if "retune_above_share" in an else None),
         warnings=tuple(warnings),
         limits=tuple(sorted((k, _num(src, f"limits.{k}", v, integer=True, lo=1))
                             for k, v in data.get("limits", {}).items())),
@@ -261,8 +264,8 @@ def _categories(design: Design, library: Any) -> dict[str, str]:
 
 
 def _read_and_check(path: Path, shown: str, parts_map: Path | None, root: Path | None, *,
-                    limits: tuple[tuple[str, int], ...] = (), draws: int = 10000, seed: int = 1,
-                    progress: Progress | None = None):
+                    limits: tuple[tuple[str, int], ...] = (), progress: Progress | None = None,
+                    **analysis: Any):
     """Read a design, build its graph, run the connection and value checks and analyse its blocks.
 
     Returns ``(design, library with the design's own kinds, findings, block reports)``.
@@ -279,8 +282,16 @@ def _read_and_check(path: Path, shown: str, parts_map: Path | None, root: Path |
     lib = library.with_kinds(design.kinds)
     g = build_graph(design)
     findings = (*warnings, *check_connections(design, g, _categories(design, lib)), *check_values(design))
-    reports, block_findings = analyse_blocks(design, draws=draws, seed=seed, progress=progress)
+    reports, block_findings = analyse_blocks(design, progress=progress, **analysis)
     return design, lib, (*findings, *block_findings), reports
+
+
+def _analysis(project: Project) -> dict[str, Any]:
+    """The ``[analysis]`` keys as keyword arguments of :func:`pipeline.circuit.analyse_blocks`."""
+    out: dict[str, Any] = {"draws": project.draws, "seed": project.seed}
+    if project.retune_above_share is not None:
+        out["retune_above_share"] = project.retune_above_share
+    return out
 
 
 def check_design(path: Path, *, shown: str | None = None, parts_map: Path | None = None,
@@ -351,12 +362,13 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
 
     timestamp = _source_date_epoch()
     design, lib, checked, reports = _read_and_check(project.design_path, project.design_shown, project.parts_map,
-                                                    project.root, limits=project.limits, draws=project.draws,
-                                                    seed=project.seed, progress=progress)
+                                                    project.root, limits=project.limits, progress=progress,
+                                                    **_analysis(project))
     findings: list[Finding] = [*project.warnings, *checked]
 
     files: dict[str, bytes] = {}
-    order_files = bom.bom_files(design, project.order)
+    features = frozenset(k.name for k in lib.kinds() if k.board_feature)  # never ordered
+    order_files = bom.bom_files(design, project.order, features)
     files.update(order_files)
     files["netlist.csv"] = netlist.netlist_csv(design)
     files["netlist.json"] = netlist.netlist_json(design)

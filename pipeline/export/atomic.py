@@ -44,6 +44,7 @@ import shutil
 import signal
 import stat
 import tempfile
+import threading
 from contextlib import contextmanager
 from pathlib import Path
 from typing import Iterable, Iterator, Mapping
@@ -256,12 +257,25 @@ def _fill(stage: Path, files: Mapping[str, bytes], names: list[str], mode: int, 
 
 @contextmanager
 def _signals_held() -> Iterator[None]:
-    """Hold back interrupt signals; they are delivered when the block ends."""
-    old = signal.pthread_sigmask(signal.SIG_BLOCK, _HELD)
+    """Hold back interrupt signals; the first one is delivered when the block ends.
+
+    A Python-level handler records the signal instead of blocking it with a
+    signal mask: a mask covers only the calling thread, and a process-wide
+    signal taken by another thread would still interrupt the swap. Outside
+    the main thread (where handlers cannot be set) the block runs as is.
+    """
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    got: list[int] = []
+    old = {s: signal.signal(s, lambda n, _frame: got.append(n)) for s in _HELD}
     try:
         yield
     finally:
-        signal.pthread_sigmask(signal.SIG_SETMASK, old)
+        for s, handler in old.items():
+            signal.signal(s, handler if handler is not None else signal.SIG_DFL)
+        if got:
+            signal.raise_signal(got[0])
 
 
 def _swap_in(stage: Path, out: Path) -> Path | None:

@@ -16,6 +16,7 @@ from pipeline.order import natural_key
 from ._data import compact
 from .courtyards import CourtyardRule, read_courtyard
 from .kinds import read_kinds
+from .lands import read_land_rules, read_terminals
 from .packages import PackageFamily, PackageInfo, info_for, read_families, read_packages
 
 __all__ = ["DEFAULT_ROOT", "Library", "load_library"]
@@ -24,7 +25,9 @@ PACKAGES_FILE = "packages.csv"
 FAMILIES_FILE = "families.toml"
 KINDS_FILE = "kinds.toml"
 COURTYARD_FILE = "courtyard.toml"
-_FILES = (COURTYARD_FILE, PACKAGES_FILE, FAMILIES_FILE, KINDS_FILE)
+LANDS_FILE = "lands.toml"
+TERMINALS_FILE = "terminals.csv"
+_FILES = (COURTYARD_FILE, LANDS_FILE, TERMINALS_FILE, PACKAGES_FILE, FAMILIES_FILE, KINDS_FILE)
 
 
 def _default_root() -> Path:
@@ -213,12 +216,12 @@ class Library:
         """The pins a part of ``kind`` in ``package`` has.
 
         A kind with ``pins_from_package`` (a header) gets pins ``1 .. N``,
-        N = ``package.pin_count``, role passive; any other kind its own pins.
+        N = ``package.pin_count``, role terminal; any other kind its own pins.
         Whether the counts agree is :func:`pin_mismatch`'s question.
         """
         if kind.pins_from_package:
             return tuple(
-                PinDef(str(i), str(i), "passive") for i in range(1, package.pin_count + 1))
+                PinDef(str(i), str(i), "terminal") for i in range(1, package.pin_count + 1))
         return kind.pins
 
     def with_kinds(self, extra: Iterable[PartKind]) -> "Library":
@@ -273,6 +276,9 @@ def _load(base: Path) -> Library:
     grid, rules = read_courtyard(base / COURTYARD_FILE)
     rule_map = {r.name: r for r in rules}
     families = read_families(base / FAMILIES_FILE, rule_map)
-    listed, infos = read_packages(base / PACKAGES_FILE, rule_map, grid, families)
+    land_rules = read_land_rules(base / LANDS_FILE)
+    terminals = read_terminals(base / TERMINALS_FILE, land_rules)
+    listed, infos = read_packages(base / PACKAGES_FILE, rule_map, grid, families, terminals,
+                                  land_rules)
     return Library(root=base, listed=listed, infos=infos, family_table=families, rules=rules,
                    grid_mm=grid, kind_table=read_kinds(base / KINDS_FILE))
