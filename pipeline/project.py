@@ -279,7 +279,7 @@ def _read_and_check(path: Path, shown: str, parts_map: Path | None, root: Path |
     library = load_library()
     design, warnings = read_any_design(Path(path), library, shown=shown, parts_map=parts_map, root=root,
                                        limits=limits)
-    lib = library.with_kinds(design.kinds)
+    lib = library.with_kinds(design.kinds).with_packages(design.packages)
     g = build_graph(design)
     findings = (*warnings, *check_connections(design, g, _categories(design, lib)), *check_values(design))
     reports, block_findings = analyse_blocks(design, progress=progress, **analysis)
@@ -400,7 +400,7 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
         fit_json = results.fit_dict(fit, extra, verdict=verdict)
         files["fit.json"] = results.dump_json(fit_json)
         svg = svg_out.fit_svg(cavity, region, fit, title=design.name, verdict=verdict,
-                              facts=svg_out.part_facts(design, items))
+                              facts=svg_out.part_facts(design, items), pads=_pads(fit, design, lib))
         files["fit.svg"] = svg
         if fit.board_outline is not None and not fit.board_outline.is_empty:
             units = cavity_units(cavity) if project.outline_units == "drawing" else (4, 1.0)
@@ -448,6 +448,16 @@ def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Prog
         from .sweep import sweep_sizes
         sweep_result = sweep_sizes(design, lib, region, project.board, progress=progress, user_board=cavity.board)
     return cavity, region, items, fit, sweep_result, [*cw, *rw, *_fit_findings(fit)]
+
+
+def _pads(fit: FitResult, design: Design, lib: Any) -> tuple:
+    """The placed parts' copper pads (the routing step's one pad adapter), for the picture."""
+    from shapely.geometry import Polygon
+
+    from .route.pads import board_from_placement
+
+    outline = fit.board_outline if fit.board_outline is not None else Polygon()
+    return board_from_placement(outline, fit.placements, design, lib, ("top", "bottom")).pads
 
 
 def _fit_findings(fit: FitResult) -> list[Finding]:

@@ -107,25 +107,28 @@ few outlines). Clipped block references (XCLIP) are read unclipped.
 
 from __future__ import annotations
 
-import importlib
-from typing import Any
+from .limits import (
+    JOIN_TOL_MM,
+    MAX_BLOCK_DEPTH,
+    MAX_ENTITIES,
+    MAX_FILE_BYTES,
+    MAX_PLAUSIBLE_SIDE_MM,
+    MAX_VERTICES,
+    MIN_PLAUSIBLE_AREA_MM2,
+    REL_TOL,
+    Limits,
+)
+from .roles import LayerRoles, parse_layer_map
+from .units import MM_PER_UNIT, UNIT_NAMES, cavity_units, unit_code
 
-# The names below are imported on first use (PEP 562), so that importing a light submodule such as
-# pipeline.cavity.limits (project.py does, for the [limits] keys) does not load numpy, shapely or ezdxf.
-_HOME = {
-    "read_cavity": "read", "parse_layer_map": "roles", "LayerRoles": "roles", "Limits": "limits",
-    "MM_PER_UNIT": "units", "UNIT_NAMES": "units", "unit_code": "units", "cavity_units": "units",
-    "JOIN_TOL_MM": "limits", "REL_TOL": "limits", "MAX_FILE_BYTES": "limits", "MAX_ENTITIES": "limits",
-    "MAX_VERTICES": "limits", "MAX_BLOCK_DEPTH": "limits", "MIN_PLAUSIBLE_AREA_MM2": "limits",
-    "MAX_PLAUSIBLE_SIDE_MM": "limits",
-}
 
-
-def __getattr__(name: str) -> Any:
-    if name not in _HOME:
-        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
-    return getattr(importlib.import_module(f"{__name__}.{_HOME[name]}"), name)
-
+def __getattr__(name: str):
+    """``read_cavity`` is imported on first use: it brings the DXF and geometry libraries, which
+    a command that only reads the project file's limits or layer map must not pay for."""
+    if name == "read_cavity":
+        from .read import read_cavity
+        return read_cavity
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 __all__ = [
     "read_cavity",
