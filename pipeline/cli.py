@@ -256,16 +256,21 @@ def new_cmd(ctx: click.Context, folder: str) -> None:
 @click.option("--project", "project_dir", metavar="DIR",
               help="Take the layer map, units, depth and board options from DIR/project.toml.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object to stdout.")
+@click.option("--write-dxf", "write_dxf", metavar="OUT", help="Also write the cavity as a DXF drawing on "
+              "snugboard's layers, in its own units (a new file; never over an existing one).")
 @click.pass_context
-def cavity_cmd(ctx: click.Context, dxf_file: str, project_dir: str | None, as_json: bool) -> None:
-    """Read a cavity drawing alone: units, outline, keep-outs, depth zones, usable region."""
+def cavity_cmd(ctx: click.Context, dxf_file: str, project_dir: str | None, as_json: bool,
+               write_dxf: str | None) -> None:
+    """Read a cavity drawing or measured-cavity file alone: units, outline, keep-outs, depth zones, region."""
     from pathlib import Path
 
-    from .project import inspect_cavity, load_project
+    from .project import inspect_cavity, load_project, write_cavity_dxf
 
     ctx.meta["snugboard.json"] = as_json
     project = load_project(project_dir) if project_dir else None
     cavity, region, findings = inspect_cavity(Path(dxf_file), shown=dxf_file, project=project)
+    if write_dxf:
+        write_cavity_dxf(cavity, Path(write_dxf), shown=write_dxf)
     zones = [{"max_part_height_mm": round(z.max_height_mm, 4), "area_mm2": round(z.polygon.area, 4)}
              for z in region.zones]
     x0, y0, x1, y1 = (round(v, 4) for v in cavity.outline.bounds)

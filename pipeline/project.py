@@ -39,7 +39,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Callable
 
-from .errors import ProjectError
+from .errors import OutputError, ProjectError
 from .model import DENSITY_LEVELS, BoardOptions, Design, FitResult, Finding, OrderOptions
 from .cavity.limits import DEFAULTS as CAVITY_LIMITS
 from .spice.limits import DEFAULTS as SPICE_LIMITS
@@ -322,6 +322,20 @@ def inspect_cavity(path: Path, *, shown: str | None = None, project: Project | N
                              limits=Limits.from_table(dict(p.limits) if p else None))
     region, rw = usable_region(cavity, p.board if p else BoardOptions())
     return cavity, region, (*cw, *rw)
+
+
+def write_cavity_dxf(cavity: Any, out: Path, *, shown: str) -> None:
+    """Write ``cavity`` as a DXF drawing to ``out``, a new file: never over an existing one."""
+    from .export.dxf import cavity_dxf
+
+    data = cavity_dxf(cavity, timestamp=_source_date_epoch())
+    try:
+        with open(out, "xb") as f:  # "x": fails when the file exists, so nothing is overwritten
+            f.write(data)
+    except FileExistsError:
+        raise OutputError(shown, "exists already: give a new file name (snugboard never writes over a file)") from None
+    except OSError as exc:
+        raise OutputError(shown, f"cannot be written ({exc.strerror or exc})") from None
 
 
 def _source_date_epoch() -> int | None:
