@@ -337,14 +337,16 @@ def _read_net(src: TomlSource, name: str, pins_raw: Any, by_ref: dict[str, Part]
     if not isinstance(pins_raw, list):
         raise _err(src, key, "a net is a list of pins, e.g. GND = [\"R1.2\", \"U1.4\"]")
     pins: list[PinRef] = []
+    seen: set[PinRef] = set()
     for item in pins_raw:
         if not isinstance(item, str):
             raise _err(src, key, f"pins are written as text \"REF.PIN\", found {item!r}")
         pr = _resolve_pin(src, key, item, by_ref)
-        if pr in pins:
+        if pr in seen:
             warnings.append(Finding("warning", "design.duplicate-pin", (name, str(pr)),
                                     f"{src.display}: net {name} lists {pr} twice; it is counted once."))
             continue
+        seen.add(pr)
         pins.append(pr)
     v, vmax, bat = volt if volt else (None, None, False)
     return Net(name=name, pins=tuple(pins), voltage=v, voltage_max=vmax, battery=bat, line=src.line(key) or 0)

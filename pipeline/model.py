@@ -12,6 +12,7 @@ stage boundary is here.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import Any, Literal
 
 from shapely.geometry.base import BaseGeometry
@@ -185,11 +186,16 @@ class Part:
     extra: tuple[tuple[str, str], ...] = ()
     line: int = 0
 
-    def pin(self, number: str) -> PinDef:
+    @cached_property
+    def _pin_index(self) -> dict[str, PinDef]:
+        out: dict[str, PinDef] = {}
         for p in self.pins:
-            if p.number == number:
-                return p
-        raise KeyError(number)
+            out.setdefault(p.number, p)
+        return out
+
+    def pin(self, number: str) -> PinDef:
+        """The pin numbered ``number``; O(1) after one O(pins) index build."""
+        return self._pin_index[number]
 
 
 @dataclass(frozen=True)
@@ -245,17 +251,28 @@ class Design:
     #: includes), resolved; outputs never write over any of them.
     inputs: tuple[str, ...] = ()
 
-    def part(self, ref: str) -> Part:
+    @cached_property
+    def by_ref(self) -> dict[str, Part]:
+        """``ref -> Part`` (the first, if a ref is listed twice), built once in O(parts); do not mutate."""
+        out: dict[str, Part] = {}
         for p in self.parts:
-            if p.ref == ref:
-                return p
-        raise KeyError(ref)
+            out.setdefault(p.ref, p)
+        return out
+
+    @cached_property
+    def _net_index(self) -> dict[str, Net]:
+        out: dict[str, Net] = {}
+        for n in self.nets:
+            out.setdefault(n.name, n)
+        return out
+
+    def part(self, ref: str) -> Part:
+        """The part ``ref`` (the first, if listed twice); O(1) after one O(parts) index build."""
+        return self.by_ref[ref]
 
     def net(self, name: str) -> Net:
-        for n in self.nets:
-            if n.name == name:
-                return n
-        raise KeyError(name)
+        """The net ``name`` (the first, if listed twice); O(1) after one O(nets) index build."""
+        return self._net_index[name]
 
 
 # --------------------------------------------------------------------------

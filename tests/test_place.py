@@ -396,7 +396,7 @@ def test_hpwl_closed_form():
     assert hpwl([], [], []) == 0.0
 
 
-def test_swaps_lower_wirelength(monkeypatch):
+def test_swaps_lower_wirelength():
     """The swap pass only takes swaps that lower the wirelength (module notes, step 3): with it the
     total is well below the constructive placement's; legality is unchanged."""
     import pipeline.place as place
@@ -408,8 +408,7 @@ def test_swaps_lower_wirelength(monkeypatch):
     board = BoardOptions()
     with_swaps = place_and_fit(items, region, board)
     check_invariants(items, region, board, with_swaps)
-    monkeypatch.setattr(place, "SWAP_PASSES", 0)
-    without = place_and_fit(items, region, board)
+    without = place_and_fit(items, region, board, improve=False)
     assert with_swaps.fits and without.fits
     assert with_swaps.wirelength_mm < 0.9 * without.wirelength_mm
 

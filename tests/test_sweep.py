@@ -8,6 +8,7 @@ import math
 import pytest
 from shapely.geometry import box
 
+from pipeline.library import load_library
 from pipeline.errors import ProjectError
 from pipeline.model import BoardOptions, Design, HeightZone, Net, Part, PartKind, PinDef, PinRef, Region
 from pipeline.sweep import sweep_sizes, two_terminal_passives
@@ -17,8 +18,7 @@ SIZES = ("0201", "0402", "0603", "0805", "1206")
 
 @pytest.fixture(scope="module")
 def lib():
-    library = pytest.importorskip("pipeline.library")
-    return library.load_library()
+    return load_library()
 
 
 def _two(ref, kind, package, dnp=False):
@@ -114,3 +114,19 @@ def test_sweep_unknown_size(lib):
     region = Region(geom, (HeightZone(geom, 4.0),), 0.8)
     with pytest.raises(ProjectError):
         sweep_sizes(_design(), lib, region, BoardOptions(), ("0603", "0604x"))
+
+
+def test_sweep_skips_the_improvement_pass(lib, monkeypatch):
+    """Cost guard (issue 11): the sweep needs only the verdict, so the wirelength pass never runs;
+    counted, not timed. The same fit run directly does run it once (the counter can fail)."""
+    import pipeline.place as place
+    from pipeline.area import items_from_design
+
+    calls = []
+    real = place._improve
+    monkeypatch.setattr(place, "_improve", lambda *a, **k: (calls.append(1), real(*a, **k))[1])
+    region = Region(box(0, 0, 40, 30), (HeightZone(box(0, 0, 40, 30), 5.0),), 0.8)
+    sweep_sizes(_design(), lib, region, BoardOptions(), sizes=("0402", "0603"))
+    assert calls == []
+    place.place_and_fit(items_from_design(_design(), lib, "nominal"), region, BoardOptions())
+    assert calls == [1]
