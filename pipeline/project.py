@@ -354,8 +354,9 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
         region, rw = usable_region(cavity, project.board)
         items = items_from_design(design, lib, project.board.density)
         fit = place_and_fit(items, region, project.board, user_board=cavity.board, progress=progress)
-        fit = dataclasses.replace(fit, warnings=(*cw, *rw, *fit.warnings))
-        findings += [*cw, *rw]
+        placer = fit.warnings  # fit.tight, fit.region-split, fit.self-check, fit.bottom-side
+        fit = dataclasses.replace(fit, warnings=(*cw, *rw, *placer))
+        findings += [*cw, *rw, *placer]
         findings += _fit_findings(fit)
         extra: dict[str, Any] = {}
         if sweep:

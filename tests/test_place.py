@@ -430,3 +430,33 @@ def test_compact_block_in_roomy_cavity(monkeypatch):
     monkeypatch.setattr(place, "ROOMY", 1e9)  # no block: the strip along the bottom
     strip = place_and_fit(items, region, board)
     assert fit.wirelength_mm < strip.wirelength_mm
+
+
+def test_placer_warnings_reach_findings_and_terminal(tmp_path):
+    """Issue 11: a tight fit's fit.tight warning is in findings.json and on the terminal like every
+    other finding (it used to reach fit.json only). Six 0603 courtyards (2.8 x 1.3 mm, IPC-7351B
+    nominal) fill a 7.6 x 4.8 mm bay less the 0.3 mm wall clearance: they fit in 2 x 3, but the
+    board is below the routing rule of thumb's 1.5 x courtyard sum."""
+    import json
+
+    import ezdxf
+    from click.testing import CliRunner
+
+    from pipeline.cli import main
+
+    parts = "\n".join(f'[parts.R{i}]\nkind = "resistor"\nvalue = "10k"\npackage = "0603"\n' for i in range(1, 7))
+    nets = "[nets]\nA = [\"R1.1\", \"R6.2\"]\n" + "\n".join(f'N{i} = ["R{i}.2", "R{i + 1}.1"]' for i in range(1, 6))
+    (tmp_path / "design.toml").write_text('[design]\nname = "t"\nrevision = "A"\n\n' + parts + nets + "\n")
+    doc = ezdxf.new(units=ezdxf.units.MM)
+    doc.modelspace().add_lwpolyline([(0, 0), (7.6, 0), (7.6, 4.8), (0, 4.8)], close=True,
+                                     dxfattribs={"layer": "CAVITY"})
+    doc.saveas(tmp_path / "bay.dxf")
+    (tmp_path / "project.toml").write_text('[project]\nname = "t"\ndesign = "design.toml"\ncavity = "bay.dxf"\n'
+                                           '[board]\nedge_clearance_mm = 0\n')
+    r = CliRunner().invoke(main, ["run", str(tmp_path)])
+    assert r.exit_code == 0, r.output
+    findings = json.loads((tmp_path / "out" / "findings.json").read_text())
+    fit = json.loads((tmp_path / "out" / "fit.json").read_text())
+    codes = [f["check"] for f in findings]
+    assert "fit.tight" in codes and "fit.tight" in [w["check"] for w in fit["warnings"]]
+    assert "1 warning(s)" in r.output and "routing may be hard" in r.output
