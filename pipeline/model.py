@@ -145,6 +145,23 @@ class Package:
 # --------------------------------------------------------------------------
 # Design: parts and nets.
 # --------------------------------------------------------------------------
+@dataclass(frozen=True)
+class Fixed:
+    """Where the user fixed a part (design keys ``at``, ``rotation``, ``side``; issue 8).
+
+    ``x_mm``, ``y_mm``: the courtyard centre in the drawing's frame, mm;
+    ``rotation_deg`` 0, 90, 180 or 270 (counter-clockwise); ``side`` top or
+    bottom. ``file`` and ``line`` locate the part for messages.
+    """
+
+    x_mm: float
+    y_mm: float
+    rotation_deg: int = 0
+    side: Side = "top"
+    file: str = ""
+    line: int = 0
+
+
 @dataclass(frozen=True, order=True)
 class PinRef:
     """A connected pin: part ref and pin number (text). ``str()`` is ``REF.PIN``."""
@@ -185,6 +202,7 @@ class Part:
     dnp: bool = False
     extra: tuple[tuple[str, str], ...] = ()
     line: int = 0
+    fixed: Fixed | None = None
 
     @cached_property
     def _pin_index(self) -> dict[str, PinDef]:
@@ -387,6 +405,7 @@ class PlaceItem:
     nets: tuple[str, ...]
     pin_count: int = 2
     package: str = ""
+    fixed: Fixed | None = None
 
 
 @dataclass(frozen=True)

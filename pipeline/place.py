@@ -261,8 +261,9 @@ class _Packer:
     """Bottom-left fill of classes of equal rectangles on a boolean grid."""
 
     def __init__(self, items: Sequence[PlaceItem], area: BaseGeometry, zones, rank: Sequence[int],
-                 budget: int = CELL_BUDGET):
+                 budget: int = CELL_BUDGET, fixed: dict | None = None):
         self.items = items
+        self.fixed = dict(fixed or {})  # item -> (side, (x1, y1, x2, y2)) of a part the user fixed
         self.area = area
         self.rank = rank
         dims = [d for it in items for d in (it.length_mm, it.width_mm)]
@@ -330,6 +331,8 @@ class _Packer:
             bot = sides == 2 and gap > 0 and it.height_mm <= gap + 1e-9
             run.top_level[i] = lvl
             run.bottom_ok[i] = bot
+            if i in self.fixed:
+                continue
             key = (bot, self.wc[i], self.hc[i], -1 if lvl is None else lvl)
             classes.setdefault(key, []).append(i)
         for members in classes.values():
@@ -349,6 +352,11 @@ class _Packer:
         if sides == 2 and gap > 0:
             occ["bottom"] = np.zeros((g.ny, g.nx), dtype=bool)
         bottom_mask = self.mask(self.level(gap) or 0) if "bottom" in occ else None
+        for side, (x1, y1, x2, y2) in self.fixed.values():  # fixed parts hold their cells first
+            if side in occ:
+                c0, c1 = int(math.floor((x1 - g.x0) / g.cell + 1e-9)), int(math.ceil((x2 - g.x0) / g.cell - 1e-9))
+                r0, r1 = int(math.floor((y1 - g.y0) / g.cell + 1e-9)), int(math.ceil((y2 - g.y0) / g.cell - 1e-9))
+                occ[side][max(r0, 0):max(r1, 0), max(c0, 0):max(c1, 0)] = True
         n_items = max(len(items), 1)
         done = 0
         for ci, key in enumerate(keys):
@@ -678,14 +686,20 @@ def _pack_and_check(items, area, region: Region, board: BoardOptions, estimate, 
                     progress: Progress | None) -> _Outcome:
     """Steps 1 to 4 of the module notes: grid, packing, improvement, self-check."""
     refs = [it.ref for it in items]
-    packer = _Packer(items, area, region.zones, _rank(items, nets))
-    run = _best_run(packer, _tries(items, packer, area, board, estimate), board.sides, progress)
+    out = _Outcome()
+    fixed = _fixed_parts(items, region, board)
+    packer = _Packer(items, area, region.zones, _rank(items, nets), fixed=fixed)
+    tries = _tries(items, packer, area, board, estimate)
+    low = max((items[i].height_mm for i, (side, _) in fixed.items() if side == "bottom"), default=0.0)
+    tries = [t for t in tries if t[0] >= low - 1e-9] or [(low, None)]  # bottom parts fixed: raise the board
+    run = _best_run(packer, tries, board.sides, progress)
     if improve:
         _improve(packer, run, nets, progress)
-    out = _Outcome()
-    idx = sorted(run.slots, key=lambda i: natural_key(refs[i]))
-    rects = {i: packer.rect(i, run.slots[i]) for i in idx}
-    bad = _self_check(packer, run, rects, run.gap)
+    rects = {i: packer.rect(i, run.slots[i]) for i in run.slots}
+    rects.update({i: r for i, (_, r) in fixed.items()})
+    sides = {i: s[0] for i, s in run.slots.items()} | {i: sd for i, (sd, _) in fixed.items()}
+    idx = sorted(rects, key=lambda i: natural_key(refs[i]))
+    bad = _self_check(packer, sides, rects, run.gap)
     if bad:
         out.warnings.append(Finding(
             "warning", "fit.self-check", tuple(refs[i] for i in sorted(bad)),
@@ -693,13 +707,21 @@ def _pack_and_check(items, area, region: Region, board: BoardOptions, estimate, 
     for i in idx:
         if i in bad:
             continue
-        side, o, _, _ = run.slots[i]
         x1, y1, x2, y2 = rects[i]
-        out.placements.append(Placement(refs[i], (x1 + x2) / 2, (y1 + y2) / 2, 90 if o else 0, side,
-                                        box(x1, y1, x2, y2)))
-    not_placed = sorted(set(run.unplaced) | bad)
-    out.unplaced = sorted((refs[i] for i in not_placed), key=natural_key)
-    out.blocked = _diagnose(packer, run, not_placed, region, board)
+        f = items[i].fixed
+        rot = f.rotation_deg if i in fixed else (90 if run.slots[i][1] else 0)
+        x, y = (f.x_mm, f.y_mm) if i in fixed else ((x1 + x2) / 2, (y1 + y2) / 2)
+        out.placements.append(Placement(refs[i], x, y, rot, sides[i], box(x1, y1, x2, y2)))
+    not_placed = sorted(set(run.unplaced) | (bad - set(fixed)))
+    out.unplaced = sorted([refs[i] for i in not_placed] + [refs[i] for i in sorted(bad & set(fixed))],
+                          key=natural_key)
+    for i in sorted(bad & set(fixed), key=lambda i: natural_key(refs[i])):
+        out.blocked.append(
+            f"{refs[i]} is fixed at ({_fmt(items[i].fixed.x_mm)}, {_fmt(items[i].fixed.y_mm)}) mm (at, "
+            f"{items[i].fixed.file}), but its courtyard there leaves the board area (after the "
+            f"{_fmt(board.edge_clearance_mm)} mm edge clearance) or the height the lid allows for "
+            f"{_fmt(items[i].height_mm)} mm: move it or choose a lower package.")
+    out.blocked += _diagnose(packer, run, not_placed, region, board)
     bottom = [p.ref for p in out.placements if p.side == "bottom"]
     if run.gap > 0 and bottom:
         out.warnings.append(Finding(
@@ -707,6 +729,46 @@ def _pack_and_check(items, area, region: Region, board: BoardOptions, estimate, 
             f"{len(bottom)} parts go on the bottom side; the board then sits {_fmt(run.gap)} mm above the "
             f"floor on them, which leaves that much less height for the top side."))
     return out
+
+
+def _fixed_rect(it: PlaceItem) -> tuple[float, float, float, float]:
+    """The courtyard rectangle of a fixed part (180 and 270 degrees give the 0 and 90 rectangles)."""
+    f = it.fixed
+    dx, dy = (it.length_mm, it.width_mm) if f.rotation_deg in (0, 180) else (it.width_mm, it.length_mm)
+    return (f.x_mm - dx / 2, f.y_mm - dy / 2, f.x_mm + dx / 2, f.y_mm + dy / 2)
+
+
+def _fixed_parts(items, region: Region, board: BoardOptions) -> dict:
+    """Fixed parts as ``item -> (side, rect)``, checked against the region (the board comes later).
+
+    Raises
+    ------
+    DesignError
+        A fixed courtyard reaches outside the usable region (cavity, wall
+        clearance, keep-outs), two fixed parts overlap on one side, or a part
+        is fixed on the bottom of a one-sided board; the message names the
+        design file, the part's line and the key.
+    """
+    fixed = {i: (it.fixed.side, _fixed_rect(it)) for i, it in enumerate(items) if it.fixed is not None}
+    usable = region.board_region.buffer(TOL, join_style="mitre") if region.board_region is not None else None
+    seen: list[tuple[int, BaseGeometry]] = []
+    for i, (side, r) in sorted(fixed.items(), key=lambda kv: natural_key(items[kv[0]].ref)):
+        it, f = items[i], items[i].fixed
+        where = dict(line=f.line or None, ref=it.ref)
+        if side == "bottom" and board.sides != 2:
+            raise DesignError(f.file or "design", "the part is fixed on the bottom side, but the board has one "
+                              "side (set [board] sides = 2 in project.toml)", key=f"parts.{it.ref}.side", **where)
+        court = box(*r)
+        if usable is None or not usable.covers(court):
+            raise DesignError(f.file or "design", f"the courtyard fixed at ({_fmt(f.x_mm)}, {_fmt(f.y_mm)}) mm "
+                              f"reaches outside the usable region (the cavity less its wall clearance and "
+                              f"keep-outs)", key=f"parts.{it.ref}.at", **where)
+        for j, other in seen:
+            if fixed[j][0] == side and court.intersection(other).area > 1e-9:
+                raise DesignError(f.file or "design", f"its fixed courtyard overlaps {items[j].ref}'s, also fixed "
+                                  f"on the {side} side", key=f"parts.{it.ref}.at", **where)
+        seen.append((i, court))
+    return fixed
 
 
 def _placed_wirelength(items, nets: list[list[int]], placements) -> float:
@@ -735,7 +797,7 @@ def _verdict_notes(items, fits: bool, board_area: float, estimate, blocked: list
             f"consider more layers or smaller packages."))
 
 
-def _self_check(packer: _Packer, run: _Run, rects: dict, gap: float) -> set[int]:
+def _self_check(packer: _Packer, sides: dict, rects: dict, gap: float) -> set[int]:
     """Items whose courtyard breaks a rule when checked exactly with shapely."""
     if not rects:
         return set()
@@ -747,7 +809,7 @@ def _self_check(packer: _Packer, run: _Run, rects: dict, gap: float) -> set[int]
     if packer.zones:
         by_level: dict[int, list[int]] = {}
         for n, i in enumerate(idx):
-            side = run.slots[i][0]
+            side = sides[i]
             h = packer.items[i].height_mm + (gap if side == "top" else 0.0)
             if side == "bottom":
                 h = max(gap, 0.0)
@@ -761,7 +823,7 @@ def _self_check(packer: _Packer, run: _Run, rects: dict, gap: float) -> set[int]
             okz = shapely.covers(allowed, boxes[ns])
             bad |= {idx[n] for n, good in zip(ns, okz) if not good}
     for side in ("top", "bottom"):
-        ns = [n for n, i in enumerate(idx) if run.slots[i][0] == side]
+        ns = [n for n, i in enumerate(idx) if sides[i] == side]
         if len(ns) < 2:
             continue
         sub = boxes[ns]

@@ -98,7 +98,7 @@ def test_sweep_largest_fitting(lib):
     assert progress and progress[-1] == 1.0
     d = res.to_dict()
     assert json.loads(json.dumps(d)) == d
-    assert d["largest_fitting"] == res.largest_fitting and len(d["sizes"]) == len(SIZES)
+    assert d["largest_fitting"] == res.largest_fitting and len(d["sizes"]) == len(SIZES) + 1  # the design first
 
 
 def test_sweep_nothing_fits(lib):
@@ -130,3 +130,29 @@ def test_sweep_skips_the_improvement_pass(lib, monkeypatch):
     assert calls == []
     place.place_and_fit(items_from_design(_design(), lib, "nominal"), region, BoardOptions())
     assert calls == [1]
+
+
+def test_sweep_starts_with_the_design_and_keeps_fixed_parts(lib):
+    """Issue 8 item 8: the first row is the design as written (the same fit place_and_fit gives
+    on it), and a passive fixed in place keeps its package in every row and is named as kept."""
+    import dataclasses
+
+    from pipeline.area import items_from_design
+    from pipeline.model import Fixed
+    from pipeline.place import place_and_fit
+
+    d = _design()
+    parts = tuple(dataclasses.replace(p, fixed=Fixed(20.0, 15.0)) if p.ref == "R1" else p for p in d.parts)
+    d = dataclasses.replace(d, parts=parts)
+    region = Region(box(0, 0, 40, 30), (HeightZone(box(0, 0, 40, 30), 5.0),), 0.8)
+    res = sweep_sizes(d, lib, region, BoardOptions(), sizes=("0402", "1206"))
+    direct = place_and_fit(items_from_design(d, lib, "nominal"), region, BoardOptions())
+    assert res.designed.size == "design" and res.designed.fits == direct.fits
+    assert res.designed.courtyard_area_mm2 == pytest.approx(direct.courtyard_area_mm2)
+    assert res.kept == ("R1",) and "R1" not in res.swept
+    out = res.to_dict()
+    assert [r["size"] for r in out["sizes"]] == ["design", "0402", "1206"] and out["kept_refs"] == ["R1"]
+    # R1 stays 0603 (2.8 x 1.3 mm nominal courtyard, IPC-7351B) while the others go to 0402
+    small = items_from_design(d, lib, "nominal", {r: "0402" for r in res.swept})
+    assert res.row("0402").courtyard_area_mm2 == pytest.approx(sum(i.length_mm * i.width_mm for i in small))
+    assert any(i.ref == "R1" and (i.length_mm, i.width_mm) == (2.8, 1.3) for i in small)
