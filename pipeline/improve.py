@@ -55,11 +55,11 @@ __all__ = ["improve_swaps", "MAX_ROUNDS", "MIN_GAIN", "SWAP_CANDIDATES"]
 Progress = Callable[[str, float], None]
 
 #: Most rounds of the pass.
-MAX_ROUNDS = 60
+MAX_ROUNDS = 30
 #: A round gaining less than this share of the HPWL ends the pass.
-MIN_GAIN = 2e-4
+MIN_GAIN = 1e-3
 #: Candidate slots looked at per part and round.
-SWAP_CANDIDATES = 16
+SWAP_CANDIDATES = 12
 
 
 class _Pins:

@@ -704,14 +704,14 @@ def _pack_and_check(items, area, region: Region, board: BoardOptions, estimate, 
         out.warnings.append(Finding(
             "warning", "fit.self-check", tuple(refs[i] for i in sorted(bad)),
             f"The placement self-check rejected {len(bad)} placed parts; they are reported as unplaced."))
-    for i in idx:
-        if i in bad:
-            continue
+    keep = [i for i in idx if i not in bad]
+    courts = shapely.box(*np.array([rects[i] for i in keep]).reshape(-1, 4).T)  # one call, not one per part
+    for i, court in zip(keep, courts):
         x1, y1, x2, y2 = rects[i]
         f = items[i].fixed
         rot = f.rotation_deg if i in fixed else (90 if run.slots[i][1] else 0)
         x, y = (f.x_mm, f.y_mm) if i in fixed else ((x1 + x2) / 2, (y1 + y2) / 2)
-        out.placements.append(Placement(refs[i], x, y, rot, sides[i], box(x1, y1, x2, y2)))
+        out.placements.append(Placement(refs[i], x, y, rot, sides[i], court))
     not_placed = sorted(set(run.unplaced) | (bad - set(fixed)))
     out.unplaced = sorted([refs[i] for i in not_placed] + [refs[i] for i in sorted(bad & set(fixed))],
                           key=natural_key)
