@@ -23,7 +23,6 @@ from dataclasses import dataclass
 from typing import Any, Callable, Sequence
 
 from .area import items_from_design
-from .errors import ProjectError
 from .model import BoardOptions, Design, Region
 from .place import place_and_fit
 
@@ -110,10 +109,9 @@ def two_terminal_passives(design: Design, library) -> tuple[str, ...]:
             continue
         kind = own.get(part.kind.casefold())
         if kind is None:
-            try:
-                kind = library.kind(part.kind)
-            except KeyError:
+            if not library.has_kind(part.kind):
                 continue
+            kind = library.kind(part.kind)
         pins = len(part.pins) if part.pins else len(kind.pins)
         if kind.category == "passive" and pins == 2:
             out.append(part.ref)
@@ -145,8 +143,8 @@ def sweep_sizes(design: Design, library, region: Region, board: BoardOptions,
 
     Raises
     ------
-    ProjectError
-        A size is not a package of the library.
+    UnknownNameError
+        A size is not a package of the library (placed at ``sweep: sizes``).
     """
     sizes = tuple(sizes)
     passives = two_terminal_passives(design, library)
@@ -154,11 +152,7 @@ def sweep_sizes(design: Design, library, region: Region, board: BoardOptions,
     swept = tuple(r for r in passives if r not in kept)
     shape = {}
     for s in sizes:
-        try:
-            cy = library.package(s).courtyard(board.density)
-        except KeyError as exc:
-            raise ProjectError("sweep", str(exc.args[0]) if exc.args else f"unknown package {s!r}",
-                               key="sizes") from None
+        cy = library.package(s, file="sweep", key="sizes").courtyard(board.density)
         shape[s] = (float(cy.length_mm), float(cy.width_mm))
     rows = []
     for n, s in enumerate((DESIGNED, *sizes)):

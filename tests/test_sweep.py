@@ -9,7 +9,7 @@ import pytest
 from shapely.geometry import box
 
 from pipeline.library import load_library
-from pipeline.errors import ProjectError
+from pipeline.errors import UnknownNameError
 from pipeline.model import BoardOptions, Design, HeightZone, Net, Part, PartKind, PinDef, PinRef, Region
 from pipeline.sweep import sweep_sizes, two_terminal_passives
 
@@ -112,7 +112,7 @@ def test_sweep_nothing_fits(lib):
 def test_sweep_unknown_size(lib):
     geom = box(0, 0, 30, 30)
     region = Region(geom, (HeightZone(geom, 4.0),), 0.8)
-    with pytest.raises(ProjectError):
+    with pytest.raises(UnknownNameError):  # an InputError: exit 2
         sweep_sizes(_design(), lib, region, BoardOptions(), ("0603", "0604x"))
 
 
@@ -152,7 +152,7 @@ def test_sweep_starts_with_the_design_and_keeps_fixed_parts(lib):
     assert res.kept == ("R1",) and "R1" not in res.swept
     out = res.to_dict()
     assert [r["size"] for r in out["sizes"]] == ["design", "0402", "1206"] and out["kept_refs"] == ["R1"]
-    # R1 stays 0603 (2.8 x 1.3 mm nominal courtyard, IPC-7351B) while the others go to 0402
+    # R1 stays 0603 while the other swept passives go to 0402
     small = items_from_design(d, lib, "nominal", {r: "0402" for r in res.swept})
     assert res.row("0402").courtyard_area_mm2 == pytest.approx(sum(i.length_mm * i.width_mm for i in small))
-    assert any(i.ref == "R1" and (i.length_mm, i.width_mm) == (2.8, 1.3) for i in small)
+    assert {i.ref: i.package for i in small if i.ref in ("R1", "R2")} == {"R1": "0603", "R2": "0402"}

@@ -1,0 +1,63 @@
+"""``routes.json``: the routed copper in a format anyone can check.
+
+Entry points: :func:`routes_dict` (JSON-ready values) and
+:func:`routes_json` (bytes). Millimetres in the drawing's frame, rounded to
+0.1 um; keys in the order of the format (issue 9): ``status``,
+``board_outline``, ``holes``, ``layers``, ``pads``, ``tracks``, ``vias``,
+``areas``, ``rules``, ``open``. A track's copper is its centre line grown
+by half its width with round ends and joins. Lists are sorted, so equal
+inputs give equal bytes.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from ..route.board import RouteBoard
+from ..route.router import Routing
+from ..route.rules import CopperRules
+from .netlist import dump_json
+from .results import outline_coords, outline_holes
+
+__all__ = ["routes_dict", "routes_json"]
+
+
+def _r(v: float) -> float:
+    r = round(float(v), 4)
+    return 0.0 if r == 0 else r
+
+
+def _rules(rules: CopperRules) -> dict[str, float]:
+    return {"clearance_mm": _r(rules.clearance_mm), "edge_clearance_mm": _r(rules.edge_clearance_mm),
+            "min_track_width_mm": _r(rules.track_width_mm), "min_annular_ring_mm": _r(rules.annular_ring_mm),
+            "min_drill_mm": _r(rules.via_drill_mm)}
+
+
+def routes_dict(board: RouteBoard, rules: CopperRules, routing: Routing | None) -> dict[str, Any]:
+    """The ``routes.json`` document; ``routing`` ``None`` gives status ``"skipped"`` (pads, no copper)."""
+    pads = [{"ref": p.ref, "pin": p.pin, "net": p.net, "layers": list(p.layers),
+             "polygon": outline_coords(p.polygon)} for p in board.pads]
+    doc: dict[str, Any] = {
+        "status": routing.status if routing is not None else "skipped",
+        "board_outline": outline_coords(board.outline),
+        "holes": [outline_coords(h) for h in board.holes],
+        "layers": list(rules.layer_names),
+        "pads": pads,
+        "tracks": [], "vias": [], "areas": [],
+        "rules": _rules(rules),
+        "open": [],
+    }
+    if routing is None:
+        return doc
+    doc["tracks"] = [{"net": t.net, "layer": t.layer, "width_mm": _r(t.width_mm),
+                      "points": [[_r(x), _r(y)] for x, y in t.points]} for t in routing.tracks]
+    doc["vias"] = [{"net": v.net, "x": _r(v.x), "y": _r(v.y), "diameter_mm": _r(v.diameter_mm),
+                    "drill_mm": _r(v.drill_mm)} for v in routing.vias]
+    doc["areas"] = [{"net": a.net, "layer": a.layer, "polygon": outline_coords(a.polygon),
+                     "holes": outline_holes(a.polygon)} for a in routing.areas]
+    doc["open"] = list(routing.open)
+    return doc
+
+
+def routes_json(board: RouteBoard, rules: CopperRules, routing: Routing | None) -> bytes:
+    return dump_json(routes_dict(board, rules, routing))

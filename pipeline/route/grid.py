@@ -1,0 +1,210 @@
+"""The routing grid: where each net's track centres and vias may go.
+
+Entry point: :func:`build_grid`. Nodes sit on a square grid of pitch
+``track width + clearance`` on every copper layer, so two tracks of
+different nets on distinct nodes (joined only along grid lines) are always
+at least the clearance apart. For each node, each grid edge and each via
+site the grid records an owner: ``FREE`` (any net), ``BLOCKED`` (no net) or
+a net index (only that net: it lies within clearance of that net's pad).
+
+Tests are exact, not sampled: a node is usable by net ``k`` when its
+distance (shapely) to every pad of another net is at least ``w/2 + s``, to
+the board edge at least the copper-to-edge rule plus ``w/2`` (and it lies
+inside), to every hole as much; a grid edge is tested the same way as a
+segment; a via site with the via radius in place of ``w/2`` (and, when
+vias may not sit in pads, at least the via radius from every surface pad).
+Cost: O(nodes) vectorised shapely calls plus O(pads x nearby nodes).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+import shapely
+from shapely.geometry import MultiPolygon, Polygon
+
+from .board import RouteBoard
+from .rules import CopperRules
+
+__all__ = ["Grid", "build_grid", "FREE", "BLOCKED"]
+
+FREE = -1
+BLOCKED = -2
+#: tolerance (mm) on exact distance tests: a gap of (rule - EPS) still counts as the rule.
+EPS = 1e-7
+
+
+@dataclass
+class Grid:
+    """Grid geometry and owner arrays (flat Python lists for the router's speed).
+
+    Node ``n = (layer * ny + j) * nx + i`` at ``(x0 + i p, y0 + j p)``;
+    ``ex[n]`` owns the edge from ``n`` to ``n + 1``, ``ey[n]`` to ``n + nx``;
+    ``via[j * nx + i]`` a via site. ``layers`` are the routing layer names.
+    """
+
+    x0: float
+    y0: float
+    pitch: float
+    nx: int
+    ny: int
+    layers: tuple[str, ...]
+    node: list[int]
+    ex: list[int]
+    ey: list[int]
+    via: list[int]
+    nets: tuple[str, ...] = ()
+    extra_copper: dict = field(default_factory=dict)
+
+    def xy(self, n: int) -> tuple[float, float]:
+        i = n % self.nx
+        j = (n // self.nx) % self.ny
+        return (self.x0 + i * self.pitch, self.y0 + j * self.pitch)
+
+    def layer_of(self, n: int) -> int:
+        return n // (self.nx * self.ny)
+
+
+def _own(arr: np.ndarray, idx: np.ndarray, net: int) -> None:
+    """Mark ``idx`` as owned by ``net`` (BLOCKED where another net owns it)."""
+    cur = arr[idx]
+    arr[idx] = np.where(cur == FREE, net, np.where(cur == net, net, BLOCKED))
+
+
+def build_grid(board: RouteBoard, rules: CopperRules, width: float, layers: tuple[str, ...],
+               nets: tuple[str, ...], extra: dict[str, list] | None = None) -> Grid:
+    """Owner arrays for tracks of ``width`` (mm) on ``layers``.
+
+    ``nets`` fixes the net indices; ``extra`` maps a net name to more of its
+    copper (pin-access stubs) to keep other nets away from, as shapely
+    geometries with a layer each: ``[(layer, geometry), ...]``.
+    """
+    p = rules.pitch_mm
+    xmin, ymin, xmax, ymax = board.outline.bounds
+    nx = int(math.floor((xmax - xmin) / p)) + 1
+    ny = int(math.floor((ymax - ymin) / p)) + 1
+    xs = xmin + p * np.arange(nx)
+    ys = ymin + p * np.arange(ny)
+    gx, gy = np.meshgrid(xs, ys)
+    pts = shapely.points(gx.ravel(), gy.ravel())
+    index = {n: k for k, n in enumerate(nets)}
+    node = np.full(len(layers) * nx * ny, FREE, dtype=np.int64)
+    ex = np.full_like(node, BLOCKED)
+    ey = np.full_like(node, BLOCKED)
+    half = width / 2 + rules.clearance_mm
+    copper = _copper_by_layer(board, layers, index, extra or {})
+    for li, name in enumerate(layers):
+        off = li * nx * ny
+        inside = _inside(board, pts, _edge_rule(rules, name, len(layers)) + width / 2)
+        sl = node[off:off + nx * ny]
+        sl[~inside] = BLOCKED
+        tree = shapely.STRtree(pts)
+        for net, geo in copper[name]:
+            hit = tree.query(geo, predicate="dwithin", distance=half)
+            hit = hit[shapely.distance(pts[hit], geo) < half - EPS]
+            _own(sl, hit, net)
+        ex[off:off + nx * ny], ey[off:off + nx * ny] = _edges(board, sl, gx, gy, p, copper[name], half,
+                                                              _edge_rule(rules, name, len(layers)) + width / 2)
+    via = _vias(board, rules, pts, layers, copper, len(layers))
+    return Grid(float(xmin), float(ymin), p, nx, ny, tuple(layers), node.tolist(), ex.tolist(), ey.tolist(),
+                via.tolist(), tuple(nets))
+
+
+def _edge_rule(rules: CopperRules, layer: str, count: int) -> float:
+    inner = layer not in ("top", "bottom")
+    return rules.inner_edge_clearance_mm if inner else rules.edge_clearance_mm
+
+
+def _copper_by_layer(board: RouteBoard, layers, index, extra) -> dict[str, list]:
+    out: dict[str, list] = {name: [] for name in layers}
+    for pad in board.pads:
+        net = index.get(pad.net, BLOCKED) if pad.net is not None else BLOCKED
+        for name in pad.layers:
+            if name in out:
+                out[name].append((net, pad.polygon))
+    for netname in sorted(extra):
+        for name, geo in extra[netname]:
+            out[name].append((index[netname], geo))
+    return out
+
+
+def _holes(board: RouteBoard):
+    return shapely.union_all(list(board.holes)) if board.holes else None
+
+
+def _inside(board: RouteBoard, pts: np.ndarray, margin: float) -> np.ndarray:
+    """Points inside the outline, at least ``margin`` from its edge and from every hole."""
+    ok = shapely.contains_xy(board.outline, shapely.get_x(pts), shapely.get_y(pts))
+    ok &= shapely.distance(board.outline.exterior, pts) >= margin - EPS
+    holes = _holes(board)
+    if holes is not None:
+        ok &= shapely.distance(holes, pts) >= margin - EPS
+    return ok
+
+
+def _edges(board, sl, gx, gy, p, copper, half, margin):
+    """Owners of the +x and +y grid edges of one layer."""
+    ny, nx = gx.shape
+    a = sl.reshape(ny, nx)
+    ex = np.full((ny, nx), BLOCKED, dtype=np.int64)
+    ey = np.full((ny, nx), BLOCKED, dtype=np.int64)
+    for arr, (b, sx, sy) in ((ex, (a[:, 1:], slice(None), slice(0, nx - 1))),
+                             (ey, (a[1:, :], slice(0, ny - 1), slice(None)))):
+        u = a[sx, sy]
+        arr[sx, sy] = np.where((u == BLOCKED) | (b == BLOCKED), BLOCKED,
+                               np.where(u == FREE, b, np.where((b == FREE) | (b == u), u, BLOCKED)))
+    # exact segment tests near copper and near the board edge
+    for arr, di, dj in ((ex, 1, 0), (ey, 0, 1)):
+        js, is_ = np.nonzero(arr != BLOCKED)
+        if js.size == 0:
+            continue
+        x1, y1 = gx[js, is_], gy[js, is_]
+        lines = shapely.linestrings(np.stack([np.stack([x1, y1], -1),
+                                              np.stack([x1 + di * p, y1 + dj * p], -1)], 1))
+        bad = shapely.distance(board.outline.exterior, lines) < margin - EPS
+        holes = _holes(board)
+        if holes is not None:
+            bad |= shapely.distance(holes, lines) < margin - EPS
+        arr[js[bad], is_[bad]] = BLOCKED
+        tree = shapely.STRtree(lines)
+        for net, geo in copper:
+            hit = tree.query(geo, predicate="dwithin", distance=half)
+            hit = hit[shapely.distance(lines[hit], geo) < half - EPS]
+            flat = arr.reshape(-1)
+            idx = js[hit] * nx + is_[hit]
+            _own(flat, idx, net)
+    return ex.ravel(), ey.ravel()
+
+
+def _vias(board, rules, pts, layers, copper, count) -> np.ndarray:
+    """Owners of via sites (one per grid point, through every layer)."""
+    rv = rules.via_diameter_mm / 2
+    edge = max(_edge_rule(rules, name, count) for name in layers)
+    via = np.where(_inside(board, pts, edge + rv), FREE, BLOCKED).astype(np.int64)
+    tree = shapely.STRtree(pts)
+    half = rv + rules.clearance_mm
+    for name in layers:
+        for net, geo in copper[name]:
+            hit = tree.query(geo, predicate="dwithin", distance=half)
+            hit = hit[shapely.distance(pts[hit], geo) < half - EPS]
+            _own(via, hit, net)
+    if not rules.vias_in_pads:
+        for pad in board.pads:
+            if len(pad.layers) == 1:
+                hit = tree.query(pad.polygon, predicate="dwithin", distance=rv)
+                via[hit[shapely.distance(pts[hit], pad.polygon) < rv - EPS]] = BLOCKED
+    return via
+
+
+def as_polygons(geo) -> list[Polygon]:
+    """The polygons of a shapely geometry (empty list for none)."""
+    if geo is None or geo.is_empty:
+        return []
+    if isinstance(geo, Polygon):
+        return [geo]
+    if isinstance(geo, MultiPolygon):
+        return list(geo.geoms)
+    return [g for g in getattr(geo, "geoms", []) if isinstance(g, Polygon)]
+

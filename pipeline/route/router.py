@@ -1,0 +1,576 @@
+"""The router: negotiated-congestion maze routing on every layer, with vias.
+
+Entry point: :func:`route_board`. It either completes every connection or
+names the open nets and where the congestion is. Whatever it returns is
+re-checked by the independent copper checker (:mod:`pipeline.copper`)
+before anyone calls a board routed.
+
+Method
+------
+* **Grid** (:mod:`pipeline.route.grid`): nodes at the pitch track width +
+  clearance on every copper layer, with exact owner tests against pads,
+  holes and the board edge. Tracks run along grid lines; a via joins all
+  layers at a grid point.
+* **Connections**: a net grows as a tree (Prim's order: the unconnected
+  pad nearest to the connected ones next); each step is an A* search (P.
+  E. Hart, N. J. Nilsson and B. Raphael, "A formal basis for the heuristic
+  determination of minimum cost paths", IEEE Trans. SSC 4(2), 1968) from
+  every node of the tree and the connected pads to the next pad, with the
+  Manhattan distance to that pad's nodes as an admissible heuristic. Each
+  layer prefers one direction (horizontal on top, vertical below: common
+  practice), a via costs ``VIA_COST`` steps.
+* **Negotiated congestion** (PathFinder: L. McMurchie and C. Ebeling,
+  "PathFinder: a negotiation-based performance-driven router for FPGAs",
+  FPGA 1995): nets may first share nodes; a node's cost is
+  ``step x (1 + history) x (1 + present x sharers)``. After each round the
+  history of shared nodes grows, the present factor grows by
+  ``PRESENT_GROWTH``, and the nets that share are ripped up and routed
+  again, until nothing is shared, ``MAX_ROUNDS`` pass or the time budget
+  runs out. Nets still sharing then are dropped one at a time (most shared
+  first) and reported open with the shared places as the congestion.
+* **Clearance model**: a track node or via claims the nodes around it that
+  another net's copper may not use (none for two plain tracks: the pitch
+  already holds the clearance; the 8 neighbours of a via; more around wide
+  tracks). Two nets conflict where one's copper stands on the other's
+  claim.
+* **Copper areas**: a net given a layer fills it (board less edge
+  clearance, holes and other nets' copper grown by the clearance); each of
+  its pads not on that layer routes to the nearest via site.
+
+Deterministic: nets, pads and neighbours are visited in fixed orders and
+heap ties break on insertion order; only the time budget (checked between
+nets) can make a slower machine stop earlier. Cost per A* search
+O(V log V) over the nodes of a window around the connection.
+"""
+
+from __future__ import annotations
+
+import heapq
+import math
+import time
+from dataclasses import dataclass
+from typing import Callable
+
+import shapely
+from shapely.geometry import LineString, Point
+
+from .board import RouteBoard, RoutePad
+from .grid import BLOCKED, FREE, Grid, as_polygons, build_grid
+from .rules import CopperRules
+
+__all__ = ["Track", "Via", "Area", "Routing", "route_board", "VIA_COST", "MAX_ROUNDS"]
+
+VIA_COST = 4.0           #: a via, in grid steps (our choice)
+OFF_DIRECTION = 1.5      #: a step against the layer's preferred direction (our choice)
+MAX_ROUNDS = 40          #: negotiation rounds at most
+PRESENT_START = 0.5      #: PathFinder's first present-sharing factor (our choice)
+PRESENT_GROWTH = 1.6     #: its growth per round (McMurchie and Ebeling use 1.5 to 2)
+HISTORY_STEP = 0.4       #: history added to a shared node per round
+WINDOW = 12              #: grid steps around a connection's box searched first
+AREA_MARGIN = 0.005      #: extra gap (mm) where copper areas are cut: buffer arcs are chords
+STUB_REACH = 3           #: grid steps within which a pin-access stub may end
+DOT = 1e-3               #: length (mm) of the track that stands for a single node of copper
+
+Progress = Callable[[str, float], None]
+
+
+@dataclass(frozen=True)
+class Track:
+    """A track: centre line (two or more points, mm), copper = line grown by half the width."""
+
+    net: str
+    layer: str
+    width_mm: float
+    points: tuple[tuple[float, float], ...]
+
+
+@dataclass(frozen=True)
+class Via:
+    net: str
+    x: float
+    y: float
+    diameter_mm: float
+    drill_mm: float
+
+
+@dataclass(frozen=True)
+class Area:
+    """A copper area of ``net`` on ``layer`` (a shapely Polygon with holes)."""
+
+    net: str
+    layer: str
+    polygon: object
+
+
+@dataclass(frozen=True)
+class Routing:
+    """What the router made: copper, the open nets, and where it was crowded.
+
+    ``status`` is ``"routed"`` (every connection made) or ``"open"``.
+    ``congestion`` lists up to ten ``(x, y)`` places (mm) where nets still
+    shared when the router gave up, most shared first.
+    """
+
+    status: str
+    board: RouteBoard
+    rules: CopperRules
+    tracks: tuple[Track, ...]
+    vias: tuple[Via, ...]
+    areas: tuple[Area, ...]
+    open: tuple[str, ...]
+    congestion: tuple[tuple[float, float], ...]
+    rounds: int
+
+    @property
+    def wirelength_mm(self) -> float:
+        return sum(LineString(t.points).length for t in self.tracks)
+
+
+# --------------------------------------------------------------------------
+class _Net:
+    __slots__ = ("name", "k", "pads", "width", "area", "grid", "terms", "paths", "vias", "core", "claim",
+                 "failed", "stubs", "halo")
+
+    def __init__(self, name, k, pads, width, area):
+        self.name, self.k, self.pads, self.width, self.area = name, k, pads, width, area
+        self.grid: Grid | None = None
+        self.terms: list[list[int]] = []
+        self.paths: list[list[int]] = []
+        self.vias: list[int] = []
+        self.core: set[int] = set()
+        self.claim: set[int] = set()
+        self.failed = False
+        self.stubs: list[tuple[int, str, LineString]] = []
+        self.halo: list[tuple[int, int]] = []
+
+
+def route_board(board: RouteBoard, rules: CopperRules, *, progress: Progress | None = None,
+                time_budget_s: float | None = None) -> Routing:
+    """Route ``board`` under ``rules``; see the module docstring.
+
+    ``time_budget_s`` defaults to ``rules.time_budget_s``.
+    """
+    return _Router(board, rules, progress, rules.time_budget_s if time_budget_s is None else time_budget_s).run()
+
+
+class _Router:
+    def __init__(self, board: RouteBoard, rules: CopperRules, progress, budget):
+        self.board, self.rules, self.progress = board, rules, progress
+        self.deadline = time.monotonic() + budget
+        self.layers = rules.layer_names
+        netpads = board.nets()
+        self.names = tuple(netpads)
+        self.nets = [_Net(n, k, netpads[n], rules.net_width(n), rules.area_layer(n))
+                     for k, n in enumerate(self.names)]
+        self.wmax = max([n.width for n in self.nets] + [rules.track_width_mm])
+        self._grids: dict[float, Grid] = {}
+
+    # ---------------------------------------------------------------- setup
+    def grid(self, width: float, extra=None) -> Grid:
+        key = round(width, 9)
+        if extra is not None or key not in self._grids:
+            g = build_grid(self.board, self.rules, width, self.layers, self.names, extra)
+            for li, name in enumerate(self.layers):  # a layer given to a copper area carries no tracks
+                if any(layer == name for _, layer in self.rules.areas):
+                    off = li * g.nx * g.ny
+                    g.node[off:off + g.nx * g.ny] = [BLOCKED] * (g.nx * g.ny)
+            self._grids[key] = g
+        return self._grids[key]
+
+    def setup(self) -> None:
+        stubs: dict[str, list] = {}
+        for net in self.nets:
+            g = self.grid(net.width)
+            net.terms = [self.terminals(g, net, pad) for pad in net.pads]
+            for pi, (pad, terms) in enumerate(zip(net.pads, net.terms)):
+                if not terms and not (net.area and net.area in pad.layers):
+                    stub = self.stub(g, net, pad, stubs)
+                    if stub is not None:
+                        net.stubs.append((pi, *stub))
+                        stubs.setdefault(net.name, []).append((stub[0], stub[1].buffer(net.width / 2 + 0.002)))
+        if stubs:
+            self._grids.clear()
+            for width in sorted({n.width for n in self.nets}):
+                self.grid(width, stubs)
+        p = self.rules.pitch_mm
+        rv = self.rules.via_diameter_mm / 2
+        self.via_halo = _offsets(rv + max(rv, self.wmax / 2) + self.rules.clearance_mm, p)
+        for net in self.nets:
+            net.grid = self.grid(net.width)
+            net.terms = [self.terminals(net.grid, net, pad) for pad in net.pads]
+            for pi, layer, line in net.stubs:
+                net.terms[pi] = [self.node_at(net.grid, layer, line.coords[-1])]
+            net.halo = _offsets(net.width / 2 + self.wmax / 2 + self.rules.clearance_mm, p)
+        n_nodes = len(self.layers) * self.nets[0].grid.nx * self.nets[0].grid.ny if self.nets else 0
+        self.core_occ = [0] * n_nodes
+        self.claim_occ = [0] * n_nodes
+        self.hist = [0.0] * n_nodes
+
+    def node_at(self, g: Grid, layer: str, xy) -> int:
+        i = round((xy[0] - g.x0) / g.pitch)
+        j = round((xy[1] - g.y0) / g.pitch)
+        return (self.layers.index(layer) * g.ny + j) * g.nx + i
+
+    def terminals(self, g: Grid, net: _Net, pad: RoutePad) -> list[int]:
+        """Nodes where a track of ``net`` overlaps ``pad`` (by at least 0.01 mm)."""
+        out = []
+        reach = max(net.width / 2 - 0.01, 0.0)
+        x0, y0, x1, y1 = pad.polygon.bounds
+        i0, i1 = max(0, math.ceil((x0 - reach - g.x0) / g.pitch)), min(g.nx - 1, math.floor((x1 + reach - g.x0) / g.pitch))
+        j0, j1 = max(0, math.ceil((y0 - reach - g.y0) / g.pitch)), min(g.ny - 1, math.floor((y1 + reach - g.y0) / g.pitch))
+        for li, name in enumerate(self.layers):
+            if name not in pad.layers:
+                continue
+            for j in range(j0, j1 + 1):
+                for i in range(i0, i1 + 1):
+                    n = (li * g.ny + j) * g.nx + i
+                    if g.node[n] in (FREE, net.k) and pad.polygon.distance(Point(g.xy(n))) <= reach:
+                        out.append(n)
+        return out
+
+    def stub(self, g: Grid, net: _Net, pad: RoutePad, taken: dict) -> tuple[str, LineString] | None:
+        """A short straight track from inside ``pad`` to a nearby usable node (pin access)."""
+        anchor = pad.polygon.representative_point()
+        w, s = net.width, self.rules.clearance_mm
+        others = [(p.polygon, p.layers) for p in self.board.pads if p.net != net.name]
+        best = None
+        for li, name in enumerate(self.layers):
+            if name not in pad.layers:
+                continue
+            ci = round((anchor.x - g.x0) / g.pitch)
+            cj = round((anchor.y - g.y0) / g.pitch)
+            for j in range(cj - STUB_REACH, cj + STUB_REACH + 1):
+                for i in range(ci - STUB_REACH, ci + STUB_REACH + 1):
+                    if not (0 <= i < g.nx and 0 <= j < g.ny):
+                        continue
+                    n = (li * g.ny + j) * g.nx + i
+                    if g.node[n] not in (FREE, net.k):
+                        continue
+                    line = LineString([anchor.coords[0], g.xy(n)])
+                    if any(name in lay and line.distance(poly) < w / 2 + s + 1e-6 for poly, lay in others):
+                        continue
+                    if any(lay == name and line.distance(geo) < s + w / 2 + 1e-6
+                           for other, items in taken.items() if other != net.name for lay, geo in items):
+                        continue
+                    key = (line.length, li, j, i)
+                    if best is None or key < best[0]:
+                        best = (key, (name, line))
+        return None if best is None else best[1]
+
+    # ---------------------------------------------------------------- occupancy
+    def claims(self, net: _Net) -> tuple[set[int], set[int]]:
+        g = net.grid
+        plane = g.nx * g.ny
+        core: set[int] = set()
+        for path in net.paths:
+            core.update(path)
+        claim = set(core)
+        for n in core:
+            claim.update(self.around(g, n, net.halo, same_layer=True))
+        for site in net.vias:
+            for li in range(len(self.layers)):
+                core.add(li * plane + site)
+                claim.add(li * plane + site)
+            claim.update(self.around(g, site, self.via_halo, same_layer=False))
+        return core, claim
+
+    def around(self, g: Grid, n: int, offsets, *, same_layer: bool) -> list[int]:
+        plane = g.nx * g.ny
+        li, rest = divmod(n, plane)
+        j, i = divmod(rest, g.nx)
+        layers = [li] if same_layer else range(len(self.layers))
+        out = []
+        for di, dj in offsets:
+            ii, jj = i + di, j + dj
+            if 0 <= ii < g.nx and 0 <= jj < g.ny:
+                for lj in layers:
+                    out.append(lj * plane + jj * g.nx + ii)
+        return out
+
+    def commit(self, net: _Net, sign: int) -> None:
+        if sign > 0:
+            net.core, net.claim = self.claims(net)
+        for n in net.core:
+            self.core_occ[n] += sign
+        for n in net.claim:
+            self.claim_occ[n] += sign
+
+    def shared(self) -> tuple[set[int], list[_Net]]:
+        """Nodes where one net's copper stands on another's claim, and the nets involved."""
+        bad = {n for net in self.nets for n in net.core if self.claim_occ[n] >= 2}
+        return bad, [net for net in self.nets if net.claim & bad]
+
+    # ---------------------------------------------------------------- routing
+    def run(self) -> Routing:
+        self.setup()
+        order = sorted(self.nets, key=lambda n: (_span(n.pads), n.name))
+        todo = order
+        present = PRESENT_START
+        rounds = 0
+        bad: set[int] = set()
+        for rounds in range(1, MAX_ROUNDS + 1):
+            for idx, net in enumerate(todo):
+                if time.monotonic() > self.deadline:
+                    break
+                self.reroute(net, present)
+                if self.progress:
+                    self.progress(f"routing: round {rounds}, {net.name}", min(0.99, (rounds - 1 + idx / len(todo)) / 8))
+            bad, involved = self.shared()
+            if not bad or time.monotonic() > self.deadline:
+                break
+            for n in bad:
+                self.hist[n] += HISTORY_STEP
+            present *= PRESENT_GROWTH
+            todo = [n for n in order if n in involved]
+        congestion = self.resolve(bad)
+        return self.result(rounds, congestion)
+
+    def reroute(self, net: _Net, present: float) -> None:
+        if net.paths or net.vias:
+            self.commit(net, -1)
+        net.paths, net.vias, net.failed = [], [], False
+        if any(not t for t, pad in zip(net.terms, net.pads) if not (net.area and net.area in pad.layers)):
+            net.failed = True
+        elif net.area:
+            self.route_to_area(net, present)
+        else:
+            self.route_tree(net, present)
+        self.commit(net, +1)
+
+    def route_tree(self, net: _Net, present: float) -> None:
+        pads = list(range(len(net.pads)))
+        done = [pads.pop(0)]
+        tree: set[int] = set(net.terms[done[0]])
+        cents = [p.polygon.centroid for p in net.pads]
+        while pads:
+            nxt = min(pads, key=lambda q: (min(cents[q].distance(cents[d]) for d in done), q))
+            path = self.astar(net, tree, set(net.terms[nxt]), present)
+            if path is None:
+                net.failed = True
+                return
+            self.add_path(net, path)
+            tree.update(path)
+            tree.update(net.terms[nxt])
+            pads.remove(nxt)
+            done.append(nxt)
+
+    def route_to_area(self, net: _Net, present: float) -> None:
+        for pad, terms in zip(net.pads, net.terms):
+            if net.area in pad.layers:
+                continue
+            path = self.astar(net, set(terms), None, present)
+            if path is None:
+                net.failed = True
+                return
+            self.add_path(net, path)
+            net.vias.append(path[-1] % (net.grid.nx * net.grid.ny))
+
+    def add_path(self, net: _Net, path: list[int]) -> None:
+        plane = net.grid.nx * net.grid.ny
+        net.paths.append(path)
+        for a, b in zip(path, path[1:]):
+            if a // plane != b // plane:
+                net.vias.append(a % plane)
+
+    def astar(self, net: _Net, sources: set[int], targets: set[int] | None, present: float) -> list[int] | None:
+        """Least-cost path from ``sources`` to ``targets`` (to any via site when ``targets`` is None)."""
+        g = net.grid
+        if targets is not None:
+            box = _box(g, sources | targets, WINDOW)
+            path = self._search(net, sources, targets, present, box)
+            if path is not None or box == (0, 0, g.nx - 1, g.ny - 1):
+                return path
+        return self._search(net, sources, targets, present, (0, 0, g.nx - 1, g.ny - 1))
+
+    def _search(self, net, sources, targets, present, box):
+        g = net.grid
+        nx, ny = g.nx, g.ny
+        plane = nx * ny
+        nl = len(self.layers)
+        node, ex, ey, via = g.node, g.ex, g.ey, g.via
+        hist, claim_occ, core_occ = self.hist, self.claim_occ, self.core_occ
+        k = net.k
+        i0, j0, i1, j1 = box
+        if targets is not None:
+            tj = [(t % plane) // nx for t in targets]
+            ti = [t % nx for t in targets]
+            ti0, ti1, tj0, tj1 = min(ti), max(ti), min(tj), max(tj)
+        else:
+            ti0 = ti1 = tj0 = tj1 = None
+        prefer = nl - sum(1 for _, layer in self.rules.areas) > 1
+        halo = net.halo
+        via_halo = self.via_halo
+
+        def h(n):
+            if ti0 is None:
+                return 0.0
+            r = n % plane
+            j, i = divmod(r, nx)
+            return (max(ti0 - i, 0, i - ti1) + max(tj0 - j, 0, j - tj1)) * 1.0
+
+        def node_cost(n, step):
+            c = step * (1.0 + hist[n]) * (1.0 + present * claim_occ[n])
+            if halo:
+                c += present * sum(core_occ[m] for m in self.around(g, n, halo, same_layer=True))
+            return c
+
+        best: dict[int, float] = {}
+        parent: dict[int, int] = {}
+        heap: list = []
+        cnt = 0
+        for s in sorted(sources):
+            best[s] = 0.0
+            parent[s] = -1
+            heap.append((h(s), cnt, s, 0.0))
+            cnt += 1
+        heapq.heapify(heap)
+        while heap:
+            _, _, n, gn = heapq.heappop(heap)
+            if gn > best[n] + 1e-12:
+                continue
+            li, r = divmod(n, plane)
+            j, i = divmod(r, nx)
+            if targets is None:
+                if via[r] in (FREE, k):
+                    return self._path(parent, n)
+            elif n in targets:
+                return self._path(parent, n)
+            horiz_pref = not prefer or li % 2 == 0
+            vert_pref = not prefer or li % 2 == 1
+            moves = []
+            if i + 1 <= i1 and ex[n] in (FREE, k):
+                moves.append((n + 1, 1.0 if horiz_pref else OFF_DIRECTION))
+            if i - 1 >= i0 and ex[n - 1] in (FREE, k):
+                moves.append((n - 1, 1.0 if horiz_pref else OFF_DIRECTION))
+            if j + 1 <= j1 and ey[n] in (FREE, k):
+                moves.append((n + nx, 1.0 if vert_pref else OFF_DIRECTION))
+            if j - 1 >= j0 and ey[n - nx] in (FREE, k):
+                moves.append((n - nx, 1.0 if vert_pref else OFF_DIRECTION))
+            if nl > 1 and via[r] in (FREE, k) and targets is not None:
+                extra = present * sum(core_occ[m] for m in self.around(g, r, via_halo, same_layer=False))
+                for lj in range(nl):
+                    if lj != li:
+                        moves.append((lj * plane + r, VIA_COST + extra))
+            for m, step in moves:
+                if node[m] not in (FREE, k):
+                    continue
+                gm = gn + node_cost(m, step)
+                if gm < best.get(m, math.inf) - 1e-12:
+                    best[m] = gm
+                    parent[m] = n
+                    cnt += 1
+                    heapq.heappush(heap, (gm + h(m), cnt, m, gm))
+        return None
+
+    @staticmethod
+    def _path(parent: dict[int, int], n: int) -> list[int]:
+        out = [n]
+        while parent[out[-1]] != -1:
+            out.append(parent[out[-1]])
+        return out[::-1]
+
+    # ---------------------------------------------------------------- ending
+    def resolve(self, bad: set[int]) -> tuple[tuple[float, float], ...]:
+        """Drop sharing nets (most shared first) until nothing is shared; return the crowded places."""
+        g0 = self.nets[0].grid if self.nets else None
+        places = sorted(bad, key=lambda n: (-self.hist[n], n))
+        congestion = []
+        for n in places:
+            xy = g0.xy(n)
+            if xy not in congestion:
+                congestion.append(xy)
+        while bad:
+            counts = [(len(net.claim & bad) + len(net.core & bad), net.name, net) for net in self.nets]
+            _, _, worst = max(counts, key=lambda t: (t[0], t[1]))
+            self.commit(worst, -1)
+            worst.paths, worst.vias, worst.core, worst.claim, worst.failed = [], [], set(), set(), True
+            bad, _ = self.shared()
+        return tuple(congestion[:10])
+
+    def result(self, rounds: int, congestion) -> Routing:
+        tracks: list[Track] = []
+        vias: list[Via] = []
+        for net in self.nets:
+            if net.failed:
+                continue
+            g = net.grid
+            plane = g.nx * g.ny
+            for path in net.paths:
+                for layer, pts in _runs(g, path, plane, self.layers):
+                    if len(pts) >= 2:
+                        tracks.append(Track(net.name, layer, net.width, pts))
+            for _, layer, line in net.stubs:
+                tracks.append(Track(net.name, layer, net.width, tuple(line.coords)))
+            for site in sorted(set(net.vias)):
+                x, y = g.xy(site)
+                vias.append(Via(net.name, x, y, self.rules.via_diameter_mm, self.rules.via_drill_mm))
+        areas = self.areas(tracks, vias)
+        open_ = tuple(sorted(n.name for n in self.nets if n.failed))
+        tracks.sort(key=lambda t: (t.net, t.layer, t.points))
+        vias.sort(key=lambda v: (v.net, v.x, v.y))
+        return Routing("open" if open_ else "routed", self.board, self.rules, tuple(tracks), tuple(vias),
+                       tuple(areas), open_, congestion, rounds)
+
+    def areas(self, tracks: list[Track], vias: list[Via]) -> list[Area]:
+        out = []
+        s = self.rules.clearance_mm + AREA_MARGIN
+        for netname, layer in self.rules.areas:
+            edge = (self.rules.edge_clearance_mm if layer in ("top", "bottom") else self.rules.inner_edge_clearance_mm)
+            region = self.board.outline.buffer(-(edge + AREA_MARGIN), join_style="mitre")
+            cut = [h.buffer(edge + AREA_MARGIN) for h in self.board.holes]
+            cut += [p.polygon.buffer(s) for p in self.board.pads if p.net != netname and layer in p.layers]
+            cut += [Point(v.x, v.y).buffer(v.diameter_mm / 2 + s) for v in vias if v.net != netname]
+            cut += [LineString(t.points).buffer(t.width_mm / 2 + s) for t in tracks
+                    if t.net != netname and t.layer == layer]
+            if cut:
+                region = region.difference(shapely.union_all(cut))
+            mine = [p.polygon for p in self.board.pads if p.net == netname and layer in p.layers]
+            mine += [Point(v.x, v.y) for v in vias if v.net == netname]
+            for poly in sorted(as_polygons(region), key=lambda q: (-q.area, q.bounds)):
+                if any(poly.intersects(m) for m in mine):
+                    out.append(Area(netname, layer, poly))
+        return out
+
+
+def _runs(g: Grid, path: list[int], plane: int, layers) -> list[tuple[str, tuple]]:
+    """A path split at its layer changes, each run as corner points only."""
+    out = []
+    run = [path[0]]
+    for a, b in zip(path, path[1:]):
+        if a // plane != b // plane:
+            out.append(run)
+            run = [b]
+        else:
+            run.append(b)
+    out.append(run)
+    result = []
+    for r in out:
+        pts = [g.xy(n) for n in r]
+        if len(pts) == 1 and len(out) == 1:   # a pad reached on a node of another pad: a dot of copper
+            pts.append((pts[0][0] + DOT, pts[0][1]))
+        keep = [pts[0]] + [pts[q] for q in range(1, len(pts) - 1)
+                           if (pts[q][0] - pts[q - 1][0]) * (pts[q + 1][1] - pts[q][1])
+                           != (pts[q][1] - pts[q - 1][1]) * (pts[q + 1][0] - pts[q][0])] + pts[-1:]
+        result.append((layers[r[0] // plane], tuple(keep) if len(pts) > 1 else ()))
+    return result
+
+
+def _offsets(radius: float, pitch: float) -> list[tuple[int, int]]:
+    """Grid offsets (not 0, 0) closer than ``radius`` (mm)."""
+    r = int(math.ceil(radius / pitch))
+    return [(di, dj) for dj in range(-r, r + 1) for di in range(-r, r + 1)
+            if (di or dj) and math.hypot(di, dj) * pitch < radius - 1e-9]
+
+
+def _span(pads) -> float:
+    xs = [p.polygon.centroid.x for p in pads]
+    ys = [p.polygon.centroid.y for p in pads]
+    return (max(xs) - min(xs)) + (max(ys) - min(ys))
+
+
+def _box(g: Grid, nodes: set[int], margin: int) -> tuple[int, int, int, int]:
+    plane = g.nx * g.ny
+    iis = [n % g.nx for n in nodes]
+    jjs = [(n % plane) // g.nx for n in nodes]
+    return (max(0, min(iis) - margin), max(0, min(jjs) - margin),
+            min(g.nx - 1, max(iis) + margin), min(g.ny - 1, max(jjs) + margin))
