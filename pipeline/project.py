@@ -442,12 +442,13 @@ def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Prog
     items = items_from_design(design, lib, project.board.density)
     fit = place_and_fit(items, region, project.board, user_board=cavity.board, progress=progress)
     fit = tried_advice(fit, items, cavity, project.board, STANDARD_THICKNESS, progress=progress)
-    fit = dataclasses.replace(fit, warnings=(*cw, *rw, *fit.warnings))
+    placer = fit.warnings  # fit.tight, fit.region-split, fit.self-check, fit.bottom-side: findings too
+    fit = dataclasses.replace(fit, warnings=(*cw, *rw, *placer))
     sweep_result = None
     if sweep:
         from .sweep import sweep_sizes
         sweep_result = sweep_sizes(design, lib, region, project.board, progress=progress, user_board=cavity.board)
-    return cavity, region, items, fit, sweep_result, [*cw, *rw, *_fit_findings(fit)]
+    return cavity, region, items, fit, sweep_result, [*cw, *rw, *placer, *_fit_findings(fit)]
 
 
 def _pads(fit: FitResult, design: Design, lib: Any) -> tuple:

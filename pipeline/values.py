@@ -624,7 +624,12 @@ def series_of(value: float) -> tuple[str, ...]:
     >>> series_of(4.8e3)
     ()
     """
-    v = float(value)
+    return _series_of(float(value))
+
+
+@lru_cache(maxsize=4096)
+def _series_of(v: float) -> tuple[str, ...]:
+    """:func:`series_of` for one float, cached: a design repeats few values, each costs ~300 compares."""
     if not (math.isfinite(v) and v > 0):
         return ()
     found = []
