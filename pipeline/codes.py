@@ -117,7 +117,8 @@ CODES: dict[str, Code] = {
     "fit.bottom-side": _c("info", "parts placed on the bottom side"),
     "fit.self-check": _c("warning", "the placement self-check rejected parts; they are reported as unplaced"),
     "fit.no-cavity": _c("info", "no cavity drawing given: the fit was not checked"),
-    "route.open": _c("error", "nets the router could not connect on this board (named by the verdict)"),
+    # routing (pipeline/route/, pipeline/verdict.py)
+    "route.open": _c("error", "nets the router could not complete on this board"),
     # project file (pipeline/project.py)
     "project.thickness": _c("warning", "a board thickness that is not a common stock thickness"),
 }

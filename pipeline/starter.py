@@ -163,9 +163,8 @@ def starter_files() -> dict[str, bytes]:
 def write_starter(folder: str | os.PathLike) -> list[Path]:
     """Write the starter project into ``folder`` (new, or an empty folder), all files or none.
 
-    The files are written into a hidden folder beside ``folder`` and that
-    folder is renamed onto it (POSIX rename replaces an empty folder in one
-    step), so a failure leaves nothing behind.
+    The files go through the output writer (:func:`pipeline.export.atomic.write_all`,
+    without its manifest: the folder is the user's project, not an output set).
 
     Raises
     ------
@@ -174,34 +173,10 @@ def write_starter(folder: str | os.PathLike) -> list[Path]:
     OutputError
         The folder cannot be written.
     """
-    import shutil
-    import tempfile
-
-    from .errors import OutputError
+    from .export.atomic import write_all
 
     path = Path(folder)
     if path.exists() and (not path.is_dir() or any(path.iterdir())):
         what = "is not a folder" if not path.is_dir() else "already holds files"
         raise ProjectError(str(folder), f"{what}; `snugboard new` writes only into a new or empty folder")
-    files = starter_files()
-    tmp = None
-    try:
-        path.parent.mkdir(parents=True, exist_ok=True)
-        tmp = Path(tempfile.mkdtemp(prefix=".snugboard-new-", dir=path.parent))
-        for name, data in files.items():
-            (tmp / name).write_bytes(data)
-        os.chmod(tmp, 0o777 & ~_umask())
-        os.rename(tmp, path)
-        tmp = None
-    except OSError as exc:
-        raise OutputError(str(folder), f"cannot write the starter project ({exc.strerror or exc})") from None
-    finally:
-        if tmp is not None:
-            shutil.rmtree(tmp, ignore_errors=True)
-    return [path / name for name in sorted(files)]
-
-
-def _umask() -> int:
-    mask = os.umask(0)
-    os.umask(mask)
-    return mask
+    return write_all(path, starter_files(), manifest=False)

@@ -44,6 +44,7 @@ import shutil
 import signal
 import stat
 import tempfile
+import threading
 from contextlib import contextmanager
 from pathlib import Path
 from typing import Iterable, Iterator, Mapping
@@ -69,6 +70,7 @@ def write_all(
     files: Mapping[str, bytes],
     *,
     protect: Iterable[str | os.PathLike] = (),
+    manifest: bool = True,
 ) -> list[Path]:
     """Replace the output folder ``out_dir`` with the set ``files`` in one step.
 
@@ -81,6 +83,9 @@ def write_all(
         Plain file names (no folders) and their complete contents.
     protect : iterable of paths
         The user's input files; a folder holding any of them is refused.
+    manifest : bool
+        Write the manifest beside the files (``False`` for a folder that is
+        not an output set, such as a starter project).
 
     Returns
     -------
@@ -110,7 +115,7 @@ def write_all(
     except OSError as exc:
         raise OutputError(str(out), f"cannot create the output folder ({exc.strerror or exc})") from None
     try:
-        _fill(stage, files, names, _mode(out))
+        _fill(stage, files, names, _mode(out), manifest)
         old = _swap_in(stage, out)
     except OSError as exc:
         raise OutputError(str(out), f"cannot write outputs ({exc.strerror or exc})") from None
@@ -119,7 +124,7 @@ def write_all(
             shutil.rmtree(stage, ignore_errors=True)
     if old is not None:
         shutil.rmtree(old, ignore_errors=True)
-    return [out / n for n in sorted([*names, MANIFEST])]
+    return [out / n for n in sorted([*names, *([MANIFEST] if manifest else [])])]
 
 
 def manifest_bytes(files: Mapping[str, bytes]) -> bytes:
@@ -235,9 +240,10 @@ def _mode(out: Path) -> int:
         return 0o777 & ~mask
 
 
-def _fill(stage: Path, files: Mapping[str, bytes], names: list[str], mode: int) -> None:
-    """Write every file, the manifest last, each flushed to disk."""
-    for name, data in [*((n, files[n]) for n in names), (MANIFEST, manifest_bytes(files))]:
+def _fill(stage: Path, files: Mapping[str, bytes], names: list[str], mode: int, manifest: bool) -> None:
+    """Write every file, the manifest last (when asked), each flushed to disk."""
+    last = [(MANIFEST, manifest_bytes(files))] if manifest else []
+    for name, data in [*((n, files[n]) for n in names), *last]:
         fd = os.open(stage / name, os.O_WRONLY | os.O_CREAT | os.O_EXCL | os.O_NOFOLLOW, 0o666)
         try:
             view = memoryview(data)
@@ -251,12 +257,25 @@ def _fill(stage: Path, files: Mapping[str, bytes], names: list[str], mode: int) 
 
 @contextmanager
 def _signals_held() -> Iterator[None]:
-    """Hold back interrupt signals; they are delivered when the block ends."""
-    old = signal.pthread_sigmask(signal.SIG_BLOCK, _HELD)
+    """Hold back interrupt signals; the first one is delivered when the block ends.
+
+    A Python-level handler records the signal instead of blocking it with a
+    signal mask: a mask covers only the calling thread, and a process-wide
+    signal taken by another thread would still interrupt the swap. Outside
+    the main thread (where handlers cannot be set) the block runs as is.
+    """
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    got: list[int] = []
+    old = {s: signal.signal(s, lambda n, _frame: got.append(n)) for s in _HELD}
     try:
         yield
     finally:
-        signal.pthread_sigmask(signal.SIG_SETMASK, old)
+        for s, handler in old.items():
+            signal.signal(s, handler if handler is not None else signal.SIG_DFL)
+        if got:
+            signal.raise_signal(got[0])
 
 
 def _swap_in(stage: Path, out: Path) -> Path | None:
