@@ -71,16 +71,25 @@ def test_manifest_bytes_are_deterministic_and_name_sorted():
         "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
 
 
-@pytest.mark.parametrize("fail_at", range(4))
-def test_defect_15_interrupt_while_writing_keeps_old_set_and_leaves_nothing(tmp_path, monkeypatch, fail_at):
+def _raise_interrupt():
+    raise KeyboardInterrupt
+
+
+def _send_sigint():
+    os.kill(os.getpid(), signal.SIGINT)  # a real Ctrl-C: held back, acted on before the next file
+
+
+@pytest.mark.parametrize("interrupt", [_raise_interrupt, _send_sigint])
+@pytest.mark.parametrize("at", range(4))
+def test_defect_15_interrupt_while_writing_keeps_old_set_and_leaves_nothing(tmp_path, monkeypatch, interrupt, at):
     out = tmp_path / "out"
     write_all(out, OLD)
     calls = {"n": 0}
     real_write = os.write
 
     def write(fd, data):
-        if calls["n"] == fail_at:
-            raise KeyboardInterrupt
+        if calls["n"] == at:
+            interrupt()
         calls["n"] += 1
         return real_write(fd, data)
 
@@ -139,7 +148,7 @@ def test_defect_15_leftovers_of_a_killed_run_are_cleaned_at_the_next_run(tmp_pat
     junk = tmp_path / f".out.snugboard-new-{dead}-abc123"
     junk.mkdir()
     (junk / "a.txt").write_bytes(b"half")
-    alive = tmp_path / f".out.snugboard-new-{os.getpid()}-zzz"  # a run still going: not touched
+    alive = tmp_path / f".out.snugboard-new-{os.getppid()}-zzz"  # a run still going: not touched
     alive.mkdir()
     other = tmp_path / f".other.snugboard-new-{dead}-abc123"  # another output folder's: not touched
     other.mkdir()

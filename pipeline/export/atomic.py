@@ -12,8 +12,10 @@ RENAME_EXCHANGE)`` (Linux 3.15+), or, where the system has no such call, by
 two renames with the old set kept until the new one is in place. Only then
 is the old set deleted. So at any moment the folder holds the complete old
 set or the complete new one, and no file of an earlier run stays beside the
-new set. Interrupt signals are held back for the few system calls of the
-swap; a run stopped before it leaves the old set as it was. A run killed
+new set. Interrupt signals (SIGINT, SIGTERM, SIGHUP, SIGQUIT) are held back
+while the set is written and swapped; one that arrives is acted on between
+files or just before the swap, by deleting the new set and keeping the old,
+and is then delivered as usual. A run killed
 outright (SIGKILL, power loss) may leave its hidden folder behind: the next
 run deletes it (or puts an old set back if it was caught between the two
 renames of the fallback).
@@ -109,21 +111,10 @@ def write_all(
     _check_names(out, names)
     _check_folder(out, protect)
     _check_owned(out, set(names))
-    try:
-        out.parent.mkdir(parents=True, exist_ok=True)
-        stage = Path(tempfile.mkdtemp(prefix=f".{_tag(out)}.snugboard-new-{os.getpid()}-", dir=out.parent))
-    except OSError as exc:
-        raise OutputError(str(out), f"cannot create the output folder ({exc.strerror or exc})") from None
-    try:
-        _fill(stage, files, names, _mode(out), manifest)
-        old = _swap_in(stage, out)
-    except OSError as exc:
-        raise OutputError(str(out), f"cannot write outputs ({exc.strerror or exc})") from None
-    finally:
-        if stage.exists():  # not swapped in (or holding the old set after the swap)
-            shutil.rmtree(stage, ignore_errors=True)
-    if old is not None:
-        shutil.rmtree(old, ignore_errors=True)
+    with _signals_held() as stop:  # an interrupt is acted on only between steps
+        swapped = _write_and_swap(out, files, names, manifest, stop)
+    if not swapped:  # stopped by a signal whose handler did not end the program
+        raise OutputError(str(out), "stopped before the new files were in place; the previous files are unchanged")
     return [out / n for n in sorted([*names, *([MANIFEST] if manifest else [])])]
 
 
@@ -201,6 +192,9 @@ def _tag(out: Path) -> str:
 
 
 def _alive(pid: int) -> bool:
+    """Whether the run that made a temporary folder may still be going (our own pid: an earlier process's)."""
+    if pid == os.getpid():
+        return False
     try:
         os.kill(pid, 0)
     except ProcessLookupError:
@@ -240,10 +234,13 @@ def _mode(out: Path) -> int:
         return 0o777 & ~mask
 
 
-def _fill(stage: Path, files: Mapping[str, bytes], names: list[str], mode: int, manifest: bool) -> None:
-    """Write every file, the manifest last (when asked), each flushed to disk."""
+def _fill(stage: Path, files: Mapping[str, bytes], names: list[str], mode: int, manifest: bool,
+          stop: list[int]) -> None:
+    """Write every file, the manifest last (when asked), each flushed to disk; stop early on an interrupt."""
     last = [(MANIFEST, manifest_bytes(files))] if manifest else []
     for name, data in [*((n, files[n]) for n in names), *last]:
+        if stop:
+            raise _Stopped
         fd = os.open(stage / name, os.O_WRONLY | os.O_CREAT | os.O_EXCL | os.O_NOFOLLOW, 0o666)
         try:
             view = memoryview(data)
@@ -256,21 +253,21 @@ def _fill(stage: Path, files: Mapping[str, bytes], names: list[str], mode: int, 
 
 
 @contextmanager
-def _signals_held() -> Iterator[None]:
-    """Hold back interrupt signals; the first one is delivered when the block ends.
+def _signals_held() -> Iterator[list[int]]:
+    """Hold back interrupt signals; yields the list they are recorded in; the first is delivered at the end.
 
     A Python-level handler records the signal instead of blocking it with a
     signal mask: a mask covers only the calling thread, and a process-wide
     signal taken by another thread would still interrupt the swap. Outside
     the main thread (where handlers cannot be set) the block runs as is.
     """
-    if threading.current_thread() is not threading.main_thread():
-        yield
-        return
     got: list[int] = []
+    if threading.current_thread() is not threading.main_thread():
+        yield got
+        return
     old = {s: signal.signal(s, lambda n, _frame: got.append(n)) for s in _HELD}
     try:
-        yield
+        yield got
     finally:
         for s, handler in old.items():
             signal.signal(s, handler if handler is not None else signal.SIG_DFL)
@@ -278,22 +275,57 @@ def _signals_held() -> Iterator[None]:
             signal.raise_signal(got[0])
 
 
+class _Stopped(Exception):
+    """An interrupt arrived before the swap: the new set is dropped, the old one stays."""
+
+
+def _write_and_swap(out: Path, files: Mapping[str, bytes], names: list[str], manifest: bool,
+                    stop: list[int]) -> bool:
+    """Write the new set beside ``out`` and swap it in, with interrupt signals held.
+
+    ``stop`` records the interrupts that came (:func:`_signals_held`); it is
+    checked between files and just before the swap: if
+    one came, the new set is deleted and nothing else changes; the signal is
+    delivered when the caller's block ends (so Ctrl-C still stops the run).
+    Returns whether the new set was swapped in.
+    """
+    try:
+        out.parent.mkdir(parents=True, exist_ok=True)
+        stage = Path(tempfile.mkdtemp(prefix=f".{_tag(out)}.snugboard-new-{os.getpid()}-", dir=out.parent))
+    except OSError as exc:
+        raise OutputError(str(out), f"cannot create the output folder ({exc.strerror or exc})") from None
+    old = None
+    try:
+        _fill(stage, files, names, _mode(out), manifest, stop)
+        if stop:
+            raise _Stopped
+        old = _swap_in(stage, out)
+    except _Stopped:
+        return False
+    except OSError as exc:
+        raise OutputError(str(out), f"cannot write outputs ({exc.strerror or exc})") from None
+    finally:
+        shutil.rmtree(stage, ignore_errors=True)  # not swapped in, or holding the old set after the swap
+        if old is not None:
+            shutil.rmtree(old, ignore_errors=True)
+    return True
+
+
 def _swap_in(stage: Path, out: Path) -> Path | None:
     """Make ``stage`` the folder ``out`` in one step; return where the old set now is (or ``None``)."""
-    with _signals_held():
-        if not os.path.lexists(out):
-            os.rename(stage, out)
-            return None
-        if _exchange(stage, out):
-            return stage
-        old = out.parent / stage.name.replace("-new-", "-old-", 1)
-        os.rename(out, old)
-        try:
-            os.rename(stage, out)
-        except OSError:
-            os.rename(old, out)
-            raise
-        return old
+    if not os.path.lexists(out):
+        os.rename(stage, out)
+        return None
+    if _exchange(stage, out):
+        return stage
+    old = out.parent / stage.name.replace("-new-", "-old-", 1)
+    os.rename(out, old)
+    try:
+        os.rename(stage, out)
+    except OSError:
+        os.rename(old, out)
+        raise
+    return old
 
 
 def _exchange(a: Path, b: Path) -> bool:

@@ -158,7 +158,8 @@ def report_html(
         from ``findings`` and ``fit`` when not given.
     order_files : mapping of file name to bytes, optional
         The BOM export's CSV files (``bom.csv``, ``bom-totals.csv``,
-        ``bom-unfitted.csv`` and any other ``bom-*.csv``), shown as the order.
+        ``bom-unfitted.csv``, ``board-features.csv`` and any other it gives),
+        shown as the order.
     board : BoardOptions, optional
         Layers, thickness and sides, for the board as one would order it.
 
