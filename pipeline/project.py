@@ -101,6 +101,7 @@ class RunResult:
     stage_reports: tuple[Any, ...] = ()
     sweep: Any = None
     fit_json: dict = field(default_factory=dict)
+    routing: Any = None   # pipeline.route.RouteVerdict, or None without a cavity
 
 
 # --------------------------------------------------------------------------
@@ -313,12 +314,13 @@ def _source_date_epoch() -> int | None:
         raise ProjectError("SOURCE_DATE_EPOCH", f"must be a whole number of seconds, found {v!r}") from None
 
 
-def run(project: Project, *, progress: Progress | None = None, sweep: bool = False) -> RunResult:
+def run(project: Project, *, progress: Progress | None = None, sweep: bool = False, route: bool = True) -> RunResult:
     """Run every stage of ``project`` and write all its outputs at once.
 
     Order: design -> graph -> connection checks -> value and rating checks ->
     declared stages -> (with a cavity) cavity -> region -> area -> placement
-    and outline -> outputs. Raises :class:`~pipeline.errors.InputError` on bad
+    and outline -> routing (unless ``route`` is false or ``[copper] route =
+    false``) -> outputs. Raises :class:`~pipeline.errors.InputError` on bad
     input, before anything is written.
     """
     from .export import atomic, bom, edif, netlist, results
@@ -346,6 +348,7 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     fit_json: dict = {}
     sections = list(stage_sections(reports))
     svg = None
+    route_verdict = None
     if project.cavity_path is not None:
         from .area import items_from_design
         from .cavity import read_cavity
@@ -369,6 +372,9 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
             sweep_result = sweep_sizes(design, lib, region, project.board, progress=progress,
                                        user_board=cavity.board)
             extra["passive_sizes"] = sweep_result.to_dict()
+        fit, route_verdict = _route(project, route, fit, items, region, cavity.board, design, lib, files, progress)
+        findings += _route_findings(route_verdict)
+        extra["routing"] = route_verdict.to_dict()
         fit_json = results.fit_dict(fit, extra)
         files["fit.json"] = results.dump_json(fit_json)
         svg = svg_out.fit_svg(cavity, region, fit, title=design.name)
@@ -384,7 +390,8 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     files["report.html"] = report_out.report_html(title=f"{design.name} {design.revision}".strip(), fit=fit,
                                                   findings=findings, fit_svg=svg, sections=sections)
     errors = any(f.severity == "error" for f in findings)
-    status = 1 if errors or (fit is not None and not fit.fits) else 0
+    unrouted = route_verdict is not None and route_verdict.status == "open"
+    status = 1 if errors or (fit is not None and not fit.fits) or unrouted else 0
     protect = [project.design_path, project.root / "project.toml"]
     if project.cavity_path is not None:
         protect.append(project.cavity_path)
@@ -392,7 +399,55 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
         protect.append(project.parts_map)
     written = atomic.write_all(project.out_dir, files, protect=protect)
     return RunResult(design=design, findings=tuple(findings), fit=fit, exit_status=status,
-                     written=tuple(written), stage_reports=tuple(reports), sweep=sweep_result, fit_json=fit_json)
+                     written=tuple(written), stage_reports=tuple(reports), sweep=sweep_result, fit_json=fit_json,
+                     routing=route_verdict)
+
+
+def _route(project: Project, route: bool, fit: FitResult, items: Any, region: Any, user_board: Any, design: Design,
+           lib: Any, files: dict[str, bytes], progress: Progress | None):
+    """Route the placed board (issue 9), spreading the parts when it must.
+
+    Returns ``(fit, verdict)``: the fit whose placement was routed. Adds
+    routes.json, board-copper.dxf and placement.csv to ``files``.
+    """
+    from .export.placement import placement_csv
+    from .export.results import dump_json
+    from .export.routes import routes_dxf
+    from .route import route_fit, skipped
+
+    if not (route and project.copper.route):
+        verdict = skipped("routing is switched off (--no-route or [copper] route = false): the verdict is placement only")
+    elif not fit.fits or fit.board_outline is None or fit.board_outline.is_empty:
+        verdict = skipped("the parts do not fit, so routing was not tried")
+    else:
+        fit, out = route_fit(fit, items, region, project.board, design, lib, project.copper, user_board=user_board,
+                             progress=progress)
+        files["routes.json"] = dump_json(out.document)
+        files["board-copper.dxf"] = routes_dxf(out.board, project.copper, out.routing, timestamp=_source_date_epoch())
+        verdict = out.verdict
+    if fit.placements:
+        files["placement.csv"] = placement_csv(fit.placements)
+    return fit, verdict
+
+
+def _route_findings(v) -> list[Finding]:
+    if v.status == "routed":
+        spread = (f" after spreading the parts ({v.spread_mm:g} mm more room around each courtyard)"
+                  if v.spread_mm else "")
+        return [Finding("info", "route.routed", (), f"Routed{spread}: every connection made ({v.vias} vias, "
+                        f"{v.wirelength_mm:.0f} mm of track) and the independent copper check is clean.")]
+    if v.status == "skipped":
+        return [Finding("info", "route.skipped", (), f"Routing skipped: {v.reason}.")]
+    out = [Finding("error", "route.defect", (), f"Router defect: the independent copper check found: {d}")
+           for d in v.defects]
+    if v.open_nets:
+        where = "; congestion near " + ", ".join(f"({x:.1f}, {y:.1f}) mm" for x, y in v.congestion[:3]) \
+            if v.congestion else ""
+        out.append(Finding("error", "route.open", v.open_nets,
+                           f"Placed, routing not proven: {len(v.open_nets)} net(s) open ({', '.join(v.open_nets)}); "
+                           f"routing demand peak {v.demand_peak:.2f}, 90th percentile {v.demand_p90:.2f} of "
+                           f"capacity{where}. Give the board more room or more layers."))
+    return out
 
 
 def _fit_findings(fit: FitResult) -> list[Finding]:

@@ -129,7 +129,7 @@ class Routing:
 # --------------------------------------------------------------------------
 class _Net:
     __slots__ = ("name", "k", "pads", "width", "area", "grid", "terms", "paths", "vias", "core", "claim",
-                 "failed", "stubs", "halo")
+                 "failed", "stubs", "halo", "dead")
 
     def __init__(self, name, k, pads, width, area):
         self.name, self.k, self.pads, self.width, self.area = name, k, pads, width, area
@@ -140,6 +140,7 @@ class _Net:
         self.core: set[int] = set()
         self.claim: set[int] = set()
         self.failed = False
+        self.dead = False     # a connection has no path at all (not a matter of congestion)
         self.stubs: list[tuple[int, str, LineString]] = []
         self.halo: list[tuple[int, int]] = []
 
@@ -328,13 +329,17 @@ class _Router:
     def reroute(self, net: _Net, present: float) -> None:
         if net.paths or net.vias:
             self.commit(net, -1)
-        net.paths, net.vias, net.failed = [], [], False
-        if any(not t for t, pad in zip(net.terms, net.pads) if not (net.area and net.area in pad.layers)):
-            net.failed = True
+        net.paths, net.vias, net.failed = [], [], net.dead
+        if net.dead:
+            pass
+        elif any(not t for t, pad in zip(net.terms, net.pads) if not (net.area and net.area in pad.layers)):
+            net.failed = net.dead = True
         elif net.area:
             self.route_to_area(net, present)
         else:
             self.route_tree(net, present)
+        if net.failed:
+            net.paths, net.vias = [], []
         self.commit(net, +1)
 
     def route_tree(self, net: _Net, present: float) -> None:
@@ -346,7 +351,7 @@ class _Router:
             nxt = min(pads, key=lambda q: (min(cents[q].distance(cents[d]) for d in done), q))
             path = self.astar(net, tree, set(net.terms[nxt]), present)
             if path is None:
-                net.failed = True
+                net.failed = net.dead = True
                 return
             self.add_path(net, path)
             tree.update(path)
@@ -360,7 +365,7 @@ class _Router:
                 continue
             path = self.astar(net, set(terms), None, present)
             if path is None:
-                net.failed = True
+                net.failed = net.dead = True
                 return
             self.add_path(net, path)
             net.vias.append(path[-1] % (net.grid.nx * net.grid.ny))
