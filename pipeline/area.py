@@ -31,7 +31,7 @@ import math
 from typing import Mapping, Sequence
 
 from .errors import DesignError, ProjectError
-from .model import AreaEstimate, Design, PlaceItem
+from .model import DENSITY_LEVELS, AreaEstimate, Design, PlaceItem
 
 __all__ = ["items_from_design", "estimate_area", "ROUTING_K", "RULE"]
 
@@ -42,8 +42,6 @@ RULE = (
     "board area = courtyard sum x (1 + k x sqrt(pins per part / 2) / (layers / 2)), "
     "k = 0.25 low, 0.5 expected, 1.0 high (common practice rule of thumb, from memory)"
 )
-
-DENSITIES = ("most", "nominal", "least")
 
 
 def items_from_design(design: Design, library, density: str,
@@ -74,7 +72,7 @@ def items_from_design(design: Design, library, density: str,
     ProjectError
         ``density`` is not a density level.
     """
-    if density not in DENSITIES:
+    if density not in DENSITY_LEVELS:
         raise ProjectError("project.toml", f"density {density!r} is not one of most, nominal, least",
                            key="board.density")
     override = dict(package_override or {})
@@ -87,14 +85,8 @@ def items_from_design(design: Design, library, density: str,
         if part.dnp:
             continue
         name = override.get(part.ref, part.package)
-        try:
-            pkg = library.package(name)
-        except KeyError as exc:
-            msg = str(exc.args[0]) if exc.args else ""
-            if not msg or msg == name:
-                msg = f"package {name!r} is not in the footprint library"
-            raise DesignError(design.source, msg, line=part.line or None,
-                              key=f"parts.{part.ref}.package") from None
+        pkg = library.package(name, file=design.source, line=part.line or None,
+                              key=f"parts.{part.ref}.package")
         try:
             cy = pkg.courtyard(density)
         except KeyError:

@@ -15,28 +15,70 @@ checks found errors, 2 bad input.
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import os
+import signal
 import sys
-from typing import Any
+import threading
+from contextlib import contextmanager
+from typing import Any, Iterator
 
 import click
 
 from . import __version__
-from .errors import SnugboardError
+from .errors import SnugboardError, shown
 
 _SEV_MARK = {"error": "error", "warning": "warning", "info": "note"}
+
+
+def _say(text: str, err: bool = False) -> None:
+    """Print one line of human text; characters from input files that could steer the terminal
+    (ESC, CR, right-to-left overrides...) are shown escaped (:func:`pipeline.errors.shown`).
+    JSON output is printed by ``json.dumps``, which escapes them itself (ASCII only)."""
+    click.echo(shown(text), err=err)
+
+
+class _Stopped(KeyboardInterrupt):
+    """SIGTERM or SIGHUP, raised like Ctrl-C so that every clean-up on the way out runs."""
+
+    def __init__(self, signum: int) -> None:
+        super().__init__(signum)
+        self.signum = signum
+
+
+def _raise_stopped(signum: int, _frame: Any) -> None:
+    raise _Stopped(signum)
+
+
+@contextmanager
+def _stoppable() -> Iterator[None]:
+    """SIGTERM and SIGHUP end the command as Ctrl-C does (the main thread only; restored after)."""
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    saved = {s: signal.signal(s, _raise_stopped) for s in (signal.SIGTERM, signal.SIGHUP)}
+    try:
+        yield
+    finally:
+        for s, h in saved.items():
+            signal.signal(s, h)
 
 
 class _Group(click.Group):
     def invoke(self, ctx: click.Context) -> Any:
         try:
-            return super().invoke(ctx)
+            with _stoppable():
+                return super().invoke(ctx)
+        except KeyboardInterrupt as exc:
+            signum = getattr(exc, "signum", signal.SIGINT)
+            _say("snugboard: stopped; the output folder keeps its previous files", err=True)
+            ctx.exit(128 + signum)
         except SnugboardError as exc:
             if ctx.meta.get("snugboard.json"):
                 click.echo(json.dumps({"exit_status": exc.exit_status, "error": str(exc),
                                        "findings": [], "fit": None}, indent=2))
-            click.echo(f"snugboard: {exc}", err=True)
+            _say(f"snugboard: {exc}", err=True)
             ctx.exit(exc.exit_status)
         except (click.exceptions.Exit, click.exceptions.Abort, click.ClickException):
             raise
@@ -47,7 +89,7 @@ class _Group(click.Group):
         except Exception as exc:  # a bug, not bad input
             if os.environ.get("SNUGBOARD_DEBUG"):
                 raise
-            click.echo(f"snugboard: internal error ({type(exc).__name__}: {exc}); "
+            _say(f"snugboard: internal error ({type(exc).__name__}: {exc}); "
                        "set SNUGBOARD_DEBUG=1 to see where, and please report it.", err=True)
             ctx.exit(3)
 
@@ -78,23 +120,23 @@ def _echo_findings(findings, err: bool, verbose: bool = False) -> None:
         if f.severity == "info" and not verbose:
             continue
         subj = f" [{', '.join(f.subject)}]" if f.subject else ""
-        click.echo(f"{_SEV_MARK[f.severity]}: {f.message}{subj}", err=err)
+        _say(f"{_SEV_MARK[f.severity]}: {f.message}{subj}", err=err)
 
 
 def _echo_sweep(sw: dict, err: bool) -> None:
-    click.echo(f"passive sizes ({len(sw['swept_refs'])} two-terminal passives swept):", err=err)
-    click.echo(f"  {'size':<6}{'fits':<6}{'courtyards mm2':>15}{'estimate mm2':>14}{'margin mm2':>12}  not placed",
+    _say(f"passive sizes ({len(sw['swept_refs'])} two-terminal passives swept):", err=err)
+    _say(f"  {'size':<6}{'fits':<6}{'courtyards mm2':>15}{'estimate mm2':>14}{'margin mm2':>12}  not placed",
                err=err)
     for row in sw["sizes"]:
-        click.echo(f"  {row['size']:<6}{'yes' if row['fits'] else 'no':<6}{row['courtyard_area_mm2']:>15.1f}"
+        _say(f"  {row['size']:<6}{'yes' if row['fits'] else 'no':<6}{row['courtyard_area_mm2']:>15.1f}"
                    f"{row['estimated_board_area_mm2']:>14.1f}{row['margin_mm2']:>12.1f}  "
                    f"{' '.join(row['unplaced']) or '-'}", err=err)
     best = sw.get("largest_fitting")
     if best:
-        click.echo(f"  largest size that fits: {best} (margin {sw['margin_mm2']:.1f} mm2: {sw['margin_definition']})",
+        _say(f"  largest size that fits: {best} (margin {sw['margin_mm2']:.1f} mm2: {sw['margin_definition']})",
                    err=err)
     else:
-        click.echo("  no size fits", err=err)
+        _say("  no size fits", err=err)
 
 
 def _where(path) -> str:
@@ -142,24 +184,33 @@ def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: st
     if not verbose:  # the declared stages' figures, spread and retune proposals show even without -v
         for f in result.findings:
             if f.check in ("stage.summary", "stage.retune"):
-                click.echo(f"stage: {f.message}", err=err)
+                _say(f"stage: {f.message}", err=err)
     if result.sweep is not None:
         _echo_sweep(result.sweep.to_dict(), err)
     if result.fit is not None:
         f = result.fit
-        verdict = "FITS" if f.fits else "DOES NOT FIT"
-        click.echo(f"fit: {verdict}: usable region {f.region_area_mm2:.1f} mm2, courtyards {f.courtyard_area_mm2:.1f} mm2, "
+        _say(f"fit: usable region {f.region_area_mm2:.1f} mm2, courtyards {f.courtyard_area_mm2:.1f} mm2, "
                    f"estimated board {f.estimate.low_mm2:.0f}..{f.estimate.high_mm2:.0f} mm2 "
                    f"(expected {f.estimate.expected_mm2:.0f})", err=err)
     if result.routing is not None:
-        click.echo(f"routing: {result.routing.label}", err=err)
-    click.echo(f"{result.design.name}: {_counts(result.findings)}; wrote {len(result.written)} files to "
+        _say(f"routing: {result.routing.label}", err=err)
+    _say(f"{result.design.name}: {_counts(result.findings)}; wrote {len(result.written)} files to "
                f"{_where(project.out_dir)}", err=err)
+    _echo_verdict(result.verdict, err)
     if as_json:
         from .export.results import findings_list
-        click.echo(json.dumps({"exit_status": result.exit_status, "findings": findings_list(result.findings),
-                               "fit": result.fit_json or None}, indent=2, ensure_ascii=False))
-    ctx.exit(result.exit_status)
+        click.echo(json.dumps({"exit_status": result.verdict.exit_status, "verdict": result.verdict.to_dict(),
+                               "findings": findings_list(result.findings), "fit": result.fit_json or None},
+                              indent=2))
+    ctx.exit(result.verdict.exit_status)
+
+
+def _echo_verdict(verdict, err: bool) -> None:
+    """The verdict last, where the eye lands: its headline, then each blocking reason."""
+    _say(f"verdict: {verdict.headline}", err=err)
+    for r in verdict.reasons:
+        if r.blocking:
+            _say(f"  blocks: {r.message}", err=err)
 
 
 @main.command("check")
@@ -169,23 +220,38 @@ def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: st
 @click.option("-v", "--verbose", is_flag=True, help="Also show notes (info findings).")
 @click.pass_context
 def check_cmd(ctx: click.Context, design_file: str, parts_map: str | None, as_json: bool, verbose: bool) -> None:
-    """Check a design file alone: read it, build the graph, run the connection and value checks."""
+    """Check a design file alone: connections, values and declared blocks (everything but the fit)."""
     from pathlib import Path
 
     from .project import check_design
 
     ctx.meta["snugboard.json"] = as_json
+    from .verdict import decide
+
     design, findings = check_design(Path(design_file), shown=design_file,
                                     parts_map=Path(parts_map) if parts_map else None)
-    status = 1 if any(f.severity == "error" for f in findings) else 0
+    verdict = decide(findings, None, fit_asked=False)
     if as_json:
         from .export.results import findings_list
-        click.echo(json.dumps({"exit_status": status, "findings": findings_list(findings), "fit": None},
-                              indent=2, ensure_ascii=False))
+        click.echo(json.dumps({"exit_status": verdict.exit_status, "verdict": verdict.to_dict(),
+                               "findings": findings_list(findings), "fit": None}, indent=2))
     else:
         _echo_findings(findings, False, verbose)
-        click.echo(f"{design.name}: {len(design.parts)} parts, {len(design.nets)} nets; {_counts(findings)}")
-    ctx.exit(status)
+        _say(f"{design.name}: {len(design.parts)} parts, {len(design.nets)} nets; {_counts(findings)}")
+        _echo_verdict(verdict, False)
+    ctx.exit(verdict.exit_status)
+
+
+@main.command("new")
+@click.argument("folder", type=click.Path())
+@click.pass_context
+def new_cmd(ctx: click.Context, folder: str) -> None:
+    """Write a starter project into FOLDER (new or empty): project.toml, a design and a cavity drawing."""
+    from .starter import write_starter
+
+    written = write_starter(folder)
+    _say(f"wrote {', '.join(p.name for p in written)} to {_where(folder)}; "
+               f"try: snugboard run {_where(folder)}")
 
 
 @main.command("cavity")
@@ -220,12 +286,12 @@ def cavity_cmd(ctx: click.Context, dxf_file: str, project_dir: str | None, as_js
         click.echo(json.dumps({"exit_status": 0, "cavity": info, "findings": findings_list(findings)}, indent=2))
         return
     _echo_findings(findings, False)
-    click.echo(f"{dxf_file}: units {cavity.unit_name} ({cavity.mm_per_unit:g} mm each); cavity "
+    _say(f"{dxf_file}: units {cavity.unit_name} ({cavity.mm_per_unit:g} mm each); cavity "
                f"{x1 - x0:.2f} x {y1 - y0:.2f} mm, {cavity.outline.area:.1f} mm2; {len(cavity.keepouts)} keep-out(s); "
                f"{len(cavity.depth_zones)} depth zone(s)" + ("; BOARD outline given" if cavity.board is not None else ""))
-    click.echo(f"usable board region {region.area_mm2:.1f} mm2:")
+    _say(f"usable board region {region.area_mm2:.1f} mm2:")
     for z in region.zones:
-        click.echo(f"  parts up to {z.max_height_mm:.2f} mm tall on {z.polygon.area:.1f} mm2")
+        _say(f"  parts up to {z.max_height_mm:.2f} mm tall on {z.polygon.area:.1f} mm2")
 
 
 @main.command("packages")
@@ -238,28 +304,23 @@ def packages_cmd(ctx: click.Context, names: tuple[str, ...], as_json: bool) -> N
 
     ctx.meta["snugboard.json"] = as_json
     lib = load_library()
-    pkgs = _lookup(lib.package, names) if names else list(lib.packages())
+    pkgs = [lib.package(n) for n in names] if names else list(lib.packages())
     if as_json:
         click.echo(json.dumps([_package_dict(p) for p in pkgs], indent=2))
         return
     head = f"{'package':<18}{'pins':>5}{'pitch':>7}{'body LxW':>13}{'H max':>7}{'land LxW':>13}  courtyard most / nominal / least"
-    click.echo(head)
+    _say(head)
     for p in pkgs:
         cy = " / ".join(f"{c.length_mm:.2f}x{c.width_mm:.2f}" for c in p.courtyards)
-        click.echo(f"{p.name:<18}{p.pin_count:>5}{p.pitch_mm:>7.2f}{p.body_length_mm:>7.2f}x{p.body_width_mm:<5.2f}"
-                   f"{p.height_mm:>7.2f}{p.land_length_mm:>7.2f}x{p.land_width_mm:<5.2f}  {cy}")
+        _say(f"{p.name:<18}{p.pin_count:>5}{p.pitch_mm:>7.2f}{p.body_length_mm:>7.2f}x{p.body_width_mm:<5.2f}"
+             f"{p.height_mm:>7.2f}{p.land_length_mm:>7.2f}x{p.land_width_mm:<5.2f}  {cy}")
         if names:
-            click.echo(f"  aliases: {', '.join(p.aliases) or '-'}; source: {p.source}")
-
-
-def _lookup(find, names: tuple[str, ...]) -> list:
-    """Library entries by name; an unknown name is bad input naming the closest ones."""
-    from .errors import LibraryError
-
-    try:
-        return [find(n) for n in names]
-    except KeyError as exc:
-        raise LibraryError("footprints", str(exc.args[0]) if exc.args else "unknown name") from None
+            _say(f"  aliases: {', '.join(p.aliases) or '-'}; source: {p.source}")
+            _say("  pads at the nominal level (x, y, size mm; package frame, pin 1 first):")
+            for d in p.pads:
+                hole = f" hole {d.drill_mm:.2f}" if d.drill_mm else ""
+                _say(f"    {d.number:>3} {d.shape:<9} at ({d.x_mm:7.3f}, {d.y_mm:7.3f})"
+                     f"  {d.width_mm:.3f} x {d.height_mm:.3f}{hole}")
 
 
 def _package_dict(p) -> dict[str, Any]:
@@ -268,6 +329,7 @@ def _package_dict(p) -> dict[str, Any]:
         "pitch_mm": p.pitch_mm, "body_length_mm": p.body_length_mm, "body_width_mm": p.body_width_mm,
         "height_mm": p.height_mm, "land_length_mm": p.land_length_mm, "land_width_mm": p.land_width_mm,
         "courtyards": {c.level: [c.length_mm, c.width_mm] for c in p.courtyards}, "source": p.source,
+        "pads": {lv: [dataclasses.asdict(d) for d in pads] for lv, pads in p.pads_by_level},
     }
 
 
@@ -281,7 +343,7 @@ def kinds_cmd(ctx: click.Context, names: tuple[str, ...], as_json: bool) -> None
 
     ctx.meta["snugboard.json"] = as_json
     lib = load_library()
-    kinds = _lookup(lib.kind, names) if names else list(lib.kinds())
+    kinds = [lib.kind(n) for n in names] if names else list(lib.kinds())
     if as_json:
         click.echo(json.dumps([{"name": k.name, "category": k.category, "value_unit": k.value_unit,
                                 "pins_from_package": k.pins_from_package, "source": k.source,
@@ -291,7 +353,7 @@ def kinds_cmd(ctx: click.Context, names: tuple[str, ...], as_json: bool) -> None
     for k in kinds:
         pins = "pins 1..N from the package" if k.pins_from_package else \
             ", ".join(f"{p.number} {p.name} ({p.role})" for p in k.pins)
-        click.echo(f"{k.name:<22}{k.category:<14}{pins}")
+        _say(f"{k.name:<22}{k.category:<14}{pins}")
 
 
 if __name__ == "__main__":  # python -m pipeline.cli

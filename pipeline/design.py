@@ -3,7 +3,7 @@
 Entry point: :func:`read_design`. The format is CONTRACT.md section 2,
 extended with ``[kinds.NAME]`` (part kinds defined in the design),
 ``[voltages]`` (declared net voltages) and ``[stages.NAME]`` (declared
-circuit stages, read by :mod:`pipeline.stages`). README.md documents every
+circuit blocks, read by :mod:`pipeline.circuit`). README.md documents every
 key.
 
 What the reader guarantees to later stages:
@@ -28,7 +28,7 @@ from typing import Any, Iterable
 
 from . import values as _values
 from .errors import DesignError
-from .model import Design, Finding, Net, Part, PartKind, PinDef, PinRef, PIN_ROLES, RawTable
+from .model import OLD_PIN_ROLES, PIN_ROLES, Design, Finding, Net, Part, PartKind, PinDef, PinRef, RawTable
 from .tomlsrc import TomlSource, load
 
 __all__ = ["read_design", "read_design_text", "KIND_CATEGORIES"]
@@ -42,7 +42,7 @@ _PART_KEYS = (
     "note", "dnp", "supplier", "order_code", "description",
 )
 _PASSTHROUGH = ("supplier", "order_code", "description")
-_KIND_KEYS = ("category", "package", "pins", "description", "value_unit")
+_KIND_KEYS = ("category", "package", "pins", "description", "value_unit", "board_feature")
 _PIN_KEYS = ("number", "name", "role")
 _REF_RE = re.compile(r"^[A-Za-z][A-Za-z0-9_]*$")
 _NET_RE = re.compile(r"^[^\s\"',;]+$")
@@ -138,7 +138,8 @@ def _read(src: TomlSource, library: Any) -> tuple[Design, list[Finding]]:
     name = _expect_str(src, "design.name", head.get("name", Path(src.display).stem))
     revision = _expect_str(src, "design.revision", head.get("revision", ""))
 
-    kinds, default_pkgs = _read_kinds(src, _expect_table(src, "kinds", data.get("kinds", {})), library)
+    kinds, default_pkgs = _read_kinds(src, _expect_table(src, "kinds", data.get("kinds", {})), library,
+                                      warnings)
     lib = library.with_kinds(kinds) if kinds else library
 
     parts_tbl = _expect_table(src, "parts", data.get("parts", {}))
@@ -172,7 +173,8 @@ def _read(src: TomlSource, library: Any) -> tuple[Design, list[Finding]]:
     return design, warnings
 
 
-def _read_kinds(src: TomlSource, table: dict, library: Any) -> tuple[list[PartKind], dict[str, str]]:
+def _read_kinds(src: TomlSource, table: dict, library: Any,
+                warnings: list[Finding]) -> tuple[list[PartKind], dict[str, str]]:
     """Design-defined kinds and their default packages (kind name -> package)."""
     out = []
     defaults: dict[str, str] = {}
@@ -180,11 +182,7 @@ def _read_kinds(src: TomlSource, table: dict, library: Any) -> tuple[list[PartKi
         key = f"kinds.{kname}"
         body = _expect_table(src, key, body)
         _unknown(src, key, body, _KIND_KEYS)
-        try:
-            library.kind(kname)
-        except KeyError:
-            pass
-        else:
+        if library.has_kind(kname):
             raise _err(src, key, f"kind '{kname}' already exists in the library; give yours another name")
         category = _expect_str(src, f"{key}.category", body.get("category", "ic"))
         if category not in KIND_CATEGORIES:
@@ -209,29 +207,34 @@ def _read_kinds(src: TomlSource, table: dict, library: Any) -> tuple[list[PartKi
                 raise _err(src, pkey, f"pin number {number} appears twice")
             seen_numbers.add(number)
             pname = _expect_str(src, pkey, p.get("name", number))
-            role = _expect_str(src, pkey, p.get("role", "passive"))
+            role = _expect_str(src, pkey, p.get("role", "terminal"))
+            if role in OLD_PIN_ROLES:
+                warnings.append(Finding(
+                    "warning", "design.old-role-name", (f"{kname}.{number}",),
+                    f"{src.display}: {pkey}: pin {number} role '{role}' is the previous release's "
+                    f"spelling; write '{OLD_PIN_ROLES[role]}' (the old one is read until the next release)"))
+                role = OLD_PIN_ROLES[role]
             if role not in PIN_ROLES:
                 raise _err(src, pkey, f"pin {number}: unknown role '{role}'; expected one of: {', '.join(PIN_ROLES)}")
             pins.append(PinDef(number, pname, role))
         desc = _expect_str(src, f"{key}.description", body.get("description", ""))
+        feature = body.get("board_feature", False)
+        if not isinstance(feature, bool):
+            raise _err(src, f"{key}.board_feature", "board_feature must be true or false")
         default_pkg = _expect_str(src, f"{key}.package", body.get("package", ""))
-        if default_pkg and not library.has_package(default_pkg):
-            raise _err(src, f"{key}.package", _package_reason(library, default_pkg))
+        if default_pkg:
+            library.package(default_pkg, **_at(src, f"{key}.package"))
         out.append(PartKind(
-            name=kname, category=category, pins=tuple(pins), value_unit=unit,
+            name=kname, category=category, pins=tuple(pins), value_unit=unit, board_feature=feature,
             description=desc, source=f"defined in {src.display}" + (f"; default package {default_pkg}" if default_pkg else ""),
         ))
         defaults[kname] = default_pkg
     return out, defaults
 
 
-def _package_reason(library: Any, name: str) -> str:
-    try:
-        library.package(name)
-    except KeyError as exc:
-        msg = exc.args[0] if exc.args else f"unknown package '{name}'"
-        return str(msg)
-    return ""
+def _at(src: TomlSource, key: str) -> dict[str, Any]:
+    """Where a library lookup reports an unknown name: this file, at ``key``."""
+    return {"file": src.display, "line": src.line(key), "key": key}
 
 
 def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dict[str, str]) -> Part:
@@ -243,19 +246,13 @@ def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dic
     if "kind" not in body:
         raise _err(src, f"{key}.kind", "every part needs a kind, e.g. kind = \"resistor\"")
     kname = _expect_str(src, f"{key}.kind", body["kind"])
-    try:
-        kind = lib.kind(kname)
-    except KeyError as exc:
-        raise _err(src, f"{key}.kind", str(exc.args[0]) if exc.args else f"unknown kind '{kname}'") from None
+    kind = lib.kind(kname, **_at(src, f"{key}.kind"))
 
     pkg_name = body.get("package") or default_pkgs.get(kname, "")
     if not pkg_name:
         raise _err(src, f"{key}.package", "every part needs a package, e.g. package = \"0603\"")
     pkg_name = _expect_str(src, f"{key}.package", pkg_name)
-    try:
-        package = lib.package(pkg_name)
-    except KeyError as exc:
-        raise _err(src, f"{key}.package", str(exc.args[0]) if exc.args else f"unknown package '{pkg_name}'") from None
+    package = lib.package(pkg_name, **_at(src, f"{key}.package"))
     pins = tuple(lib.pins_for(kind, package))
     if not kind.pins_from_package and package.pin_count and package.pin_count != len(pins):
         raise _err(src, f"{key}.package",
@@ -371,11 +368,16 @@ def _read_voltages(src: TomlSource, table: dict, nets: dict) -> dict[str, tuple[
     return out
 
 
+#: the largest net voltage a design may declare, either sign (100 kV: far above any board this tool
+#: sizes; it keeps figures derived from it finite). Common practice, not a standard.
+MAX_VOLTS = 1e5
+
+
 def _volts(src: TomlSource, key: str, spec: Any) -> float:
     if isinstance(spec, bool):
         raise _err(src, key, "expected a voltage such as \"3.3V\"")
     if isinstance(spec, (int, float)):
-        return float(spec)
+        return float(src.number(key, spec, DesignError, lo=-MAX_VOLTS, hi=MAX_VOLTS))
     text = _expect_str(src, key, spec)
     t = text.rstrip()
     if t[-1:] in "vV":
@@ -385,4 +387,4 @@ def _volts(src: TomlSource, key: str, spec: Any) -> float:
         v = _values.parse_value(t.strip().lstrip("-"), "")
     except ValueError:
         raise _err(src, key, f"'{text}' is not a voltage; write e.g. \"3.3V\" or \"-5V\"") from None
-    return -v if neg else v
+    return float(src.number(key, -v if neg else v, DesignError, lo=-MAX_VOLTS, hi=MAX_VOLTS))

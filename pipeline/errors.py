@@ -12,23 +12,65 @@ Examples
 "design.toml:12: parts.R1.value: value '4x7' is not a number"
 >>> str(InputError("bay.dxf", "chain does not close", entity="LINE #2F", at=(10.0, 4.5)))
 'bay.dxf: LINE #2F at (10, 4.5): chain does not close'
+
+Text taken from input files (names, keys, values) may hold terminal control
+characters; every message is passed through :func:`shown`, which writes
+them as escapes, so a message can never move the cursor, clear the screen
+or reverse the text around it:
+
+>>> print(str(InputError("d.toml", "no net 'A\\x1b[2J\\u202eB'", line=3)))
+d.toml:3: no net 'A\\x1b[2J\\u202eB'
 """
 
 from __future__ import annotations
 
+import unicodedata
+
 __all__ = [
+    "shown",
     "SnugboardError",
     "InputError",
     "ProjectError",
     "DesignError",
     "CavityError",
     "LibraryError",
+    "UnknownNameError",
     "OutputError",
 ]
 
 
 def _num(v: float) -> str:
     return f"{v:.6g}"
+
+
+#: Unicode categories shown escaped: controls (C0, DEL, C1: ESC, CR, BEL...), format characters
+#: (right-to-left and left-to-right overrides and isolates, zero-width characters), line and paragraph
+#: separators, and lone surrogates (undecodable bytes). Unicode Standard, chapter 4 (General Category).
+_ESCAPED = frozenset({"Cc", "Cf", "Zl", "Zp", "Cs"})
+
+
+def shown(text: str) -> str:
+    """``text`` with every control or format character written as an escape.
+
+    ``\\xNN`` below U+0100, ``\\uNNNN`` up to U+FFFF, ``\\UNNNNNNNN`` above (the
+    forms of Python string literals); everything else is kept, non-ASCII
+    letters and symbols included. Cost: one pass over the text.
+
+    >>> shown("a\\tb\\rc\\x1bd\\u202ee\\u2066 \\u00b1 \\u00e9")
+    'a\\\\tb\\\\rc\\\\x1bd\\\\u202ee\\\\u2066 ± é'
+    """
+    if text.isprintable():
+        return text
+    out = []
+    for c in text:
+        if unicodedata.category(c) not in _ESCAPED:
+            out.append(c)
+        elif c in "\t\r\n":
+            out.append({"\t": "\\t", "\r": "\\r", "\n": "\\n"}[c])
+        else:
+            n = ord(c)
+            out.append(f"\\x{n:02x}" if n < 0x100 else f"\\u{n:04x}" if n < 0x10000 else f"\\U{n:08x}")
+    return "".join(out)
 
 
 class SnugboardError(Exception):
@@ -102,7 +144,7 @@ class InputError(SnugboardError):
             where = f"{where} {pt}" if where else pt
         if where:
             parts.append(where)
-        return ": ".join(parts) + ": " + self.reason
+        return shown(": ".join(parts) + ": " + self.reason)
 
 
 class ProjectError(InputError):
@@ -121,10 +163,26 @@ class LibraryError(InputError):
     """Bad footprint or part-kind data under ``footprints/``."""
 
 
+class UnknownNameError(LibraryError, DesignError):
+    """A package, kind or density level the library does not know.
+
+    Raised where the name was written (a design file and key, the command
+    line); ``name`` is what was asked for, ``suggestions`` the closest known
+    names, already part of the message. It is a design error as much as a
+    library one, so callers need not translate it.
+    """
+
+    def __init__(self, file: str, reason: str, *, name: str = "",
+                 suggestions: tuple[str, ...] = (), **where: object) -> None:
+        self.name = name
+        self.suggestions = tuple(suggestions)
+        super().__init__(file, reason, **where)  # type: ignore[arg-type]
+
+
 class OutputError(SnugboardError):
     """An output could not be written (never overwrites the user's own files)."""
 
     def __init__(self, path: str, reason: str) -> None:
         self.path = str(path)
         self.reason = reason
-        super().__init__(f"{self.path}: {reason}")
+        super().__init__(shown(f"{self.path}: {reason}"))

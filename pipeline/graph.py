@@ -31,10 +31,13 @@ Examples
 
 from __future__ import annotations
 
-import networkx as nx
+from typing import TYPE_CHECKING
 
-from .model import Design
+from .model import Design, Net, PinRef
 from .order import natural_key
+
+if TYPE_CHECKING:  # pragma: no cover - networkx is imported where a graph is built (it is heavy)
+    import networkx as nx
 
 __all__ = [
     "build_graph",
@@ -47,7 +50,37 @@ __all__ = [
     "pin_nets",
     "unconnected_pins",
     "connected_groups",
+    "GROUND_NAMES",
+    "is_ground",
+    "pin_net_map",
 ]
+
+#: Net names that mean ground (0 V when a net declares no voltage), compared
+#: without regard to case; ``0`` is the SPICE ground node (ngspice manual,
+#: "circuit description": node 0 is ground).
+GROUND_NAMES = frozenset({"GND", "AGND", "DGND", "PGND", "0"})
+
+
+def is_ground(name: str) -> bool:
+    """True for a ground net name (:data:`GROUND_NAMES`, any case).
+
+    >>> is_ground("agnd"), is_ground("0"), is_ground("VCC")
+    (True, True, False)
+    """
+    return name.upper() in GROUND_NAMES
+
+
+def pin_net_map(design: Design) -> dict[PinRef, list[Net]]:
+    """Every connected pin -> the nets it is on, in design order. Cost O(pins).
+
+    A pin listed on two nets (a check finding) maps to both; callers that
+    want one take the first.
+    """
+    out: dict[PinRef, list[Net]] = {}
+    for net in design.nets:
+        for p in net.pins:
+            out.setdefault(p, []).append(net)
+    return out
 
 
 def part_node(ref: str) -> tuple[str, str]:
@@ -65,6 +98,8 @@ def build_graph(design: Design) -> nx.MultiGraph:
     kind's :class:`~pipeline.model.PinDef` tuple); net nodes carry
     ``voltage``. Cost O(parts + pins).
     """
+    import networkx as nx
+
     g = nx.MultiGraph(design=design.name)
     for p in design.parts:
         g.add_node(part_node(p.ref), kind=p.kind, package=p.package, dnp=p.dnp, pins=p.pins)
@@ -121,6 +156,8 @@ def connected_groups(g: nx.MultiGraph) -> list[list[str]]:
     search), O(V + E); net nodes are dropped from the result.
     """
     groups = []
+    import networkx as nx
+
     for comp in nx.connected_components(g):
         refs = sorted((n[1] for n in comp if n[0] == "part"), key=natural_key)
         if refs:

@@ -12,24 +12,34 @@ stage boundary is here.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any, Literal
+from typing import TYPE_CHECKING, Any, Literal
 
-from shapely.geometry.base import BaseGeometry
+if TYPE_CHECKING:  # geometry types only annotate: importing shapely here would slow every command's start
+    from shapely.geometry.base import BaseGeometry
+
+from .codes import allowed
+from .values import round_sig as _sig
 
 Severity = Literal["error", "warning", "info"]
 Side = Literal["top", "bottom"]
 Density = Literal["most", "nominal", "least"]
 
-#: Electrical roles a pin may have (DEVELOPERS.md, "Part kinds").
-PIN_ROLES = (
-    "power-in",
-    "power-out",
-    "input",
-    "output",
-    "open-collector",
-    "passive",
-    "no-connect",
-)
+#: IPC-7351B density levels, in the order A (most), B (nominal), C (least):
+#: the one list of level names (project.toml, the library, the area stage).
+DENSITY_LEVELS: tuple[str, ...] = ("most", "nominal", "least")
+
+#: Electrical roles a pin may have, in datasheet words: a supply pin, a supply output
+#: (a regulator's output), a signal input, a push-pull output, an open-drain (or
+#: open-collector) output, a plain terminal (resistor, capacitor, connector), and a
+#: pin with no connection inside (NC). footprints/README.md, "Part kinds".
+PIN_ROLES = ("supply", "supply-out", "in", "out", "open-drain", "terminal", "nc")
+
+#: The role spellings of the previous release, still read for one release (with a
+#: warning where a user wrote them): old spelling -> role.
+OLD_PIN_ROLES = {
+    "power-in": "supply", "power-out": "supply-out", "input": "in", "output": "out",
+    "open-collector": "open-drain", "passive": "terminal", "no-connect": "nc",
+}
 
 SEVERITIES = ("error", "warning", "info")
 
@@ -52,6 +62,11 @@ class Finding:
     subject: tuple[str, ...]
     message: str
 
+    def __post_init__(self) -> None:
+        if not allowed(self.check, self.severity):
+            raise AssertionError(f"finding code {self.check!r} with severity {self.severity!r} is not in "
+                                 "pipeline/codes.py (add it there and to README)")
+
     def to_dict(self) -> dict[str, Any]:
         return {
             "severity": self.severity,
@@ -66,11 +81,19 @@ class Finding:
 # --------------------------------------------------------------------------
 @dataclass(frozen=True)
 class PinDef:
-    """A pin of a part kind: its number (as text), name and electrical role."""
+    """A pin of a part kind: its number (as text), name and electrical role.
+
+    A role of the previous release's spelling (:data:`OLD_PIN_ROLES`) is
+    stored as its new name.
+    """
 
     number: str
     name: str
     role: str
+
+    def __post_init__(self) -> None:
+        if self.role in OLD_PIN_ROLES:
+            object.__setattr__(self, "role", OLD_PIN_ROLES[self.role])
 
 
 @dataclass(frozen=True)
@@ -92,6 +115,9 @@ class PartKind:
     pins_from_package: bool = False
     description: str = ""
     source: str = ""
+    #: Copper or holes of the board itself (wire pad, test point, mounting hole, fiducial):
+    #: in the netlists and the picture, never ordered in the BOM.
+    board_feature: bool = False
 
 
 @dataclass(frozen=True)
@@ -107,6 +133,32 @@ class Courtyard:
         return self.length_mm * self.width_mm
 
 
+#: Pad shapes (Pad.shape).
+PAD_SHAPES = ("rect", "roundrect", "circle", "oblong")
+
+
+@dataclass(frozen=True)
+class Pad:
+    """One land of a package, mm.
+
+    In the package's frame (pipeline.library.lands: x along the length, pin 1
+    where the outline puts it) or, from ``pipeline.library.pads_on_board``, on
+    the board. ``width_mm`` is the pad's extent along x and ``height_mm`` along
+    y before its ``rotation`` (0 or 90 degrees) is applied; ``drill_mm`` is the
+    finished hole of a through-hole pad, 0 for surface mount. ``number`` is the
+    pin number as text (``"EP"`` for an exposed pad).
+    """
+
+    number: str
+    x_mm: float
+    y_mm: float
+    shape: str
+    width_mm: float
+    height_mm: float
+    drill_mm: float = 0.0
+    rotation: int = 0
+
+
 @dataclass(frozen=True)
 class Package:
     """A generic footprint: body, land extent, height and courtyards.
@@ -115,9 +167,10 @@ class Package:
     ``land_length_mm`` along the pin rows (for a chip, its terminal axis, so
     there the land length is toe to toe), ``body_width_mm`` and
     ``land_width_mm`` across them (for a gull-wing IC, the land width is the
-    toe-to-toe span across the rows). ``height_mm`` is the tallest a part in
-    this package may be. ``courtyards`` holds one :class:`Courtyard` per
-    density level (``most``, ``nominal``, ``least``). footprints/README.md
+    toe-to-toe span across the rows); both are the extent of the nominal-level
+    pads. ``height_mm`` is the tallest a part in this package may be.
+    ``courtyards`` holds one :class:`Courtyard` per density level (``most``,
+    ``nominal``, ``least``), each around the body and that level's pads. footprints/README.md
     gives the basis of every figure.
     """
 
@@ -133,12 +186,26 @@ class Package:
     pitch_mm: float
     source: str
     courtyards: tuple[Courtyard, ...]
+    #: ``(level, pads)`` per density level: the land pattern (IPC-7351B lands differ by level).
+    pads_by_level: tuple[tuple[str, tuple[Pad, ...]], ...] = ()
 
     def courtyard(self, level: str) -> Courtyard:
         for c in self.courtyards:
             if c.level == level:
                 return c
         raise KeyError(level)
+
+    def pads_at(self, level: str) -> tuple[Pad, ...]:
+        """The pads at density ``level`` (empty when the package has none)."""
+        for lv, pads in self.pads_by_level:
+            if lv == level:
+                return pads
+        return ()
+
+    @property
+    def pads(self) -> tuple[Pad, ...]:
+        """The pads at the nominal density level (IPC-7351B level B)."""
+        return self.pads_at("nominal")
 
 
 # --------------------------------------------------------------------------
@@ -418,3 +485,176 @@ class FitResult:
     unplaced: tuple[str, ...] = ()
     wirelength_mm: float = 0.0
     warnings: tuple[Finding, ...] = ()
+
+
+# --------------------------------------------------------------------------
+# Declared circuit blocks: what pipeline.circuit reports about each one.
+# SI units (Hz, V, A, W, ohm, F); tolerances and shares as fractions.
+# --------------------------------------------------------------------------
+@dataclass(frozen=True)
+class Target:
+    """A figure's target: the text written, the aim and the allowed range."""
+
+    figure: str
+    text: str
+    aim: float
+    lo: float
+    hi: float
+
+    @property
+    def half(self) -> float:
+        return (self.hi - self.lo) / 2.0
+
+    def contains(self, x: Any) -> Any:
+        """True where ``x`` (a number or numpy array) lies in ``[lo, hi]`` (a hair of float slack)."""
+        import numpy as np
+
+        eps = 1e-12 * max(abs(self.lo), abs(self.hi))
+        x = np.asarray(x, dtype=float)
+        return (x >= self.lo - eps) & (x <= self.hi + eps)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"text": self.text, "aim": _sig(self.aim), "lo": _sig(self.lo), "hi": _sig(self.hi)}
+
+
+@dataclass(frozen=True)
+class RolePart:
+    """A part playing a role in a block: its value (SI) and tolerance (fraction)."""
+
+    role: str
+    ref: str
+    kind: str
+    value: float | None
+    value_text: str
+    tolerance: float | None
+    tolerance_assumed: bool
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "role": self.role, "ref": self.ref, "kind": self.kind, "value": _sig(self.value),
+            "value_text": self.value_text, "tolerance": _sig(self.tolerance),
+            "tolerance_assumed": self.tolerance_assumed,
+        }
+
+
+@dataclass(frozen=True)
+class FigureReport:
+    """One figure of a block: nominal, target, corner extremes, percentiles."""
+
+    name: str
+    unit: str
+    label: str
+    nominal: float
+    target: Target | None
+    corner_min: float
+    corner_max: float
+    p01: float | None
+    p50: float | None
+    p99: float | None
+    share_out: float | None
+    passes: bool | None
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "name": self.name, "unit": self.unit, "label": self.label,
+            "nominal": _sig(self.nominal),
+            "target": self.target.to_dict() if self.target else None,
+            "corners": {"min": _sig(self.corner_min), "max": _sig(self.corner_max)},
+            "monte_carlo": {"p1": _sig(self.p01), "p50": _sig(self.p50), "p99": _sig(self.p99)},
+            "share_out": _sig(self.share_out, 4),
+            "passes": self.passes,
+        }
+
+
+@dataclass(frozen=True)
+class Proposal:
+    """A retune proposal: preferred values per role and what they give.
+
+    ``error`` is the sum over targets of ((figure - aim) / half-width)^2;
+    ``share_out`` the Monte Carlo share of builds (same tolerances, same
+    seed) missing some target.
+    """
+
+    values: tuple[tuple[str, str, float], ...]      # (role, ref, value)
+    figures: tuple[tuple[str, float], ...]
+    error: float
+    passes: bool
+    share_out: float | None
+    changed: tuple[str, ...]
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "values": [{"role": r, "ref": ref, "value": _sig(v)} for r, ref, v in self.values],
+            "figures": {k: _sig(v) for k, v in self.figures},
+            "error": _sig(self.error, 4),
+            "passes": self.passes,
+            "share_out": _sig(self.share_out, 4),
+            "changed": list(self.changed),
+        }
+
+
+@dataclass(frozen=True)
+class Response:
+    """Frequency response (dB) at ``f_hz``: nominal and corner envelope."""
+
+    f_hz: tuple[float, ...]
+    nominal_db: tuple[float, ...]
+    low_db: tuple[float, ...]
+    high_db: tuple[float, ...]
+    f0_hz: float
+    f3db_hz: float
+    passband_db: float
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "f_hz": [_sig(v) for v in self.f_hz],
+            "nominal_db": [_sig(v, 5) for v in self.nominal_db],
+            "low_db": [_sig(v, 5) for v in self.low_db],
+            "high_db": [_sig(v, 5) for v in self.high_db],
+            "f0_hz": _sig(self.f0_hz), "f3db_hz": _sig(self.f3db_hz), "passband_db": _sig(self.passband_db),
+        }
+
+
+@dataclass(frozen=True)
+class BlockReport:
+    """Everything the analysis found about one declared circuit block."""
+
+    name: str
+    type: str
+    key: str
+    parts: tuple[RolePart, ...]
+    settings: tuple[tuple[str, float], ...]
+    options: tuple[tuple[str, str], ...]
+    figures: tuple[FigureReport, ...]
+    draws: int
+    seed: int
+    share_out: float | None
+    passes: bool | None
+    response: Response | None
+    series: tuple[tuple[str, str], ...]
+    proposals: tuple[Proposal, ...]
+    assumptions: tuple[str, ...]
+    note: str = ""
+
+    distribution = "uniform within +-tolerance, parts independent"
+
+    def figure(self, name: str) -> FigureReport:
+        for f in self.figures:
+            if f.name == name:
+                return f
+        raise LookupError(name)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "name": self.name, "type": self.type, "key": self.key, "note": self.note,
+            "parts": [p.to_dict() for p in self.parts],
+            "settings": {k: _sig(v) for k, v in self.settings},
+            "options": dict(self.options),
+            "figures": [f.to_dict() for f in self.figures],
+            "monte_carlo": {"draws": self.draws, "seed": self.seed,
+                            "distribution": self.distribution, "share_out": _sig(self.share_out, 4)},
+            "passes": self.passes,
+            "response": self.response.to_dict() if self.response else None,
+            "retune": {"series": dict(self.series), "proposals": [p.to_dict() for p in self.proposals]},
+            "assumptions": list(self.assumptions),
+        }

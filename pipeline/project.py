@@ -18,10 +18,14 @@ table      keys (default)
 project    name, design, cavity, parts_map
 board      layers (2), thickness_mm (0.8), sides (1), density ("nominal"),
            edge_clearance_mm (0.5), wall_clearance_mm (0.3),
-           outline ("region" or "rectangle"), min_inside_radius_mm (0.5)
+           outline ("region" or "rectangle"), min_inside_radius_mm (0.5),
+           outline_units ("mm" or "drawing": board-outline.dxf in the cavity's units)
 cavity     depth_mm (5.0), units ("mm"), layers (role map), chord_tolerance_mm (0.02)
 order      boards (1), spares_percent (0), min_spares (0), multiple (1)
-analysis   draws (10000), seed (1)
+analysis   draws (10000), seed (1), retune_above_share (0.01)
+limits     spice_file_bytes, spice_include_splices, spice_expansion_parts,
+           expression_depth (defaults in pipeline/spice/limits.py), dxf_bytes, dxf_entities,
+           dxf_vertices, cavity_coordinate_mm (defaults in pipeline/cavity/limits.py; README "Limits")
 copper     route (true), track_width_mm, clearance_mm, via_diameter_mm, via_drill_mm,
            edge_clearance_mm, vias_in_pads (false), areas, currents, ... (pipeline.route.rules)
 =========  ====================================================================
@@ -36,16 +40,18 @@ from pathlib import Path
 from typing import Any, Callable
 
 from .errors import ProjectError
-from .model import BoardOptions, Design, FitResult, Finding, OrderOptions
+from .model import DENSITY_LEVELS, BoardOptions, Design, FitResult, Finding, OrderOptions
+from .cavity.limits import DEFAULTS as CAVITY_LIMITS
+from .spice.limits import DEFAULTS as SPICE_LIMITS
 from .route.rules import COPPER_KEYS, CopperRules, read_copper
 from .tomlsrc import TomlSource, load
 
 __all__ = ["Project", "RunResult", "load_project", "run", "check_design", "inspect_cavity", "read_any_design",
            "SPICE_SUFFIXES", "UNITS"]
 
+NOT_FITTING = "the parts do not fit, so routing was not tried"
 SPICE_SUFFIXES = (".cir", ".sp", ".spice", ".net")
 UNITS = ("mm", "cm", "m", "inch", "in", "foot", "ft", "mil", "um")
-DENSITIES = ("most", "nominal", "least")
 STANDARD_THICKNESS = (0.4, 0.6, 0.8, 1.0, 1.2, 1.6, 2.0)  # REFERENCES.md section 4, common practice
 
 Progress = Callable[[str, float], None]
@@ -53,10 +59,11 @@ Progress = Callable[[str, float], None]
 _KEYS: dict[str, tuple[str, ...]] = {
     "project": ("name", "design", "cavity", "parts_map"),
     "board": ("layers", "thickness_mm", "sides", "density", "edge_clearance_mm", "wall_clearance_mm",
-              "outline", "min_inside_radius_mm"),
+              "outline", "min_inside_radius_mm", "outline_units"),
     "cavity": ("depth_mm", "units", "layers", "chord_tolerance_mm"),
     "order": ("boards", "spares_percent", "min_spares", "multiple"),
-    "analysis": ("draws", "seed"),
+    "analysis": ("draws", "seed", "retune_above_share"),
+    "limits": tuple(SPICE_LIMITS) + tuple(CAVITY_LIMITS),  # README "Limits"; each a whole number >= 1
     "copper": COPPER_KEYS,
 }
 
@@ -86,6 +93,9 @@ class Project:
     draws: int = 10000
     seed: int = 1
     warnings: tuple[Finding, ...] = ()
+    retune_above_share: float | None = None     # None: pipeline.circuit.RETUNE_ABOVE_SHARE
+    limits: tuple[tuple[str, int], ...] = ()  # [limits] keys given, sorted
+    outline_units: str = "mm"  # board-outline.dxf in "mm" or in the cavity drawing's units
     copper: CopperRules = CopperRules()
 
 
@@ -101,27 +111,17 @@ class RunResult:
     stage_reports: tuple[Any, ...] = ()
     sweep: Any = None
     fit_json: dict = field(default_factory=dict)
-    routing: Any = None   # pipeline.route.RouteVerdict, or None without a cavity
+    verdict: Any = None
+    routing: Any = None   # pipeline.route.RouteVerdict, or None without a fit
 
 
 # --------------------------------------------------------------------------
-def _num(src: TomlSource, key: str, v: Any, *, integer: bool = False, lo: float | None = None,
-         hi: float | None = None, lo_open: bool = False) -> Any:
-    if isinstance(v, bool) or not isinstance(v, (int, float)) or (integer and not isinstance(v, int)):
-        raise src.error(key, f"expected {'a whole number' if integer else 'a number'}, found {v!r}", ProjectError)
-    if lo is not None and (v < lo or (lo_open and v == lo)):
-        raise src.error(key, f"must be {'above' if lo_open else 'at least'} {lo:g}, found {v!r}", ProjectError)
-    if hi is not None and v > hi:
-        raise src.error(key, f"must be at most {hi:g}, found {v!r}", ProjectError)
-    return v
+def _num(src: TomlSource, key: str, v: Any, **checks: Any) -> Any:
+    return src.number(key, v, ProjectError, **checks)
 
 
-def _text(src: TomlSource, key: str, v: Any, choices: tuple[str, ...] | None = None) -> str:
-    if not isinstance(v, str) or not v.strip():
-        raise src.error(key, f"expected text, found {v!r}", ProjectError)
-    if choices and v not in choices:
-        raise src.error(key, f"'{v}' is not one of: {', '.join(choices)}", ProjectError)
-    return v
+def _text(src: TomlSource, key: str, v: Any, choices: tuple[str, ...] | None = None, *, path: bool = False) -> str:
+    return src.text(key, v, ProjectError, choices=choices, path=path)
 
 
 def _shown(p: Path, root: Path) -> str:
@@ -172,7 +172,7 @@ def load_project(
     an = data.get("analysis", {})
 
     def rel(key: str, value: Any) -> Path:
-        return (root / _text(src, key, value)).resolve()
+        return (root / _text(src, key, value, path=True)).resolve()
 
     if design is not None:
         design_path, design_shown = Path(design).resolve(), design
@@ -196,7 +196,7 @@ def load_project(
         layers=_num(src, "board.layers", bd.get("layers", b.layers), integer=True, lo=1, hi=64),
         thickness_mm=float(_num(src, "board.thickness_mm", bd.get("thickness_mm", b.thickness_mm), lo=0, lo_open=True, hi=10)),
         sides=_num(src, "board.sides", bd.get("sides", b.sides), integer=True, lo=1, hi=2),
-        density=_text(src, "board.density", bd.get("density", b.density), DENSITIES),
+        density=_text(src, "board.density", bd.get("density", b.density), DENSITY_LEVELS),
         edge_clearance_mm=float(_num(src, "board.edge_clearance_mm", bd.get("edge_clearance_mm", b.edge_clearance_mm), lo=0, hi=50)),
         wall_clearance_mm=float(_num(src, "board.wall_clearance_mm", bd.get("wall_clearance_mm", b.wall_clearance_mm), lo=0, hi=50)),
         outline=_text(src, "board.outline", bd.get("outline", b.outline), ("region", "rectangle")),
@@ -217,7 +217,8 @@ def load_project(
     if layer_map is not None and not isinstance(layer_map, dict):
         raise src.error("cavity.layers", "expected a table such as { CAVITY = \"Outline\", KEEPOUT = [\"Bosses\"] }",
                         ProjectError)
-    out_dir = Path(out).resolve() if out is not None else (root / "out").resolve()
+    # not resolved: a symbolic link as the output folder is refused by the writer, not followed
+    out_dir = Path(os.path.abspath(out if out is not None else root.resolve() / "out"))
     return Project(
         name=_text(src, "project.name", pj.get("name", root.resolve().name or "project")),
         root=root.resolve(),
@@ -232,24 +233,30 @@ def load_project(
         order=order,
         depth_mm=float(_num(src, "cavity.depth_mm", cv.get("depth_mm", 5.0), lo=0, lo_open=True, hi=1000)),
         units=_text(src, "cavity.units", cv.get("units", "mm"), UNITS),
+        outline_units=_text(src, "board.outline_units", bd.get("outline_units", "mm"), ("mm", "drawing")),
         layer_map=layer_map,
         chord_tolerance_mm=float(_num(src, "cavity.chord_tolerance_mm", cv.get("chord_tolerance_mm", 0.02),
                                       lo=0, lo_open=True, hi=5)),
         draws=_num(src, "analysis.draws", an.get("draws", 10000), integer=True, lo=100, hi=1_000_000),
         seed=_num(src, "analysis.seed", an.get("seed", 1), integer=True, lo=0),
+        retune_above_share=(float(_num(src, "analysis.retune_above_share", an["retune_above_share"], lo=0, hi=1))
+                            if "retune_above_share" in an else None),
         warnings=tuple(warnings),
+        limits=tuple(sorted((k, _num(src, f"limits.{k}", v, integer=True, lo=1))
+                            for k, v in data.get("limits", {}).items())),
         copper=read_copper(src, data.get("copper", {}), board.layers),
     )
 
 
 # --------------------------------------------------------------------------
 def read_any_design(path: Path, library: Any, *, shown: str, parts_map: Path | None = None,
-                    root: Path | None = None) -> tuple[Design, list[Finding]]:
-    """Read a TOML design or, by its ending, a SPICE netlist."""
+                    root: Path | None = None, limits: tuple[tuple[str, int], ...] = ()) -> tuple[Design, list[Finding]]:
+    """Read a TOML design or, by its ending, a SPICE netlist (``limits``: the project's ``[limits]``)."""
     if path.suffix.lower() in SPICE_SUFFIXES:
         from .spice import read_spice
+        from .spice.limits import SpiceLimits
         return read_spice(path, library, display_name=shown, parts_map=parts_map,
-                          root=root if root is not None else path.parent)
+                          root=root if root is not None else path.parent, limits=SpiceLimits.from_table(dict(limits)))
     from .design import read_design
     return read_design(path, library, display=shown)
 
@@ -258,28 +265,42 @@ def _categories(design: Design, library: Any) -> dict[str, str]:
     return {p.kind: library.kind(p.kind).category for p in design.parts}
 
 
-def _read_and_check(path: Path, shown: str, parts_map: Path | None, root: Path | None):
-    """Read a design, build its graph and run the connection and value checks.
+def _read_and_check(path: Path, shown: str, parts_map: Path | None, root: Path | None, *,
+                    limits: tuple[tuple[str, int], ...] = (), progress: Progress | None = None,
+                    **analysis: Any):
+    """Read a design, build its graph, run the connection and value checks and analyse its blocks.
 
-    Returns ``(design, library with the design's own kinds, findings)``.
+    Returns ``(design, library with the design's own kinds, findings, block reports)``.
     """
     from .check import check_connections
+    from .circuit import analyse_blocks
     from .graph import build_graph
     from .library import load_library
     from .ratings import check_values
 
     library = load_library()
-    design, warnings = read_any_design(Path(path), library, shown=shown, parts_map=parts_map, root=root)
+    design, warnings = read_any_design(Path(path), library, shown=shown, parts_map=parts_map, root=root,
+                                       limits=limits)
     lib = library.with_kinds(design.kinds)
     g = build_graph(design)
     findings = (*warnings, *check_connections(design, g, _categories(design, lib)), *check_values(design))
-    return design, lib, findings
+    reports, block_findings = analyse_blocks(design, progress=progress, **analysis)
+    return design, lib, (*findings, *block_findings), reports
+
+
+def _analysis(project: Project) -> dict[str, Any]:
+    """The ``[analysis]`` keys as keyword arguments of :func:`pipeline.circuit.analyse_blocks`."""
+    out: dict[str, Any] = {"draws": project.draws, "seed": project.seed}
+    if project.retune_above_share is not None:
+        out["retune_above_share"] = project.retune_above_share
+    return out
 
 
 def check_design(path: Path, *, shown: str | None = None, parts_map: Path | None = None,
                  root: Path | None = None) -> tuple[Design, tuple[Finding, ...]]:
-    """Read a design file alone and run the connection and value checks."""
-    design, _, findings = _read_and_check(Path(path), shown or str(path), parts_map, root)
+    """Read a design file alone and run every check that needs no drawing: connections, values
+    and the declared blocks (Monte Carlo with the default draws and seed of ``[analysis]``)."""
+    design, _, findings, _ = _read_and_check(Path(path), shown or str(path), parts_map, root)
     return design, tuple(findings)
 
 
@@ -291,7 +312,7 @@ def inspect_cavity(path: Path, *, shown: str | None = None, project: Project | N
     region, findings)``; bad drawings raise
     :class:`~pipeline.errors.CavityError`.
     """
-    from .cavity import read_cavity
+    from .cavity import Limits, read_cavity
     from .region import usable_region
 
     p = project
@@ -299,7 +320,8 @@ def inspect_cavity(path: Path, *, shown: str | None = None, project: Project | N
                              layer_map=p.layer_map if p else None,
                              default_units=p.units if p else "mm",
                              depth_mm=p.depth_mm if p else 5.0,
-                             chord_tol_mm=p.chord_tolerance_mm if p else 0.02)
+                             chord_tol_mm=p.chord_tolerance_mm if p else 0.02,
+                             limits=Limits.from_table(dict(p.limits) if p else None))
     region, rw = usable_region(cavity, p.board if p else BoardOptions())
     return cavity, region, (*cw, *rw)
 
@@ -325,17 +347,18 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     """
     from .export import atomic, bom, edif, netlist, results
     from .export import spice as spice_out
-    from .stages import analyse_stages, stage_sections
+    from .export.blocks import block_sections
 
     timestamp = _source_date_epoch()
-    design, lib, checked = _read_and_check(project.design_path, project.design_shown, project.parts_map,
-                                           project.root)
+    design, lib, checked, reports = _read_and_check(project.design_path, project.design_shown, project.parts_map,
+                                                    project.root, limits=project.limits, progress=progress,
+                                                    **_analysis(project))
     findings: list[Finding] = [*project.warnings, *checked]
-    reports, stage_findings = analyse_stages(design, draws=project.draws, seed=project.seed, progress=progress)
-    findings += stage_findings
 
     files: dict[str, bytes] = {}
-    files.update(bom.bom_files(design, project.order))
+    features = frozenset(k.name for k in lib.kinds() if k.board_feature)  # never ordered
+    order_files = bom.bom_files(design, project.order, features)
+    files.update(order_files)
     files["netlist.csv"] = netlist.netlist_csv(design)
     files["netlist.json"] = netlist.netlist_json(design)
     files["netlist.edf"] = edif.edif_netlist(design, timestamp=timestamp)
@@ -345,54 +368,45 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
 
     fit = None
     sweep_result = None
-    fit_json: dict = {}
-    sections = list(stage_sections(reports))
-    svg = None
+    extra: dict[str, Any] = {}
+    sections = list(block_sections(reports))
     route_verdict = None
     if project.cavity_path is not None:
-        from .area import items_from_design
-        from .cavity import read_cavity
-        from .export import dxf as dxf_out
-        from .export import svg as svg_out
-        from .place import place_and_fit
-        from .region import usable_region
-
-        cavity, cw = read_cavity(project.cavity_path, display_name=project.cavity_shown,
-                                 layer_map=project.layer_map, default_units=project.units,
-                                 depth_mm=project.depth_mm, chord_tol_mm=project.chord_tolerance_mm)
-        region, rw = usable_region(cavity, project.board)
-        items = items_from_design(design, lib, project.board.density)
-        fit = place_and_fit(items, region, project.board, user_board=cavity.board, progress=progress)
-        fit = dataclasses.replace(fit, warnings=(*cw, *rw, *fit.warnings))
-        findings += [*cw, *rw]
-        findings += _fit_findings(fit)
-        extra: dict[str, Any] = {}
-        if sweep:
-            from .sweep import sweep_sizes
-            sweep_result = sweep_sizes(design, lib, region, project.board, progress=progress,
-                                       user_board=cavity.board)
+        cavity, region, items, fit, sweep_result, fit_findings = _fit(project, design, lib, sweep, progress)
+        findings += fit_findings
+        if sweep_result is not None:
             extra["passive_sizes"] = sweep_result.to_dict()
         fit, route_verdict = _route(project, route, fit, items, region, cavity.board, design, lib, files, progress)
         findings += _route_findings(route_verdict)
         extra["routing"] = route_verdict.to_dict()
-        fit_json = results.fit_dict(fit, extra)
-        files["fit.json"] = results.dump_json(fit_json)
-        svg = svg_out.fit_svg(cavity, region, fit, title=design.name)
-        files["fit.svg"] = svg
-        if fit.board_outline is not None and not fit.board_outline.is_empty:
-            files["board-outline.dxf"] = dxf_out.board_outline_dxf(fit.board_outline)
     else:
         findings.append(Finding("info", "fit.no-cavity", (),
                                 "No cavity drawing given: the fit was not checked. Set [project] cavity or pass --cavity."))
+    from .verdict import decide
+    tried = route_verdict is not None and route_verdict.reason != NOT_FITTING
+    verdict = decide(findings, fit, routing=route_verdict if tried else None)
+    fit_json: dict = {}
+    svg = None
+    if fit is not None:
+        from .cavity import cavity_units
+        from .export import dxf as dxf_out
+        from .export import svg as svg_out
+        fit_json = results.fit_dict(fit, extra, verdict=verdict)
+        files["fit.json"] = results.dump_json(fit_json)
+        svg = svg_out.fit_svg(cavity, region, fit, title=design.name, verdict=verdict,
+                              facts=svg_out.part_facts(design, items), pads=_pads(fit, design, lib))
+        files["fit.svg"] = svg
+        if fit.board_outline is not None and not fit.board_outline.is_empty:
+            units = cavity_units(cavity) if project.outline_units == "drawing" else (4, 1.0)
+            files["board-outline.dxf"] = dxf_out.board_outline_dxf(fit.board_outline, units=units)
 
     files["findings.json"] = results.findings_json(findings)
     from .export import report as report_out
     files["report.html"] = report_out.report_html(title=f"{design.name} {design.revision}".strip(), fit=fit,
-                                                  findings=findings, fit_svg=svg, sections=sections)
-    errors = any(f.severity == "error" for f in findings)
-    unrouted = route_verdict is not None and route_verdict.status == "open"
-    status = 1 if errors or (fit is not None and not fit.fits) or unrouted else 0
-    protect = [project.design_path, project.root / "project.toml"]
+                                                  findings=findings, fit_svg=svg, sections=sections,
+                                                  verdict=verdict, order_files=order_files, board=project.board)
+    status = verdict.exit_status
+    protect = [project.design_path, project.root / "project.toml", *design.inputs]
     if project.cavity_path is not None:
         protect.append(project.cavity_path)
     if project.parts_map is not None:
@@ -400,7 +414,44 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     written = atomic.write_all(project.out_dir, files, protect=protect)
     return RunResult(design=design, findings=tuple(findings), fit=fit, exit_status=status,
                      written=tuple(written), stage_reports=tuple(reports), sweep=sweep_result, fit_json=fit_json,
-                     routing=route_verdict)
+                     verdict=verdict, routing=route_verdict)
+
+
+def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Progress | None):
+    """Cavity, region, placement (with tried advice) and, with ``sweep``, the size sweep.
+
+    Returns ``(cavity, region, placer items, fit, sweep_result, findings)``.
+    """
+    from .advice import tried_advice
+    from .area import items_from_design
+    from .cavity import Limits, read_cavity
+    from .place import place_and_fit
+    from .region import usable_region
+
+    cavity, cw = read_cavity(project.cavity_path, display_name=project.cavity_shown,
+                             layer_map=project.layer_map, default_units=project.units,
+                             depth_mm=project.depth_mm, chord_tol_mm=project.chord_tolerance_mm,
+                             limits=Limits.from_table(dict(project.limits)))
+    region, rw = usable_region(cavity, project.board)
+    items = items_from_design(design, lib, project.board.density)
+    fit = place_and_fit(items, region, project.board, user_board=cavity.board, progress=progress)
+    fit = tried_advice(fit, items, cavity, project.board, STANDARD_THICKNESS, progress=progress)
+    fit = dataclasses.replace(fit, warnings=(*cw, *rw, *fit.warnings))
+    sweep_result = None
+    if sweep:
+        from .sweep import sweep_sizes
+        sweep_result = sweep_sizes(design, lib, region, project.board, progress=progress, user_board=cavity.board)
+    return cavity, region, items, fit, sweep_result, [*cw, *rw, *_fit_findings(fit)]
+
+
+def _pads(fit: FitResult, design: Design, lib: Any) -> tuple:
+    """The placed parts' copper pads (the routing step's one pad adapter), for the picture."""
+    from shapely.geometry import Polygon
+
+    from .route.pads import board_from_placement
+
+    outline = fit.board_outline if fit.board_outline is not None else Polygon()
+    return board_from_placement(outline, fit.placements, design, lib, ("top", "bottom")).pads
 
 
 def _route(project: Project, route: bool, fit: FitResult, items: Any, region: Any, user_board: Any, design: Design,
@@ -418,7 +469,7 @@ def _route(project: Project, route: bool, fit: FitResult, items: Any, region: An
     if not (route and project.copper.route):
         verdict = skipped("routing is switched off (--no-route or [copper] route = false): the verdict is placement only")
     elif not fit.fits or fit.board_outline is None or fit.board_outline.is_empty:
-        verdict = skipped("the parts do not fit, so routing was not tried")
+        verdict = skipped(NOT_FITTING)
     else:
         fit, out = route_fit(fit, items, region, project.board, design, lib, project.copper, user_board=user_board,
                              progress=progress)
@@ -440,10 +491,10 @@ def _route_findings(v) -> list[Finding]:
         return [Finding("info", "route.skipped", (), f"Routing skipped: {v.reason}.")]
     out = [Finding("error", "route.defect", (), f"Router defect: the independent copper check found: {d}")
            for d in v.defects]
-    if v.open_nets:
+    if v.open_nets:  # the verdict makes the open nets its blocking reason; this note gives the figures
         where = "; congestion near " + ", ".join(f"({x:.1f}, {y:.1f}) mm" for x, y in v.congestion[:3]) \
             if v.congestion else ""
-        out.append(Finding("error", "route.open", v.open_nets,
+        out.append(Finding("info", "route.demand", v.open_nets,
                            f"Placed, routing not proven: {len(v.open_nets)} net(s) open ({', '.join(v.open_nets)}); "
                            f"routing demand peak {v.demand_peak:.2f}, 90th percentile {v.demand_p90:.2f} of "
                            f"capacity{where}. Give the board more room or more layers."))

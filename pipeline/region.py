@@ -191,64 +191,82 @@ def usable_region(cavity: Cavity, board: BoardOptions) -> tuple[Region, list[Fin
     (741.0, [(4.2, 741.0)])
     """
     c, t = _check_options(board)
-    findings: list[Finding] = []
     name = cavity.source
     floor_full = Polygon(cavity.outline.exterior.coords) if isinstance(cavity.outline, Polygon) \
         else shapely.union_all([Polygon(p.exterior.coords) for p in shapely.get_parts(cavity.outline)])
-    floor = cavity.outline
-
-    inset = polygonal(floor.buffer(-c, join_style=_JOIN) if c > 0 else floor)
+    inset = polygonal(cavity.outline.buffer(-c, join_style=_JOIN) if c > 0 else cavity.outline)
     keep = _grow(shapely.union_all(list(cavity.keepouts)), c) if cavity.keepouts else Polygon()
-
     # exact depth areas, then each grown by c; ascending depth wins
-    exact = _depth_partition(cavity, floor_full)
-    grown = [(d, _grow(a, c), lay) for d, a, lay in exact]
+    grown = [(d, _grow(a, c), lay) for d, a, lay in _depth_partition(cavity, floor_full)]
+    shallow, findings = _too_shallow(grown, t, name)
+    if cavity.board is not None:
+        region_geom = polygonal(cavity.board)
+        findings += _user_board_findings(region_geom, inset, keep, shallow, c, t, cavity)
+    else:
+        region_geom = polygonal(inset.difference(keep).difference(shallow))
+    findings += _shape_findings(region_geom, c, cavity)
+    zones = _height_zones(region_geom, grown, t, float(cavity.depth_mm))
+    return Region(board_region=region_geom, zones=zones, thickness_mm=t), findings
+
+
+def _too_shallow(grown: list[tuple[float, BaseGeometry, tuple[str, ...]]], t: float,
+                 name: str) -> tuple[BaseGeometry, list[Finding]]:
+    """The union of the (grown) depth areas shallower than the board, and a warning for each."""
     shallow_parts = [(d, g, lay) for d, g, lay in grown if d < t]
     shallow = shapely.union_all([g for _, g, _ in shallow_parts]) if shallow_parts else Polygon()
-    for d, g, lay in shallow_parts:
+    findings = []
+    for d, _g, lay in shallow_parts:
         where = f"on layer(s) {', '.join(lay)}" if lay else "(the default depth)"
         findings.append(Finding(
             "warning", "region.too-shallow", tuple(lay) or (name,),
             f"The depth of {d:g} mm {where} is less than the {t:g} mm board: no board can be "
             "there, so that area (and its wall clearance) is left out of the board region."))
+    return shallow, findings
 
-    allowed = polygonal(inset.difference(keep).difference(shallow))
 
-    if cavity.board is not None:
-        user = polygonal(cavity.board)
-        checks = (
-            ("region.board-outside", user.difference(inset),
-             f"comes closer than the {c:g} mm wall clearance to the cavity wall, or crosses it"),
-            ("region.board-over-keepout", user.intersection(keep),
-             f"overlaps a keep-out or comes closer than {c:g} mm to one"),
-            ("region.board-too-shallow", user.intersection(shallow),
-             f"passes where the depth is less than the {t:g} mm board"),
-        )
-        for code, bad, what in checks:
-            bad = polygonal(bad)
-            if bad.is_empty:
-                continue
-            worst = _largest(bad)
-            findings.append(Finding(
-                "error", code, (name,),
-                f"The drawn BOARD outline {what}: {bad.area:.3g} mm^2 of it, the largest piece "
-                f"near {_where(worst, cavity)}; the board does not fit as drawn."))
-        region_geom = user
-    else:
-        region_geom = allowed
+def _user_board_findings(user: BaseGeometry, inset: BaseGeometry, keep: BaseGeometry,
+                         shallow: BaseGeometry, c: float, t: float, cavity: Cavity) -> list[Finding]:
+    """Error findings where the drawn BOARD outline leaves the allowed area, at its worst spot."""
+    checks = (
+        ("region.board-outside", user.difference(inset),
+         f"comes closer than the {c:g} mm wall clearance to the cavity wall, or crosses it"),
+        ("region.board-over-keepout", user.intersection(keep),
+         f"overlaps a keep-out or comes closer than {c:g} mm to one"),
+        ("region.board-too-shallow", user.intersection(shallow),
+         f"passes where the depth is less than the {t:g} mm board"),
+    )
+    findings = []
+    for code, bad, what in checks:
+        bad = polygonal(bad)
+        if bad.is_empty:
+            continue
+        worst = _largest(bad)
+        findings.append(Finding(
+            "error", code, (cavity.source,),
+            f"The drawn BOARD outline {what}: {bad.area:.3g} mm^2 of it, the largest piece "
+            f"near {_where(worst, cavity)}; the board does not fit as drawn."))
+    return findings
 
+
+def _shape_findings(region_geom: BaseGeometry, c: float, cavity: Cavity) -> list[Finding]:
+    """A warning for an empty region, a note for one split into pieces."""
     if region_geom.is_empty:
-        findings.append(Finding(
-            "warning", "region.empty", (name,),
+        return [Finding(
+            "warning", "region.empty", (cavity.source,),
             f"No board fits: the cavity inset by the {c:g} mm wall clearance, minus the keep-outs "
-            "and the too-shallow areas, leaves no area."))
-    elif isinstance(region_geom, MultiPolygon) and cavity.board is None:
-        findings.append(Finding(
-            "info", "region.split", (name,),
+            "and the too-shallow areas, leaves no area.")]
+    if isinstance(region_geom, MultiPolygon) and cavity.board is None:
+        return [Finding(
+            "info", "region.split", (cavity.source,),
             f"The usable region falls into {len(region_geom.geoms)} separate pieces (passages "
             f"narrower than twice the {c:g} mm wall clearance, or keep-outs, cut it); a board "
-            "takes one piece."))
+            "takes one piece.")]
+    return []
 
+
+def _height_zones(region_geom: BaseGeometry, grown: list[tuple[float, BaseGeometry, tuple[str, ...]]],
+                  t: float, default_depth: float) -> tuple[HeightZone, ...]:
+    """The region cut by the grown depth areas, shallowest first; equal heights merged."""
     zones: list[HeightZone] = []
     remaining = region_geom
     for d, g, _lay in grown:
@@ -261,9 +279,8 @@ def usable_region(cavity: Cavity, board: BoardOptions) -> tuple[Region, list[Fin
         zones.append(HeightZone(piece, d - t))
     if not remaining.is_empty:
         # only reachable for a user's board that leaves the floor: default depth there
-        zones.append(HeightZone(remaining, float(cavity.depth_mm) - t))
+        zones.append(HeightZone(remaining, default_depth - t))
     merged: dict[float, list[BaseGeometry]] = {}
     for z in zones:
         merged.setdefault(round(z.max_height_mm, 9), []).append(z.polygon)
-    zones = [HeightZone(polygonal(shapely.union_all(ps)), h) for h, ps in sorted(merged.items())]
-    return Region(board_region=region_geom, zones=tuple(zones), thickness_mm=t), findings
+    return tuple(HeightZone(polygonal(shapely.union_all(ps)), h) for h, ps in sorted(merged.items()))

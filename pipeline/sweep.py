@@ -20,7 +20,6 @@ from dataclasses import dataclass
 from typing import Any, Callable, Sequence
 
 from .area import items_from_design
-from .errors import ProjectError
 from .model import BoardOptions, Design, Region
 from .place import place_and_fit
 
@@ -101,10 +100,9 @@ def two_terminal_passives(design: Design, library) -> tuple[str, ...]:
             continue
         kind = own.get(part.kind.casefold())
         if kind is None:
-            try:
-                kind = library.kind(part.kind)
-            except KeyError:
+            if not library.has_kind(part.kind):
                 continue
+            kind = library.kind(part.kind)
         pins = len(part.pins) if part.pins else len(kind.pins)
         if kind.category == "passive" and pins == 2:
             out.append(part.ref)
@@ -133,18 +131,14 @@ def sweep_sizes(design: Design, library, region: Region, board: BoardOptions,
 
     Raises
     ------
-    ProjectError
-        A size is not a package of the library.
+    UnknownNameError
+        A size is not a package of the library (placed at ``sweep: sizes``).
     """
     sizes = tuple(sizes)
     swept = two_terminal_passives(design, library)
     shape = {}
     for s in sizes:
-        try:
-            cy = library.package(s).courtyard(board.density)
-        except KeyError as exc:
-            raise ProjectError("sweep", str(exc.args[0]) if exc.args else f"unknown package {s!r}",
-                               key="sizes") from None
+        cy = library.package(s, file="sweep", key="sizes").courtyard(board.density)
         shape[s] = (float(cy.length_mm), float(cy.width_mm))
     rows = []
     for n, s in enumerate(sizes):

@@ -17,10 +17,24 @@ Examples
 3
 >>> src.line("parts.R1.package")   # missing key: the table's header line
 1
+
+Typed fields: every reader of a TOML file checks its values through the
+helpers here (:meth:`TomlSource.number`, :meth:`TomlSource.text`,
+:meth:`TomlSource.flag`), so a rule such as "a number is finite" has one
+home. The pure checks :func:`number_problem` and :func:`text_problem` return
+the reason a value is refused (or ``None``) for readers that locate their
+errors their own way.
+
+>>> src = TomlSource.from_text("p.toml", "[order]\\nspares_percent = nan\\n")
+>>> src.number("order.spares_percent", src.data["order"]["spares_percent"], lo=0)
+Traceback (most recent call last):
+...
+pipeline.errors.InputError: p.toml:2: order.spares_percent: expected a finite number, found nan
 """
 
 from __future__ import annotations
 
+import math
 import re
 import tomllib
 from dataclasses import dataclass, field
@@ -29,7 +43,7 @@ from typing import Any
 
 from .errors import InputError
 
-__all__ = ["TomlSource", "load"]
+__all__ = ["TomlSource", "load", "number_problem", "text_problem"]
 
 _BARE = r"[A-Za-z0-9_\-]+"
 _QUOTED = r'"(?:[^"\\]|\\.)*"|\'[^\']*\''
@@ -62,6 +76,8 @@ def _scan_lines(text: str) -> dict[str, int]:
     depth = 0  # bracket / brace depth of an unfinished value
     in_ml: str | None = None  # inside a multi-line string: its delimiter
     array_counts: dict[str, int] = {}
+    array_key: str | None = None  # the key whose multi-line array is open
+    elements = 0  # inline tables seen so far in that array
     for no, raw in enumerate(text.splitlines(), start=1):
         line = raw
         if in_ml:
@@ -86,6 +102,7 @@ def _scan_lines(text: str) -> dict[str, int]:
                 keys = table + _split_dotted(k.group(1))
                 lines.setdefault(".".join(keys), no)
                 rest = line[k.end():]
+                array_key, elements = ".".join(keys), 0
             else:
                 rest = line
         else:
@@ -111,11 +128,56 @@ def _scan_lines(text: str) -> dict[str, int]:
                 i = j + 1
                 continue
             if c in "[{":
+                if c == "{" and depth == 1 and array_key is not None:
+                    lines.setdefault(f"{array_key}[{elements}]", no)  # KEY[i]: i-th inline table
+                    elements += 1
                 depth += 1
             elif c in "]}":
                 depth = max(0, depth - 1)
             i += 1
     return lines
+
+
+def number_problem(v: Any, *, integer: bool = False, lo: float | None = None, hi: float | None = None,
+                   lo_open: bool = False) -> str | None:
+    """Why ``v`` is not an acceptable number, or ``None`` when it is.
+
+    A number is an int or float (never a bool), finite (TOML allows
+    ``nan`` and ``inf``, which no quantity here can be), a whole number when
+    ``integer``, and within ``[lo, hi]`` (``(lo, hi]`` when ``lo_open``).
+
+    >>> number_problem(2.5, lo=0), number_problem(float("inf"))
+    (None, 'expected a finite number, found inf')
+    >>> number_problem(1.5, integer=True), number_problem(0, lo=0, lo_open=True)
+    ('expected a whole number, found 1.5', 'must be greater than 0, found 0')
+    """
+    if isinstance(v, bool) or not isinstance(v, (int, float)) or (integer and not isinstance(v, int)):
+        return f"expected {'a whole number' if integer else 'a number'}, found {v!r}"
+    if not math.isfinite(v):
+        return f"expected a finite number, found {v!r}"
+    if lo is not None and (v < lo or (lo_open and v == lo)):
+        return f"must be {'greater than' if lo_open else 'at least'} {lo:g}, found {v!r}"
+    if hi is not None and v > hi:
+        return f"must be at most {hi:g}, found {v!r}"
+    return None
+
+
+def text_problem(v: Any, *, choices: tuple[str, ...] | None = None, path: bool = False) -> str | None:
+    """Why ``v`` is not acceptable text, or ``None`` when it is.
+
+    Text is a non-blank string; with ``choices`` one of them; a ``path``
+    holds no NUL character (no file system accepts one).
+
+    >>> text_problem("a\\x00b", path=True), text_problem("x", choices=("a", "b"))
+    ('a path cannot hold a NUL character', "'x' is not one of: a, b")
+    """
+    if not isinstance(v, str) or not v.strip():
+        return f"expected text, found {v!r}"
+    if choices and v not in choices:
+        return f"'{v}' is not one of: {', '.join(choices)}"
+    if path and "\x00" in v:
+        return "a path cannot hold a NUL character"
+    return None
 
 
 @dataclass(frozen=True)
@@ -156,6 +218,28 @@ class TomlSource:
     def error(self, key: str, reason: str, cls: type[InputError] = InputError, **kw: Any) -> InputError:
         """Build an error located at ``key`` (never raised here)."""
         return cls(self.display, reason, line=self.line(key), key=key, **kw)
+
+    def number(self, key: str, v: Any, cls: type[InputError] = InputError, *, integer: bool = False,
+               lo: float | None = None, hi: float | None = None, lo_open: bool = False) -> Any:
+        """``v`` if it passes :func:`number_problem`, else raise ``cls`` located at ``key``."""
+        problem = number_problem(v, integer=integer, lo=lo, hi=hi, lo_open=lo_open)
+        if problem:
+            raise self.error(key, problem, cls)
+        return v
+
+    def text(self, key: str, v: Any, cls: type[InputError] = InputError, *,
+             choices: tuple[str, ...] | None = None, path: bool = False) -> str:
+        """``v`` if it passes :func:`text_problem`, else raise ``cls`` located at ``key``."""
+        problem = text_problem(v, choices=choices, path=path)
+        if problem:
+            raise self.error(key, problem, cls)
+        return v
+
+    def flag(self, key: str, v: Any, cls: type[InputError] = InputError) -> bool:
+        """``v`` if it is ``true`` or ``false``, else raise ``cls`` located at ``key``."""
+        if not isinstance(v, bool):
+            raise self.error(key, f"expected true or false, found {v!r}", cls)
+        return v
 
 
 def load(path: Path, display: str | None = None, error: type[InputError] = InputError) -> TomlSource:

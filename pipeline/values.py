@@ -68,12 +68,17 @@ __all__ = [
     "parse_tolerance",
     "parse_rating",
     "format_value",
+    "format_quantity",
+    "round_sig",
+    "format_share",
     "SERIES",
     "SERIES_TOLERANCE",
     "series_of",
     "nearest_in_series",
     "series_for_tolerance",
     "series_values",
+    "PREFIX_EXPONENT",
+    "EXPONENT_PREFIX",
 ]
 
 # --------------------------------------------------------------------------
@@ -95,6 +100,9 @@ _PREFIX_EXP: dict[str, int] = {
 }
 #: Canonical output letter per power of ten (ASCII only).
 _EXP_PREFIX: dict[int, str] = {12: "T", 9: "G", 6: "M", 3: "k", 0: "", -3: "m", -6: "u", -9: "n", -12: "p", -15: "f"}
+#: Read-only views for other notations built on the same prefixes (the SPICE reader and writer).
+PREFIX_EXPONENT = _PREFIX_EXP
+EXPONENT_PREFIX = _EXP_PREFIX
 #: Upper-case letters people write for a lower-case prefix (for hints only).
 _PREFIX_HINT = {"N": "n", "P": "p", "U": "u"}
 
@@ -446,6 +454,68 @@ def format_value(value: float, unit: str = "") -> str:
     if "." in txt:
         txt = txt.rstrip("0").rstrip(".")
     return sign + txt + _EXP_PREFIX[eng] + suffix
+
+
+_QUANTITY_PREFIXES = ((1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"),
+                      (1e-9, "n"), (1e-12, "p"))
+
+
+def format_quantity(x: float | None, unit: str, digits: int = 4) -> str:
+    """Text for a measured figure: ``digits`` significant digits, a space, prefix and unit.
+
+    The one formatter for figures shown to a user (findings, report tables,
+    plot labels); :func:`format_value` is the compact form of a part value.
+    ``unit`` ``"ohm"`` is written after a space (``"4.7k ohm"``); no unit
+    gives a plain number; ``None`` and nan give ``"n/a"``.
+
+    >>> format_quantity(1002.3, "Hz"), format_quantity(0.25, "W", 3), format_quantity(4700, "ohm")
+    ('1.002 kHz', '250 mW', '4.7k ohm')
+    >>> format_quantity(None, "V"), format_quantity(0.7071, ""), format_quantity(0, "V")
+    ('n/a', '0.7071', '0 V')
+    """
+    if x is None:
+        return "n/a"
+    x = float(x)
+    if math.isnan(x):
+        return "n/a"
+    if math.isinf(x):
+        return "inf" if x > 0 else "-inf"
+    if not unit:
+        return f"{x:.{digits}g}"
+    sym = " ohm" if unit == "ohm" else f" {unit}"
+    if x == 0:
+        return f"0{sym}"
+    shown = abs(float(f"{x:.{digits}g}"))      # the prefix follows the rounded figure
+    for scale, p in _QUANTITY_PREFIXES:
+        if shown >= scale:
+            break
+    txt = f"{x / scale:.{digits}g}"
+    if unit == "ohm":
+        return f"{txt}{p}{sym}" if p else f"{txt}{sym}"
+    return f"{txt} {p}{unit}"
+
+
+def format_share(x: float | None) -> str:
+    """A share (fraction) as a percentage with two decimals; None gives ``"n/a"``.
+
+    >>> format_share(0.01234), format_share(None)
+    ('1.23 %', 'n/a')
+    """
+    return "n/a" if x is None else f"{x * 100:.2f} %"
+
+
+def round_sig(x: float | None, digits: int = 6) -> float | None:
+    """JSON-ready rounding to ``digits`` significant digits; None and non-finite give None.
+
+    >>> round_sig(1234.5678, 4), round_sig(float("nan")), round_sig(None)
+    (1235.0, None, None)
+    """
+    if x is None:
+        return None
+    x = float(x)
+    if not math.isfinite(x):
+        return None
+    return float(f"{x:.{digits}g}")
 
 
 # --------------------------------------------------------------------------

@@ -391,7 +391,7 @@ def test_unitless_drawing_takes_default_units(tmp_path, default, mm):
 
 def test_unit_code_names():
     assert [unit_code(t) for t in ("mm", "MM", "inch", "ft", "mil", "µm")] == [4, 4, 1, 2, 9, 13]
-    with pytest.raises(KeyError):
+    with pytest.raises(CavityError, match=r"^project.toml: cavity.units: unknown units 'furlong'"):
         unit_code("furlong")
 
 
@@ -623,22 +623,20 @@ def test_directory_is_refused(tmp_path):
         read(tmp_path)
 
 
-def test_huge_file_refused_before_loading(tmp_path, monkeypatch):
+def test_huge_file_refused_before_loading(tmp_path):
     doc, msp = new_doc()
     msp.add_lwpolyline(rect(0, 0, 40, 20), close=True, dxfattribs={"layer": "CAVITY"})
     p = save(doc, tmp_path)
-    monkeypatch.setattr(cavity_mod, "MAX_FILE_BYTES", 1000)
     with pytest.raises(CavityError, match="more than the 0 MiB snugboard reads"):
-        read(p)
+        read(p, limits=cavity_mod.Limits(dxf_bytes=1000))
 
 
-def test_too_many_entities_refused(tmp_path, monkeypatch):
+def test_too_many_entities_refused(tmp_path):
     doc, msp = new_doc()
     for i in range(30):
         msp.add_line((i, 0), (i, 1), dxfattribs={"layer": "Hatching"})
-    monkeypatch.setattr(cavity_mod, "MAX_ENTITIES", 20)
     with pytest.raises(CavityError, match="more than 20 entities"):
-        read(save(doc, tmp_path))
+        read(save(doc, tmp_path), limits=cavity_mod.Limits(dxf_entities=20))
 
 
 def test_huge_minsert_is_refused_without_expanding(tmp_path):

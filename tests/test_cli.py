@@ -157,7 +157,7 @@ def test_packages_and_kinds_listings():
     r = CliRunner().invoke(main, ["packages", "SOIC-9"])
     assert r.exit_code == 2 and "SOIC-9" in r.stderr
     r = _invoke("kinds", "comparator-dual")
-    assert "OUTA" in r.output and "open-collector" in r.output
+    assert "OUTA" in r.output and "open-drain" in r.output
 
 
 def test_readme_test_command_is_what_ci_runs():
@@ -296,3 +296,32 @@ def test_cavity_command_reads_a_drawing_alone():
     assert sorted(z["max_part_height_mm"] for z in info["height_zones"]) == [1.2, 5.2]
     r = CliRunner().invoke(main, ["cavity", str(ROOT / "outlines" / "user-layers.dxf")])
     assert r.exit_code == 2 and "map your layer" in r.stderr
+
+
+ESC_NAME = "A\\u001b[2J\\u001b]0;x\\u0007\\r\\u202eB\\u2066"  # TOML escapes: ESC CSI, OSC title, BEL, CR, RLO, LRI
+
+
+def _raw_controls(text: str) -> list[str]:
+    return [c for c in text if c in "\x1b\x07\r\u202e\u2066"]
+
+
+def test_defect_21_control_characters_from_inputs_escaped_in_error_message(tmp_path):
+    proj = _project(tmp_path, MINI_DESIGN.replace('A = ["P1.1", "R1.1"]', f'"{ESC_NAME}" = ["P1.1", "R9.1"]'))
+    r = CliRunner().invoke(main, ["run", str(proj)])
+    assert r.exit_code == 2, r.output
+    assert _raw_controls(r.stderr) == [], repr(r.stderr)
+    assert "A\\x1b[2J\\x1b]0;x\\x07\\rB" not in r.stderr  # (the RLO sits between \r and B)
+    assert "A\\x1b[2J\\x1b]0;x\\x07\\r\\u202eB\\u2066" in r.stderr, r.stderr
+
+
+def test_defect_21_control_characters_from_inputs_escaped_in_printed_text(tmp_path):
+    proj = _project(tmp_path, MINI_DESIGN.replace('name = "mini"', f'name = "{ESC_NAME}"')
+                    .replace('A = ["P1.1", "R1.1"]', 'A = ["R1.1"]'))
+    r = CliRunner().invoke(main, ["run", str(proj)])
+    assert r.exit_code == 1, r.output
+    assert "only one pin" in r.stdout
+    assert _raw_controls(r.output) == [], repr(r.output)
+    assert "A\\x1b[2J\\x1b]0;x\\x07\\r\\u202eB\\u2066: " in r.stdout  # the summary line names the design
+    r = CliRunner().invoke(main, ["run", str(proj), "--json"])
+    assert _raw_controls(r.output) == []
+    assert json.loads(r.stdout)["exit_status"] == 1

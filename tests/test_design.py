@@ -61,14 +61,15 @@ def test_contract_design_reads(design_from):
     assert [str(p) for p in d.net("IN").pins] == ["U1.3", "R2.1"]
 
 
-def test_user_kind_and_pins_by_name(design_from):
-    d, _ = design_from("""
+@pytest.mark.parametrize("vdd,out,old", [("supply", "out", 0), ("power-in", "output", 3)])
+def test_user_kind_and_pins_by_name(design_from, vdd, out, old):
+    d, warnings = design_from(f"""
 [kinds.trigger-sensor]
 category = "ic"
 package = "SOT-23"
-pins = [ { number = 1, name = "VDD", role = "power-in" },
-         { number = 2, name = "OUT", role = "output" },
-         { number = 3, name = "GND", role = "power-in" } ]
+pins = [ {{ number = 1, name = "VDD", role = "{vdd}" }},
+         {{ number = 2, name = "OUT", role = "{out}" }},
+         {{ number = 3, name = "GND", role = "{vdd}" }} ]
 [parts.U7]
 kind = "trigger-sensor"
 [parts.C1]
@@ -80,7 +81,9 @@ VDD = ["U7.VDD", "C1.1"]
 GND = ["U7.gnd", "C1.2"]
 """)
     u7 = d.part("U7")
-    assert u7.package == "SOT-23" and [p.role for p in u7.pins] == ["power-in", "output", "power-in"]
+    # the previous release's role spellings are read as the new names, each with a warning
+    assert u7.package == "SOT-23" and [p.role for p in u7.pins] == ["supply", "out", "supply"]
+    assert [w.check for w in warnings] == ["design.old-role-name"] * old
     assert [str(p) for p in d.net("GND").pins] == ["U7.3", "C1.2"]
     assert d.kinds[0].name == "trigger-sensor"
 

@@ -6,6 +6,8 @@ check names the outside fact it rests on.
 
 from __future__ import annotations
 
+import base64
+import hashlib
 import io
 import math
 import os
@@ -18,6 +20,8 @@ from pathlib import Path
 
 import ezdxf
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from shapely import affinity
 from shapely.geometry import LineString, MultiPolygon, Point, Polygon, box
 
@@ -83,6 +87,15 @@ def _parts(root):
     return [g for g in root.iter(SVG_NS + "g") if "part" in (g.get("class") or "").split()]
 
 
+def _labels(root):
+    """ref -> (text element, leader line or None), from the labels layer."""
+    out = {}
+    for g in root.iter(SVG_NS + "g"):
+        if g.get("class") == "label":
+            out[g.get("data-ref")] = (g.find(SVG_NS + "text"), g.find(SVG_NS + "line"))
+    return out
+
+
 def _path_points(d: str) -> list[tuple[float, float]]:
     return [(float(a), float(b)) for a, b in re.findall(r"(-?\d+\.\d+),(-?\d+\.\d+)", d)]
 
@@ -114,9 +127,10 @@ def test_svg_one_element_per_placement_with_ref():
     assert len(parts) == len(fit.placements)
     titles = sorted(g.find(SVG_NS + "title").text.split(" ")[0] for g in parts)
     assert titles == sorted(p.ref for p in fit.placements)
-    for g in parts:  # every courtyard of this scene is big enough for its label
+    labels = _labels(root)
+    for g in parts:  # every courtyard of this scene is big enough for its label inside
         ref = g.find(SVG_NS + "title").text.split(" ")[0]
-        assert g.find(SVG_NS + "text").text == ref
+        assert g.get("data-ref") == ref and labels[ref][0].text == ref and labels[ref][1] is None
 
 
 def test_svg_courtyard_vertices_are_drawing_coordinates_with_y_flipped():
@@ -189,7 +203,7 @@ def test_svg_escapes_user_text():
     assert b"<b>" not in data and b'R<1>&"' not in data and b"<bay>" not in data
     assert b"R&lt;1&gt;&amp;&quot;" in data
     (g,) = _parts(root)
-    assert g.find(SVG_NS + "text").text == nasty_ref
+    assert g.get("data-ref") == nasty_ref and _labels(root)[nasty_ref][0].text == nasty_ref
     texts = [t.text for t in root.iter(SVG_NS + "text")]
     assert "Cavity drawing: dir/<bay>&.dxf" in texts
 
@@ -238,15 +252,21 @@ def test_svg_bottom_side_is_dashed_and_top_is_not():
         assert dashed == ("part-bottom" in g.get("class"))
 
 
-def test_svg_skips_labels_that_cannot_fit_and_names_them():
+def test_svg_small_parts_get_leader_labels_instead_of_a_list():
     tiny = _placement("C77", 30.0, 18.0, 0.3, 0.15)
     cav, reg, fit = _scene(placements=(tiny, _placement("U1", 10.0, 18.0, 6.0, 4.0)))
     root = _svg_root(fit_svg(cav, reg, fit))
-    parts = {g.find(SVG_NS + "title").text.split(" ")[0]: g for g in _parts(root)}
-    assert parts["C77"].find(SVG_NS + "text") is None
-    assert parts["U1"].find(SVG_NS + "text").text == "U1"
+    labels = _labels(root)
+    assert labels["U1"][0].text == "U1" and labels["U1"][1] is None
+    text, leader = labels["C77"]
+    assert text.text == "C77" and leader is not None
+    # the leader ends on the courtyard (y flipped) and starts on the label's box, outside the courtyard
+    x0, y0, x1, y1 = tiny.courtyard.bounds
+    px, py = float(leader.get("x2")), -float(leader.get("y2"))
+    assert x0 - 1e-3 <= px <= x1 + 1e-3 and y0 - 1e-3 <= py <= y1 + 1e-3
+    assert not tiny.courtyard.buffer(1e-3).contains(Point(float(text.get("x")), -float(text.get("y"))))
     texts = [t.text for t in root.iter(SVG_NS + "text")]
-    assert "Not labelled, no room (1)" in texts and "C77" in texts
+    assert not any(t and t.startswith("Not labelled") for t in texts)
 
 
 def test_svg_labels_stay_inside_their_courtyards():
@@ -254,8 +274,8 @@ def test_svg_labels_stay_inside_their_courtyards():
     root = _svg_root(fit_svg(cav, reg, fit))
     by_ref = {p.ref: p for p in fit.placements}
     seen_vertical = False
-    for g in _parts(root):
-        t = g.find(SVG_NS + "text")
+    for t, leader in _labels(root).values():
+        assert leader is None
         p = by_ref[t.text]
         x0, y0, x1, y1 = p.courtyard.bounds
         vertical = t.get("transform") is not None
@@ -272,9 +292,9 @@ def test_svg_overlapping_labels_are_not_drawn_twice():
     top = _placement("U1", 20.0, 18.0, 6.0, 4.0)
     under = _placement("R5", 20.0, 18.0, 3.0, 1.6, side="bottom")
     cav, reg, fit = _scene(placements=(top, under))
-    parts = {g.find(SVG_NS + "title").text.split(" ")[0]: g for g in _parts(_svg_root(fit_svg(cav, reg, fit)))}
-    assert parts["U1"].find(SVG_NS + "text") is not None
-    assert parts["R5"].find(SVG_NS + "text") is None
+    labels = _labels(_svg_root(fit_svg(cav, reg, fit)))
+    assert labels["U1"][1] is None  # the top part keeps its label inside
+    assert labels["R5"][1] is not None  # the part under it is labelled by a leader, not drawn over U1's label
 
 
 def test_svg_is_deterministic_and_independent_of_input_order():
@@ -377,25 +397,29 @@ def _check_html(data: bytes) -> _Checker:
 FINDINGS = (
     Finding("warning", "values.off-series", ("R7",), "R7 is 4.75k <not in E24> & 'off' \"series\"."),
     Finding("error", "connect.single-pin-net", ("N1",), "Net N1 has one pin <script>alert(1)</script>."),
-    Finding("info", "ratings.none", ("C3",), "C3 has no voltage rating."),
-    Finding("warning", "fit.tall", ("U1",), "U1 is taller than the rib allows."),
+    Finding("info", "ratings.missing", ("C3",), "C3 has no voltage rating."),
+    Finding("warning", "fit.tight", ("U1",), "U1 is taller than the rib allows."),
 )
 
 
 @pytest.mark.parametrize(
-    "case,banner",
-    [("fits", "Fits"), ("no-fit", "Does not fit"), ("none", "No cavity given")],
+    "case,level,banner",
+    [("fits", "ready", "Ready to lay out"), ("attention", "attention", "Fits, needs attention"),
+     ("no-fit", "does-not-fit", "Does not fit"), ("none", "attention", "Needs attention")],
 )
-def test_report_parses_and_shows_the_verdict(case, banner):
+def test_report_parses_and_shows_the_verdict(case, level, banner):
     if case == "none":
         fit, svg = None, None
     else:
-        cav, reg, fit = _scene(fits=case == "fits", unplaced=() if case == "fits" else ("U9",))
+        cav, reg, fit = _scene(fits=case != "no-fit", unplaced=() if case != "no-fit" else ("U9",))
         svg = fit_svg(cav, reg, fit)
-    c = _check_html(report_html(title="Trigger <click>", fit=fit, findings=FINDINGS, fit_svg=svg))
+    findings = () if case == "fits" else FINDINGS
+    c = _check_html(report_html(title="Trigger <click>", fit=fit, findings=findings, fit_svg=svg))
     verdicts = [a for t, a in c.attrs if t == "section" and a.get("id") == "verdict"]
-    assert len(verdicts) == 1 and case.replace("none", "no-cavity") in verdicts[0]["class"]
-    assert banner in c.text
+    assert len(verdicts) == 1 and verdicts[0]["data-level"] == level and level in verdicts[0]["class"]
+    assert any(t.startswith(banner) for t in c.text)
+    if case == "none":
+        assert any("fit not checked" in t for t in c.text)
     if case == "no-fit":
         assert "U9 found no room: it needs 5.6 x 5.6 mm." in c.text
 
@@ -405,7 +429,13 @@ def test_report_is_self_contained_with_the_svg_inlined():
     svg = fit_svg(cav, reg, fit)
     data = report_html(title="t", fit=fit, findings=(), fit_svg=svg)
     c = _check_html(data)
-    assert c.tags.count("svg") == 1 and "script" not in c.tags and "link" not in c.tags
+    assert c.tags.count("svg") == 1 and c.tags.count("script") == 1 and "link" not in c.tags
+    # the one script is inline and the page allows no other (Content Security Policy, W3C CSP Level 3:
+    # a 'sha256-' source is the base64 SHA-256 of the script text)
+    script = data.decode().split("<script>", 1)[1].split("</script>", 1)[0]
+    digest = base64.b64encode(hashlib.sha256(script.encode()).digest()).decode()
+    (csp,) = [a["content"] for t, a in c.attrs if t == "meta" and a.get("http-equiv") == "Content-Security-Policy"]
+    assert "default-src 'none'" in csp and f"script-src 'sha256-{digest}'" in csp
     assert not any(k in ("src",) or (k == "href" and not v.startswith("#"))
                    for _, a in c.attrs for k, v in a.items())
     body = svg.decode().split("?>", 1)[1].strip()
@@ -448,13 +478,14 @@ def test_report_area_figures_placements_and_sections():
 
 def test_report_adds_fit_warnings_once():
     cav, reg, fit = _scene()
-    w = Finding("warning", "place.edge", ("J1",), "J1 sits at the board edge.")
+    w = Finding("warning", "fit.tight", ("J1",), "J1 sits at the board edge.")
     fit = FitResult(fit.fits, fit.region_area_mm2, fit.courtyard_area_mm2, fit.estimate, fit.placements,
                     fit.board_outline, fit.blocked_by, warnings=(w,))
     once = report_html(title="t", fit=fit, findings=(w,), fit_svg=None)
     added = report_html(title="t", fit=fit, findings=(), fit_svg=None)
-    assert once.count(b"J1 sits at the board edge.") == 1
-    assert added.count(b"J1 sits at the board edge.") == 1
+    for page in (once, added):
+        c = _check_html(page)
+        assert "".join(c.by_table["findings findings-warning"]).count("J1 sits at the board edge.") == 1
 
 
 def test_report_is_deterministic():
@@ -665,3 +696,47 @@ def test_svg_long_ref_lists_are_cut_and_counted():
         listed.extend(t.split(" "))
     # every ref is either listed (in natural order) or counted: the two add up to 200
     assert listed == list(refs[: len(listed)]) and tail == 200 - len(listed)
+
+
+def _label_boxes(root):
+    """Each label's box from its text element: 0.72 em per character wide, 0.6 em each side of the
+    centre line (the rendered extent of common sans-serif faces, from memory), rotated boxes turned."""
+    boxes = {}
+    for ref, (t, _) in _labels(root).items():
+        size = float(t.get("font-size"))
+        cx, cy = float(t.get("x")), float(t.get("y")) - 0.35 * size
+        hw, hh = 0.36 * len(t.text) * size, 0.6 * size
+        if t.get("transform"):
+            hw, hh = hh, hw
+        boxes[ref] = (cx - hw, cy - hh, cx + hw, cy + hh)
+    return boxes
+
+
+@settings(max_examples=25, deadline=None)
+@given(st.lists(st.tuples(st.floats(2, 58), st.floats(2, 34), st.sampled_from([(0.6, 0.3), (1.0, 0.5), (1.6, 0.8),
+                                                                               (2.2, 1.2), (5.0, 4.0)])),
+                min_size=1, max_size=30))
+def test_svg_labels_never_overlap(parts):
+    placements = tuple(_placement(f"R{i}", x, y, length, width) for i, (x, y, (length, width)) in enumerate(parts))
+    cav, reg, fit = _scene(placements=placements)
+    root = _svg_root(fit_svg(cav, reg, fit))
+    boxes = sorted(_label_boxes(root).items())
+    for i, (a, p) in enumerate(boxes):
+        for b, q in boxes[i + 1:]:
+            overlap = min(p[2], q[2]) - max(p[0], q[0]), min(p[3], q[3]) - max(p[1], q[1])
+            assert min(overlap) <= 1e-6, (a, b)
+    labelled = set(dict(boxes))
+    listed = [t.text for t in root.iter(SVG_NS + "text") if (t.text or "").startswith("Not labelled")]
+    assert labelled == {p.ref for p in placements} or listed  # a part without a label is named in the legend
+
+
+def test_svg_depth_colours_cannot_be_read_as_copper():
+    # Copper is drawn warm (hue 0..60 degrees, saturated). HSV saturation from the standard library's colorsys.
+    import colorsys
+
+    root = _svg_root(fit_svg(*_scene()))
+    fills = [p.get("fill") for p in root.iter(SVG_NS + "path") if p.get("class") in ("depth-zone", "cavity-floor")]
+    assert len(fills) == 3
+    for f in fills:
+        r, g, b = (int(f[i:i + 2], 16) / 255 for i in (1, 3, 5))
+        assert colorsys.rgb_to_hsv(r, g, b)[1] < 0.08, f  # grey: no hue to speak of

@@ -20,3 +20,10 @@ def test_outputs_unchanged_byte_for_byte(name, project, args, tmp_path):
     assert sorted(got) == sorted(want)
     changed = [f for f in want if got[f] != want[f]]
     assert not changed, f"{name}: changed files {changed} (refresh only if the change is meant)"
+
+
+def test_expected_sets_hold_no_checkout_path():
+    """A golden file that embeds where the checkout lives would pass here and fail in a fresh clone."""
+    root = str(Path(__file__).resolve().parents[1]).encode()
+    leaks = [str(p.relative_to(EXPECTED)) for p in sorted(EXPECTED.rglob("*")) if p.is_file() and root in p.read_bytes()]
+    assert leaks == []

@@ -8,7 +8,7 @@ import math
 import pytest
 from shapely.geometry import box
 
-from pipeline.errors import ProjectError
+from pipeline.errors import UnknownNameError
 from pipeline.model import BoardOptions, Design, HeightZone, Net, Part, PartKind, PinDef, PinRef, Region
 from pipeline.sweep import sweep_sizes, two_terminal_passives
 
@@ -112,5 +112,5 @@ def test_sweep_nothing_fits(lib):
 def test_sweep_unknown_size(lib):
     geom = box(0, 0, 30, 30)
     region = Region(geom, (HeightZone(geom, 4.0),), 0.8)
-    with pytest.raises(ProjectError):
+    with pytest.raises(UnknownNameError):  # an InputError: exit 2
         sweep_sizes(_design(), lib, region, BoardOptions(), ("0603", "0604x"))

@@ -2,13 +2,21 @@
 
 A cell starting with ``=``, ``+``, ``-``, ``@``, a tab or a carriage return
 is read as a formula by common spreadsheet programs (CSV / formula
-injection, OWASP). :func:`inert` prefixes such a cell with an apostrophe so
-it shows as text. Rows end in ``\\r\\n`` as RFC 4180 says.
+injection: OWASP, "CSV Injection"). :func:`inert` prefixes such a cell with
+an apostrophe, as OWASP advises, so that it shows as text. That holds for
+every cell: a net named ``+A1`` would otherwise show the value of cell A1,
+and a pin named ``-IN1`` the negated value of cell IN1, so the trade's signed
+names get the apostrophe too (``netlist.json`` keeps them exact). A lone
+``+`` or ``-`` (the pins of a polarized capacitor) refers to nothing and is
+kept as it is. Quoting
+follows RFC 4180: a cell holding a comma, a double quote, CR or LF is
+enclosed in double quotes, inner double quotes doubled; rows end in
+``\\r\\n``.
 
 >>> inert("=HYPERLINK(\\"x\\")")
 '\\'=HYPERLINK("x")'
->>> inert("-INA"), inert("10k")
-("'-INA", '10k')
+>>> inert("-INA"), inert("+A1"), inert("10k"), inert("-")
+("'-INA", "'+A1", '10k', '-')
 >>> csv_bytes(["a", "b"], [["1", "=2"]])
 b"a,b\\r\\n1,'=2\\r\\n"
 """
@@ -17,32 +25,19 @@ from __future__ import annotations
 
 import csv
 import io
-import re
 from typing import Callable, Iterable, Sequence
 
-__all__ = ["inert", "inert_name", "csv_bytes"]
+__all__ = ["inert", "csv_bytes"]
 
+#: first characters that make a spreadsheet evaluate a cell (OWASP CSV Injection)
 _TRIGGERS = ("=", "+", "-", "@", "\t", "\r")
-_PLAIN_SIGNED = re.compile(r"^[+-][A-Za-z0-9_]*$")
+#: cells that start with a trigger yet hold nothing a spreadsheet could evaluate
+_LONE_SIGNS = ("+", "-")
 
 
 def inert(cell: str) -> str:
     """Return ``cell`` made inert for spreadsheets (see module docstring)."""
-    return "'" + cell if cell.startswith(_TRIGGERS) else cell
-
-
-def inert_name(cell: str) -> str:
-    """Like :func:`inert`, but keeps the trade's signed pin names as they are.
-
-    ``+``, ``-``, ``+IN``, ``-INA``: a sign followed only by letters, digits
-    or ``_`` cannot call a function or reach another program, so a
-    spreadsheet shows at worst an error value; anything else starting with a
-    trigger is made inert.
-
-    >>> inert_name("-INA"), inert_name("+"), inert_name("-1+cmd|x")
-    ('-INA', '+', "'-1+cmd|x")
-    """
-    return cell if _PLAIN_SIGNED.match(cell) else inert(cell)
+    return "'" + cell if cell.startswith(_TRIGGERS) and cell not in _LONE_SIGNS else cell
 
 
 def csv_bytes(header: Sequence[str], rows: Iterable[Sequence[object]], *,

@@ -5,8 +5,8 @@ Entry points: :func:`netlist_csv`, :func:`netlist_json`, :func:`netlist_dict`.
 ``netlist.csv`` has one row per connected pin, columns ``net``, ``ref``,
 ``pin``, ``pin_name`` (CONTRACT section 4), rows in natural order of net,
 then ref, then pin. Cells that a spreadsheet would run as a formula are
-made inert, except the trade's signed pin names (``+``, ``-INA``), which
-are kept as the kinds spell them (:func:`~pipeline.export.csvcell.inert_name`). ``netlist.json`` is the exact form:
+made inert (:mod:`~pipeline.export.csvcell`), signed names such as ``-INA``
+or ``+A1`` included: ``'-INA``. ``netlist.json`` is the exact form:
 
 .. code-block:: json
 
@@ -29,7 +29,7 @@ from typing import Any
 from ..order import natural_key
 from ..model import Design
 from ..values import format_value
-from .csvcell import csv_bytes, inert_name
+from .csvcell import csv_bytes
 
 __all__ = ["netlist_csv", "netlist_json", "netlist_dict", "dump_json"]
 
@@ -44,7 +44,7 @@ def netlist_csv(design: Design) -> bytes:
     for n in sorted(design.nets, key=lambda n: natural_key(n.name)):
         for pr in sorted(n.pins, key=lambda p: (natural_key(p.ref), natural_key(p.pin))):
             rows.append((n.name, pr.ref, pr.pin, design.part(pr.ref).pin(pr.pin).name))
-    return csv_bytes(("net", "ref", "pin", "pin_name"), rows, cell=inert_name)
+    return csv_bytes(("net", "ref", "pin", "pin_name"), rows)
 
 
 def netlist_dict(design: Design) -> dict[str, Any]:

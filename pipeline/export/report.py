@@ -3,28 +3,36 @@
 Entry point: :func:`report_html`.
 
 One self-contained HTML5 file: inline CSS, the fit picture inlined as SVG,
-no scripts, no external fonts, images or style sheets, so it opens from a
-mail attachment or a USB stick and prints as it shows. In order:
+one inline script of our own (:mod:`pipeline.export.picture_js`), no
+external fonts, images, style sheets or scripts; a content security policy
+allows nothing from the network and no script but that one (by its SHA-256
+hash). It opens from a mail attachment or a USB stick and prints as it
+shows. In order:
 
-1. the verdict banner ("Fits", "Does not fit", or "No cavity given" when
-   no fit was run) with the count of findings per severity;
-2. the area figures in mm^2: usable region, courtyard sum, the estimated
+1. the verdict (:mod:`pipeline.verdict`): its headline, the exit status,
+   the count of findings per severity and each reason, blocking ones first;
+2. the order (:mod:`pipeline.export.order_view`): the board as a
+   fabricator quotes it and the BOM files' lines, cell for cell;
+3. the area figures in mm^2: usable region, courtyard sum, the estimated
    board area (low / expected / high, with the estimate's rule), how much
    of the region the expected area takes, and the board outline's area;
-3. why it does not fit (``blocked_by``) and the parts not placed;
-4. the picture;
-5. the placements (ref in natural order, centre x / y in mm in the
+4. why it does not fit (``blocked_by``) and the parts not placed;
+5. the picture, with layer switches, zoom buttons and net buttons that the
+   script shows (hidden, and the picture fully drawn, when scripts are
+   blocked);
+6. the placements (ref in natural order, centre x / y in mm in the
    drawing's frame, rotation, side);
-6. every finding, grouped by severity (error, warning, info), in the
+7. every finding, grouped by severity (error, warning, info), in the
    order given; the fit's own warnings are added when the caller did not
    already pass them;
-7. the extra sections, each a heading and an HTML fragment.
+8. the extra sections, each a heading and an HTML fragment.
 
 Escaping: the extra sections' fragments are trusted HTML made by
 snugboard's own modules and are inserted as given; the SVG is snugboard's
 own output. Everything else (title, refs, finding text, blocked-by reasons,
-section headings) may come from the user and is HTML-escaped; characters
-HTML cannot hold are replaced by U+FFFD.
+section headings, BOM cells) may come from the user and is escaped by
+:func:`pipeline.export.markup.escape`; the script puts user text on the
+page only through ``textContent``.
 
 The output is deterministic: no clock, no random ids, fixed number
 formatting.
@@ -32,15 +40,21 @@ formatting.
 
 from __future__ import annotations
 
+import base64
+import hashlib
 import re
-from typing import Sequence
+from typing import Mapping, Sequence
 
-from ..model import SEVERITIES, FitResult, Finding
+from ..model import SEVERITIES, BoardOptions, FitResult, Finding
 from ..order import natural_key
+from .markup import escape as _esc
+from ..verdict import Verdict, decide
+from .order_view import order_section
+from .picture_js import LAYERS as _LAYERS
+from .picture_js import SCRIPT as _SCRIPT
 
 __all__ = ["report_html"]
 
-_INVALID = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\x7f\ud800-\udfff\ufffe\uffff]")
 _XML_PROLOG = re.compile(r"^\s*<\?xml[^>]*\?>\s*")
 
 _SEVERITY_HEADING = {"error": "Errors", "warning": "Warnings", "info": "Notes"}
@@ -48,7 +62,7 @@ _SEVERITY_HEADING = {"error": "Errors", "warning": "Warnings", "info": "Notes"}
 _CSS = """
 :root { --ink: #1f252d; --muted: #5b6470; --rule: #d5d9de; --band: #f4f6f8;
         --ok: #17694f; --ok-bg: #e3f3ec; --bad: #9c2417; --bad-bg: #fbe9e6;
-        --none: #4a5361; --none-bg: #eceef1; --warn: #8a5a00; --info: #2f4f9e; }
+        --none: #4a5361; --none-bg: #eceef1; --warn: #8a5a00; --warn-bg: #fdf3dc; --info: #2f4f9e; }
 * { box-sizing: border-box; }
 html { font-family: system-ui, sans-serif; color: var(--ink); background: #fff; line-height: 1.45; }
 body { max-width: 60rem; margin: 0 auto; padding: 1.5rem 1.25rem 3rem; }
@@ -59,10 +73,28 @@ nav { font-size: .9rem; margin: 0 0 1rem; color: var(--muted); }
 nav a { color: inherit; margin-right: .9rem; }
 .verdict { border-radius: .4rem; padding: .9rem 1.1rem; margin: 0 0 1rem; border-left: .5rem solid; }
 .verdict strong { font-size: 1.35rem; display: block; }
-.verdict.fits { background: var(--ok-bg); border-color: var(--ok); color: var(--ok); }
-.verdict.no-fit { background: var(--bad-bg); border-color: var(--bad); color: var(--bad); }
-.verdict.no-cavity { background: var(--none-bg); border-color: var(--none); color: var(--none); }
-.verdict span { color: var(--ink); }
+.verdict.ready { background: var(--ok-bg); border-color: var(--ok); color: var(--ok); }
+.verdict.does-not-fit { background: var(--bad-bg); border-color: var(--bad); color: var(--bad); }
+.verdict.attention { background: var(--warn-bg); border-color: var(--warn); color: var(--warn); }
+.verdict span, .verdict ul { color: var(--ink); }
+.verdict li.blocking { font-weight: 600; }
+.controls { font-size: .9rem; margin: .3rem 0; }
+.controls .group { margin-right: 1rem; }
+.controls label { margin-right: .6rem; }
+.controls button { font: inherit; margin-right: .3rem; }
+.nets button { font: inherit; font-size: .85rem; margin: .1rem; padding: .05rem .4rem; }
+.nets button[aria-pressed="true"] { background: #f2c200; }
+.tip { position: fixed; z-index: 10; pointer-events: none; background: #fff; border: 1px solid var(--ink);
+       border-radius: .25rem; padding: .3rem .5rem; font-size: .85rem; max-width: 22rem; }
+figure svg { touch-action: none; }
+.wide { overflow-x: auto; }
+table.order { font-size: .85rem; }
+table.order td:nth-child(3) { white-space: nowrap; }
+svg.hide-zones .depth-zones, svg.hide-zones .cavity-floor, svg.hide-keepouts .keepouts,
+svg.hide-courtyards .placements, svg.hide-courtyards .pads, svg.hide-labels .labels { display: none; }
+svg .net-hit path, svg path.pad.net-hit { fill: #f2c200; fill-opacity: .9; stroke: #6b5200; }
+svg path.pad.net-hit { stroke-width: .08; }
+svg.net-active .part:not(.net-hit), svg.net-active .pad:not(.net-hit) { opacity: .35; }
 table { border-collapse: collapse; width: 100%; font-size: .92rem; margin: .3rem 0 .8rem; }
 th, td { text-align: left; padding: .3rem .55rem; border-bottom: 1px solid var(--rule); vertical-align: top; }
 th { background: var(--band); font-weight: 600; }
@@ -100,6 +132,9 @@ def report_html(
     findings: Sequence[Finding],
     fit_svg: bytes | None,
     sections: Sequence[tuple[str, str]] = (),
+    verdict: Verdict | None = None,
+    order_files: Mapping[str, bytes] | None = None,
+    board: BoardOptions | None = None,
 ) -> bytes:
     """Build the self-contained HTML report.
 
@@ -117,6 +152,14 @@ def report_html(
     sections : sequence of (str, str)
         Extra ``(heading, html_fragment)`` pairs; the heading is escaped, the
         fragment is trusted HTML and inserted as given.
+    verdict : Verdict, optional
+        The run's overall verdict; made here with :func:`pipeline.verdict.decide`
+        from ``findings`` and ``fit`` when not given.
+    order_files : mapping of file name to bytes, optional
+        The BOM export's CSV files (``bom.csv``, ``bom-totals.csv``,
+        ``bom-unfitted.csv`` and any other ``bom-*.csv``), shown as the order.
+    board : BoardOptions, optional
+        Layers, thickness and sides, for the board as one would order it.
 
     Returns
     -------
@@ -127,13 +170,17 @@ def report_html(
     --------
     >>> from pipeline.model import Finding
     >>> page = report_html(title="Demo <1>", fit=None,
-    ...                    findings=[Finding("warning", "x.y", ("R1",), "Check R1 & R2.")], fit_svg=None)
-    >>> b"No cavity given" in page and b"Check R1 &amp; R2." in page and b"Demo &lt;1&gt;" in page
+    ...                    findings=[Finding("warning", "connect.case-clash", ("R1",), "Check R1 & R2.")], fit_svg=None)
+    >>> b"Needs attention" in page and b"Check R1 &amp; R2." in page and b"Demo &lt;1&gt;" in page
     True
     """
     all_findings = _with_fit_warnings(findings, fit)
+    if verdict is None:
+        verdict = decide(all_findings, fit)
     counts = {sev: sum(1 for f in all_findings if f.severity == sev) for sev in SEVERITIES}
     nav = [("verdict", "Verdict")]
+    if order_files:
+        nav.append(("order", "Order"))
     if fit is not None:
         nav.append(("areas", "Areas"))
         if fit_svg:
@@ -141,6 +188,7 @@ def report_html(
         nav.append(("placements", "Placements"))
     nav.append(("findings", "Findings"))
     nav.extend((f"section-{i + 1}", heading) for i, (heading, _) in enumerate(sections))
+    script = _SCRIPT if fit_svg else ""
 
     out: list[str] = []
     add = out.append
@@ -148,6 +196,7 @@ def report_html(
     add('<html lang="en">')
     add("<head>")
     add('<meta charset="utf-8">')
+    add(f'<meta http-equiv="Content-Security-Policy" content="{_csp(script)}">')
     add('<meta name="viewport" content="width=device-width, initial-scale=1">')
     add('<meta name="generator" content="snugboard">')
     add(f"<title>{_esc(title)}</title>")
@@ -159,18 +208,17 @@ def report_html(
     add("<nav>" + "".join(f'<a href="#{key}">{_esc(text)}</a>' for key, text in nav) + "</nav>")
     add("</header>")
     add("<main>")
-    add(_verdict(fit, counts))
+    add(_verdict(verdict, counts))
+    if order_files:
+        add(order_section(order_files, fit, board))
     if fit is not None:
         add(_areas(fit))
         add(_blocked(fit))
         if fit_svg:
-            add('<section id="picture"><h2>Picture</h2>')
-            add(f'<figure>{_inline_svg(fit_svg)}<figcaption class="quiet">Millimetres in the cavity '
-                "drawing's frame; the scale bar and legend are in the picture.</figcaption></figure>")
-            add("</section>")
+            add(_picture(fit_svg))
         add(_placements(fit))
     elif fit_svg:
-        add(f'<section id="picture"><h2>Picture</h2><figure>{_inline_svg(fit_svg)}</figure></section>')
+        add(_picture(fit_svg))
     add(_findings(all_findings))
     for i, (heading, fragment) in enumerate(sections):
         add(f'<section id="section-{i + 1}" class="extra"><h2>{_esc(heading)}</h2>')
@@ -178,29 +226,52 @@ def report_html(
         add("</section>")
     add("</main>")
     add('<footer>Written by snugboard. All lengths in millimetres, areas in mm\u00b2.</footer>')
+    if script:
+        add(f"<script>{script}</script>")
     add("</body>")
     add("</html>")
     return ("\n".join(out) + "\n").encode("utf-8")
 
 
+def _csp(script: str) -> str:
+    """Content security policy: nothing from the network; only this page's own script (by its hash)."""
+    allowed = f" script-src 'sha256-{base64.b64encode(hashlib.sha256(script.encode()).digest()).decode()}';" \
+        if script else ""
+    return f"default-src 'none'; style-src 'unsafe-inline'; img-src data:;{allowed}"
+
+
+def _picture(fit_svg: bytes) -> str:
+    """The picture, with the controls the script shows (hidden when scripts are blocked)."""
+    layers = "".join(f'<label><input type="checkbox" data-layer="{k}" checked> {t}</label>'
+                     for k, t in _LAYERS)
+    return (
+        '<section id="picture"><h2>Picture</h2>'
+        f'<div id="picture-controls" class="controls" hidden><span class="group">{layers}</span>'
+        '<span class="group"><button type="button" data-zoom="in">Zoom in</button>'
+        '<button type="button" data-zoom="out">Zoom out</button>'
+        '<button type="button" data-zoom="reset">Whole picture</button></span>'
+        '<p class="quiet">Hover a part for its facts; drag to pan, wheel to zoom; pick a net to light its parts.</p>'
+        '<div id="picture-nets" class="nets"></div></div>'
+        f'<figure id="picture-figure">{_inline_svg(fit_svg)}<figcaption class="quiet">Millimetres in the cavity '
+        "drawing's frame; the scale bar and legend are in the picture.</figcaption></figure>"
+        '<div id="picture-tip" class="tip" hidden></div></section>'
+    )
+
+
 # --------------------------------------------------------------------------
 # parts of the page
 # --------------------------------------------------------------------------
-def _verdict(fit: FitResult | None, counts: dict[str, int]) -> str:
-    if fit is None:
-        cls, head = "no-cavity", "No cavity given"
-        line = "The project names no cavity drawing, so the fit was not checked."
-    elif fit.fits:
-        cls, head = "fits", "Fits"
-        line = f"All {len(fit.placements)} parts are placed inside the usable board region."
-    else:
-        cls, head = "no-fit", "Does not fit"
-        total = len(fit.placements) + len(fit.unplaced)
-        line = f"{len(fit.placements)} of {total} parts placed; see below for what blocks the rest."
+def _verdict(verdict: Verdict, counts: dict[str, int]) -> str:
     tally = ", ".join(_count(counts[s], s) for s in SEVERITIES)
+    reasons = ""
+    if verdict.reasons:
+        items = "".join(f'<li class="{"blocking" if r.blocking else "advisory"}">'
+                        f'{"Blocks: " if r.blocking else ""}{_esc(r.message)}</li>' for r in verdict.reasons)
+        reasons = f'<ul class="reasons">{items}</ul>'
     return (
-        f'<section id="verdict" class="verdict {cls}"><strong>{_esc(head)}</strong>'
-        f"<span>{_esc(line)} Findings: {_esc(tally)}.</span></section>"
+        f'<section id="verdict" class="verdict {verdict.level}" data-level="{verdict.level}" '
+        f'data-exit-status="{verdict.exit_status}"><strong class="headline">{_esc(verdict.headline)}</strong>'
+        f"<span>Exit status {verdict.exit_status}. Findings: {_esc(tally)}.</span>{reasons}</section>"
     )
 
 
@@ -310,14 +381,6 @@ def _with_fit_warnings(findings: Sequence[Finding], fit: FitResult | None) -> li
 def _inline_svg(svg: bytes) -> str:
     text = svg.decode("utf-8", errors="replace")
     return _XML_PROLOG.sub("", text, count=1).strip()
-
-
-def _esc(text: object) -> str:
-    s = _INVALID.sub("\ufffd", str(text))
-    return (
-        s.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
-        .replace('"', "&quot;").replace("'", "&#39;")
-    )
 
 
 def _slug(text: str) -> str:

@@ -11,6 +11,7 @@ from __future__ import annotations
 from typing import Any, Iterable
 
 from ..model import FitResult, Finding
+from ..verdict import Verdict
 from .netlist import dump_json
 
 __all__ = ["findings_list", "findings_json", "fit_dict", "fit_json", "outline_coords", "outline_holes"]
@@ -52,8 +53,10 @@ def outline_holes(geom) -> list[list[list[float]]]:
     return [[[_r(x), _r(y)] for x, y in ring.coords] for ring in geom.interiors]
 
 
-def fit_dict(fit: FitResult, extra: dict[str, Any] | None = None) -> dict[str, Any]:
-    d: dict[str, Any] = {
+def fit_dict(fit: FitResult, extra: dict[str, Any] | None = None, *, verdict: Verdict | None = None) -> dict[str, Any]:
+    """``fit.json`` as a JSON-ready dict; ``verdict`` (the run's overall one) leads when given."""
+    d: dict[str, Any] = {"verdict": verdict.to_dict()} if verdict is not None else {}
+    d.update({
         "fits": fit.fits,
         "region_area_mm2": _r(fit.region_area_mm2),
         "courtyard_area_mm2": _r(fit.courtyard_area_mm2),
@@ -72,11 +75,11 @@ def fit_dict(fit: FitResult, extra: dict[str, Any] | None = None) -> dict[str, A
         "unplaced": list(fit.unplaced),
         "wirelength_mm": _r(fit.wirelength_mm),
         "warnings": [w.to_dict() for w in fit.warnings],
-    }
+    })
     if extra:
         d.update(extra)
     return d
 
 
-def fit_json(fit: FitResult, extra: dict[str, Any] | None = None) -> bytes:
-    return dump_json(fit_dict(fit, extra))
+def fit_json(fit: FitResult, extra: dict[str, Any] | None = None, *, verdict: Verdict | None = None) -> bytes:
+    return dump_json(fit_dict(fit, extra, verdict=verdict))

@@ -77,14 +77,18 @@ from __future__ import annotations
 import json
 import posixpath
 import re
+from dataclasses import dataclass, field
 from decimal import Decimal
 from typing import Any, Iterable
 
 from ..model import Design, Part, PinDef
+from ..values import EXPONENT_PREFIX
 
 __all__ = ["spice_netlist", "spice_number"]
 
-_SCALE = {12: "T", 9: "G", 6: "Meg", 3: "k", 0: "", -3: "m", -6: "u", -9: "n", -12: "p", -15: "f"}
+#: Power of ten -> the letter written: the SI prefixes of pipeline.values, with ``Meg`` for
+#: mega because SPICE reads ``M`` as milli (ngspice manual, "Conventions").
+_SCALE = {e: ("Meg" if p == "M" else p) for e, p in EXPONENT_PREFIX.items()}
 _BARE_RE = re.compile(r"^[A-Za-z0-9_.+\-]+$")
 _CONNECTORS = ("wire-pad", "test-point", "header")
 _PASSIVE_LETTER = {"resistor": "R", "capacitor": "C", "capacitor-polarized": "C", "inductor": "L"}
@@ -105,7 +109,7 @@ _OPAMP_GAIN = "1e6"
 _R_OUT = "1"  # series output resistance of behavioural outputs, ohm
 _R_SINK = "10"  # on-resistance of an open-collector comparator output, ohm
 _R_REG = "10m"
-_DRIVEN_ROLES = ("power-out", "output")
+_DRIVEN_ROLES = ("supply-out", "out")
 
 
 # --------------------------------------------------------------------------
@@ -197,7 +201,10 @@ def _kv(key: str, value: Any) -> str:
     text = str(value)
     if text and _BARE_RE.match(text) and text[0] != '"':
         return f"{key}={text}"
-    return f"{key}={json.dumps(text, ensure_ascii=True)}"
+    # JSON escapes every control character but DEL; escape that too, so that a record
+    # is printable ASCII on one line whatever the user wrote.
+    quoted = json.dumps(text, ensure_ascii=True).replace("\x7f", "\\u007f")
+    return f"{key}={quoted}"
 
 
 def _record(kind: str, pairs: Iterable[tuple[str, Any]]) -> str:
@@ -206,16 +213,8 @@ def _record(kind: str, pairs: Iterable[tuple[str, Any]]) -> str:
 
 
 def _ascii(text: str) -> str:
+    """``text`` as printable ASCII: any other character (a newline above all) becomes ``?``."""
     return "".join(ch if (ch.isascii() and ch.isprintable()) else "?" for ch in text)
-
-
-def _category(part: Part, design: Design) -> str:
-    for k in design.kinds:
-        if k.name == part.kind:
-            return k.category
-    if part.kind in _CONNECTORS:
-        return "connector"
-    return ""
 
 
 def _pin_named(part: Part, *names: str) -> PinDef | None:
@@ -286,7 +285,7 @@ def _stub(kind: str, pins: tuple[PinDef, ...], subname: str) -> list[str]:
                 continue
             tag = s or "A"
             on = f"(0.5 + 0.5 * tanh(1e4 * (V({inp}) - V({inn}))))"
-            if p.role == "open-collector":
+            if p.role == "open-drain":
                 # sinks to the negative supply pin while -IN is above +IN, else open
                 body.append(f"B{tag} {out} {vneg} I = V({out}, {vneg}) * (1 - {on}) / {_R_SINK}")
             else:
@@ -329,7 +328,7 @@ def _stub(kind: str, pins: tuple[PinDef, ...], subname: str) -> list[str]:
     for i, pt in enumerate(ports, start=1):
         if pt not in used_ports:
             body.append(f"RS{i} {pt} 0 {_SUPPLY_LOAD if pt in (vpos, vneg) else _OPEN}")
-    lines.append(f"* {kind}: {note}")
+    lines.append(f"* {_ascii(kind)}: {note}")  # a user's kind name: one comment line whatever it holds
     lines.append(f".subckt {subname} {' '.join(ports)}{params}")
     lines += body
     lines.append(f".ends {subname}")
@@ -387,8 +386,9 @@ def spice_netlist(design: Design) -> bytes:
         except (TypeError, ValueError):
             out.append(f"* stage {_ascii(st.name)}: its table holds values JSON cannot carry; not recorded")
             continue
-        out.append(_record("stage", [("name", st.name), ("file", st.file), ("key", st.key), ("line", str(st.line)),
-                                     ("items", items)]))
+        # No file or line: the reader locates a stage record in the file it reads
+        # (and the design's own path would put a path into the output).
+        out.append(_record("stage", [("name", st.name), ("key", st.key), ("items", items)]))
 
     out.append("*")
     out.append("* Nets")
@@ -403,10 +403,13 @@ def spice_netlist(design: Design) -> bytes:
 
     out.append("*")
     out.append("* Parts")
-    stubs: dict[str, tuple[str, str, tuple[PinDef, ...]]] = {}
-    used_models: list[str] = []
+    deck = _Deck(design, nodes, pin_net, elements, node_pool, categories={k.name: k.category for k in design.kinds},
+                 voltages={})
+    for n in design.nets:
+        deck.voltages.setdefault(n.name, n.voltage)
     for part in design.parts:
-        out += _part_lines(part, design, nodes, pin_net, elements, node_pool, stubs, used_models)
+        out += _part_lines(part, deck)
+    stubs, used_models = deck.stubs, deck.used_models
 
     supplies = [n for n in design.nets if n.voltage is not None and n.voltage != 0 and nodes[n.name] != "0"
                 and n.name not in driven]
@@ -473,84 +476,101 @@ def _part_record(part: Part, element: str | None, pins: list[str], nodes: list[s
     return text
 
 
-def _part_lines(part: Part, design: Design, nodes: dict[str, str], pin_net: dict[tuple[str, str], str],
-                elements: _Names, node_pool: _Names, stubs: dict[str, tuple[str, str, tuple[PinDef, ...]]],
-                used_models: list[str]) -> list[str]:
-    def node_of(pin: PinDef) -> str:
-        net = pin_net.get((part.ref, pin.number))
-        return nodes[net] if net is not None else ""
+@dataclass
+class _Deck:
+    """What writing the part lines needs: names given so far and lookups made once."""
 
-    def node_or_nc(pin: PinDef) -> str:
-        n = node_of(pin)
-        return n if n else node_pool.take(f"nc_{_legal(part.ref) or 'part'}_{_legal(pin.number) or 'pin'}")
+    design: Design
+    nodes: dict[str, str]  # net name -> node
+    pin_net: dict[tuple[str, str], str]  # (ref, pin number) -> net name
+    elements: _Names
+    node_pool: _Names
+    categories: dict[str, str]  # design-defined kind -> category
+    voltages: dict[str, float | None]  # net name -> declared voltage
+    stubs: dict[str, tuple[str, str, tuple[PinDef, ...]]] = field(default_factory=dict)
+    used_models: list[str] = field(default_factory=list)
 
-    def name_for(letter: str) -> str:
+    def node_of(self, part: Part, pin: PinDef) -> str:
+        net = self.pin_net.get((part.ref, pin.number))
+        return self.nodes[net] if net is not None else ""
+
+    def node_or_nc(self, part: Part, pin: PinDef) -> str:
+        n = self.node_of(part, pin)
+        return n if n else self.node_pool.take(f"nc_{_legal(part.ref) or 'part'}_{_legal(pin.number) or 'pin'}")
+
+    def name_for(self, part: Part, letter: str) -> str:
         ref = _legal(part.ref, signs=False) or "part"
-        want = ref if ref[:1].upper() == letter else letter + ref
-        return elements.take(want)
+        return self.elements.take(ref if ref[:1].upper() == letter else letter + ref)
 
-    order: list[PinDef] = list(part.pins)
-    letter = ""
-    model = ""
+
+def _device(part: Part) -> tuple[str, str, list[PinDef]]:
+    """Element letter (``""``: a stub instance), placeholder model and pins in node order."""
     if part.kind in _PASSIVE_LETTER and len(part.pins) == 2:
-        letter = _PASSIVE_LETTER[part.kind]
-    elif part.kind in _DIODES and _pin_named(part, "A") and _pin_named(part, "K"):
-        letter, model = "D", _DIODES[part.kind]
-        order = [_pin_named(part, "A"), _pin_named(part, "K")]
-    elif part.kind in _BJT and all(_pin_named(part, n) for n in "CBE"):
-        letter, model = "Q", _BJT[part.kind]
-        order = [_pin_named(part, n) for n in "CBE"]
-    elif part.kind in _MOS and all(_pin_named(part, n) for n in "DGS"):
-        letter, model = "M", _MOS[part.kind]
-        order = [_pin_named(part, n) for n in "DGS"]
-    comment_only = ""
-    if _category(part, design) == "connector":
-        comment_only = "a connector, not simulated"
-    elif part.dnp:
-        comment_only = "not fitted (dnp), not simulated"
-    elif letter in ("R", "C", "L") and part.value is None:
-        comment_only = "no value, not simulated"
-    if comment_only:
-        pins = [p.number for p in part.pins]
-        pnodes = [node_of(p) for p in part.pins]
-        shown = " ".join(f"{p.number}:{n or '-'}" for p, n in zip(part.pins, pnodes))
-        return [_part_record(part, None, pins, pnodes),
-                f"* {_ascii(part.ref)} ({_ascii(part.kind)}, {_ascii(part.package)}): {comment_only}; pins {shown}"]
+        return _PASSIVE_LETTER[part.kind], "", list(part.pins)
+    for table, letter, names in ((_DIODES, "D", "AK"), (_BJT, "Q", "CBE"), (_MOS, "M", "DGS")):
+        if part.kind in table and all(_pin_named(part, n) for n in names):
+            return letter, table[part.kind], [_pin_named(part, n) for n in names]
+    return "", "", list(part.pins)
 
+
+def _part_lines(part: Part, deck: _Deck) -> list[str]:
+    """The record and the line(s) of one part: a comment, a device or a stub instance."""
+    letter, model, order = _device(part)
+    if part.kind in deck.categories:
+        category = deck.categories[part.kind]
+    else:
+        category = "connector" if part.kind in _CONNECTORS else ""
+    if category == "connector":
+        return _comment_lines(part, deck, "a connector, not simulated")
+    if part.dnp:
+        return _comment_lines(part, deck, "not fitted (dnp), not simulated")
+    if letter in ("R", "C", "L") and part.value is None:
+        return _comment_lines(part, deck, "no value, not simulated")
     if letter:
-        name = name_for(letter)
-        pnodes = [node_or_nc(p) for p in order]
-        pins = [p.number if node_of(p) else "" for p in order]
-        line = f"{name} {' '.join(pnodes)}"
-        if letter in ("R", "C", "L"):
-            line += f" {spice_number(part.value)}"
-        elif letter == "M":
-            line = f"{name} {' '.join(pnodes)} {pnodes[2]}"  # bulk tied to source
-        if model:
-            line += f" {model}"
-            used_models.append(model)
-        return [_part_record(part, name, pins, None), line]
+        return _device_lines(part, deck, letter, model, order)
+    return _stub_lines(part, deck)
 
+
+def _comment_lines(part: Part, deck: _Deck, why: str) -> list[str]:
+    pins = [p.number for p in part.pins]
+    pnodes = [deck.node_of(part, p) for p in part.pins]
+    shown = " ".join(f"{p.number}:{n or '-'}" for p, n in zip(part.pins, pnodes))
+    return [_part_record(part, None, pins, pnodes),
+            f"* {_ascii(part.ref)} ({_ascii(part.kind)}, {_ascii(part.package)}): {why}; pins {shown}"]
+
+
+def _device_lines(part: Part, deck: _Deck, letter: str, model: str, order: list[PinDef]) -> list[str]:
+    name = deck.name_for(part, letter)
+    pnodes = [deck.node_or_nc(part, p) for p in order]
+    pins = [p.number if deck.node_of(part, p) else "" for p in order]
+    line = f"{name} {' '.join(pnodes)}"
+    if letter in ("R", "C", "L"):
+        line += f" {spice_number(part.value)}"
+    elif letter == "M":
+        line = f"{name} {' '.join(pnodes)} {pnodes[2]}"  # bulk tied to source
+    if model:
+        line += f" {model}"
+        deck.used_models.append(model)
+    return [_part_record(part, name, pins, None), line]
+
+
+def _stub_lines(part: Part, deck: _Deck) -> list[str]:
     base = f"snug_{_legal(part.kind, signs=False).lower() or 'kind'}"
     key = part.kind
-    if key not in stubs:
-        stubs[key] = (part.kind, f"{base}_{len(part.pins)}", tuple(part.pins))
-    if stubs[key][2] != tuple(part.pins):  # same kind, other pins (a design-defined kind clash)
+    if key not in deck.stubs:
+        deck.stubs[key] = (part.kind, f"{base}_{len(part.pins)}", tuple(part.pins))
+    if deck.stubs[key][2] != tuple(part.pins):  # same kind, other pins (a design-defined kind clash)
         key = f"{part.kind}\x00{part.ref}"
-        stubs[key] = (part.kind, f"{base}_{_legal(part.ref, signs=False).lower() or 'part'}", tuple(part.pins))
-    subname = stubs[key][1]
-    name = name_for("X")
-    pnodes = [node_or_nc(p) for p in part.pins]
-    pins = [p.number if node_of(p) else "" for p in part.pins]
-    line = f"{name} {' '.join(pnodes)} {subname}"
+        deck.stubs[key] = (part.kind, f"{base}_{_legal(part.ref, signs=False).lower() or 'part'}", tuple(part.pins))
+    name = deck.name_for(part, "X")
+    pnodes = [deck.node_or_nc(part, p) for p in part.pins]
+    pins = [p.number if deck.node_of(part, p) else "" for p in part.pins]
+    line = f"{name} {' '.join(pnodes)} {deck.stubs[key][1]}"
     extra = []
     if _is_regulator(part.kind, part.pins):
         out_pin = _pin_named(part, "OUT")
-        vout = None
-        if out_pin is not None:
-            net = pin_net.get((part.ref, out_pin.number))
-            if net is not None:
-                vout = next((n.voltage for n in design.nets if n.name == net), None)
+        net = deck.pin_net.get((part.ref, out_pin.number)) if out_pin is not None else None
+        vout = deck.voltages.get(net) if net is not None else None
         if vout is None:
             extra.append(f"* {_ascii(part.ref)}: its OUT net declares no voltage; 3.3 V assumed")
             vout = 3.3

@@ -3,11 +3,13 @@
 Entry point: :func:`fit_svg`.
 
 What it shows, bottom to top: the cavity floor shaded by its default depth,
-the depth zones shaded by their depth (clipped to the cavity), the keep-outs
-(hatched), the cavity outline, the usable board region (dashed), the board
-outline, the placed courtyards (bottom side dashed, top side solid) labelled
-by ref, then a title, a legend (one entry per depth), a scale bar and, when
-the design does not fit, the parts that found no room.
+the depth zones shaded by their depth (clipped to the cavity; shades of
+grey, so that no depth can be read as copper, which is drawn warm), the
+keep-outs (hatched), the cavity outline, the usable board region (dashed),
+the board outline, the placed courtyards (bottom side dashed, top side
+solid), the labels layer, then a header (title, the run's verdict line,
+figures, source), a legend (one entry per depth), a scale bar and, when the
+design does not fit, the parts that found no room.
 
 Coordinates
 -----------
@@ -26,15 +28,17 @@ and courtyards are drawn in a sorted order; all user text (title, source,
 refs) is XML-escaped, and characters XML 1.0 cannot hold are replaced by
 U+FFFD.
 
-Labels: a courtyard's ref is written across its longer fitting direction at
-the largest size that fits (estimated advance 0.62 em per character for a
-sans-serif face, from memory of common sans-serif metrics), capped at
-3.5 mm on paper and at 0.8 of the courtyard side it stands across. A label that
-would come out under 1.5 mm on paper, or would overlap a label already
-placed (top-side labels go first), is left out and its ref listed in the
-legend instead (the legend's lists of unlabelled and unplaced refs are
-cut at a few lines and the rest counted). Every courtyard also carries its
-ref, side and rotation as an SVG ``<title>`` (shown on hover).
+Labels (:func:`place_labels`): a courtyard's ref is written inside it, across
+its longer fitting direction at the largest size that fits (estimated
+advance 0.62 em per character for a sans-serif face, from memory of common
+sans-serif metrics), capped at 3.5 mm on paper and at 0.8 of the courtyard
+side it stands across. A part whose label would come out under 1.5 mm on
+paper, or would overlap a label already placed (top-side labels go first),
+gets a leader label beside it instead; only a part with no free spot
+anywhere near is listed in the legend. No two labels overlap. Every
+courtyard carries its ref, value, package, height, side, rotation and nets
+as an SVG ``<title>`` (shown on hover) and as ``data-*`` attributes (read by
+the report's script).
 
 Bottom-side courtyards are drawn as seen from the top, through the board
 (not mirrored), dashed, under the top-side ones.
@@ -44,15 +48,18 @@ from __future__ import annotations
 
 import math
 import re
-from typing import Iterable, Sequence
+from dataclasses import dataclass
+from typing import Iterable, Mapping, Sequence
 
 from shapely.geometry import LinearRing, LineString, Polygon
 from shapely.geometry.base import BaseGeometry, BaseMultipartGeometry
 
 from ..model import Cavity, FitResult, Placement, Region
 from ..order import natural_key
+from .markup import escape as _esc
+from ..verdict import Verdict
 
-__all__ = ["fit_svg", "nice_length", "drawing_scale"]
+__all__ = ["fit_svg", "nice_length", "drawing_scale", "place_labels", "part_facts", "PartFacts", "Label"]
 
 # ---- look (our own) ------------------------------------------------------
 _INK = "#262b33"  # text and cavity outline
@@ -65,22 +72,29 @@ _BOARD_LINE = "#143a52"
 _TOP = "#2f4f9e"  # top-side courtyards
 _BOTTOM = "#8a3f8f"  # bottom-side courtyards, dashed
 _UNPLACED = "#a3261b"
-#: Depth ramp, deep (light, cool-neutral) to shallow (dark, warm); interpolated in sRGB.
-_DEPTH_RAMP = ("#f6f1e4", "#ecd3a4", "#dc9f5f", "#b8612f", "#7c3318")
+_ATTENTION = "#8a5a00"
+_COPPER = "#c06a2b"  # pads: warm, as copper is drawn (depth zones are grey)
+#: Depth ramp, deep (light) to shallow (dark): neutral greys, so that no depth
+#: can be read as copper (copper is drawn warm: orange to brown).
+_DEPTH_RAMP = ("#f5f5f4", "#dcdcda", "#bdbdbb", "#9a9a98", "#767674")
 
 # ---- paper sizes in mm (converted with the drawing scale) ----------------
 _MAX_DRAWING_MM = 180.0
 _MARGIN = 7.0
 _GAP = 8.0
 _LEGEND_W = 66.0
-_HEAD_H = 17.0
 _FOOT_H = 10.0
 _T_TITLE = 5.0
 _T_TEXT = 3.0
 _T_SMALL = 2.5
 _LABEL_MAX = 3.5
 _LABEL_MIN = 1.5
+_LEADER_SIZE = 2.0
+_LEADER_RINGS = 8
 _EM_ADVANCE = 0.62
+_BOX_ADVANCE = 0.72
+_BOX_HALF_H = 0.6
+_HEAD_WRAP = 84
 _W_THIN = 0.18
 _W_LINE = 0.25
 _W_MID = 0.35
@@ -89,10 +103,11 @@ _W_BOARD = 0.6
 
 _MAX_LIST_LINES = 12
 _HATCH_ID = "snug-fit-hatch"
-_INVALID_XML = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ud800-\udfff\ufffe\uffff]")
 
 
-def fit_svg(cavity: Cavity, region: Region, fit: FitResult, *, title: str = "") -> bytes:
+def fit_svg(cavity: Cavity, region: Region, fit: FitResult, *, title: str = "",
+            verdict: Verdict | None = None, facts: Mapping[str, PartFacts] | None = None,
+            pads: Sequence = ()) -> bytes:
     """Draw cavity, region, board and placed parts as a standalone SVG 1.1 picture.
 
     Parameters
@@ -108,6 +123,17 @@ def fit_svg(cavity: Cavity, region: Region, fit: FitResult, *, title: str = "") 
         unplaced refs.
     title : str, optional
         Heading text; user text, escaped.
+    verdict : Verdict, optional
+        The run's overall verdict (:mod:`pipeline.verdict`); its headline is
+        the picture's verdict line. Without it the line states the fit alone.
+    facts : mapping of ref to PartFacts, optional
+        Value, package, height and nets of each part, written as ``data-*``
+        attributes and in the part's hover title (:func:`part_facts`).
+    pads : sequence of pads, optional
+        Copper pads of the placed parts, each with ``ref``, ``pin``, ``net``
+        (or None) and ``polygon`` in mm (:class:`pipeline.route.board.RoutePad`);
+        drawn in copper colour, each with ``data-net`` so that a picked net
+        lights its pins.
 
     Returns
     -------
@@ -130,117 +156,101 @@ def fit_svg(cavity: Cavity, region: Region, fit: FitResult, *, title: str = "") 
     """
     board = fit.board_outline if fit.board_outline is not None else cavity.board
     placements = sorted(fit.placements, key=lambda p: (p.side != "bottom", natural_key(p.ref)))
-    minx, miny, maxx, maxy = _bounds(
+    bounds = _bounds(
         [cavity.outline, region.board_region, board, *cavity.keepouts]
         + [z.polygon for z in cavity.depth_zones]
         + [p.courtyard for p in placements]
     )
+    minx, miny, maxx, maxy = bounds
     w, h = maxx - minx, maxy - miny
     s = drawing_scale(max(w, h))
     u = 1.0 / s  # drawing mm per paper mm
-    bar = nice_length(w / 4.0)
-
     depths, colour_of = _depth_palette(cavity)
-    thickness = float(region.thickness_mm)
-    labels, skipped = _labels(placements, u)
+    labels, skipped = place_labels(placements, u, bounds)
     unplaced = sorted(fit.unplaced, key=natural_key) if not fit.fits else []
-
-    heading = title or "Board fit"
+    head = _header_lines(title or "Board fit", fit, cavity, verdict)
+    head_h = _head_height(head)
     # frame: drawing block on the left, legend on the right
     left = minx - _MARGIN * u
-    top = -maxy - (_MARGIN + _HEAD_H) * u
+    top = -maxy - (_MARGIN + head_h) * u
     legend_x = maxx + _GAP * u
-    legend_lines = _legend(depths, colour_of, thickness, placements, skipped, unplaced, s)
-    legend_h = _legend_height(legend_lines) * u
-    draw_bottom = -miny + (_MARGIN + _FOOT_H) * u
-    bottom = max(draw_bottom, top + (_HEAD_H + _MARGIN) * u + legend_h + _MARGIN * u)
-    right = legend_x + (_LEGEND_W + _MARGIN) * u
-    right = max(right, left + (2 * _MARGIN + _header_width(heading, fit, cavity)) * u)
-    vb_w, vb_h = right - left, bottom - top
+    legend_lines = _legend(depths, colour_of, float(region.thickness_mm), placements, skipped, unplaced, s,
+                           bool(pads))
+    bottom = max(-miny + (_MARGIN + _FOOT_H) * u,
+                 top + (head_h + 2 * _MARGIN + _legend_height(legend_lines)) * u)
+    right = max(legend_x + (_LEGEND_W + _MARGIN) * u, left + (2 * _MARGIN + _header_width(head)) * u)
+    frame = (left, top, right - left, bottom - top)
 
-    out: list[str] = []
-    add = out.append
-    add('<?xml version="1.0" encoding="UTF-8"?>')
-    add(
+    out: list[str] = [*_prologue(frame, s, head[0][0], u)]
+    out += _ground(cavity, region, board, colour_of, u)
+    if placements:  # courtyards: bottom side first (under the board), then top side
+        out.append('<g class="placements">')
+        out += [_part(pl, (facts or {}).get(pl.ref), u) for pl in placements]
+        out.append("</g>")
+    if pads:
+        out.append(_pads_svg(pads, u))
+    out.append(_labels_svg(labels, u))
+    out.append(_scale_bar(minx, -miny + (_MARGIN - 1.0) * u, nice_length(w / 4.0), u))
+    out.append(_origin(minx, miny, maxx, maxy, u))
+    out.append(_header(left + _MARGIN * u, top, head, _verdict_colour(fit, verdict), u))
+    out.append(_legend_svg(legend_lines, legend_x, top + (head_h + _MARGIN) * u, u))
+    out.append("</svg>")
+    return ("\n".join(out) + "\n").encode("utf-8")
+
+
+def _prologue(frame: tuple[float, float, float, float], s: float, heading: str, u: float) -> list[str]:
+    """XML declaration, the svg element at true scale, title, description, hatch and paper."""
+    left, top, vb_w, vb_h = frame
+    p = 1.4 * u
+    return [
+        '<?xml version="1.0" encoding="UTF-8"?>',
         f'<svg xmlns="http://www.w3.org/2000/svg" version="1.1" '
         f'width="{_f(vb_w * s)}mm" height="{_f(vb_h * s)}mm" '
         f'viewBox="{_f(left)} {_f(top)} {_f(vb_w)} {_f(vb_h)}" '
-        f'font-family="sans-serif" class="snug-fit">'
-    )
-    add(f"<title>{_esc(heading)}</title>")
-    add(
+        f'font-family="sans-serif" class="snug-fit">',
+        f"<title>{_esc(heading)}</title>",
         "<desc>One user unit is one millimetre of the drawing's frame; "
-        "a drawing point (x, y) is drawn at (x, -y).</desc>"
-    )
-    p = 1.4 * u
-    add(
+        "a drawing point (x, y) is drawn at (x, -y).</desc>",
         f'<defs><pattern id="{_HATCH_ID}" patternUnits="userSpaceOnUse" width="{_f(p)}" '
         f'height="{_f(p)}" patternTransform="rotate(45)">'
         f'<rect x="0" y="0" width="{_f(p)}" height="{_f(p)}" fill="{_KEEPOUT_FILL}"/>'
         f'<line x1="{_f(p / 2)}" y1="0" x2="{_f(p / 2)}" y2="{_f(p)}" '
-        f'stroke="{_KEEPOUT_LINE}" stroke-width="{_f(_W_THIN * u)}"/></pattern></defs>'
-    )
-    add(f'<rect class="paper" x="{_f(left)}" y="{_f(top)}" width="{_f(vb_w)}" height="{_f(vb_h)}" fill="{_PAPER}"/>')
+        f'stroke="{_KEEPOUT_LINE}" stroke-width="{_f(_W_THIN * u)}"/></pattern></defs>',
+        f'<rect class="paper" x="{_f(left)}" y="{_f(top)}" width="{_f(vb_w)}" height="{_f(vb_h)}" fill="{_PAPER}"/>',
+    ]
 
-    # cavity floor at its default depth
-    add(
-        f'<path class="cavity-floor" d="{_path_d(cavity.outline)}" fill="{colour_of[cavity.depth_mm]}" '
-        f'fill-rule="evenodd" stroke="none"/>'
-    )
+
+def _ground(cavity: Cavity, region: Region, board, colour_of: dict, u: float) -> list[str]:
+    """Cavity floor, depth zones, keep-outs, cavity outline, usable region and board outline."""
+    out = [f'<path class="cavity-floor" d="{_path_d(cavity.outline)}" fill="{colour_of[cavity.depth_mm]}" '
+           f'fill-rule="evenodd" stroke="none"/>']
     # depth zones, deepest first so the shallower (ruling) depth lies on top
     zones = sorted(cavity.depth_zones, key=lambda z: (-z.depth_mm, _geom_key(z.polygon)))
     if zones:
-        add(f'<g class="depth-zones" stroke="{_MUTED}" stroke-width="{_f(_W_THIN * u)}" fill-rule="evenodd">')
+        out.append(f'<g class="depth-zones" stroke="{_MUTED}" stroke-width="{_f(_W_THIN * u)}" fill-rule="evenodd">')
         for z in zones:
-            g = _clip(z.polygon, cavity.outline)
-            d = _path_d(g)
+            d = _path_d(_clip(z.polygon, cavity.outline))
             if d:
-                add(
-                    f'<path class="depth-zone" d="{d}" fill="{colour_of[z.depth_mm]}">'
-                    f"<title>{_esc(_mm(z.depth_mm))} mm deep</title></path>"
-                )
-        add("</g>")
-    keepouts = sorted(cavity.keepouts, key=_geom_key)
+                out.append(f'<path class="depth-zone" d="{d}" fill="{colour_of[z.depth_mm]}">'
+                           f"<title>{_esc(_mm(z.depth_mm))} mm deep</title></path>")
+        out.append("</g>")
+    keepouts = [d for d in (_path_d(k) for k in sorted(cavity.keepouts, key=_geom_key)) if d]
     if keepouts:
-        add(
-            f'<g class="keepouts" fill="url(#{_HATCH_ID})" fill-rule="evenodd" '
-            f'stroke="{_KEEPOUT_LINE}" stroke-width="{_f(_W_MID * u)}">'
-        )
-        for k in keepouts:
-            d = _path_d(k)
-            if d:
-                add(f'<path class="keepout" d="{d}"/>')
-        add("</g>")
-    add(
-        f'<path class="cavity-outline" d="{_path_d(cavity.outline)}" fill="none" '
-        f'stroke="{_INK}" stroke-width="{_f(_W_THICK * u)}" stroke-linejoin="round"/>'
-    )
+        out.append(f'<g class="keepouts" fill="url(#{_HATCH_ID})" fill-rule="evenodd" '
+                   f'stroke="{_KEEPOUT_LINE}" stroke-width="{_f(_W_MID * u)}">')
+        out += [f'<path class="keepout" d="{d}"/>' for d in keepouts]
+        out.append("</g>")
+    out.append(f'<path class="cavity-outline" d="{_path_d(cavity.outline)}" fill="none" '
+               f'stroke="{_INK}" stroke-width="{_f(_W_THICK * u)}" stroke-linejoin="round"/>')
     d = _path_d(region.board_region)
     if d:
-        add(
-            f'<path class="usable-region" d="{d}" fill="none" fill-rule="evenodd" stroke="{_REGION_LINE}" '
-            f'stroke-width="{_f(_W_MID * u)}" stroke-dasharray="{_f(2.0 * u)} {_f(1.0 * u)}"/>'
-        )
+        out.append(f'<path class="usable-region" d="{d}" fill="none" fill-rule="evenodd" stroke="{_REGION_LINE}" '
+                   f'stroke-width="{_f(_W_MID * u)}" stroke-dasharray="{_f(2.0 * u)} {_f(1.0 * u)}"/>')
     if board is not None and not board.is_empty:
-        add(
-            f'<path class="board-outline" d="{_path_d(board)}" fill="{_PAPER}" fill-opacity="0.3" '
-            f'fill-rule="evenodd" stroke="{_BOARD_LINE}" stroke-width="{_f(_W_BOARD * u)}" '
-            f'stroke-linejoin="round"/>'
-        )
-
-    # courtyards: bottom side first (under the board), then top side
-    if placements:
-        add('<g class="placements">')
-        for pl in placements:
-            add(_part(pl, labels.get((pl.side, pl.ref)), u))
-        add("</g>")
-
-    add(_scale_bar(minx, -miny + (_MARGIN - 1.0) * u, bar, u))
-    add(_origin(minx, miny, maxx, maxy, u))
-    add(_header(left + _MARGIN * u, top, heading, fit, cavity, u))
-    add(_legend_svg(legend_lines, legend_x, top + (_HEAD_H + _MARGIN) * u, u))
-    add("</svg>")
-    return ("\n".join(out) + "\n").encode("utf-8")
+        out.append(f'<path class="board-outline" d="{_path_d(board)}" fill="{_PAPER}" fill-opacity="0.3" '
+                   f'fill-rule="evenodd" stroke="{_BOARD_LINE}" stroke-width="{_f(_W_BOARD * u)}" '
+                   f'stroke-linejoin="round"/>')
+    return out
 
 
 # --------------------------------------------------------------------------
@@ -285,14 +295,6 @@ def _mm(v: float) -> str:
 
 def _scale_text(s: float) -> str:
     return f"{_mm(s)}:1" if s >= 1 else f"1:{_mm(1.0 / s)}"
-
-
-def _esc(text: object) -> str:
-    s = _INVALID_XML.sub("\ufffd", str(text))
-    return (
-        s.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
-        .replace('"', "&quot;").replace("'", "&#39;")
-    )
 
 
 # --------------------------------------------------------------------------
@@ -399,38 +401,143 @@ def _depth_palette(cavity: Cavity) -> tuple[list[float], dict[float, str]]:
 # --------------------------------------------------------------------------
 # courtyards and labels
 # --------------------------------------------------------------------------
-def _labels(placements: Sequence[Placement], u: float) -> tuple[dict, list[str]]:
-    """Label size and direction per placement, and the refs left unlabelled.
+@dataclass(frozen=True)
+class PartFacts:
+    """What the picture says about a part beyond its courtyard (hover title, ``data-*``)."""
 
-    Top-side labels are placed first, then bottom-side ones; a label that
-    would come out smaller than the readable minimum, or would overlap a
-    label already placed (a bottom part under a top part), is left out.
+    value: str = ""
+    package: str = ""
+    height_mm: float | None = None
+    nets: tuple[str, ...] = ()
+
+
+def part_facts(design, items) -> dict[str, PartFacts]:
+    """Facts per ref from a design and its placer items (``height_mm``, ``package``).
+
+    Nets are every net the part has a pin on, in natural order.
     """
-    labels: dict[tuple[str, str], tuple[float, bool]] = {}
-    skipped: list[str] = []
-    fmax, fmin = _LABEL_MAX * u, _LABEL_MIN * u
-    taken = _BoxGrid(4.0 * fmax)
+    nets: dict[str, set[str]] = {}
+    for n in design.nets:
+        for pin in n.pins:
+            nets.setdefault(pin.ref, set()).add(n.name)
+    height = {it.ref: float(it.height_mm) for it in items}
+    return {p.ref: PartFacts(p.value_text, p.package, height.get(p.ref),
+                             tuple(sorted(nets.get(p.ref, ()), key=natural_key)))
+            for p in design.parts}
+
+
+@dataclass(frozen=True)
+class Label:
+    """A ref label: centre ``(x, y)`` and text size in drawing mm, the box it
+    covers as rendered (``box``: x0, y0, x1, y1), and for a leader label the
+    line ``(x0, y0, x1, y1)`` from the label to its courtyard."""
+
+    ref: str
+    side: str
+    x: float
+    y: float
+    size: float
+    vertical: bool
+    box: tuple[float, float, float, float]
+    leader: tuple[float, float, float, float] | None = None
+
+
+def _text_box(x: float, y: float, ref: str, size: float, vertical: bool) -> tuple[float, float, float, float]:
+    """The box a centred label covers as rendered: _BOX_ADVANCE em per character, _BOX_HALF_H em each side."""
+    half_long, half_short = 0.5 * _BOX_ADVANCE * max(len(ref), 1) * size, _BOX_HALF_H * size
+    hx, hy = (half_short, half_long) if vertical else (half_long, half_short)
+    return (x - hx, y - hy, x + hx, y + hy)
+
+
+def place_labels(placements: Sequence[Placement], u: float,
+                 bounds: tuple[float, float, float, float]) -> tuple[list[Label], list[str]]:
+    """Place every ref label so that no two overlap; returns ``(labels, refs left unlabelled)``.
+
+    Method (a greedy label placer of our own): first each courtyard gets its
+    ref inside, across its longer fitting direction at the largest size that
+    fits (top side first), unless the label would be under ``_LABEL_MIN``
+    paper mm or would overlap a label already placed. Each part left over
+    gets a leader label of ``_LEADER_SIZE`` paper mm at the first free spot
+    on rings of eight directions around its courtyard (nearest ring first),
+    preferring spots over no courtyard, inside ``bounds`` grown by the
+    margin; a thin line joins label and courtyard. Only a part with no free
+    spot on any ring is left unlabelled. Boxes are the rendered extent
+    (``_BOX_ADVANCE`` em per character, ``_BOX_HALF_H`` em above and below
+    the centre: ascent plus descent of common sans-serif faces, from
+    memory). Cost: O(n x rings x 8) box queries on a grid.
+    """
+    labels: list[Label] = []
+    taken = _BoxGrid(8.0 * _LABEL_MAX * u)
+    rest: list[Placement] = []
     for pl in sorted(placements, key=lambda p: (p.side == "bottom", natural_key(p.ref))):
-        g = pl.courtyard
-        if g is None or g.is_empty:
-            skipped.append(pl.ref)
-            continue
-        x0, y0, x1, y1 = g.bounds
-        w, h = x1 - x0, y1 - y0
-        n = max(len(pl.ref), 1)
-        across = min(fmax, 0.8 * h, 0.86 * w / (_EM_ADVANCE * n))
-        upright = min(fmax, 0.8 * w, 0.86 * h / (_EM_ADVANCE * n))
-        vertical = upright > 1.25 * across
-        size = upright if vertical else across
-        half_long, half_short = 0.5 * _EM_ADVANCE * n * size, 0.4 * size
-        hx, hy = (half_short, half_long) if vertical else (half_long, half_short)
-        box = (pl.x_mm - hx, pl.y_mm - hy, pl.x_mm + hx, pl.y_mm + hy)
-        if size < fmin or taken.hits(box):
+        lab = _inside_label(pl, u)
+        if lab is None or taken.hits(lab.box):
+            rest.append(pl)
+        else:
+            taken.add(lab.box)
+            labels.append(lab)
+    courtyards = _BoxGrid(8.0 * _LABEL_MAX * u)
+    for pl in placements:
+        if pl.courtyard is not None and not pl.courtyard.is_empty:
+            courtyards.add(tuple(pl.courtyard.bounds))
+    skipped: list[str] = []
+    for pl in sorted(rest, key=lambda p: natural_key(p.ref)):
+        lab = _leader_label(pl, u, bounds, taken, courtyards)
+        if lab is None:
             skipped.append(pl.ref)
         else:
-            taken.add(box)
-            labels[(pl.side, pl.ref)] = (size, vertical)
+            taken.add(lab.box)
+            labels.append(lab)
     return labels, sorted(set(skipped), key=natural_key)
+
+
+def _inside_label(pl: Placement, u: float) -> Label | None:
+    g = pl.courtyard
+    if g is None or g.is_empty:
+        return None
+    x0, y0, x1, y1 = g.bounds
+    w, h = x1 - x0, y1 - y0
+    n = max(len(pl.ref), 1)
+    across = min(_LABEL_MAX * u, 0.8 * h, 0.86 * w / (_EM_ADVANCE * n))
+    upright = min(_LABEL_MAX * u, 0.8 * w, 0.86 * h / (_EM_ADVANCE * n))
+    vertical = upright > 1.25 * across
+    size = upright if vertical else across
+    if size < _LABEL_MIN * u:
+        return None
+    return Label(pl.ref, pl.side, pl.x_mm, pl.y_mm, size, vertical, _text_box(pl.x_mm, pl.y_mm, pl.ref, size, vertical))
+
+
+_DIRECTIONS = ((1, 0), (-1, 0), (0, 1), (0, -1), (1, 1), (-1, 1), (1, -1), (-1, -1))
+
+
+def _leader_label(pl: Placement, u: float, bounds, taken: _BoxGrid, courtyards: _BoxGrid) -> Label | None:
+    if pl.courtyard is None or pl.courtyard.is_empty:
+        return None
+    cx0, cy0, cx1, cy1 = pl.courtyard.bounds
+    size = _LEADER_SIZE * u
+    hw = 0.5 * _BOX_ADVANCE * max(len(pl.ref), 1) * size
+    hh = _BOX_HALF_H * size
+    fx0, fy0, fx1, fy1 = (bounds[0] - 0.8 * _MARGIN * u, bounds[1] - 0.8 * _MARGIN * u,
+                          bounds[2] + 0.8 * _MARGIN * u, bounds[3] + 0.8 * _MARGIN * u)
+    x, y = pl.x_mm, pl.y_mm
+    spots = []
+    for ring in range(_LEADER_RINGS):
+        gap = (1.0 + 1.6 * ring) * u
+        for dx, dy in _DIRECTIONS:
+            lx = x + dx * (0.5 * (cx1 - cx0) + hw + gap)
+            ly = y + dy * (0.5 * (cy1 - cy0) + hh + gap)
+            spots.append((lx, ly))
+    for avoid_parts in (True, False):
+        for lx, ly in spots:
+            b = (lx - hw, ly - hh, lx + hw, ly + hh)
+            if b[0] < fx0 or b[1] < fy0 or b[2] > fx1 or b[3] > fy1 or taken.hits(b):
+                continue
+            if avoid_parts and courtyards.hits(b):
+                continue
+            ax, ay = min(max(x, b[0]), b[2]), min(max(y, b[1]), b[3])  # label end: box point nearest the part
+            px, py = min(max(lx, cx0), cx1), min(max(ly, cy0), cy1)  # part end: courtyard point nearest the label
+            return Label(pl.ref, pl.side, lx, ly, size, False, b, (ax, ay, px, py))
+    return None
 
 
 class _BoxGrid:
@@ -458,62 +565,108 @@ class _BoxGrid:
             self.cells.setdefault(k, []).append(b)
 
 
-def _part(pl: Placement, label: tuple[float, bool] | None, u: float) -> str:
+def _part(pl: Placement, facts: PartFacts | None, u: float) -> str:
+    """A courtyard with its hover title and the ``data-*`` attributes the report's script reads."""
     bottom = pl.side == "bottom"
     colour = _BOTTOM if bottom else _TOP
     side = "bottom" if bottom else "top"
     dash = f' stroke-dasharray="{_f(1.2 * u)} {_f(0.7 * u)}"' if bottom else ""
-    body = [
-        f'<g class="part part-{side}">',
-        f"<title>{_esc(pl.ref)} ({side}, {pl.rotation_deg} deg)</title>",
+    f = facts or PartFacts()
+    height = _mm(f.height_mm) if f.height_mm is not None else ""
+    about = " ".join(t for t in (f.value, f.package) if t)
+    tip = f"{pl.ref}{' ' + about if about else ''} ({side}, {pl.rotation_deg} deg"
+    tip += f", {height} mm tall" if height else ""
+    tip += f"; nets {' '.join(f.nets)})" if f.nets else ")"
+    return (
+        f'<g class="part part-{side}" data-ref="{_esc(pl.ref)}" data-value="{_esc(f.value)}" '
+        f'data-package="{_esc(f.package)}" data-height="{height}" data-side="{side}" '
+        f'data-nets="{_esc(" ".join(f.nets))}">'
+        f"<title>{_esc(tip)}</title>"
         f'<path d="{_path_d(pl.courtyard)}" fill="{colour}" fill-opacity="{"0.10" if bottom else "0.20"}" '
-        f'stroke="{colour}" stroke-width="{_f(_W_LINE * u)}"{dash}/>',
-    ]
-    if label is not None:
-        size, vertical = label
-        cx, cy = pl.x_mm, -pl.y_mm
-        rot = f' transform="rotate(-90 {_f(cx)} {_f(cy)})"' if vertical else ""
-        style = ' font-style="italic"' if bottom else ""
-        body.append(
-            f'<text class="ref" x="{_f(cx)}" y="{_f(cy + 0.35 * size)}" font-size="{_f(size)}" '
-            f'text-anchor="middle" fill="{_INK}"{style}{rot}>{_esc(pl.ref)}</text>'
-        )
-    body.append("</g>")
-    return "".join(body)
+        f'stroke="{colour}" stroke-width="{_f(_W_LINE * u)}"{dash}/></g>'
+    )
+
+
+def _pads_svg(pads: Sequence, u: float) -> str:
+    """Copper pads, sorted by ref and pin, each naming its net for the report's net picker."""
+    out = [f'<g class="pads" fill="{_COPPER}" fill-opacity="0.85">']
+    for p in sorted(pads, key=lambda p: (natural_key(p.ref), natural_key(str(p.pin)))):
+        d = _path_d(p.polygon)
+        if d:
+            net = f' data-net="{_esc(p.net)}"' if p.net is not None else ""
+            out.append(f'<path class="pad" d="{d}" data-ref="{_esc(p.ref)}" data-pin="{_esc(p.pin)}"{net}/>')
+    out.append("</g>")
+    return "".join(out)
+
+
+def _labels_svg(labels: Sequence[Label], u: float) -> str:
+    """The labels layer, drawn over every courtyard; leader lines end in a dot on the courtyard."""
+    out = ['<g class="labels">']
+    for lab in sorted(labels, key=lambda q: (natural_key(q.ref), q.side)):
+        cx, cy = lab.x, -lab.y
+        rot = f' transform="rotate(-90 {_f(cx)} {_f(cy)})"' if lab.vertical else ""
+        style = ' font-style="italic"' if lab.side == "bottom" else ""
+        out.append(f'<g class="label" data-ref="{_esc(lab.ref)}">')
+        if lab.leader is not None:
+            ax, ay, px, py = lab.leader
+            out.append(f'<line class="leader" x1="{_f(ax)}" y1="{_f(-ay)}" x2="{_f(px)}" y2="{_f(-py)}" '
+                       f'stroke="{_INK}" stroke-width="{_f(_W_THIN * u)}"/>'
+                       f'<circle class="leader-end" cx="{_f(px)}" cy="{_f(-py)}" r="{_f(0.35 * u)}" fill="{_INK}"/>')
+        out.append(f'<text class="ref" x="{_f(cx)}" y="{_f(cy + 0.35 * lab.size)}" font-size="{_f(lab.size)}" '
+                   f'text-anchor="middle" fill="{_INK}" stroke="{_PAPER}" stroke-width="{_f(0.18 * lab.size)}" '
+                   f'stroke-opacity="0.8" paint-order="stroke"{style}{rot}>{_esc(lab.ref)}</text></g>')
+    out.append("</g>")
+    return "".join(out)
 
 
 # --------------------------------------------------------------------------
 # header, scale bar, legend
 # --------------------------------------------------------------------------
-def _header_lines(heading: str, fit: FitResult, cavity: Cavity) -> tuple[str, str, str]:
+def _header_lines(heading: str, fit: FitResult, cavity: Cavity,
+                  verdict: Verdict | None) -> list[tuple[str, float]]:
+    """(text, paper text height) per header line: title, verdict (wrapped), figures, source."""
     total = len(fit.placements) + len(fit.unplaced)
-    verdict = "Fits" if fit.fits else "Does not fit"
-    line2 = (
-        f"{verdict}: {len(fit.placements)} of {total} parts placed; usable region "
-        f"{fit.region_area_mm2:.1f} mm\u00b2, courtyards {fit.courtyard_area_mm2:.1f} mm\u00b2"
-    )
-    line3 = f"Cavity drawing: {cavity.source}"
-    return heading, line2, line3
+    if verdict is not None:
+        said = verdict.headline
+    else:
+        said = f"{'Fits' if fit.fits else 'Does not fit'}: {len(fit.placements)} of {total} parts placed."
+    figures = (f"{len(fit.placements)} of {total} parts placed; usable region {fit.region_area_mm2:.1f} mm\u00b2, "
+               f"courtyards {fit.courtyard_area_mm2:.1f} mm\u00b2")
+    lines = [(heading, _T_TITLE)]
+    lines += [(t, _T_TEXT) for t in _wrap(said.split(" "), _HEAD_WRAP)]
+    lines += [(figures, _T_SMALL), (f"Cavity drawing: {cavity.source}", _T_SMALL)]
+    return lines
 
 
-def _header_width(heading: str, fit: FitResult, cavity: Cavity) -> float:
+def _head_height(lines: Sequence[tuple[str, float]]) -> float:
+    return 3.0 + sum(1.45 * size for _, size in lines) + 1.0
+
+
+def _header_width(lines: Sequence[tuple[str, float]]) -> float:
     """Estimated paper width (mm) of the header's longest line."""
-    lines = _header_lines(heading, fit, cavity)
-    return max(_EM_ADVANCE * len(t) * size for t, size in zip(lines, (_T_TITLE * 1.1, _T_TEXT, _T_SMALL)))
+    return max(_EM_ADVANCE * len(t) * size * (1.1 if i == 0 else 1.0) for i, (t, size) in enumerate(lines))
 
 
-def _header(x: float, top: float, heading: str, fit: FitResult, cavity: Cavity, u: float) -> str:
-    heading, line2, line3 = _header_lines(heading, fit, cavity)
-    colour = _REGION_LINE if fit.fits else _UNPLACED
-    return (
-        f'<g class="header">'
-        f'<text class="title" x="{_f(x)}" y="{_f(top + 7.0 * u)}" font-size="{_f(_T_TITLE * u)}" '
-        f'font-weight="bold" fill="{_INK}">{_esc(heading)}</text>'
-        f'<text class="verdict" x="{_f(x)}" y="{_f(top + 11.5 * u)}" font-size="{_f(_T_TEXT * u)}" '
-        f'fill="{colour}">{_esc(line2)}</text>'
-        f'<text class="source" x="{_f(x)}" y="{_f(top + 15.0 * u)}" font-size="{_f(_T_SMALL * u)}" '
-        f'fill="{_MUTED}">{_esc(line3)}</text></g>'
-    )
+def _verdict_colour(fit: FitResult, verdict: Verdict | None) -> str:
+    level = verdict.level if verdict is not None else ("ready" if fit.fits else "does-not-fit")
+    return {"ready": _REGION_LINE, "attention": _ATTENTION}.get(level, _UNPLACED)
+
+
+def _header(x: float, top: float, lines: Sequence[tuple[str, float]], colour: str, u: float) -> str:
+    out = ['<g class="header">']
+    y = top + 3.0 * u
+    for i, (text, size) in enumerate(lines):
+        y += 1.45 * size * u
+        if i == 0:
+            cls, extra = "title", f' font-weight="bold" fill="{_INK}"'
+        elif size == _T_TEXT:
+            cls, extra = "verdict", f' fill="{colour}"'
+        else:
+            cls, extra = "source" if i == len(lines) - 1 else "figures", f' fill="{_MUTED}"'
+        out.append(f'<text class="{cls}" x="{_f(x)}" y="{_f(y)}" font-size="{_f(size * u)}"{extra}>'
+                   f"{_esc(text)}</text>")
+    out.append("</g>")
+    return "".join(out)
 
 
 def _origin(minx: float, miny: float, maxx: float, maxy: float, u: float) -> str:
@@ -569,7 +722,7 @@ def _wrap(words: Sequence[str], width: int) -> list[str]:
     return lines
 
 
-def _legend(depths, colour_of, thickness, placements, skipped, unplaced, s) -> list[tuple]:
+def _legend(depths, colour_of, thickness, placements, skipped, unplaced, s, pads: bool = False) -> list[tuple]:
     rows: list[tuple] = [("head", "Legend", None)]
     rows.append(("cavity", "cavity outline", None))
     for d in depths:  # shallowest (darkest) first
@@ -582,6 +735,8 @@ def _legend(depths, colour_of, thickness, placements, skipped, unplaced, s) -> l
     rows.append(("top", "part courtyard, top side", None))
     if any(p.side == "bottom" for p in placements):
         rows.append(("bottom", "part courtyard, bottom side", None))
+    if pads:
+        rows.append(("pad", "copper pad", None))
     rows.append(("text", f"Scale {_scale_text(s)} when printed at 100 %", None))
     if unplaced:
         rows.append(("head-red", f"Not placed ({len(unplaced)})", None))
@@ -628,6 +783,8 @@ def _swatch(kind: str, extra, x: float, y: float, u: float) -> str:
         return (
             f'<rect {box} fill="{_TOP}" fill-opacity="0.20" stroke="{_TOP}" stroke-width="{_f(_W_LINE * u)}"/>'
         )
+    if kind == "pad":
+        return f'<rect {box} fill="{_COPPER}" stroke="none"/>'
     if kind == "bottom":
         return (
             f'<rect {box} fill="{_BOTTOM}" fill-opacity="0.10" stroke="{_BOTTOM}" '

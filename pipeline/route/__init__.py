@@ -55,6 +55,11 @@ class RouteVerdict:
     spread_mm: float = 0.0
 
     @property
+    def open(self) -> tuple[str, ...]:
+        """The open nets (the name :func:`pipeline.verdict.decide` reads)."""
+        return self.open_nets
+
+    @property
     def label(self) -> str:
         """``routed``, ``open with N nets`` or ``skipped``."""
         if self.status == OPEN:
@@ -84,7 +89,7 @@ def skipped(reason: str) -> RouteVerdict:
     return RouteVerdict(SKIPPED, reason=reason)
 
 
-def route_placed(outline, placements, design, library, rules: CopperRules, *,
+def route_placed(outline, placements, design, library, rules: CopperRules, *, level: str = "nominal",
                  progress: Callable[[str, float], None] | None = None) -> RouteOutcome:
     """Route a placed design on ``outline`` (shapely polygon, mm) and check it independently.
 
@@ -97,7 +102,7 @@ def route_placed(outline, placements, design, library, rules: CopperRules, *,
     from .pads import board_from_placement
     from .router import route_board
 
-    board = board_from_placement(outline, placements, design, library, rules.layer_names)
+    board = board_from_placement(outline, placements, design, library, rules.layer_names, level=level)
     demand = routing_demand(board, rules)
     routing = route_board(board, rules, progress=progress)
     doc = routes_dict(board, rules, routing)
@@ -141,7 +146,8 @@ def route_fit(fit, items, region, options, design, library, rules: CopperRules, 
                 break
             f = dataclasses.replace(fit, placements=_true_courtyards(spread.placements, items),
                                     board_outline=spread.board_outline, wirelength_mm=spread.wirelength_mm)
-        out = route_placed(f.board_outline, f.placements, design, library, rules, progress=progress)
+        out = route_placed(f.board_outline, f.placements, design, library, rules, level=options.density,
+                           progress=progress)
         out = dataclasses.replace(out, verdict=dataclasses.replace(out.verdict, spread_mm=m))
         if best is None or len(out.verdict.open_nets) < len(best[1].verdict.open_nets):
             best = (f, out)

@@ -1,4 +1,4 @@
-"""Tests of pipeline.stages / pipeline.filters: declared circuit stages.
+"""Tests of pipeline.circuit: declared circuit blocks (formulas, declaration, spread, retune, analysis).
 
 Every numeric check names its outside source in a comment beside it:
 published worked examples (REFERENCES.md section 5), an independent AC
@@ -14,24 +14,24 @@ import json
 import math
 import shutil
 import subprocess
+import sys
 import xml.etree.ElementTree as ET
 from dataclasses import replace
+from pathlib import Path
 
 import eseries
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from scipy import optimize, signal
 
-from pipeline import filters as F
+from pipeline.circuit import formulas as F
 from pipeline.errors import DesignError
 from pipeline.model import Design, Net, Part, PinDef, PinRef, RawTable
-from pipeline.stages import (
-    STAGE_TYPES,
-    analyse_stages,
-    parse_target,
-    stage_samples,
-    stage_sections,
-)
+from pipeline.circuit import BLOCK_TYPES, block_samples, parse_target
+from pipeline.circuit import analyse_blocks
+from pipeline.export.blocks import block_sections
 
 # --------------------------------------------------------------------------
 # Small model builders (pin numbers as CONTRACT.md section 2)
@@ -107,7 +107,7 @@ def sk_highpass(c1, c2, rf, rg, ra=None, rb=None, targets=None, series=None):
 
 
 def one(d: Design, **kw):
-    reps, findings = analyse_stages(d, **kw)
+    reps, findings = analyse_blocks(d, **kw)
     assert len(reps) == 1
     return reps[0], findings
 
@@ -173,6 +173,44 @@ def test_butterworth_response_matches_scipy_prototype():
     b, a = signal.butter(2, w0, analog=True)
     _, h = signal.freqs(b, a, worN=2 * np.pi * np.asarray(resp.f_hz))
     assert np.allclose(resp.nominal_db, 20 * np.log10(np.abs(h)), atol=1e-6)
+
+
+@settings(max_examples=60, deadline=None)
+@given(num=st.lists(st.floats(-1e3, 1e3), min_size=1, max_size=3),
+       den=st.lists(st.floats(1e-6, 1e3), min_size=2, max_size=4),
+       f=st.lists(st.floats(1e-3, 1e6), min_size=1, max_size=20))
+def test_response_db_matches_scipy_freqs(num, den, f):
+    # Source: scipy.signal.freqs, the general-purpose reference for H(jw) of an analogue
+    # transfer function (positive denominator coefficients: no pole on the jw axis).
+    got_mag, got_ph = F.response_db(np.array(num), np.array(den), np.array(f))
+    _, h = signal.freqs(num, den, worN=2 * np.pi * np.asarray(f))
+    with np.errstate(divide="ignore"):
+        want = 20 * np.log10(np.abs(h))
+    assert np.allclose(got_mag, want, rtol=1e-12, atol=1e-9, equal_nan=True)
+    assert np.allclose(got_ph, np.degrees(np.angle(h)), rtol=1e-12, atol=1e-9)
+
+
+_IMPORT_PROBE = """
+import sys
+import pipeline.cli
+after_cli = sorted(m for m in sys.modules if m == "scipy" or m.startswith("scipy."))
+from click.testing import CliRunner
+r = CliRunner().invoke(pipeline.cli.main, ["run", sys.argv[1], "--out", sys.argv[2]])
+assert r.exit_code in (0, 1), r.output
+print(",".join(after_cli) + "|" + str("scipy.signal" in sys.modules) + "|" + str("pipeline.circuit" in sys.modules))
+"""
+
+
+def test_cli_and_demo_do_not_import_scipy_signal(tmp_path):
+    # Cost guard (issue 10 item 8, issue 11 item 2): importing pipeline.cli loads no scipy at all,
+    # and a whole demo run (which analyses its declared blocks) never loads scipy.signal.
+    root = Path(__file__).resolve().parents[1]
+    out = subprocess.run([sys.executable, "-c", _IMPORT_PROBE, str(root / "demo_project"), str(tmp_path / "out")],
+                         cwd=root, capture_output=True, text=True, check=True).stdout.strip()
+    after_cli, signal_loaded, circuit_loaded = out.split("|")
+    assert after_cli == ""
+    assert circuit_loaded == "True"        # the probe really ran the block analysis
+    assert signal_loaded == "False"
 
 
 # --------------------------------------------------------------------------
@@ -364,7 +402,7 @@ def test_divider_gain_stages_and_led():
         stage("lamp", type="led-resistor", parts={"R": "R7", "led": "D1"}, vf="2.0V",
               targets={"current": "20mA ±5%"}),
     ]
-    reps, fs = analyse_stages(design(parts, stages, nets), draws=0)
+    reps, fs = analyse_blocks(design(parts, stages, nets), draws=0)
     div, inv, non, lamp = reps
     # hand: 12 V * 3.3 / 13.3 = 2.97744 V; Rout = 10 k || 3.3 k = 2481.2 ohm
     assert div.figure("vout").nominal == pytest.approx(12 * 3.3 / 13.3, rel=1e-12)
@@ -440,7 +478,7 @@ def test_monte_carlo_against_first_order_sensitivity():
     t = 0.005
     r, cg = 10e3, 10e-9
     d = sk_lowpass(r, r, 2 * cg, cg, tol_r=t, tol_c=t)
-    samples = stage_samples(d, d.stages[0], draws=10000, seed=1)
+    samples = block_samples(d, d.stages[0], draws=10000, seed=1)
     rep, _ = one(d, draws=10000, seed=1)
     f0 = rep.figure("f0")
     ln = np.log(samples["f0"] / f0.nominal)
@@ -556,6 +594,61 @@ def test_retune_proposal_applied_passes(build):
     assert flags == sorted(flags, reverse=True)
 
 
+def test_retune_proposals_have_no_mirror_duplicates():
+    # Unity-gain Sallen-Key low-pass: f0 and Q are symmetric in R1 and R2 (Op Amps For Everyone,
+    # ch. 16: f0 = 1 / (2 pi sqrt(R1 R2 C1 C2)), Q = sqrt(R1 R2 C1 C2) / (C2 (R1 + R2))), so
+    # swapping their values gives the same block: one proposal, not two.
+    d = sk_lowpass(10e3, 10e3, 22e-9, 10e-9, targets={"f0": "1.5kHz ±3%"})
+    rep, _ = one(d, draws=0)
+    assert len(rep.proposals) >= 3
+    seen = set()
+    for p in rep.proposals:
+        vals = dict((role, v) for role, _, v in p.values)
+        key = (frozenset((vals["R1"], vals["R2"])), vals["Cf"], vals["Cg"])
+        assert key not in seen, f"mirror proposal {p.values}"
+        seen.add(key)
+
+
+def _rc_off_centre(**kw):
+    # Hand: f0 = 1 / (2 pi 10k 15n) = 1061 Hz, inside 900 .. 1100 Hz but near its top; with 1 % and
+    # 5 % tolerances about 15 % of builds land above 1100 Hz.
+    d = design([res("R1", 10e3, 0.01), cap("C1", 15e-9, 0.05)],
+               [stage("rc", type="rc-lowpass", parts={"R": "R1", "C": "C1"}, targets={"f0": "1kHz ±10%"})])
+    return one(d, draws=10000, **kw)
+
+
+def test_retune_offered_for_a_passing_block_with_too_much_spread():
+    rep, findings = _rc_off_centre()
+    assert rep.passes is True and rep.share_out > 0.05
+    assert rep.proposals and all(p.passes and p.share_out < rep.share_out for p in rep.proposals)
+    shares = [p.share_out for p in rep.proposals]
+    assert shares == sorted(shares)
+    # Hand: the first proposal R1 = 11k gives f0 = 964.6 Hz, in the middle of the target
+    best = dict((role, v) for role, _, v in rep.proposals[0].values)
+    assert 1 / (2 * math.pi * best["R"] * best["C"]) == pytest.approx(dict(rep.proposals[0].figures)["f0"])
+    (msg,) = [f.message for f in findings if f.check == "stage.retune"]
+    assert "retune_above_share" in msg and "14." in msg
+
+
+def test_no_spread_retune_below_the_chosen_share():
+    rep, findings = _rc_off_centre(retune_above_share=0.5)
+    assert rep.passes is True and rep.proposals == ()
+    assert not [f for f in findings if f.check.startswith("stage.retune")]
+
+
+@pytest.mark.parametrize("value, ok", [("0.05", True), ("0", True), ("1.5", False), ('"1%"', False)])
+def test_project_key_retune_above_share(tmp_path, value, ok):
+    from pipeline.errors import ProjectError
+    from pipeline.project import load_project
+    (tmp_path / "project.toml").write_text(f'[project]\ndesign = "d.toml"\n\n[analysis]\n'
+                                           f'retune_above_share = {value}\n', encoding="utf-8")
+    if ok:
+        assert load_project(tmp_path).retune_above_share == float(value)
+    else:
+        with pytest.raises(ProjectError, match="retune_above_share"):
+            load_project(tmp_path)
+
+
 def test_retune_reports_none_when_targets_are_unreachable():
     # A unity-gain Sallen-Key needs Cf/Cg >= 4 Q^2 (REFERENCES.md section 5): Q = 8 needs a ratio
     # of 256, but a decade either way around 10 nF / 10 nF reaches 100 at most (Q <= 5).
@@ -631,7 +724,7 @@ def _bad(mutate, extra_parts=()):
 def test_bad_declaration_names_the_key(mutate, extra, key):
     d = _bad(mutate, extra)
     with pytest.raises(DesignError) as e:
-        analyse_stages(d, draws=0)
+        analyse_blocks(d, draws=0)
     assert e.value.key == key
     assert e.value.file == "design.toml"
     assert key in str(e.value)
@@ -663,7 +756,7 @@ def test_bad_comparator_declaration_names_the_key(items, nets, key):
     parts = [res("R1", 10e3), res("R2", 100e3), res("R3", 10e3), comparator()]
     d = design(parts, [stage("c", type="comparator-hysteresis", **items)], nets)
     with pytest.raises(DesignError) as e:
-        analyse_stages(d, draws=0)
+        analyse_blocks(d, draws=0)
     assert e.value.key == key
 
 
@@ -682,7 +775,7 @@ def test_bad_comparator_declaration_names_the_key(items, nets, key):
 def test_bad_other_declarations_name_the_key(items, key):
     d = design([res("R1", 1e3), res("R2", 1e3), led()], [stage("s", **items)])
     with pytest.raises(DesignError) as e:
-        analyse_stages(d, draws=0)
+        analyse_blocks(d, draws=0)
     assert e.value.key == key
 
 
@@ -691,10 +784,10 @@ def test_bad_other_declarations_name_the_key(items, key):
 # --------------------------------------------------------------------------
 def test_report_is_json_ready_and_deterministic():
     d = sk_lowpass(10e3, 10e3, 22e-9, 10e-9, targets={"f0": "1.2kHz ±2%", "q": "0.707 ±3%"})
-    a = [r.to_dict() for r in analyse_stages(d, draws=3000, seed=5)[0]]
-    b = [r.to_dict() for r in analyse_stages(d, draws=3000, seed=5)[0]]
+    a = [r.to_dict() for r in analyse_blocks(d, draws=3000, seed=5)[0]]
+    b = [r.to_dict() for r in analyse_blocks(d, draws=3000, seed=5)[0]]
     assert json.dumps(a, allow_nan=False, sort_keys=True) == json.dumps(b, allow_nan=False, sort_keys=True)
-    c = [r.to_dict() for r in analyse_stages(d, draws=3000, seed=6)[0]]
+    c = [r.to_dict() for r in analyse_blocks(d, draws=3000, seed=6)[0]]
     assert c != a     # the seed is used
     assert a[0]["monte_carlo"]["distribution"].startswith("uniform")
 
@@ -702,7 +795,7 @@ def test_report_is_json_ready_and_deterministic():
 def test_progress_is_reported():
     seen = []
     d = sk_lowpass(10e3, 10e3, 22e-9, 10e-9)
-    analyse_stages(d, draws=100, progress=lambda m, f: seen.append((m, f)))
+    analyse_blocks(d, draws=100, progress=lambda m, f: seen.append((m, f)))
     assert seen and seen[-1][1] == 1.0 and all(0 <= f <= 1 for _, f in seen)
 
 
@@ -724,33 +817,83 @@ def test_response_band_and_markers():
     assert at == pytest.approx(-10 * math.log10(2), abs=0.01)
 
 
-def test_stage_sections_svg_is_wellformed_and_escaped():
+def test_block_sections_svg_is_wellformed_and_escaped():
     items = {"type": "sallen-key-lowpass", "parts": {"R1": "R1", "R2": "R2", "Cf": "C1", "Cg": "C2"},
              "targets": {"f0": "1kHz ±5%"}, "note": "<b>& stuff</b>"}
     parts = [res("R1", 10e3), res("R2", 10e3), cap("C1", 22e-9), cap("C2", 10e-9)]
     d = design(parts, [RawTable("a<b>&c", tuple(items.items()), "design.toml", "stages.a<b>&c")])
-    reps, _ = analyse_stages(d, draws=200)
-    (heading, frag), = stage_sections(reps)
+    reps, _ = analyse_blocks(d, draws=200)
+    (heading, frag), = block_sections(reps)
     assert heading == "Stage a<b>&c (sallen-key-lowpass)"     # plain text: the report escapes it
     assert "<b>" not in frag and "&lt;b&gt;&amp; stuff" in frag
     root = ET.fromstring(frag)          # the fragment is well-formed XML, SVG included
     svg = root.find(".//{http://www.w3.org/2000/svg}svg")
     assert svg is not None
     texts = " ".join(t.text or "" for t in svg.iter("{http://www.w3.org/2000/svg}text"))
-    assert "f0 " in texts and "-3 dB " in texts and "a<b>&c" in texts
+    assert "f0 " in texts and "\u22123 dB " in texts and "a<b>&c" in texts
     assert root.find(".//table[@class='stage-retune']") is not None   # it misses: proposals shown
     # a stage that is not a filter has no plot
     d2 = design([res("R1", 1e3), res("R2", 1e3)],
                 [stage("div", type="divider", parts={"Rtop": "R1", "Rbottom": "R2"})])
-    (_, frag2), = stage_sections(analyse_stages(d2, draws=0)[0])
+    (_, frag2), = block_sections(analyse_blocks(d2, draws=0)[0])
     assert "<svg" not in frag2
 
 
-def test_stage_types_table_is_complete():
-    # every type declared in STAGE_TYPES evaluates through analyse_stages (smoke, no numbers)
-    assert sorted(STAGE_TYPES) == sorted([
-        "sallen-key-lowpass", "sallen-key-highpass", "rc-lowpass", "rc-highpass", "divider",
-        "comparator-hysteresis", "opamp-inverting", "opamp-noninverting", "led-resistor"])
+#: Extra keys a minimal declaration of each type needs (options and voltages).
+_MINIMAL_KEYS = {"comparator-hysteresis": {"input": "inverting", "vcc": "5V"},
+                 "led-resistor": {"vf": "2V", "vcc": "5V"}}
+
+
+def _minimal_design(btype) -> Design:
+    """A design holding one block of ``btype``: a part per role (required ones, and the optional
+    ones a given role pairs with), each R 10 kohm 1 %, each C 10 nF 5 %."""
+    items = dict(_MINIMAL_KEYS.get(btype.name, {}))
+    rules = btype.role_rules(dict(btype.read_options(items, lambda k, r: AssertionError(k, r))))
+    roles = set(rules.required)
+    roles |= {b for a, b in rules.pairs if a in roles}
+    make = {"resistor": lambda ref: res(ref, 10e3), "capacitor": lambda ref: cap(ref, 10e-9),
+            "amp": opamp, "led": led}
+    parts, spec = [], {}
+    for i, role in enumerate(r.name for r in btype.roles if r.name in roles):
+        part = make[btype.role(role).kind](f"X{i + 1}")
+        parts.append(part)
+        spec[role] = part.ref
+    return design(parts, [stage("b", type=btype.name, parts=spec, **items)])
+
+
+@pytest.mark.parametrize("name", sorted(BLOCK_TYPES))
+def test_every_registered_block_type_evaluates(name):
+    # Every type the registry holds is declared, evaluated and reported through analyse_blocks:
+    # each of its figures comes out finite, a target at the nominal value +-1 % passes, and a
+    # filter type has a response whose nominal curve is its own closed-form f0 / gain.
+    btype = BLOCK_TYPES[name]
+    d = _minimal_design(btype)
+    (rep,), findings = analyse_blocks(d, draws=200)
+    assert rep.type == name
+    assert {f.name for f in rep.figures} <= {f.name for f in btype.figures}
+    assert rep.figures and all(math.isfinite(f.nominal) for f in rep.figures)
+    assert findings[0].check == "stage.summary"
+    json.dumps(rep.to_dict(), allow_nan=False)
+    assert (rep.response is not None) == bool(btype.response)
+    if rep.response is not None:
+        # Closed form: the passband level is 20 log10 |gain| dB (gain 1 here, no Ra/Rb)
+        assert rep.response.passband_db == pytest.approx(0.0, abs=1e-12)
+    targets = {f.name: f"{f.nominal!r} +/- {abs(f.nominal) * 0.01!r}" for f in rep.figures if f.nominal != 0}
+    table = d.stages[0]
+    d2 = replace(d, stages=(replace(table, items=(*table.items, ("targets", targets))),))
+    (rep2,), _ = analyse_blocks(d2, draws=0)
+    assert rep2.passes is True
+
+
+def test_registry_holds_every_type_module():
+    # Discovery: each module of pipeline.circuit.types contributes its TYPES, and nothing else does.
+    import importlib
+    import pkgutil
+
+    import pipeline.circuit.types as pkg
+    found = {t.name for m in pkgutil.iter_modules(pkg.__path__)
+             for t in importlib.import_module(f"{pkg.__name__}.{m.name}").TYPES}
+    assert found == set(BLOCK_TYPES) and len(found) >= 9
 
 
 def test_filters_helpers():
@@ -758,3 +901,38 @@ def test_filters_helpers():
     assert F.corner_signs(2).tolist() == [[-1, -1], [1, -1], [-1, 1], [1, 1]]
     x1, x2 = F.solve_quadratic_positive(np.array([1.0, 1.0]), np.array([3.0, 1.0]), np.array([2.0, 1.0]))
     assert x1[0] == 2.0 and x2[0] == 1.0 and np.isnan(x1[1]) and np.isnan(x2[1])
+
+
+# --------------------------------------------------------------------------
+# `check` runs the declared blocks exactly as `run` does
+# --------------------------------------------------------------------------
+def _cli_json(*args):
+    from click.testing import CliRunner
+
+    from pipeline.cli import main
+    r = CliRunner().invoke(main, [*args, "--json"])
+    assert r.exit_code in (0, 1), r.output
+    return r.exit_code, json.loads(r.stdout)["findings"]
+
+
+@pytest.mark.parametrize("target", [None, 'f0 = "900Hz ±5%", q = "0.72 ±10%"'])
+def test_check_gives_the_same_findings_and_status_as_run(tmp_path, target):
+    # The demo (all blocks pass) and the demo with a missed low-pass target (exit 1 from the block
+    # alone); `run` without a cavity adds only its fit.no-cavity note.
+    root = Path(__file__).resolve().parents[1]
+    proj = tmp_path / "p"
+    shutil.copytree(root / "demo_project", proj)
+    toml = (proj / "project.toml").read_text(encoding="utf-8")
+    (proj / "project.toml").write_text(toml.replace('cavity = "../outlines/controller-bay.dxf"\n', ""),
+                                       encoding="utf-8")
+    if target is not None:
+        d = proj / "design.toml"
+        text = d.read_text(encoding="utf-8")
+        assert 'targets = { f0 = "490Hz ±7%", q = "0.72 ±10%" }' in text
+        d.write_text(text.replace('f0 = "490Hz ±7%", q = "0.72 ±10%"', target), encoding="utf-8")
+    run_status, run_findings = _cli_json("run", str(proj), "--out", str(tmp_path / "out"))
+    check_status, check_findings = _cli_json("check", str(proj / "design.toml"))
+    assert [f for f in run_findings if f["check"] != "fit.no-cavity"] == check_findings
+    assert run_status == check_status == (0 if target is None else 1)
+    assert any(f["check"] == "stage.summary" for f in check_findings)
+    assert any(f["check"] == "stage.target-missed" for f in check_findings) == (target is not None)

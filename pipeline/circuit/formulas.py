@@ -1,10 +1,10 @@
-"""Closed-form figures of the analogue stages snugboard knows, vectorised.
+"""Closed-form figures of the circuit blocks snugboard knows, vectorised.
 
 Every function takes component values in SI units (ohm, F, V) as floats or
 numpy arrays and broadcasts them, so one call evaluates a single design, all
 tolerance corners, ten thousand Monte Carlo builds or a retune grid alike.
-Nothing here knows about designs, parts or files: :mod:`pipeline.stages`
-maps declared roles onto these arguments.
+Nothing here knows about designs, parts or files: each block type in
+:mod:`pipeline.circuit.types` maps its declared roles onto these arguments.
 
 Circuit conventions (node names as in ``REFERENCES.md`` section 5)
 -------------------------------------------------------------------
@@ -53,7 +53,6 @@ from __future__ import annotations
 
 import numpy as np
 from numpy.typing import ArrayLike
-from scipy import signal
 
 __all__ = [
     "sallen_key_lowpass",
@@ -75,6 +74,7 @@ __all__ = [
     "uniform_factors",
     "response_db",
     "solve_quadratic_positive",
+    "snap_to_grid",
 ]
 
 TWO_PI = 2.0 * np.pi
@@ -259,8 +259,19 @@ def uniform_factors(rng: np.random.Generator, draws: int, n: int) -> np.ndarray:
 
 
 def response_db(num: np.ndarray, den: np.ndarray, f_hz: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Magnitude (dB) and phase (degrees) of H(s) at ``f_hz``, by ``scipy.signal.freqs``."""
-    _, h = signal.freqs(num, den, worN=TWO_PI * np.asarray(f_hz, dtype=float))
+    """Magnitude (dB) and phase (degrees) of H(s) at ``f_hz``.
+
+    ``num`` and ``den`` are coefficients in descending powers of s; the
+    method is the definition, H(j w) = num(j w) / den(j w) with w = 2 pi f,
+    each polynomial evaluated by Horner's rule (``numpy.polyval``). Cost
+    O(len(f_hz) x order). The tests compare it with ``scipy.signal.freqs``.
+
+    >>> mag, ph = response_db([1.0], [1.0, 1.0], [1 / TWO_PI])     # 1 / (s + 1) at w = 1
+    >>> round(float(mag[0]), 4), round(float(ph[0]), 4)
+    (-3.0103, -45.0)
+    """
+    s = 1j * (TWO_PI * np.atleast_1d(np.asarray(f_hz, dtype=float)))
+    h = np.polyval(np.asarray(num), s) / np.polyval(np.asarray(den), s)
     with np.errstate(divide="ignore"):
         mag = 20.0 * np.log10(np.abs(h))
     return mag, np.degrees(np.angle(h))
@@ -284,3 +295,21 @@ def solve_quadratic_positive(a: ArrayLike, b: ArrayLike, c: ArrayLike) -> tuple[
     x1 = np.where(np.isfinite(x1) & (x1 > 0), x1, np.nan)
     x2 = np.where(np.isfinite(x2) & (x2 > 0), x2, np.nan)
     return x1, x2
+
+
+def snap_to_grid(grid: np.ndarray, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Values of sorted ``grid`` just below and just above each ``x`` (nan outside the grid / for nan).
+
+    An ``x`` on the grid is its own value below. Method: binary search
+    (``numpy.searchsorted``), O(len(x) log len(grid)).
+
+    >>> [v.tolist() for v in snap_to_grid(np.array([1.0, 2.2, 4.7]), np.array([2.0, 2.2, 9.0]))]
+    [[1.0, 2.2, 4.7], [2.2, 2.2, nan]]
+    """
+    x = np.asarray(x, dtype=float)
+    i = np.searchsorted(grid, np.where(np.isfinite(x), x, 0.0))
+    lo = np.where((i > 0) & np.isfinite(x), grid[np.clip(i - 1, 0, len(grid) - 1)], np.nan)
+    hi = np.where((i < len(grid)) & np.isfinite(x), grid[np.clip(i, 0, len(grid) - 1)], np.nan)
+    exact = np.isfinite(x) & (i < len(grid)) & (grid[np.clip(i, 0, len(grid) - 1)] == x)
+    lo = np.where(exact, x, lo)
+    return lo, hi

@@ -2,20 +2,20 @@
 
 Run from the repository root::
 
-    .venv/bin/python bench/bench_stages.py
-    .venv/bin/python -m pytest -m bench bench/bench_stages.py -q -s
+    .venv/bin/python bench/bench_circuit.py
+    .venv/bin/python -m pytest -m bench bench/bench_circuit.py -q -s
 
 The circuit is a unity-gain Sallen-Key low-pass (``REFERENCES.md``
 section 5: in - R1 - node A - R2 - (+), Cf from A to the output, Cg from
 (+) to ground), declared the way a design file does it: a
 :class:`pipeline.model.RawTable` ``[stages.aa]`` over
 :class:`pipeline.model.Part` objects, analysed by the public entry
-:func:`pipeline.stages.analyse_stages`. It prints, side by side:
+:func:`pipeline.circuit.analyse_blocks`. It prints, side by side:
 
 1. **Retune.** The sized values (R1 = R2 = 10k 1 %, Cf = 22n, Cg = 10n
    5 %) give f0 = 1073 Hz, Q = 0.742 and miss the targets f0 = 1 kHz
    +-2 %, Q = 0.707 +-2 %; the stage allows E96 resistors and E12
-   capacitors. Ours: ``analyse_stages(design, draws=0)`` (the retune is
+   capacitors. Ours: ``analyse_blocks(design, draws=0)`` (the retune is
    all it does beyond the nominal figures, 16 tolerance corners and the
    frequency response; the same call on the passing, retuned design is
    timed too, so the difference is the search itself), best of 5. The
@@ -38,16 +38,16 @@ section 5: in - R1 - node A - R2 - (+), Cf from A to the output, Cg from
    buys.
    Target (issue 4): an E96 x E12 search well under 1 s.
 2. **Monte Carlo, 10,000 draws** on the retuned (passing) stage, seed 1.
-   Ours: :func:`pipeline.stages.stage_samples` plus ``numpy.percentile``
+   Ours: :func:`pipeline.circuit.block_samples` plus ``numpy.percentile``
    and the share of builds out of target (the Monte Carlo work alone), and
-   the whole ``analyse_stages`` call. The reference: a plain-Python loop
+   the whole ``analyse_blocks`` call. The reference: a plain-Python loop
    over the same draws (the same ``numpy.random.default_rng(1)`` stream,
    taken one scalar at a time), each part ``v (1 + u t)``, f0 and Q from
    the closed forms, the -3 dB frequency from |H|^2 = 1/2, percentiles by
    linear interpolation between order statistics (numpy's default
    method). Check: the 1st / 50th / 99th percentiles agree to 1e-9
    relative and the share out of target is the same count.
-3. **Peak memory** traced by ``tracemalloc`` during one ``analyse_stages``
+3. **Peak memory** traced by ``tracemalloc`` during one ``analyse_blocks``
    call at 10,000 and 100,000 draws, for the passing stage and for the
    missing one (which adds the retune and a Monte Carlo of each proposal).
 
@@ -58,6 +58,7 @@ it the plain-Python retune reference (full grid, no subset, no scaling).
 from __future__ import annotations
 
 import math
+import subprocess
 import sys
 import time
 import tracemalloc
@@ -70,7 +71,7 @@ if str(ROOT) not in sys.path:
     sys.path.insert(0, str(ROOT))
 
 from pipeline.model import Design, Part, RawTable  # noqa: E402
-from pipeline.stages import analyse_stages, stage_samples  # noqa: E402
+from pipeline.circuit import analyse_blocks, block_samples  # noqa: E402
 
 SEED = 1
 DRAWS = 10_000
@@ -80,7 +81,7 @@ TOLERANCE = {"R1": 0.01, "R2": 0.01, "Cf": 0.05, "Cg": 0.05}
 #: targets: (aim, allowed error as a fraction of the aim); Butterworth Q 1/sqrt(2) ~ 0.707
 TARGETS = {"f0": (1000.0, 0.02), "q": (0.707, 0.02)}
 SERIES = {"resistor": "E96", "capacitor": "E12"}
-ROLES = ("R1", "R2", "Cf", "Cg")            # analyse_stages' numeric order for this type
+ROLES = ("R1", "R2", "Cf", "Cg")            # analyse_blocks' numeric order for this type
 REFS = {"R1": "R1", "R2": "R2", "Cf": "C1", "Cg": "C2"}
 RETUNE_TARGET_S = 1.0
 PCT = (1.0, 50.0, 99.0)
@@ -245,13 +246,13 @@ def numpy_exhaustive(present: dict[str, float], grids: dict[str, list[float]]) -
 
 def ours_retune() -> dict:
     missing = make_design(MISSING)
-    t0, (reps, findings) = best_of(lambda: analyse_stages(missing, draws=0))
+    t0, (reps, findings) = best_of(lambda: analyse_blocks(missing, draws=0))
     rep = reps[0]
     best = rep.proposals[0]
     vals = dict((role, v) for role, _, v in best.values)
     passing = make_design(vals)
-    t_pass, (reps_p, _) = best_of(lambda: analyse_stages(passing, draws=0))
-    t_full, _ = best_of(lambda: analyse_stages(missing, draws=DRAWS), repeat=3)
+    t_pass, (reps_p, _) = best_of(lambda: analyse_blocks(passing, draws=0))
+    t_full, _ = best_of(lambda: analyse_blocks(missing, draws=DRAWS), repeat=3)
     changed = len(best.changed)
     total = best.error + sum(0.01 * math.log(vals[r] / MISSING[r]) ** 2 for r in ROLES)
     return {"time": t0, "time_passing": t_pass, "time_full": t_full, "proposal": best, "vals": vals,
@@ -287,7 +288,7 @@ def compare_retune(out=print) -> dict:
     head = (f"{'':28} | {'time s':>9} | {'ranking class':>13} | {'error':>10} | {'total':>10} | best combination")
     out(head)
     out("-" * (len(head) + 30))
-    out(f"{'ours: analyse_stages draws=0':28} | {o['time']:9.4f} | {o['cls']:13d} | {o['err']:10.6f} | "
+    out(f"{'ours: analyse_blocks draws=0':28} | {o['time']:9.4f} | {o['cls']:13d} | {o['err']:10.6f} | "
         f"{o['total']:10.6f} | {vtxt([o['vals'][k] for k in ROLES])}")
     out(f"{'reference: plain-Python grid':28} | {r['time']:9.2f} | {r['cls']:13d} | {r['err']:10.6f} | "
         f"{r['total']:10.6f} | {vtxt(r['vals'])}")
@@ -361,7 +362,7 @@ def ours_mc(values: dict[str, float], draws: int, seed: int) -> dict:
     table = design.stages[0]
 
     def samples():
-        s = stage_samples(design, table, draws=draws, seed=seed)
+        s = block_samples(design, table, draws=draws, seed=seed)
         pct = {k: tuple(float(x) for x in np.percentile(s[k], PCT)) for k in ("f0", "q", "f_3db")}
         f0, q = s["f0"], s["q"]
         flo, fhi = bounds(*TARGETS["f0"])
@@ -370,7 +371,7 @@ def ours_mc(values: dict[str, float], draws: int, seed: int) -> dict:
         return pct, {"f0": int(bf.sum()), "q": int(bq.sum()), "any": int((bf | bq).sum())}
 
     t_s, (pct_s, out_s) = best_of(samples)
-    t_a, (reps, _) = best_of(lambda: analyse_stages(design, draws=draws, seed=seed))
+    t_a, (reps, _) = best_of(lambda: analyse_blocks(design, draws=draws, seed=seed))
     rep = reps[0]
     pct_a = {k: (rep.figure(k).p01, rep.figure(k).p50, rep.figure(k).p99) for k in ("f0", "q", "f_3db")}
     out_a = {"f0": round(rep.figure("f0").share_out * draws), "q": round(rep.figure("q").share_out * draws),
@@ -400,12 +401,12 @@ def compare_mc(values: dict[str, float], out=print) -> dict:
         out(f"{name:36} | {t:8.4f} | {f[0]:9.3f} {f[1]:9.3f} {f[2]:9.3f}  | {q[0]:8.5f} {q[1]:8.5f} {q[2]:8.5f} | "
             f"{f3[1]:12.3f} | {outs['f0']} / {outs['q']} / {outs['any']}")
 
-    row("ours: stage_samples + percentiles", o["time_samples"], o["pct_samples"], o["out_samples"])
-    row("ours: analyse_stages (whole call)", o["time_call"], o["pct"], o["out"])
+    row("ours: block_samples + percentiles", o["time_samples"], o["pct_samples"], o["out_samples"])
+    row("ours: analyse_blocks (whole call)", o["time_call"], o["pct"], o["out"])
     row("reference: plain-Python loop", r["time"], r["pct"], r["out"])
     ok = worst <= 1e-9 and same_out
     out(f"  ours best of 5; speed-up reference / ours: {r['time'] / o['time_samples']:,.0f}x (Monte Carlo "
-        f"alone), {r['time'] / o['time_call']:,.0f}x (whole analyse_stages call)")
+        f"alone), {r['time'] / o['time_call']:,.0f}x (whole analyse_blocks call)")
     out(f"  worst relative percentile difference {worst:.2e} (target <= 1e-9); builds out of target "
         f"identical: {same_out} -> {'PASS' if ok else 'FAIL'}")
     return {"ours": o, "ref": r, "worst_rel": worst, "same_out": same_out, "ok": ok,
@@ -418,7 +419,7 @@ def compare_mc(values: dict[str, float], out=print) -> dict:
 def peak_memory(design: Design, draws: int) -> tuple[int, float]:
     tracemalloc.start()
     t = time.perf_counter()
-    analyse_stages(design, draws=draws, seed=SEED)
+    analyse_blocks(design, draws=draws, seed=SEED)
     dt = time.perf_counter() - t
     _, peak = tracemalloc.get_traced_memory()
     tracemalloc.stop()
@@ -428,7 +429,7 @@ def peak_memory(design: Design, draws: int) -> tuple[int, float]:
 def compare_memory(passing_values: dict[str, float], out=print) -> dict:
     rows = {}
     out("")
-    out("3. peak memory traced by tracemalloc during one analyse_stages call (time under tracing, for scale)")
+    out("3. peak memory traced by tracemalloc during one analyse_blocks call (time under tracing, for scale)")
     head = f"{'stage':46} | {'draws':>7} | {'peak MiB':>8} | {'time s':>7}"
     out(head)
     out("-" * len(head))
@@ -443,12 +444,42 @@ def compare_memory(passing_values: dict[str, float], out=print) -> dict:
 
 
 # --------------------------------------------------------------------------
+# 4. import cost: what evaluating H(jw) without scipy.signal saves
+# --------------------------------------------------------------------------
+def _import_seconds(code: str, repeat: int = 3) -> float:
+    """Median wall time of a fresh interpreter running ``code`` (s)."""
+    times = []
+    for _ in range(repeat):
+        t = time.perf_counter()
+        subprocess.run([sys.executable, "-c", code], check=True, cwd=ROOT)
+        times.append(time.perf_counter() - t)
+    return sorted(times)[len(times) // 2]
+
+
+def compare_imports(out=print) -> dict:
+    out("")
+    out("4. start-up: fresh interpreter, median of 3 wall times")
+    rows = {
+        "bare": _import_seconds("pass"),
+        "circuit": _import_seconds("import pipeline.circuit, pipeline.export.blocks"),
+        "circuit+signal": _import_seconds("import pipeline.circuit, pipeline.export.blocks, scipy.signal"),
+    }
+    for k, v in rows.items():
+        out(f"  {k:16} {v:7.3f} s")
+    rows["ratio"] = rows["circuit+signal"] / rows["circuit"]
+    out(f"  block analysis imports with scipy.signal / without: {rows['ratio']:.2f}x "
+        f"(H(jw) is evaluated with numpy.polyval; scipy.signal is the tests' reference only)")
+    return rows
+
+
+# --------------------------------------------------------------------------
 def run(out=print) -> dict:
     t = time.perf_counter()
     rows = {"retune": compare_retune(out)}
     retuned = rows["retune"]["ours"]["vals"]
     rows["mc"] = compare_mc(retuned, out)
     rows["memory"] = compare_memory(retuned, out)
+    rows["imports"] = compare_imports(out)
     rows["total"] = time.perf_counter() - t
     out("")
     out(f"whole benchmark: {rows['total']:.1f} s")
@@ -460,11 +491,11 @@ def main(argv=None) -> int:
     return 0
 
 
-try:  # `pytest -m bench bench/bench_stages.py`
+try:  # `pytest -m bench bench/bench_circuit.py`
     import pytest
 
     @pytest.mark.bench
-    def test_bench_stages():
+    def test_bench_circuit():
         rows = run()
         r = rows["retune"]
         assert r["ours"]["missed"] and r["ours"]["applied_passes"]

@@ -1,0 +1,91 @@
+"""Fuzz the design-TOML reader through the real command (issue 13): generated designs, hostile values
+and byte mutations. Properties in tests/fuzzing.py. The default run tries a bounded number of cases
+in-process; ``pytest -m fuzz tests/test_fuzz_design.py`` runs ``SNUGBOARD_FUZZ_EXAMPLES`` (2000) cases in
+forked children under a time and memory bound and prints the counts by outcome."""
+
+from __future__ import annotations
+
+import os
+
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from fuzzing import ANY_VALUE, HOSTILE_TEXT, NUMBERS, OUTCOMES, Case, check_case, mutated, report, run_forked, \
+    toml_tables
+
+PROJECT = b'[project]\ndesign = "design.toml"\n'
+KINDS = ["resistor", "capacitor", "inductor", "wire-pad", "diode", "opamp-single", "header", "widget"]
+PACKAGES = ["0603", "0402", "SOT-23-5", "pad-1.5mm", "SOD-123", "header-1x3-2.54", "XYZ-9"]
+VALUES = st.one_of(st.sampled_from(["10k", "4k7", "100n", "1u0", "0", "-1k", "1e308", "nan", "inf", "", "1.5M",
+                                    "abc", "10kk", "1e-30", "3.3V"]), NUMBERS)
+PIN_NAMES = st.sampled_from(["1", "2", "3", "9", "K", "A", "-IN", "+IN", "OUT", "", "x"])
+
+
+@st.composite
+def designs(draw) -> str:
+    refs = draw(st.lists(st.sampled_from(["R1", "R2", "C1", "L1", "D1", "U1", "P1", "P2", "J1"]), min_size=1,
+                         max_size=6, unique=True))
+    tables = {"design": {"name": draw(st.one_of(st.just("fz"), HOSTILE_TEXT))}}
+    for ref in refs:
+        part = {"kind": draw(st.sampled_from(KINDS)), "package": draw(st.sampled_from(PACKAGES))}
+        if draw(st.booleans()):
+            part["value"] = draw(VALUES)
+        for key in draw(st.lists(st.sampled_from(["tolerance", "rating", "dnp", "mpn", "note", "colour"]),
+                                 max_size=2, unique=True)):
+            part[key] = draw(ANY_VALUE)
+        tables[f"parts.{ref}"] = part
+    nets = {}
+    for i in range(draw(st.integers(0, 5))):
+        name = draw(st.sampled_from(["GND", "VCC", "N1", "N2", "+A1", "a b", f"N{i + 3}"]))
+        nets[name] = [f"{draw(st.sampled_from(refs + ['Q9']))}.{draw(PIN_NAMES)}"
+                      for _ in range(draw(st.integers(1, 3)))]
+    tables["nets"] = nets
+    if nets and draw(st.booleans()):
+        tables["voltages"] = {draw(st.sampled_from(sorted(nets))): draw(st.one_of(NUMBERS, VALUES))}
+    return toml_tables(tables)
+
+
+@st.composite
+def design_cases(draw) -> Case:
+    text = draw(designs())
+    data = draw(mutated(text)) if draw(st.booleans()) else text.encode("utf-8")
+    args = draw(st.sampled_from([("run", "{proj}"), ("check", "{proj}/design.toml")]))
+    return Case({"project.toml": PROJECT, "design.toml": data}, args)
+
+
+@settings(max_examples=10, deadline=None, suppress_health_check=[HealthCheck.too_slow], database=None)
+@given(design_cases())
+def test_design_reader_properties(case):
+    check_case(case)
+
+
+@pytest.mark.fuzz
+def test_design_reader_properties_long():
+    n = int(os.environ.get("SNUGBOARD_FUZZ_EXAMPLES", "2000"))
+    OUTCOMES.clear()
+
+    @settings(max_examples=n, deadline=None, suppress_health_check=list(HealthCheck), database=None)
+    @given(design_cases())
+    def run(case):
+        check_case(case, run_forked)
+
+    _warm()
+    try:
+        run()
+    finally:
+        print("\n" + report("design fuzz"))
+
+
+def _warm() -> None:
+    """Import every module the command loads lazily, so that forked children start warm."""
+    import tempfile
+    from pathlib import Path
+
+    from fuzzing import run_inprocess
+    with tempfile.TemporaryDirectory() as tmp:
+        p = Path(tmp)
+        (p / "project.toml").write_bytes(PROJECT)
+        (p / "design.toml").write_text('[design]\nname = "w"\n[parts.P1]\nkind = "wire-pad"\npackage = "pad-1.5mm"\n'
+                                       '[parts.P2]\nkind = "wire-pad"\npackage = "pad-1.5mm"\n[nets]\nA = ["P1.1", "P2.1"]\n')
+        run_inprocess(["run", str(p), "--out", str(p / "out")])

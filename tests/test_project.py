@@ -1,0 +1,132 @@
+"""project.toml validation and the typed TOML fields every reader shares (issue 13 items 1, 2, 4)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+
+from pipeline.cli import main
+from pipeline.errors import DesignError, ProjectError
+from pipeline.project import load_project
+from pipeline.tomlsrc import TomlSource, number_problem, text_problem
+
+DESIGN = """[design]
+name = "pads"
+[parts.P1]
+kind = "wire-pad"
+package = "pad-1.5mm"
+[parts.P2]
+kind = "wire-pad"
+package = "pad-1.5mm"
+[parts.R1]
+kind = "resistor"
+value = "10k"
+package = "0603"
+[nets]
+VCC = ["P1.1", "R1.1"]
+GND = ["P2.1", "R1.2"]
+"""
+
+
+def _proj(tmp_path: Path, project: str, design: str = DESIGN) -> Path:
+    d = tmp_path / "proj"
+    d.mkdir()
+    (d / "design.toml").write_text(design)
+    (d / "project.toml").write_text(project)
+    return d
+
+
+def _run(proj: Path):
+    return CliRunner().invoke(main, ["run", str(proj)])
+
+
+NON_FINITE = ["nan", "inf", "-inf", "+nan"]
+
+
+@pytest.mark.parametrize("value", [*NON_FINITE, "1e308", "-1e308", '"1e308V"', "100001"])
+def test_defect_1_voltage_not_finite_or_absurd_is_located_exit_2(tmp_path, value):
+    proj = _proj(tmp_path, '[project]\ndesign = "design.toml"\n', DESIGN + f"[voltages]\nVCC = {value}\n")
+    r = _run(proj)
+    assert r.exit_code == 2, r.output
+    assert "design.toml:17: voltages.VCC:" in r.stderr, r.stderr
+    assert not (proj / "out").exists()
+
+
+@pytest.mark.parametrize("value", ["3.3", "-5", '"12V"', "100000"])
+def test_defect_1_ordinary_voltages_still_pass(tmp_path, value):
+    proj = _proj(tmp_path, '[project]\ndesign = "design.toml"\n', DESIGN + f"[voltages]\nVCC = {value}\n")
+    assert _run(proj).exit_code == 0
+
+
+@pytest.mark.parametrize("table, key", [
+    ("cavity", "chord_tolerance_mm"), ("order", "spares_percent"), ("cavity", "depth_mm"),
+    ("board", "thickness_mm"), ("board", "edge_clearance_mm"), ("board", "wall_clearance_mm"),
+    ("board", "min_inside_radius_mm"),
+])
+@pytest.mark.parametrize("value", NON_FINITE)
+def test_defect_4_nan_and_inf_refused_in_project_file(tmp_path, table, key, value):
+    proj = _proj(tmp_path, f'[project]\ndesign = "design.toml"\n[{table}]\n{key} = {value}\n')
+    r = _run(proj)
+    assert r.exit_code == 2, r.output
+    assert f"project.toml:4: {table}.{key}: expected a finite number" in r.stderr, r.stderr
+    assert not (proj / "out").exists()
+
+
+@pytest.mark.parametrize("key", ["design", "cavity", "parts_map"])
+def test_defect_2_nul_in_project_paths_is_located_exit_2(tmp_path, key):
+    keys = {"design": "design.toml", key: "a\\u0000b"}
+    proj = _proj(tmp_path, "[project]\n" + "".join(f'{k} = "{v}"\n' for k, v in keys.items()))
+    line = 2 + list(keys).index(key)
+    r = _run(proj)
+    assert r.exit_code == 2, r.output
+    assert f"project.toml:{line}: project.{key}: a path cannot hold a NUL character" in r.stderr, r.stderr
+    assert "internal error" not in r.stderr
+
+
+@pytest.mark.parametrize("v, checks, problem", [
+    (1, {}, None),
+    (2.5, {"lo": 0, "hi": 5}, None),
+    (float("nan"), {}, "expected a finite number, found nan"),
+    (float("-inf"), {"lo": 0}, "expected a finite number, found -inf"),
+    (True, {}, "expected a number, found True"),
+    ("3", {}, "expected a number, found '3'"),
+    (2.0, {"integer": True}, "expected a whole number, found 2.0"),
+    (0, {"lo": 0, "lo_open": True}, "must be greater than 0, found 0"),
+    (-1, {"lo": 0}, "must be at least 0, found -1"),
+    (6, {"hi": 5}, "must be at most 5, found 6"),
+])
+def test_number_rule(v, checks, problem):
+    assert number_problem(v, **checks) == problem
+
+
+@pytest.mark.parametrize("v, checks, problem", [
+    ("x", {}, None),
+    ("", {}, "expected text, found ''"),
+    ("  ", {}, "expected text, found '  '"),
+    (3, {}, "expected text, found 3"),
+    ("dense", {"choices": ("most", "nominal")}, "'dense' is not one of: most, nominal"),
+    ("a\x00b", {"path": True}, "a path cannot hold a NUL character"),
+    ("a\x00b", {}, None),
+])
+def test_text_rule(v, checks, problem):
+    assert text_problem(v, **checks) == problem
+
+
+def test_typed_fields_raise_the_readers_error_class_at_the_line():
+    src = TomlSource.from_text("d.toml", "[a]\nx = nan\ny = 3\nz = 1\n")
+    with pytest.raises(DesignError, match=r"^d\.toml:2: a\.x: expected a finite number"):
+        src.number("a.x", src.data["a"]["x"], DesignError)
+    with pytest.raises(ProjectError, match=r"^d\.toml:3: a\.y: expected text"):
+        src.text("a.y", src.data["a"]["y"], ProjectError)
+    with pytest.raises(ProjectError, match=r"^d\.toml:4: a\.z: expected true or false"):
+        src.flag("a.z", src.data["a"]["z"], ProjectError)
+    assert src.number("a.y", 3, lo=0) == 3
+
+
+def test_load_project_defaults(tmp_path):
+    proj = _proj(tmp_path, '[project]\ndesign = "design.toml"\n')
+    p = load_project(proj)
+    assert p.design_path == (proj / "design.toml").resolve()
+    assert p.chord_tolerance_mm == 0.02 and p.order.spares_percent == 0

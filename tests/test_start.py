@@ -1,0 +1,39 @@
+"""Fast start: heavy modules are imported only by the steps that need them.
+
+Counted in a fresh interpreter through ``sys.modules`` (never timed: the timing targets live in
+bench/bench_start.py).
+"""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+HEAVY = ("scipy", "numpy", "shapely", "ezdxf", "networkx")
+
+
+def _imported_after(code: str) -> set[str]:
+    probe = f"{code}\nimport sys, json\nprint(json.dumps(sorted({{m.split('.')[0] for m in sys.modules}})))"
+    out = subprocess.run([sys.executable, "-c", probe], cwd=ROOT, capture_output=True, text=True, check=True)
+    return set(json.loads(out.stdout.strip().splitlines()[-1]))
+
+
+def test_importing_the_cli_imports_no_heavy_module():
+    assert not _imported_after("import pipeline.cli") & set(HEAVY)
+
+
+def test_help_imports_no_heavy_module():
+    code = ("import sys\nfrom pipeline.cli import main\nsys.argv = ['snugboard', '--help']\n"
+            "try:\n    main()\nexcept SystemExit:\n    pass")
+    assert not _imported_after(code) & set(HEAVY)
+
+
+@pytest.mark.parametrize("module", ["pipeline.project", "pipeline.verdict", "pipeline.export.report",
+                                    "pipeline.starter"])
+def test_orchestration_modules_import_no_geometry_or_signal_library(module):
+    assert not _imported_after(f"import {module}") & {"scipy", "shapely", "ezdxf", "networkx"}
