@@ -26,8 +26,10 @@ Method
   history of shared nodes grows, the present factor grows by
   ``PRESENT_GROWTH``, and the nets that share are ripped up and routed
   again, until nothing is shared, ``MAX_ROUNDS`` pass or the time budget
-  runs out. Nets still sharing then are dropped one at a time (most shared
-  first) and reported open with the shared places as the congestion.
+  runs out, or a connection is found to have no path at all (then no
+  negotiation can complete the board). Nets still sharing then are dropped
+  one at a time (most shared first) and reported open with the shared
+  places as the congestion.
 * **Clearance model**: a track node or via claims the nodes around it that
   another net's copper may not use (none for two plain tracks: the pitch
   already holds the clearance; the 8 neighbours of a via; more around wide
@@ -317,8 +319,8 @@ class _Router:
                 if self.progress:
                     self.progress(f"routing: round {rounds}, {net.name}", min(0.99, (rounds - 1 + idx / len(todo)) / 8))
             bad, involved = self.shared()
-            if not bad or time.monotonic() > self.deadline:
-                break
+            if not bad or time.monotonic() > self.deadline or any(n.dead for n in self.nets):
+                break   # done, out of time, or a connection has no path at all: negotiating cannot help
             for n in bad:
                 self.hist[n] += HISTORY_STEP
             present *= PRESENT_GROWTH
