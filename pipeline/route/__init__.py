@@ -18,11 +18,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any, Callable
 
-from .board import RouteBoard, RoutePad
 from .rules import CopperRules
 
-__all__ = ["RouteVerdict", "RouteOutcome", "route_placed", "route_fit", "skipped", "RouteBoard", "RoutePad",
-           "CopperRules", "SPREAD_STEPS"]
+# no geometry library at import time: reading project.toml imports the rules from here
+__all__ = ["RouteVerdict", "RouteOutcome", "route_placed", "route_fit", "skipped", "CopperRules", "SPREAD_STEPS"]
 
 ROUTED, OPEN, SKIPPED = "routed", "open", "skipped"
 
@@ -80,7 +79,7 @@ class RouteOutcome:
     """Everything routing produced: verdict, the routing input, copper and the document."""
 
     verdict: RouteVerdict
-    board: RouteBoard
+    board: Any          # pipeline.route.board.RouteBoard
     routing: Any
     document: dict
 
