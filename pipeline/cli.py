@@ -165,9 +165,10 @@ def main() -> None:
 @click.option("--sweep", is_flag=True, help="Also re-run the fit with every two-terminal passive at 0201..1206.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object to stdout; human text to stderr.")
 @click.option("-v", "--verbose", is_flag=True, help="Also show notes (info findings).")
+@click.option("--no-route", is_flag=True, help="Skip routing: the verdict is placement only.")
 @click.pass_context
 def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: str | None, out: str | None,
-            sweep: bool, as_json: bool, verbose: bool) -> None:
+            sweep: bool, as_json: bool, verbose: bool, no_route: bool) -> None:
     """Read PROJECT_DIR/project.toml, check the design, fit it in the cavity, write the outputs."""
     from .project import load_project, run
 
@@ -175,7 +176,7 @@ def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: st
     project = load_project(project_dir, design=design, cavity=cavity, out=out)
     progress = _Progress(not as_json)
     try:
-        result = run(project, progress=progress, sweep=sweep)
+        result = run(project, progress=progress, sweep=sweep, route=not no_route)
     finally:
         progress.done()
     err = as_json
@@ -191,6 +192,8 @@ def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: st
         _say(f"fit: usable region {f.region_area_mm2:.1f} mm2, courtyards {f.courtyard_area_mm2:.1f} mm2, "
                    f"estimated board {f.estimate.low_mm2:.0f}..{f.estimate.high_mm2:.0f} mm2 "
                    f"(expected {f.estimate.expected_mm2:.0f})", err=err)
+    if result.routing is not None:
+        _say(f"routing: {result.routing.label}", err=err)
     _say(f"{result.design.name}: {_counts(result.findings)}; wrote {len(result.written)} files to "
                f"{_where(project.out_dir)}", err=err)
     _echo_verdict(result.verdict, err)
