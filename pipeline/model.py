@@ -11,6 +11,7 @@ stage boundary is here.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any, Literal
 
@@ -259,10 +260,12 @@ class Design:
     inputs: tuple[str, ...] = ()
 
     def part(self, ref: str) -> Part:
-        for p in self.parts:
-            if p.ref == ref:
-                return p
-        raise KeyError(ref)
+        """The part named ``ref`` (``KeyError`` if none); a dict lookup, built once (issue 13 item 13)."""
+        return self._parts_by_ref[ref]
+
+    @functools.cached_property
+    def _parts_by_ref(self) -> dict[str, Part]:
+        return {p.ref: p for p in reversed(self.parts)}  # the first of a repeated ref wins, as before
 
     def net(self, name: str) -> Net:
         for n in self.nets:

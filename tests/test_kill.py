@@ -101,7 +101,7 @@ def _campaign(tmp_path: Path, kills: int, seed: int) -> collections.Counter:
             shutil.copytree(tmp_path / "ref-old", out)
         sig = (signal.SIGKILL, signal.SIGINT)[i % 2]
         # a third anywhere in the run, the rest about its end, where the outputs are written
-        delay = rng.uniform(0, span) if i % 3 == 0 else rng.uniform(0.75 * span, 1.1 * span)
+        delay = rng.uniform(0, span) if i % 3 == 0 else rng.uniform(0.8 * span, 1.5 * span)
         pid = _child(new_proj, out)
         time.sleep(delay)
         os.kill(pid, sig)
