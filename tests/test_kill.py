@@ -110,6 +110,8 @@ def _campaign(tmp_path: Path, kills: int, seed: int) -> collections.Counter:
         state = next((k for k, v in refs.items() if got == v), None)
         assert state is not None and _consistent(got), f"kill {i} ({sig.name} at {delay:.2f}s): mixed set {sorted(got)}"
         counts[f"{sig.name} {state}"] += 1
+        if (i + 1) % 25 == 0:
+            print(f"after {i + 1} kills: {dict(sorted(counts.items()))}", flush=True)
         if sig == signal.SIGINT:
             assert code in (0, 1, 128 + signal.SIGINT), code
             mine = [n for n in _leftovers(out) if f"-{pid}-" in n]  # earlier SIGKILLs' may wait for a run
