@@ -58,6 +58,7 @@ it the plain-Python retune reference (full grid, no subset, no scaling).
 from __future__ import annotations
 
 import math
+import subprocess
 import sys
 import time
 import tracemalloc
@@ -443,12 +444,42 @@ def compare_memory(passing_values: dict[str, float], out=print) -> dict:
 
 
 # --------------------------------------------------------------------------
+# 4. import cost: what evaluating H(jw) without scipy.signal saves
+# --------------------------------------------------------------------------
+def _import_seconds(code: str, repeat: int = 3) -> float:
+    """Median wall time of a fresh interpreter running ``code`` (s)."""
+    times = []
+    for _ in range(repeat):
+        t = time.perf_counter()
+        subprocess.run([sys.executable, "-c", code], check=True, cwd=ROOT)
+        times.append(time.perf_counter() - t)
+    return sorted(times)[len(times) // 2]
+
+
+def compare_imports(out=print) -> dict:
+    out("")
+    out("4. start-up: fresh interpreter, median of 3 wall times")
+    rows = {
+        "bare": _import_seconds("pass"),
+        "circuit": _import_seconds("import pipeline.circuit, pipeline.export.blocks"),
+        "circuit+signal": _import_seconds("import pipeline.circuit, pipeline.export.blocks, scipy.signal"),
+    }
+    for k, v in rows.items():
+        out(f"  {k:16} {v:7.3f} s")
+    rows["ratio"] = rows["circuit+signal"] / rows["circuit"]
+    out(f"  block analysis imports with scipy.signal / without: {rows['ratio']:.2f}x "
+        f"(H(jw) is evaluated with numpy.polyval; scipy.signal is the tests' reference only)")
+    return rows
+
+
+# --------------------------------------------------------------------------
 def run(out=print) -> dict:
     t = time.perf_counter()
     rows = {"retune": compare_retune(out)}
     retuned = rows["retune"]["ours"]["vals"]
     rows["mc"] = compare_mc(retuned, out)
     rows["memory"] = compare_memory(retuned, out)
+    rows["imports"] = compare_imports(out)
     rows["total"] = time.perf_counter() - t
     out("")
     out(f"whole benchmark: {rows['total']:.1f} s")

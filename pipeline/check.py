@@ -24,7 +24,7 @@ connect.no-decoupling     warning   no capacitor across an IC's supply nets
 connect.case-clash        warning   net names that differ only in case
 ========================  ========  ==================================================
 
-"Drives" means: an output, open-collector output or power output pin, a
+"Drives" means: an output, open-drain output or supply output pin, a
 passive pin (a resistor, capacitor or connector brings the level from
 elsewhere) or a connector's pin on the same net. Decoupling follows common
 practice (REFERENCES.md section 7): a capacitor with one pin on each of two
@@ -46,8 +46,8 @@ __all__ = ["check_connections", "CHECKS"]
 
 Check = Callable[[Design, nx.MultiGraph, Mapping[str, str]], list[Finding]]
 
-_DRIVERS = ("output", "open-collector", "power-out", "passive")
-_PUSH_PULL = ("output", "power-out")
+_DRIVERS = ("out", "open-drain", "supply-out", "terminal")
+_PUSH_PULL = ("out", "supply-out")
 
 
 def _nk(s: str) -> tuple:
@@ -98,15 +98,15 @@ def check_unconnected(design: Design, g: nx.MultiGraph, cat: Mapping[str, str]) 
         roles = {d.number: d for d in p.pins}
         for number in unconnected_pins(g, p.ref):
             pd = roles[number]
-            if pd.role == "no-connect":
+            if pd.role == "nc":
                 continue
             subj = (f"{p.ref}.{number}",)
             label = f"{p.ref}.{number} ({pd.name})" if pd.name != number else f"{p.ref}.{number}"
-            if pd.role in ("output", "open-collector", "power-out"):
+            if pd.role in ("out", "open-drain", "supply-out"):
                 out.append(Finding("warning", "connect.floating-output", subj,
                                    f"Output {label} is on no net; fine if unused, otherwise connect it."))
             else:
-                what = "supply pin" if pd.role == "power-in" else ("input" if pd.role == "input" else "pin")
+                what = "supply pin" if pd.role == "supply" else ("input" if pd.role == "in" else "pin")
                 out.append(Finding("error", "connect.unconnected-pin", subj,
                                    f"IC {what} {label} is on no net: connect it (tie unused inputs to a defined level)."))
     return out
@@ -120,9 +120,9 @@ def check_drivers(design: Design, g: nx.MultiGraph, cat: Mapping[str, str]) -> l
             continue
         roles = [r for _, _, r in pins]
         if not any(r in _DRIVERS for r in roles):
-            sinks = [f"{ref}.{pin}" for ref, pin, r in pins if r in ("input", "power-in")]
+            sinks = [f"{ref}.{pin}" for ref, pin, r in pins if r in ("in", "supply")]
             if sinks:
-                kind = "supply" if all(r == "power-in" for r in roles if r != "no-connect") else "input"
+                kind = "supply" if all(r == "supply" for r in roles if r != "nc") else "input"
                 out.append(Finding("error", "connect.undriven-input", (n.name, *sinks),
                                    f"Net {n.name} has {kind} pins ({', '.join(sinks)}) but nothing drives it: "
                                    "connect an output, a supply or a resistor to it."))
@@ -135,7 +135,7 @@ def check_drivers(design: Design, g: nx.MultiGraph, cat: Mapping[str, str]) -> l
 
 
 def _supply_nets(g: nx.MultiGraph, ref: str, pins) -> tuple[list[str], list[str]]:
-    supply = [p.number for p in pins if p.role == "power-in"]
+    supply = [p.number for p in pins if p.role == "supply"]
     nets = pin_nets(g, ref)
     on = sorted({net for num in supply for net in nets.get(num, [])}, key=_nk)
     return supply, on

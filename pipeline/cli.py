@@ -15,6 +15,7 @@ checks found errors, 2 bad input.
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import os
 import signal
@@ -309,9 +310,14 @@ def packages_cmd(ctx: click.Context, names: tuple[str, ...], as_json: bool) -> N
     for p in pkgs:
         cy = " / ".join(f"{c.length_mm:.2f}x{c.width_mm:.2f}" for c in p.courtyards)
         _say(f"{p.name:<18}{p.pin_count:>5}{p.pitch_mm:>7.2f}{p.body_length_mm:>7.2f}x{p.body_width_mm:<5.2f}"
-                   f"{p.height_mm:>7.2f}{p.land_length_mm:>7.2f}x{p.land_width_mm:<5.2f}  {cy}")
+             f"{p.height_mm:>7.2f}{p.land_length_mm:>7.2f}x{p.land_width_mm:<5.2f}  {cy}")
         if names:
             _say(f"  aliases: {', '.join(p.aliases) or '-'}; source: {p.source}")
+            _say("  pads at the nominal level (x, y, size mm; package frame, pin 1 first):")
+            for d in p.pads:
+                hole = f" hole {d.drill_mm:.2f}" if d.drill_mm else ""
+                _say(f"    {d.number:>3} {d.shape:<9} at ({d.x_mm:7.3f}, {d.y_mm:7.3f})"
+                     f"  {d.width_mm:.3f} x {d.height_mm:.3f}{hole}")
 
 
 def _package_dict(p) -> dict[str, Any]:
@@ -320,6 +326,7 @@ def _package_dict(p) -> dict[str, Any]:
         "pitch_mm": p.pitch_mm, "body_length_mm": p.body_length_mm, "body_width_mm": p.body_width_mm,
         "height_mm": p.height_mm, "land_length_mm": p.land_length_mm, "land_width_mm": p.land_width_mm,
         "courtyards": {c.level: [c.length_mm, c.width_mm] for c in p.courtyards}, "source": p.source,
+        "pads": {lv: [dataclasses.asdict(d) for d in pads] for lv, pads in p.pads_by_level},
     }
 
 

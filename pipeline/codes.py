@@ -44,7 +44,7 @@ CODES: dict[str, Code] = {
     "connect.pin-on-two-nets": _c("error", "one pin listed on two nets (they are shorted)"),
     "connect.unconnected-part": _c("error", "a part connected to nothing"),
     "connect.unconnected-pin": _c("error", "an IC input or supply pin, or a passive's pin, on no net "
-                                           "(no-connect pins excepted)"),
+                                           "(NC pins excepted)"),
     "connect.floating-output": _c("warning", "an IC output on no net"),
     "connect.undriven-input": _c("error", "inputs on a net that no output, supply, passive or connector drives"),
     "connect.output-conflict": _c("error", "two push-pull outputs on one net"),
@@ -54,6 +54,10 @@ CODES: dict[str, Code] = {
     "connect.case-clash": _c("warning", "net names that differ only in case"),
     # design readers (pipeline/design.py, pipeline/spice.py)
     "design.duplicate-pin": _c("warning", "a pin listed twice on one net"),
+    "design.height-default": _c("info", "chip capacitors that take their package's height (a thick "
+                                        "capacitor's) because the design gives no height_mm"),
+    "design.old-role-name": _c("warning", "a pin role in the previous release's spelling (power-in, "
+                                          "passive, ...): read as its new name for one more release"),
     "spice.title-line": _c("warning", "the first line of a SPICE file is read as its title, as SPICE does"),
     "spice.not-a-part": _c("warning/info", "a SPICE element or line that is not a board part "
                                            "(sources, analyses, couplings)"),
@@ -75,10 +79,12 @@ CODES: dict[str, Code] = {
     "ratings.capacitor-polarity": _c("error", "a polarised capacitor reverse-biased by the declared voltages"),
     "ratings.resistor-power": _c("error/warning", "V^2/R above the power rating (error) or above 50 % of it "
                                                   "(warning)"),
-    "ratings.missing": _c("info", "a rating that matters is not given"),
+    "values.zero": _c("error", "a capacitor or inductor of value 0 (a 0 ohm resistor is a link and fine)"),
+    "ratings.missing": _c("info", "parts without a rating they need, one note per kind of rating: the voltage "
+                                  "across them is unknown, or they need more than the smallest common rating"),
     "ratings.no-voltages": _c("info", "no net voltage declared, so ratings could not be checked"),
     "safety.caution": _c("warning", "a net above 30 V or a battery supply: the usual caution"),
-    # declared stages (pipeline/stages.py)
+    # declared circuit blocks (pipeline/circuit/)
     "stage.summary": _c("info", "a declared stage's figures with their 1st..99th percentiles and the share "
                                 "of builds out of target"),
     "stage.target-met": _c("info", "a target passes at nominal values"),

@@ -3,7 +3,7 @@
 Entry point: :func:`read_design`. The format is CONTRACT.md section 2,
 extended with ``[kinds.NAME]`` (part kinds defined in the design),
 ``[voltages]`` (declared net voltages) and ``[stages.NAME]`` (declared
-circuit stages, read by :mod:`pipeline.stages`). README.md documents every
+circuit blocks, read by :mod:`pipeline.circuit`). README.md documents every
 key.
 
 What the reader guarantees to later stages:
@@ -28,21 +28,22 @@ from typing import Any, Iterable
 
 from . import values as _values
 from .errors import DesignError
-from .model import Design, Finding, Net, Part, PartKind, PinDef, PinRef, PIN_ROLES, RawTable
+from .library.custom import package_from_table
+from .model import Package, OLD_PIN_ROLES, PIN_ROLES, Design, Finding, Net, Part, PartKind, PinDef, PinRef, RawTable
 from .tomlsrc import TomlSource, load
 
 __all__ = ["read_design", "read_design_text", "KIND_CATEGORIES"]
 
 KIND_CATEGORIES = ("passive", "polarized", "semiconductor", "ic", "connector")
 
-_TOP_KEYS = ("design", "kinds", "parts", "nets", "voltages", "stages")
+_TOP_KEYS = ("design", "packages", "kinds", "parts", "nets", "voltages", "stages")
 _DESIGN_KEYS = ("name", "revision", "note")
 _PART_KEYS = (
     "kind", "value", "package", "tolerance", "rating", "manufacturer", "mpn",
-    "note", "dnp", "supplier", "order_code", "description",
+    "note", "dnp", "supplier", "order_code", "description", "height_mm",
 )
 _PASSTHROUGH = ("supplier", "order_code", "description")
-_KIND_KEYS = ("category", "package", "pins", "description", "value_unit")
+_KIND_KEYS = ("category", "package", "pins", "description", "value_unit", "board_feature")
 _PIN_KEYS = ("number", "name", "role")
 _REF_RE = re.compile(r"^[A-Za-z][A-Za-z0-9_]*$")
 _NET_RE = re.compile(r"^[^\s\"',;]+$")
@@ -138,7 +139,10 @@ def _read(src: TomlSource, library: Any) -> tuple[Design, list[Finding]]:
     name = _expect_str(src, "design.name", head.get("name", Path(src.display).stem))
     revision = _expect_str(src, "design.revision", head.get("revision", ""))
 
-    kinds, default_pkgs = _read_kinds(src, _expect_table(src, "kinds", data.get("kinds", {})), library)
+    packages = _read_packages(src, _expect_table(src, "packages", data.get("packages", {})), library)
+    library = library.with_packages(packages)
+    kinds, default_pkgs = _read_kinds(src, _expect_table(src, "kinds", data.get("kinds", {})), library,
+                                      warnings)
     lib = library.with_kinds(kinds) if kinds else library
 
     parts_tbl = _expect_table(src, "parts", data.get("parts", {}))
@@ -146,6 +150,7 @@ def _read(src: TomlSource, library: Any) -> tuple[Design, list[Finding]]:
         raise _err(src, "parts", "the design has no parts: add [parts.REF] tables")
     parts = tuple(_read_part(src, ref, body, lib, default_pkgs) for ref, body in parts_tbl.items())
     by_ref = {p.ref: p for p in parts}
+    warnings.extend(_height_notes(parts, lib))
 
     nets_tbl = _expect_table(src, "nets", data.get("nets", {}))
     volts = _read_voltages(src, _expect_table(src, "voltages", data.get("voltages", {})), nets_tbl)
@@ -167,12 +172,13 @@ def _read(src: TomlSource, library: Any) -> tuple[Design, list[Finding]]:
     )
     design = Design(
         name=name, revision=revision, source=src.display, parts=parts, nets=nets,
-        stages=stages, kinds=tuple(kinds),
+        stages=stages, kinds=tuple(kinds), packages=packages,
     )
     return design, warnings
 
 
-def _read_kinds(src: TomlSource, table: dict, library: Any) -> tuple[list[PartKind], dict[str, str]]:
+def _read_kinds(src: TomlSource, table: dict, library: Any,
+                warnings: list[Finding]) -> tuple[list[PartKind], dict[str, str]]:
     """Design-defined kinds and their default packages (kind name -> package)."""
     out = []
     defaults: dict[str, str] = {}
@@ -205,20 +211,60 @@ def _read_kinds(src: TomlSource, table: dict, library: Any) -> tuple[list[PartKi
                 raise _err(src, pkey, f"pin number {number} appears twice")
             seen_numbers.add(number)
             pname = _expect_str(src, pkey, p.get("name", number))
-            role = _expect_str(src, pkey, p.get("role", "passive"))
+            role = _expect_str(src, pkey, p.get("role", "terminal"))
+            if role in OLD_PIN_ROLES:
+                warnings.append(Finding(
+                    "warning", "design.old-role-name", (f"{kname}.{number}",),
+                    f"{src.display}: {pkey}: pin {number} role '{role}' is the previous release's "
+                    f"spelling; write '{OLD_PIN_ROLES[role]}' (the old one is read until the next release)"))
+                role = OLD_PIN_ROLES[role]
             if role not in PIN_ROLES:
                 raise _err(src, pkey, f"pin {number}: unknown role '{role}'; expected one of: {', '.join(PIN_ROLES)}")
             pins.append(PinDef(number, pname, role))
         desc = _expect_str(src, f"{key}.description", body.get("description", ""))
+        feature = body.get("board_feature", False)
+        if not isinstance(feature, bool):
+            raise _err(src, f"{key}.board_feature", "board_feature must be true or false")
         default_pkg = _expect_str(src, f"{key}.package", body.get("package", ""))
         if default_pkg:
             library.package(default_pkg, **_at(src, f"{key}.package"))
         out.append(PartKind(
-            name=kname, category=category, pins=tuple(pins), value_unit=unit,
+            name=kname, category=category, pins=tuple(pins), value_unit=unit, board_feature=feature,
             description=desc, source=f"defined in {src.display}" + (f"; default package {default_pkg}" if default_pkg else ""),
         ))
         defaults[kname] = default_pkg
     return out, defaults
+
+
+def _read_packages(src: TomlSource, table: dict, library: Any) -> tuple[Package, ...]:
+    """The design's own packages (``[packages.NAME]``, pipeline.library.custom)."""
+    out = []
+    for name, body in table.items():
+        key = f"packages.{name}"
+        if library.has_package(name):
+            raise _err(src, key, f"package '{name}' already exists in the library; give yours another name")
+        out.append(package_from_table(name, body, key, lambda k, why: _err(src, k, why),
+                                      library.general_rule(), library.grid_mm))
+    return tuple(out)
+
+
+def _height_notes(parts: tuple[Part, ...], lib: Any) -> list[Finding]:
+    """One note naming the chip capacitors that take the package's (capacitor) height.
+
+    Chip resistors take their size code's resistor thickness (``heights.csv``);
+    a chip capacitor's thickness depends on its value, so it takes the package
+    height unless the design gives ``height_mm``.
+    """
+    refs = [p.ref for p in parts if p.kind == "capacitor" and p.height_mm is None
+            and lib.package(p.package).family == "chip"]
+    if not refs:
+        return []
+    sizes = sorted({p.package for p in parts if p.ref in refs})
+    shown = ", ".join(f"{s} {lib.package(s).height_mm:.2f} mm" for s in sizes)
+    return [Finding("info", "design.height-default", tuple(refs),
+                    f"{', '.join(refs)}: chip capacitors take the package height ({shown}, a "
+                    "thick capacitor's); chip resistors take the resistor thickness. Give "
+                    "height_mm on a part to use its datasheet figure")]
 
 
 def _at(src: TomlSource, key: str) -> dict[str, Any]:
@@ -281,6 +327,11 @@ def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dic
     extra = tuple(sorted(
         (k, _expect_str(src, f"{key}.{k}", body[k])) for k in _PASSTHROUGH if k in body
     ))
+    height = body.get("height_mm")
+    if height is not None and (isinstance(height, bool) or not isinstance(height, (int, float))
+                               or not 0 < height < 100):
+        raise _err(src, f"{key}.height_mm", f"height_mm must be a number of millimetres above 0, "
+                                            f"got {height!r}")
     return Part(
         ref=ref, kind=kind.name, package=package.name, pins=pins, value=value, value_text=value_text,
         tolerance=tol, tolerance_text=tol_text, rating_v=rv, rating_w=rw, rating_text=rating_text,
@@ -288,6 +339,7 @@ def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dic
         mpn=_expect_str(src, f"{key}.mpn", body.get("mpn", "")),
         note=_expect_str(src, f"{key}.note", body.get("note", "")),
         dnp=dnp, extra=extra, line=src.line(key) or 0,
+        height_mm=None if height is None else float(height),
     )
 
 

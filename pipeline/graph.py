@@ -31,10 +31,13 @@ Examples
 
 from __future__ import annotations
 
-import networkx as nx
+from typing import TYPE_CHECKING
 
 from .model import Design, Net, PinRef
 from .order import natural_key
+
+if TYPE_CHECKING:  # pragma: no cover - networkx is imported where a graph is built (it is heavy)
+    import networkx as nx
 
 __all__ = [
     "build_graph",
@@ -95,6 +98,8 @@ def build_graph(design: Design) -> nx.MultiGraph:
     kind's :class:`~pipeline.model.PinDef` tuple); net nodes carry
     ``voltage``. Cost O(parts + pins).
     """
+    import networkx as nx
+
     g = nx.MultiGraph(design=design.name)
     for p in design.parts:
         g.add_node(part_node(p.ref), kind=p.kind, package=p.package, dnp=p.dnp, pins=p.pins)
@@ -151,6 +156,8 @@ def connected_groups(g: nx.MultiGraph) -> list[list[str]]:
     search), O(V + E); net nodes are dropped from the result.
     """
     groups = []
+    import networkx as nx
+
     for comp in nx.connected_components(g):
         refs = sorted((n[1] for n in comp if n[0] == "part"), key=natural_key)
         if refs:

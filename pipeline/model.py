@@ -29,16 +29,18 @@ Density = Literal["most", "nominal", "least"]
 #: the one list of level names (project.toml, the library, the area stage).
 DENSITY_LEVELS: tuple[str, ...] = ("most", "nominal", "least")
 
-#: Electrical roles a pin may have (DEVELOPERS.md, "Part kinds").
-PIN_ROLES = (
-    "power-in",
-    "power-out",
-    "input",
-    "output",
-    "open-collector",
-    "passive",
-    "no-connect",
-)
+#: Electrical roles a pin may have, in datasheet words: a supply pin, a supply output
+#: (a regulator's output), a signal input, a push-pull output, an open-drain (or
+#: open-collector) output, a plain terminal (resistor, capacitor, connector), and a
+#: pin with no connection inside (NC). footprints/README.md, "Part kinds".
+PIN_ROLES = ("supply", "supply-out", "in", "out", "open-drain", "terminal", "nc")
+
+#: The role spellings of the previous release, still read for one release (with a
+#: warning where a user wrote them): old spelling -> role.
+OLD_PIN_ROLES = {
+    "power-in": "supply", "power-out": "supply-out", "input": "in", "output": "out",
+    "open-collector": "open-drain", "passive": "terminal", "no-connect": "nc",
+}
 
 SEVERITIES = ("error", "warning", "info")
 
@@ -80,11 +82,19 @@ class Finding:
 # --------------------------------------------------------------------------
 @dataclass(frozen=True)
 class PinDef:
-    """A pin of a part kind: its number (as text), name and electrical role."""
+    """A pin of a part kind: its number (as text), name and electrical role.
+
+    A role of the previous release's spelling (:data:`OLD_PIN_ROLES`) is
+    stored as its new name.
+    """
 
     number: str
     name: str
     role: str
+
+    def __post_init__(self) -> None:
+        if self.role in OLD_PIN_ROLES:
+            object.__setattr__(self, "role", OLD_PIN_ROLES[self.role])
 
 
 @dataclass(frozen=True)
@@ -106,6 +116,9 @@ class PartKind:
     pins_from_package: bool = False
     description: str = ""
     source: str = ""
+    #: Copper or holes of the board itself (wire pad, test point, mounting hole, fiducial):
+    #: in the netlists and the picture, never ordered in the BOM.
+    board_feature: bool = False
 
 
 @dataclass(frozen=True)
@@ -121,6 +134,32 @@ class Courtyard:
         return self.length_mm * self.width_mm
 
 
+#: Pad shapes (Pad.shape).
+PAD_SHAPES = ("rect", "roundrect", "circle", "oblong")
+
+
+@dataclass(frozen=True)
+class Pad:
+    """One land of a package, mm.
+
+    In the package's frame (pipeline.library.lands: x along the length, pin 1
+    where the outline puts it) or, from ``pipeline.library.pads_on_board``, on
+    the board. ``width_mm`` is the pad's extent along x and ``height_mm`` along
+    y before its ``rotation`` (0 or 90 degrees) is applied; ``drill_mm`` is the
+    finished hole of a through-hole pad, 0 for surface mount. ``number`` is the
+    pin number as text (``"EP"`` for an exposed pad).
+    """
+
+    number: str
+    x_mm: float
+    y_mm: float
+    shape: str
+    width_mm: float
+    height_mm: float
+    drill_mm: float = 0.0
+    rotation: int = 0
+
+
 @dataclass(frozen=True)
 class Package:
     """A generic footprint: body, land extent, height and courtyards.
@@ -129,9 +168,10 @@ class Package:
     ``land_length_mm`` along the pin rows (for a chip, its terminal axis, so
     there the land length is toe to toe), ``body_width_mm`` and
     ``land_width_mm`` across them (for a gull-wing IC, the land width is the
-    toe-to-toe span across the rows). ``height_mm`` is the tallest a part in
-    this package may be. ``courtyards`` holds one :class:`Courtyard` per
-    density level (``most``, ``nominal``, ``least``). footprints/README.md
+    toe-to-toe span across the rows); both are the extent of the nominal-level
+    pads. ``height_mm`` is the tallest a part in this package may be.
+    ``courtyards`` holds one :class:`Courtyard` per density level (``most``,
+    ``nominal``, ``least``), each around the body and that level's pads. footprints/README.md
     gives the basis of every figure.
     """
 
@@ -147,12 +187,26 @@ class Package:
     pitch_mm: float
     source: str
     courtyards: tuple[Courtyard, ...]
+    #: ``(level, pads)`` per density level: the land pattern (IPC-7351B lands differ by level).
+    pads_by_level: tuple[tuple[str, tuple[Pad, ...]], ...] = ()
 
     def courtyard(self, level: str) -> Courtyard:
         for c in self.courtyards:
             if c.level == level:
                 return c
         raise KeyError(level)
+
+    def pads_at(self, level: str) -> tuple[Pad, ...]:
+        """The pads at density ``level`` (empty when the package has none)."""
+        for lv, pads in self.pads_by_level:
+            if lv == level:
+                return pads
+        return ()
+
+    @property
+    def pads(self) -> tuple[Pad, ...]:
+        """The pads at the nominal density level (IPC-7351B level B)."""
+        return self.pads_at("nominal")
 
 
 # --------------------------------------------------------------------------
@@ -198,6 +252,9 @@ class Part:
     dnp: bool = False
     extra: tuple[tuple[str, str], ...] = ()
     line: int = 0
+    #: The part's own seated height, mm, when the design gives one (a 10 uF 0603
+    #: capacitor is thicker than the package default); ``None``: by kind and package.
+    height_mm: float | None = None
 
     def pin(self, number: str) -> PinDef:
         for p in self.pins:
@@ -255,6 +312,8 @@ class Design:
     nets: tuple[Net, ...]
     stages: tuple[RawTable, ...] = ()
     kinds: tuple[PartKind, ...] = ()
+    #: Packages the design defines itself (``[packages.NAME]``).
+    packages: tuple["Package", ...] = ()
     #: every file the reader opened (the design, its includes, a parts map and its
     #: includes), resolved; outputs never write over any of them.
     inputs: tuple[str, ...] = ()

@@ -18,12 +18,14 @@ table      keys (default)
 project    name, design, cavity, parts_map
 board      layers (2), thickness_mm (0.8), sides (1), density ("nominal"),
            edge_clearance_mm (0.5), wall_clearance_mm (0.3),
-           outline ("region" or "rectangle"), min_inside_radius_mm (0.5)
+           outline ("region" or "rectangle"), min_inside_radius_mm (0.5),
+           outline_units ("mm" or "drawing": board-outline.dxf in the cavity's units)
 cavity     depth_mm (5.0), units ("mm"), layers (role map), chord_tolerance_mm (0.02)
 order      boards (1), spares_percent (0), min_spares (0), multiple (1)
-analysis   draws (10000), seed (1)
+analysis   draws (10000), seed (1), retune_above_share (0.01)
 limits     spice_file_bytes, spice_include_splices, spice_expansion_parts,
-           expression_depth (defaults in pipeline/spice/limits.py; README "Limits")
+           expression_depth (defaults in pipeline/spice/limits.py), dxf_bytes, dxf_entities,
+           dxf_vertices, cavity_coordinate_mm (defaults in pipeline/cavity/limits.py; README "Limits")
 copper     route (true), track_width_mm, clearance_mm, via_diameter_mm, via_drill_mm,
            edge_clearance_mm, vias_in_pads (false), areas, currents, ... (pipeline.route.rules)
 =========  ====================================================================
@@ -39,6 +41,7 @@ from typing import Any, Callable
 
 from .errors import ProjectError
 from .model import DENSITY_LEVELS, BoardOptions, Design, FitResult, Finding, OrderOptions
+from .cavity.limits import DEFAULTS as CAVITY_LIMITS
 from .spice.limits import DEFAULTS as SPICE_LIMITS
 from .route.rules import COPPER_KEYS, CopperRules, read_copper
 from .tomlsrc import TomlSource, load
@@ -55,11 +58,11 @@ Progress = Callable[[str, float], None]
 _KEYS: dict[str, tuple[str, ...]] = {
     "project": ("name", "design", "cavity", "parts_map"),
     "board": ("layers", "thickness_mm", "sides", "density", "edge_clearance_mm", "wall_clearance_mm",
-              "outline", "min_inside_radius_mm"),
+              "outline", "min_inside_radius_mm", "outline_units"),
     "cavity": ("depth_mm", "units", "layers", "chord_tolerance_mm"),
     "order": ("boards", "spares_percent", "min_spares", "multiple"),
-    "analysis": ("draws", "seed"),
-    "limits": tuple(SPICE_LIMITS),  # README "Limits"; each a whole number >= 1
+    "analysis": ("draws", "seed", "retune_above_share"),
+    "limits": tuple(SPICE_LIMITS) + tuple(CAVITY_LIMITS),  # README "Limits"; each a whole number >= 1
     "copper": COPPER_KEYS,
 }
 
@@ -89,7 +92,9 @@ class Project:
     draws: int = 10000
     seed: int = 1
     warnings: tuple[Finding, ...] = ()
+    retune_above_share: float | None = None     # None: pipeline.circuit.RETUNE_ABOVE_SHARE
     limits: tuple[tuple[str, int], ...] = ()  # [limits] keys given, sorted
+    outline_units: str = "mm"  # board-outline.dxf in "mm" or in the cavity drawing's units
     copper: CopperRules = CopperRules()
 
 
@@ -226,11 +231,14 @@ def load_project(
         order=order,
         depth_mm=float(_num(src, "cavity.depth_mm", cv.get("depth_mm", 5.0), lo=0, lo_open=True, hi=1000)),
         units=_text(src, "cavity.units", cv.get("units", "mm"), UNITS),
+        outline_units=_text(src, "board.outline_units", bd.get("outline_units", "mm"), ("mm", "drawing")),
         layer_map=layer_map,
         chord_tolerance_mm=float(_num(src, "cavity.chord_tolerance_mm", cv.get("chord_tolerance_mm", 0.02),
                                       lo=0, lo_open=True, hi=5)),
         draws=_num(src, "analysis.draws", an.get("draws", 10000), integer=True, lo=100, hi=1_000_000),
         seed=_num(src, "analysis.seed", an.get("seed", 1), integer=True, lo=0),
+        retune_above_share=(float(_num(src, "analysis.retune_above_share", an["retune_above_share"], lo=0, hi=1))
+                            if "retune_above_share" in an else None),
         warnings=tuple(warnings),
         limits=tuple(sorted((k, _num(src, f"limits.{k}", v, integer=True, lo=1))
                             for k, v in data.get("limits", {}).items())),
@@ -256,8 +264,8 @@ def _categories(design: Design, library: Any) -> dict[str, str]:
 
 
 def _read_and_check(path: Path, shown: str, parts_map: Path | None, root: Path | None, *,
-                    limits: tuple[tuple[str, int], ...] = (), draws: int = 10000, seed: int = 1,
-                    progress: Progress | None = None):
+                    limits: tuple[tuple[str, int], ...] = (), progress: Progress | None = None,
+                    **analysis: Any):
     """Read a design, build its graph, run the connection and value checks and analyse its blocks.
 
     Returns ``(design, library with the design's own kinds, findings, block reports)``.
@@ -271,11 +279,19 @@ def _read_and_check(path: Path, shown: str, parts_map: Path | None, root: Path |
     library = load_library()
     design, warnings = read_any_design(Path(path), library, shown=shown, parts_map=parts_map, root=root,
                                        limits=limits)
-    lib = library.with_kinds(design.kinds)
+    lib = library.with_kinds(design.kinds).with_packages(design.packages)
     g = build_graph(design)
     findings = (*warnings, *check_connections(design, g, _categories(design, lib)), *check_values(design))
-    reports, block_findings = analyse_blocks(design, draws=draws, seed=seed, progress=progress)
+    reports, block_findings = analyse_blocks(design, progress=progress, **analysis)
     return design, lib, (*findings, *block_findings), reports
+
+
+def _analysis(project: Project) -> dict[str, Any]:
+    """The ``[analysis]`` keys as keyword arguments of :func:`pipeline.circuit.analyse_blocks`."""
+    out: dict[str, Any] = {"draws": project.draws, "seed": project.seed}
+    if project.retune_above_share is not None:
+        out["retune_above_share"] = project.retune_above_share
+    return out
 
 
 def check_design(path: Path, *, shown: str | None = None, parts_map: Path | None = None,
@@ -294,7 +310,7 @@ def inspect_cavity(path: Path, *, shown: str | None = None, project: Project | N
     region, findings)``; bad drawings raise
     :class:`~pipeline.errors.CavityError`.
     """
-    from .cavity import read_cavity
+    from .cavity import Limits, read_cavity
     from .region import usable_region
 
     p = project
@@ -302,7 +318,8 @@ def inspect_cavity(path: Path, *, shown: str | None = None, project: Project | N
                              layer_map=p.layer_map if p else None,
                              default_units=p.units if p else "mm",
                              depth_mm=p.depth_mm if p else 5.0,
-                             chord_tol_mm=p.chord_tolerance_mm if p else 0.02)
+                             chord_tol_mm=p.chord_tolerance_mm if p else 0.02,
+                             limits=Limits.from_table(dict(p.limits) if p else None))
     region, rw = usable_region(cavity, p.board if p else BoardOptions())
     return cavity, region, (*cw, *rw)
 
@@ -331,12 +348,13 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
 
     timestamp = _source_date_epoch()
     design, lib, checked, reports = _read_and_check(project.design_path, project.design_shown, project.parts_map,
-                                                    project.root, limits=project.limits, draws=project.draws,
-                                                    seed=project.seed, progress=progress)
+                                                    project.root, limits=project.limits, progress=progress,
+                                                    **_analysis(project))
     findings: list[Finding] = [*project.warnings, *checked]
 
     files: dict[str, bytes] = {}
-    order_files = bom.bom_files(design, project.order)
+    features = frozenset(k.name for k in lib.kinds() if k.board_feature)  # never ordered
+    order_files = bom.bom_files(design, project.order, features)
     files.update(order_files)
     files["netlist.csv"] = netlist.netlist_csv(design)
     files["netlist.json"] = netlist.netlist_json(design)
@@ -362,15 +380,17 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     fit_json: dict = {}
     svg = None
     if fit is not None:
+        from .cavity import cavity_units
         from .export import dxf as dxf_out
         from .export import svg as svg_out
         fit_json = results.fit_dict(fit, extra, verdict=verdict)
         files["fit.json"] = results.dump_json(fit_json)
         svg = svg_out.fit_svg(cavity, region, fit, title=design.name, verdict=verdict,
-                              facts=svg_out.part_facts(design, items))
+                              facts=svg_out.part_facts(design, items), pads=_pads(fit, design, lib))
         files["fit.svg"] = svg
         if fit.board_outline is not None and not fit.board_outline.is_empty:
-            files["board-outline.dxf"] = dxf_out.board_outline_dxf(fit.board_outline)
+            units = cavity_units(cavity) if project.outline_units == "drawing" else (4, 1.0)
+            files["board-outline.dxf"] = dxf_out.board_outline_dxf(fit.board_outline, units=units)
 
     files["findings.json"] = results.findings_json(findings)
     from .export import report as report_out
@@ -396,13 +416,14 @@ def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Prog
     """
     from .advice import tried_advice
     from .area import items_from_design
-    from .cavity import read_cavity
+    from .cavity import Limits, read_cavity
     from .place import place_and_fit
     from .region import usable_region
 
     cavity, cw = read_cavity(project.cavity_path, display_name=project.cavity_shown,
                              layer_map=project.layer_map, default_units=project.units,
-                             depth_mm=project.depth_mm, chord_tol_mm=project.chord_tolerance_mm)
+                             depth_mm=project.depth_mm, chord_tol_mm=project.chord_tolerance_mm,
+                             limits=Limits.from_table(dict(project.limits)))
     region, rw = usable_region(cavity, project.board)
     items = items_from_design(design, lib, project.board.density)
     fit = place_and_fit(items, region, project.board, user_board=cavity.board, progress=progress)
@@ -413,6 +434,16 @@ def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Prog
         from .sweep import sweep_sizes
         sweep_result = sweep_sizes(design, lib, region, project.board, progress=progress, user_board=cavity.board)
     return cavity, region, items, fit, sweep_result, [*cw, *rw, *_fit_findings(fit)]
+
+
+def _pads(fit: FitResult, design: Design, lib: Any) -> tuple:
+    """The placed parts' copper pads (the routing step's one pad adapter), for the picture."""
+    from shapely.geometry import Polygon
+
+    from .route.pads import board_from_placement
+
+    outline = fit.board_outline if fit.board_outline is not None else Polygon()
+    return board_from_placement(outline, fit.placements, design, lib, ("top", "bottom")).pads
 
 
 def _fit_findings(fit: FitResult) -> list[Finding]:

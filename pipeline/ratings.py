@@ -27,9 +27,14 @@ Checks and their codes
     rating, warning above half of it (50 % margin); a zero-ohm link between
     nets at different declared voltages is a warning (a short). Zero-ohm
     links are rated by current, not power, and are not asked for a rating.
+``values.zero`` (error)
+    A capacitor or inductor of value 0: no part (a 0 ohm resistor is a link).
 ``ratings.missing`` (info)
-    A fitted resistor with no power rating or capacitor with no voltage
-    rating, with the least rating it needs when the voltage across is known.
+    Fitted resistors with no power rating or capacitors with no voltage
+    rating: one note for those whose voltage across is unknown, one for
+    those that need more than the smallest common rating
+    (:data:`UNRATED_SAFE_W`, :data:`UNRATED_SAFE_V`) with the least rating
+    each needs; a part whose need is within that is safe and not named.
 ``ratings.no-voltages`` (info)
     No net voltage is declared at all, so no rating can be checked.
 ``safety.caution`` (warning)
@@ -91,6 +96,8 @@ __all__ = [
     "ALUMINIUM_FRACTION",
     "TANTALUM_FRACTION",
     "RESISTOR_POWER_FRACTION",
+    "UNRATED_SAFE_W",
+    "UNRATED_SAFE_V",
 ]
 
 #: A net above this voltage (magnitude) brings the safety caution.
@@ -105,6 +112,12 @@ ALUMINIUM_FRACTION = 0.8
 TANTALUM_FRACTION = 0.5
 #: Resistor dissipation at most half the rating (REFERENCES.md s. 7).
 RESISTOR_POWER_FRACTION = 0.5
+#: A resistor without a rating that needs at most this (W, after the margin) gets no note: the
+#: smallest common chip resistor, 0201, is rated 1/20 W (common practice, from memory).
+UNRATED_SAFE_W = 0.05
+#: A capacitor without a rating that needs at most this (V, after derating) gets no note: the
+#: lowest widely stocked ceramic rating is 6.3 V (common practice, from memory).
+UNRATED_SAFE_V = 6.3
 
 _VALUE_UNIT = {"resistor": "ohm", "capacitor": "F", "capacitor-polarized": "F", "inductor": "H"}
 _DEFAULT_SERIES = {"resistor": "E24", "capacitor": "E12", "capacitor-polarized": "E12", "inductor": "E12"}
@@ -187,6 +200,45 @@ def _across(part: Part, pin_a: str, pin_b: str, pin_nets: dict[PinRef, list[Net]
     return best
 
 
+@dataclass(frozen=True)
+class _Missing:
+    """A fitted part without the rating it needs: ``what`` is "power" or "voltage"; ``need`` says
+    what it needs when the voltage across it is known (None: unknown)."""
+
+    what: str
+    ref: str
+    across: _Across | None
+    need: str | None
+
+
+def _missing_summary(found: list[_Missing]) -> list[Finding]:
+    """``ratings.missing`` notes, one per kind of rating and known / unknown voltage, listing the
+    parts (one line per part would drown the findings that need action); a single part keeps its
+    own message."""
+    out = []
+    for what in ("power", "voltage"):
+        for known in (False, True):
+            group = sorted((m for m in found if m.what == what and (m.need is not None) == known),
+                           key=lambda m: natural_key(m.ref))
+            if len(group) == 1:
+                m = group[0]
+                subject = (m.ref, m.across.net_a, m.across.net_b) if m.across else (m.ref,)
+                msg = (f"{m.ref} has no {what} rating: it {m.need}." if known else
+                       f"{m.ref} has no {what} rating and the voltage across it is unknown: "
+                       f"declare its nets' voltages and give it a rating.")
+                out.append(Finding("info", "ratings.missing", subject, msg))
+            elif group:
+                refs = tuple(m.ref for m in group)
+                if known:
+                    msg = (f"{len(refs)} parts have no {what} rating and need one: "
+                           + "; ".join(f"{m.ref} {m.need}" for m in group) + ".")
+                else:
+                    msg = (f"{', '.join(refs)} have no {what} rating and the voltage across them is "
+                           f"unknown: declare their nets' voltages and give them ratings.")
+                out.append(Finding("info", "ratings.missing", refs, msg))
+    return out
+
+
 def _two_pins(part: Part) -> tuple[str, str] | None:
     if len(part.pins) != 2:
         return None
@@ -240,7 +292,7 @@ def _value_findings(part: Part) -> list[Finding]:
 # --------------------------------------------------------------------------
 # Ratings
 # --------------------------------------------------------------------------
-def _capacitor_findings(part: Part, pin_nets: dict[PinRef, list[Net]]) -> list[Finding]:
+def _capacitor_findings(part: Part, pin_nets: dict[PinRef, list[Net]]) -> list[Finding | _Missing]:
     pins = _two_pins(part)
     if pins is None:
         return []
@@ -253,26 +305,19 @@ def _capacitor_findings(part: Part, pin_nets: dict[PinRef, list[Net]]) -> list[F
     else:
         used = ctype = stated
     frac = _TYPE_FRACTION[used]
-    out: list[Finding] = []
+    out: list[Finding | _Missing] = []
 
     if polarized:
         out.extend(_polarity(part, pin_nets))
 
     if part.rating_v is None:
         if across is None:
-            msg = (
-                f"{part.ref} has no voltage rating and the voltage across it is unknown: "
-                f"declare its nets' voltages and give it a rating."
-            )
-            out.append(Finding("info", "ratings.missing", (part.ref,), msg))
-        else:
+            out.append(_Missing("voltage", part.ref, None, None))
+        elif across.volts / frac > UNRATED_SAFE_V * (1 + _EPS):
             need = across.volts / frac
-            msg = (
-                f"{part.ref} has no voltage rating: it sees up to {_volts(across.volts)} between "
-                f"{across.net_a} and {across.net_b}, so it needs at least {_volts(need)} "
-                f"({ctype}, at most {_pct(frac)} of rating)."
-            )
-            out.append(Finding("info", "ratings.missing", (part.ref, across.net_a, across.net_b), msg))
+            out.append(_Missing("voltage", part.ref, across,
+                                f"sees up to {_volts(across.volts)} between {across.net_a} and {across.net_b}, "
+                                f"so it needs at least {_volts(need)} ({ctype}, at most {_pct(frac)} of rating)"))
         return out
     if across is None:
         return out
@@ -344,7 +389,7 @@ def _polarity(part: Part, pin_nets: dict[PinRef, list[Net]]) -> list[Finding]:
     ]
 
 
-def _resistor_findings(part: Part, pin_nets: dict[PinRef, list[Net]]) -> list[Finding]:
+def _resistor_findings(part: Part, pin_nets: dict[PinRef, list[Net]]) -> list[Finding | _Missing]:
     pins = _two_pins(part)
     if pins is None or part.value is None:
         return []
@@ -363,17 +408,7 @@ def _resistor_findings(part: Part, pin_nets: dict[PinRef, list[Net]]) -> list[Fi
             ]
         return []
     if across is None:
-        if part.rating_w is None:
-            return [
-                Finding(
-                    "info",
-                    "ratings.missing",
-                    (part.ref,),
-                    f"{part.ref} has no power rating and the voltage across it is unknown: "
-                    f"declare its nets' voltages and give it a rating.",
-                )
-            ]
-        return []
+        return [_Missing("power", part.ref, None, None)] if part.rating_w is None else []
     p = across.volts**2 / r
     subject = (part.ref, across.net_a, across.net_b)
     how = (
@@ -382,15 +417,10 @@ def _resistor_findings(part: Part, pin_nets: dict[PinRef, list[Net]]) -> list[Fi
     )
     need = p / RESISTOR_POWER_FRACTION
     if part.rating_w is None:
-        return [
-            Finding(
-                "info",
-                "ratings.missing",
-                subject,
-                f"{part.ref} has no power rating: it dissipates up to {how}, "
-                f"so it needs at least {_watts(need)} (50 % margin).",
-            )
-        ]
+        if need <= UNRATED_SAFE_W * (1 + _EPS):
+            return []
+        return [_Missing("power", part.ref, across,
+                         f"dissipates up to {how}, so it needs at least {_watts(need)} (50 % margin)")]
     rating = float(part.rating_w)
     if p > rating * (1 + _EPS):
         return [
@@ -504,8 +534,9 @@ def check_values(design: Design) -> tuple[Finding, ...]:
     head = _caution(design) + _no_voltages(design)
     per_part: list[tuple[tuple, list[Finding]]] = []
     in_series: list[Finding] = []
+    missing: list[_Missing] = []
     for part in design.parts:
-        found = []
+        found = _zero_value(part)
         for f in _value_findings(part):
             (in_series if f.check == "values.series" else found).append(f)
         if not part.dnp:
@@ -513,11 +544,24 @@ def check_values(design: Design) -> tuple[Finding, ...]:
                 found += _capacitor_findings(part, pin_nets)
             elif part.kind == "resistor":
                 found += _resistor_findings(part, pin_nets)
+        missing += [f for f in found if isinstance(f, _Missing)]
+        found = [f for f in found if isinstance(f, Finding)]
         if found:
             per_part.append((natural_key(part.ref), found))
     per_part.sort(key=lambda t: t[0])
     parts = {p.ref: p for p in design.parts}
-    return tuple(head + _series_summary(in_series, parts) + [f for _, fs in per_part for f in fs])
+    return tuple(head + _series_summary(in_series, parts) + _missing_summary(missing)
+                 + [f for _, fs in per_part for f in fs])
+
+
+def _zero_value(part: Part) -> list:
+    """A capacitor or inductor of value 0 is no part (a 0 ohm resistor is a link, and fine)."""
+    unit = _VALUE_UNIT.get(part.kind)
+    if unit not in ("F", "H") or part.value is None or part.value != 0:
+        return []
+    return [Finding("error", "values.zero", (part.ref,),
+                    f"{part.ref} is a {part.kind} of value 0, which is no part: give its real value, or "
+                    f"remove it (a link is a 0 ohm resistor).")]
 
 
 def _series_summary(found: list[Finding], parts: dict[str, Part]) -> list[Finding]:

@@ -77,6 +77,8 @@ __all__ = [
     "nearest_in_series",
     "series_for_tolerance",
     "series_values",
+    "PREFIX_EXPONENT",
+    "EXPONENT_PREFIX",
 ]
 
 # --------------------------------------------------------------------------
@@ -98,6 +100,9 @@ _PREFIX_EXP: dict[str, int] = {
 }
 #: Canonical output letter per power of ten (ASCII only).
 _EXP_PREFIX: dict[int, str] = {12: "T", 9: "G", 6: "M", 3: "k", 0: "", -3: "m", -6: "u", -9: "n", -12: "p", -15: "f"}
+#: Read-only views for other notations built on the same prefixes (the SPICE reader and writer).
+PREFIX_EXPONENT = _PREFIX_EXP
+EXPONENT_PREFIX = _EXP_PREFIX
 #: Upper-case letters people write for a lower-case prefix (for hints only).
 _PREFIX_HINT = {"N": "n", "P": "p", "U": "u"}
 

@@ -59,11 +59,13 @@ _FIT_CODES = ("fit.fits", "fit.blocked")
 class Routing:
     """What routing said: ``status`` is ``routed``, ``open`` or ``skipped``.
 
-    ``open_nets`` names the nets left unrouted when ``status == "open"``.
+    ``open`` names the nets left unrouted when ``status == "open"``. The
+    router's own result (:class:`pipeline.route.router.Routing`) has the same
+    two fields and may be passed as it is; this one stands for "skipped".
     """
 
     status: str
-    open_nets: tuple[str, ...] = ()
+    open: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -106,7 +108,7 @@ class Verdict:
                 "exit_status": self.exit_status, "reasons": [r.to_dict() for r in self.reasons]}
 
 
-def decide(findings: Sequence[Finding], fit: FitResult | None, *, routing: Routing | None = None,
+def decide(findings: Sequence[Finding], fit: FitResult | None, *, routing: Any = None,
            fit_asked: bool = True) -> Verdict:
     """The verdict of a run from its findings, its fit and (later) its routing.
 
@@ -116,8 +118,9 @@ def decide(findings: Sequence[Finding], fit: FitResult | None, *, routing: Routi
         Every finding of the run (readers, checks, stages, fit).
     fit : FitResult or None
         The placement verdict; ``None`` when no cavity was given.
-    routing : Routing, optional
-        The routing result; without it the verdict covers the placement only.
+    routing : Routing or pipeline.route.router.Routing, optional
+        Anything with ``status`` and ``open``; without it the verdict covers
+        the placement only.
     fit_asked : bool
         False for ``check``, which never fits: a missing fit is then not a
         thing to name.
@@ -134,7 +137,7 @@ def decide(findings: Sequence[Finding], fit: FitResult | None, *, routing: Routi
     reasons = [Reason(f.severity, f.check, tuple(f.subject), f.message) for f in findings
                if f.severity in ("error", "warning") and f.check not in _FIT_CODES]
     if routing is not None and routing.status == "open":
-        nets = sorted(routing.open_nets, key=natural_key)
+        nets = sorted(routing.open, key=natural_key)
         reasons.append(Reason("error", "route.open", tuple(nets),
                               f"{len(nets)} net{'s' if len(nets) != 1 else ''} could not be routed on this board."))
     reasons.sort(key=lambda r: 0 if r.blocking else 1)  # stable: the stages' order within each severity
@@ -151,7 +154,7 @@ def decide(findings: Sequence[Finding], fit: FitResult | None, *, routing: Routi
     elif reasons or (fit is None and fit_asked):
         level = "attention"
         if fit is None and fit_asked:
-            reasons.append(Reason("warning", "fit.no-cavity", (), "No cavity drawing given: the fit was not checked."))
+            reasons.append(Reason("info", "fit.no-cavity", (), "No cavity drawing given: the fit was not checked."))
         word = _LEVEL_WORDS[level] if fit is not None else "Needs attention"
         headline = f"{word}: {_things(reasons)}"
     else:
@@ -165,7 +168,7 @@ def decide(findings: Sequence[Finding], fit: FitResult | None, *, routing: Routi
                    exit_status=1 if blocks else 0)
 
 
-def _scope(fit: FitResult | None, routing: Routing | None, fit_asked: bool) -> str:
+def _scope(fit: FitResult | None, routing: Any, fit_asked: bool) -> str:
     if fit is None:
         return "connections and values only" if not fit_asked else "fit not checked"
     if routing is None:
@@ -183,7 +186,7 @@ def _things(reasons: Sequence[Reason]) -> str:
     for r in reasons:
         words = r.check.replace(".", " ").replace("-", " ")
         subj = f" ({_names(r.subject, 4)})" if r.subject else ""
-        tag = "" if r.blocking else " [warning]"
+        tag = "" if r.blocking else f" [{'note' if r.severity == 'info' else r.severity}]"
         items.append(f"{words}{subj}{tag}")
     shown = items[:_HEADLINE_ITEMS]
     rest = len(items) - len(shown)

@@ -170,3 +170,68 @@ def test_netlists_are_deterministic():
     assert netlist_json(d) == netlist_json(d) and netlist_csv(d) == netlist_csv(d)
     assert netlist_dict(d)["parts"][0]["ref"] == "R1"
     assert [p["ref"] for p in netlist_dict(d)["parts"]] == ["R1", "R2", "R10", "U1"]
+
+
+# --------------------------------------------------------------------------
+# Board features (issue 8 item 5): never ordered, still in the netlists, listed apart
+# --------------------------------------------------------------------------
+FEATURES = frozenset({"wire-pad", "test-point", "mounting-hole", "fiducial"})
+
+
+def test_library_marks_the_board_features():
+    from pipeline.library import load_library
+    # CONTRACT.md: wire pads, test points, mounting holes and fiducials are not parts to order
+    assert frozenset(k.name for k in load_library().kinds() if k.board_feature) == FEATURES
+
+
+def _feature_design():
+    one = (PinDef("1", "1", "terminal"),)
+    parts = (_part("R1"), _part("R2"),
+             Part("J1", "wire-pad", "pad-1.5mm", one), Part("J2", "wire-pad", "pad-1.5mm", one),
+             Part("TP1", "test-point", "pad-1mm", one, note="probe here"),
+             Part("H1", "mounting-hole", "hole-3.2mm", one))
+    nets = (Net("A", (PinRef("R1", "1"), PinRef("J1", "1"), PinRef("TP1", "1"))),
+            Net("B", (PinRef("R1", "2"), PinRef("R2", "1"))),
+            Net("C", (PinRef("R2", "2"), PinRef("J2", "1"), PinRef("H1", "1"))))
+    return Design(name="f", revision="", source="f.toml", parts=parts, nets=nets)
+
+
+def test_board_features_are_listed_apart_never_ordered():
+    d = _feature_design()
+    files = bom_files(d, OrderOptions(boards=5), FEATURES)
+    ordered = " ".join(r["refs"] for r in _rows(files["bom.csv"]))
+    assert ordered == "R1 R2"
+    feats = _rows(files["board-features.csv"])
+    assert [(r["ref"], r["kind"]) for r in feats] == [("H1", "mounting-hole"), ("J1", "wire-pad"),
+                                                     ("J2", "wire-pad"), ("TP1", "test-point")]
+    assert feats[3]["note"] == "probe here"
+    totals = {r["item"]: int(r["count"]) for r in _rows(files["bom-totals.csv"])}
+    assert totals["board_features_per_board"] == 4 and totals["fitted_parts_per_board"] == 2
+    # still in the netlist: every feature's pin is a connected row
+    net_refs = {r["ref"] for r in _rows(netlist_csv(d))}
+    assert {"J1", "J2", "TP1", "H1"} <= net_refs
+
+
+def test_without_feature_kinds_everything_is_ordered():
+    files = bom_files(_feature_design(), OrderOptions())
+    assert len(_rows(files["bom.csv"])) == 4 and _rows(files["board-features.csv"]) == []  # J1, J2 grouped
+
+
+def test_demo_order_loses_exactly_the_pad_lines():
+    from pathlib import Path
+
+    from pipeline.design import read_design
+    from pipeline.library import load_library
+
+    root = Path(__file__).resolve().parents[1] / "demo_project"
+    lib = load_library()
+    design, _ = read_design(root / "design.toml", lib)
+    order = OrderOptions(boards=10, spares_percent=5)
+    old = bom_lines(design, order)                 # before: pads were ordered as parts
+    new = bom_lines(design, order, FEATURES)
+    pad_lines = [l for l in old if l.kind in FEATURES]
+    assert pad_lines, "the demo has wire pads"
+    # closed form: the new order is the old one minus the pad lines, line for line
+    assert len(new) == len(old) - len(pad_lines)
+    assert sum(l.qty_order for l in new) == sum(l.qty_order for l in old) - sum(l.qty_order for l in pad_lines)
+    assert all(l.kind not in FEATURES for l in new)

@@ -66,7 +66,7 @@ def test_graph_queries(design_from, library):
     assert parts_on_net(g, "MID") == ["R1", "R2", "U1"]
     assert nets_of_part(g, "U1") == ["GND", "MID", "OUT", "VCC"]
     assert pin_count(g, "VCC") == 4
-    assert pins_on_net(g, "OUT") == [("P3", "1", "passive"), ("U1", "1", "output"), ("U1", "4", "input")]
+    assert pins_on_net(g, "OUT") == [("P3", "1", "terminal"), ("U1", "1", "out"), ("U1", "4", "in")]
     assert connected_groups(g) == [["C1", "P1", "P2", "P3", "R1", "R2", "U1"]]
     # Independent check of the bipartite structure with networkx's own algorithm.
     assert nx.is_bipartite(g)

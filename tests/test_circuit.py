@@ -594,6 +594,61 @@ def test_retune_proposal_applied_passes(build):
     assert flags == sorted(flags, reverse=True)
 
 
+def test_retune_proposals_have_no_mirror_duplicates():
+    # Unity-gain Sallen-Key low-pass: f0 and Q are symmetric in R1 and R2 (Op Amps For Everyone,
+    # ch. 16: f0 = 1 / (2 pi sqrt(R1 R2 C1 C2)), Q = sqrt(R1 R2 C1 C2) / (C2 (R1 + R2))), so
+    # swapping their values gives the same block: one proposal, not two.
+    d = sk_lowpass(10e3, 10e3, 22e-9, 10e-9, targets={"f0": "1.5kHz ±3%"})
+    rep, _ = one(d, draws=0)
+    assert len(rep.proposals) >= 3
+    seen = set()
+    for p in rep.proposals:
+        vals = dict((role, v) for role, _, v in p.values)
+        key = (frozenset((vals["R1"], vals["R2"])), vals["Cf"], vals["Cg"])
+        assert key not in seen, f"mirror proposal {p.values}"
+        seen.add(key)
+
+
+def _rc_off_centre(**kw):
+    # Hand: f0 = 1 / (2 pi 10k 15n) = 1061 Hz, inside 900 .. 1100 Hz but near its top; with 1 % and
+    # 5 % tolerances about 15 % of builds land above 1100 Hz.
+    d = design([res("R1", 10e3, 0.01), cap("C1", 15e-9, 0.05)],
+               [stage("rc", type="rc-lowpass", parts={"R": "R1", "C": "C1"}, targets={"f0": "1kHz ±10%"})])
+    return one(d, draws=10000, **kw)
+
+
+def test_retune_offered_for_a_passing_block_with_too_much_spread():
+    rep, findings = _rc_off_centre()
+    assert rep.passes is True and rep.share_out > 0.05
+    assert rep.proposals and all(p.passes and p.share_out < rep.share_out for p in rep.proposals)
+    shares = [p.share_out for p in rep.proposals]
+    assert shares == sorted(shares)
+    # Hand: the first proposal R1 = 11k gives f0 = 964.6 Hz, in the middle of the target
+    best = dict((role, v) for role, _, v in rep.proposals[0].values)
+    assert 1 / (2 * math.pi * best["R"] * best["C"]) == pytest.approx(dict(rep.proposals[0].figures)["f0"])
+    (msg,) = [f.message for f in findings if f.check == "stage.retune"]
+    assert "retune_above_share" in msg and "14." in msg
+
+
+def test_no_spread_retune_below_the_chosen_share():
+    rep, findings = _rc_off_centre(retune_above_share=0.5)
+    assert rep.passes is True and rep.proposals == ()
+    assert not [f for f in findings if f.check.startswith("stage.retune")]
+
+
+@pytest.mark.parametrize("value, ok", [("0.05", True), ("0", True), ("1.5", False), ('"1%"', False)])
+def test_project_key_retune_above_share(tmp_path, value, ok):
+    from pipeline.errors import ProjectError
+    from pipeline.project import load_project
+    (tmp_path / "project.toml").write_text(f'[project]\ndesign = "d.toml"\n\n[analysis]\n'
+                                           f'retune_above_share = {value}\n', encoding="utf-8")
+    if ok:
+        assert load_project(tmp_path).retune_above_share == float(value)
+    else:
+        with pytest.raises(ProjectError, match="retune_above_share"):
+            load_project(tmp_path)
+
+
 def test_retune_reports_none_when_targets_are_unreachable():
     # A unity-gain Sallen-Key needs Cf/Cg >= 4 Q^2 (REFERENCES.md section 5): Q = 8 needs a ratio
     # of 256, but a decade either way around 10 nF / 10 nF reaches 100 at most (Q <= 5).
@@ -775,7 +830,7 @@ def test_block_sections_svg_is_wellformed_and_escaped():
     svg = root.find(".//{http://www.w3.org/2000/svg}svg")
     assert svg is not None
     texts = " ".join(t.text or "" for t in svg.iter("{http://www.w3.org/2000/svg}text"))
-    assert "f0 " in texts and "-3 dB " in texts and "a<b>&c" in texts
+    assert "f0 " in texts and "\u22123 dB " in texts and "a<b>&c" in texts
     assert root.find(".//table[@class='stage-retune']") is not None   # it misses: proposals shown
     # a stage that is not a filter has no plot
     d2 = design([res("R1", 1e3), res("R2", 1e3)],

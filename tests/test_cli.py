@@ -158,7 +158,7 @@ def test_packages_and_kinds_listings():
     r = CliRunner().invoke(main, ["packages", "SOIC-9"])
     assert r.exit_code == 2 and "SOIC-9" in r.stderr
     r = _invoke("kinds", "comparator-dual")
-    assert "OUTA" in r.output and "open-collector" in r.output
+    assert "OUTA" in r.output and "open-drain" in r.output
 
 
 def test_readme_test_command_is_what_ci_runs():

@@ -92,10 +92,69 @@ def test_resistor_between_two_declared_rails():
 
 
 def test_resistor_missing_rating_info_with_need():
-    # Hand: 5 V across 1k -> 25 mW; with 50 % margin it needs 50 mW.
-    f = only(check_values(design([res("R1", 1e3)], {"VCC": 5.0}, across("R1"))), "ratings")
+    # Hand: 5 V across 330 ohm -> 25 / 330 = 75.8 mW; with 50 % margin it needs 152 mW, more than
+    # the 50 mW of the smallest common chip resistor (0201, 1/20 W; common practice, from memory).
+    f = only(check_values(design([res("R1", 330.0)], {"VCC": 5.0}, across("R1"))), "ratings")
     assert [(x.severity, x.check) for x in f] == [("info", "ratings.missing")]
-    assert "25 mW" in f[0].message and "50 mW" in f[0].message
+    assert "75.8 mW" in f[0].message and "152 mW" in f[0].message
+
+
+@pytest.mark.parametrize("ohms, noted", [
+    (1e3, False),     # hand: 25 mW, needs 50 mW: exactly 1/20 W, safe on any chip resistor
+    (10e3, False),    # hand: 2.5 mW, needs 5 mW
+    (470.0, True),    # hand: 53.2 mW, needs 106 mW > 50 mW
+])
+def test_unrated_resistor_noted_only_when_it_needs_more_than_the_smallest_rating(ohms, noted):
+    f = only(check_values(design([res("R1", ohms)], {"VCC": 5.0}, across("R1"))), "ratings")
+    assert [x.check for x in f] == (["ratings.missing"] if noted else [])
+
+
+def test_board_with_every_voltage_declared_gets_no_rating_notes_for_safe_parts():
+    # Issue 10 item 7: a 3.3 V board of 10k pull-ups and 100 nF decoupling, no ratings given.
+    # Hand: 3.3^2 / 10k = 1.09 mW (needs 2.2 mW <= 50 mW); class II ceramic needs 6.6 V > 6.3 V,
+    # so the capacitors are noted, once, listing both.
+    parts = [res("R1", 10e3), res("R2", 10e3), cap("C1", 100e-9), cap("C2", 100e-9)]
+    wiring = {"V33": [("R1", "1"), ("R2", "1"), ("C1", "1"), ("C2", "1")],
+              "GND": [("R1", "2"), ("R2", "2"), ("C1", "2"), ("C2", "2")]}
+    f = only(check_values(design(parts, {"V33": 3.3}, wiring)), "ratings")
+    assert [(x.check, x.subject) for x in f] == [("ratings.missing", ("C1", "C2"))]
+    assert "C1 sees up to 3.3 V" in f[0].message and "6.6 V" in f[0].message
+
+
+def test_missing_ratings_are_grouped_per_kind():
+    # No voltages at all: one note for the resistors, one for the capacitors, each listing its parts.
+    parts = [res("R1", 1e3), res("R2", 2e3), res("R10", 3e3), cap("C1", 1e-9), cap("C2", 1e-9)]
+    wiring = {"A": [(p.ref, "1") for p in parts], "B": [(p.ref, "2") for p in parts]}
+    f = [x for x in check_values(design(parts, {}, wiring)) if x.check == "ratings.missing"]
+    assert [x.subject for x in f] == [("R1", "R2", "R10"), ("C1", "C2")]
+    assert f[0].message.startswith("R1, R2, R10 have no power rating")
+
+
+@pytest.mark.parametrize("kind, unit_value, error", [
+    ("capacitor", 0.0, True), ("capacitor-polarized", 0.0, True), ("inductor", 0.0, True),
+    ("resistor", 0.0, False),        # a 0 ohm link is a part
+    ("capacitor", 1e-9, False),
+])
+def test_defect_09_zero_capacitor(kind, unit_value, error):
+    # Issue 13 item 9: a capacitor or inductor of value 0 is no part: an error finding.
+    p = Part("X1", kind, "0603", POL if kind == "capacitor-polarized" else TWO, value=unit_value)
+    f = check_values(design([p], {}, {"A": [("X1", "1")], "B": [("X1", "2")]}))
+    assert [x.severity for x in f if x.check == "values.zero"] == (["error"] if error else [])
+
+
+def test_defect_09_zero_capacitor_through_the_cli(tmp_path):
+    # The same through `snugboard check`: exit 1 and the finding named.
+    from click.testing import CliRunner
+
+    from pipeline.cli import main
+    d = tmp_path / "d.toml"
+    d.write_text('[design]\nname = "z"\n\n[parts]\nC1 = { kind = "capacitor", package = "0603", value = "0" }\n'
+                 'R1 = { kind = "resistor", package = "0603", value = "1k" }\n\n'
+                 '[nets]\nA = ["C1.1", "R1.1"]\nB = ["C1.2", "R1.2"]\n', encoding="utf-8")
+    r = CliRunner().invoke(main, ["check", str(d), "--json"])
+    assert r.exit_code == 1, r.output
+    import json
+    assert [f["subject"] for f in json.loads(r.stdout)["findings"] if f["check"] == "values.zero"] == [["C1"]]
 
 
 def test_unknown_voltage():

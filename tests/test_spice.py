@@ -311,6 +311,24 @@ def test_include_error_names_the_included_file(tmp_path):
     assert exc.value.file == "sub/x.lib" and exc.value.line == 3
 
 
+def test_inputs_list_every_file_read(tmp_path):
+    # Design.inputs: the design, each include (nested, .lib sections, through a link), the parts
+    # map; resolved, each once, sorted. Outputs refuse to write over any of them.
+    _write(tmp_path, {
+        "main.cir": "t\n.include sub/a.cir\n.lib models.lib typ\n.include link.cir\nR1 a 0 1k\n",
+        "sub/a.cir": ".include ../b.cir\n.include ../b.cir\n",
+        "b.cir": "* a comment only\n",
+        "models.lib": ".lib typ\n.model dx D\n.endl\n",
+        "real.cir": "C1 a 0 1n\n",
+        "parts.toml": "[defaults]\nR = { package = \"0805\" }\n",
+    })
+    (tmp_path / "link.cir").symlink_to(tmp_path / "real.cir")
+    d, _ = _read(tmp_path, parts_map="parts.toml")
+    root = tmp_path.resolve()
+    want = sorted(str(root / n) for n in ("main.cir", "sub/a.cir", "b.cir", "models.lib", "real.cir", "parts.toml"))
+    assert list(d.inputs) == want
+
+
 def test_lib_section(tmp_path):
     _write(tmp_path, {
         "main.cir": "t\n.lib models.lib typ\nR1 a 0 1k\nD1 a 0 dx\n",

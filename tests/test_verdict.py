@@ -8,6 +8,7 @@ import re
 import xml.etree.ElementTree as ET
 from html.parser import HTMLParser
 from pathlib import Path
+from types import SimpleNamespace
 
 import pytest
 from click.testing import CliRunner
@@ -140,6 +141,8 @@ def test_check_command_uses_the_same_rule(tmp_path):
     (Routing("routed"), "ready", 0, "placed and routed"),
     (Routing("skipped"), "ready", 0, "placement only: routing switched off"),
     (Routing("open", ("SIG", "GND")), "attention", 1, "placed; routing left nets open"),
+    # the router's own result carries the same two fields and is taken as it is
+    (SimpleNamespace(status="open", open=("SIG", "GND"), tracks=()), "attention", 1, "placed; routing left nets open"),
 ])
 def test_routing_result_joins_the_verdict(routing, level, status, scope):
     fit = _fit_of(fits=True)

@@ -190,31 +190,37 @@ def loop_polygon(ring: Ring, what: str, name: str, tol: float) -> Polygon:
 
 
 def one_outline(polys: list[tuple[Polygon, Ring]], what: str, name: str) -> Polygon:
-    """The largest loop is the outline; loops wholly inside it are holes."""
+    """The largest loop is the outline; loops wholly inside it are holes.
+
+    Refuses a loop outside or across the outline and holes that overlap or
+    nest, naming the first such loop in order of decreasing area. Cost
+    ``O(n log n)`` in the number of loops: containment is one vectorised
+    test against the prepared outline and overlapping holes are found with
+    a sort-tile-recursive tree (``shapely.STRtree``) instead of comparing
+    every pair.
+    """
     order = sorted(range(len(polys)), key=lambda i: (-polys[i][0].area, i))
     outer, outer_ring = polys[order[0]]
-    holes: list[tuple[Polygon, Ring]] = []
-    for i in order[1:]:
-        p, ring = polys[i]
-        at = (float(ring.pts[0][0]), float(ring.pts[0][1]))
-        if not outer.contains_properly(p):
-            if outer.intersects(p):
-                reason = (f"this loop crosses or touches the {what} of {outer_ring.label}: the layer "
-                          f"must hold exactly one outline (loops wholly inside it are holes)")
-            else:
-                reason = (f"this is a second, separate {what} (the first is {outer_ring.label}): "
-                          f"the layer must hold exactly one outline (loops wholly inside it are "
-                          f"holes)")
-            raise CavityError(name, reason, entity=ring.label, at=at)
-        for q, qring in holes:
-            if q.intersects(p):
-                raise CavityError(
-                    name, f"this loop lies inside or across the hole {qring.label} of the {what}: "
-                    "several outlines (holes may not overlap or nest)", entity=ring.label, at=at)
-        holes.append((p, ring))
-    if not holes:
+    inner = [polys[i] for i in order[1:]]
+    if not inner:
         return outer
-    result = Polygon(outer.exterior.coords, [h.exterior.coords for h, _ in holes])
+    geoms = np.array([p for p, _ in inner], dtype=object)
+    shapely.prepare(outer)
+    outside = np.flatnonzero(~shapely.contains_properly(outer, geoms))
+    first_out = int(outside[0]) if len(outside) else len(inner)
+    later, earlier = _overlapping_holes(geoms)
+    first_overlap = int(later) if later is not None else len(inner)
+    if first_out < len(inner) and first_out <= first_overlap:
+        p, ring = inner[first_out]
+        raise CavityError(name, _outside_reason(outer, outer_ring, p, what), entity=ring.label,
+                          at=(float(ring.pts[0][0]), float(ring.pts[0][1])))
+    if later is not None:
+        ring, qring = inner[later][1], inner[earlier][1]
+        raise CavityError(
+            name, f"this loop lies inside or across the hole {qring.label} of the {what}: "
+            "several outlines (holes may not overlap or nest)", entity=ring.label,
+            at=(float(ring.pts[0][0]), float(ring.pts[0][1])))
+    result = Polygon(outer.exterior.coords, [h.exterior.coords for h, _ in inner])
     if not result.is_valid:  # holes are pairwise disjoint and inside: should not happen
         reason = shapely.is_valid_reason(result)
         m = _LOC.search(reason)
@@ -222,6 +228,26 @@ def one_outline(polys: list[tuple[Polygon, Ring]], what: str, name: str) -> Poly
                           entity=outer_ring.label,
                           at=(float(m.group(1)), float(m.group(2))) if m else None)
     return result
+
+
+def _outside_reason(outer: Polygon, outer_ring: Ring, p: Polygon, what: str) -> str:
+    if outer.intersects(p):
+        return (f"this loop crosses or touches the {what} of {outer_ring.label}: the layer "
+                f"must hold exactly one outline (loops wholly inside it are holes)")
+    return (f"this is a second, separate {what} (the first is {outer_ring.label}): "
+            f"the layer must hold exactly one outline (loops wholly inside it are holes)")
+
+
+def _overlapping_holes(geoms: np.ndarray) -> tuple[int | None, int | None]:
+    """``(later, earlier)``: the first hole (in order) that meets an earlier one, and the first it meets."""
+    tree = shapely.STRtree(geoms)
+    a, b = tree.query(geoms, predicate="intersects")
+    mask = b < a
+    if not mask.any():
+        return None, None
+    a, b = a[mask], b[mask]
+    later = int(a.min())
+    return later, int(b[a == later].min())
 
 
 def to_mm(geom, k: float):

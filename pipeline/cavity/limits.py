@@ -10,9 +10,12 @@ from __future__ import annotations
 from dataclasses import dataclass, fields, replace
 from typing import Any, Mapping
 
+from pipeline.spice.limits import limit_hint
+
 __all__ = [
     "JOIN_TOL_MM", "REL_TOL", "MAX_FILE_BYTES", "MAX_ENTITIES", "MAX_VERTICES", "MAX_BLOCK_DEPTH",
-    "MIN_PLAUSIBLE_AREA_MM2", "MAX_PLAUSIBLE_SIDE_MM", "Limits",
+    "MAX_COORDINATE_MM",
+    "MIN_PLAUSIBLE_AREA_MM2", "MAX_PLAUSIBLE_SIDE_MM", "Limits", "DEFAULTS",
 ]
 
 #: End points of loose pieces closer than this (mm) are joined.
@@ -21,11 +24,19 @@ JOIN_TOL_MM = 0.01
 REL_TOL = 2e-5
 #: Largest file read (bytes); project.toml ``[limits] dxf_bytes``.
 MAX_FILE_BYTES = 64 * 1024 * 1024
-#: Largest count of entities read, after expanding block references;
-#: project.toml ``[limits] dxf_entities``.
-MAX_ENTITIES = 250_000
+#: Largest count of entities read: records in the ENTITIES and BLOCKS
+#: sections of the raw file, and entities after expanding block references;
+#: project.toml ``[limits] dxf_entities``. Building a drawing costs about
+#: 0.2 ms per entity in ezdxf, so this bounds a read to tens of seconds.
+MAX_ENTITIES = 100_000
 #: Largest count of flattened vertices on role layers; ``[limits] dxf_vertices``.
 MAX_VERTICES = 2_000_000
+#: Largest distance of a drawing point from the drawing's origin, mm
+#: (10 km): beyond it the drawing is refused, naming the entity, before
+#: its coordinates can overflow an area or lose the 0.01 mm joining
+#: tolerance to rounding (a double carries about 16 digits);
+#: ``[limits] cavity_coordinate_mm``.
+MAX_COORDINATE_MM = 10_000_000
 #: Deepest nesting of block references followed.
 MAX_BLOCK_DEPTH = 16
 #: Outline area below which the outline is implausibly small, mm^2.
@@ -49,6 +60,7 @@ class Limits:
     dxf_bytes: int = MAX_FILE_BYTES
     dxf_entities: int = MAX_ENTITIES
     dxf_vertices: int = MAX_VERTICES
+    cavity_coordinate_mm: int = MAX_COORDINATE_MM
 
     @classmethod
     def from_table(cls, table: Mapping[str, Any] | None) -> "Limits":
@@ -62,5 +74,9 @@ class Limits:
 
     @staticmethod
     def how_to_raise(key: str) -> str:
-        """The words every limit message ends with."""
-        return f"raise it with {key} = ... in project.toml [limits] if the drawing really needs more"
+        """The words every limit message ends with (the one wording, :func:`pipeline.spice.limits.limit_hint`)."""
+        return limit_hint(key)
+
+
+#: ``[limits]`` key in project.toml -> default value.
+DEFAULTS = {f.name: f.default for f in fields(Limits)}

@@ -24,7 +24,7 @@ from pipeline.model import Cavity, DepthZone, Finding
 from .chain import Ring, chain, fmt_pt, loop_polygon, one_outline, to_mm
 from .convert import CURVES, MeshPolyline, Piece, convert_leaf
 from .limits import JOIN_TOL_MM, MAX_PLAUSIBLE_SIDE_MM, MIN_PLAUSIBLE_AREA_MM2, Limits
-from .load import LoaderLog, load_dxf, short
+from .load import LoaderLog, load_dxf, printable, short
 from .roles import LayerRoles, parse_layer_map
 from .units import drawing_units, unit_code
 from .walk import Walker
@@ -97,7 +97,7 @@ def read_cavity(
     >>> cavity.outline.area, cavity.unit_name, findings
     (800.0, 'mm', [])
     """
-    name = display_name if display_name is not None else str(path)
+    name = printable(display_name if display_name is not None else str(path))
     findings: list[Finding] = []
     roles = parse_layer_map(layer_map, source=settings_file)
     default_code = _check_settings(depth_mm, chord_tol_mm, default_units, settings_file)
@@ -132,7 +132,7 @@ class _Collected:
     depth_of: dict[tuple[str, str], float] = field(default_factory=dict)
     ignored_layers: dict[str, int] = field(default_factory=dict)
     ignored_types: Counter = field(default_factory=Counter)
-    degenerate: list[str] = field(default_factory=list)
+    degenerate: list[tuple[str, str]] = field(default_factory=list)  # (role, label)
     not_flat: list[str] = field(default_factory=list)
 
 
@@ -141,28 +141,29 @@ def _read(path: Path, name: str, roles: LayerRoles, default_code: int, depth_mm:
           limits: Limits) -> Cavity:
     if progress:
         progress("reading the cavity drawing", 0.0)
-    doc = load_dxf(path, name, findings, limits)
-    unit_name, k = drawing_units(_declared_units(doc), default_code, name, findings)
+    doc, scan = load_dxf(path, name, findings, limits)
+    declared = _declared_units(doc) if scan is None or scan.has_header else None
+    unit_name, k = drawing_units(declared, default_code, name, findings)
     walker = Walker(doc, name, findings, limits)
-    found = _collect_pieces(walker, roles, chord_tol_mm / k, JOIN_TOL_MM / k, limits, progress)
+    found = _collect_pieces(walker, roles, chord_tol_mm / k, k, limits, progress)
     findings += _skipped_findings(found, walker, name)
     if progress:
         progress("joining outlines", 0.92)
-    cavity_rings = _loops(found, "CAVITY", JOIN_TOL_MM / k, name, k)
+    cavity_rings = _loops(found, "CAVITY", name, k)
     if not cavity_rings:
         raise _no_outline(doc, found, roles, name, findings)
     outline = one_outline([(p, r) for p, r, _ in cavity_rings], "cavity outline", name)
-    board_rings = _loops(found, "BOARD", JOIN_TOL_MM / k, name, k)
+    board_rings = _loops(found, "BOARD", name, k)
     board = one_outline([(p, r) for p, r, _ in board_rings], "board outline", name) \
         if board_rings else None
     floor = Polygon(outline.exterior.coords)
     keepouts = []
-    for p, ring, _layer in _loops(found, "KEEPOUT", JOIN_TOL_MM / k, name, k):
+    for p, ring, _layer in _loops(found, "KEEPOUT", name, k):
         if not p.intersects(floor):
             findings.append(_outside_finding(name, "keep-out", ring))
         keepouts.append(to_mm(p, k))
     zones = []
-    for p, ring, layer in _loops(found, "DEPTH", JOIN_TOL_MM / k, name, k):
+    for p, ring, layer in _loops(found, "DEPTH", name, k):
         if not p.intersects(floor):
             findings.append(_outside_finding(name, f"depth zone on layer {layer}", ring))
         zones.append(DepthZone(to_mm(p, k), found.depth_of[("DEPTH", layer)], layer))
@@ -186,10 +187,15 @@ def _declared_units(doc) -> int:
         return -1
 
 
-def _collect_pieces(walker: Walker, roles: LayerRoles, tol: float, join_tol: float, limits: Limits,
+def _collect_pieces(walker: Walker, roles: LayerRoles, tol: float, k: float, limits: Limits,
                     progress: Progress | None) -> _Collected:
-    """Convert every entity on a role layer to a piece, grouped by (role, layer), in drawing order."""
+    """Convert every entity on a role layer to a piece, grouped by (role, layer), in drawing order.
+
+    ``tol`` is the chord tolerance in drawing units, ``k`` the millimetres
+    per drawing unit.
+    """
     name = walker.name
+    join_tol = JOIN_TOL_MM / k
     msp = walker.doc.modelspace()
     total = max(len(msp), 1)
     found = _Collected()
@@ -217,18 +223,17 @@ def _collect_pieces(walker: Walker, roles: LayerRoles, tol: float, join_tol: flo
         except MeshPolyline:
             found.ignored_types[("POLYLINE mesh", layer)] += 1
             continue
-        if not np.isfinite(pts3).all():
-            raise CavityError(name, "this entity has non-finite coordinates", entity=leaf.label)
+        _check_coordinates(pts3, k, limits, name, leaf.label)
         n_vertices += len(pts3)
         if n_vertices > limits.dxf_vertices:
             raise CavityError(name, f"the role layers flatten to more than {limits.dxf_vertices} "
-                              "vertices: simplify the drawing or check its units",
-                              entity=leaf.label)
+                              "vertices: simplify the drawing or check its units; "
+                              f"{Limits.how_to_raise('dxf_vertices')}", entity=leaf.label)
         if len(pts3) and float(np.ptp(pts3[:, 2])) > max(tol, join_tol):
             found.not_flat.append(leaf.label)
         xy = np.ascontiguousarray(pts3[:, :2])
         if len(xy) < 2 or float(np.max(np.ptp(xy, axis=0))) <= join_tol:
-            found.degenerate.append(leaf.label)
+            found.degenerate.append((role[0], leaf.label))
             continue
         if not closed and float(np.hypot(*(xy[0] - xy[-1]))) <= join_tol and len(xy) > 2:
             xy, closed = xy[:-1], True
@@ -237,6 +242,23 @@ def _collect_pieces(walker: Walker, roles: LayerRoles, tol: float, join_tol: flo
             found.depth_of[key] = float(role[1])
         found.groups.setdefault(key, []).append(Piece(xy, closed, leaf.label, order))
     return found
+
+
+def _check_coordinates(pts3: np.ndarray, k: float, limits: Limits, name: str, label: str) -> None:
+    """Refuse an entity with a non-finite point or one beyond ``limits.cavity_coordinate_mm``."""
+    if not np.isfinite(pts3).all():
+        raise CavityError(name, "this entity has non-finite coordinates", entity=label)
+    if not len(pts3):
+        return
+    far = int(np.argmax(np.abs(pts3[:, :2]).max(axis=1)))
+    reach = float(np.abs(pts3[far, :2]).max()) * k
+    if reach > limits.cavity_coordinate_mm:
+        raise CavityError(
+            name, f"this entity reaches {reach:.3g} mm from the drawing's origin, beyond the "
+            f"{limits.cavity_coordinate_mm:g} mm snugboard reads: wrong units or a damaged file are "
+            f"the usual causes; move the cavity near the origin; "
+            f"{Limits.how_to_raise('cavity_coordinate_mm')}", entity=label,
+            at=(float(pts3[far, 0]), float(pts3[far, 1])))
 
 
 def _skipped_findings(found: _Collected, walker: Walker, name: str) -> list[Finding]:
@@ -258,10 +280,10 @@ def _skipped_findings(found: _Collected, walker: Walker, name: str) -> list[Find
             f"Entities not read on role layers ({desc}): only lines, arcs, circles, ellipses, "
             "splines and polylines make outlines."))
     if found.degenerate:
+        labels = [label for _, label in found.degenerate]
         out.append(Finding(
-            "warning", "cavity.degenerate", tuple(found.degenerate[:20]),
-            f"{len(found.degenerate)} entity(ies) of zero size were skipped (first: "
-            f"{found.degenerate[0]})."))
+            "warning", "cavity.degenerate", tuple(labels[:20]),
+            f"{len(labels)} entity(ies) of zero size were skipped (first: {labels[0]})."))
     if found.not_flat:
         out.append(Finding(
             "warning", "cavity.not-flat", tuple(found.not_flat[:20]),
@@ -274,9 +296,9 @@ _WHAT = {"CAVITY": "cavity outline", "BOARD": "board outline", "KEEPOUT": "keep-
          "DEPTH": "depth zone on layer {}"}
 
 
-def _loops(found: _Collected, role: str, join_tol: float, name: str,
-           k: float) -> list[tuple[Polygon, Ring, str]]:
+def _loops(found: _Collected, role: str, name: str, k: float) -> list[tuple[Polygon, Ring, str]]:
     """Every loop of ``role``'s layers as (polygon in drawing units, ring, layer), layers in drawing order."""
+    join_tol = JOIN_TOL_MM / k
     out = []
     for key in sorted((kk for kk in found.groups if kk[0] == role),
                       key=lambda kk: found.groups[kk][0].order):
@@ -289,10 +311,16 @@ def _loops(found: _Collected, role: str, join_tol: float, name: str,
 def _no_outline(doc, found: _Collected, roles: LayerRoles, name: str,
                 findings: list[Finding]) -> CavityError:
     """The error for a drawing without a closed outline on the cavity layer(s), saying what it has."""
-    layer_names = sorted({str(la.dxf.name) for la in doc.layers}, key=str.casefold)
+    cav_names = ("layer(s) " + ", ".join(roles.cavity)) if roles.cavity else "layer CAVITY"
+    zero = [label for role, label in found.degenerate if role == "CAVITY"]
+    if zero:
+        return CavityError(
+            name, f"no closed outline on {cav_names}: its {len(zero)} entity(ies) are all of zero size "
+            f"({'; '.join(zero[:4])}{'; ...' if len(zero) > 4 else ''}): draw the free floor area as "
+            "one closed outline of non-zero size", entity=zero[0])
+    layer_names = sorted({printable(str(la.dxf.name)) for la in doc.layers}, key=str.casefold)
     used = sorted(set(found.ignored_layers) | {kk[1] for kk in found.groups}, key=str.casefold)
     where = ("no entities" if not used else "entities on layers " + ", ".join(used))
-    cav_names = ("layer(s) " + ", ".join(roles.cavity)) if roles.cavity else "layer CAVITY"
     damaged = ("; the file is damaged and was read with the recovering loader"
                if any(f.check == "cavity.repaired" for f in findings) else "")
     return CavityError(

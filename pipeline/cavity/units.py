@@ -11,7 +11,7 @@ from __future__ import annotations
 from pipeline.errors import CavityError
 from pipeline.model import Finding
 
-__all__ = ["MM_PER_UNIT", "UNIT_NAMES", "unit_code", "drawing_units"]
+__all__ = ["MM_PER_UNIT", "UNIT_NAMES", "unit_code", "drawing_units", "cavity_units"]
 
 _INCH = 25.4  # mm, exact (international inch, 1959)
 _US_SURVEY_FOOT = 1200.0 / 3937.0 * 1000.0  # mm (US survey foot definition)
@@ -110,3 +110,16 @@ def drawing_units(declared: int | None, default_code: int, name: str,
             f"{UNIT_NAMES[default_code]} from [cavity] units: save it with known units."))
         code = default_code
     return UNIT_NAMES[code], MM_PER_UNIT[code]
+
+
+def cavity_units(cavity) -> tuple[int, float]:
+    """``($INSUNITS code, mm per unit)`` of the drawing a :class:`~pipeline.model.Cavity` was read from.
+
+    Examples
+    --------
+    >>> from types import SimpleNamespace
+    >>> cavity_units(SimpleNamespace(unit_name="inch", mm_per_unit=25.4))
+    (1, 25.4)
+    """
+    codes = [c for c, n in UNIT_NAMES.items() if n == cavity.unit_name]
+    return (codes[0], MM_PER_UNIT[codes[0]]) if codes else (4, 1.0)

@@ -19,6 +19,7 @@ from pipeline.errors import CavityError
 from pipeline.model import Finding
 
 from .limits import MAX_BLOCK_DEPTH, Limits
+from .load import printable
 
 __all__ = ["Leaf", "Walker"]
 
@@ -54,7 +55,7 @@ class Walker:
         if self.count > self.limit:
             raise CavityError(self.name, f"the drawing has more than {self.limit} entities "
                               "(block references expanded): save a drawing with only the cavity "
-                              "layers")
+                              f"layers; {Limits.how_to_raise('dxf_entities')}")
 
     def leaves(self, entities, matrix, inherit: str | None, stack: tuple[str, ...],
                via: str) -> Iterator[Leaf]:
@@ -62,7 +63,7 @@ class Walker:
             self._bump()
             try:
                 t = e.dxftype()
-                layer = str(e.dxf.get("layer", "0") or "0")
+                layer = printable(str(e.dxf.get("layer", "0") or "0"))
             except Exception:
                 continue
             if inherit is not None and layer == "0":
@@ -70,12 +71,12 @@ class Walker:
             if t == "INSERT":
                 yield from self._insert(e, matrix, layer, stack, via)
                 continue
-            label = f"{t} #{e.dxf.get('handle', '?')}{via} on layer {layer}"
+            label = f"{t} #{printable(e.dxf.get('handle', '?'))}{via} on layer {layer}"
             yield Leaf(e, matrix, layer, label)
 
     def _insert(self, ins, matrix, layer: str, stack: tuple[str, ...], via: str) -> Iterator[Leaf]:
-        bname = str(ins.dxf.get("name", ""))
-        handle = ins.dxf.get("handle", "?")
+        raw_name = str(ins.dxf.get("name", ""))
+        bname, handle = printable(raw_name), printable(ins.dxf.get("handle", "?"))
         if len(stack) >= MAX_BLOCK_DEPTH:
             self.notes[f"block references nested deeper than {MAX_BLOCK_DEPTH} levels were not "
                        "followed"] += 1
@@ -83,7 +84,7 @@ class Walker:
         if bname.casefold() in stack:
             self.notes[f"block {bname!r} refers to itself; the reference was not followed"] += 1
             return
-        block = self.doc.blocks.get(bname) if bname else None
+        block = self.doc.blocks.get(raw_name) if raw_name else None
         if block is None:
             self.notes[f"INSERT #{handle} names a missing block {bname!r}"] += 1
             return

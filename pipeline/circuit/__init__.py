@@ -66,7 +66,7 @@ stage.no-targets          info      a stage declaring no targets
 from __future__ import annotations
 
 from ..model import BlockReport, FigureReport, Proposal, Response, RolePart, Target
-from .analysis import analyse_blocks
+from .analysis import RETUNE_ABOVE_SHARE, analyse_blocks
 from .blocktype import BlockType, FigureSpec, RoleSpec
 from .declare import DEFAULT_SERIES, DEFAULT_TOLERANCE
 from .spread import block_samples
@@ -89,4 +89,5 @@ __all__ = [
     "BLOCK_TYPES",
     "DEFAULT_TOLERANCE",
     "DEFAULT_SERIES",
+    "RETUNE_ABOVE_SHARE",
 ]

@@ -19,9 +19,13 @@ from .declare import DEFAULT_TOLERANCE, Decl, declare_all
 from .retune import retune
 from .spread import corner_matrix, eval_matrix, mc_matrix, response, stats
 
-__all__ = ["analyse_blocks"]
+__all__ = ["analyse_blocks", "RETUNE_ABOVE_SHARE"]
 
 Progress = Callable[[str, float], None]
+
+#: Default share of Monte Carlo builds out of target above which a block that passes at nominal
+#: values is retuned too (project key ``[analysis] retune_above_share``).
+RETUNE_ABOVE_SHARE = 0.01
 
 
 def _figures(d: Decl, nominal: dict[str, float], draws: int, seed: int
@@ -65,8 +69,14 @@ def _role_parts(d: Decl) -> tuple[RolePart, ...]:
     return tuple(parts)
 
 
-def analyse_one(d: Decl, draws: int, seed: int) -> tuple[BlockReport, list[Finding]]:
-    """The report and findings of one declared block."""
+def analyse_one(d: Decl, draws: int, seed: int, retune_above_share: float = RETUNE_ABOVE_SHARE
+                ) -> tuple[BlockReport, list[Finding]]:
+    """The report and findings of one declared block.
+
+    A block that misses a target is retuned; so is one that meets every
+    target at nominal values but whose Monte Carlo share of builds out of
+    target is above ``retune_above_share`` (fraction).
+    """
     nominal = {k: float(v) for k, v in eval_matrix(d, d.values).items()}
     figs, any_bad = _figures(d, nominal, draws, seed)
     block_pass = all(f.passes for f in figs if f.passes is not None) if d.targets else None
@@ -74,13 +84,15 @@ def analyse_one(d: Decl, draws: int, seed: int) -> tuple[BlockReport, list[Findi
     proposals: tuple[Proposal, ...] = ()
     if block_pass is False:
         proposals = retune(d, nominal, draws, seed)
+    elif block_pass and share_all is not None and share_all > retune_above_share:
+        proposals = retune(d, nominal, draws, seed, above_share=share_all)
     report = BlockReport(
         name=d.name, type=d.btype.name, key=d.table.key, parts=_role_parts(d), settings=d.settings,
         options=d.options, figures=tuple(figs), draws=draws, seed=seed, share_out=share_all,
         passes=block_pass, response=response(d, nominal), series=d.series, proposals=proposals,
         assumptions=d.assumptions, note=d.note,
     )
-    return report, _findings(d, report)
+    return report, _findings(d, report, retune_above_share)
 
 
 # --------------------------------------------------------------------------
@@ -132,11 +144,20 @@ def _target_findings(d: Decl, rep: BlockReport, title: str, subj: tuple[str, ...
     return out
 
 
-def _retune_findings(d: Decl, rep: BlockReport, title: str, subj: tuple[str, ...]) -> list[Finding]:
-    if rep.passes is not False:
-        return []
+def _retune_findings(d: Decl, rep: BlockReport, title: str, subj: tuple[str, ...],
+                     above_share: float) -> list[Finding]:
     ser = dict(d.series)
     which = f"{ser['resistor']} resistors and {ser['capacitor']} capacitors"
+    if rep.passes and rep.proposals:       # retuned for its spread
+        p = rep.proposals[0]
+        vals = ", ".join(f"{ref} = {part_value_text(v, kind)}" for (r, ref, v), kind
+                         in zip(p.values, d.kinds) if ref in p.changed)
+        return [Finding("info", "stage.retune", subj,
+                        f"{title}: {format_share(rep.share_out)} of builds miss a target, more than the "
+                        f"{format_share(above_share)} allowed ([analysis] retune_above_share); with "
+                        f"{which}, {vals} meets every target and {format_share(p.share_out)} of builds miss.")]
+    if rep.passes is not False:
+        return []
     good = [p for p in rep.proposals if p.passes]
     if not good:
         return [Finding("warning", "stage.retune-none", subj,
@@ -152,14 +173,14 @@ def _retune_findings(d: Decl, rep: BlockReport, title: str, subj: tuple[str, ...
                     f"target ({figs}).")]
 
 
-def _findings(d: Decl, rep: BlockReport) -> list[Finding]:
+def _findings(d: Decl, rep: BlockReport, above_share: float) -> list[Finding]:
     subj = (d.table.key, *sorted(p.ref for _, p in d.roles))
     title = f"Stage '{d.name}'"
     out = [_summary(d, rep, title, subj)]
     out += [Finding("info", "stage.assumption", subj, f"{title}: {a}.") for a in d.assumptions]
     out += d.btype.checks(d, rep, title, subj)
     out += _target_findings(d, rep, title, subj)
-    out += _retune_findings(d, rep, title, subj)
+    out += _retune_findings(d, rep, title, subj, above_share)
     return out
 
 
@@ -181,7 +202,7 @@ def _assumed_tolerances(decls: list[Decl]) -> list[Finding]:
 
 
 def analyse_blocks(design: Design, *, draws: int = 10000, seed: int = 1,
-                   progress: Progress | None = None
+                   retune_above_share: float = RETUNE_ABOVE_SHARE, progress: Progress | None = None
                    ) -> tuple[tuple[BlockReport, ...], tuple[Finding, ...]]:
     """Analyse every ``[stages.NAME]`` table of ``design``.
 
@@ -194,6 +215,9 @@ def analyse_blocks(design: Design, *, draws: int = 10000, seed: int = 1,
     seed : int
         Seed of ``numpy.random.default_rng``; each block starts from it, so
         a block's spread does not depend on the other blocks.
+    retune_above_share : float
+        A block meeting its targets at nominal values is retuned when more
+        than this share (fraction) of its Monte Carlo builds miss one.
     progress : callable, optional
         ``progress(message, fraction)`` after each block.
 
@@ -227,7 +251,7 @@ def analyse_blocks(design: Design, *, draws: int = 10000, seed: int = 1,
     reports: list[BlockReport] = []
     findings: list[Finding] = []
     for i, d in enumerate(decls):
-        rep, fs = analyse_one(d, draws, seed)
+        rep, fs = analyse_one(d, draws, seed, retune_above_share)
         reports.append(rep)
         findings += fs
         if progress is not None:

@@ -100,7 +100,7 @@ def _far_net(design: Design, pin_nets: _PinNets, ref: str, other: str) -> Net | 
 def _amp_supply(design: Design, pin_nets: _PinNets, ref: str) -> float | None:
     volts = []
     for p in design.part(ref).pins:
-        if p.role == "power-in":
+        if p.role == "supply":
             nets = pin_nets.get(PinRef(ref, p.number))
             v = net_volts(nets[0]) if nets else None
             if v is not None:

@@ -22,6 +22,9 @@ __all__ = ["retune", "MAX_PROPOSALS"]
 _BOUNDS = {"resistor": (1.0, 100e6), "capacitor": (1e-12, 1e-3)}
 #: Proposals kept per block.
 MAX_PROPOSALS = 5
+#: Candidates meeting every target whose Monte Carlo share is computed when a passing block is
+#: retuned for its spread.
+SPREAD_POOL = 40
 _HOLD_BAND = 0.2          # untargeted figures pull toward their present value (+-20 %)
 
 
@@ -130,7 +133,40 @@ def _share_out(d: Decl, row: np.ndarray, mc: np.ndarray | None) -> float | None:
     return float(np.mean(bad))
 
 
-def retune(d: Decl, nominal: Mapping[str, float], draws: int, seed: int) -> tuple[Proposal, ...]:
+def _spread_order(d: Decl, cand: np.ndarray, order: np.ndarray, ok: np.ndarray, mc: np.ndarray | None,
+                  present_share: float) -> np.ndarray:
+    """Candidates meeting every target, ranked by their Monte Carlo share out (then by rank),
+    keeping those below ``present_share``."""
+    passing = order[ok[order]]
+    pool = passing[_distinct(d, cand[passing], SPREAD_POOL)]
+    shares = [(_share_out(d, cand[i], mc), pos) for pos, i in enumerate(pool)]
+    better = sorted((s, pos) for s, pos in shares if s is not None and s < present_share)
+    return np.array([pool[pos] for _, pos in better[:MAX_PROPOSALS]], dtype=int)
+
+
+def _mirror_key(d: Decl, row: np.ndarray, figs: Mapping[str, np.ndarray], j: int) -> tuple:
+    """Candidates with the same values per part kind and the same figures are mirrors
+    (equal-role parts swapped, e.g. R1 and R2 of a unity-gain Sallen-Key): one proposal."""
+    values = tuple(sorted((k, float(f"{v:.9g}")) for k, v in zip(d.kinds, row)))
+    return values, tuple((k, float(f"{float(v[j]):.9g}")) for k, v in sorted(figs.items()))
+
+
+def _distinct(d: Decl, rows: np.ndarray, limit: int) -> list[int]:
+    """Indices of the first ``limit`` rows that are not mirrors of an earlier row."""
+    figs = eval_matrix(d, rows)
+    seen, keep = set(), []
+    for j, row in enumerate(rows):
+        key = _mirror_key(d, row, figs, j)
+        if key not in seen:
+            seen.add(key)
+            keep.append(j)
+            if len(keep) == limit:
+                break
+    return keep
+
+
+def retune(d: Decl, nominal: Mapping[str, float], draws: int, seed: int, *,
+           above_share: float | None = None) -> tuple[Proposal, ...]:
     """Preferred-value combinations ranked by combined error on every target.
 
     Method: each R or C may take the values of its series from a tenth to
@@ -147,9 +183,16 @@ def retune(d: Decl, nominal: Mapping[str, float], draws: int, seed: int) -> tupl
     (a +-20 % band counts 1) and every value toward its present one
     (0.01 (ln ratio)^2, so a similar design is preferred to a rescaled one).
 
+    Mirror candidates (equal-role parts swapped, same figures) count once.
+    With ``above_share`` (a block that passes at nominal values but whose
+    Monte Carlo share of builds out of target exceeds it) the best
+    :data:`SPREAD_POOL` candidates meeting every target are re-ranked by
+    their own share out, and only those below the present share are kept.
+
     Cost: O(rounds x pairs x grid^2) figure evaluations, about
     4 x 15 x 193^2 for a six-part E96 block (a quarter of a second); an
-    E96 x E12 unity-gain Sallen-Key takes some 20 ms.
+    E96 x E12 unity-gain Sallen-Key takes some 20 ms; the spread re-ranking
+    adds SPREAD_POOL x draws evaluations.
     """
     grids, wides = _grids(d)
     rank = _Ranker(d, _holds(d, nominal))
@@ -158,10 +201,15 @@ def retune(d: Decl, nominal: Mapping[str, float], draws: int, seed: int) -> tupl
     if not len(cand):
         return ()
     order, err, ok, _ = rank(cand)
-    top = order[:MAX_PROPOSALS]
-    rows = cand[top]
-    figs = eval_matrix(d, rows)
     mc = mc_matrix(d, draws, seed) if draws > 0 else None
+    if above_share is None:
+        top = order[_distinct(d, cand[order], MAX_PROPOSALS)]
+    else:
+        top = _spread_order(d, cand, order, ok, mc, above_share)
+    rows = cand[top]
+    if not len(rows):
+        return ()
+    figs = eval_matrix(d, rows)
     return tuple(Proposal(
         values=tuple((r, d.ref(r), float(x)) for r, x in zip(d.numeric, row)),
         figures=tuple((f.name, float(figs[f.name][j])) for f in d.btype.figures if f.name in figs),

@@ -1,4 +1,5 @@
-"""The ordering bill of materials: ``bom.csv``, ``bom-unfitted.csv``, ``bom-totals.csv``.
+"""The ordering bill of materials: ``bom.csv``, ``bom-unfitted.csv``, ``bom-totals.csv``,
+and the board features apart: ``board-features.csv``.
 
 Entry points: :func:`bom_lines` (the grouped lines, as values) and
 :func:`bom_files` (the three CSV files as bytes).
@@ -17,7 +18,10 @@ Order quantity per line, with ``n = qty x boards``::
 
 computed in exact rational arithmetic (no float rounding at the ceiling).
 Unfitted (``dnp``) parts are never ordered; they are listed in
-``bom-unfitted.csv``. Every cell is made inert for spreadsheets
+``bom-unfitted.csv``. Board features (parts whose kind is one of
+``feature_kinds``: wire pads, test points, mounting holes, fiducials) are
+copper or holes of the board itself, so they are never ordered either; they
+are listed in ``board-features.csv`` (and stay in the netlists). Every cell is made inert for spreadsheets
 (:mod:`pipeline.export.csvcell`).
 
 Columns of ``bom.csv`` (README.md documents them): ``line``, ``qty``,
@@ -31,7 +35,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from fractions import Fraction
 from math import ceil
-from typing import Iterable
+from typing import Collection, Iterable
 
 from ..order import natural_key
 from ..model import Design, OrderOptions, Part
@@ -45,6 +49,7 @@ BOM_COLUMNS = (
     "manufacturer", "mpn", "supplier", "order_code", "note", "boards", "spares", "qty_order",
 )
 UNFITTED_COLUMNS = ("ref", "kind", "value", "package", "note")
+FEATURE_COLUMNS = ("ref", "kind", "package", "note")
 
 
 @dataclass(frozen=True)
@@ -99,11 +104,15 @@ def _group_key(p: Part) -> tuple:
             p.rating_v, p.rating_w, p.manufacturer, p.mpn, _extra(p, "supplier"), _extra(p, "order_code"))
 
 
-def bom_lines(design: Design, order: OrderOptions) -> tuple[BomLine, ...]:
-    """Group the fitted parts of ``design`` into order lines (see module docstring)."""
+def bom_lines(design: Design, order: OrderOptions,
+              feature_kinds: Collection[str] = ()) -> tuple[BomLine, ...]:
+    """Group the fitted parts of ``design`` into order lines (see module docstring).
+
+    Parts of a kind in ``feature_kinds`` are board features and are left out.
+    """
     groups: dict[tuple, list[Part]] = {}
     for p in design.parts:
-        if not p.dnp:
+        if not p.dnp and p.kind not in feature_kinds:
             groups.setdefault(_group_key(p), []).append(p)
     lines = []
     for parts in groups.values():
@@ -130,14 +139,23 @@ def _rows(lines: Iterable[BomLine]):
                l.manufacturer, l.mpn, l.supplier, l.order_code, l.note, l.boards, l.spares, l.qty_order)
 
 
-def bom_files(design: Design, order: OrderOptions) -> dict[str, bytes]:
-    """``bom.csv``, ``bom-unfitted.csv`` and ``bom-totals.csv`` as bytes."""
-    lines = bom_lines(design, order)
+def bom_files(design: Design, order: OrderOptions,
+              feature_kinds: Collection[str] = ()) -> dict[str, bytes]:
+    """``bom.csv``, ``bom-unfitted.csv``, ``bom-totals.csv`` and ``board-features.csv`` as bytes.
+
+    ``feature_kinds`` names the kinds that are board features (the library's
+    kinds marked ``board_feature``); their fitted parts go to
+    ``board-features.csv`` instead of the order.
+    """
+    lines = bom_lines(design, order, feature_kinds)
     unfitted = sorted((p for p in design.parts if p.dnp), key=lambda p: natural_key(p.ref))
+    features = sorted((p for p in design.parts if not p.dnp and p.kind in feature_kinds),
+                      key=lambda p: natural_key(p.ref))
     totals = [
         ("lines", len(lines)),
         ("fitted_parts_per_board", sum(l.qty for l in lines)),
         ("unfitted_parts_per_board", len(unfitted)),
+        ("board_features_per_board", len(features)),
         ("boards", order.boards),
         ("parts_to_order", sum(l.qty_order for l in lines)),
         ("spares_to_order", sum(l.spares for l in lines)),
@@ -147,4 +165,6 @@ def bom_files(design: Design, order: OrderOptions) -> dict[str, bytes]:
         "bom-unfitted.csv": csv_bytes(UNFITTED_COLUMNS,
                                       ((p.ref, p.kind, _value_text(p), p.package, p.note) for p in unfitted)),
         "bom-totals.csv": csv_bytes(("item", "count"), totals),
+        "board-features.csv": csv_bytes(FEATURE_COLUMNS,
+                                        ((p.ref, p.kind, p.package, p.note) for p in features)),
     }

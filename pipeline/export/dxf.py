@@ -4,11 +4,17 @@ Entry point: :func:`board_outline_dxf`.
 
 What the file holds
 -------------------
-- Units: ``$INSUNITS = 4`` (millimetres) and ``$MEASUREMENT = 1`` (metric),
-  so a layout program imports the outline at true size. Coordinates are
-  millimetres in the cavity drawing's frame, unchanged.
+- Units: millimetres by default, ``$INSUNITS = 4`` and ``$MEASUREMENT = 1``
+  (metric), so a layout program imports the outline at true size.
+  Coordinates are millimetres in the cavity drawing's frame, unchanged.
+  With ``units`` (project.toml ``[board] outline_units = "drawing"``) the
+  file is written in the cavity drawing's own units instead: coordinates
+  divided by the millimetres per unit, ``$INSUNITS`` that unit's code and
+  ``$MEASUREMENT`` 0 (imperial) for inch-based units, so a user can copy
+  the outline back into the drawing it came from.
 - One closed ``LWPOLYLINE`` for the outline's exterior, counter-clockwise,
-  on layer ``SNUG-BOARD-EDGE``. A board with cut-outs (a polygon with holes)
+  on layer ``BOARD-PROFILE`` (our name; "profile" is the board outline's
+  name in the Gerber format's file functions, an open standard). A board with cut-outs (a polygon with holes)
   gets one further closed ``LWPOLYLINE`` per hole on the same layer,
   clockwise, so that a layout program reading "all closed shapes on the edge
   layer" sees the board and its cut-outs. Nothing else is drawn.
@@ -45,16 +51,23 @@ from contextlib import contextmanager
 from datetime import datetime, timezone
 from typing import Iterator
 
-import ezdxf
 import shapely
-from ezdxf.tools.juliandate import juliandate
 from shapely.geometry import MultiPolygon, Polygon
 from shapely.geometry.polygon import orient
 
+from pipeline.dxflib import import_ezdxf
+
+ezdxf = import_ezdxf()
+from ezdxf.tools.juliandate import juliandate  # noqa: E402  (after the guarded import)
+
 __all__ = ["board_outline_dxf", "EDGE_LAYER"]
 
-#: Layer of the board edge (our own name).
-EDGE_LAYER = "SNUG-BOARD-EDGE"
+#: Layer of the board edge (our own name; "profile" as in the Gerber format's
+#: file function for the board outline).
+EDGE_LAYER = "BOARD-PROFILE"
+#: ``$INSUNITS`` codes of inch-based units (DXF reference): written with
+#: ``$MEASUREMENT`` 0 (imperial); every other unit with 1 (metric).
+_IMPERIAL = frozenset({1, 2, 3, 8, 9, 10, 21, 22, 23, 24})
 
 #: Header variables holding dates (DXF header reference: Julian date.fraction).
 _DATE_VARS = ("$TDCREATE", "$TDUCREATE", "$TDUPDATE", "$TDUUPDATE")
@@ -79,8 +92,9 @@ def document_text(doc) -> str:
     return stream.getvalue()
 
 
-def board_outline_dxf(outline: Polygon, *, timestamp: int | None = None) -> bytes:
-    """Write a board outline as a millimetre DXF drawing.
+def board_outline_dxf(outline: Polygon, *, timestamp: int | None = None,
+                      units: tuple[int, float] = (4, 1.0)) -> bytes:
+    """Write a board outline as a DXF drawing, in millimetres unless told otherwise.
 
     Parameters
     ----------
@@ -92,6 +106,9 @@ def board_outline_dxf(outline: Polygon, *, timestamp: int | None = None) -> byte
         update date. Default: ``SOURCE_DATE_EPOCH`` from the environment when
         it is set to a whole number, else ezdxf's fixed date (2000-01-01).
         Never the clock.
+    units : (int, float)
+        ``($INSUNITS code, millimetres per unit)`` to write in; default
+        millimetres ``(4, 1.0)``.
 
     Returns
     -------
@@ -112,15 +129,18 @@ def board_outline_dxf(outline: Polygon, *, timestamp: int | None = None) -> byte
     >>> data = board_outline_dxf(box(0, 0, 30, 20))
     >>> data == board_outline_dxf(box(0, 0, 30, 20))
     True
-    >>> b"SNUG-BOARD-EDGE" in data and b"LWPOLYLINE" in data
+    >>> b"BOARD-PROFILE" in data and b"LWPOLYLINE" in data
     True
     """
     poly = _one_polygon(outline)
     stamp = _timestamp(timestamp)
+    code, mm_per_unit = units
     poly = orient(poly, sign=1.0)  # exterior CCW, holes CW
+    if mm_per_unit != 1.0:
+        poly = shapely.transform(poly, lambda c: c / mm_per_unit)
     with fixed_metadata():
-        doc = ezdxf.new("R2013", units=ezdxf.units.MM)
-        doc.header["$MEASUREMENT"] = 1  # metric
+        doc = ezdxf.new("R2013", units=code)
+        doc.header["$MEASUREMENT"] = 0 if code in _IMPERIAL else 1
         doc.header["$LUNITS"] = 2  # decimal lengths
         doc.layers.add(EDGE_LAYER, color=7)
         msp = doc.modelspace()

@@ -25,8 +25,8 @@ What the file holds
 
 * Ports are named by **pin number** (what a layout program matches to a
   footprint's pads); the pin's name is the port property ``pin_name``.
-  Directions follow the pin roles: ``input`` and ``power-in`` INPUT;
-  ``output``, ``open-collector`` and ``power-out`` OUTPUT; others INOUT.
+  Directions follow the pin roles: ``in`` and ``supply`` INPUT;
+  ``out``, ``open-drain`` and ``supply-out`` OUTPUT; others INOUT.
 * Instances carry the properties ``value`` (the design's text, else
   :func:`pipeline.values.format_value` of the number), ``kind``, ``package``, ``mpn``,
   ``manufacturer``, and ``dnp`` ``"true"`` for unfitted parts (which stay
@@ -68,8 +68,8 @@ _PARTS_LIB = "SNUG_PARTS"
 _DESIGN_LIB = "SNUG_DESIGN"
 _ID_RE = re.compile(r"^[A-Za-z][A-Za-z0-9_]*$")
 _MAX_ID = 200
-_DIRECTION = {"input": "INPUT", "power-in": "INPUT", "output": "OUTPUT", "open-collector": "OUTPUT",
-              "power-out": "OUTPUT"}
+_DIRECTION = {"in": "INPUT", "supply": "INPUT", "out": "OUTPUT", "open-drain": "OUTPUT",
+              "supply-out": "OUTPUT"}
 _MAX_EPOCH = 253402300799  # 9999-12-31 23:59:59 UTC
 
 
@@ -191,62 +191,15 @@ def edif_netlist(design: Design, *, timestamp: int | None = None) -> bytes:
     >>> "(portRef (rename &1 \\"1\\")" in text, "(portRef &1 (instanceRef R1))" in text
     (False, True)
     """
-    cells: dict[str, dict[str, PinDef]] = {}
-    cell_info: dict[str, tuple[str, str]] = {}
-    for part in design.parts:
-        cname = _cell_name(part)
-        pins = cells.setdefault(cname, {})
-        cell_info[cname] = (part.kind, part.package)
-        for p in part.pins:
-            pins.setdefault(p.number, p)
-    # Pins a net names that the part does not list still need a port.
-    by_ref = {p.ref: p for p in design.parts}
-    for net in design.nets:
-        for pr in net.pins:
-            part = by_ref.get(pr.ref)
-            if part is not None:
-                cells[_cell_name(part)].setdefault(pr.pin, PinDef(pr.pin, pr.pin, "passive"))
-
+    cells, cell_info = _cells(design)
     top_original = design.name or "design"
     cell_scope = _Scope(list(cells) + [top_original])
     inst_scope = _Scope(p.ref for p in design.parts)
-    net_scope = _Scope(n.name for n in design.nets)
     port_scopes = {c: _Scope(pins) for c, pins in cells.items()}
     top = cell_scope.ref(top_original)
     top_def = cell_scope.define(top_original)
-
-    library: list = ["library", _PARTS_LIB, ["edifLevel", "0"], ["technology", ["numberDefinition"]]]
-    for cname in sorted(cells, key=natural_key):
-        kind, package = cell_info[cname]
-        scope = port_scopes[cname]
-        interface: list = ["interface"]
-        for number in sorted(cells[cname], key=natural_key):
-            pin = cells[cname][number]
-            interface.append(["port", scope.define(number), ["direction", _DIRECTION.get(pin.role, "INOUT")],
-                              ["property", "pin_name", ["string", edif_string(pin.name)]]])
-        library.append(["cell", cell_scope.define(cname), ["cellType", "GENERIC"],
-                        ["view", "netlist", ["viewType", "NETLIST"], interface],
-                        ["property", "kind", ["string", edif_string(kind)]],
-                        ["property", "package", ["string", edif_string(package)]]])
-
-    contents: list = ["contents"]
-    for part in design.parts:
-        inst: list = ["instance", inst_scope.define(part.ref),
-                      ["viewRef", "netlist", ["cellRef", cell_scope.ref(_cell_name(part)), ["libraryRef", _PARTS_LIB]]]]
-        for k, v in (("value", _value(part)), ("kind", part.kind), ("package", part.package),
-                     ("manufacturer", part.manufacturer), ("mpn", part.mpn), ("dnp", "true" if part.dnp else "")):
-            if v:
-                inst.append(["property", k, ["string", edif_string(v)]])
-        contents.append(inst)
-    for net in design.nets:
-        joined: list = ["joined"]
-        for pr in net.pins:
-            part = by_ref.get(pr.ref)
-            if part is None:
-                continue
-            joined.append(["portRef", port_scopes[_cell_name(part)].ref(pr.pin), ["instanceRef", inst_scope.ref(pr.ref)]])
-        contents.append(["net", net_scope.define(net.name), joined])
-
+    library = _parts_library(cells, cell_info, cell_scope, port_scopes)
+    contents = _contents(design, cell_scope, inst_scope, port_scopes)
     tree = [
         "edif", top_def,
         ["edifVersion", "2", "0", "0"],
@@ -262,23 +215,123 @@ def edif_netlist(design: Design, *, timestamp: int | None = None) -> bytes:
     return (_render(tree, 0) + "\n").encode("ascii")
 
 
-def _flat(node: list | str) -> str:
-    if isinstance(node, str):
-        return node
-    return "(" + " ".join(_flat(c) for c in node) + ")"
+def _cells(design: Design) -> tuple[dict[str, dict[str, PinDef]], dict[str, tuple[str, str]]]:
+    """One cell per kind and package: its ports by pin number, and its (kind, package)."""
+    cells: dict[str, dict[str, PinDef]] = {}
+    cell_info: dict[str, tuple[str, str]] = {}
+    for part in design.parts:
+        cname = _cell_name(part)
+        pins = cells.setdefault(cname, {})
+        cell_info[cname] = (part.kind, part.package)
+        for p in part.pins:
+            pins.setdefault(p.number, p)
+    # Pins a net names that the part does not list still need a port.
+    by_ref = {p.ref: p for p in design.parts}
+    for net in design.nets:
+        for pr in net.pins:
+            part = by_ref.get(pr.ref)
+            if part is not None:
+                cells[_cell_name(part)].setdefault(pr.pin, PinDef(pr.pin, pr.pin, "passive"))
+    return cells, cell_info
 
 
-def _render(node: list | str, indent: int) -> str:
-    """Pretty-print an S-expression: short lists on one line, others one child a line."""
-    if isinstance(node, str):
-        return node
-    one = _flat(node)
-    if len(one) + indent <= 100 or not any(isinstance(c, list) for c in node):
-        return one
-    head = [c for c in node if isinstance(c, str)]
-    pad = " " * (indent + 2)
-    lines = ["(" + " ".join(head)]
-    for c in node:
-        if isinstance(c, list):
-            lines.append(pad + _render(c, indent + 2))
-    return "\n".join(lines) + ")"
+def _parts_library(cells: dict[str, dict[str, PinDef]], cell_info: dict[str, tuple[str, str]], cell_scope: _Scope,
+                   port_scopes: dict[str, _Scope]) -> list:
+    """The ``SNUG_PARTS`` library: each cell's ports (direction from the pin role) and properties."""
+    library: list = ["library", _PARTS_LIB, ["edifLevel", "0"], ["technology", ["numberDefinition"]]]
+    for cname in sorted(cells, key=natural_key):
+        kind, package = cell_info[cname]
+        scope = port_scopes[cname]
+        interface: list = ["interface"]
+        for number in sorted(cells[cname], key=natural_key):
+            pin = cells[cname][number]
+            interface.append(["port", scope.define(number), ["direction", _DIRECTION.get(pin.role, "INOUT")],
+                              ["property", "pin_name", ["string", edif_string(pin.name)]]])
+        library.append(["cell", cell_scope.define(cname), ["cellType", "GENERIC"],
+                        ["view", "netlist", ["viewType", "NETLIST"], interface],
+                        ["property", "kind", ["string", edif_string(kind)]],
+                        ["property", "package", ["string", edif_string(package)]]])
+    return library
+
+
+def _contents(design: Design, cell_scope: _Scope, inst_scope: _Scope, port_scopes: dict[str, _Scope]) -> list:
+    """The board cell's contents: one instance per part, one net per net (a dict lookup per pin)."""
+    contents: list = ["contents"]
+    ports_of = {p.ref: port_scopes[_cell_name(p)] for p in design.parts}
+    for part in design.parts:
+        inst: list = ["instance", inst_scope.define(part.ref),
+                      ["viewRef", "netlist", ["cellRef", cell_scope.ref(_cell_name(part)), ["libraryRef", _PARTS_LIB]]]]
+        for k, v in (("value", _value(part)), ("kind", part.kind), ("package", part.package),
+                     ("manufacturer", part.manufacturer), ("mpn", part.mpn), ("dnp", "true" if part.dnp else "")):
+            if v:
+                inst.append(["property", k, ["string", edif_string(v)]])
+        contents.append(inst)
+    net_scope = _Scope(n.name for n in design.nets)
+    for net in design.nets:
+        joined: list = ["joined"]
+        for pr in net.pins:
+            scope = ports_of.get(pr.ref)
+            if scope is not None:
+                joined.append(["portRef", scope.ref(pr.pin), ["instanceRef", inst_scope.ref(pr.ref)]])
+        contents.append(["net", net_scope.define(net.name), joined])
+    return contents
+
+
+#: Widest line, indent included, that a list is written on as a whole.
+_WIDTH = 100
+
+
+def _one_line(tree: list) -> dict[int, str]:
+    """The one-line form of every list short enough to be written whole, by ``id``.
+
+    One post-order pass with an explicit stack: a list's form is joined
+    from its children's, so each character is built once per enclosing
+    short list (at most ``_WIDTH`` characters each). A longer list maps to
+    ``""``; its length is all :func:`_render` needs of it.
+    """
+    flat: dict[int, str] = {}
+    stack: list[tuple[list, bool]] = [(tree, False)]
+    while stack:
+        node, done = stack.pop()
+        if not done:
+            stack.append((node, True))
+            stack.extend((c, False) for c in node if isinstance(c, list))
+            continue
+        parts = [c if isinstance(c, str) else flat[id(c)] for c in node]
+        long = any(not isinstance(c, str) and not flat[id(c)] for c in node)
+        size = 2 + max(len(parts) - 1, 0) + sum(len(x) for x in parts)
+        flat[id(node)] = "" if long or size > _WIDTH else "(" + " ".join(parts) + ")"
+    return flat
+
+
+def _render(tree: list, indent: int) -> str:
+    """Pretty-print an S-expression: short lists on one line, others one child a line.
+
+    A list is written on one line when that line, indent included, is at
+    most ``_WIDTH`` characters (or it holds no list); otherwise its words
+    open the line and each child list follows on a line of its own, indented
+    two more. Cost: linear in the output (:func:`_one_line`), no recursion.
+    """
+    flat = _one_line(tree)
+    out: list[str] = []
+    stack: list[tuple[bool, list | str, int]] = [(False, tree, indent)]
+    while stack:
+        is_text, node, level = stack.pop()
+        if is_text or isinstance(node, str):
+            out.append(node)  # type: ignore[arg-type]
+            continue
+        one = flat[id(node)]
+        if one and len(one) + level <= _WIDTH:
+            out.append(one)
+            continue
+        kids = [c for c in node if isinstance(c, list)]
+        if not kids:
+            out.append("(" + " ".join(node) + ")")
+            continue
+        pad = "\n" + " " * (level + 2)
+        seq: list[tuple[bool, list | str, int]] = [(True, "(" + " ".join(c for c in node if isinstance(c, str)), 0)]
+        for c in kids:
+            seq += [(True, pad, 0), (False, c, level + 2)]
+        seq.append((True, ")", 0))
+        stack.extend(reversed(seq))
+    return "".join(out)

@@ -3,7 +3,8 @@
 Entry point: :func:`order_section`.
 
 It renders what the BOM export wrote (:func:`pipeline.export.bom.bom_files`),
-cell for cell, so the page and the CSV files can never disagree: the parts
+cell for cell (leaving out only columns empty on every row), so the page
+and the CSV files cannot disagree: the parts
 lines of ``bom.csv``, every other ``bom-*.csv`` (board features, unfitted
 parts) as a table of its own, the totals of ``bom-totals.csv``, and the
 bare board as a fabricator quotes it: outline size (the outline's bounding
@@ -55,12 +56,16 @@ def order_section(files: Mapping[str, bytes], fit: FitResult | None, board: Boar
         if not rows:
             out.append('<p class="quiet">None.</p>')
             continue
-        out.append(f'<table class="order" data-file="{escape(name)}">{_table(head, rows)}</table>')
+        out.append(f'<div class="wide"><table class="order" data-file="{escape(name)}">{_table(head, rows)}</table></div>')
     out.append("</section>")
     return "".join(out)
 
 
 def _table(head: list[str], rows: list[list[str]]) -> str:
+    """Header and body; a column empty on every row (no part number given anywhere, say) is left out."""
+    keep = [i for i in range(len(head)) if any(i < len(r) and r[i] for r in rows)]
+    head = [head[i] for i in keep]
+    rows = [[r[i] if i < len(r) else "" for i in keep] for r in rows]
     num = [h in _NUMERIC for h in head]
     th = "".join(f'<th{" class=num" if n else ""}>{escape(h)}</th>' for h, n in zip(head, num))
     body = "".join(

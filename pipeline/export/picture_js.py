@@ -72,10 +72,17 @@ SCRIPT = r"""
     tip.style.left = (ev.clientX + 14) + "px";
     tip.style.top = (ev.clientY + 14) + "px";
   }
+  var partOf = {};
   Array.prototype.forEach.call(svg.querySelectorAll("g.part"), function (part) {
-    part.addEventListener("mouseenter", function (ev) { showTip(part, ev); });
-    part.addEventListener("mousemove", moveTip);
-    part.addEventListener("mouseleave", function () { tip.hidden = true; });
+    partOf[part.getAttribute("data-ref")] = part;
+  });
+  // a part and its label (drawn above every courtyard, or at the end of a leader) show the same facts
+  Array.prototype.forEach.call(svg.querySelectorAll("g.part, g.label"), function (el) {
+    var part = partOf[el.getAttribute("data-ref")];
+    if (!part) { return; }
+    el.addEventListener("mouseenter", function (ev) { showTip(part, ev); });
+    el.addEventListener("mousemove", moveTip);
+    el.addEventListener("mouseleave", function () { tip.hidden = true; });
   });
 
   var picked = null;

@@ -3,28 +3,36 @@
 Entry point: :func:`report_html`.
 
 One self-contained HTML5 file: inline CSS, the fit picture inlined as SVG,
-no scripts, no external fonts, images or style sheets, so it opens from a
-mail attachment or a USB stick and prints as it shows. In order:
+one inline script of our own (:mod:`pipeline.export.picture_js`), no
+external fonts, images, style sheets or scripts; a content security policy
+allows nothing from the network and no script but that one (by its SHA-256
+hash). It opens from a mail attachment or a USB stick and prints as it
+shows. In order:
 
-1. the verdict banner ("Fits", "Does not fit", or "No cavity given" when
-   no fit was run) with the count of findings per severity;
-2. the area figures in mm^2: usable region, courtyard sum, the estimated
+1. the verdict (:mod:`pipeline.verdict`): its headline, the exit status,
+   the count of findings per severity and each reason, blocking ones first;
+2. the order (:mod:`pipeline.export.order_view`): the board as a
+   fabricator quotes it and the BOM files' lines, cell for cell;
+3. the area figures in mm^2: usable region, courtyard sum, the estimated
    board area (low / expected / high, with the estimate's rule), how much
    of the region the expected area takes, and the board outline's area;
-3. why it does not fit (``blocked_by``) and the parts not placed;
-4. the picture;
-5. the placements (ref in natural order, centre x / y in mm in the
+4. why it does not fit (``blocked_by``) and the parts not placed;
+5. the picture, with layer switches, zoom buttons and net buttons that the
+   script shows (hidden, and the picture fully drawn, when scripts are
+   blocked);
+6. the placements (ref in natural order, centre x / y in mm in the
    drawing's frame, rotation, side);
-6. every finding, grouped by severity (error, warning, info), in the
+7. every finding, grouped by severity (error, warning, info), in the
    order given; the fit's own warnings are added when the caller did not
    already pass them;
-7. the extra sections, each a heading and an HTML fragment.
+8. the extra sections, each a heading and an HTML fragment.
 
 Escaping: the extra sections' fragments are trusted HTML made by
 snugboard's own modules and are inserted as given; the SVG is snugboard's
 own output. Everything else (title, refs, finding text, blocked-by reasons,
-section headings) may come from the user and is HTML-escaped; characters
-HTML cannot hold are replaced by U+FFFD.
+section headings, BOM cells) may come from the user and is escaped by
+:func:`pipeline.export.markup.escape`; the script puts user text on the
+page only through ``textContent``.
 
 The output is deterministic: no clock, no random ids, fixed number
 formatting.
@@ -79,10 +87,14 @@ nav a { color: inherit; margin-right: .9rem; }
 .tip { position: fixed; z-index: 10; pointer-events: none; background: #fff; border: 1px solid var(--ink);
        border-radius: .25rem; padding: .3rem .5rem; font-size: .85rem; max-width: 22rem; }
 figure svg { touch-action: none; }
+.wide { overflow-x: auto; }
+table.order { font-size: .85rem; }
+table.order td:nth-child(3) { white-space: nowrap; }
 svg.hide-zones .depth-zones, svg.hide-zones .cavity-floor, svg.hide-keepouts .keepouts,
-svg.hide-courtyards .placements, svg.hide-labels .labels { display: none; }
-svg .net-hit path { fill: #f2c200; fill-opacity: .9; stroke: #6b5200; }
-svg.net-active .part:not(.net-hit) { opacity: .35; }
+svg.hide-courtyards .placements, svg.hide-courtyards .pads, svg.hide-labels .labels { display: none; }
+svg .net-hit path, svg path.pad.net-hit { fill: #f2c200; fill-opacity: .9; stroke: #6b5200; }
+svg path.pad.net-hit { stroke-width: .08; }
+svg.net-active .part:not(.net-hit), svg.net-active .pad:not(.net-hit) { opacity: .35; }
 table { border-collapse: collapse; width: 100%; font-size: .92rem; margin: .3rem 0 .8rem; }
 th, td { text-align: left; padding: .3rem .55rem; border-bottom: 1px solid var(--rule); vertical-align: top; }
 th { background: var(--band); font-weight: 600; }

@@ -77,14 +77,18 @@ from __future__ import annotations
 import json
 import posixpath
 import re
+from dataclasses import dataclass, field
 from decimal import Decimal
 from typing import Any, Iterable
 
 from ..model import Design, Part, PinDef
+from ..values import EXPONENT_PREFIX
 
 __all__ = ["spice_netlist", "spice_number"]
 
-_SCALE = {12: "T", 9: "G", 6: "Meg", 3: "k", 0: "", -3: "m", -6: "u", -9: "n", -12: "p", -15: "f"}
+#: Power of ten -> the letter written: the SI prefixes of pipeline.values, with ``Meg`` for
+#: mega because SPICE reads ``M`` as milli (ngspice manual, "Conventions").
+_SCALE = {e: ("Meg" if p == "M" else p) for e, p in EXPONENT_PREFIX.items()}
 _BARE_RE = re.compile(r"^[A-Za-z0-9_.+\-]+$")
 _CONNECTORS = ("wire-pad", "test-point", "header")
 _PASSIVE_LETTER = {"resistor": "R", "capacitor": "C", "capacitor-polarized": "C", "inductor": "L"}
@@ -105,7 +109,7 @@ _OPAMP_GAIN = "1e6"
 _R_OUT = "1"  # series output resistance of behavioural outputs, ohm
 _R_SINK = "10"  # on-resistance of an open-collector comparator output, ohm
 _R_REG = "10m"
-_DRIVEN_ROLES = ("power-out", "output")
+_DRIVEN_ROLES = ("supply-out", "out")
 
 
 # --------------------------------------------------------------------------
@@ -213,15 +217,6 @@ def _ascii(text: str) -> str:
     return "".join(ch if (ch.isascii() and ch.isprintable()) else "?" for ch in text)
 
 
-def _category(part: Part, design: Design) -> str:
-    for k in design.kinds:
-        if k.name == part.kind:
-            return k.category
-    if part.kind in _CONNECTORS:
-        return "connector"
-    return ""
-
-
 def _pin_named(part: Part, *names: str) -> PinDef | None:
     for p in part.pins:
         if p.name.upper() in names:
@@ -248,96 +243,115 @@ def _is_regulator(kind: str, pins: Iterable[PinDef]) -> bool:
     return ("ldo" in kind or "regulator" in kind) and {"IN", "OUT", "GND"} <= names
 
 
+@dataclass
+class _Ports:
+    """A stub's ports (named after the kind's pins) and the ones its body drives or loads."""
+
+    pins: tuple[PinDef, ...]
+    names: list[str]
+    by_name: dict[str, str]
+    used: set[str] = field(default_factory=set)
+
+    def get(self, *names: str) -> str | None:
+        return next((self.by_name[n] for n in names if n in self.by_name), None)
+
+    @property
+    def vpos(self) -> str | None:
+        return self.get("V+", "VCC", "VDD")
+
+    @property
+    def vneg(self) -> str | None:
+        return self.get("V-", "GND", "VEE", "VSS")
+
+    def sections(self, pattern: str, inputs: tuple[str, str]) -> list[tuple[str, str, str, str, PinDef]]:
+        """``(suffix, out, in1, in2, out pin)`` for each output pin matching ``pattern`` with both inputs."""
+        out = []
+        for p in self.pins:
+            m = re.fullmatch(pattern, p.name.upper())
+            if not m:
+                continue
+            a, b = self.get(inputs[0].format(m.group(1))), self.get(inputs[1].format(m.group(1)))
+            if a is not None and b is not None:
+                out.append((m.group(1), self.by_name[p.name.upper()], a, b, p))
+        return out
+
+
+def _opamp_body(ports: _Ports) -> tuple[list[str], str]:
+    body: list[str] = []
+    for s, out, inp, inn, _ in ports.sections(r"OUT(\w*)", ("+IN{}", "-IN{}")):
+        tag = s or "A"
+        body += [f"E{tag} snug_o{tag} 0 {inp} {inn} {_OPAMP_GAIN}", f"RO{tag} snug_o{tag} {out} {_R_OUT}",
+                 f"RP{tag} {inp} 0 {_OPEN}", f"RN{tag} {inn} 0 {_OPEN}"]
+        ports.used |= {out, inp, inn}
+    return body, (f"ideal op-amp: gain {_OPAMP_GAIN} per amplifier, output referred to ground through "
+                  f"{_R_OUT} ohm, no rails")
+
+
+def _comparator_body(ports: _Ports) -> tuple[list[str], str]:
+    body: list[str] = []
+    vpos, vneg = ports.vpos, ports.vneg
+    for s, out, inp, inn, pin in ports.sections(r"OUT(\w*)", ("+IN{}", "-IN{}")):
+        tag = s or "A"
+        on = f"(0.5 + 0.5 * tanh(1e4 * (V({inp}) - V({inn}))))"
+        if pin.role == "open-drain":
+            # sinks to the negative supply pin while -IN is above +IN, else open
+            body.append(f"B{tag} {out} {vneg} I = V({out}, {vneg}) * (1 - {on}) / {_R_SINK}")
+        else:
+            body += [f"B{tag} snug_o{tag} 0 V = V({vneg}) + (V({vpos}) - V({vneg})) * {on}",
+                     f"RO{tag} snug_o{tag} {out} {_R_OUT}"]
+        body += [f"RP{tag} {inp} 0 {_OPEN}", f"RN{tag} {inn} 0 {_OPEN}", f"RL{tag} {out} 0 {_OPEN}"]
+        ports.used |= {out, inp, inn}
+    return body, ("behavioural comparator: a smooth switch on the input difference; an open-collector output "
+                  f"sinks through {_R_SINK} ohm, a push-pull one swings between the supply pins")
+
+
+def _and_body(ports: _Ports) -> tuple[list[str], str]:
+    body: list[str] = []
+    vpos, vneg = ports.vpos, ports.vneg
+    half = f"(V({vpos}) + V({vneg})) / 2"
+    for g, y, a, bb, _ in ports.sections(r"(\d*)Y", ("{}A", "{}B")):
+        tag = g or "1"
+        body += [f"B{tag} snug_o{tag} 0 V = V({vneg}) + (V({vpos}) - V({vneg})) * "
+                 f"(0.5 + 0.5 * tanh(50 * (V({a}) - {half}))) * (0.5 + 0.5 * tanh(50 * (V({bb}) - {half})))",
+                 f"RO{tag} snug_o{tag} {y} {_R_OUT}",
+                 f"RA{tag} {a} 0 {_OPEN}", f"RB{tag} {bb} 0 {_OPEN}"]
+        ports.used |= {y, a, bb}
+    return body, f"behavioural AND gates: output ({_R_OUT} ohm) at the supply when both inputs are above half of it"
+
+
+def _regulator_body(ports: _Ports) -> tuple[list[str], str]:
+    vin, vout, gnd = ports.get("IN"), ports.get("OUT"), ports.get("GND")
+    ports.used.add(vout)
+    return ([f"BOUT snug_o {gnd} V = max(0, min(V({vin}, {gnd}) - 0.2, {{vout}}))", f"ROUT snug_o {vout} {_R_REG}"],
+            f"behavioural regulator: output = min(IN - 0.2 V, vout) through {_R_REG} ohm; EN not modelled")
+
+
 def _stub(kind: str, pins: tuple[PinDef, ...], subname: str) -> list[str]:
-    ports = _port_names(pins)
-    by_name = {p.name.upper(): port for p, port in zip(pins, ports)}
-    lines: list[str] = []
+    """One stand-in ``.subckt`` for a kind (module docstring): its comment, header, body and ``.ends``."""
+    names = _port_names(pins)
+    ports = _Ports(pins, names, {p.name.upper(): port for p, port in zip(pins, names)})
     params = ""
     body: list[str] = []
-    used_ports: set[str] = set()
-
-    def port(*names: str) -> str | None:
-        for n in names:
-            if n in by_name:
-                return by_name[n]
-        return None
-
-    vpos = port("V+", "VCC", "VDD")
-    vneg = port("V-", "GND", "VEE", "VSS")
     if kind.startswith("opamp"):
-        for p in pins:
-            m = re.fullmatch(r"OUT(\w*)", p.name.upper())
-            if not m:
-                continue
-            s = m.group(1)
-            out, inp, inn = by_name[p.name.upper()], port(f"+IN{s}"), port(f"-IN{s}")
-            if inp is None or inn is None:
-                continue
-            tag = s or "A"
-            body += [f"E{tag} snug_o{tag} 0 {inp} {inn} {_OPAMP_GAIN}", f"RO{tag} snug_o{tag} {out} {_R_OUT}",
-                     f"RP{tag} {inp} 0 {_OPEN}", f"RN{tag} {inn} 0 {_OPEN}"]
-            used_ports |= {out, inp, inn}
-        note = (f"ideal op-amp: gain {_OPAMP_GAIN} per amplifier, output referred to ground through "
-                f"{_R_OUT} ohm, no rails")
-    elif kind.startswith("comparator") and vpos and vneg:
-        for p in pins:
-            m = re.fullmatch(r"OUT(\w*)", p.name.upper())
-            if not m:
-                continue
-            s = m.group(1)
-            out, inp, inn = by_name[p.name.upper()], port(f"+IN{s}"), port(f"-IN{s}")
-            if inp is None or inn is None:
-                continue
-            tag = s or "A"
-            on = f"(0.5 + 0.5 * tanh(1e4 * (V({inp}) - V({inn}))))"
-            if p.role == "open-collector":
-                # sinks to the negative supply pin while -IN is above +IN, else open
-                body.append(f"B{tag} {out} {vneg} I = V({out}, {vneg}) * (1 - {on}) / {_R_SINK}")
-            else:
-                body += [f"B{tag} snug_o{tag} 0 V = V({vneg}) + (V({vpos}) - V({vneg})) * {on}",
-                         f"RO{tag} snug_o{tag} {out} {_R_OUT}"]
-            body += [f"RP{tag} {inp} 0 {_OPEN}", f"RN{tag} {inn} 0 {_OPEN}", f"RL{tag} {out} 0 {_OPEN}"]
-            used_ports |= {out, inp, inn}
-        note = ("behavioural comparator: a smooth switch on the input difference; an open-collector output "
-                f"sinks through {_R_SINK} ohm, a push-pull one swings between the supply pins")
-    elif kind.startswith("and") and vpos and vneg:
-        for p in pins:
-            m = re.fullmatch(r"(\d*)Y", p.name.upper())
-            if not m:
-                continue
-            g = m.group(1)
-            y, a, bb = by_name[p.name.upper()], port(f"{g}A"), port(f"{g}B")
-            if a is None or bb is None:
-                continue
-            tag = g or "1"
-            half = f"(V({vpos}) + V({vneg})) / 2"
-            body += [f"B{tag} snug_o{tag} 0 V = V({vneg}) + (V({vpos}) - V({vneg})) * "
-                     f"(0.5 + 0.5 * tanh(50 * (V({a}) - {half}))) * (0.5 + 0.5 * tanh(50 * (V({bb}) - {half})))",
-                     f"RO{tag} snug_o{tag} {y} {_R_OUT}",
-                     f"RA{tag} {a} 0 {_OPEN}", f"RB{tag} {bb} 0 {_OPEN}"]
-            used_ports |= {y, a, bb}
-        note = f"behavioural AND gates: output ({_R_OUT} ohm) at the supply when both inputs are above half of it"
+        body, note = _opamp_body(ports)
+    elif kind.startswith("comparator") and ports.vpos and ports.vneg:
+        body, note = _comparator_body(ports)
+    elif kind.startswith("and") and ports.vpos and ports.vneg:
+        body, note = _and_body(ports)
     elif _is_regulator(kind, pins):
-        vin, vout, gnd = port("IN"), port("OUT"), port("GND")
+        body, note = _regulator_body(ports)
         params = " params: vout=3.3"
-        body += [f"BOUT snug_o {gnd} V = max(0, min(V({vin}, {gnd}) - 0.2, {{vout}}))",
-                 f"ROUT snug_o {vout} {_R_REG}"]
-        used_ports |= {vout}
-        note = f"behavioural regulator: output = min(IN - 0.2 V, vout) through {_R_REG} ohm; EN not modelled"
-    elif kind == "ferrite" and len(ports) == 2:
-        body += [f"R1 {ports[0]} {ports[1]} 10m"]
-        used_ports |= set(ports)
+    elif kind == "ferrite" and len(names) == 2:
+        body = [f"R1 {names[0]} {names[1]} 10m"]
         note = "ferrite bead as a 10 mOhm resistor; its high-frequency impedance is not modelled"
+        ports.used |= set(names)
     else:
         note = "no behaviour: each pin tied to ground through 1 TOhm (supplies 1 GOhm) to keep the node valid"
-    for i, pt in enumerate(ports, start=1):
-        if pt not in used_ports:
-            body.append(f"RS{i} {pt} 0 {_SUPPLY_LOAD if pt in (vpos, vneg) else _OPEN}")
-    lines.append(f"* {_ascii(kind)}: {note}")  # a user's kind name: one comment line whatever it holds
-    lines.append(f".subckt {subname} {' '.join(ports)}{params}")
-    lines += body
-    lines.append(f".ends {subname}")
-    return lines
+    for i, pt in enumerate(names, start=1):
+        if pt not in ports.used:
+            body.append(f"RS{i} {pt} 0 {_SUPPLY_LOAD if pt in (ports.vpos, ports.vneg) else _OPEN}")
+    # a user's kind name: one comment line whatever it holds
+    return [f"* {_ascii(kind)}: {note}", f".subckt {subname} {' '.join(names)}{params}", *body, f".ends {subname}"]
 
 
 # --------------------------------------------------------------------------
@@ -368,17 +382,27 @@ def spice_netlist(design: Design) -> bytes:
     for net in design.nets:
         for pr in net.pins:
             pin_net.setdefault((pr.ref, pr.pin), net.name)
-    driven = _driven_nets(design, pin_net)
+    deck = _Deck(design, nodes, pin_net, elements=_Names(reserved=[f"Vsupply_{nodes[n.name]}" for n in design.nets]),
+                 node_pool=_Names(reserved=list(nodes.values()) + ["gnd"]),
+                 categories={k.name: k.category for k in design.kinds}, voltages={})
+    for n in design.nets:
+        deck.voltages.setdefault(n.name, n.voltage)
+    out = [*_head_lines(design), "*", "* Nets", *_net_records(design, nodes), "*", "* Parts"]
+    for part in design.parts:
+        out += _part_lines(part, deck)
+    out += _tail_lines(deck, _driven_nets(design, pin_net))
+    return ("\n".join(out) + "\n").encode("ascii")
 
-    elements = _Names(reserved=[f"Vsupply_{nodes[n.name]}" for n in design.nets])
-    node_pool = _Names(reserved=list(nodes.values()) + ["gnd"])
+
+def _head_lines(design: Design) -> list[str]:
+    """Title, provenance comments, and the design, kind and stage records."""
     title = _ascii(design.name.replace("\r", " ").replace("\n", " ")).strip() or "snugboard design"
-    out: list[str] = [title]
     source = posixpath.basename(design.source.replace("\\", "/")) if design.source else ""
-    out.append("* Sized design written by snugboard" + (f" from {_ascii(source)}" if source else "") + ".")
-    out.append("* Add sources and an analysis before .end to simulate it; the"
-               " '* snugboard:' lines let snugboard read it back.")
-    out.append(_record("design", [("name", design.name), ("revision", design.revision)]))
+    out = [title,
+           "* Sized design written by snugboard" + (f" from {_ascii(source)}" if source else "") + ".",
+           "* Add sources and an analysis before .end to simulate it; the '* snugboard:' lines let snugboard read "
+           "it back.",
+           _record("design", [("name", design.name), ("revision", design.revision)])]
     for k in design.kinds:
         out.append(_record("kind", [
             ("name", k.name), ("category", k.category), ("value_unit", k.value_unit),
@@ -394,9 +418,12 @@ def spice_netlist(design: Design) -> bytes:
         # No file or line: the reader locates a stage record in the file it reads
         # (and the design's own path would put a path into the output).
         out.append(_record("stage", [("name", st.name), ("key", st.key), ("items", items)]))
+    return out
 
-    out.append("*")
-    out.append("* Nets")
+
+def _net_records(design: Design, nodes: dict[str, str]) -> list[str]:
+    """A record for each net whose name SPICE cannot spell or that declares a voltage."""
+    out = []
     for net in design.nets:
         node = nodes[net.name]
         plain = (node == net.name) or (net.name == "GND" and node == "0")
@@ -405,38 +432,27 @@ def spice_netlist(design: Design) -> bytes:
         out.append(_record("net", [("node", node), ("name", None if plain else net.name),
                                    ("voltage", _f(net.voltage)), ("voltage_max", _f(net.voltage_max)),
                                    ("battery", True if net.battery else None)]))
+    return out
 
-    out.append("*")
-    out.append("* Parts")
-    stubs: dict[str, tuple[str, str, tuple[PinDef, ...]]] = {}
-    used_models: list[str] = []
-    for part in design.parts:
-        out += _part_lines(part, design, nodes, pin_net, elements, node_pool, stubs, used_models)
 
-    supplies = [n for n in design.nets if n.voltage is not None and n.voltage != 0 and nodes[n.name] != "0"
+def _tail_lines(deck: _Deck, driven: set[str]) -> list[str]:
+    """Supplies for declared voltages no output drives, the stand-in subcircuits and models, the analysis."""
+    nodes = deck.nodes
+    out: list[str] = []
+    supplies = [n for n in deck.design.nets if n.voltage is not None and n.voltage != 0 and nodes[n.name] != "0"
                 and n.name not in driven]
     if supplies:
-        out.append("*")
-        out.append("* Supplies: the declared net voltages, as ideal DC sources")
-        for n in supplies:
-            out.append(f"Vsupply_{nodes[n.name]} {nodes[n.name]} 0 DC {spice_number(n.voltage)}")
-
-    if stubs:
-        out.append("*")
-        out.append("* Stand-in models, one per kind (see the comment above each)")
-        for key in sorted(stubs):
-            kind, subname, pins = stubs[key]
+        out += ["*", "* Supplies: the declared net voltages, as ideal DC sources"]
+        out += [f"Vsupply_{nodes[n.name]} {nodes[n.name]} 0 DC {spice_number(n.voltage)}" for n in supplies]
+    if deck.stubs:
+        out += ["*", "* Stand-in models, one per kind (see the comment above each)"]
+        for key in sorted(deck.stubs):
+            kind, subname, pins = deck.stubs[key]
             out += _stub(kind, pins, subname)
-    if used_models:
-        out.append("*")
-        out.append("* Placeholder device models (the simulator's defaults), not a part's data")
-        for m in sorted(set(used_models)):
-            out.append(_MODELS[m])
-    out.append("*")
-    out.append(".options rshunt=1e12")
-    out.append(".op")
-    out.append(".end")
-    return ("\n".join(out) + "\n").encode("ascii")
+    if deck.used_models:
+        out += ["*", "* Placeholder device models (the simulator's defaults), not a part's data"]
+        out += [_MODELS[m] for m in sorted(set(deck.used_models))]
+    return out + ["*", ".options rshunt=1e12", ".op", ".end"]
 
 
 def _f(v: float | None) -> float | None:
@@ -478,84 +494,101 @@ def _part_record(part: Part, element: str | None, pins: list[str], nodes: list[s
     return text
 
 
-def _part_lines(part: Part, design: Design, nodes: dict[str, str], pin_net: dict[tuple[str, str], str],
-                elements: _Names, node_pool: _Names, stubs: dict[str, tuple[str, str, tuple[PinDef, ...]]],
-                used_models: list[str]) -> list[str]:
-    def node_of(pin: PinDef) -> str:
-        net = pin_net.get((part.ref, pin.number))
-        return nodes[net] if net is not None else ""
+@dataclass
+class _Deck:
+    """What writing the part lines needs: names given so far and lookups made once."""
 
-    def node_or_nc(pin: PinDef) -> str:
-        n = node_of(pin)
-        return n if n else node_pool.take(f"nc_{_legal(part.ref) or 'part'}_{_legal(pin.number) or 'pin'}")
+    design: Design
+    nodes: dict[str, str]  # net name -> node
+    pin_net: dict[tuple[str, str], str]  # (ref, pin number) -> net name
+    elements: _Names
+    node_pool: _Names
+    categories: dict[str, str]  # design-defined kind -> category
+    voltages: dict[str, float | None]  # net name -> declared voltage
+    stubs: dict[str, tuple[str, str, tuple[PinDef, ...]]] = field(default_factory=dict)
+    used_models: list[str] = field(default_factory=list)
 
-    def name_for(letter: str) -> str:
+    def node_of(self, part: Part, pin: PinDef) -> str:
+        net = self.pin_net.get((part.ref, pin.number))
+        return self.nodes[net] if net is not None else ""
+
+    def node_or_nc(self, part: Part, pin: PinDef) -> str:
+        n = self.node_of(part, pin)
+        return n if n else self.node_pool.take(f"nc_{_legal(part.ref) or 'part'}_{_legal(pin.number) or 'pin'}")
+
+    def name_for(self, part: Part, letter: str) -> str:
         ref = _legal(part.ref, signs=False) or "part"
-        want = ref if ref[:1].upper() == letter else letter + ref
-        return elements.take(want)
+        return self.elements.take(ref if ref[:1].upper() == letter else letter + ref)
 
-    order: list[PinDef] = list(part.pins)
-    letter = ""
-    model = ""
+
+def _device(part: Part) -> tuple[str, str, list[PinDef]]:
+    """Element letter (``""``: a stub instance), placeholder model and pins in node order."""
     if part.kind in _PASSIVE_LETTER and len(part.pins) == 2:
-        letter = _PASSIVE_LETTER[part.kind]
-    elif part.kind in _DIODES and _pin_named(part, "A") and _pin_named(part, "K"):
-        letter, model = "D", _DIODES[part.kind]
-        order = [_pin_named(part, "A"), _pin_named(part, "K")]
-    elif part.kind in _BJT and all(_pin_named(part, n) for n in "CBE"):
-        letter, model = "Q", _BJT[part.kind]
-        order = [_pin_named(part, n) for n in "CBE"]
-    elif part.kind in _MOS and all(_pin_named(part, n) for n in "DGS"):
-        letter, model = "M", _MOS[part.kind]
-        order = [_pin_named(part, n) for n in "DGS"]
-    comment_only = ""
-    if _category(part, design) == "connector":
-        comment_only = "a connector, not simulated"
-    elif part.dnp:
-        comment_only = "not fitted (dnp), not simulated"
-    elif letter in ("R", "C", "L") and part.value is None:
-        comment_only = "no value, not simulated"
-    if comment_only:
-        pins = [p.number for p in part.pins]
-        pnodes = [node_of(p) for p in part.pins]
-        shown = " ".join(f"{p.number}:{n or '-'}" for p, n in zip(part.pins, pnodes))
-        return [_part_record(part, None, pins, pnodes),
-                f"* {_ascii(part.ref)} ({_ascii(part.kind)}, {_ascii(part.package)}): {comment_only}; pins {shown}"]
+        return _PASSIVE_LETTER[part.kind], "", list(part.pins)
+    for table, letter, names in ((_DIODES, "D", "AK"), (_BJT, "Q", "CBE"), (_MOS, "M", "DGS")):
+        if part.kind in table and all(_pin_named(part, n) for n in names):
+            return letter, table[part.kind], [_pin_named(part, n) for n in names]
+    return "", "", list(part.pins)
 
+
+def _part_lines(part: Part, deck: _Deck) -> list[str]:
+    """The record and the line(s) of one part: a comment, a device or a stub instance."""
+    letter, model, order = _device(part)
+    if part.kind in deck.categories:
+        category = deck.categories[part.kind]
+    else:
+        category = "connector" if part.kind in _CONNECTORS else ""
+    if category == "connector":
+        return _comment_lines(part, deck, "a connector, not simulated")
+    if part.dnp:
+        return _comment_lines(part, deck, "not fitted (dnp), not simulated")
+    if letter in ("R", "C", "L") and part.value is None:
+        return _comment_lines(part, deck, "no value, not simulated")
     if letter:
-        name = name_for(letter)
-        pnodes = [node_or_nc(p) for p in order]
-        pins = [p.number if node_of(p) else "" for p in order]
-        line = f"{name} {' '.join(pnodes)}"
-        if letter in ("R", "C", "L"):
-            line += f" {spice_number(part.value)}"
-        elif letter == "M":
-            line = f"{name} {' '.join(pnodes)} {pnodes[2]}"  # bulk tied to source
-        if model:
-            line += f" {model}"
-            used_models.append(model)
-        return [_part_record(part, name, pins, None), line]
+        return _device_lines(part, deck, letter, model, order)
+    return _stub_lines(part, deck)
 
+
+def _comment_lines(part: Part, deck: _Deck, why: str) -> list[str]:
+    pins = [p.number for p in part.pins]
+    pnodes = [deck.node_of(part, p) for p in part.pins]
+    shown = " ".join(f"{p.number}:{n or '-'}" for p, n in zip(part.pins, pnodes))
+    return [_part_record(part, None, pins, pnodes),
+            f"* {_ascii(part.ref)} ({_ascii(part.kind)}, {_ascii(part.package)}): {why}; pins {shown}"]
+
+
+def _device_lines(part: Part, deck: _Deck, letter: str, model: str, order: list[PinDef]) -> list[str]:
+    name = deck.name_for(part, letter)
+    pnodes = [deck.node_or_nc(part, p) for p in order]
+    pins = [p.number if deck.node_of(part, p) else "" for p in order]
+    line = f"{name} {' '.join(pnodes)}"
+    if letter in ("R", "C", "L"):
+        line += f" {spice_number(part.value)}"
+    elif letter == "M":
+        line = f"{name} {' '.join(pnodes)} {pnodes[2]}"  # bulk tied to source
+    if model:
+        line += f" {model}"
+        deck.used_models.append(model)
+    return [_part_record(part, name, pins, None), line]
+
+
+def _stub_lines(part: Part, deck: _Deck) -> list[str]:
     base = f"snug_{_legal(part.kind, signs=False).lower() or 'kind'}"
     key = part.kind
-    if key not in stubs:
-        stubs[key] = (part.kind, f"{base}_{len(part.pins)}", tuple(part.pins))
-    if stubs[key][2] != tuple(part.pins):  # same kind, other pins (a design-defined kind clash)
+    if key not in deck.stubs:
+        deck.stubs[key] = (part.kind, f"{base}_{len(part.pins)}", tuple(part.pins))
+    if deck.stubs[key][2] != tuple(part.pins):  # same kind, other pins (a design-defined kind clash)
         key = f"{part.kind}\x00{part.ref}"
-        stubs[key] = (part.kind, f"{base}_{_legal(part.ref, signs=False).lower() or 'part'}", tuple(part.pins))
-    subname = stubs[key][1]
-    name = name_for("X")
-    pnodes = [node_or_nc(p) for p in part.pins]
-    pins = [p.number if node_of(p) else "" for p in part.pins]
-    line = f"{name} {' '.join(pnodes)} {subname}"
+        deck.stubs[key] = (part.kind, f"{base}_{_legal(part.ref, signs=False).lower() or 'part'}", tuple(part.pins))
+    name = deck.name_for(part, "X")
+    pnodes = [deck.node_or_nc(part, p) for p in part.pins]
+    pins = [p.number if deck.node_of(part, p) else "" for p in part.pins]
+    line = f"{name} {' '.join(pnodes)} {deck.stubs[key][1]}"
     extra = []
     if _is_regulator(part.kind, part.pins):
         out_pin = _pin_named(part, "OUT")
-        vout = None
-        if out_pin is not None:
-            net = pin_net.get((part.ref, out_pin.number))
-            if net is not None:
-                vout = next((n.voltage for n in design.nets if n.name == net), None)
+        net = deck.pin_net.get((part.ref, out_pin.number)) if out_pin is not None else None
+        vout = deck.voltages.get(net) if net is not None else None
         if vout is None:
             extra.append(f"* {_ascii(part.ref)}: its OUT net declares no voltage; 3.3 V assumed")
             vout = 3.3

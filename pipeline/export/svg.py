@@ -3,11 +3,13 @@
 Entry point: :func:`fit_svg`.
 
 What it shows, bottom to top: the cavity floor shaded by its default depth,
-the depth zones shaded by their depth (clipped to the cavity), the keep-outs
-(hatched), the cavity outline, the usable board region (dashed), the board
-outline, the placed courtyards (bottom side dashed, top side solid) labelled
-by ref, then a title, a legend (one entry per depth), a scale bar and, when
-the design does not fit, the parts that found no room.
+the depth zones shaded by their depth (clipped to the cavity; shades of
+grey, so that no depth can be read as copper, which is drawn warm), the
+keep-outs (hatched), the cavity outline, the usable board region (dashed),
+the board outline, the placed courtyards (bottom side dashed, top side
+solid), the labels layer, then a header (title, the run's verdict line,
+figures, source), a legend (one entry per depth), a scale bar and, when the
+design does not fit, the parts that found no room.
 
 Coordinates
 -----------
@@ -26,15 +28,17 @@ and courtyards are drawn in a sorted order; all user text (title, source,
 refs) is XML-escaped, and characters XML 1.0 cannot hold are replaced by
 U+FFFD.
 
-Labels: a courtyard's ref is written across its longer fitting direction at
-the largest size that fits (estimated advance 0.62 em per character for a
-sans-serif face, from memory of common sans-serif metrics), capped at
-3.5 mm on paper and at 0.8 of the courtyard side it stands across. A label that
-would come out under 1.5 mm on paper, or would overlap a label already
-placed (top-side labels go first), is left out and its ref listed in the
-legend instead (the legend's lists of unlabelled and unplaced refs are
-cut at a few lines and the rest counted). Every courtyard also carries its
-ref, side and rotation as an SVG ``<title>`` (shown on hover).
+Labels (:func:`place_labels`): a courtyard's ref is written inside it, across
+its longer fitting direction at the largest size that fits (estimated
+advance 0.62 em per character for a sans-serif face, from memory of common
+sans-serif metrics), capped at 3.5 mm on paper and at 0.8 of the courtyard
+side it stands across. A part whose label would come out under 1.5 mm on
+paper, or would overlap a label already placed (top-side labels go first),
+gets a leader label beside it instead; only a part with no free spot
+anywhere near is listed in the legend. No two labels overlap. Every
+courtyard carries its ref, value, package, height, side, rotation and nets
+as an SVG ``<title>`` (shown on hover) and as ``data-*`` attributes (read by
+the report's script).
 
 Bottom-side courtyards are drawn as seen from the top, through the board
 (not mirrored), dashed, under the top-side ones.
@@ -69,6 +73,7 @@ _TOP = "#2f4f9e"  # top-side courtyards
 _BOTTOM = "#8a3f8f"  # bottom-side courtyards, dashed
 _UNPLACED = "#a3261b"
 _ATTENTION = "#8a5a00"
+_COPPER = "#c06a2b"  # pads: warm, as copper is drawn (depth zones are grey)
 #: Depth ramp, deep (light) to shallow (dark): neutral greys, so that no depth
 #: can be read as copper (copper is drawn warm: orange to brown).
 _DEPTH_RAMP = ("#f5f5f4", "#dcdcda", "#bdbdbb", "#9a9a98", "#767674")
@@ -101,7 +106,8 @@ _HATCH_ID = "snug-fit-hatch"
 
 
 def fit_svg(cavity: Cavity, region: Region, fit: FitResult, *, title: str = "",
-            verdict: Verdict | None = None, facts: Mapping[str, PartFacts] | None = None) -> bytes:
+            verdict: Verdict | None = None, facts: Mapping[str, PartFacts] | None = None,
+            pads: Sequence = ()) -> bytes:
     """Draw cavity, region, board and placed parts as a standalone SVG 1.1 picture.
 
     Parameters
@@ -123,6 +129,11 @@ def fit_svg(cavity: Cavity, region: Region, fit: FitResult, *, title: str = "",
     facts : mapping of ref to PartFacts, optional
         Value, package, height and nets of each part, written as ``data-*``
         attributes and in the part's hover title (:func:`part_facts`).
+    pads : sequence of pads, optional
+        Copper pads of the placed parts, each with ``ref``, ``pin``, ``net``
+        (or None) and ``polygon`` in mm (:class:`pipeline.route.board.RoutePad`);
+        drawn in copper colour, each with ``data-net`` so that a picked net
+        lights its pins.
 
     Returns
     -------
@@ -163,7 +174,8 @@ def fit_svg(cavity: Cavity, region: Region, fit: FitResult, *, title: str = "",
     left = minx - _MARGIN * u
     top = -maxy - (_MARGIN + head_h) * u
     legend_x = maxx + _GAP * u
-    legend_lines = _legend(depths, colour_of, float(region.thickness_mm), placements, skipped, unplaced, s)
+    legend_lines = _legend(depths, colour_of, float(region.thickness_mm), placements, skipped, unplaced, s,
+                           bool(pads))
     bottom = max(-miny + (_MARGIN + _FOOT_H) * u,
                  top + (head_h + 2 * _MARGIN + _legend_height(legend_lines)) * u)
     right = max(legend_x + (_LEGEND_W + _MARGIN) * u, left + (2 * _MARGIN + _header_width(head)) * u)
@@ -175,6 +187,8 @@ def fit_svg(cavity: Cavity, region: Region, fit: FitResult, *, title: str = "",
         out.append('<g class="placements">')
         out += [_part(pl, (facts or {}).get(pl.ref), u) for pl in placements]
         out.append("</g>")
+    if pads:
+        out.append(_pads_svg(pads, u))
     out.append(_labels_svg(labels, u))
     out.append(_scale_bar(minx, -miny + (_MARGIN - 1.0) * u, nice_length(w / 4.0), u))
     out.append(_origin(minx, miny, maxx, maxy, u))
@@ -573,6 +587,18 @@ def _part(pl: Placement, facts: PartFacts | None, u: float) -> str:
     )
 
 
+def _pads_svg(pads: Sequence, u: float) -> str:
+    """Copper pads, sorted by ref and pin, each naming its net for the report's net picker."""
+    out = [f'<g class="pads" fill="{_COPPER}" fill-opacity="0.85">']
+    for p in sorted(pads, key=lambda p: (natural_key(p.ref), natural_key(str(p.pin)))):
+        d = _path_d(p.polygon)
+        if d:
+            net = f' data-net="{_esc(p.net)}"' if p.net is not None else ""
+            out.append(f'<path class="pad" d="{d}" data-ref="{_esc(p.ref)}" data-pin="{_esc(p.pin)}"{net}/>')
+    out.append("</g>")
+    return "".join(out)
+
+
 def _labels_svg(labels: Sequence[Label], u: float) -> str:
     """The labels layer, drawn over every courtyard; leader lines end in a dot on the courtyard."""
     out = ['<g class="labels">']
@@ -587,7 +613,8 @@ def _labels_svg(labels: Sequence[Label], u: float) -> str:
                        f'stroke="{_INK}" stroke-width="{_f(_W_THIN * u)}"/>'
                        f'<circle class="leader-end" cx="{_f(px)}" cy="{_f(-py)}" r="{_f(0.35 * u)}" fill="{_INK}"/>')
         out.append(f'<text class="ref" x="{_f(cx)}" y="{_f(cy + 0.35 * lab.size)}" font-size="{_f(lab.size)}" '
-                   f'text-anchor="middle" fill="{_INK}"{style}{rot}>{_esc(lab.ref)}</text></g>')
+                   f'text-anchor="middle" fill="{_INK}" stroke="{_PAPER}" stroke-width="{_f(0.18 * lab.size)}" '
+                   f'stroke-opacity="0.8" paint-order="stroke"{style}{rot}>{_esc(lab.ref)}</text></g>')
     out.append("</g>")
     return "".join(out)
 
@@ -695,7 +722,7 @@ def _wrap(words: Sequence[str], width: int) -> list[str]:
     return lines
 
 
-def _legend(depths, colour_of, thickness, placements, skipped, unplaced, s) -> list[tuple]:
+def _legend(depths, colour_of, thickness, placements, skipped, unplaced, s, pads: bool = False) -> list[tuple]:
     rows: list[tuple] = [("head", "Legend", None)]
     rows.append(("cavity", "cavity outline", None))
     for d in depths:  # shallowest (darkest) first
@@ -708,6 +735,8 @@ def _legend(depths, colour_of, thickness, placements, skipped, unplaced, s) -> l
     rows.append(("top", "part courtyard, top side", None))
     if any(p.side == "bottom" for p in placements):
         rows.append(("bottom", "part courtyard, bottom side", None))
+    if pads:
+        rows.append(("pad", "copper pad", None))
     rows.append(("text", f"Scale {_scale_text(s)} when printed at 100 %", None))
     if unplaced:
         rows.append(("head-red", f"Not placed ({len(unplaced)})", None))
@@ -754,6 +783,8 @@ def _swatch(kind: str, extra, x: float, y: float, u: float) -> str:
         return (
             f'<rect {box} fill="{_TOP}" fill-opacity="0.20" stroke="{_TOP}" stroke-width="{_f(_W_LINE * u)}"/>'
         )
+    if kind == "pad":
+        return f'<rect {box} fill="{_COPPER}" stroke="none"/>'
     if kind == "bottom":
         return (
             f'<rect {box} fill="{_BOTTOM}" fill-opacity="0.10" stroke="{_BOTTOM}" '

@@ -10,8 +10,9 @@ formats and the policies behind the numbers.
 
 The package's modules, one job each: ``_data`` (reading CSV and TOML with
 places), ``courtyards`` (excess table and courtyard rule), ``packages``
-(rows and families), ``kinds`` (part kinds), ``catalogue`` (the
-:class:`Library` lookups and :func:`load_library`).
+(rows and families), ``lands`` (IPC-7351B land patterns and
+:func:`pads_on_board`, which puts a placed part's pads on the board), ``kinds``
+(part kinds), ``catalogue`` (the :class:`Library` lookups and :func:`load_library`).
 
 Lengths are millimetres. Density levels are ``"most"`` (IPC-7351B level A),
 ``"nominal"`` (B) and ``"least"`` (C): :data:`pipeline.model.DENSITY_LEVELS`.
@@ -25,7 +26,7 @@ Examples
 '0603'
 >>> cy = courtyard(lib.package("0603"), "nominal")
 >>> (cy.length_mm, cy.width_mm)
-(2.8, 1.3)
+(2.95, 1.45)
 >>> [p.name for p in lib.pins_for(lib.kind("header"), lib.package("header-1x3-2.54"))]
 ['1', '2', '3']
 """
@@ -36,6 +37,7 @@ from pipeline.model import DENSITY_LEVELS as LEVELS
 from .catalogue import DEFAULT_ROOT, Library, load_library
 from .courtyards import CourtyardRule, ceil_to_grid, courtyard, courtyard_size, normalize_level
 from .kinds import CATEGORIES, VALUE_UNITS, pin_mismatch
+from .lands import land_equations, pads_on_board
 from .packages import PACKAGE_COLUMNS, PackageFamily, PackageInfo
 
 __all__ = [
@@ -55,4 +57,6 @@ __all__ = [
     "ceil_to_grid",
     "normalize_level",
     "pin_mismatch",
+    "land_equations",
+    "pads_on_board",
 ]

@@ -97,7 +97,7 @@ def courtyard(package: Package, level: str) -> Courtyard:
 
     >>> from pipeline.library import load_library
     >>> courtyard(load_library().package("SOIC-8"), "least").width_mm
-    7.1
+    6.75
     """
     return package.courtyard(normalize_level(level))
 

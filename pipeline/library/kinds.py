@@ -19,7 +19,8 @@ CATEGORIES = ("passive", "polarized", "semiconductor", "ic", "connector")
 #: Units a part kind's value may have ("" = takes no value).
 VALUE_UNITS = ("ohm", "F", "H", "")
 
-_KIND_KEYS = ("category", "value_unit", "description", "source", "pins", "pins_from_package")
+_KIND_KEYS = ("category", "value_unit", "description", "source", "pins", "pins_from_package",
+              "board_feature")
 _PIN_KEYS = ("number", "name", "role")
 
 
@@ -77,6 +78,7 @@ def _read_kind(f: Fields, table: dict) -> PartKind:
     return PartKind(
         name=f.prefix, category=category, pins=_read_pins(f, raw_pins), value_unit=unit,
         pins_from_package=from_pkg,
+        board_feature=f.flag("board_feature", table.get("board_feature", False)),
         description=f.text("description", table.get("description", ""), required=False),
         source=f.text("source", table["source"]),
     )

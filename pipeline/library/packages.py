@@ -8,16 +8,17 @@ millimetres; ``footprints/README.md`` documents every column.
 from __future__ import annotations
 
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any, Mapping
 
 from pipeline.errors import LibraryError
-from pipeline.model import DENSITY_LEVELS, Courtyard, Package
+from pipeline.model import DENSITY_LEVELS, Courtyard, Package, Pad
 
 from ._data import (NAME_RE, TOKEN_RE, Fields, check_header, compact, csv_number, csv_rows,
                     fmt_number, read_toml)
 from .courtyards import CourtyardRule, courtyard_size
+from .lands import LandRules, Terminals, package_pads, pad_extent, through_hole_row_pads
 
 __all__ = ["PACKAGE_COLUMNS", "PackageInfo", "PackageFamily", "make_package", "read_packages",
            "read_families"]
@@ -25,11 +26,13 @@ __all__ = ["PACKAGE_COLUMNS", "PackageInfo", "PackageFamily", "make_package", "r
 #: Column headings of packages.csv, in order.
 PACKAGE_COLUMNS = (
     "name", "aliases", "family", "body_length_mm", "body_width_mm", "height_mm",
-    "land_length_mm", "land_width_mm", "pin_count", "pitch_mm", "courtyard_class", "source",
-    "land_basis", "height_basis",
+    "pin_count", "pitch_mm", "courtyard_class", "source", "land_basis", "height_basis",
 )
-_DIMENSIONS = ("body_length_mm", "body_width_mm", "height_mm", "land_length_mm", "land_width_mm")
-_FAMILY_NUMERIC = _DIMENSIONS + ("pin_count", "pitch_mm")
+_DIMENSIONS = ("body_length_mm", "body_width_mm", "height_mm")
+#: A family's numeric fields: the body, then its through-hole or plain pads.
+_FAMILY_NUMERIC = _DIMENSIONS + ("pin_count", "pitch_mm", "rows", "row_spacing_mm", "pad_mm",
+                                 "drill_mm")
+_MAY_BE_ZERO = ("pitch_mm", "row_spacing_mm", "drill_mm")
 _BASES = ("source", "land_basis", "height_basis")
 
 
@@ -47,21 +50,27 @@ class PackageInfo:
 
 
 def make_package(*, name: str, aliases: tuple[str, ...], family: str, dims: Mapping[str, float],
-                 pin_count: int, source: str, rule: CourtyardRule, grid: float) -> Package:
-    """A :class:`Package` with its courtyard at every density level."""
+                 pin_count: int, source: str, rule: CourtyardRule, grid: float,
+                 pads_by_level: tuple[tuple[str, tuple[Pad, ...]], ...]) -> Package:
+    """A :class:`Package` with its pads and its courtyard at every density level.
+
+    Each level's courtyard surrounds the body and that level's pads
+    (:func:`~.courtyards.courtyard_size`); the land extents kept on the package
+    are those of the nominal level.
+    """
     courtyards = []
-    for level in DENSITY_LEVELS:
-        length, width = courtyard_size(
-            dims["body_length_mm"], dims["body_width_mm"], dims["land_length_mm"],
-            dims["land_width_mm"], rule.excess(level), grid,
-        )
+    for level, pads in pads_by_level:
+        land_l, land_w = pad_extent(pads)
+        length, width = courtyard_size(dims["body_length_mm"], dims["body_width_mm"], land_l,
+                                       land_w, rule.excess(level), grid)
         courtyards.append(Courtyard(level, length, width))
+    land_l, land_w = pad_extent(dict(pads_by_level)["nominal"])
     return Package(
         name=name, aliases=aliases, family=family,
         body_length_mm=dims["body_length_mm"], body_width_mm=dims["body_width_mm"],
-        height_mm=dims["height_mm"], land_length_mm=dims["land_length_mm"],
-        land_width_mm=dims["land_width_mm"], pin_count=pin_count, pitch_mm=dims["pitch_mm"],
-        source=source, courtyards=tuple(courtyards),
+        height_mm=dims["height_mm"], land_length_mm=land_l, land_width_mm=land_w,
+        pin_count=pin_count, pitch_mm=dims["pitch_mm"], source=source,
+        courtyards=tuple(courtyards), pads_by_level=pads_by_level,
     )
 
 
@@ -148,11 +157,24 @@ class PackageFamily:
                 "height_basis": self.height_basis}
 
     def expand(self, value: float, rule: CourtyardRule, grid: float) -> Package:
-        """The :class:`~pipeline.model.Package` for parameter ``value``."""
+        """The :class:`~pipeline.model.Package` for parameter ``value``.
+
+        Its pads: ``rows`` rows of round pads ``pad_mm`` across at ``pitch_mm``,
+        ``row_spacing_mm`` apart, with holes of ``drill_mm`` (0: surface pads),
+        numbered across the rows (odd pins in the lower row), the same at every
+        density level.
+        """
         dims = {f: self.value(f, value) for f in _FAMILY_NUMERIC}
+        pin_count = int(round(dims["pin_count"]))
+        pads = through_hole_row_pads(pin_count, int(dims["rows"]), dims["pitch_mm"],
+                                     dims["row_spacing_mm"], dims["pad_mm"], dims["drill_mm"],
+                                     anticlockwise=False)
+        if pin_count == 1:  # a lone pad is round
+            pads = tuple(replace(p, shape="circle") for p in pads)
         return make_package(
             name=self.canonical_name(value), aliases=(), family=self.family, dims=dims,
-            pin_count=int(round(dims["pin_count"])), source=self.source, rule=rule, grid=grid,
+            pin_count=pin_count, source=self.source, rule=rule, grid=grid,
+            pads_by_level=tuple((lv, pads) for lv in DENSITY_LEVELS),
         )
 
 
@@ -222,7 +244,7 @@ def _family_field(f: Fields, raw: Any, name: str, param: str, integer: bool, lo:
         per = sub.number("per", raw["per"], minimum=None)
     else:
         base, per = f.number(name, raw, minimum=None), 0.0
-    strict = name != "pitch_mm"
+    strict = name not in _MAY_BE_ZERO
     for v in (lo, hi):  # linear: the extremes bound every value
         at = base + per * v
         if at < 0 or (strict and at <= 0):
@@ -269,13 +291,15 @@ class _Names:
 
 def read_packages(
     path: Path, rules: Mapping[str, CourtyardRule], grid: float,
-    families: tuple[PackageFamily, ...],
+    families: tuple[PackageFamily, ...], terminals: Mapping[str, Terminals],
+    land_rules: LandRules,
 ) -> tuple[tuple[Package, ...], tuple[PackageInfo, ...]]:
     """The listed packages of ``packages.csv`` and how each was sourced.
 
     Steps: check the header; per row, split the cells, check the names against
     those seen and the family forms, read the numbers, look up the courtyard
-    class, then build the package.
+    class, compute the pads from the package's terminals (:mod:`.lands`),
+    then build the package.
     """
     header_line, header, rows = csv_rows(path)
     check_header(path, header_line, header, PACKAGE_COLUMNS)
@@ -291,9 +315,13 @@ def read_packages(
         names.add(name, aliases, line)
         dims, pin_count = _row_numbers(path, line, row)
         family, cls = _row_classes(path, line, row, rules)
+        if name not in terminals:
+            raise LibraryError(str(path), f"package {name} has no row in terminals.csv, so it "
+                               "has no land pattern", line=line, key=f"{name}.name")
+        pads = package_pads(terminals[name], pin_count, dims["pitch_mm"], land_rules)
         packages.append(make_package(name=name, aliases=aliases, family=family, dims=dims,
                                      pin_count=pin_count, source=row["source"], rule=rules[cls],
-                                     grid=grid))
+                                     grid=grid, pads_by_level=pads))
         infos.append(info_for(name, family, cls, row, rules[cls]))
     if not packages:
         raise LibraryError(str(path), "no packages listed")

@@ -6,7 +6,7 @@ from __future__ import annotations
 from ..errors import DesignError
 from .numbers import NUM_RE, PLAIN_NUM, number_warning, parse_number
 from .expr import ExprError, Scope, evaluate, strip_braces
-from .limits import limit_hint
+from .limits import SUBCKT_DEPTH, limit_hint
 from .lines import Line
 from .tokens import REF_RE, is_kv, nodes_and_params, split_tokens
 from .collect import Subckt, read_params
@@ -34,7 +34,6 @@ _ANALYSIS = frozenset({
 })
 
 
-_MAX_DEPTH = 50
 
 
 def net_key(b: Build, ctx: Ctx, node: str, ln: Line) -> str:
@@ -313,8 +312,8 @@ def _instance(ln: Line, ctx: Ctx, b: Build, spice_name: str) -> None:
                           f"{len(node_toks)} nodes", line=ln.line)
     if sub.name.lower() in ctx.stack:
         raise DesignError(ln.file, f"{name}: subcircuit {sub.name} calls itself", line=ln.line)
-    if len(ctx.stack) >= _MAX_DEPTH:
-        raise DesignError(ln.file, f"{name}: subcircuits nest deeper than {_MAX_DEPTH} levels", line=ln.line)
+    if len(ctx.stack) >= SUBCKT_DEPTH:
+        raise DesignError(ln.file, f"{name}: subcircuits nest deeper than {SUBCKT_DEPTH} levels", line=ln.line)
     if not REF_RE.match(name):
         raise DesignError(ln.file, f"{name}: '{name}' cannot start a board reference (a letter, then letters, "
                           f"digits or _)", line=ln.line)
@@ -338,11 +337,12 @@ def _flatten(ln: Line, ctx: Ctx, b: Build, name: str, sub: Subckt, node_toks: li
         except ExprError as exc:
             raise _expr_error(exc, ln, name) from None
         values[k] = (repr(val), f, l)
-    scope = Scope(values, parent=global_scope(b))
+    depth = b.rd.limits.expression_depth
+    scope = Scope(values, parent=global_scope(b), depth=depth)
     local: dict[str, tuple[str, str, int]] = {}
     for body_line in sub.body:
         if body_line.text.split()[0].lower() in (".param", ".params"):
             read_params(body_line, local)
-    inner = Ctx(path=(*ctx.path, name), ports=ports, scope=Scope(local, parent=scope),
+    inner = Ctx(path=(*ctx.path, name), ports=ports, scope=Scope(local, parent=scope, depth=depth),
                  stack=(*ctx.stack, sub.name.lower()))
     elaborate(sub.body, inner, b)

@@ -24,6 +24,10 @@ EXPANSION_PARTS = 100_000
 #: longest chain of parameters defined by one another.
 EXPRESSION_DEPTH = 1_000
 
+#: Deepest nesting of subcircuit instances flattened (fixed: the expansion
+#: limit above bounds the work, this one the reader's call depth).
+SUBCKT_DEPTH = 50
+
 #: ``[limits]`` key in project.toml -> default value.
 DEFAULTS = {
     "spice_file_bytes": FILE_BYTES,

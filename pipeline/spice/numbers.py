@@ -6,21 +6,21 @@ import math
 import re
 from decimal import Decimal, InvalidOperation, Overflow, Underflow, localcontext
 
+from ..values import PREFIX_EXPONENT
 
-#: SPICE scale factors (ngspice manual, "Conventions"): letters -> factor.
-#: Longest first: ``MEG`` and ``MIL`` before ``M``.
-SCALE_FACTORS: tuple[tuple[str, Decimal], ...] = (
-    ("MEG", Decimal("1e6")),
-    ("MIL", Decimal("25.4e-6")),
-    ("T", Decimal("1e12")),
-    ("G", Decimal("1e9")),
-    ("K", Decimal("1e3")),
-    ("M", Decimal("1e-3")),
-    ("U", Decimal("1e-6")),
-    ("N", Decimal("1e-9")),
-    ("P", Decimal("1e-12")),
-    ("F", Decimal("1e-15")),
-)
+
+#: SPICE's scale-factor letters (ngspice manual, "Conventions": any case) ->
+#: the SI prefix each stands for; the powers of ten are pipeline.values' own.
+#: ``MEG`` is mega and ``M`` milli, unlike SI.
+_SPICE_PREFIX = (("MEG", "M"), ("T", "T"), ("G", "G"), ("K", "k"), ("M", "m"), ("U", "u"), ("N", "n"),
+                 ("P", "p"), ("F", "f"))
+#: ``MIL``: a thousandth of an inch, 25.4 um (the inch is 25.4 mm exactly, international yard and pound, 1959).
+_MIL = Decimal("25.4e-6")
+
+#: SPICE scale factors: letters -> factor, longest first (``MEG`` and ``MIL`` before ``M``).
+SCALE_FACTORS: tuple[tuple[str, Decimal], ...] = tuple(sorted(
+    [*((letters, Decimal(1).scaleb(PREFIX_EXPONENT[si])) for letters, si in _SPICE_PREFIX), ("MIL", _MIL)],
+    key=lambda item: -len(item[0])))
 
 
 NUM_RE = re.compile(r"([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)(.*)\Z", re.S)
