@@ -609,6 +609,7 @@ def _neighbourhood(value: float, series: str) -> list[float]:
     return out
 
 
+@lru_cache(maxsize=4096)  # a pure function of the value; designs repeat values (issue 13 item 13)
 def series_of(value: float) -> tuple[str, ...]:
     """The E-series (coarsest first) that contain ``value`` at some decade.
 
