@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import json
 import math
+import re
 import shutil
 import subprocess
 import sys
@@ -894,6 +895,19 @@ def test_registry_holds_every_type_module():
     found = {t.name for m in pkgutil.iter_modules(pkg.__path__)
              for t in importlib.import_module(f"{pkg.__name__}.{m.name}").TYPES}
     assert found == set(BLOCK_TYPES) and len(found) >= 9
+
+
+def test_readme_documents_every_block_type_with_its_roles_and_figures():
+    # README's declared-stages table has one row per registered type, naming every role and figure.
+    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+    rows = {}
+    for m in re.finditer(r"^\| (`[a-z0-9-]+`(?:, `[a-z0-9-]+`)*) \|.*$", readme, re.M):
+        for name in re.findall(r"`([a-z0-9-]+)`", m.group(1)):
+            rows[name] = m.group(0)
+    for name, btype in BLOCK_TYPES.items():
+        assert name in rows, f"README lacks block type {name}"
+        for item in [r.name for r in btype.roles] + [f.name for f in btype.figures] + [k for k, _ in btype.keys]:
+            assert f"`{item}`" in rows[name], f"README row of {name} lacks {item}"
 
 
 def test_filters_helpers():

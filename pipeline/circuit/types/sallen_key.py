@@ -14,11 +14,10 @@ from typing import Any, Mapping, Sequence
 import numpy as np
 
 from .. import formulas as F
-from ..blocktype import BlockType, FigureSpec, RoleRules, RoleSpec
+from ..blocktype import AMP, BlockType, FigureSpec, RoleRules, RoleSpec
 from ...model import Finding
 from ...values import format_quantity
 
-AMP = RoleSpec("amp", "amp", "the op-amp (optional; checked to be an op-amp or comparator)", False)
 _GAIN = (
     RoleSpec("Ra", "resistor", "output to the inverting input (gain 1 + Ra/Rb; with Rb)", False),
     RoleSpec("Rb", "resistor", "inverting input to ground (with Ra)", False),
