@@ -54,6 +54,8 @@ CODES: dict[str, Code] = {
     "connect.case-clash": _c("warning", "net names that differ only in case"),
     # design readers (pipeline/design.py, pipeline/spice.py)
     "design.duplicate-pin": _c("warning", "a pin listed twice on one net"),
+    "design.height-default": _c("info", "chip capacitors that take their package's height (a thick "
+                                        "capacitor's) because the design gives no height_mm"),
     "design.old-role-name": _c("warning", "a pin role in the previous release's spelling (power-in, "
                                           "passive, ...): read as its new name for one more release"),
     "spice.title-line": _c("warning", "the first line of a SPICE file is read as its title, as SPICE does"),

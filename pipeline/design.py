@@ -28,18 +28,19 @@ from typing import Any, Iterable
 
 from . import values as _values
 from .errors import DesignError
-from .model import OLD_PIN_ROLES, PIN_ROLES, Design, Finding, Net, Part, PartKind, PinDef, PinRef, RawTable
+from .library.custom import package_from_table
+from .model import Package, OLD_PIN_ROLES, PIN_ROLES, Design, Finding, Net, Part, PartKind, PinDef, PinRef, RawTable
 from .tomlsrc import TomlSource, load
 
 __all__ = ["read_design", "read_design_text", "KIND_CATEGORIES"]
 
 KIND_CATEGORIES = ("passive", "polarized", "semiconductor", "ic", "connector")
 
-_TOP_KEYS = ("design", "kinds", "parts", "nets", "voltages", "stages")
+_TOP_KEYS = ("design", "packages", "kinds", "parts", "nets", "voltages", "stages")
 _DESIGN_KEYS = ("name", "revision", "note")
 _PART_KEYS = (
     "kind", "value", "package", "tolerance", "rating", "manufacturer", "mpn",
-    "note", "dnp", "supplier", "order_code", "description",
+    "note", "dnp", "supplier", "order_code", "description", "height_mm",
 )
 _PASSTHROUGH = ("supplier", "order_code", "description")
 _KIND_KEYS = ("category", "package", "pins", "description", "value_unit", "board_feature")
@@ -138,6 +139,8 @@ def _read(src: TomlSource, library: Any) -> tuple[Design, list[Finding]]:
     name = _expect_str(src, "design.name", head.get("name", Path(src.display).stem))
     revision = _expect_str(src, "design.revision", head.get("revision", ""))
 
+    packages = _read_packages(src, _expect_table(src, "packages", data.get("packages", {})), library)
+    library = library.with_packages(packages)
     kinds, default_pkgs = _read_kinds(src, _expect_table(src, "kinds", data.get("kinds", {})), library,
                                       warnings)
     lib = library.with_kinds(kinds) if kinds else library
@@ -147,6 +150,7 @@ def _read(src: TomlSource, library: Any) -> tuple[Design, list[Finding]]:
         raise _err(src, "parts", "the design has no parts: add [parts.REF] tables")
     parts = tuple(_read_part(src, ref, body, lib, default_pkgs) for ref, body in parts_tbl.items())
     by_ref = {p.ref: p for p in parts}
+    warnings.extend(_height_notes(parts, lib))
 
     nets_tbl = _expect_table(src, "nets", data.get("nets", {}))
     volts = _read_voltages(src, _expect_table(src, "voltages", data.get("voltages", {})), nets_tbl)
@@ -168,7 +172,7 @@ def _read(src: TomlSource, library: Any) -> tuple[Design, list[Finding]]:
     )
     design = Design(
         name=name, revision=revision, source=src.display, parts=parts, nets=nets,
-        stages=stages, kinds=tuple(kinds),
+        stages=stages, kinds=tuple(kinds), packages=packages,
     )
     return design, warnings
 
@@ -232,6 +236,37 @@ def _read_kinds(src: TomlSource, table: dict, library: Any,
     return out, defaults
 
 
+def _read_packages(src: TomlSource, table: dict, library: Any) -> tuple[Package, ...]:
+    """The design's own packages (``[packages.NAME]``, pipeline.library.custom)."""
+    out = []
+    for name, body in table.items():
+        key = f"packages.{name}"
+        if library.has_package(name):
+            raise _err(src, key, f"package '{name}' already exists in the library; give yours another name")
+        out.append(package_from_table(name, body, key, lambda k, why: _err(src, k, why),
+                                      library.general_rule(), library.grid_mm))
+    return tuple(out)
+
+
+def _height_notes(parts: tuple[Part, ...], lib: Any) -> list[Finding]:
+    """One note naming the chip capacitors that take the package's (capacitor) height.
+
+    Chip resistors take their size code's resistor thickness (``heights.csv``);
+    a chip capacitor's thickness depends on its value, so it takes the package
+    height unless the design gives ``height_mm``.
+    """
+    refs = [p.ref for p in parts if p.kind == "capacitor" and p.height_mm is None
+            and lib.package(p.package).family == "chip"]
+    if not refs:
+        return []
+    sizes = sorted({p.package for p in parts if p.ref in refs})
+    shown = ", ".join(f"{s} {lib.package(s).height_mm:.2f} mm" for s in sizes)
+    return [Finding("info", "design.height-default", tuple(refs),
+                    f"{', '.join(refs)}: chip capacitors take the package height ({shown}, a "
+                    "thick capacitor's); chip resistors take the resistor thickness. Give "
+                    "height_mm on a part to use its datasheet figure")]
+
+
 def _at(src: TomlSource, key: str) -> dict[str, Any]:
     """Where a library lookup reports an unknown name: this file, at ``key``."""
     return {"file": src.display, "line": src.line(key), "key": key}
@@ -292,6 +327,11 @@ def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dic
     extra = tuple(sorted(
         (k, _expect_str(src, f"{key}.{k}", body[k])) for k in _PASSTHROUGH if k in body
     ))
+    height = body.get("height_mm")
+    if height is not None and (isinstance(height, bool) or not isinstance(height, (int, float))
+                               or not 0 < height < 100):
+        raise _err(src, f"{key}.height_mm", f"height_mm must be a number of millimetres above 0, "
+                                            f"got {height!r}")
     return Part(
         ref=ref, kind=kind.name, package=package.name, pins=pins, value=value, value_text=value_text,
         tolerance=tol, tolerance_text=tol_text, rating_v=rv, rating_w=rw, rating_text=rating_text,
@@ -299,6 +339,7 @@ def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dic
         mpn=_expect_str(src, f"{key}.mpn", body.get("mpn", "")),
         note=_expect_str(src, f"{key}.note", body.get("note", "")),
         dnp=dnp, extra=extra, line=src.line(key) or 0,
+        height_mm=None if height is None else float(height),
     )
 
 

@@ -251,6 +251,9 @@ class Part:
     dnp: bool = False
     extra: tuple[tuple[str, str], ...] = ()
     line: int = 0
+    #: The part's own seated height, mm, when the design gives one (a 10 uF 0603
+    #: capacitor is thicker than the package default); ``None``: by kind and package.
+    height_mm: float | None = None
 
     def pin(self, number: str) -> PinDef:
         for p in self.pins:
@@ -308,6 +311,8 @@ class Design:
     nets: tuple[Net, ...]
     stages: tuple[RawTable, ...] = ()
     kinds: tuple[PartKind, ...] = ()
+    #: Packages the design defines itself (``[packages.NAME]``).
+    packages: tuple["Package", ...] = ()
     #: every file the reader opened (the design, its includes, a parts map and its
     #: includes), resolved; outputs never write over any of them.
     inputs: tuple[str, ...] = ()

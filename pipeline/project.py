@@ -279,7 +279,7 @@ def _read_and_check(path: Path, shown: str, parts_map: Path | None, root: Path |
     library = load_library()
     design, warnings = read_any_design(Path(path), library, shown=shown, parts_map=parts_map, root=root,
                                        limits=limits)
-    lib = library.with_kinds(design.kinds)
+    lib = library.with_kinds(design.kinds).with_packages(design.packages)
     g = build_graph(design)
     findings = (*warnings, *check_connections(design, g, _categories(design, lib)), *check_values(design))
     reports, block_findings = analyse_blocks(design, progress=progress, **analysis)

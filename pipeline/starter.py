@@ -183,4 +183,6 @@ def write_starter(folder: str | os.PathLike) -> list[Path]:
     if path.exists() and (not path.is_dir() or any(path.iterdir())):
         what = "is not a folder" if not path.is_dir() else "already holds files"
         raise ProjectError(str(folder), f"{what}; `snugboard new` writes only into a new or empty folder")
+    from .export.atomic import write_all
+
     return write_all(path, starter_files(), manifest=False)

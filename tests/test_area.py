@@ -120,7 +120,11 @@ def test_items_from_design(lib):
     for it in items:
         cy = lib.package(it.package).courtyard("nominal")
         assert (it.length_mm, it.width_mm) == (cy.length_mm, cy.width_mm)
-        assert it.height_mm == lib.package(it.package).height_mm
+        # heights by kind: chip resistors their resistor thickness (REFERENCES.md s1 + allowance,
+        # footprints/heights.csv), other parts the package height
+        assert it.height_mm == lib.part_height(("resistor" if it.ref.startswith("R") else "opamp-dual"),
+                                               lib.package(it.package))[0]
+    assert r1.height_mm < lib.package("0603").height_mm  # a 0603 resistor is thinner than a capacitor
     # EIA 0603 body 1.60 x 0.80 (REFERENCES.md s1) plus the IPC-7351B level B excess of 0.25 a side
     # (REFERENCES.md s3, memory): the courtyard can be no smaller than 2.10 x 1.30
     assert r1.length_mm >= 1.60 + 2 * 0.25 - 1e-9 and r1.width_mm >= 0.80 + 2 * 0.25 - 1e-9

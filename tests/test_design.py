@@ -48,7 +48,8 @@ IN = ["U1.+IN", "R2.1"]
 
 def test_contract_design_reads(design_from):
     d, warnings = design_from(CONTRACT_DESIGN)
-    assert warnings == []
+    # the only note: chip capacitors take the package (capacitor) height
+    assert [w.check for w in warnings] in ([], ["design.height-default"])
     assert d.name == "contract example" and d.revision == "A"
     r1 = d.part("R1")
     assert (r1.value, r1.tolerance, r1.rating_w, r1.rating_v) == (10_000.0, 0.01, 0.1, None)
@@ -83,7 +84,7 @@ GND = ["U7.gnd", "C1.2"]
     u7 = d.part("U7")
     # the previous release's role spellings are read as the new names, each with a warning
     assert u7.package == "SOT-23" and [p.role for p in u7.pins] == ["supply", "out", "supply"]
-    assert [w.check for w in warnings] == ["design.old-role-name"] * old
+    assert [w.check for w in warnings if w.severity == "warning"] == ["design.old-role-name"] * old
     assert [str(p) for p in d.net("GND").pins] == ["U7.3", "C1.2"]
     assert d.kinds[0].name == "trigger-sensor"
 
@@ -178,3 +179,106 @@ def test_missing_file_is_input_error(library, tmp_path):
     (tmp_path / "bin.toml").write_bytes(b"\xff\xfe[parts]")
     with pytest.raises(DesignError, match="not UTF-8"):
         read_design(tmp_path / "bin.toml", library, display="bin.toml")
+
+
+@pytest.mark.parametrize("height,ok", [("1.25", True), ("0", False), ("\"tall\"", False), ("true", False)])
+def test_part_height_override(design_from, height, ok):
+    text = f"""
+[parts.C1]
+kind = "capacitor"
+value = "10uF"
+package = "0603"
+height_mm = {height}
+[parts.C2]
+kind = "capacitor"
+value = "100nF"
+package = "0603"
+[nets]
+A = ["C1.1", "C2.1"]
+B = ["C1.2", "C2.2"]
+"""
+    if not ok:
+        with pytest.raises(DesignError) as info:
+            design_from(text)
+        assert info.value.key == "parts.C1.height_mm" and info.value.line == 6  # the key's line
+        return
+    d, warnings = design_from(text)
+    assert d.part("C1").height_mm == 1.25 and d.part("C2").height_mm is None
+    # the note names only the capacitor that takes the package height
+    note = [w for w in warnings if w.check == "design.height-default"]
+    assert len(note) == 1 and note[0].subject == ("C2",) and "0603 0.90 mm" in note[0].message
+
+
+# --------------------------------------------------------------------------
+# Packages defined in the design file ([packages.NAME])
+# --------------------------------------------------------------------------
+_CUSTOM_PARTS = """
+[kinds.sensor]
+category = "ic"
+pins = [ { number = 1, name = "VDD", role = "supply" }, { number = 2, name = "OUT", role = "out" },
+         { number = 3, name = "GND", role = "supply" }, { number = 4, name = "NC", role = "nc" } ]
+[parts.U1]
+kind = "sensor"
+package = "my-pkg"
+height_mm = 1.1
+[parts.C1]
+kind = "capacitor"
+value = "100n"
+package = "0402"
+[nets]
+VDD = ["U1.VDD", "C1.1"]
+GND = ["U1.GND", "C1.2"]
+"""
+
+
+@pytest.mark.parametrize("table,pads", [
+    ('body = [3.0, 3.0]\nheight_mm = 1.0\npattern = { layout = "two-rows", pins = 4, pitch = 1.27, '
+     'span = 3.6, pad = [0.6, 1.2] }',
+     [("1", -0.635, -1.8), ("2", 0.635, -1.8), ("3", 0.635, 1.8), ("4", -0.635, 1.8)]),
+    ('body = [4.0, 2.0]\nheight_mm = 1.0\npattern = { layout = "one-row", pins = 4, pitch = 1.0, '
+     'pad = [0.6, 1.5], drill = 0.4 }',
+     [("1", -1.5, 0.0), ("2", -0.5, 0.0), ("3", 0.5, 0.0), ("4", 1.5, 0.0)]),
+    ('body = [3.0, 3.0]\nheight_mm = 1.0\npattern = { layout = "grid", rows = 2, columns = 2, '
+     'pitch = 2.0, row_pitch = 1.6, pad = [0.8, 0.8] }',
+     [("1", -1.0, -0.8), ("2", 1.0, -0.8), ("3", -1.0, 0.8), ("4", 1.0, 0.8)]),
+    ('body = [3.0, 3.0]\nheight_mm = 1.0\npads = [ { number = 1, x = -1, y = 0, size = [0.5, 0.5] }, '
+     '{ number = 2, x = 1, y = 0, size = [0.5, 0.5] }, { number = 3, x = 0, y = 1, size = [0.5, 0.5] }, '
+     '{ number = 4, x = 0, y = -1, size = [0.5, 0.5], shape = "circle" } ]',
+     [("1", -1.0, 0.0), ("2", 1.0, 0.0), ("3", 0.0, 1.0), ("4", 0.0, -1.0)]),
+])
+def test_design_defined_packages(design_from, table, pads):
+    d, _ = design_from(f"[packages.my-pkg]\n{table}\n{_CUSTOM_PARTS}")
+    (pkg,) = d.packages
+    # pad centres by closed form: (i - (n - 1) / 2) x pitch along a row, +- span / 2 across
+    assert [(p.number, p.x_mm, p.y_mm) for p in pkg.pads] == pads
+    assert d.part("U1").package == "my-pkg" and d.part("U1").height_mm == 1.1
+    # the courtyard holds every pad at every level (IPC-7351B general excess)
+    for lv in ("most", "nominal", "least"):
+        cy = pkg.courtyard(lv)
+        assert all(abs(p.x_mm) + p.width_mm / 2 <= cy.length_mm / 2 for p in pkg.pads_at(lv))
+
+
+@pytest.mark.parametrize("table,key,why", [
+    ('body = [3.0, 3.0]\nheight_mm = 1.0\npads = [ { number = 1, x = 9, y = 0, size = [0.5, 0.5] }, '
+     '{ number = 2, x = 1, y = 0, size = [0.5, 0.5] }, { number = 3, x = 0, y = 1, size = [0.5, 0.5] }, '
+     '{ number = 4, x = 0, y = -1, size = [0.5, 0.5] } ]', "packages.my-pkg.pads", "clear of"),
+    ('body = [3.0, 3.0]\nheight_mm = 1.0\ncourtyard = [2.0, 2.0]\npattern = { layout = "two-rows", '
+     'pins = 4, pitch = 1.27, span = 3.6, pad = [0.6, 1.2] }', "packages.my-pkg.pattern", "courtyard"),
+    ('body = [3.0, 3.0]\nheight_mm = 1.0\npattern = { layout = "zigzag", pins = 4, pitch = 1.0, '
+     'pad = [0.6, 1.2] }', "packages.my-pkg.pattern.layout", "unknown layout"),
+    ('body = [3.0, 3.0]\npattern = { layout = "one-row", pins = 4, pitch = 1.0, pad = [0.6, 1.2] }',
+     "packages.my-pkg.height_mm", "number"),
+    ('body = [3.0, 3.0]\nheight_mm = 1.0\npattern = { layout = "two-rows", pins = 3, pitch = 1.0, '
+     'span = 2, pad = [0.6, 1.2] }', "packages.my-pkg.pattern.pins", "divisible"),
+])
+def test_bad_design_defined_packages(design_from, table, key, why):
+    with pytest.raises(DesignError) as info:
+        design_from(f"[packages.my-pkg]\n{table}\n{_CUSTOM_PARTS}")
+    assert info.value.key == key and why in info.value.reason and info.value.line is not None
+
+
+def test_design_package_may_not_shadow_the_library(design_from):
+    with pytest.raises(DesignError) as info:
+        design_from('[packages.SOIC-8]\nbody = [1, 1]\nheight_mm = 1\npattern = { layout = "one-row", '
+                    'pins = 1, pitch = 0, pad = [0.5, 0.5] }\n' + _CUSTOM_PARTS)
+    assert info.value.key == "packages.SOIC-8" and "already exists" in info.value.reason

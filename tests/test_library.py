@@ -36,6 +36,8 @@ TOE_B = 0.35  # IPC-7351B level B toe goal, 1608 and larger (REFERENCES.md s3, m
 EXCESS_GENERAL = {"most": 0.50, "nominal": 0.25, "least": 0.10}
 EXCESS_SMALL_CHIP = {"most": 0.20, "nominal": 0.15, "least": 0.10}  # chips below 1608 metric
 SMALL_CHIPS = {"0201", "0402"}  # metric 0603 and 1005: smaller than 1608 (REFERENCES.md s1)
+# aluminium cans and two-pin metal-can crystals: IPC-7351B Table 3-20 excess (memory)
+EXCESS_LARGE = {"most": 1.00, "nominal": 0.50, "least": 0.25}
 
 
 @pytest.fixture(scope="module")
@@ -225,6 +227,8 @@ def test_dip8_ms001(lib):
 # IPC-7351B courtyards (REFERENCES.md s3)
 # --------------------------------------------------------------------------
 def _expected_excess(name: str) -> dict[str, float]:
+    if name.startswith("can-") or name.startswith("xtal-11.4"):
+        return EXCESS_LARGE
     return EXCESS_SMALL_CHIP if name in SMALL_CHIPS else EXCESS_GENERAL
 
 
@@ -799,3 +803,74 @@ def test_edited_copy_is_reread(fp_copy):
     _pkg_cell(fp_copy, "0805", 5, "1.50")
     second = load_library(fp_copy)
     assert second is not first and _close(second.package("0805").height_mm, 1.50)
+
+
+# --------------------------------------------------------------------------
+# Heights by kind (issue 8 item 4) and the new packages against their size codes
+# --------------------------------------------------------------------------
+@pytest.mark.parametrize("size,typical", [("0201", 0.23), ("0402", 0.35), ("0603", 0.45),
+                                          ("0805", 0.50), ("1206", 0.55), ("2512", 0.55)])
+def test_chip_resistors_take_the_resistor_thickness(lib, size, typical):
+    pkg = lib.package(size)
+    res, basis = lib.part_height("resistor", pkg)
+    cap, _ = lib.part_height("capacitor", pkg)
+    # typical resistor thickness of the size code (REFERENCES.md s1) plus at most 0.10 allowance
+    assert typical <= res <= typical + 0.10 + 1e-9 and "REFERENCES.md s1" in basis
+    # capacitors keep the package height, which may reach the body width (s1 note)
+    assert cap == pkg.height_mm and cap >= res
+
+
+@pytest.mark.parametrize("name,d,h", [("can-4x5.4", 4.0, 5.4), ("can-5x5.4", 5.0, 5.4),
+                                      ("can-6.3x5.4", 6.3, 5.4), ("can-6.3x7.7", 6.3, 7.7),
+                                      ("can-8x6.2", 8.0, 6.2), ("can-8x10.2", 8.0, 10.2)])
+def test_aluminium_cans_match_their_size_code(lib, name, d, h):
+    pkg = lib.package(name)
+    # the size code is can diameter x height (common practice); the base plate is D + 0.3
+    # square and the seated height the code's height plus at most 0.3 (memory)
+    assert _close(pkg.body_length_mm, d + 0.3) and _close(pkg.body_width_mm, d + 0.3)
+    assert h <= pkg.height_mm <= h + 0.3 + 1e-9
+    one, two = pkg.pads
+    assert one.x_mm < 0 < two.x_mm and pkg.pin_count == 2
+
+
+@pytest.mark.parametrize("name,s,h", [("ind-2.5x1.2", 2.5, 1.2), ("ind-3x1.5", 3.0, 1.5),
+                                      ("ind-4x2", 4.0, 2.0), ("ind-5x3", 5.0, 3.0),
+                                      ("ind-6x3", 6.0, 3.0)])
+def test_power_inductors_match_their_size(lib, name, s, h):
+    pkg = lib.package(name)
+    # square body of the named size and the named height (common practice size codes)
+    assert _close(pkg.body_length_mm, s) and _close(pkg.body_width_mm, s) and _close(pkg.height_mm, h)
+    # molded terminals fold under the body: the lands reach beyond it by the heel goal only
+    assert pkg.land_length_mm <= s + 2 * 0.80 + 0.5
+
+
+@pytest.mark.parametrize("name,l,w,pins", [("xtal-3.2x2.5", 3.2, 2.5, 4), ("xtal-2.5x2.0", 2.5, 2.0, 4),
+                                           ("xtal-2.0x1.6", 2.0, 1.6, 4), ("xtal-11.4x4.7", 11.4, 4.7, 2),
+                                           ("tact-6x6x4.3", 6.0, 6.0, 4), ("tact-6x6x5", 6.0, 6.0, 4),
+                                           ("tact-4.5x4.5x3.8", 4.5, 4.5, 4), ("tact-3x6x2.5", 6.0, 3.0, 2),
+                                           ("tact-3x4x2", 4.0, 3.0, 2)])
+def test_crystals_and_switches_match_their_size(lib, name, l, w, pins):
+    pkg = lib.package(name)
+    # body from the size in the name (common package size codes, memory); tactile switch
+    # heights are the third figure of the name
+    assert _close(pkg.body_length_mm, l) and _close(pkg.body_width_mm, w) and pkg.pin_count == pins
+    if name.startswith("tact-"):
+        assert _close(pkg.height_mm, float(name.split("x")[-1]))
+    if pins == 4:
+        # four pads anticlockwise from pin 1 at lower left (common practice)
+        by = {p.number: p for p in pkg.pads}
+        assert by["1"].x_mm < 0 > by["1"].y_mm and by["3"].x_mm > 0 < by["3"].y_mm
+
+
+@pytest.mark.parametrize("name,pins,ep", [("DFN-8-2x2", 8, (1.50, 0.90)), ("DFN-8-3x3", 8, (2.40, 1.60))])
+def test_dfn_with_exposed_pad(lib, name, pins, ep):
+    pads = lib.package(name).pads
+    # MO-229 two-row no-lead: eight terminals and a centre exposed pad (memory)
+    assert len(pads) == pins + 1 and (pads[-1].number, pads[-1].width_mm, pads[-1].height_mm) == ("EP", *ep)
+
+
+@pytest.mark.parametrize("name,h", [("SOD-523", 0.70), ("TSOT-23-5", 1.00), ("TSOT-23-6", 1.00),
+                                    ("SOT-89", 1.60)])
+def test_small_outlines_added(lib, name, h):
+    # maximum heights of the outlines (SOD-523, MO-193, TO-243AA; memory)
+    assert _close(lib.package(name).height_mm, h)

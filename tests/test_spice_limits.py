@@ -84,6 +84,19 @@ def test_deep_chain_reads_when_the_limit_is_raised(tmp_path):
     assert design.parts[0].value == 4700.0
 
 
+def test_raised_limit_holds_inside_subcircuits(tmp_path):
+    # A subcircuit's own .param scope obeys the raised limit too, not the default.
+    n = 1500
+    params = "\n".join(f".param p{i}={{p{i - 1}}}" for i in range(1, n))
+    _write(tmp_path, {"main.cir": f"t\n.subckt s a b\n.param p0=3.3k\n{params}\nR1 a b {{p{n - 1}}}\n.ends s\n"
+                                  f"X1 in 0 s\n"})
+    with pytest.raises(DesignError, match="expression_depth"):
+        read_spice(tmp_path / "main.cir", LIB, display_name="main.cir")
+    design, _ = read_spice(tmp_path / "main.cir", LIB, display_name="main.cir",
+                           limits=SpiceLimits(expression_depth=n + 1))
+    assert design.parts[0].value == 3300.0
+
+
 def test_nesting_within_the_limit_evaluates(tmp_path):
     depth = EXPRESSION_DEPTH - 10
     expr = "(" * depth + "2.2k" + ")" * depth

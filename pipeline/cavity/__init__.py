@@ -118,9 +118,17 @@ from .limits import (
     REL_TOL,
     Limits,
 )
-from .read import read_cavity
 from .roles import LayerRoles, parse_layer_map
 from .units import MM_PER_UNIT, UNIT_NAMES, cavity_units, unit_code
+
+
+def __getattr__(name: str):
+    """``read_cavity`` is imported on first use: it brings the DXF and geometry libraries, which
+    a command that only reads the project file's limits or layer map must not pay for."""
+    if name == "read_cavity":
+        from .read import read_cavity
+        return read_cavity
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 __all__ = [
     "read_cavity",

@@ -191,6 +191,32 @@ def edif_netlist(design: Design, *, timestamp: int | None = None) -> bytes:
     >>> "(portRef (rename &1 \\"1\\")" in text, "(portRef &1 (instanceRef R1))" in text
     (False, True)
     """
+    cells, cell_info = _cells(design)
+    top_original = design.name or "design"
+    cell_scope = _Scope(list(cells) + [top_original])
+    inst_scope = _Scope(p.ref for p in design.parts)
+    port_scopes = {c: _Scope(pins) for c, pins in cells.items()}
+    top = cell_scope.ref(top_original)
+    top_def = cell_scope.define(top_original)
+    library = _parts_library(cells, cell_info, cell_scope, port_scopes)
+    contents = _contents(design, cell_scope, inst_scope, port_scopes)
+    tree = [
+        "edif", top_def,
+        ["edifVersion", "2", "0", "0"],
+        ["edifLevel", "0"],
+        ["keywordMap", ["keywordLevel", "0"]],
+        ["status", ["written", _stamp(timestamp), ["program", edif_string("snugboard")]]],
+        library,
+        ["library", _DESIGN_LIB, ["edifLevel", "0"], ["technology", ["numberDefinition"]],
+         ["cell", top_def, ["cellType", "GENERIC"],
+          ["view", "netlist", ["viewType", "NETLIST"], ["interface"], contents]]],
+        ["design", top_def, ["cellRef", top, ["libraryRef", _DESIGN_LIB]]],
+    ]
+    return (_render(tree, 0) + "\n").encode("ascii")
+
+
+def _cells(design: Design) -> tuple[dict[str, dict[str, PinDef]], dict[str, tuple[str, str]]]:
+    """One cell per kind and package: its ports by pin number, and its (kind, package)."""
     cells: dict[str, dict[str, PinDef]] = {}
     cell_info: dict[str, tuple[str, str]] = {}
     for part in design.parts:
@@ -206,15 +232,12 @@ def edif_netlist(design: Design, *, timestamp: int | None = None) -> bytes:
             part = by_ref.get(pr.ref)
             if part is not None:
                 cells[_cell_name(part)].setdefault(pr.pin, PinDef(pr.pin, pr.pin, "passive"))
+    return cells, cell_info
 
-    top_original = design.name or "design"
-    cell_scope = _Scope(list(cells) + [top_original])
-    inst_scope = _Scope(p.ref for p in design.parts)
-    net_scope = _Scope(n.name for n in design.nets)
-    port_scopes = {c: _Scope(pins) for c, pins in cells.items()}
-    top = cell_scope.ref(top_original)
-    top_def = cell_scope.define(top_original)
 
+def _parts_library(cells: dict[str, dict[str, PinDef]], cell_info: dict[str, tuple[str, str]], cell_scope: _Scope,
+                   port_scopes: dict[str, _Scope]) -> list:
+    """The ``SNUG_PARTS`` library: each cell's ports (direction from the pin role) and properties."""
     library: list = ["library", _PARTS_LIB, ["edifLevel", "0"], ["technology", ["numberDefinition"]]]
     for cname in sorted(cells, key=natural_key):
         kind, package = cell_info[cname]
@@ -228,8 +251,13 @@ def edif_netlist(design: Design, *, timestamp: int | None = None) -> bytes:
                         ["view", "netlist", ["viewType", "NETLIST"], interface],
                         ["property", "kind", ["string", edif_string(kind)]],
                         ["property", "package", ["string", edif_string(package)]]])
+    return library
 
+
+def _contents(design: Design, cell_scope: _Scope, inst_scope: _Scope, port_scopes: dict[str, _Scope]) -> list:
+    """The board cell's contents: one instance per part, one net per net (a dict lookup per pin)."""
     contents: list = ["contents"]
+    ports_of = {p.ref: port_scopes[_cell_name(p)] for p in design.parts}
     for part in design.parts:
         inst: list = ["instance", inst_scope.define(part.ref),
                       ["viewRef", "netlist", ["cellRef", cell_scope.ref(_cell_name(part)), ["libraryRef", _PARTS_LIB]]]]
@@ -238,28 +266,15 @@ def edif_netlist(design: Design, *, timestamp: int | None = None) -> bytes:
             if v:
                 inst.append(["property", k, ["string", edif_string(v)]])
         contents.append(inst)
+    net_scope = _Scope(n.name for n in design.nets)
     for net in design.nets:
         joined: list = ["joined"]
         for pr in net.pins:
-            part = by_ref.get(pr.ref)
-            if part is None:
-                continue
-            joined.append(["portRef", port_scopes[_cell_name(part)].ref(pr.pin), ["instanceRef", inst_scope.ref(pr.ref)]])
+            scope = ports_of.get(pr.ref)
+            if scope is not None:
+                joined.append(["portRef", scope.ref(pr.pin), ["instanceRef", inst_scope.ref(pr.ref)]])
         contents.append(["net", net_scope.define(net.name), joined])
-
-    tree = [
-        "edif", top_def,
-        ["edifVersion", "2", "0", "0"],
-        ["edifLevel", "0"],
-        ["keywordMap", ["keywordLevel", "0"]],
-        ["status", ["written", _stamp(timestamp), ["program", edif_string("snugboard")]]],
-        library,
-        ["library", _DESIGN_LIB, ["edifLevel", "0"], ["technology", ["numberDefinition"]],
-         ["cell", top_def, ["cellType", "GENERIC"],
-          ["view", "netlist", ["viewType", "NETLIST"], ["interface"], contents]]],
-        ["design", top_def, ["cellRef", top, ["libraryRef", _DESIGN_LIB]]],
-    ]
-    return (_render(tree, 0) + "\n").encode("ascii")
+    return contents
 
 
 #: Widest line, indent included, that a list is written on as a whole.

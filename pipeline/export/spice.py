@@ -243,96 +243,115 @@ def _is_regulator(kind: str, pins: Iterable[PinDef]) -> bool:
     return ("ldo" in kind or "regulator" in kind) and {"IN", "OUT", "GND"} <= names
 
 
+@dataclass
+class _Ports:
+    """A stub's ports (named after the kind's pins) and the ones its body drives or loads."""
+
+    pins: tuple[PinDef, ...]
+    names: list[str]
+    by_name: dict[str, str]
+    used: set[str] = field(default_factory=set)
+
+    def get(self, *names: str) -> str | None:
+        return next((self.by_name[n] for n in names if n in self.by_name), None)
+
+    @property
+    def vpos(self) -> str | None:
+        return self.get("V+", "VCC", "VDD")
+
+    @property
+    def vneg(self) -> str | None:
+        return self.get("V-", "GND", "VEE", "VSS")
+
+    def sections(self, pattern: str, inputs: tuple[str, str]) -> list[tuple[str, str, str, str, PinDef]]:
+        """``(suffix, out, in1, in2, out pin)`` for each output pin matching ``pattern`` with both inputs."""
+        out = []
+        for p in self.pins:
+            m = re.fullmatch(pattern, p.name.upper())
+            if not m:
+                continue
+            a, b = self.get(inputs[0].format(m.group(1))), self.get(inputs[1].format(m.group(1)))
+            if a is not None and b is not None:
+                out.append((m.group(1), self.by_name[p.name.upper()], a, b, p))
+        return out
+
+
+def _opamp_body(ports: _Ports) -> tuple[list[str], str]:
+    body: list[str] = []
+    for s, out, inp, inn, _ in ports.sections(r"OUT(\w*)", ("+IN{}", "-IN{}")):
+        tag = s or "A"
+        body += [f"E{tag} snug_o{tag} 0 {inp} {inn} {_OPAMP_GAIN}", f"RO{tag} snug_o{tag} {out} {_R_OUT}",
+                 f"RP{tag} {inp} 0 {_OPEN}", f"RN{tag} {inn} 0 {_OPEN}"]
+        ports.used |= {out, inp, inn}
+    return body, (f"ideal op-amp: gain {_OPAMP_GAIN} per amplifier, output referred to ground through "
+                  f"{_R_OUT} ohm, no rails")
+
+
+def _comparator_body(ports: _Ports) -> tuple[list[str], str]:
+    body: list[str] = []
+    vpos, vneg = ports.vpos, ports.vneg
+    for s, out, inp, inn, pin in ports.sections(r"OUT(\w*)", ("+IN{}", "-IN{}")):
+        tag = s or "A"
+        on = f"(0.5 + 0.5 * tanh(1e4 * (V({inp}) - V({inn}))))"
+        if pin.role == "open-drain":
+            # sinks to the negative supply pin while -IN is above +IN, else open
+            body.append(f"B{tag} {out} {vneg} I = V({out}, {vneg}) * (1 - {on}) / {_R_SINK}")
+        else:
+            body += [f"B{tag} snug_o{tag} 0 V = V({vneg}) + (V({vpos}) - V({vneg})) * {on}",
+                     f"RO{tag} snug_o{tag} {out} {_R_OUT}"]
+        body += [f"RP{tag} {inp} 0 {_OPEN}", f"RN{tag} {inn} 0 {_OPEN}", f"RL{tag} {out} 0 {_OPEN}"]
+        ports.used |= {out, inp, inn}
+    return body, ("behavioural comparator: a smooth switch on the input difference; an open-collector output "
+                  f"sinks through {_R_SINK} ohm, a push-pull one swings between the supply pins")
+
+
+def _and_body(ports: _Ports) -> tuple[list[str], str]:
+    body: list[str] = []
+    vpos, vneg = ports.vpos, ports.vneg
+    half = f"(V({vpos}) + V({vneg})) / 2"
+    for g, y, a, bb, _ in ports.sections(r"(\d*)Y", ("{}A", "{}B")):
+        tag = g or "1"
+        body += [f"B{tag} snug_o{tag} 0 V = V({vneg}) + (V({vpos}) - V({vneg})) * "
+                 f"(0.5 + 0.5 * tanh(50 * (V({a}) - {half}))) * (0.5 + 0.5 * tanh(50 * (V({bb}) - {half})))",
+                 f"RO{tag} snug_o{tag} {y} {_R_OUT}",
+                 f"RA{tag} {a} 0 {_OPEN}", f"RB{tag} {bb} 0 {_OPEN}"]
+        ports.used |= {y, a, bb}
+    return body, f"behavioural AND gates: output ({_R_OUT} ohm) at the supply when both inputs are above half of it"
+
+
+def _regulator_body(ports: _Ports) -> tuple[list[str], str]:
+    vin, vout, gnd = ports.get("IN"), ports.get("OUT"), ports.get("GND")
+    ports.used.add(vout)
+    return ([f"BOUT snug_o {gnd} V = max(0, min(V({vin}, {gnd}) - 0.2, {{vout}}))", f"ROUT snug_o {vout} {_R_REG}"],
+            f"behavioural regulator: output = min(IN - 0.2 V, vout) through {_R_REG} ohm; EN not modelled")
+
+
 def _stub(kind: str, pins: tuple[PinDef, ...], subname: str) -> list[str]:
-    ports = _port_names(pins)
-    by_name = {p.name.upper(): port for p, port in zip(pins, ports)}
-    lines: list[str] = []
+    """One stand-in ``.subckt`` for a kind (module docstring): its comment, header, body and ``.ends``."""
+    names = _port_names(pins)
+    ports = _Ports(pins, names, {p.name.upper(): port for p, port in zip(pins, names)})
     params = ""
     body: list[str] = []
-    used_ports: set[str] = set()
-
-    def port(*names: str) -> str | None:
-        for n in names:
-            if n in by_name:
-                return by_name[n]
-        return None
-
-    vpos = port("V+", "VCC", "VDD")
-    vneg = port("V-", "GND", "VEE", "VSS")
     if kind.startswith("opamp"):
-        for p in pins:
-            m = re.fullmatch(r"OUT(\w*)", p.name.upper())
-            if not m:
-                continue
-            s = m.group(1)
-            out, inp, inn = by_name[p.name.upper()], port(f"+IN{s}"), port(f"-IN{s}")
-            if inp is None or inn is None:
-                continue
-            tag = s or "A"
-            body += [f"E{tag} snug_o{tag} 0 {inp} {inn} {_OPAMP_GAIN}", f"RO{tag} snug_o{tag} {out} {_R_OUT}",
-                     f"RP{tag} {inp} 0 {_OPEN}", f"RN{tag} {inn} 0 {_OPEN}"]
-            used_ports |= {out, inp, inn}
-        note = (f"ideal op-amp: gain {_OPAMP_GAIN} per amplifier, output referred to ground through "
-                f"{_R_OUT} ohm, no rails")
-    elif kind.startswith("comparator") and vpos and vneg:
-        for p in pins:
-            m = re.fullmatch(r"OUT(\w*)", p.name.upper())
-            if not m:
-                continue
-            s = m.group(1)
-            out, inp, inn = by_name[p.name.upper()], port(f"+IN{s}"), port(f"-IN{s}")
-            if inp is None or inn is None:
-                continue
-            tag = s or "A"
-            on = f"(0.5 + 0.5 * tanh(1e4 * (V({inp}) - V({inn}))))"
-            if p.role == "open-drain":
-                # sinks to the negative supply pin while -IN is above +IN, else open
-                body.append(f"B{tag} {out} {vneg} I = V({out}, {vneg}) * (1 - {on}) / {_R_SINK}")
-            else:
-                body += [f"B{tag} snug_o{tag} 0 V = V({vneg}) + (V({vpos}) - V({vneg})) * {on}",
-                         f"RO{tag} snug_o{tag} {out} {_R_OUT}"]
-            body += [f"RP{tag} {inp} 0 {_OPEN}", f"RN{tag} {inn} 0 {_OPEN}", f"RL{tag} {out} 0 {_OPEN}"]
-            used_ports |= {out, inp, inn}
-        note = ("behavioural comparator: a smooth switch on the input difference; an open-collector output "
-                f"sinks through {_R_SINK} ohm, a push-pull one swings between the supply pins")
-    elif kind.startswith("and") and vpos and vneg:
-        for p in pins:
-            m = re.fullmatch(r"(\d*)Y", p.name.upper())
-            if not m:
-                continue
-            g = m.group(1)
-            y, a, bb = by_name[p.name.upper()], port(f"{g}A"), port(f"{g}B")
-            if a is None or bb is None:
-                continue
-            tag = g or "1"
-            half = f"(V({vpos}) + V({vneg})) / 2"
-            body += [f"B{tag} snug_o{tag} 0 V = V({vneg}) + (V({vpos}) - V({vneg})) * "
-                     f"(0.5 + 0.5 * tanh(50 * (V({a}) - {half}))) * (0.5 + 0.5 * tanh(50 * (V({bb}) - {half})))",
-                     f"RO{tag} snug_o{tag} {y} {_R_OUT}",
-                     f"RA{tag} {a} 0 {_OPEN}", f"RB{tag} {bb} 0 {_OPEN}"]
-            used_ports |= {y, a, bb}
-        note = f"behavioural AND gates: output ({_R_OUT} ohm) at the supply when both inputs are above half of it"
+        body, note = _opamp_body(ports)
+    elif kind.startswith("comparator") and ports.vpos and ports.vneg:
+        body, note = _comparator_body(ports)
+    elif kind.startswith("and") and ports.vpos and ports.vneg:
+        body, note = _and_body(ports)
     elif _is_regulator(kind, pins):
-        vin, vout, gnd = port("IN"), port("OUT"), port("GND")
+        body, note = _regulator_body(ports)
         params = " params: vout=3.3"
-        body += [f"BOUT snug_o {gnd} V = max(0, min(V({vin}, {gnd}) - 0.2, {{vout}}))",
-                 f"ROUT snug_o {vout} {_R_REG}"]
-        used_ports |= {vout}
-        note = f"behavioural regulator: output = min(IN - 0.2 V, vout) through {_R_REG} ohm; EN not modelled"
-    elif kind == "ferrite" and len(ports) == 2:
-        body += [f"R1 {ports[0]} {ports[1]} 10m"]
-        used_ports |= set(ports)
+    elif kind == "ferrite" and len(names) == 2:
+        body = [f"R1 {names[0]} {names[1]} 10m"]
         note = "ferrite bead as a 10 mOhm resistor; its high-frequency impedance is not modelled"
+        ports.used |= set(names)
     else:
         note = "no behaviour: each pin tied to ground through 1 TOhm (supplies 1 GOhm) to keep the node valid"
-    for i, pt in enumerate(ports, start=1):
-        if pt not in used_ports:
-            body.append(f"RS{i} {pt} 0 {_SUPPLY_LOAD if pt in (vpos, vneg) else _OPEN}")
-    lines.append(f"* {_ascii(kind)}: {note}")  # a user's kind name: one comment line whatever it holds
-    lines.append(f".subckt {subname} {' '.join(ports)}{params}")
-    lines += body
-    lines.append(f".ends {subname}")
-    return lines
+    for i, pt in enumerate(names, start=1):
+        if pt not in ports.used:
+            body.append(f"RS{i} {pt} 0 {_SUPPLY_LOAD if pt in (ports.vpos, ports.vneg) else _OPEN}")
+    # a user's kind name: one comment line whatever it holds
+    return [f"* {_ascii(kind)}: {note}", f".subckt {subname} {' '.join(names)}{params}", *body, f".ends {subname}"]
 
 
 # --------------------------------------------------------------------------
@@ -363,17 +382,27 @@ def spice_netlist(design: Design) -> bytes:
     for net in design.nets:
         for pr in net.pins:
             pin_net.setdefault((pr.ref, pr.pin), net.name)
-    driven = _driven_nets(design, pin_net)
+    deck = _Deck(design, nodes, pin_net, elements=_Names(reserved=[f"Vsupply_{nodes[n.name]}" for n in design.nets]),
+                 node_pool=_Names(reserved=list(nodes.values()) + ["gnd"]),
+                 categories={k.name: k.category for k in design.kinds}, voltages={})
+    for n in design.nets:
+        deck.voltages.setdefault(n.name, n.voltage)
+    out = [*_head_lines(design), "*", "* Nets", *_net_records(design, nodes), "*", "* Parts"]
+    for part in design.parts:
+        out += _part_lines(part, deck)
+    out += _tail_lines(deck, _driven_nets(design, pin_net))
+    return ("\n".join(out) + "\n").encode("ascii")
 
-    elements = _Names(reserved=[f"Vsupply_{nodes[n.name]}" for n in design.nets])
-    node_pool = _Names(reserved=list(nodes.values()) + ["gnd"])
+
+def _head_lines(design: Design) -> list[str]:
+    """Title, provenance comments, and the design, kind and stage records."""
     title = _ascii(design.name.replace("\r", " ").replace("\n", " ")).strip() or "snugboard design"
-    out: list[str] = [title]
     source = posixpath.basename(design.source.replace("\\", "/")) if design.source else ""
-    out.append("* Sized design written by snugboard" + (f" from {_ascii(source)}" if source else "") + ".")
-    out.append("* Add sources and an analysis before .end to simulate it; the"
-               " '* snugboard:' lines let snugboard read it back.")
-    out.append(_record("design", [("name", design.name), ("revision", design.revision)]))
+    out = [title,
+           "* Sized design written by snugboard" + (f" from {_ascii(source)}" if source else "") + ".",
+           "* Add sources and an analysis before .end to simulate it; the '* snugboard:' lines let snugboard read "
+           "it back.",
+           _record("design", [("name", design.name), ("revision", design.revision)])]
     for k in design.kinds:
         out.append(_record("kind", [
             ("name", k.name), ("category", k.category), ("value_unit", k.value_unit),
@@ -389,9 +418,12 @@ def spice_netlist(design: Design) -> bytes:
         # No file or line: the reader locates a stage record in the file it reads
         # (and the design's own path would put a path into the output).
         out.append(_record("stage", [("name", st.name), ("key", st.key), ("items", items)]))
+    return out
 
-    out.append("*")
-    out.append("* Nets")
+
+def _net_records(design: Design, nodes: dict[str, str]) -> list[str]:
+    """A record for each net whose name SPICE cannot spell or that declares a voltage."""
+    out = []
     for net in design.nets:
         node = nodes[net.name]
         plain = (node == net.name) or (net.name == "GND" and node == "0")
@@ -400,41 +432,27 @@ def spice_netlist(design: Design) -> bytes:
         out.append(_record("net", [("node", node), ("name", None if plain else net.name),
                                    ("voltage", _f(net.voltage)), ("voltage_max", _f(net.voltage_max)),
                                    ("battery", True if net.battery else None)]))
+    return out
 
-    out.append("*")
-    out.append("* Parts")
-    deck = _Deck(design, nodes, pin_net, elements, node_pool, categories={k.name: k.category for k in design.kinds},
-                 voltages={})
-    for n in design.nets:
-        deck.voltages.setdefault(n.name, n.voltage)
-    for part in design.parts:
-        out += _part_lines(part, deck)
-    stubs, used_models = deck.stubs, deck.used_models
 
-    supplies = [n for n in design.nets if n.voltage is not None and n.voltage != 0 and nodes[n.name] != "0"
+def _tail_lines(deck: _Deck, driven: set[str]) -> list[str]:
+    """Supplies for declared voltages no output drives, the stand-in subcircuits and models, the analysis."""
+    nodes = deck.nodes
+    out: list[str] = []
+    supplies = [n for n in deck.design.nets if n.voltage is not None and n.voltage != 0 and nodes[n.name] != "0"
                 and n.name not in driven]
     if supplies:
-        out.append("*")
-        out.append("* Supplies: the declared net voltages, as ideal DC sources")
-        for n in supplies:
-            out.append(f"Vsupply_{nodes[n.name]} {nodes[n.name]} 0 DC {spice_number(n.voltage)}")
-
-    if stubs:
-        out.append("*")
-        out.append("* Stand-in models, one per kind (see the comment above each)")
-        for key in sorted(stubs):
-            kind, subname, pins = stubs[key]
+        out += ["*", "* Supplies: the declared net voltages, as ideal DC sources"]
+        out += [f"Vsupply_{nodes[n.name]} {nodes[n.name]} 0 DC {spice_number(n.voltage)}" for n in supplies]
+    if deck.stubs:
+        out += ["*", "* Stand-in models, one per kind (see the comment above each)"]
+        for key in sorted(deck.stubs):
+            kind, subname, pins = deck.stubs[key]
             out += _stub(kind, pins, subname)
-    if used_models:
-        out.append("*")
-        out.append("* Placeholder device models (the simulator's defaults), not a part's data")
-        for m in sorted(set(used_models)):
-            out.append(_MODELS[m])
-    out.append("*")
-    out.append(".options rshunt=1e12")
-    out.append(".op")
-    out.append(".end")
-    return ("\n".join(out) + "\n").encode("ascii")
+    if deck.used_models:
+        out += ["*", "* Placeholder device models (the simulator's defaults), not a part's data"]
+        out += [_MODELS[m] for m in sorted(set(deck.used_models))]
+    return out + ["*", ".options rshunt=1e12", ".op", ".end"]
 
 
 def _f(v: float | None) -> float | None:

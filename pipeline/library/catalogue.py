@@ -16,6 +16,7 @@ from pipeline.order import natural_key
 from ._data import compact
 from .courtyards import CourtyardRule, read_courtyard
 from .kinds import read_kinds
+from .heights import read_heights
 from .lands import read_land_rules, read_terminals
 from .packages import PackageFamily, PackageInfo, info_for, read_families, read_packages
 
@@ -27,7 +28,9 @@ KINDS_FILE = "kinds.toml"
 COURTYARD_FILE = "courtyard.toml"
 LANDS_FILE = "lands.toml"
 TERMINALS_FILE = "terminals.csv"
-_FILES = (COURTYARD_FILE, LANDS_FILE, TERMINALS_FILE, PACKAGES_FILE, FAMILIES_FILE, KINDS_FILE)
+HEIGHTS_FILE = "heights.csv"
+_FILES = (COURTYARD_FILE, LANDS_FILE, TERMINALS_FILE, PACKAGES_FILE, FAMILIES_FILE, KINDS_FILE,
+          HEIGHTS_FILE)
 
 
 def _default_root() -> Path:
@@ -65,6 +68,7 @@ class Library:
     rules: tuple[CourtyardRule, ...]
     grid_mm: float
     kind_table: tuple[PartKind, ...]
+    heights: Mapping[tuple[str, str], tuple[float, str]] = field(default_factory=dict, compare=False)
     _by_name: Mapping[str, Package] = field(init=False, compare=False, hash=False, repr=False)
     _by_compact: Mapping[str, Package] = field(init=False, compare=False, hash=False, repr=False)
     _kinds: Mapping[str, PartKind] = field(init=False, compare=False, hash=False, repr=False)
@@ -181,6 +185,23 @@ class Library:
         return info_for(pkg.name, fam.family, fam.courtyard_class, fam.texts(),
                         self._rule(fam.courtyard_class))
 
+    def part_height(self, kind: str, package: Package) -> tuple[float, str]:
+        """Seated height (mm) of a part of ``kind`` in ``package``, and where it comes from.
+
+        A row of ``heights.csv`` for this package and kind wins (a chip resistor's
+        thickness); otherwise the package's own height, the tallest part it may
+        carry. A part's ``height_mm`` in the design overrides both (the caller's
+        business).
+
+        >>> lib = load_library()
+        >>> lib.part_height("resistor", lib.package("0603"))[0], lib.part_height("capacitor", lib.package("0603"))[0]
+        (0.55, 0.9)
+        """
+        hit = self.heights.get((package.name.casefold(), str(kind).casefold()))
+        if hit is not None:
+            return hit
+        return package.height_mm, f"package {package.name} height (the tallest part it may carry)"
+
     # ------------------------------------------------------------------- kinds
     def kind(self, name: str, *, file: str = LIBRARY_PLACE, **where: object) -> PartKind:
         """The part kind called ``name`` (case-insensitive).
@@ -223,6 +244,18 @@ class Library:
             return tuple(
                 PinDef(str(i), str(i), "terminal") for i in range(1, package.pin_count + 1))
         return kind.pins
+
+    def with_packages(self, extra: Iterable[Package]) -> "Library":
+        """A copy of this library with ``extra`` packages (a design's own) listed too.
+
+        Callers refuse a name the library already knows (:meth:`has_package`) first.
+        """
+        extra = tuple(extra)
+        return self if not extra else replace(self, listed=self.listed + extra)
+
+    def general_rule(self) -> CourtyardRule:
+        """The general courtyard-excess class, for packages defined outside the library."""
+        return self._rule("general")
 
     def with_kinds(self, extra: Iterable[PartKind]) -> "Library":
         """A copy of this library with ``extra`` kinds added.
@@ -281,4 +314,5 @@ def _load(base: Path) -> Library:
     listed, infos = read_packages(base / PACKAGES_FILE, rule_map, grid, families, terminals,
                                   land_rules)
     return Library(root=base, listed=listed, infos=infos, family_table=families, rules=rules,
-                   grid_mm=grid, kind_table=read_kinds(base / KINDS_FILE))
+                   grid_mm=grid, kind_table=read_kinds(base / KINDS_FILE),
+                   heights=MappingProxyType(read_heights(base / HEIGHTS_FILE)))

@@ -255,7 +255,10 @@ def _row_pads(t: Terminals, pin_count: int, pitch: float, depth: float, centre: 
                     side=goal.at(level)[2], f=rules.fabrication_mm, p=rules.placement_mm,
                     round_mm=goal.round_mm)
             pads.append(Pad(token, px, y, "rect", width, depth))
-    return tuple(sorted(pads, key=lambda p: int(p.number)))
+    pads.sort(key=lambda p: int(p.number))
+    if t.tab_width_mm > 0 and t.tab_length_mm > 0:  # a two-row no-lead part's exposed pad
+        pads.append(Pad("EP", 0.0, 0.0, "rect", t.tab_width_mm, t.tab_length_mm))
+    return tuple(pads)
 
 
 def _quad_pads(t: Terminals, pin_count: int, pitch: float, depth: float, centre: float,

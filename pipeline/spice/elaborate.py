@@ -337,11 +337,12 @@ def _flatten(ln: Line, ctx: Ctx, b: Build, name: str, sub: Subckt, node_toks: li
         except ExprError as exc:
             raise _expr_error(exc, ln, name) from None
         values[k] = (repr(val), f, l)
-    scope = Scope(values, parent=global_scope(b))
+    depth = b.rd.limits.expression_depth
+    scope = Scope(values, parent=global_scope(b), depth=depth)
     local: dict[str, tuple[str, str, int]] = {}
     for body_line in sub.body:
         if body_line.text.split()[0].lower() in (".param", ".params"):
             read_params(body_line, local)
-    inner = Ctx(path=(*ctx.path, name), ports=ports, scope=Scope(local, parent=scope),
+    inner = Ctx(path=(*ctx.path, name), ports=ports, scope=Scope(local, parent=scope, depth=depth),
                  stack=(*ctx.stack, sub.name.lower()))
     elaborate(sub.body, inner, b)

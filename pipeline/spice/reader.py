@@ -67,9 +67,12 @@ def read_spice(
     ``.model``, ``.param`` and ``.global`` collected -> the top level
     elaborated, expanding each unmapped ``X`` instance into its body with
     the instance's node map and parameter scope (recursion refused, depth at
-    most 50, element lines elaborated at most ``limits.expansion_parts``) -> candidates grouped by board reference (sections merged)
-    -> nets. Cost: linear in the size of the flattened netlist; parameters
-    are evaluated lazily, once per scope.
+    most 50, element lines elaborated at most ``limits.expansion_parts``)
+    -> candidates grouped by board reference (sections merged) -> nets.
+    Cost: linear in the size of the flattened netlist; parameters are
+    evaluated lazily, once per scope, without recursion. Every count that
+    could grow from a small file (bytes, splices, element lines, expression
+    depth) is checked as it grows (:mod:`pipeline.spice.limits`).
 
     Examples
     --------
