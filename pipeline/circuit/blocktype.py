@@ -6,7 +6,7 @@ overrides some of its methods), written in one file of
 modules ask the type for everything that differs from type to type:
 
 * ``roles`` and ``figures``: the parts it needs and what it computes;
-* ``keys``: extra keys of its ``[stages.NAME]`` table, with their meaning;
+* ``keys``: extra keys of its ``[blocks.NAME]`` table, with their meaning;
 * :meth:`BlockType.read_options` / :meth:`BlockType.role_rules`: text
   options and the roles they make required, forbidden or paired;
 * :meth:`BlockType.settings`: voltages it needs (from keys or nets);

@@ -111,7 +111,7 @@ class SallenKey(BlockType):
         q = report.figure("q").nominal
         if math.isfinite(q) and q > 0:
             return []
-        return [Finding("error", "stage.unstable", subject,
+        return [Finding("error", "block.unstable", subject,
                         f"{title}: the gain 1 + Ra/Rb = {format_quantity(report.figure('gain').nominal, '')} "
                         f"is too high for these values, so the section oscillates; lower the "
                         f"gain or change the capacitor ratio.")]
