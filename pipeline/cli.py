@@ -181,10 +181,10 @@ def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: st
         progress.done()
     err = as_json
     _echo_findings(result.findings, err, verbose)
-    if not verbose:  # the declared stages' figures, spread and retune proposals show even without -v
+    if not verbose:  # the declared blocks' figures, spread and retune proposals show even without -v
         for f in result.findings:
-            if f.check in ("stage.summary", "stage.retune"):
-                _say(f"stage: {f.message}", err=err)
+            if f.check in ("block.summary", "block.retune"):
+                _say(f"block: {f.message}", err=err)
     if result.sweep is not None:
         _echo_sweep(result.sweep.to_dict(), err)
     if result.fit is not None:

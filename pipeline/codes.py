@@ -77,6 +77,8 @@ CODES: dict[str, Code] = {
                                     "above the derated limit (warning): class II ceramics at most 50 % of rating, "
                                     "C0G / film 80 %, aluminium 80 %, tantalum 50 % (common practice)"),
     "ratings.capacitor-polarity": _c("error", "a polarised capacitor reverse-biased by the declared voltages"),
+    "design.old-table-name": _c("warning", "a declared block under the previous release's name ([stages.NAME] "
+                                          "or a '* snugboard: stage' record): read as a block for one more release"),
     "ratings.resistor-power": _c("error/warning", "V^2/R above the power rating (error) or above 50 % of it "
                                                   "(warning)"),
     "values.zero": _c("error", "a capacitor or inductor of value 0 (a 0 ohm resistor is a link and fine)"),
@@ -85,18 +87,18 @@ CODES: dict[str, Code] = {
     "ratings.no-voltages": _c("info", "no net voltage declared, so ratings could not be checked"),
     "safety.caution": _c("warning", "a net above 30 V or a battery supply: the usual caution"),
     # declared circuit blocks (pipeline/circuit/)
-    "stage.summary": _c("info", "a declared stage's figures with their 1st..99th percentiles and the share "
+    "block.summary": _c("info", "a declared block's figures with their 1st..99th percentiles and the share "
                                 "of builds out of target"),
-    "stage.target-met": _c("info", "a target passes at nominal values"),
-    "stage.target-missed": _c("error", "a target misses at nominal values"),
-    "stage.spread": _c("warning", "nominal passes but tolerance corners or Monte Carlo builds fall outside"),
-    "stage.retune": _c("info", "preferred-value combinations that meet the targets"),
-    "stage.retune-none": _c("warning", "no preferred-value combination meets the targets"),
-    "stage.unstable": _c("error", "a Sallen-Key gain of 3 or more"),
-    "stage.led-off": _c("error", "an LED that cannot light"),
-    "stage.tolerance-assumed": _c("info", "a tolerance the analysis assumed because the design gives none"),
-    "stage.assumption": _c("info", "an assumption the analysis took"),
-    "stage.no-targets": _c("info", "a declared stage with no targets"),
+    "block.target-met": _c("info", "a target passes at nominal values"),
+    "block.target-missed": _c("error", "a target misses at nominal values"),
+    "block.spread": _c("warning", "nominal passes but tolerance corners or Monte Carlo builds fall outside"),
+    "block.retune": _c("info", "preferred-value combinations that meet the targets"),
+    "block.retune-none": _c("warning", "no preferred-value combination meets the targets"),
+    "block.unstable": _c("error", "a Sallen-Key gain of 3 or more"),
+    "block.led-off": _c("error", "an LED that cannot light"),
+    "block.tolerance-assumed": _c("info", "a tolerance the analysis assumed because the design gives none"),
+    "block.assumption": _c("info", "an assumption the analysis took"),
+    "block.no-targets": _c("info", "a declared block with no targets"),
     # cavity drawing (pipeline/cavity.py)
     "cavity.repaired": _c("warning", "the drawing was damaged and the recovering loader fixed it: what it fixed"),
     "cavity.units": _c("warning/info", "the units the drawing was read in, and where they came from"),

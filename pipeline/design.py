@@ -2,7 +2,7 @@
 
 Entry point: :func:`read_design`. The format is CONTRACT.md section 2,
 extended with ``[kinds.NAME]`` (part kinds defined in the design),
-``[voltages]`` (declared net voltages) and ``[stages.NAME]`` (declared
+``[voltages]`` (declared net voltages) and ``[blocks.NAME]`` (declared
 circuit blocks, read by :mod:`pipeline.circuit`). README.md documents every
 key.
 
@@ -28,6 +28,7 @@ from pathlib import Path
 from typing import Any, Iterable
 
 from . import values as _values
+from .blocktables import OLD_TABLE, TABLE, block_tables
 from .errors import DesignError
 from .library.custom import package_from_table
 from .model import Package, OLD_PIN_ROLES, PIN_ROLES, Design, Finding, Fixed, Net, Part, PartKind, PinDef, PinRef, RawTable
@@ -37,7 +38,7 @@ __all__ = ["read_design", "read_design_text", "KIND_CATEGORIES"]
 
 KIND_CATEGORIES = ("passive", "polarized", "semiconductor", "ic", "connector")
 
-_TOP_KEYS = ("design", "packages", "kinds", "parts", "nets", "voltages", "stages")
+_TOP_KEYS = ("design", "packages", "kinds", "parts", "nets", "voltages", TABLE, OLD_TABLE)
 _DESIGN_KEYS = ("name", "revision", "note")
 _PART_KEYS = (
     "kind", "value", "package", "tolerance", "rating", "manufacturer", "mpn",
@@ -160,17 +161,8 @@ def _read(src: TomlSource, library: Any) -> tuple[Design, list[Finding]]:
         for name_, pins in nets_tbl.items()
     )
 
-    stages_tbl = _expect_table(src, "stages", data.get("stages", {}))
-    stages = tuple(
-        RawTable(
-            name=sname,
-            items=tuple(_expect_table(src, f"stages.{sname}", body).items()),
-            file=src.display,
-            key=f"stages.{sname}",
-            line=src.line(f"stages.{sname}") or 0,
-        )
-        for sname, body in stages_tbl.items()
-    )
+    stages, notes = block_tables(src, DesignError)
+    warnings.extend(notes)
     design = Design(
         name=name, revision=revision, source=src.display, parts=parts, nets=nets,
         stages=stages, kinds=tuple(kinds), packages=packages,

@@ -354,7 +354,7 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     """Run every stage of ``project`` and write all its outputs at once.
 
     Order: design -> graph -> connection checks -> value and rating checks ->
-    declared stages -> (with a cavity) cavity -> region -> area -> placement
+    declared blocks -> (with a cavity) cavity -> region -> area -> placement
     and outline -> routing (unless ``route`` is false or ``[copper] route =
     false``) -> outputs. Raises :class:`~pipeline.errors.InputError` on bad
     input, before anything is written.
@@ -378,7 +378,7 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     files["netlist.edf"] = edif.edif_netlist(design, timestamp=timestamp)
     files["design.cir"] = spice_out.spice_netlist(design)
     if reports:
-        files["stages.json"] = results.dump_json([r.to_dict() for r in reports])
+        files["blocks.json"] = results.dump_json([r.to_dict() for r in reports])
 
     fit = None
     sweep_result = None

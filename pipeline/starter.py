@@ -5,11 +5,11 @@ Entry points: :func:`starter_files` (the files, as bytes) and
 
 The starter is a small, complete project that runs clean (exit 0): a
 commented ``project.toml``, a design of two wire pads, an LED with its
-resistor and an RC low-pass between two more pads (each a declared stage
+resistor and an RC low-pass between two more pads (each a declared block
 with targets it meets), and a cavity drawing of a 30 x 20 mm pocket with a
 screw boss and a lid rib, written with the deterministic DXF writer of
 :mod:`pipeline.export.dxf`. A newcomer edits it instead of starting from a
-blank page. The values are IEC 60063 E-series values; the LED stage's
+blank page. The values are IEC 60063 E-series values; the LED block's
 current, (3.3 V - 2.0 V) / 270 ohm = 4.8 mA, and the low-pass corner,
 1 / (2 pi x 10 kohm x 100 nF) = 159 Hz, are within their targets.
 """
@@ -117,13 +117,13 @@ SIG_OUT = ["R2.2", "C1.1", "P4.1"]
 [voltages]                        # declared net voltages feed the rating checks
 VCC = "3.3V"
 
-[stages.status_led]               # what a group of parts is meant to do: checked with tolerances
+[blocks.status_led]               # what a group of parts is meant to do: checked with tolerances
 type = "led-resistor"
 parts = { R = "R1", led = "D1" }
 vf = "2.0V"
 targets = { current = "3mA .. 6mA" }
 
-[stages.smoothing]
+[blocks.smoothing]
 type = "rc-lowpass"
 parts = { R = "R2", C = "C1" }
 targets = { f0 = "159Hz +/- 20%" }

@@ -14,7 +14,7 @@ Levels
     a warning: the board is ready to lay out.
 ``attention``
     The parts fit, but something needs a look; ``reasons`` name each thing.
-    A reason of severity ``error`` blocks (exit 1: a missed stage target, a
+    A reason of severity ``error`` blocks (exit 1: a missed block target, a
     connection error, nets left unrouted); a warning does not (exit 0).
 ``does-not-fit``
     Some fitted part finds no place, or a given board outline leaves the
@@ -129,7 +129,7 @@ def decide(findings: Sequence[Finding], fit: FitResult | None, *, routing: Any =
     --------
     >>> decide([], None, fit_asked=False).level
     'ready'
-    >>> v = decide([Finding("error", "stage.target-missed", ("lp",), "f0 is 1.2 kHz, target 1 kHz.")], None,
+    >>> v = decide([Finding("error", "block.target-missed", ("lp",), "f0 is 1.2 kHz, target 1 kHz.")], None,
     ...            fit_asked=False)
     >>> v.level, v.exit_status
     ('attention', 1)

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import json
 import math
+import re
 import shutil
 import subprocess
 import sys
@@ -67,7 +68,7 @@ def led(ref: str = "D1") -> Part:
 
 
 def stage(name: str, **items) -> RawTable:
-    return RawTable(name, tuple(items.items()), "design.toml", f"stages.{name}", line=7)
+    return RawTable(name, tuple(items.items()), "design.toml", f"blocks.{name}", line=7)
 
 
 def design(parts, stages, nets=()) -> Design:
@@ -217,7 +218,7 @@ def test_cli_and_demo_do_not_import_scipy_signal(tmp_path):
 # Independent solver: AC simulation by ngspice
 # --------------------------------------------------------------------------
 def _ngspice_ac(tmp_path, body: str, fstart: float, fstop: float, per_decade: int = 2000):
-    cir = tmp_path / "stage.cir"
+    cir = tmp_path / "block.cir"
     out = tmp_path / "ac.txt"
     cir.write_text(
         "* stage under test\nV1 in 0 DC 0 AC 1\n" + body +
@@ -344,9 +345,9 @@ def test_comparator_noninverting_push_pull_published_design_goals():
     assert rep.figure("v_fall").nominal == pytest.approx(1.3, abs=1e-9)
     assert rep.passes is True
     assert not [f for f in fs if f.severity == "error"]
-    assert [f.check for f in fs].count("stage.target-met") == 3
-    summary, = [f for f in fs if f.check == "stage.summary"]
-    assert "v_rise 1.7 V" in summary.message and summary.subject[0] == "stages.thr"
+    assert [f.check for f in fs].count("block.target-met") == 3
+    summary, = [f for f in fs if f.check == "block.summary"]
+    assert "v_rise 1.7 V" in summary.message and summary.subject[0] == "blocks.thr"
 
 
 def test_comparator_open_collector_pull_up_in_series():
@@ -369,7 +370,7 @@ def test_comparator_open_collector_pull_up_in_series():
     assert rep.figure("v_rise").nominal == pytest.approx(3.32781, abs=1e-5)
     assert rep.figure("v_fall").nominal == pytest.approx(5 / 3, abs=1e-9)
     # vpull was not given and R5's other end is on no net: taken as vcc, and said so
-    assert any(f.check == "stage.assumption" and "pull-up" in f.message for f in fs)
+    assert any(f.check == "block.assumption" and "pull-up" in f.message for f in fs)
 
 
 def test_comparator_supply_from_declared_net_voltage():
@@ -421,7 +422,7 @@ def test_led_without_headroom_is_an_error():
     d = design([res("R1", 100.0), led()],
                [stage("lamp", type="led-resistor", parts={"R": "R1", "led": "D1"}, vf="3.1V", vcc="3.0V")])
     _, fs = one(d, draws=0)
-    assert [f for f in fs if f.check == "stage.led-off" and f.severity == "error"]
+    assert [f for f in fs if f.check == "block.led-off" and f.severity == "error"]
 
 
 def test_sallen_key_with_too_much_gain_is_unstable():
@@ -429,7 +430,7 @@ def test_sallen_key_with_too_much_gain_is_unstable():
     # practice): K = 3.2 > 3 gives a right-half-plane pole pair.
     d = sk_lowpass(10e3, 10e3, 10e-9, 10e-9, ra=22e3, rb=10e3)
     rep, fs = one(d, draws=0)
-    assert [f for f in fs if f.check == "stage.unstable" and f.severity == "error"]
+    assert [f for f in fs if f.check == "block.unstable" and f.severity == "error"]
     d = sk_lowpass(10e3, 10e3, 10e-9, 10e-9, ra=10e3, rb=10e3)   # K = 2 -> Q = 1
     rep, fs = one(d, draws=0)
     assert rep.figure("q").nominal == pytest.approx(1.0)
@@ -501,7 +502,7 @@ def test_share_out_of_target_against_uniform_probability():
                       targets={"f0": "0 .. 1.05kHz"})])
     rep, fs = one(d, draws=10000, seed=3)
     assert rep.figure("f0").share_out == pytest.approx((1 - (1 - 1 / 1.05) / 0.1) / 2, abs=0.015)
-    assert [f for f in fs if f.check == "stage.spread" and f.severity == "warning"]
+    assert [f for f in fs if f.check == "block.spread" and f.severity == "warning"]
 
 
 def test_default_tolerances_are_assumed_and_said():
@@ -510,7 +511,7 @@ def test_default_tolerances_are_assumed_and_said():
     rep, fs = one(d, draws=0)
     tol = {p.ref: (p.tolerance, p.tolerance_assumed) for p in rep.parts}
     assert tol == {"R1": (0.05, True), "C1": (0.10, True)}
-    assumed = [f for f in fs if f.check == "stage.tolerance-assumed"]
+    assumed = [f for f in fs if f.check == "block.tolerance-assumed"]
     assert [f.subject for f in assumed] == [("C1",), ("R1",)]
     assert all(f.severity == "info" for f in assumed)
 
@@ -533,13 +534,13 @@ def test_retune_e96_e12_sallen_key_meets_targets_and_applied_passes():
                    series={"resistor": "E96", "capacitor": "E12"})
     rep, fs = one(d)
     assert rep.passes is False
-    assert [f for f in fs if f.check == "stage.target-missed" and f.severity == "error"]
+    assert [f for f in fs if f.check == "block.target-missed" and f.severity == "error"]
     best = rep.proposals[0]
     assert best.passes
     kinds = {p.ref: p.kind for p in rep.parts}
     for _, ref, v in best.values:
         assert _in_series(v, eseries.E96 if kinds[ref] == "resistor" else eseries.E12)
-    assert [f for f in fs if f.check == "stage.retune"]
+    assert [f for f in fs if f.check == "block.retune"]
     rep2, fs2 = one(_apply(d, best))
     assert rep2.passes is True
     assert not [f for f in fs2 if f.severity == "error"]
@@ -626,14 +627,14 @@ def test_retune_offered_for_a_passing_block_with_too_much_spread():
     # Hand: the first proposal R1 = 11k gives f0 = 964.6 Hz, in the middle of the target
     best = dict((role, v) for role, _, v in rep.proposals[0].values)
     assert 1 / (2 * math.pi * best["R"] * best["C"]) == pytest.approx(dict(rep.proposals[0].figures)["f0"])
-    (msg,) = [f.message for f in findings if f.check == "stage.retune"]
+    (msg,) = [f.message for f in findings if f.check == "block.retune"]
     assert "retune_above_share" in msg and "14." in msg
 
 
 def test_no_spread_retune_below_the_chosen_share():
     rep, findings = _rc_off_centre(retune_above_share=0.5)
     assert rep.passes is True and rep.proposals == ()
-    assert not [f for f in findings if f.check.startswith("stage.retune")]
+    assert not [f for f in findings if f.check.startswith("block.retune")]
 
 
 @pytest.mark.parametrize("value, ok", [("0.05", True), ("0", True), ("1.5", False), ('"1%"', False)])
@@ -655,7 +656,7 @@ def test_retune_reports_none_when_targets_are_unreachable():
     d = sk_lowpass(10e3, 10e3, 10e-9, 10e-9, targets={"q": "8 ±2%"})
     rep, fs = one(d, draws=0)
     assert not any(p.passes for p in rep.proposals)
-    assert [f for f in fs if f.check == "stage.retune-none" and f.severity == "warning"]
+    assert [f for f in fs if f.check == "block.retune-none" and f.severity == "warning"]
 
 
 # --------------------------------------------------------------------------
@@ -700,25 +701,25 @@ def _bad(mutate, extra_parts=()):
 @pytest.mark.parametrize(
     "mutate, extra, key",
     [
-        (lambda i: i.update(type="sallen-key-bandpass"), (), "stages.lp.type"),
-        (lambda i: i.pop("type"), (), "stages.lp.type"),
-        (lambda i: i["parts"].pop("Cg"), (), "stages.lp.parts.Cg"),
-        (lambda i: i["parts"].update(R1="R9"), (), "stages.lp.parts.R1"),
-        (lambda i: i["parts"].update(Cf="R2", R2="R7"), (res("R7", 1e3),), "stages.lp.parts.Cf"),
-        (lambda i: i["parts"].update(Cx="C1"), (), "stages.lp.parts.Cx"),
-        (lambda i: i["parts"].update(amp="R7"), (res("R7", 1e3),), "stages.lp.parts.amp"),
-        (lambda i: i["parts"].update(R2="R1"), (), "stages.lp.parts.R2"),
-        (lambda i: i["parts"].update(Ra="R7"), (res("R7", 1e3),), "stages.lp.parts.Rb"),
-        (lambda i: i["parts"].update(R1="R7"), (res("R7", 0.0),), "stages.lp.parts.R1"),
-        (lambda i: i["parts"].update(R1="R7"), (replace(res("R7", 1e3), dnp=True),), "stages.lp.parts.R1"),
-        (lambda i: i.update(parts="R1 R2"), (), "stages.lp.parts"),
-        (lambda i: i.update(targets={"f0": "1kHz"}), (), "stages.lp.targets.f0"),
-        (lambda i: i.update(targets={"f0": "fast ±5%"}), (), "stages.lp.targets.f0"),
-        (lambda i: i.update(targets={"fc": "1kHz ±5%"}), (), "stages.lp.targets.fc"),
-        (lambda i: i.update(targets={"f0": 1000}), (), "stages.lp.targets.f0"),
-        (lambda i: i.update(series={"resistor": "E25"}), (), "stages.lp.series.resistor"),
-        (lambda i: i.update(series={"inductor": "E12"}), (), "stages.lp.series.inductor"),
-        (lambda i: i.update(colour="blue"), (), "stages.lp.colour"),
+        (lambda i: i.update(type="sallen-key-bandpass"), (), "blocks.lp.type"),
+        (lambda i: i.pop("type"), (), "blocks.lp.type"),
+        (lambda i: i["parts"].pop("Cg"), (), "blocks.lp.parts.Cg"),
+        (lambda i: i["parts"].update(R1="R9"), (), "blocks.lp.parts.R1"),
+        (lambda i: i["parts"].update(Cf="R2", R2="R7"), (res("R7", 1e3),), "blocks.lp.parts.Cf"),
+        (lambda i: i["parts"].update(Cx="C1"), (), "blocks.lp.parts.Cx"),
+        (lambda i: i["parts"].update(amp="R7"), (res("R7", 1e3),), "blocks.lp.parts.amp"),
+        (lambda i: i["parts"].update(R2="R1"), (), "blocks.lp.parts.R2"),
+        (lambda i: i["parts"].update(Ra="R7"), (res("R7", 1e3),), "blocks.lp.parts.Rb"),
+        (lambda i: i["parts"].update(R1="R7"), (res("R7", 0.0),), "blocks.lp.parts.R1"),
+        (lambda i: i["parts"].update(R1="R7"), (replace(res("R7", 1e3), dnp=True),), "blocks.lp.parts.R1"),
+        (lambda i: i.update(parts="R1 R2"), (), "blocks.lp.parts"),
+        (lambda i: i.update(targets={"f0": "1kHz"}), (), "blocks.lp.targets.f0"),
+        (lambda i: i.update(targets={"f0": "fast ±5%"}), (), "blocks.lp.targets.f0"),
+        (lambda i: i.update(targets={"fc": "1kHz ±5%"}), (), "blocks.lp.targets.fc"),
+        (lambda i: i.update(targets={"f0": 1000}), (), "blocks.lp.targets.f0"),
+        (lambda i: i.update(series={"resistor": "E25"}), (), "blocks.lp.series.resistor"),
+        (lambda i: i.update(series={"inductor": "E12"}), (), "blocks.lp.series.inductor"),
+        (lambda i: i.update(colour="blue"), (), "blocks.lp.colour"),
     ],
 )
 def test_bad_declaration_names_the_key(mutate, extra, key):
@@ -733,23 +734,23 @@ def test_bad_declaration_names_the_key(mutate, extra, key):
 @pytest.mark.parametrize(
     "items, nets, key",
     [
-        ({"parts": {"Rin": "R1", "Rfb": "R2"}, "vref": "1V"}, (), "stages.c.input"),
-        ({"input": "sideways", "parts": {"Rin": "R1", "Rfb": "R2"}}, (), "stages.c.input"),
-        ({"input": "non-inverting", "parts": {"Rin": "R1", "Rfb": "R2"}, "vcc": "5V"}, (), "stages.c.vref"),
-        ({"input": "non-inverting", "parts": {"Rin": "R1", "Rfb": "R2"}, "vref": "1V"}, (), "stages.c.vcc"),
-        ({"input": "inverting", "parts": {"Rfb": "R2", "Rbottom": "R1"}, "vcc": "5V"}, (), "stages.c.parts.Rtop"),
+        ({"parts": {"Rin": "R1", "Rfb": "R2"}, "vref": "1V"}, (), "blocks.c.input"),
+        ({"input": "sideways", "parts": {"Rin": "R1", "Rfb": "R2"}}, (), "blocks.c.input"),
+        ({"input": "non-inverting", "parts": {"Rin": "R1", "Rfb": "R2"}, "vcc": "5V"}, (), "blocks.c.vref"),
+        ({"input": "non-inverting", "parts": {"Rin": "R1", "Rfb": "R2"}, "vref": "1V"}, (), "blocks.c.vcc"),
+        ({"input": "inverting", "parts": {"Rfb": "R2", "Rbottom": "R1"}, "vcc": "5V"}, (), "blocks.c.parts.Rtop"),
         ({"input": "inverting", "parts": {"Rin": "R1", "Rfb": "R2", "Rtop": "R3"}, "vcc": "5V"}, (),
-         "stages.c.parts.Rin"),
+         "blocks.c.parts.Rin"),
         ({"input": "non-inverting", "output": "open-collector", "parts": {"Rin": "R1", "Rfb": "R2"},
-          "vref": "1V", "vcc": "5V"}, (), "stages.c.parts.Rpull"),
+          "vref": "1V", "vcc": "5V"}, (), "blocks.c.parts.Rpull"),
         ({"input": "non-inverting", "parts": {"Rin": "R1", "Rfb": "R2", "Rpull": "R3"}, "vref": "1V",
-          "vcc": "5V"}, (), "stages.c.parts.Rpull"),
+          "vcc": "5V"}, (), "blocks.c.parts.Rpull"),
         ({"input": "non-inverting", "parts": {"Rin": "R1", "Rfb": "R2"}, "vref": "VREF", "vcc": "5V"},
-         (net("VREF", "R1.1"),), "stages.c.vref"),
+         (net("VREF", "R1.1"),), "blocks.c.vref"),
         ({"input": "non-inverting", "parts": {"Rin": "R1", "Rfb": "R2"}, "vref": "one volt",
-          "vcc": "5V"}, (), "stages.c.vref"),
+          "vcc": "5V"}, (), "blocks.c.vref"),
         ({"input": "non-inverting", "parts": {"Rin": "R1", "Rfb": "R2", "Rtop": "R3"}, "vcc": "5V"}, (),
-         "stages.c.parts.Rbottom"),
+         "blocks.c.parts.Rbottom"),
     ],
 )
 def test_bad_comparator_declaration_names_the_key(items, nets, key):
@@ -763,13 +764,13 @@ def test_bad_comparator_declaration_names_the_key(items, nets, key):
 @pytest.mark.parametrize(
     "items, key",
     [
-        ({"type": "led-resistor", "parts": {"R": "R1", "led": "D1"}, "vcc": "5V"}, "stages.s.vf"),
-        ({"type": "led-resistor", "parts": {"R": "R1", "led": "D1"}, "vf": "2V"}, "stages.s.vcc"),
+        ({"type": "led-resistor", "parts": {"R": "R1", "led": "D1"}, "vcc": "5V"}, "blocks.s.vf"),
+        ({"type": "led-resistor", "parts": {"R": "R1", "led": "D1"}, "vf": "2V"}, "blocks.s.vcc"),
         ({"type": "led-resistor", "parts": {"R": "R1", "led": "R2"}, "vf": "2V", "vcc": "5V"},
-         "stages.s.parts.led"),
+         "blocks.s.parts.led"),
         ({"type": "divider", "parts": {"Rtop": "R1", "Rbottom": "R2"}, "targets": {"vout": "1V ±5%"}},
-         "stages.s.targets.vout"),
-        ({"type": "divider", "parts": {"Rtop": "R1", "Rbottom": "R2"}, "vin": True}, "stages.s.vin"),
+         "blocks.s.targets.vout"),
+        ({"type": "divider", "parts": {"Rtop": "R1", "Rbottom": "R2"}, "vin": True}, "blocks.s.vin"),
     ],
 )
 def test_bad_other_declarations_name_the_key(items, key):
@@ -821,18 +822,18 @@ def test_block_sections_svg_is_wellformed_and_escaped():
     items = {"type": "sallen-key-lowpass", "parts": {"R1": "R1", "R2": "R2", "Cf": "C1", "Cg": "C2"},
              "targets": {"f0": "1kHz ±5%"}, "note": "<b>& stuff</b>"}
     parts = [res("R1", 10e3), res("R2", 10e3), cap("C1", 22e-9), cap("C2", 10e-9)]
-    d = design(parts, [RawTable("a<b>&c", tuple(items.items()), "design.toml", "stages.a<b>&c")])
+    d = design(parts, [RawTable("a<b>&c", tuple(items.items()), "design.toml", "blocks.a<b>&c")])
     reps, _ = analyse_blocks(d, draws=200)
     (heading, frag), = block_sections(reps)
-    assert heading == "Stage a<b>&c (sallen-key-lowpass)"     # plain text: the report escapes it
+    assert heading == "Block a<b>&c (sallen-key-lowpass)"     # plain text: the report escapes it
     assert "<b>" not in frag and "&lt;b&gt;&amp; stuff" in frag
     root = ET.fromstring(frag)          # the fragment is well-formed XML, SVG included
     svg = root.find(".//{http://www.w3.org/2000/svg}svg")
     assert svg is not None
     texts = " ".join(t.text or "" for t in svg.iter("{http://www.w3.org/2000/svg}text"))
     assert "f0 " in texts and "\u22123 dB " in texts and "a<b>&c" in texts
-    assert root.find(".//table[@class='stage-retune']") is not None   # it misses: proposals shown
-    # a stage that is not a filter has no plot
+    assert root.find(".//table[@class='block-retune']") is not None   # it misses: proposals shown
+    # a block that is not a filter has no plot
     d2 = design([res("R1", 1e3), res("R2", 1e3)],
                 [stage("div", type="divider", parts={"Rtop": "R1", "Rbottom": "R2"})])
     (_, frag2), = block_sections(analyse_blocks(d2, draws=0)[0])
@@ -872,7 +873,7 @@ def test_every_registered_block_type_evaluates(name):
     assert rep.type == name
     assert {f.name for f in rep.figures} <= {f.name for f in btype.figures}
     assert rep.figures and all(math.isfinite(f.nominal) for f in rep.figures)
-    assert findings[0].check == "stage.summary"
+    assert findings[0].check == "block.summary"
     json.dumps(rep.to_dict(), allow_nan=False)
     assert (rep.response is not None) == bool(btype.response)
     if rep.response is not None:
@@ -894,6 +895,19 @@ def test_registry_holds_every_type_module():
     found = {t.name for m in pkgutil.iter_modules(pkg.__path__)
              for t in importlib.import_module(f"{pkg.__name__}.{m.name}").TYPES}
     assert found == set(BLOCK_TYPES) and len(found) >= 9
+
+
+def test_readme_documents_every_block_type_with_its_roles_and_figures():
+    # README's declared-blocks table has one row per registered type, naming every role and figure.
+    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+    rows = {}
+    for m in re.finditer(r"^\| (`[a-z0-9-]+`(?:, `[a-z0-9-]+`)*) \|.*$", readme, re.M):
+        for name in re.findall(r"`([a-z0-9-]+)`", m.group(1)):
+            rows[name] = m.group(0)
+    for name, btype in BLOCK_TYPES.items():
+        assert name in rows, f"README lacks block type {name}"
+        for item in [r.name for r in btype.roles] + [f.name for f in btype.figures] + [k for k, _ in btype.keys]:
+            assert f"`{item}`" in rows[name], f"README row of {name} lacks {item}"
 
 
 def test_filters_helpers():
@@ -934,5 +948,5 @@ def test_check_gives_the_same_findings_and_status_as_run(tmp_path, target):
     check_status, check_findings = _cli_json("check", str(proj / "design.toml"))
     assert [f for f in run_findings if f["check"] != "fit.no-cavity"] == check_findings
     assert run_status == check_status == (0 if target is None else 1)
-    assert any(f["check"] == "stage.summary" for f in check_findings)
-    assert any(f["check"] == "stage.target-missed" for f in check_findings) == (target is not None)
+    assert any(f["check"] == "block.summary" for f in check_findings)
+    assert any(f["check"] == "block.target-missed" for f in check_findings) == (target is not None)

@@ -180,11 +180,11 @@ def test_demo_runs_clean_and_shows_its_stages(tmp_path):
     r = CliRunner().invoke(main, ["run", str(proj), "--sweep"])
     assert r.exit_code == 0, r.stdout
     for stage in ("antinoise", "click", "lamp"):
-        assert f"stage: Stage '{stage}'" in r.stdout
+        assert f"block: Block '{stage}'" in r.stdout
     assert "largest size that fits: " in r.stdout
     names = sorted(p.name for p in (proj / "out").iterdir())
     for name in ("bom.csv", "netlist.csv", "netlist.json", "fit.json", "findings.json", "fit.svg",
-                 "board-outline.dxf", "netlist.edf", "report.html", "stages.json", "design.cir"):
+                 "board-outline.dxf", "netlist.edf", "report.html", "blocks.json", "design.cir"):
         assert name in names
     report = (proj / "out" / "report.html").read_text()
     assert "antinoise" in report and "<svg" in report
@@ -204,8 +204,8 @@ def test_missed_stage_target_exits_1_and_applied_retune_passes(tmp_path):
     design.write_text(text.replace('f0 = "490Hz ±7%"', 'f0 = "400Hz ±5%"'))
     r = CliRunner().invoke(main, ["run", str(proj)])
     assert r.exit_code == 1
-    assert "outside its target 400Hz" in r.stdout and "stage: " in r.stdout
-    stages = json.loads((proj / "out" / "stages.json").read_text())
+    assert "outside its target 400Hz" in r.stdout and "block: " in r.stdout
+    stages = json.loads((proj / "out" / "blocks.json").read_text())
     antinoise = next(s for s in stages if s["name"] == "antinoise")
     best = antinoise["retune"]["proposals"][0]
     assert best["passes"]
@@ -222,7 +222,7 @@ def test_missed_stage_target_exits_1_and_applied_retune_passes(tmp_path):
     r = CliRunner().invoke(main, ["run", str(proj)])
     assert r.exit_code == 0, r.stdout
     findings = json.loads((proj / "out" / "findings.json").read_text())
-    assert not [f for f in findings if f["check"] == "stage.target-missed"]
+    assert not [f for f in findings if f["check"] == "block.target-missed"]
 
 
 def test_off_series_value_names_nearest_values(tmp_path):

@@ -117,7 +117,7 @@ def test_spice_demo_graph_equals_toml_graph():
 
 
 def test_spice_demo_carries_the_stage_declarations():
-    # parts.toml [stages.*] repeats design.toml's, so `snugboard run` checks the same targets
+    # parts.toml [blocks.*] repeats design.toml's, so `snugboard run` checks the same targets
     toml, spice = _toml_design(), _spice_design()
     assert [(s.name, s.items) for s in spice.stages] == [(s.name, s.items) for s in toml.stages]
 

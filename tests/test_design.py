@@ -104,7 +104,7 @@ GND = ["J1.4", "R1.2"]
 [voltages]
 VBAT = { nominal = "3.7V", max = "4.2V", battery = true }
 GND = "0V"
-[stages.lp]
+[blocks.lp]
 type = "rc-lowpass"
 parts = { R = "R1" }
 """)
@@ -113,7 +113,7 @@ parts = { R = "R1" }
     assert (vb.voltage, vb.voltage_max, vb.battery) == (3.7, 4.2, True)
     assert d.net("GND").voltage == 0.0
     assert d.stages[0].name == "lp" and d.stages[0].get("type") == "rc-lowpass"
-    assert d.stages[0].key == "stages.lp" and d.stages[0].line > 0
+    assert d.stages[0].key == "blocks.lp" and d.stages[0].line > 0
 
 
 def test_duplicate_pin_in_net_warns(design_from):

@@ -56,7 +56,7 @@ def _design(kind: str, values: dict, tol_r=0.01, tol_c=0.05, targets=None) -> De
                           tolerance=tol_c if is_c else tol_r))
         roles[role] = ref
     items = [("type", kind), ("parts", roles)] + ([("targets", targets)] if targets else [])
-    return Design("t", "A", "d.toml", tuple(parts), (), (RawTable("f", tuple(items), "d.toml", "stages.f", 1),))
+    return Design("t", "A", "d.toml", tuple(parts), (), (RawTable("f", tuple(items), "d.toml", "blocks.f", 1),))
 
 
 _R = st.floats(2.0, 6.0).map(lambda e: 10 ** e)            # 100 ohm .. 1 Mohm

@@ -556,7 +556,7 @@ def _sallen_key() -> Design:
     )
     return Design("Sallen-Key low-pass", "A", "design.toml", parts, nets,
                   stages=(RawTable("lowpass", (("type", "sallen-key-lowpass"), ("parts", ["R1", "R2"])),
-                                   "design.toml", "stages.lowpass", 40),))
+                                   "design.toml", "blocks.lowpass", 40),))
 
 
 def _same(d0: Design, d1: Design) -> None:
@@ -756,7 +756,7 @@ def test_demo_round_trip(tmp_path):
 def test_demo_filter_ac_in_reference_simulator(tmp_path):
     d = _demo()
     parts = {p.ref: p.value for p in d.parts}
-    # the demo's anti-noise stage: R1, R2 with Cf = C4, Cg = C5 (design.toml [stages.antinoise])
+    # the demo's anti-noise stage: R1, R2 with Cf = C4, Cg = C5 (design.toml [blocks.antinoise])
     r1, r2, cf, cg = parts["R1"], parts["R2"], parts["C4"], parts["C5"]
     f0 = 1.0 / (2 * math.pi * math.sqrt(r1 * r2 * cf * cg))  # REFERENCES.md section 5
     text = spice_netlist(d).decode()

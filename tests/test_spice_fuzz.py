@@ -97,7 +97,7 @@ _directive = st.one_of(
                      ".endl", ".tran 1n 1u", ".option", ".include", ".param", ".param a", "+ continued",
                      "+", "* snugboard: net node=in voltage=x", "* snugboard: part element=R1 value=1e400",
                      '* snugboard: kind name=k pins="[[1, \\"A\\", \\"input\\"]]"',
-                     "* snugboard: stage name=s items={", "* snugboard: part ref=J1 nodes=in kind=header",
+                     "* snugboard: block name=s items={", "* snugboard: part ref=J1 nodes=in kind=header",
                      '* snugboard: design name="x', "* snugboard: bogus", "; comment", "$ x", "* comment"]),
 )
 

@@ -55,7 +55,7 @@ def _hostile(payload: str) -> Design:
         Net("OUT", (PinRef("R1", "2"), PinRef("U1", "1"), PinRef("R2", "1"))),
         Net("GND", (PinRef("U1", "2"), PinRef("R2", "2"))),
     )
-    stages = (RawTable(payload, (("type", payload),), "design.toml", "stages.x"),)
+    stages = (RawTable(payload, (("type", payload),), "design.toml", "blocks.x"),)
     return Design("Title" + payload, "A" + payload, "dir/" + payload + ".toml", parts, nets, stages=stages,
                   kinds=(kind,))
 

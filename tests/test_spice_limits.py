@@ -239,7 +239,7 @@ def test_expansion_counts_every_element_line(tmp_path):
     ("* snugboard: net node=a voltage_max=1e999", 3),
     ("* snugboard: net voltage=5", 3),
     ('* snugboard: part element=R1 value="x"', 3),
-    ("* snugboard: stage name=s items=[1]", 3),
+    ("* snugboard: block name=s items=[1]", 3),
     ('* snugboard: kind name=k pins="[1]"', 3),
     ('* snugboard: design name="unclosed', 3),
 ])
@@ -253,10 +253,10 @@ def test_defect_20_malformed_record_names_file_and_line(tmp_path, record, line):
 def test_defect_20_stage_record_error_names_the_spice_file(tmp_path):
     # The writer of this record read the stage from design.toml line 209; the user now
     # gives main.cir, so that is the file a message about the stage must name.
-    rec = ('* snugboard: stage name=lp file=design.toml key=stages.lp line=209 '
-           'items="{\\"type\\": \\"no-such-stage\\", \\"parts\\": {}}"')
+    rec = ('* snugboard: block name=lp file=design.toml key=blocks.lp line=209 '
+           'items="{\\"type\\": \\"no-such-block\\", \\"parts\\": {}}"')
     _write(tmp_path, {"main.cir": f"stage\nR1 a 0 1k\nC1 a 0 1n\n{rec}\n",
                       "project.toml": "[project]\ndesign = \"main.cir\"\n"})
     res = CliRunner().invoke(main, ["run", str(tmp_path), "--out", str(tmp_path / "out")])
-    msg = _assert_located(res, "main.cir", 4, "stages.lp")
+    msg = _assert_located(res, "main.cir", 4, "blocks.lp")
     assert "design.toml" not in msg and not (tmp_path / "out").exists()

@@ -35,7 +35,7 @@ def _starter(tmp_path: Path, edit=lambda name, text: text) -> Path:
     return d
 
 
-def _stage_miss(name, text):
+def _block_miss(name, text):
     return text.replace('targets = { current = "3mA .. 6mA" }', 'targets = { current = "10mA .. 20mA" }')
 
 
@@ -81,7 +81,7 @@ class _Headline(HTMLParser):
 CASES = [
     # (case, edit, level, exit status)
     ("fits-clean", lambda n, t: t, "ready", 0),
-    ("stage-miss", _stage_miss, "attention", 1),
+    ("block-miss", _block_miss, "attention", 1),
     ("warning", _warning, "attention", 0),
     ("no-fit", _too_big, "does-not-fit", 1),
 ]
@@ -112,8 +112,8 @@ def test_every_output_shows_the_same_verdict(tmp_path, case, edit, level, status
         in v["headline"]
     blocking = [x for x in v["reasons"] if x["blocking"]]
     assert bool(blocking) == (status == 1 and level == "attention")
-    if case == "stage-miss":
-        assert [x["check"] for x in blocking] == ["stage.target-missed"] and "stage target missed" in v["headline"]
+    if case == "block-miss":
+        assert [x["check"] for x in blocking] == ["block.target-missed"] and "block target missed" in v["headline"]
     if case == "warning":
         assert [x["check"] for x in v["reasons"]] == ["project.thickness"]
 

@@ -4,10 +4,11 @@ Entry point: :func:`analyse_blocks` (a pipeline stage run after the value
 checks); :func:`pipeline.export.blocks.block_sections` turns its reports
 into (heading, html) pairs for ``report.html``.
 
-A design declares its circuit blocks in ``[stages.NAME]`` tables (one per
-block; the table keeps the name the design-file syntax has always used)::
+A design declares its circuit blocks in ``[blocks.NAME]`` tables (one per
+block; the previous release's ``[stages.NAME]`` is still read, with a warning:
+:mod:`pipeline.blocktables`)::
 
-    [stages.antinoise]
+    [blocks.antinoise]
     type = "sallen-key-lowpass"
     parts = { R1 = "R3", R2 = "R4", Cf = "C3", Cg = "C4", amp = "U1" }   # role = ref
     targets = { f0 = "1.0kHz ±10%", q = "0.707 ±10%" }                 # figure = target
@@ -44,23 +45,7 @@ dataclasses of :mod:`pipeline.model`.
 A part without a tolerance is taken as 5 % (resistor) or 10 % (capacitor)
 and an ``info`` finding says so.
 
-Finding codes (``stage.*``, the codes findings have always had)
-----------------------------------------------------------------
-========================  ========  ==========================================
-code                      severity  what
-========================  ========  ==========================================
-stage.summary             info      the stage's figures and their spread
-stage.target-missed       error     a nominal figure outside its target
-stage.target-met          info      a nominal figure inside its target
-stage.unstable            error     a Sallen-Key section with too much gain
-stage.led-off             error     an LED whose supply cannot forward-bias it
-stage.spread              warning   tolerances push a figure out of target
-stage.retune              info      preferred values that meet every target
-stage.retune-none         warning   no preferred-value combination meets them
-stage.tolerance-assumed   info      a stage part without a tolerance
-stage.assumption          info      a level the analysis assumed (VOL, VOH, ...)
-stage.no-targets          info      a stage declaring no targets
-========================  ========  ==========================================
+Finding codes: the ``block.*`` rows of :data:`pipeline.codes.CODES`.
 """
 
 from __future__ import annotations

@@ -108,13 +108,13 @@ def _summary(d: Decl, rep: BlockReport, title: str, subj: tuple[str, ...]) -> Fi
     tail = ""
     if rep.share_out is not None:
         tail = f"; {format_share(rep.share_out)} of {rep.draws} builds miss a target"
-    return Finding("info", "stage.summary", subj, f"{title} ({d.btype.name}): " + ", ".join(figs) + tail + ".")
+    return Finding("info", "block.summary", subj, f"{title} ({d.btype.name}): " + ", ".join(figs) + tail + ".")
 
 
 def _target_findings(d: Decl, rep: BlockReport, title: str, subj: tuple[str, ...]) -> list[Finding]:
     out: list[Finding] = []
     if not d.targets:
-        out.append(Finding("info", "stage.no-targets", subj,
+        out.append(Finding("info", "block.no-targets", subj,
                            f"{title} declares no targets, so only its figures are reported; add "
                            f"targets = {{ {d.btype.figures[0].name} = \"... ±...%\" }} to check them."))
     spread_bad = []
@@ -123,11 +123,11 @@ def _target_findings(d: Decl, rep: BlockReport, title: str, subj: tuple[str, ...
             continue
         rng_txt = f"{fmt(f.target.lo, f.unit)} .. {fmt(f.target.hi, f.unit)}"
         if f.passes:
-            out.append(Finding("info", "stage.target-met", subj,
+            out.append(Finding("info", "block.target-met", subj,
                                f"{title}: {f.name} is {fmt(f.nominal, f.unit)}, inside its target "
                                f"{f.target.text} ({rng_txt})."))
         else:
-            out.append(Finding("error", "stage.target-missed", subj,
+            out.append(Finding("error", "block.target-missed", subj,
                                f"{title}: {f.name} is {fmt(f.nominal, f.unit)}, outside its target "
                                f"{f.target.text} ({rng_txt})."))
         corner_out = not (f.target.contains(f.corner_min) and f.target.contains(f.corner_max))
@@ -138,7 +138,7 @@ def _target_findings(d: Decl, rep: BlockReport, title: str, subj: tuple[str, ...
                 f"{fmt(f.corner_min, f.unit)} .. {fmt(f.corner_max, f.unit)}" for f in spread_bad]
         total = f"{format_share(rep.share_out)} of {rep.draws} Monte Carlo builds" if rep.share_out is not None \
             else "the tolerance corners"
-        out.append(Finding("warning", "stage.spread", subj,
+        out.append(Finding("warning", "block.spread", subj,
                            f"{title}: component tolerances put it out of target in {total} "
                            f"(uniform within tolerance): " + "; ".join(bits) + "."))
     return out
@@ -152,7 +152,7 @@ def _retune_findings(d: Decl, rep: BlockReport, title: str, subj: tuple[str, ...
         p = rep.proposals[0]
         vals = ", ".join(f"{ref} = {part_value_text(v, kind)}" for (r, ref, v), kind
                          in zip(p.values, d.kinds) if ref in p.changed)
-        return [Finding("info", "stage.retune", subj,
+        return [Finding("info", "block.retune", subj,
                         f"{title}: {format_share(rep.share_out)} of builds miss a target, more than the "
                         f"{format_share(above_share)} allowed ([analysis] retune_above_share); with "
                         f"{which}, {vals} meets every target and {format_share(p.share_out)} of builds miss.")]
@@ -160,7 +160,7 @@ def _retune_findings(d: Decl, rep: BlockReport, title: str, subj: tuple[str, ...
         return []
     good = [p for p in rep.proposals if p.passes]
     if not good:
-        return [Finding("warning", "stage.retune-none", subj,
+        return [Finding("warning", "block.retune-none", subj,
                         f"{title}: no combination of {which} within a decade of the present "
                         f"values meets every target; widen the series or revisit the targets.")]
     p = good[0]
@@ -168,16 +168,16 @@ def _retune_findings(d: Decl, rep: BlockReport, title: str, subj: tuple[str, ...
                      in zip(p.values, d.kinds) if ref in p.changed)
     figs = ", ".join(f"{k} {fmt(v, d.unit(k))}" for k, v in p.figures
                      if k in {t.figure for t in d.targets})
-    return [Finding("info", "stage.retune", subj,
+    return [Finding("info", "block.retune", subj,
                     f"{title}: with {which}, {vals or 'the present values'} meets every "
                     f"target ({figs}).")]
 
 
 def _findings(d: Decl, rep: BlockReport, above_share: float) -> list[Finding]:
     subj = (d.table.key, *sorted(p.ref for _, p in d.roles))
-    title = f"Stage '{d.name}'"
+    title = f"Block '{d.name}'"
     out = [_summary(d, rep, title, subj)]
-    out += [Finding("info", "stage.assumption", subj, f"{title}: {a}.") for a in d.assumptions]
+    out += [Finding("info", "block.assumption", subj, f"{title}: {a}.") for a in d.assumptions]
     out += d.btype.checks(d, rep, title, subj)
     out += _target_findings(d, rep, title, subj)
     out += _retune_findings(d, rep, title, subj, above_share)
@@ -185,7 +185,7 @@ def _findings(d: Decl, rep: BlockReport, above_share: float) -> list[Finding]:
 
 
 def _assumed_tolerances(decls: list[Decl]) -> list[Finding]:
-    """One ``stage.tolerance-assumed`` per part without a tolerance, by ref."""
+    """One ``block.tolerance-assumed`` per part without a tolerance, by ref."""
     assumed: dict[str, tuple[str, float]] = {}
     for d in decls:
         byrole = dict(d.roles)
@@ -195,8 +195,8 @@ def _assumed_tolerances(decls: list[Decl]) -> list[Finding]:
     out = []
     for ref in sorted(assumed):
         kind, t = assumed[ref]
-        out.append(Finding("info", "stage.tolerance-assumed", (ref,),
-                           f"{ref} states no tolerance; the stage analysis assumes "
+        out.append(Finding("info", "block.tolerance-assumed", (ref,),
+                           f"{ref} states no tolerance; the block analysis assumes "
                            f"{t * 100:g} % as usual for a {kind} without one."))
     return out
 
@@ -204,7 +204,7 @@ def _assumed_tolerances(decls: list[Decl]) -> list[Finding]:
 def analyse_blocks(design: Design, *, draws: int = 10000, seed: int = 1,
                    retune_above_share: float = RETUNE_ABOVE_SHARE, progress: Progress | None = None
                    ) -> tuple[tuple[BlockReport, ...], tuple[Finding, ...]]:
-    """Analyse every ``[stages.NAME]`` table of ``design``.
+    """Analyse every ``[blocks.NAME]`` table of ``design``.
 
     Parameters
     ----------
@@ -240,7 +240,7 @@ def analyse_blocks(design: Design, *, draws: int = 10000, seed: int = 1,
     >>> r = Part("R1", "resistor", "0603", (), value=1e3, tolerance=0.01)
     >>> c = Part("C1", "capacitor", "0603", (), value=159.155e-9, tolerance=0.05)
     >>> t = RawTable("rc", (("type", "rc-lowpass"), ("parts", {"R": "R1", "C": "C1"}),
-    ...              ("targets", {"f0": "1kHz ±10%"})), "d.toml", "stages.rc")
+    ...              ("targets", {"f0": "1kHz ±10%"})), "d.toml", "blocks.rc")
     >>> reps, _ = analyse_blocks(Design("x", "A", "d.toml", (r, c), (), (t,)), draws=1000)
     >>> round(reps[0].figure("f0").nominal), reps[0].passes
     (1000, True)
@@ -255,6 +255,6 @@ def analyse_blocks(design: Design, *, draws: int = 10000, seed: int = 1,
         reports.append(rep)
         findings += fs
         if progress is not None:
-            progress(f"stage {d.name}", (i + 1) / len(decls))
+            progress(f"block {d.name}", (i + 1) / len(decls))
     findings += _assumed_tolerances(decls)
     return tuple(reports), tuple(findings)

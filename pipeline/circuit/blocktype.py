@@ -6,7 +6,7 @@ overrides some of its methods), written in one file of
 modules ask the type for everything that differs from type to type:
 
 * ``roles`` and ``figures``: the parts it needs and what it computes;
-* ``keys``: extra keys of its ``[stages.NAME]`` table, with their meaning;
+* ``keys``: extra keys of its ``[blocks.NAME]`` table, with their meaning;
 * :meth:`BlockType.read_options` / :meth:`BlockType.role_rules`: text
   options and the roles they make required, forbidden or paired;
 * :meth:`BlockType.settings`: voltages it needs (from keys or nets);
@@ -29,7 +29,8 @@ if TYPE_CHECKING:  # pragma: no cover
     from ..errors import DesignError
     from ..model import BlockReport, Finding, Net
 
-__all__ = ["RoleSpec", "FigureSpec", "BlockType", "RoleRules", "SettingsContext", "VOLT_KEY", "part_value_text"]
+__all__ = ["RoleSpec", "FigureSpec", "BlockType", "RoleRules", "SettingsContext", "VOLT_KEY", "AMP",
+           "part_value_text"]
 
 #: How a voltage key is described in a type's ``keys``.
 VOLT_KEY = "a voltage (\"3.3V\") or the name of a net with a declared voltage"
@@ -48,6 +49,10 @@ class RoleSpec:
     kind: str          # "resistor", "capacitor", "amp" or "led"
     where: str
     required: bool = True
+
+
+#: The optional op-amp role of amplifier and filter blocks.
+AMP = RoleSpec("amp", "amp", "the op-amp (optional; checked to be an op-amp or comparator)", False)
 
 
 @dataclass(frozen=True)

@@ -1,4 +1,4 @@
-"""Declarations: a ``[stages.NAME]`` table of the design checked and resolved into a :class:`Decl`.
+"""Declarations: a ``[blocks.NAME]`` table of the design checked and resolved into a :class:`Decl`.
 
 :func:`declare` reads one table in named steps: the block type, its keys,
 its options, the parts playing its roles, their values and tolerances, the
@@ -137,9 +137,9 @@ def _volts(table: RawTable, key: str, spec: Any, design: Design) -> float:
 def _block_type(table: RawTable, items: Mapping[str, Any]) -> BlockType:
     tname = items.get("type")
     if tname is None:
-        raise _err(table, "type", f"a stage needs a type; one of {', '.join(sorted(BLOCK_TYPES))}")
+        raise _err(table, "type", f"a block needs a type; one of {', '.join(sorted(BLOCK_TYPES))}")
     if not isinstance(tname, str) or tname not in BLOCK_TYPES:
-        raise _err(table, "type", f"unknown stage type {tname!r}; known types: "
+        raise _err(table, "type", f"unknown block type {tname!r}; known types: "
                                   f"{', '.join(sorted(BLOCK_TYPES))}")
     return BLOCK_TYPES[tname]
 
@@ -149,7 +149,7 @@ def _check_keys(table: RawTable, items: Mapping[str, Any], bt: BlockType) -> str
     allowed = _COMMON_KEYS + tuple(k for k, _ in bt.keys)
     for k in sorted(items):
         if k not in allowed:
-            raise _err(table, k, f"unknown key for a {bt.name} stage; keys are {', '.join(allowed)}")
+            raise _err(table, k, f"unknown key for a {bt.name} block; keys are {', '.join(allowed)}")
     note = items.get("note", "")
     if not isinstance(note, str):
         raise _err(table, "note", "note must be text")
@@ -165,10 +165,10 @@ def _check_role_names(table: RawTable, bt: BlockType, parts_spec: Any, rules: Ro
     forbidden = dict(rules.forbidden)
     for role in sorted(parts_spec):
         if role not in role_names:
-            raise _err(table, f"parts.{role}", f"unknown role for a {bt.name} stage; roles are "
+            raise _err(table, f"parts.{role}", f"unknown role for a {bt.name} block; roles are "
                                                f"{', '.join(role_names)}")
         if role in forbidden:
-            raise _err(table, f"parts.{role}", f"role {role} does not apply to this stage's "
+            raise _err(table, f"parts.{role}", f"role {role} does not apply to this block's "
                                                f"{forbidden[role]} setting")
     for role in rules.required:
         if role not in parts_spec:
@@ -261,7 +261,7 @@ def _targets(table: RawTable, bt: BlockType, items: Mapping[str, Any],
             continue
         k = f"targets.{fname}"
         if fname not in figs:
-            raise _err(table, k, f"unknown figure for a {bt.name} stage; figures are {', '.join(figs)}")
+            raise _err(table, k, f"unknown figure for a {bt.name} block; figures are {', '.join(figs)}")
         if fname not in available:
             raise _err(table, k, why_not)
         try:
@@ -288,7 +288,7 @@ def _series(table: RawTable, items: Mapping[str, Any]) -> tuple[tuple[str, str],
 
 
 def declare(design: Design, table: RawTable, pin_nets: _PinNets | None = None) -> Decl:
-    """Check one ``[stages.NAME]`` table against ``design`` and resolve it.
+    """Check one ``[blocks.NAME]`` table against ``design`` and resolve it.
 
     Steps: the type; its keys and note; its options (they decide which
     roles are needed); the role names; the part of each role; values and

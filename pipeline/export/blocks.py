@@ -29,7 +29,7 @@ def _table(head: Sequence[str], rows: Sequence[Sequence[str]], cls: str) -> str:
 
 
 def block_sections(reports: Sequence[BlockReport]) -> list[tuple[str, str]]:
-    """(heading, html fragment) per stage for ``report.html``.
+    """(heading, html fragment) per declared block for ``report.html``.
 
     The heading is plain text (the report writer escapes it); everything
     user-written inside the fragment is escaped here. A fragment holds the
@@ -50,7 +50,7 @@ def block_sections(reports: Sequence[BlockReport]) -> list[tuple[str, str]]:
                          fmt(f.corner_min, f.unit), fmt(f.corner_max, f.unit),
                          fmt(f.p01, f.unit), fmt(f.p50, f.unit), fmt(f.p99, f.unit),
                          "" if f.share_out is None else format_share(f.share_out), verdict))
-        bits = ['<div class="stage">',
+        bits = ['<div class="block">',
                 f'<p>{_E(rep.type)}' + (f": {_E(rep.note)}" if rep.note else "") +
                 f'. Spread: every tolerance corner, and {rep.draws} Monte Carlo builds (seed {rep.seed}, '
                 f'each part uniform within its tolerance).</p>']
@@ -58,11 +58,11 @@ def block_sections(reports: Sequence[BlockReport]) -> list[tuple[str, str]]:
             bits.append("<p>" + _E("; ".join(f"{k} = {fmt(v, 'V')}" for k, v in rep.settings)) + "</p>")
         if rep.assumptions:
             bits.append("<p>Assumed: " + _E("; ".join(rep.assumptions)) + ".</p>")
-        bits.append(_table(("role", "part", "value", "tolerance"), parts, "stage-parts"))
+        bits.append(_table(("role", "part", "value", "tolerance"), parts, "block-parts"))
         bits.append(_table(("figure", "nominal", "target", "corner min", "corner max", "1st pct",
-                            "median", "99th pct", "builds out", "verdict"), figs, "stage-figures"))
+                            "median", "99th pct", "builds out", "verdict"), figs, "block-figures"))
         if rep.response is not None:
-            bits.append(f'<figure class="stage-response">{response_svg(rep, len(out) + 1)}</figure>')
+            bits.append(f'<figure class="block-response">{response_svg(rep, len(out) + 1)}</figure>')
         if rep.proposals:
             kinds = {p.role: p.kind for p in rep.parts}
             rows = []
@@ -74,7 +74,7 @@ def block_sections(reports: Sequence[BlockReport]) -> list[tuple[str, str]]:
             ser = ", ".join(f"{k} {v}" for k, v in rep.series)
             bits.append(f"<p>Retune with preferred values ({_E(ser)}):</p>")
             bits.append(_table(("#", "values", "figures", "error", "meets all", "builds out"), rows,
-                               "stage-retune"))
+                               "block-retune"))
         bits.append("</div>")
-        out.append((f"Stage {rep.name} ({rep.type})", "\n".join(bits)))
+        out.append((f"Block {rep.name} ({rep.type})", "\n".join(bits)))
     return out

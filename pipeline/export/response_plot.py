@@ -163,9 +163,9 @@ def response_svg(rep: BlockReport, index: int) -> str:
         db = min(max(db, bottom - 40.0), top + 40.0)      # clipped by the plot's clipPath
         return _MT + (top - db) / (top - bottom) * ph
 
-    clip = f"stage-plot-{index}"
+    clip = f"block-plot-{index}"
     out = [f'<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 {_W} {_H}" width="{_W}" height="{_H}" '
-           f'role="img" aria-label="{_E("frequency response of stage " + rep.name)}" '
+           f'role="img" aria-label="{_E("frequency response of block " + rep.name)}" '
            f'font-family="sans-serif" font-size="11">',
            f'<rect x="0" y="0" width="{_W}" height="{_H}" fill="#fbfaf6"/>',
            f'<rect x="{_ML}" y="{_MT}" width="{pw}" height="{ph}" fill="#ffffff" stroke="#8a8579"/>',

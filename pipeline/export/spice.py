@@ -81,6 +81,7 @@ from dataclasses import dataclass, field
 from decimal import Decimal
 from typing import Any, Iterable
 
+from ..blocktables import RECORD
 from ..model import Design, Part, PinDef
 from ..values import EXPONENT_PREFIX
 
@@ -395,7 +396,7 @@ def spice_netlist(design: Design) -> bytes:
 
 
 def _head_lines(design: Design) -> list[str]:
-    """Title, provenance comments, and the design, kind and stage records."""
+    """Title, provenance comments, and the design, kind and block records."""
     title = _ascii(design.name.replace("\r", " ").replace("\n", " ")).strip() or "snugboard design"
     source = posixpath.basename(design.source.replace("\\", "/")) if design.source else ""
     out = [title,
@@ -413,11 +414,11 @@ def _head_lines(design: Design) -> list[str]:
         try:
             items = json.dumps(dict(st.items), ensure_ascii=True, sort_keys=False)
         except (TypeError, ValueError):
-            out.append(f"* stage {_ascii(st.name)}: its table holds values JSON cannot carry; not recorded")
+            out.append(f"* block {_ascii(st.name)}: its table holds values JSON cannot carry; not recorded")
             continue
-        # No file or line: the reader locates a stage record in the file it reads
+        # No file or line: the reader locates a block record in the file it reads
         # (and the design's own path would put a path into the output).
-        out.append(_record("stage", [("name", st.name), ("key", st.key), ("items", items)]))
+        out.append(_record(RECORD, [("name", st.name), ("key", st.key), ("items", items)]))
     return out
 
 

@@ -6,13 +6,14 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from ..blocktables import OLD_TABLE, TABLE, block_tables
 from ..errors import DesignError
-from ..model import RawTable
+from ..model import Finding, RawTable
 from ..tomlsrc import TomlSource
 from ..tomlsrc import load as _load_toml
 from .tokens import REF_RE
 
-_PM_TOP = ("defaults", "models", "subckt", "refs", "design", "stages")
+_PM_TOP = ("defaults", "models", "subckt", "refs", "design", TABLE, OLD_TABLE)
 _PM_MAP_KEYS = ("kind", "package", "pins")
 _PM_REF_KEYS = ("kind", "package", "pins", "ref", "value", "tolerance", "rating", "manufacturer", "mpn",
                 "note", "dnp", "supplier", "order_code", "description")
@@ -49,6 +50,7 @@ class PartsMap:
     refs: dict[str, Spec] = field(default_factory=dict)
     revision: str | None = None
     stages: tuple[RawTable, ...] = ()
+    notes: list[Finding] = field(default_factory=list)  # warnings of the reading
     used: set[str] = field(default_factory=set)
 
 
@@ -79,11 +81,7 @@ def read_parts_map(path: Path, shown: str, library: Any) -> PartsMap:
     rd.unknown("design", head, ("revision",))
     if "revision" in head:
         pm.revision = rd.text("design.revision", head["revision"])
-    pm.stages = tuple(
-        RawTable(name=n, items=tuple(rd.table(f"stages.{n}", b).items()), file=shown, key=f"stages.{n}",
-                 line=rd.src.line(f"stages.{n}") or 0)
-        for n, b in rd.table("stages", data.get("stages", {})).items()
-    )
+    pm.stages, pm.notes = block_tables(rd.src, DesignError)
     return pm
 
 

@@ -120,7 +120,7 @@ def read_spice(
                     revision=pm.revision if pm.revision is not None else recs.design.get("revision", ""),
                     source=shown, parts=parts, nets=nets, stages=stage_tables(pm.stages, recs),
                     kinds=tuple(kinds), inputs=tuple(sorted(rd.inputs)))
-    return design, rd.findings
+    return design, pm.notes + rd.findings
 
 
 def _resolved(path: Path, root: Path | None, shown: str) -> tuple[Path, Path]:

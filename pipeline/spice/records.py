@@ -6,6 +6,7 @@ import json
 import math
 from dataclasses import dataclass, field
 
+from ..blocktables import OLD_RECORD, RECORD, TABLE, old_name_note
 from ..errors import DesignError
 from ..model import PartKind, PinDef, PIN_ROLES, RawTable
 from .lines import Line, Reader
@@ -107,18 +108,21 @@ def sort_records(rd: Reader) -> RecordSet:
             out.nets[kv["node"].lower()] = kv
         elif rtype == "design":
             out.design = kv
-        elif rtype == "stage":
+        elif rtype in (RECORD, OLD_RECORD):
             out.stages.append((kv, file, line))
+            if rtype == OLD_RECORD:
+                rd.findings.append(old_name_note(f"{file}:{line}", f"* snugboard: {OLD_RECORD}",
+                                                 f"* snugboard: {RECORD}"))
         elif rtype != "kind":
             rd.note("warning", "spice.record", (file,), f"{file}:{line}: unknown snugboard record '{rtype}'; ignored.")
     return out
 
 
 def stage_tables(mapped: tuple[RawTable, ...], recs: RecordSet) -> tuple[RawTable, ...]:
-    """The parts map's stages, then those of stage records the map does not name.
+    """The parts map's blocks, then those of block records the map does not name.
 
-    A stage read from a record is located in the SPICE file at the record's
-    line (its key stays the original ``stages.NAME``), so that a message
+    A block read from a record is located in the SPICE file at the record's
+    line (its key stays the original ``blocks.NAME``), so that a message
     about it names the file the user gave.
     """
     stages = list(mapped)
@@ -127,10 +131,10 @@ def stage_tables(mapped: tuple[RawTable, ...], recs: RecordSet) -> tuple[RawTabl
         try:
             items = json.loads(kv.get("items", "{}"))
         except json.JSONDecodeError:
-            raise DesignError(file, "the stage record's items are not JSON", line=line) from None
+            raise DesignError(file, "the block record's items are not JSON", line=line) from None
         if not isinstance(items, dict) or not kv.get("name"):
-            raise DesignError(file, "a stage record needs name=... and items={...}", line=line)
+            raise DesignError(file, "a block record needs name=... and items={...}", line=line)
         if kv["name"] not in known:
             stages.append(RawTable(name=kv["name"], items=tuple(items.items()), file=file,
-                                   key=kv.get("key", f"stages.{kv['name']}"), line=line))
+                                   key=kv.get("key", f"{TABLE}.{kv['name']}"), line=line))
     return tuple(stages)

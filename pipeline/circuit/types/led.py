@@ -38,7 +38,7 @@ class LedResistor(BlockType):
             return []
         s = dict(decl.settings)
         head = s["vcc"] - s["vf"] - s["vdrop"]
-        return [Finding("error", "stage.led-off", subject,
+        return [Finding("error", "block.led-off", subject,
                         f"{title}: vcc - vf - vdrop = {format_quantity(head, 'V')}, so the LED never lights; "
                         f"raise the supply or pick an LED with a lower forward voltage.")]
 

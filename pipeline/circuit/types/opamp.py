@@ -5,8 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from .. import formulas as F
-from ..blocktype import BlockType, FigureSpec, RoleSpec
-from .sallen_key import AMP
+from ..blocktype import AMP, BlockType, FigureSpec, RoleSpec
 
 
 @dataclass(frozen=True)

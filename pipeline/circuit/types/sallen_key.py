@@ -14,11 +14,10 @@ from typing import Any, Mapping, Sequence
 import numpy as np
 
 from .. import formulas as F
-from ..blocktype import BlockType, FigureSpec, RoleRules, RoleSpec
+from ..blocktype import AMP, BlockType, FigureSpec, RoleRules, RoleSpec
 from ...model import Finding
 from ...values import format_quantity
 
-AMP = RoleSpec("amp", "amp", "the op-amp (optional; checked to be an op-amp or comparator)", False)
 _GAIN = (
     RoleSpec("Ra", "resistor", "output to the inverting input (gain 1 + Ra/Rb; with Rb)", False),
     RoleSpec("Rb", "resistor", "inverting input to ground (with Ra)", False),
@@ -112,7 +111,7 @@ class SallenKey(BlockType):
         q = report.figure("q").nominal
         if math.isfinite(q) and q > 0:
             return []
-        return [Finding("error", "stage.unstable", subject,
+        return [Finding("error", "block.unstable", subject,
                         f"{title}: the gain 1 + Ra/Rb = {format_quantity(report.figure('gain').nominal, '')} "
                         f"is too high for these values, so the section oscillates; lower the "
                         f"gain or change the capacitor ratio.")]
