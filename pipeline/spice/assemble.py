@@ -6,7 +6,7 @@ import json
 from typing import Any
 
 from .. import values as _values
-from ..errors import DesignError
+from ..errors import DesignError, Where
 from ..model import Net, Part, PartKind, PinRef
 from .mapping import POLARITY_KINDS, kind_pins
 from .numbers import fmt
@@ -152,10 +152,7 @@ def _from_record(f: dict[str, Any], c: Cand, rec: dict[str, str], kind: PartKind
 def _from_map(f: dict[str, Any], extra: dict[str, str], spec: Spec, kind: PartKind) -> None:
     """What a ``[refs.NAME]`` table adds to ``f`` and ``extra``; values in TOML design notation (pipeline.values)."""
     def parsed(key: str, parse: Any, *args: Any) -> Any:
-        try:
-            return parse(spec.get(key), *args)
-        except ValueError as exc:
-            raise DesignError(spec.file, str(exc), line=spec.line, key=f"{spec.key}.{key}") from None
+        return parse(spec.get(key), *args, at=Where(spec.file, spec.line, f"{spec.key}.{key}"))
 
     if spec.get("value") is not None:
         f["value_text"] = spec.get("value")

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 
-from ..errors import DesignError
+from ..errors import DesignError, ValueTextError
 from .numbers import NUM_RE, PLAIN_NUM, number_warning, parse_number
 from .expr import ExprError, Scope, evaluate, strip_braces
 from .limits import SUBCKT_DEPTH, limit_hint
@@ -75,7 +75,7 @@ def _value_of(token: str, ctx: Ctx, ln: Line, b: Build, name: str, letter: str) 
         t = t[1:-1]
     try:
         v = parse_number(t)
-    except ValueError:
+    except ValueTextError:
         try:
             ctx.scope.get(t)
             hint = f"; write {{{t}}} to use the parameter"
@@ -182,7 +182,7 @@ def _source(ln: Line, letter: str, ctx: Ctx, b: Build, spice_name: str) -> None:
         return
     try:
         v = _evaluate_at(vals[0], ctx, b) if vals[0][:1] in "{'" else parse_number(vals[0])
-    except (ValueError, ExprError):
+    except (ValueTextError, ExprError):
         return
     if v == 0:
         return
