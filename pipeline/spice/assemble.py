@@ -7,6 +7,7 @@ from typing import Any
 
 from .. import values as _values
 from ..errors import DesignError, Where
+from ..graph import SPICE_GROUND_NET
 from ..model import Net, Part, PartKind, PinRef
 from .mapping import POLARITY_KINDS, kind_pins
 from .numbers import fmt
@@ -82,7 +83,7 @@ def _nets(b: Build, net_pins: dict[str, list[PinRef]], net_records: dict[str, di
     seen: set[str] = set()
     for node, pins in net_pins.items():
         rec = net_records.get(node, {})
-        name = "GND" if node == "0" else (rec.get("name") or b.net_names.get(node, node))
+        name = SPICE_GROUND_NET if node == "0" else (rec.get("name") or b.net_names.get(node, node))
         file, line = rec.get("_file", b.rd.shown), int(rec.get("_line", "0") or 0)
         v = float_or_none(rec.get("voltage"), file, line, "voltage") if "voltage" in rec else voltages.get(node)
         vmax = float_or_none(rec.get("voltage_max"), file, line, "voltage_max")
