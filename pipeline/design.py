@@ -30,12 +30,13 @@ from . import values as _values
 from .blocktables import OLD_TABLE, TABLE, block_tables
 from .errors import DesignError, Where
 from .library.custom import package_from_table
+from .library.kinds import CATEGORIES
 from .model import Package, OLD_PIN_ROLES, PIN_ROLES, Design, Finding, Net, Part, PartKind, PinDef, PinRef, RawTable
 from .tomlsrc import TomlSource, load
 
 __all__ = ["read_design", "read_design_text", "KIND_CATEGORIES"]
 
-KIND_CATEGORIES = ("passive", "polarized", "semiconductor", "ic", "connector")
+KIND_CATEGORIES = CATEGORIES  # the library's list: one home
 
 _TOP_KEYS = ("design", "packages", "kinds", "parts", "nets", "voltages", TABLE, OLD_TABLE)
 _DESIGN_KEYS = ("name", "revision", "note")
