@@ -99,7 +99,8 @@ def _unplaced_with(items: Sequence[PlaceItem], cavity: Cavity, board: BoardOptio
 
     try:
         region, _ = usable_region(cavity, board)
-        trial = place_and_fit(items, region, board, user_board=cavity.board, progress=progress)
+        trial = place_and_fit(items, region, board, user_board=cavity.board, progress=progress,
+                              improve=False)  # verdict only
     except SnugboardError:
         return None
     return len(trial.unplaced) if trial.fits or trial.unplaced else None

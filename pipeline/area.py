@@ -102,6 +102,7 @@ def items_from_design(design: Design, library, density: str,
             nets=tuple(sorted(nets_of.get(part.ref, ()))),
             pin_count=pins,
             package=pkg.name,
+            fixed=part.fixed,
         ))
     return tuple(items)
 

@@ -165,9 +165,10 @@ def main() -> None:
 @click.option("--sweep", is_flag=True, help="Also re-run the fit with every two-terminal passive at 0201..1206.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object to stdout; human text to stderr.")
 @click.option("-v", "--verbose", is_flag=True, help="Also show notes (info findings).")
+@click.option("--no-route", is_flag=True, help="Skip routing: the verdict is placement only.")
 @click.pass_context
 def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: str | None, out: str | None,
-            sweep: bool, as_json: bool, verbose: bool) -> None:
+            sweep: bool, as_json: bool, verbose: bool, no_route: bool) -> None:
     """Read PROJECT_DIR/project.toml, check the design, fit it in the cavity, write the outputs."""
     from .project import load_project, run
 
@@ -175,7 +176,7 @@ def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: st
     project = load_project(project_dir, design=design, cavity=cavity, out=out)
     progress = _Progress(not as_json)
     try:
-        result = run(project, progress=progress, sweep=sweep)
+        result = run(project, progress=progress, sweep=sweep, route=not no_route)
     finally:
         progress.done()
     err = as_json
@@ -191,6 +192,8 @@ def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: st
         _say(f"fit: usable region {f.region_area_mm2:.1f} mm2, courtyards {f.courtyard_area_mm2:.1f} mm2, "
                    f"estimated board {f.estimate.low_mm2:.0f}..{f.estimate.high_mm2:.0f} mm2 "
                    f"(expected {f.estimate.expected_mm2:.0f})", err=err)
+    if result.routing is not None:
+        _say(f"routing: {result.routing.label}", err=err)
     _say(f"{result.design.name}: {_counts(result.findings)}; wrote {len(result.written)} files to "
                f"{_where(project.out_dir)}", err=err)
     _echo_verdict(result.verdict, err)
@@ -256,16 +259,21 @@ def new_cmd(ctx: click.Context, folder: str) -> None:
 @click.option("--project", "project_dir", metavar="DIR",
               help="Take the layer map, units, depth and board options from DIR/project.toml.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object to stdout.")
+@click.option("--write-dxf", "write_dxf", metavar="OUT", help="Also write the cavity as a DXF drawing on "
+              "snugboard's layers, in its own units (a new file; never over an existing one).")
 @click.pass_context
-def cavity_cmd(ctx: click.Context, dxf_file: str, project_dir: str | None, as_json: bool) -> None:
-    """Read a cavity drawing alone: units, outline, keep-outs, depth zones, usable region."""
+def cavity_cmd(ctx: click.Context, dxf_file: str, project_dir: str | None, as_json: bool,
+               write_dxf: str | None) -> None:
+    """Read a cavity drawing or measured-cavity file alone: units, outline, keep-outs, depth zones, region."""
     from pathlib import Path
 
-    from .project import inspect_cavity, load_project
+    from .project import inspect_cavity, load_project, write_cavity_dxf
 
     ctx.meta["snugboard.json"] = as_json
     project = load_project(project_dir) if project_dir else None
     cavity, region, findings = inspect_cavity(Path(dxf_file), shown=dxf_file, project=project)
+    if write_dxf:
+        write_cavity_dxf(cavity, Path(write_dxf), shown=write_dxf)
     zones = [{"max_part_height_mm": round(z.max_height_mm, 4), "area_mm2": round(z.polygon.area, 4)}
              for z in region.zones]
     x0, y0, x1, y1 = (round(v, 4) for v in cavity.outline.bounds)

@@ -127,6 +127,11 @@ CODES: dict[str, Code] = {
     "fit.no-cavity": _c("info", "no cavity drawing given: the fit was not checked"),
     # routing (pipeline/route/, pipeline/verdict.py)
     "route.open": _c("error", "nets the router could not complete on this board"),
+    "route.routed": _c("info", "every connection routed and the independent copper check is clean"),
+    "route.skipped": _c("info", "routing switched off or not tried: the verdict is placement only"),
+    "route.demand": _c("info", "routing demand (RUDY) and where the router found congestion, for open nets"),
+    "route.defect": _c("error", "the independent copper check rejects a routing the router called complete "
+                                "(a defect of the router)"),
     # project file (pipeline/project.py)
     "project.thickness": _c("warning", "a board thickness that is not a common stock thickness"),
 }

@@ -22,6 +22,7 @@ parts and pins.
 
 from __future__ import annotations
 
+import math
 import re
 from pathlib import Path
 from typing import Any, Iterable
@@ -31,7 +32,7 @@ from .blocktables import OLD_TABLE, TABLE, block_tables
 from .errors import DesignError, Where
 from .library.custom import package_from_table
 from .library.kinds import CATEGORIES
-from .model import Package, OLD_PIN_ROLES, PIN_ROLES, Design, Finding, Net, Part, PartKind, PinDef, PinRef, RawTable
+from .model import Package, OLD_PIN_ROLES, PIN_ROLES, Design, Finding, Fixed, Net, Part, PartKind, PinDef, PinRef, RawTable
 from .tomlsrc import TomlSource, load
 
 __all__ = ["read_design", "read_design_text", "KIND_CATEGORIES"]
@@ -42,7 +43,7 @@ _TOP_KEYS = ("design", "packages", "kinds", "parts", "nets", "voltages", TABLE, 
 _DESIGN_KEYS = ("name", "revision", "note")
 _PART_KEYS = (
     "kind", "value", "package", "tolerance", "rating", "manufacturer", "mpn",
-    "note", "dnp", "supplier", "order_code", "description", "height_mm",
+    "note", "dnp", "supplier", "order_code", "description", "height_mm", "at", "rotation", "side",
 )
 _PASSTHROUGH = ("supplier", "order_code", "description")
 _KIND_KEYS = ("category", "package", "pins", "description", "value_unit", "board_feature")
@@ -322,6 +323,7 @@ def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dic
         raise _err(src, f"{key}.height_mm", f"height_mm must be a number of millimetres above 0, "
                                             f"got {height!r}")
     return Part(
+        fixed=_read_fixed(src, key, body),
         ref=ref, kind=kind.name, package=package.name, pins=pins, value=value, value_text=value_text,
         tolerance=tol, tolerance_text=tol_text, rating_v=rv, rating_w=rw, rating_text=rating_text,
         manufacturer=_expect_str(src, f"{key}.manufacturer", body.get("manufacturer", "")),
@@ -356,6 +358,26 @@ def _resolve_pin(src: TomlSource, key: str, text: str, by_ref: dict[str, Part]) 
     raise _err(src, key, f"{part.ref} ({part.kind}, {part.package}) has no pin '{pin}'; its pins are: {choices}", ref=text)
 
 
+def _read_fixed(src: TomlSource, key: str, body: dict) -> Fixed | None:
+    """``at = [x, y]`` (mm, drawing frame), ``rotation`` (0/90/180/270), ``side``: a part fixed in place."""
+    if "at" not in body:
+        for k in ("rotation", "side"):
+            if k in body:
+                raise _err(src, f"{key}.{k}", f"{k} fixes a part in place and needs at = [x, y] (mm) as well")
+        return None
+    at = body["at"]
+    if (not isinstance(at, list) or len(at) != 2
+            or not all(isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v) for v in at)):
+        raise _err(src, f"{key}.at", "at is the courtyard centre in the drawing's frame, in mm: at = [x, y]")
+    rot = body.get("rotation", 0)
+    if isinstance(rot, bool) or rot not in (0, 90, 180, 270):
+        raise _err(src, f"{key}.rotation", f"rotation must be 0, 90, 180 or 270 (degrees), not {rot!r}")
+    side = body.get("side", "top")
+    if side not in ("top", "bottom"):
+        raise _err(src, f"{key}.side", f"side must be \"top\" or \"bottom\", not {side!r}")
+    return Fixed(float(at[0]), float(at[1]), int(rot), side, src.display, src.line(key) or 0)
+
+
 def _read_net(src: TomlSource, name: str, pins_raw: Any, by_ref: dict[str, Part],
               volt: tuple[float | None, float | None, bool] | None, warnings: list[Finding]) -> Net:
     key = f"nets.{name}"
@@ -364,14 +386,16 @@ def _read_net(src: TomlSource, name: str, pins_raw: Any, by_ref: dict[str, Part]
     if not isinstance(pins_raw, list):
         raise _err(src, key, "a net is a list of pins, e.g. GND = [\"R1.2\", \"U1.4\"]")
     pins: list[PinRef] = []
+    seen: set[PinRef] = set()
     for item in pins_raw:
         if not isinstance(item, str):
             raise _err(src, key, f"pins are written as text \"REF.PIN\", found {item!r}")
         pr = _resolve_pin(src, key, item, by_ref)
-        if pr in pins:
+        if pr in seen:
             warnings.append(Finding("warning", "design.duplicate-pin", (name, str(pr)),
                                     f"{src.display}: net {name} lists {pr} twice; it is counted once."))
             continue
+        seen.add(pr)
         pins.append(pr)
     v, vmax, bat = volt if volt else (None, None, False)
     return Net(name=name, pins=tuple(pins), voltage=v, voltage_max=vmax, battery=bat, line=src.line(key) or 0)

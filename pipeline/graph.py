@@ -113,11 +113,11 @@ def build_graph(design: Design) -> nx.MultiGraph:
     g = nx.MultiGraph(design=design.name)
     for p in design.parts:
         g.add_node(part_node(p.ref), kind=p.kind, package=p.package, dnp=p.dnp, pins=p.pins)
+    parts = design.by_ref
     for n in design.nets:
         g.add_node(net_node(n.name), voltage=n.voltage)
         for pr in n.pins:
-            part = design.part(pr.ref)
-            pd = part.pin(pr.pin)
+            pd = parts[pr.ref].pin(pr.pin)
             g.add_edge(part_node(pr.ref), net_node(n.name), key=pr.pin, pin=pr.pin,
                        pin_name=pd.name, role=pd.role)
     return g

@@ -12,6 +12,7 @@ stage boundary is here.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import TYPE_CHECKING, Any, Literal
 
 if TYPE_CHECKING:  # geometry types only annotate: importing shapely here would slow every command's start
@@ -211,6 +212,23 @@ class Package:
 # --------------------------------------------------------------------------
 # Design: parts and nets.
 # --------------------------------------------------------------------------
+@dataclass(frozen=True)
+class Fixed:
+    """Where the user fixed a part (design keys ``at``, ``rotation``, ``side``; issue 8).
+
+    ``x_mm``, ``y_mm``: the courtyard centre in the drawing's frame, mm;
+    ``rotation_deg`` 0, 90, 180 or 270 (counter-clockwise); ``side`` top or
+    bottom. ``file`` and ``line`` locate the part for messages.
+    """
+
+    x_mm: float
+    y_mm: float
+    rotation_deg: int = 0
+    side: Side = "top"
+    file: str = ""
+    line: int = 0
+
+
 @dataclass(frozen=True, order=True)
 class PinRef:
     """A connected pin: part ref and pin number (text). ``str()`` is ``REF.PIN``."""
@@ -254,12 +272,18 @@ class Part:
     #: The part's own seated height, mm, when the design gives one (a 10 uF 0603
     #: capacitor is thicker than the package default); ``None``: by kind and package.
     height_mm: float | None = None
+    fixed: Fixed | None = None
+
+    @cached_property
+    def _pin_index(self) -> dict[str, PinDef]:
+        out: dict[str, PinDef] = {}
+        for p in self.pins:
+            out.setdefault(p.number, p)
+        return out
 
     def pin(self, number: str) -> PinDef:
-        for p in self.pins:
-            if p.number == number:
-                return p
-        raise KeyError(number)
+        """The pin numbered ``number``; O(1) after one O(pins) index build."""
+        return self._pin_index[number]
 
 
 @dataclass(frozen=True)
@@ -317,17 +341,28 @@ class Design:
     #: includes), resolved; outputs never write over any of them.
     inputs: tuple[str, ...] = ()
 
-    def part(self, ref: str) -> Part:
+    @cached_property
+    def by_ref(self) -> dict[str, Part]:
+        """``ref -> Part`` (the first, if a ref is listed twice), built once in O(parts); do not mutate."""
+        out: dict[str, Part] = {}
         for p in self.parts:
-            if p.ref == ref:
-                return p
-        raise KeyError(ref)
+            out.setdefault(p.ref, p)
+        return out
+
+    @cached_property
+    def _net_index(self) -> dict[str, Net]:
+        out: dict[str, Net] = {}
+        for n in self.nets:
+            out.setdefault(n.name, n)
+        return out
+
+    def part(self, ref: str) -> Part:
+        """The part ``ref`` (the first, if listed twice); O(1) after one O(parts) index build."""
+        return self.by_ref[ref]
 
     def net(self, name: str) -> Net:
-        for n in self.nets:
-            if n.name == name:
-                return n
-        raise KeyError(name)
+        """The net ``name`` (the first, if listed twice); O(1) after one O(nets) index build."""
+        return self._net_index[name]
 
 
 # --------------------------------------------------------------------------
@@ -442,6 +477,7 @@ class PlaceItem:
     nets: tuple[str, ...]
     pin_count: int = 2
     package: str = ""
+    fixed: Fixed | None = None
 
 
 @dataclass(frozen=True)

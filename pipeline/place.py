@@ -56,22 +56,23 @@ The method
    keeps the parts in one compact block instead of a strip along the
    bottom edge (shorter nets); if that does not fit, the whole area is
    used.
-3. *Improvement: pairwise swaps* (pairwise interchange, a classic
-   placement improvement; e.g. Goto 1981). Parts of the same class can trade
-   slots without touching legality. In seeded random order, each part
-   looks at the few slots of its class nearest the median of the parts it
-   shares nets with and takes the swap that lowers the half-perimeter
-   wirelength most; at most ``SWAP_PASSES`` passes and ``SWAP_BUDGET``
-   evaluations. Nets with more than ``OPT_FANOUT`` parts (ground, supply)
-   are left out of the improvement, as placers commonly do, but are
-   counted in the reported wirelength.
+3. *Improvement: pairwise swaps* (pairwise interchange toward each part's
+   optimal region, Goto 1981; :mod:`pipeline.improve`). Parts of the same
+   class can trade slots without touching legality. Rounds of candidate
+   swaps are evaluated in numpy batches with each net's bounding box
+   without the moving part, and the improving swaps that share no net are
+   applied together; the budget is a fixed number of candidates per part
+   and round, so it grows with the design. Nets with more than
+   ``OPT_FANOUT`` parts (ground, supply) are left out of the improvement,
+   as placers commonly do, but are counted in the reported wirelength.
+   Callers that need only the verdict skip this step (``improve=False``).
 4. *Self-check.* Every placed courtyard is checked with shapely against the
    exact area, zones and its neighbours (STRtree); a failure would be a
    defect and drops the part with a warning instead of reporting a false
    fit.
 
 Everything is deterministic: classes and parts are sorted with refs as
-the last key and the improvement's random order uses a fixed seed.
+the last key and the improvement breaks ties by index.
 
 References (cited from memory)
 ------------------------------
@@ -99,6 +100,7 @@ from shapely.geometry.polygon import orient
 
 from .area import estimate_area
 from .errors import DesignError, ProjectError
+from .improve import improve_swaps
 from .model import BoardOptions, FitResult, Finding, PlaceItem, Placement, Region
 from .order import natural_key
 from .outline import QUAD_SEGS, cells_inside, polygons_of, propose_outline
@@ -113,14 +115,8 @@ CELL_BUDGET = 9_000_000
 CELL_SIZES = (0.05, 0.1, 0.2, 0.25, 0.5, 1.0)
 #: Nets with more parts than this are left out of the swap improvement.
 OPT_FANOUT = 32
-#: Swap improvement limits.
-SWAP_PASSES = 4
-SWAP_BUDGET = 60_000
-SWAP_CANDIDATES = 6
 #: Geometric tolerance of the self-check, mm.
 TOL = 1e-6
-#: Seed of the improvement's random order.
-SEED = 20240613
 #: Most bottom-gap values tried with sides = 2.
 MAX_GAPS = 8
 #: A board at least this many times the courtyard sum first gets a compact block of parts.
@@ -265,8 +261,9 @@ class _Packer:
     """Bottom-left fill of classes of equal rectangles on a boolean grid."""
 
     def __init__(self, items: Sequence[PlaceItem], area: BaseGeometry, zones, rank: Sequence[int],
-                 budget: int = CELL_BUDGET):
+                 budget: int = CELL_BUDGET, fixed: dict | None = None):
         self.items = items
+        self.fixed = dict(fixed or {})  # item -> (side, (x1, y1, x2, y2)) of a part the user fixed
         self.area = area
         self.rank = rank
         dims = [d for it in items for d in (it.length_mm, it.width_mm)]
@@ -334,6 +331,8 @@ class _Packer:
             bot = sides == 2 and gap > 0 and it.height_mm <= gap + 1e-9
             run.top_level[i] = lvl
             run.bottom_ok[i] = bot
+            if i in self.fixed:
+                continue
             key = (bot, self.wc[i], self.hc[i], -1 if lvl is None else lvl)
             classes.setdefault(key, []).append(i)
         for members in classes.values():
@@ -353,6 +352,11 @@ class _Packer:
         if sides == 2 and gap > 0:
             occ["bottom"] = np.zeros((g.ny, g.nx), dtype=bool)
         bottom_mask = self.mask(self.level(gap) or 0) if "bottom" in occ else None
+        for side, (x1, y1, x2, y2) in self.fixed.values():  # fixed parts hold their cells first
+            if side in occ:
+                c0, c1 = int(math.floor((x1 - g.x0) / g.cell + 1e-9)), int(math.ceil((x2 - g.x0) / g.cell - 1e-9))
+                r0, r1 = int(math.floor((y1 - g.y0) / g.cell + 1e-9)), int(math.ceil((y2 - g.y0) / g.cell - 1e-9))
+                occ[side][max(r0, 0):max(r1, 0), max(c0, 0):max(c1, 0)] = True
         n_items = max(len(items), 1)
         done = 0
         for ci, key in enumerate(keys):
@@ -480,107 +484,23 @@ def _rank(items: Sequence[PlaceItem], nets: list[list[int]]) -> list[int]:
 
 
 def _improve(packer: _Packer, run: _Run, nets: list[list[int]], progress: Progress | None) -> None:
-    """Pairwise swaps inside classes that lower the wirelength (module notes, step 3)."""
-    from scipy.spatial import cKDTree
-
-    items = packer.items
-    slots = run.slots
-    n = len(items)
-    xs = [0.0] * n
-    ys = [0.0] * n
-    for i, s in slots.items():
-        x1, y1, x2, y2 = packer.rect(i, s)
-        xs[i] = (x1 + x2) / 2
-        ys[i] = (y1 + y2) / 2
-    opt_nets = [[i for i in m if i in slots] for m in nets if len(m) <= OPT_FANOUT]
-    opt_nets = [m for m in opt_nets if len(m) >= 2]
-    nets_of: list[list[int]] = [[] for _ in range(n)]
-    for k, m in enumerate(opt_nets):
-        for i in m:
-            nets_of[i].append(k)
-    groups: dict[tuple, list[int]] = {}
-    for i in sorted(slots):
-        groups.setdefault(run.class_of[i], []).append(i)
-    trees = {}
-    occupant: dict[tuple, list[int]] = {}
-    slot_xy: dict[tuple, np.ndarray] = {}
-    where: dict[int, int] = {}
-    for key, members in groups.items():
-        if len(members) < 2:
-            continue
-        pts = np.array([[xs[i], ys[i]] for i in members])
-        trees[key] = cKDTree(pts)
-        occupant[key] = list(members)
-        slot_xy[key] = pts
-        for s, i in enumerate(members):
-            where[i] = s
-    movable = [i for i in sorted(where) if nets_of[i]]
-    if not movable:
+    """Swaps inside classes that lower the wirelength (module notes, step 3; :mod:`pipeline.improve`)."""
+    placed = sorted(run.slots)
+    if len(placed) < 2:
         return
-
-    def cost(k: int) -> float:
-        m = opt_nets[k]
-        xv = [xs[i] for i in m]
-        yv = [ys[i] for i in m]
-        return max(xv) - min(xv) + max(yv) - min(yv)
-
-    rng = np.random.default_rng(SEED)
-    budget = SWAP_BUDGET
-    for p in range(SWAP_PASSES):
-        gained = 0.0
-        order = [movable[j] for j in rng.permutation(len(movable))]
-        for i in order:
-            if budget <= 0:
-                break
-            key = run.class_of[i]
-            nb_x = []
-            nb_y = []
-            for k in nets_of[i]:
-                for j in opt_nets[k]:
-                    if j != i:
-                        nb_x.append(xs[j])
-                        nb_y.append(ys[j])
-            if not nb_x:
-                continue
-            tx = float(np.median(nb_x))
-            ty = float(np.median(nb_y))
-            kq = min(SWAP_CANDIDATES, len(occupant[key]))
-            _, cand = trees[key].query((tx, ty), k=kq)
-            cand = np.atleast_1d(cand)
-            best = (-1e-9, None)
-            si = where[i]
-            for s in cand:
-                s = int(s)
-                j = occupant[key][s]
-                if j == i:
-                    continue
-                budget -= 1
-                touched = sorted(set(nets_of[i]) | set(nets_of[j]))
-                before = sum(cost(k) for k in touched)
-                xi, yi, xj, yj = xs[i], ys[i], xs[j], ys[j]
-                # same class: swap slot origins, keep each item's own size
-                xs[i], ys[i] = xj + 0.0, yj + 0.0
-                xs[j], ys[j] = xi, yi
-                after = sum(cost(k) for k in touched)
-                xs[i], ys[i], xs[j], ys[j] = xi, yi, xj, yj
-                d = after - before
-                if d < best[0]:
-                    best = (d, s)
-            if best[1] is not None:
-                s = best[1]
-                j = occupant[key][s]
-                slots[i], slots[j] = slots[j], slots[i]
-                for a in (i, j):
-                    x1, y1, x2, y2 = packer.rect(a, slots[a])
-                    xs[a] = (x1 + x2) / 2
-                    ys[a] = (y1 + y2) / 2
-                occupant[key][si], occupant[key][s] = j, i
-                where[i], where[j] = s, si
-                gained -= best[0]
-        if progress is not None:
-            progress("improving wirelength", (p + 1) / SWAP_PASSES)
-        if gained <= 1e-9 or budget <= 0:
-            break
+    at = {i: n for n, i in enumerate(placed)}
+    xy = np.empty((len(placed), 2))
+    for n, i in enumerate(placed):
+        x1, y1, x2, y2 = packer.rect(i, run.slots[i])
+        xy[n] = ((x1 + x2) / 2, (y1 + y2) / 2)
+    groups: dict[tuple, list[int]] = {}
+    for n, i in enumerate(placed):
+        groups.setdefault(run.class_of[i], []).append(n)
+    live = [[at[i] for i in m if i in at] for m in nets]
+    slot = improve_swaps(list(groups.values()), xy, live, OPT_FANOUT, progress)
+    old = [run.slots[i] for i in placed]
+    for n, i in enumerate(placed):
+        run.slots[i] = old[int(slot[n])]
 
 
 # --------------------------------------------------------------------------
@@ -606,7 +526,8 @@ def _check_inputs(items: Sequence[PlaceItem], board: BoardOptions) -> None:
 
 
 def place_and_fit(items: Sequence[PlaceItem], region: Region, board: BoardOptions, *,
-                  user_board: BaseGeometry | None = None, progress: Progress | None = None) -> FitResult:
+                  user_board: BaseGeometry | None = None, progress: Progress | None = None,
+                  improve: bool = True) -> FitResult:
     """Place every item's courtyard on a board inside ``region``, or say what blocks it.
 
     Parameters
@@ -623,6 +544,10 @@ def place_and_fit(items: Sequence[PlaceItem], region: Region, board: BoardOption
         the fit is checked on it, and a board reaching outside the usable
         region does not fit.
     progress : callable(message, fraction), optional
+    improve : bool
+        Run the wirelength improvement (step 3). Callers that need only the
+        verdict (the size sweep) pass False: fit, unplaced parts and board do
+        not depend on it.
 
     Returns
     -------
@@ -636,9 +561,10 @@ def place_and_fit(items: Sequence[PlaceItem], region: Region, board: BoardOption
     Notes
     -----
     The model and the method are in the module notes. Cost for n parts
-    in c classes on a grid of G cells: O(c G log s + n) for the packing and
-    O(n) swap evaluations of bounded fanout; a 2,000-part design runs in a
-    few seconds (bench/bench_place.py).
+    in c classes on a grid of G cells with P pins: O(c G log s + n) for the
+    packing, O(R (P log P + n log n)) for R rounds of the improvement
+    (:mod:`pipeline.improve`), O(n log n) for the self-check; the outline
+    costs O(V log V) in the cavity's vertices (bench/bench_scale.py).
 
     Examples
     --------
@@ -653,11 +579,56 @@ def place_and_fit(items: Sequence[PlaceItem], region: Region, board: BoardOption
     items = tuple(items)
     _check_inputs(items, board)
     estimate = estimate_area(items, board.layers)
-    warnings: list[Finding] = []
-    blocked: list[str] = []
     if progress is not None:
         progress("proposing the board outline", 0.0)
+    outline, where, blocked, warnings = _board(region, board, user_board)
+    area = _inset(where, board.edge_clearance_mm) if not where.is_empty else where
+    area = shapely.union_all([p for p in polygons_of(area)]) if not area.is_empty else Polygon()
+    nets = _nets(items)
+    if items and area.is_empty:
+        out = _Outcome(unplaced=sorted((it.ref for it in items), key=natural_key))
+        blocked.append(
+            f"Nothing is left to place parts on: the board area is {_area(where.area)} mm² and keeping "
+            f"{_fmt(board.edge_clearance_mm)} mm from its edges leaves no room.")
+    elif items:
+        out = _pack_and_check(items, area, region, board, estimate, nets, improve, progress)
+    else:
+        out = _Outcome()
+    blocked += out.blocked
+    warnings += out.warnings
+    fits = not out.unplaced and not blocked
+    board_area = float(outline.area) if outline is not None else 0.0
+    _verdict_notes(items, fits, board_area, estimate, blocked, warnings)
+    if progress is not None:
+        progress("placement done", 1.0)
+    return FitResult(
+        fits=fits,
+        region_area_mm2=float(region.area_mm2),
+        courtyard_area_mm2=float(estimate.courtyard_area_mm2),
+        estimate=estimate,
+        placements=tuple(out.placements),
+        board_outline=outline,
+        blocked_by=tuple(blocked),
+        unplaced=tuple(out.unplaced),
+        wirelength_mm=_placed_wirelength(items, nets, out.placements),
+        warnings=tuple(warnings),
+    )
 
+
+@dataclass
+class _Outcome:
+    """What the packing step hands back to :func:`place_and_fit`."""
+
+    placements: list = field(default_factory=list)
+    unplaced: list = field(default_factory=list)
+    blocked: list = field(default_factory=list)
+    warnings: list = field(default_factory=list)
+
+
+def _board(region: Region, board: BoardOptions, user_board: BaseGeometry | None):
+    """The board outline, the part of it inside the region, and its findings (step: the board)."""
+    warnings: list[Finding] = []
+    blocked: list[str] = []
     board_region = region.board_region
     if user_board is not None and not user_board.is_empty:
         outline = orient(user_board, 1.0) if user_board.geom_type == "Polygon" else user_board
@@ -669,93 +640,150 @@ def place_and_fit(items: Sequence[PlaceItem], region: Region, board: BoardOption
                 f"(cavity minus wall clearance and keep-outs), near ({_fmt(c.x)}, {_fmt(c.y)}) mm: "
                 f"shrink it there or remove the BOARD outline to have one proposed.")
         where = outline.intersection(board_region) if board_region is not None else outline
-    else:
-        outline = propose_outline(region, (), board)
-        where = outline
-        pieces = [p for p in polygons_of(board_region) if p.area > 1e-3]
-        if len(pieces) > 1:
-            warnings.append(Finding(
-                "warning", "fit.region-split", (),
-                f"The usable region is in {len(pieces)} separate pieces; the proposed board uses the largest "
-                f"({_area(outline.area)} mm² of {_area(sum(p.area for p in pieces))} mm²)."))
-    area = _inset(where, board.edge_clearance_mm) if not where.is_empty else where
-    area = shapely.union_all([p for p in polygons_of(area)]) if not area.is_empty else Polygon()
+        return outline, where, blocked, warnings
+    outline = propose_outline(region, (), board)
+    pieces = [p for p in polygons_of(board_region) if p.area > 1e-3]
+    if len(pieces) > 1:
+        warnings.append(Finding(
+            "warning", "fit.region-split", (),
+            f"The usable region is in {len(pieces)} separate pieces; the proposed board uses the largest "
+            f"({_area(outline.area)} mm² of {_area(sum(p.area for p in pieces))} mm²)."))
+    return outline, outline, blocked, warnings
 
+
+def _tries(items, packer: _Packer, area: BaseGeometry, board: BoardOptions, estimate) -> list:
+    """(bottom gap, column band or None) to try in turn (module notes: two sides, compact block)."""
+    gaps = [0.0]
+    if board.sides == 2:
+        hs = sorted({float(it.height_mm) for it in items if 0 < it.height_mm <= packer.lowest_zone + 1e-9})
+        if len(hs) > MAX_GAPS - 1:
+            pick = np.unique(np.linspace(0, len(hs) - 1, MAX_GAPS - 1).round().astype(int))
+            hs = [hs[k] for k in pick]
+        gaps += hs
+    tries: list[tuple[float, tuple[int, int] | None]] = []
+    if estimate.courtyard_area_mm2 * ROOMY <= area.area:
+        longest = max(max(it.length_mm, it.width_mm) for it in items)
+        cols = packer.band(max(math.sqrt(ROOMY * estimate.courtyard_area_mm2), 1.5 * longest))
+        if cols is not None:
+            tries.append((0.0, cols))
+    return tries + [(gp, None) for gp in gaps]
+
+
+def _best_run(packer: _Packer, tries: list, sides: int, progress: Progress | None) -> _Run:
+    """Pack each try until one places every part; the one placing most (then lowest gap) wins."""
+    best = None
+    for gi, (gp, cols) in enumerate(tries):
+        lo = 0.05 + 0.75 * gi / len(tries)
+        run = packer.run(gp, sides, progress, (lo, lo + 0.75 / len(tries)), cols)
+        if best is None or (run.placed, -run.gap) > (best.placed, -best.gap):
+            best = run
+        if not run.unplaced:
+            break
+    return best
+
+
+def _pack_and_check(items, area, region: Region, board: BoardOptions, estimate, nets, improve: bool,
+                    progress: Progress | None) -> _Outcome:
+    """Steps 1 to 4 of the module notes: grid, packing, improvement, self-check."""
     refs = [it.ref for it in items]
-    nets = _nets(items)
-    placements: list[Placement] = []
-    unplaced: list[str] = []
-    gap = 0.0
-    xs = [0.0] * len(items)
-    ys = [0.0] * len(items)
-    if items and area.is_empty:
-        unplaced = sorted(refs, key=natural_key)
-        blocked.append(
-            f"Nothing is left to place parts on: the board area is {_area(where.area)} mm² and keeping "
-            f"{_fmt(board.edge_clearance_mm)} mm from its edges leaves no room.")
-    elif items:
-        rank = _rank(items, nets)
-        packer = _Packer(items, area, region.zones, rank)
-        gaps = [0.0]
-        if board.sides == 2:
-            hs = sorted({float(it.height_mm) for it in items if 0 < it.height_mm <= packer.lowest_zone + 1e-9})
-            if len(hs) > MAX_GAPS - 1:
-                pick = np.unique(np.linspace(0, len(hs) - 1, MAX_GAPS - 1).round().astype(int))
-                hs = [hs[k] for k in pick]
-            gaps += hs
-        # a roomy board: first try a compact block (a band about sqrt(ROOMY x courtyards) wide)
-        tries: list[tuple[float, tuple[int, int] | None]] = []
-        if estimate.courtyard_area_mm2 * ROOMY <= area.area:
-            longest = max(max(it.length_mm, it.width_mm) for it in items)
-            cols = packer.band(max(math.sqrt(ROOMY * estimate.courtyard_area_mm2), 1.5 * longest))
-            if cols is not None:
-                tries.append((0.0, cols))
-        tries += [(gp, None) for gp in gaps]
-        best = None
-        for gi, (gp, cols) in enumerate(tries):
-            lo = 0.05 + 0.75 * gi / len(tries)
-            run = packer.run(gp, board.sides, progress, (lo, lo + 0.75 / len(tries)), cols)
-            better = best is None or (run.placed, -run.gap) > (best.placed, -best.gap)
-            if better:
-                best = run
-            if not run.unplaced:
-                break
-        run = best
-        gap = run.gap
+    out = _Outcome()
+    fixed = _fixed_parts(items, region, board)
+    packer = _Packer(items, area, region.zones, _rank(items, nets), fixed=fixed)
+    tries = _tries(items, packer, area, board, estimate)
+    low = max((items[i].height_mm for i, (side, _) in fixed.items() if side == "bottom"), default=0.0)
+    tries = [t for t in tries if t[0] >= low - 1e-9] or [(low, None)]  # bottom parts fixed: raise the board
+    run = _best_run(packer, tries, board.sides, progress)
+    if improve:
         _improve(packer, run, nets, progress)
-        # self-check and output
-        idx = sorted(run.slots, key=lambda i: natural_key(refs[i]))
-        rects = {i: packer.rect(i, run.slots[i]) for i in idx}
-        bad = _self_check(packer, run, rects, gap)
-        if bad:
-            warnings.append(Finding(
-                "warning", "fit.self-check", tuple(refs[i] for i in sorted(bad)),
-                f"The placement self-check rejected {len(bad)} placed parts; they are reported as unplaced."))
-        for i in idx:
-            if i in bad:
-                continue
-            side, o, _, _ = run.slots[i]
-            x1, y1, x2, y2 = rects[i]
-            xs[i] = (x1 + x2) / 2
-            ys[i] = (y1 + y2) / 2
-            placements.append(Placement(refs[i], xs[i], ys[i], 90 if o else 0, side, box(x1, y1, x2, y2)))
-        not_placed = sorted(set(run.unplaced) | bad)
-        unplaced = sorted((refs[i] for i in not_placed), key=natural_key)
-        blocked += _diagnose(packer, run, not_placed, region, board)
-        if gap > 0 and any(p.side == "bottom" for p in placements):
-            bottom = [p.ref for p in placements if p.side == "bottom"]
-            warnings.append(Finding(
-                "info", "fit.bottom-side", tuple(bottom),
-                f"{len(bottom)} parts go on the bottom side; the board then sits {_fmt(gap)} mm above the "
-                f"floor on them, which leaves that much less height for the top side."))
+    rects = {i: packer.rect(i, run.slots[i]) for i in run.slots}
+    rects.update({i: r for i, (_, r) in fixed.items()})
+    sides = {i: s[0] for i, s in run.slots.items()} | {i: sd for i, (sd, _) in fixed.items()}
+    idx = sorted(rects, key=lambda i: natural_key(refs[i]))
+    bad = _self_check(packer, sides, rects, run.gap)
+    if bad:
+        out.warnings.append(Finding(
+            "warning", "fit.self-check", tuple(refs[i] for i in sorted(bad)),
+            f"The placement self-check rejected {len(bad)} placed parts; they are reported as unplaced."))
+    keep = [i for i in idx if i not in bad]
+    courts = shapely.box(*np.array([rects[i] for i in keep]).reshape(-1, 4).T)  # one call, not one per part
+    for i, court in zip(keep, courts):
+        x1, y1, x2, y2 = rects[i]
+        f = items[i].fixed
+        rot = f.rotation_deg if i in fixed else (90 if run.slots[i][1] else 0)
+        x, y = (f.x_mm, f.y_mm) if i in fixed else ((x1 + x2) / 2, (y1 + y2) / 2)
+        out.placements.append(Placement(refs[i], x, y, rot, sides[i], court))
+    not_placed = sorted(set(run.unplaced) | (bad - set(fixed)))
+    out.unplaced = sorted([refs[i] for i in not_placed] + [refs[i] for i in sorted(bad & set(fixed))],
+                          key=natural_key)
+    for i in sorted(bad & set(fixed), key=lambda i: natural_key(refs[i])):
+        out.blocked.append(
+            f"{refs[i]} is fixed at ({_fmt(items[i].fixed.x_mm)}, {_fmt(items[i].fixed.y_mm)}) mm (at, "
+            f"{items[i].fixed.file}), but its courtyard there leaves the board area (after the "
+            f"{_fmt(board.edge_clearance_mm)} mm edge clearance) or the height the lid allows for "
+            f"{_fmt(items[i].height_mm)} mm: move it or choose a lower package.")
+    out.blocked += _diagnose(packer, run, not_placed, region, board)
+    bottom = [p.ref for p in out.placements if p.side == "bottom"]
+    if run.gap > 0 and bottom:
+        out.warnings.append(Finding(
+            "info", "fit.bottom-side", tuple(bottom),
+            f"{len(bottom)} parts go on the bottom side; the board then sits {_fmt(run.gap)} mm above the "
+            f"floor on them, which leaves that much less height for the top side."))
+    return out
 
-    placed_set = {p.ref for p in placements}
-    wl = 0.0
-    if placements:
-        live = [[i for i in m if refs[i] in placed_set] for m in nets]
-        wl = hpwl(live, xs, ys)
-    fits = not unplaced and not blocked
-    board_area = float(outline.area) if outline is not None else 0.0
+
+def _fixed_rect(it: PlaceItem) -> tuple[float, float, float, float]:
+    """The courtyard rectangle of a fixed part (180 and 270 degrees give the 0 and 90 rectangles)."""
+    f = it.fixed
+    dx, dy = (it.length_mm, it.width_mm) if f.rotation_deg in (0, 180) else (it.width_mm, it.length_mm)
+    return (f.x_mm - dx / 2, f.y_mm - dy / 2, f.x_mm + dx / 2, f.y_mm + dy / 2)
+
+
+def _fixed_parts(items, region: Region, board: BoardOptions) -> dict:
+    """Fixed parts as ``item -> (side, rect)``, checked against the region (the board comes later).
+
+    Raises
+    ------
+    DesignError
+        A fixed courtyard reaches outside the usable region (cavity, wall
+        clearance, keep-outs), two fixed parts overlap on one side, or a part
+        is fixed on the bottom of a one-sided board; the message names the
+        design file, the part's line and the key.
+    """
+    fixed = {i: (it.fixed.side, _fixed_rect(it)) for i, it in enumerate(items) if it.fixed is not None}
+    usable = region.board_region.buffer(TOL, join_style="mitre") if region.board_region is not None else None
+    seen: list[tuple[int, BaseGeometry]] = []
+    for i, (side, r) in sorted(fixed.items(), key=lambda kv: natural_key(items[kv[0]].ref)):
+        it, f = items[i], items[i].fixed
+        where = dict(line=f.line or None, ref=it.ref)
+        if side == "bottom" and board.sides != 2:
+            raise DesignError(f.file or "design", "the part is fixed on the bottom side, but the board has one "
+                              "side (set [board] sides = 2 in project.toml)", key=f"parts.{it.ref}.side", **where)
+        court = box(*r)
+        if usable is None or not usable.covers(court):
+            raise DesignError(f.file or "design", f"the courtyard fixed at ({_fmt(f.x_mm)}, {_fmt(f.y_mm)}) mm "
+                              f"reaches outside the usable region (the cavity less its wall clearance and "
+                              f"keep-outs)", key=f"parts.{it.ref}.at", **where)
+        for j, other in seen:
+            if fixed[j][0] == side and court.intersection(other).area > 1e-9:
+                raise DesignError(f.file or "design", f"its fixed courtyard overlaps {items[j].ref}'s, also fixed "
+                                  f"on the {side} side", key=f"parts.{it.ref}.at", **where)
+        seen.append((i, court))
+    return fixed
+
+
+def _placed_wirelength(items, nets: list[list[int]], placements) -> float:
+    """Half-perimeter wirelength over all nets of the placed parts, mm."""
+    if not placements:
+        return 0.0
+    at = {p.ref: (p.x_mm, p.y_mm) for p in placements}
+    xs = [at.get(it.ref, (0.0, 0.0))[0] for it in items]
+    ys = [at.get(it.ref, (0.0, 0.0))[1] for it in items]
+    live = [[i for i in m if items[i].ref in at] for m in nets]
+    return float(hpwl(live, xs, ys))
+
+
+def _verdict_notes(items, fits: bool, board_area: float, estimate, blocked: list, warnings: list) -> None:
+    """The closing sentence of a failed fit, or the tight-routing warning of a fit."""
     if not fits:
         blocked.append(
             f"The usable board area is {_area(board_area)} mm² after clearances; the parts' courtyards "
@@ -767,23 +795,9 @@ def place_and_fit(items: Sequence[PlaceItem], region: Region, board: BoardOption
             f"Every part fits, but the board's {_area(board_area)} mm² is less than the "
             f"{_area(estimate.expected_mm2)} mm² the routing rule of thumb suggests: routing may be hard; "
             f"consider more layers or smaller packages."))
-    if progress is not None:
-        progress("placement done", 1.0)
-    return FitResult(
-        fits=fits,
-        region_area_mm2=float(region.area_mm2),
-        courtyard_area_mm2=float(estimate.courtyard_area_mm2),
-        estimate=estimate,
-        placements=tuple(placements),
-        board_outline=outline,
-        blocked_by=tuple(blocked),
-        unplaced=tuple(unplaced),
-        wirelength_mm=float(wl),
-        warnings=tuple(warnings),
-    )
 
 
-def _self_check(packer: _Packer, run: _Run, rects: dict, gap: float) -> set[int]:
+def _self_check(packer: _Packer, sides: dict, rects: dict, gap: float) -> set[int]:
     """Items whose courtyard breaks a rule when checked exactly with shapely."""
     if not rects:
         return set()
@@ -795,7 +809,7 @@ def _self_check(packer: _Packer, run: _Run, rects: dict, gap: float) -> set[int]
     if packer.zones:
         by_level: dict[int, list[int]] = {}
         for n, i in enumerate(idx):
-            side = run.slots[i][0]
+            side = sides[i]
             h = packer.items[i].height_mm + (gap if side == "top" else 0.0)
             if side == "bottom":
                 h = max(gap, 0.0)
@@ -809,7 +823,7 @@ def _self_check(packer: _Packer, run: _Run, rects: dict, gap: float) -> set[int]
             okz = shapely.covers(allowed, boxes[ns])
             bad |= {idx[n] for n, good in zip(ns, okz) if not good}
     for side in ("top", "bottom"):
-        ns = [n for n, i in enumerate(idx) if run.slots[i][0] == side]
+        ns = [n for n, i in enumerate(idx) if sides[i] == side]
         if len(ns) < 2:
             continue
         sub = boxes[ns]

@@ -39,7 +39,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Callable
 
-from .errors import ProjectError
+from .errors import OutputError, ProjectError
 from .model import DENSITY_LEVELS, BoardOptions, Design, FitResult, Finding, OrderOptions
 from .cavity.limits import DEFAULTS as CAVITY_LIMITS
 from .spice.limits import DEFAULTS as SPICE_LIMITS
@@ -49,6 +49,7 @@ from .tomlsrc import TomlSource, load
 __all__ = ["Project", "RunResult", "load_project", "run", "check_design", "inspect_cavity", "read_any_design",
            "SPICE_SUFFIXES", "UNITS"]
 
+NOT_FITTING = "the parts do not fit, so routing was not tried"
 SPICE_SUFFIXES = (".cir", ".sp", ".spice", ".net")
 UNITS = ("mm", "cm", "m", "inch", "in", "foot", "ft", "mil", "um")
 STANDARD_THICKNESS = (0.4, 0.6, 0.8, 1.0, 1.2, 1.6, 2.0)  # REFERENCES.md section 4, common practice
@@ -111,6 +112,7 @@ class RunResult:
     sweep: Any = None
     fit_json: dict = field(default_factory=dict)
     verdict: Any = None
+    routing: Any = None   # pipeline.route.RouteVerdict, or None without a fit
 
 
 # --------------------------------------------------------------------------
@@ -323,6 +325,20 @@ def inspect_cavity(path: Path, *, shown: str | None = None, project: Project | N
     return cavity, region, (*cw, *rw)
 
 
+def write_cavity_dxf(cavity: Any, out: Path, *, shown: str) -> None:
+    """Write ``cavity`` as a DXF drawing to ``out``, a new file: never over an existing one."""
+    from .export.dxf import cavity_dxf
+
+    data = cavity_dxf(cavity, timestamp=_source_date_epoch())
+    try:
+        with open(out, "xb") as f:  # "x": fails when the file exists, so nothing is overwritten
+            f.write(data)
+    except FileExistsError:
+        raise OutputError(shown, "exists already: give a new file name (snugboard never writes over a file)") from None
+    except OSError as exc:
+        raise OutputError(shown, f"cannot be written ({exc.strerror or exc})") from None
+
+
 def _source_date_epoch() -> int | None:
     v = os.environ.get("SOURCE_DATE_EPOCH")
     if v is None or not v.strip():
@@ -333,12 +349,13 @@ def _source_date_epoch() -> int | None:
         raise ProjectError("SOURCE_DATE_EPOCH", f"must be a whole number of seconds, found {v!r}") from None
 
 
-def run(project: Project, *, progress: Progress | None = None, sweep: bool = False) -> RunResult:
+def run(project: Project, *, progress: Progress | None = None, sweep: bool = False, route: bool = True) -> RunResult:
     """Run every stage of ``project`` and write all its outputs at once.
 
     Order: design -> graph -> connection checks -> value and rating checks ->
     declared blocks -> (with a cavity) cavity -> region -> area -> placement
-    and outline -> outputs. Raises :class:`~pipeline.errors.InputError` on bad
+    and outline -> routing (unless ``route`` is false or ``[copper] route =
+    false``) -> outputs. Raises :class:`~pipeline.errors.InputError` on bad
     input, before anything is written.
     """
     from .export import atomic, bom, edif, netlist, results
@@ -366,16 +383,21 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     sweep_result = None
     extra: dict[str, Any] = {}
     sections = list(block_sections(reports))
+    route_verdict = None
     if project.cavity_path is not None:
         cavity, region, items, fit, sweep_result, fit_findings = _fit(project, design, lib, sweep, progress)
         findings += fit_findings
         if sweep_result is not None:
             extra["passive_sizes"] = sweep_result.to_dict()
+        fit, route_verdict = _route(project, route, fit, items, region, cavity.board, design, lib, files, progress)
+        findings += _route_findings(route_verdict)
+        extra["routing"] = route_verdict.to_dict()
     else:
         findings.append(Finding("info", "fit.no-cavity", (),
                                 "No cavity drawing given: the fit was not checked. Set [project] cavity or pass --cavity."))
     from .verdict import decide
-    verdict = decide(findings, fit)
+    tried = route_verdict is not None and route_verdict.reason != NOT_FITTING
+    verdict = decide(findings, fit, routing=route_verdict if tried else None)
     fit_json: dict = {}
     svg = None
     if fit is not None:
@@ -405,7 +427,7 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     written = atomic.write_all(project.out_dir, files, protect=protect)
     return RunResult(design=design, findings=tuple(findings), fit=fit, exit_status=status,
                      written=tuple(written), stage_reports=tuple(reports), sweep=sweep_result, fit_json=fit_json,
-                     verdict=verdict)
+                     verdict=verdict, routing=route_verdict)
 
 
 def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Progress | None):
@@ -427,12 +449,13 @@ def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Prog
     items = items_from_design(design, lib, project.board.density)
     fit = place_and_fit(items, region, project.board, user_board=cavity.board, progress=progress)
     fit = tried_advice(fit, items, cavity, project.board, STANDARD_THICKNESS, progress=progress)
-    fit = dataclasses.replace(fit, warnings=(*cw, *rw, *fit.warnings))
+    placer = fit.warnings  # fit.tight, fit.region-split, fit.self-check, fit.bottom-side: findings too
+    fit = dataclasses.replace(fit, warnings=(*cw, *rw, *placer))
     sweep_result = None
     if sweep:
         from .sweep import sweep_sizes
         sweep_result = sweep_sizes(design, lib, region, project.board, progress=progress, user_board=cavity.board)
-    return cavity, region, items, fit, sweep_result, [*cw, *rw, *_fit_findings(fit)]
+    return cavity, region, items, fit, sweep_result, [*cw, *rw, *placer, *_fit_findings(fit)]
 
 
 def _pads(fit: FitResult, design: Design, lib: Any) -> tuple:
@@ -443,6 +466,53 @@ def _pads(fit: FitResult, design: Design, lib: Any) -> tuple:
 
     outline = fit.board_outline if fit.board_outline is not None else Polygon()
     return board_from_placement(outline, fit.placements, design, lib, ("top", "bottom")).pads
+
+
+def _route(project: Project, route: bool, fit: FitResult, items: Any, region: Any, user_board: Any, design: Design,
+           lib: Any, files: dict[str, bytes], progress: Progress | None):
+    """Route the placed board (issue 9), spreading the parts when it must.
+
+    Returns ``(fit, verdict)``: the fit whose placement was routed. Adds
+    routes.json, board-copper.dxf and placement.csv to ``files``.
+    """
+    from .export.placement import placement_csv
+    from .export.results import dump_json
+    from .export.routes import routes_dxf
+    from .route import route_fit, skipped
+
+    if not (route and project.copper.route):
+        verdict = skipped("routing is switched off (--no-route or [copper] route = false): the verdict is placement only")
+    elif not fit.fits or fit.board_outline is None or fit.board_outline.is_empty:
+        verdict = skipped(NOT_FITTING)
+    else:
+        fit, out = route_fit(fit, items, region, project.board, design, lib, project.copper, user_board=user_board,
+                             progress=progress)
+        files["routes.json"] = dump_json(out.document)
+        files["board-copper.dxf"] = routes_dxf(out.board, project.copper, out.routing, timestamp=_source_date_epoch())
+        verdict = out.verdict
+    if fit.placements:
+        files["placement.csv"] = placement_csv(fit.placements)
+    return fit, verdict
+
+
+def _route_findings(v) -> list[Finding]:
+    if v.status == "routed":
+        spread = (f" after spreading the parts ({v.spread_mm:g} mm more room around each courtyard)"
+                  if v.spread_mm else "")
+        return [Finding("info", "route.routed", (), f"Routed{spread}: every connection made ({v.vias} vias, "
+                        f"{v.wirelength_mm:.0f} mm of track) and the independent copper check is clean.")]
+    if v.status == "skipped":
+        return [Finding("info", "route.skipped", (), f"Routing skipped: {v.reason}.")]
+    out = [Finding("error", "route.defect", (), f"Router defect: the independent copper check found: {d}")
+           for d in v.defects]
+    if v.open_nets:  # the verdict makes the open nets its blocking reason; this note gives the figures
+        where = "; congestion near " + ", ".join(f"({x:.1f}, {y:.1f}) mm" for x, y in v.congestion[:3]) \
+            if v.congestion else ""
+        out.append(Finding("info", "route.demand", v.open_nets,
+                           f"Placed, routing not proven: {len(v.open_nets)} net(s) open ({', '.join(v.open_nets)}); "
+                           f"routing demand peak {v.demand_peak:.2f}, 90th percentile {v.demand_p90:.2f} of "
+                           f"capacity{where}. Give the board more room or more layers."))
+    return out
 
 
 def _fit_findings(fit: FitResult) -> list[Finding]:

@@ -163,9 +163,8 @@ def starter_files() -> dict[str, bytes]:
 def write_starter(folder: str | os.PathLike) -> list[Path]:
     """Write the starter project into ``folder`` (new, or an empty folder), all files or none.
 
-    The files are written into a hidden folder beside ``folder`` and that
-    folder is renamed onto it (POSIX rename replaces an empty folder in one
-    step), so a failure leaves nothing behind.
+    The files go through the output writer (:func:`pipeline.export.atomic.write_all`,
+    without its manifest: the folder is the user's project, not an output set).
 
     Raises
     ------
@@ -174,15 +173,10 @@ def write_starter(folder: str | os.PathLike) -> list[Path]:
     OutputError
         The folder cannot be written.
     """
-    import shutil
-    import tempfile
-
-    from .errors import OutputError
+    from .export.atomic import write_all
 
     path = Path(folder)
     if path.exists() and (not path.is_dir() or any(path.iterdir())):
         what = "is not a folder" if not path.is_dir() else "already holds files"
         raise ProjectError(str(folder), f"{what}; `snugboard new` writes only into a new or empty folder")
-    from .export.atomic import write_all
-
     return write_all(path, starter_files(), manifest=False)

@@ -12,6 +12,9 @@ expected board area of :func:`pipeline.area.estimate_area`. Positive means
 the routing rule of thumb leaves room to spare; a size can fit (every
 courtyard placed) with a negative margin, which means routing will be
 tight. ``free_mm2`` is the board area minus the courtyard sum.
+
+The sweep reports only fit and margin, so it skips the placer's wirelength
+improvement (``improve=False``); cost: one packing per size.
 """
 
 from __future__ import annotations
@@ -28,6 +31,8 @@ __all__ = ["SweepRow", "SweepResult", "sweep_sizes", "two_terminal_passives", "D
 Progress = Callable[[str, float], None]
 
 DEFAULT_SIZES = ("0201", "0402", "0603", "0805", "1206")
+#: the size label of the sweep's first row: every package as the design gives it
+DESIGNED = "design"
 
 
 @dataclass(frozen=True)
@@ -48,7 +53,7 @@ class SweepRow:
         return {
             "size": self.size,
             "fits": self.fits,
-            "courtyard_mm": [round(self.courtyard_mm[0], 4), round(self.courtyard_mm[1], 4)],
+            "courtyard_mm": None if self.size == DESIGNED else [round(v, 4) for v in self.courtyard_mm],
             "courtyard_area_mm2": round(self.courtyard_area_mm2, 4),
             "estimated_board_area_mm2": round(self.estimated_board_area_mm2, 4),
             "board_area_mm2": round(self.board_area_mm2, 4),
@@ -70,6 +75,8 @@ class SweepResult:
     swept: tuple[str, ...]
     largest_fitting: str | None
     margin_mm2: float | None
+    designed: SweepRow | None = None  #: the fit with every package as designed (size ``DESIGNED``)
+    kept: tuple[str, ...] = ()  #: passives left out of the sweep: the user fixed them in place
 
     def row(self, size: str) -> SweepRow:
         for r in self.rows:
@@ -83,7 +90,9 @@ class SweepResult:
             "largest_fitting": self.largest_fitting,
             "margin_mm2": None if self.margin_mm2 is None else round(self.margin_mm2, 4),
             "margin_definition": "board area minus the expected board area of the routing rule of thumb",
-            "sizes": [r.to_dict() for r in self.rows],
+            "kept_refs": list(self.kept),
+            "kept_reason": "fixed in place (at = [x, y]): their package stays as designed",
+            "sizes": [r.to_dict() for r in ((self.designed,) if self.designed else ()) + self.rows],
         }
 
 
@@ -127,7 +136,10 @@ def sweep_sizes(design: Design, library, region: Region, board: BoardOptions,
 
     Returns
     -------
-    SweepResult, rows in the order of ``sizes``.
+    SweepResult
+        ``rows`` in the order of ``sizes``; ``designed`` the fit as designed
+        (listed first in :meth:`SweepResult.to_dict`); passives the user
+        fixed in place are not swept (``kept``).
 
     Raises
     ------
@@ -135,17 +147,20 @@ def sweep_sizes(design: Design, library, region: Region, board: BoardOptions,
         A size is not a package of the library (placed at ``sweep: sizes``).
     """
     sizes = tuple(sizes)
-    swept = two_terminal_passives(design, library)
+    passives = two_terminal_passives(design, library)
+    kept = tuple(r for r in passives if design.part(r).fixed is not None)
+    swept = tuple(r for r in passives if r not in kept)
     shape = {}
     for s in sizes:
         cy = library.package(s, file="sweep", key="sizes").courtyard(board.density)
         shape[s] = (float(cy.length_mm), float(cy.width_mm))
     rows = []
-    for n, s in enumerate(sizes):
+    for n, s in enumerate((DESIGNED, *sizes)):
         if progress is not None:
-            progress(f"trying passives in {s}", n / max(len(sizes), 1))
-        items = items_from_design(design, library, board.density, {ref: s for ref in swept})
-        fit = place_and_fit(items, region, board, user_board=user_board)
+            progress(f"trying passives in {s}", n / (len(sizes) + 1))
+        override = {} if s == DESIGNED else {ref: s for ref in swept}
+        items = items_from_design(design, library, board.density, override)
+        fit = place_and_fit(items, region, board, user_board=user_board, improve=False)  # verdict only
         board_area = float(fit.board_outline.area) if fit.board_outline is not None else 0.0
         rows.append(SweepRow(
             size=s,
@@ -156,11 +171,13 @@ def sweep_sizes(design: Design, library, region: Region, board: BoardOptions,
             margin_mm2=board_area - fit.estimate.expected_mm2,
             free_mm2=board_area - fit.courtyard_area_mm2,
             unplaced=fit.unplaced,
-            courtyard_mm=shape[s],
+            courtyard_mm=shape.get(s, (0.0, 0.0)),
         ))
+    designed, rows = rows[0], rows[1:]
     fitting = [r for r in rows if r.fits]
     best = max(fitting, key=lambda r: (r.courtyard_mm[0] * r.courtyard_mm[1], -sizes.index(r.size))) \
         if fitting else None
     if progress is not None:
         progress("sweep done", 1.0)
-    return SweepResult(tuple(rows), swept, best.size if best else None, best.margin_mm2 if best else None)
+    return SweepResult(tuple(rows), swept, best.size if best else None, best.margin_mm2 if best else None,
+                       designed, kept)

@@ -643,6 +643,7 @@ def _neighbourhood(value: float, series: str) -> list[float]:
     return out
 
 
+@lru_cache(maxsize=4096)  # a pure function of the value; designs repeat values (issue 13 item 13)
 def series_of(value: float) -> tuple[str, ...]:
     """The E-series (coarsest first) that contain ``value`` at some decade.
 
@@ -658,7 +659,12 @@ def series_of(value: float) -> tuple[str, ...]:
     >>> series_of(4.8e3)
     ()
     """
-    v = float(value)
+    return _series_of(float(value))
+
+
+@lru_cache(maxsize=4096)
+def _series_of(v: float) -> tuple[str, ...]:
+    """:func:`series_of` for one float, cached: a design repeats few values, each costs ~300 compares."""
     if not (math.isfinite(v) and v > 0):
         return ()
     found = []

@@ -10,6 +10,7 @@ from hypothesis import strategies as st
 from shapely.geometry import box
 
 from pipeline.area import ROUTING_K, estimate_area, items_from_design
+from pipeline.library import load_library
 from pipeline.errors import DesignError, ProjectError
 from pipeline.model import Design, Net, Part, PinDef, PinRef, PlaceItem
 
@@ -94,8 +95,7 @@ def test_estimate_monotone(spec, layers, extra_pins, which):
 # --------------------------------------------------------------------------
 @pytest.fixture(scope="module")
 def lib():
-    library = pytest.importorskip("pipeline.library")
-    return library.load_library()
+    return load_library()
 
 
 def _two(ref, kind, package, dnp=False):

@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 import re
 import shutil
+import sys
 from pathlib import Path
 
 import pytest
@@ -325,3 +326,42 @@ def test_defect_21_control_characters_from_inputs_escaped_in_printed_text(tmp_pa
     r = CliRunner().invoke(main, ["run", str(proj), "--json"])
     assert _raw_controls(r.output) == []
     assert json.loads(r.stdout)["exit_status"] == 1
+
+
+def _lines_run(fn) -> int:
+    """Lines of pipeline/ code executed by ``fn()``: a cost count that does not depend on the machine's
+    speed (the libraries underneath are not counted, so the project's own loops stand out)."""
+    import pipeline
+
+    home = str(Path(pipeline.__file__).parent)
+    count = 0
+
+    def lines(frame, event, arg):
+        nonlocal count
+        if event == "line":
+            count += 1
+        return lines
+
+    def calls(frame, event, arg):
+        return lines if frame.f_code.co_filename.startswith(home) else None
+
+    sys.settrace(calls)
+    try:
+        fn()
+    finally:
+        sys.settrace(None)
+    return count
+
+
+def test_defect_13_check_cost_grows_linearly_with_parts(tmp_path):
+    """Doubling the parts must about double the work of `check`, not quadruple it (a part lookup that
+    scans every part made 100,000 parts take hours). Counted in executed lines, not seconds."""
+    from generated import chain_design
+
+    files = {}
+    for n in (20, 150, 300):
+        files[n] = tmp_path / f"d{n}.toml"
+        files[n].write_text(chain_design(n))
+    assert _invoke("check", str(files[20])).exit_code == 0  # imports, caches: not counted
+    cost = {n: _lines_run(lambda n=n: _invoke("check", str(files[n]))) for n in (150, 300)}
+    assert cost[300] / cost[150] < 2.3, cost  # linear: 2; with one n-long scan per pin: near 4

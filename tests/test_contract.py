@@ -1424,7 +1424,9 @@ def test_two_sides_fit_what_one_side_cannot(tmp_path):
     r1, one = _fit_of(tmp_path, "one", design, cavity=rect_cavity(tmp_path / "tight.dxf", w, h))
     assert one["region_area_mm2"] == pytest.approx(target, rel=1e-6)
     assert r1.exit_code == 1 and one["fits"] is False and one["blocked_by"]
-    r2, two = _fit_of(tmp_path, "two", design, tables={"board": {"sides": 2}},
+    # a placement test: routing off keeps the placement-only verdict (CONTRACT 5); packed this tight the
+    # ring is not routable, and exit 0 would otherwise require a routed board
+    r2, two = _fit_of(tmp_path, "two", design, tables={"board": {"sides": 2}, "copper": {"route": False}},
                       cavity=rect_cavity(tmp_path / "tight.dxf", w, h))
     assert r2.exit_code == 0 and two["fits"] is True, two["blocked_by"]
     assert len({p["side"] for p in two["placements"]}) == 2  # both sides used

@@ -47,8 +47,36 @@ def designs(draw) -> str:
 
 
 @st.composite
+def sound_designs(draw) -> str:
+    """Designs a reader accepts (two-pin parts in a chain, pads at the ends): the runs go past the
+    reader, into the checks, blocks and outputs, with values and voltages still drawn at random."""
+    n = draw(st.integers(1, 6))
+    kinds = [draw(st.sampled_from([("resistor", "R", "10k"), ("capacitor", "C", "100n"), ("inductor", "L", "10u"),
+                                   ("diode", "D", None)])) for _ in range(n)]
+    tables: dict[str, dict] = {"design": {"name": "fz"}}
+    refs = []
+    for i, (kind, letter, value) in enumerate(kinds, start=1):
+        ref = f"{letter}{i}"
+        refs.append(ref)
+        part = {"kind": kind, "package": "SOD-123" if kind == "diode" else draw(st.sampled_from(["0402", "0603", "1206"]))}
+        if value:
+            part["value"] = draw(st.one_of(st.just(value), VALUES))
+        tables[f"parts.{ref}"] = part
+    tables["parts.P1"] = {"kind": "wire-pad", "package": "pad-1.5mm"}
+    tables["parts.P2"] = {"kind": "wire-pad", "package": "pad-1.5mm"}
+    ends = ["P1.1", *[f"{r}.{{a}}" for r in refs], "P2.1"]
+    nets = {}
+    for i in range(len(ends) - 1):
+        nets["GND" if i == len(ends) - 2 else f"N{i}"] = [ends[i].format(a=2), ends[i + 1].format(a=1)]
+    tables["nets"] = nets
+    if draw(st.booleans()):
+        tables["voltages"] = {"N0": draw(st.one_of(NUMBERS, VALUES))}
+    return toml_tables(tables)
+
+
+@st.composite
 def design_cases(draw) -> Case:
-    text = draw(designs())
+    text = draw(st.one_of(designs(), sound_designs()))
     data = draw(mutated(text)) if draw(st.booleans()) else text.encode("utf-8")
     args = draw(st.sampled_from([("run", "{proj}"), ("check", "{proj}/design.toml")]))
     return Case({"project.toml": PROJECT, "design.toml": data}, args)

@@ -101,7 +101,7 @@ def _campaign(tmp_path: Path, kills: int, seed: int) -> collections.Counter:
             shutil.copytree(tmp_path / "ref-old", out)
         sig = (signal.SIGKILL, signal.SIGINT)[i % 2]
         # a third anywhere in the run, the rest about its end, where the outputs are written
-        delay = rng.uniform(0, span) if i % 3 == 0 else rng.uniform(0.75 * span, 1.1 * span)
+        delay = rng.uniform(0, span) if i % 3 == 0 else rng.uniform(0.8 * span, 1.5 * span)
         pid = _child(new_proj, out)
         time.sleep(delay)
         os.kill(pid, sig)
@@ -110,6 +110,8 @@ def _campaign(tmp_path: Path, kills: int, seed: int) -> collections.Counter:
         state = next((k for k, v in refs.items() if got == v), None)
         assert state is not None and _consistent(got), f"kill {i} ({sig.name} at {delay:.2f}s): mixed set {sorted(got)}"
         counts[f"{sig.name} {state}"] += 1
+        if (i + 1) % 25 == 0:
+            print(f"after {i + 1} kills: {dict(sorted(counts.items()))}", flush=True)
         if sig == signal.SIGINT:
             assert code in (0, 1, 128 + signal.SIGINT), code
             mine = [n for n in _leftovers(out) if f"-{pid}-" in n]  # earlier SIGKILLs' may wait for a run

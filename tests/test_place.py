@@ -396,7 +396,7 @@ def test_hpwl_closed_form():
     assert hpwl([], [], []) == 0.0
 
 
-def test_swaps_lower_wirelength(monkeypatch):
+def test_swaps_lower_wirelength():
     """The swap pass only takes swaps that lower the wirelength (module notes, step 3): with it the
     total is well below the constructive placement's; legality is unchanged."""
     import pipeline.place as place
@@ -408,8 +408,7 @@ def test_swaps_lower_wirelength(monkeypatch):
     board = BoardOptions()
     with_swaps = place_and_fit(items, region, board)
     check_invariants(items, region, board, with_swaps)
-    monkeypatch.setattr(place, "SWAP_PASSES", 0)
-    without = place_and_fit(items, region, board)
+    without = place_and_fit(items, region, board, improve=False)
     assert with_swaps.fits and without.fits
     assert with_swaps.wirelength_mm < 0.9 * without.wirelength_mm
 
@@ -431,3 +430,136 @@ def test_compact_block_in_roomy_cavity(monkeypatch):
     monkeypatch.setattr(place, "ROOMY", 1e9)  # no block: the strip along the bottom
     strip = place_and_fit(items, region, board)
     assert fit.wirelength_mm < strip.wirelength_mm
+
+
+def test_placer_warnings_reach_findings_and_terminal(tmp_path):
+    """Issue 11: a tight fit's fit.tight warning is in findings.json and on the terminal like every
+    other finding (it used to reach fit.json only). Six 0603 courtyards (2.8 x 1.3 mm, IPC-7351B
+    nominal) fill a 7.6 x 4.8 mm bay less the 0.3 mm wall clearance: they fit in 2 x 3, but the
+    board is below the routing rule of thumb's 1.5 x courtyard sum."""
+    import json
+
+    import ezdxf
+    from click.testing import CliRunner
+
+    from pipeline.cli import main
+
+    parts = "\n".join(f'[parts.R{i}]\nkind = "resistor"\nvalue = "10k"\npackage = "0603"\n' for i in range(1, 7))
+    nets = "[nets]\nA = [\"R1.1\", \"R6.2\"]\n" + "\n".join(f'N{i} = ["R{i}.2", "R{i + 1}.1"]' for i in range(1, 6))
+    (tmp_path / "design.toml").write_text('[design]\nname = "t"\nrevision = "A"\n\n' + parts + nets + "\n")
+    doc = ezdxf.new(units=ezdxf.units.MM)
+    doc.modelspace().add_lwpolyline([(0, 0), (7.6, 0), (7.6, 4.8), (0, 4.8)], close=True,
+                                     dxfattribs={"layer": "CAVITY"})
+    doc.saveas(tmp_path / "bay.dxf")
+    (tmp_path / "project.toml").write_text('[project]\nname = "t"\ndesign = "design.toml"\ncavity = "bay.dxf"\n'
+                                           '[board]\nedge_clearance_mm = 0\n')
+    r = CliRunner().invoke(main, ["run", str(tmp_path)])
+    assert r.exit_code == 0, r.output
+    findings = json.loads((tmp_path / "out" / "findings.json").read_text())
+    fit = json.loads((tmp_path / "out" / "fit.json").read_text())
+    codes = [f["check"] for f in findings]
+    assert "fit.tight" in codes and "fit.tight" in [w["check"] for w in fit["warnings"]]
+    assert "1 warning(s)" in r.output and "routing may be hard" in r.output
+
+
+# --------------------------------------------------------------------------
+# fixed parts (issue 8 item 6)
+# --------------------------------------------------------------------------
+@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(st.data())
+def test_fixed_parts_stay_exactly_where_asked(data):
+    """Parts fixed with at/rotation keep their centre and rotation to the last bit, the others pack
+    around them, and every rule is re-checked with shapely (check_invariants), not by the placer."""
+    from pipeline.model import Fixed
+
+    w = data.draw(st.floats(16, 40), label="w")
+    h = data.draw(st.floats(10, 30), label="h")
+    region = _region(box(0, 0, w, h))
+    board = BoardOptions(edge_clearance_mm=0.5, outline="region")
+    fixed: list[PlaceItem] = []
+    taken: list[Polygon] = []
+    for k in range(data.draw(st.integers(1, 3), label="n fixed")):
+        rot = data.draw(st.sampled_from((0, 90, 180, 270)), label="rot")
+        dx, dy = (5.4, 7.4) if rot in (0, 180) else (7.4, 5.4)  # SOIC-8 courtyard, IPC-7351B nominal
+        x = data.draw(st.floats(0.5 + dx / 2 + 0.1, w - 0.5 - dx / 2 - 0.1), label="x")
+        y = data.draw(st.floats(0.5 + dy / 2 + 0.1, h - 0.5 - dy / 2 - 0.1), label="y")
+        c = box(x - dx / 2, y - dy / 2, x + dx / 2, y + dy / 2)
+        if any(c.intersection(t).area > 0 for t in taken):
+            continue
+        taken.append(c)
+        fixed.append(PlaceItem(f"U{k + 1}", 5.4, 7.4, 1.75, ("A",), fixed=Fixed(x, y, rot, "top", "d.toml", 3)))
+    free = [PlaceItem(f"R{i + 1}", 2.8, 1.3, 0.5, ("A",)) for i in range(data.draw(st.integers(0, 12), label="n"))]
+    items = fixed + free
+    fit = place_and_fit(items, region, board)
+    check_invariants(items, region, board, fit)
+    at = {p.ref: p for p in fit.placements}
+    for it in fixed:
+        p = at[it.ref]  # fixed parts inside the region with the edge clearance are always placed
+        assert (p.x_mm, p.y_mm, p.rotation_deg, p.side) == (it.fixed.x_mm, it.fixed.y_mm, it.fixed.rotation_deg,
+                                                             "top")
+
+
+@pytest.mark.parametrize("fixes,key,words", [
+    ([(1.0, 5.0, 0, "top")], "parts.U1.at", "outside the usable region"),       # off the cavity
+    ([(10.0, 5.0, 0, "top"), (12.0, 5.0, 90, "top")], "parts.U2.at", "overlaps U1"),
+    ([(10.0, 5.0, 0, "bottom")], "parts.U1.side", "one side"),
+])
+def test_fixed_parts_bad_input(fixes, key, words):
+    """A fixed part off the usable region, two fixed parts overlapping, a bottom part on a one-sided
+    board: bad input naming the file, the line and the key."""
+    from pipeline.model import Fixed
+
+    items = [PlaceItem(f"U{k + 1}", 5.4, 7.4, 1.75, (), fixed=Fixed(x, y, r, s, "d.toml", 7 + k))
+             for k, (x, y, r, s) in enumerate(fixes)]
+    with pytest.raises(DesignError) as e:
+        place_and_fit(items, _region(box(0, 0, 30, 12)), BoardOptions())
+    assert "d.toml" in str(e.value) and key in str(e.value) and words in str(e.value)
+
+
+def test_fixed_part_in_the_edge_clearance_is_a_named_constraint():
+    """Inside the cavity but within the board's edge clearance: not bad input, but the fit fails and
+    blocked_by names the part and the constraint."""
+    from pipeline.model import Fixed
+
+    items = [PlaceItem("U1", 5.4, 7.4, 1.75, (), fixed=Fixed(2.9, 5.0, 0, "top", "d.toml", 7)),
+             PlaceItem("R1", 2.8, 1.3, 0.5, ())]
+    fit = place_and_fit(items, _region(box(0, 0, 30, 12)), BoardOptions(edge_clearance_mm=0.5))
+    assert not fit.fits and fit.unplaced == ("U1",)
+    assert any(b.startswith("U1 is fixed at (2.9, 5) mm") and "edge clearance" in b for b in fit.blocked_by)
+
+
+def test_fixed_keys_read_from_the_design_file(tmp_path):
+    """at / rotation / side in a design file reach the placement (through the CLI) and bad values
+    exit 2 naming the file and the key, writing nothing."""
+    import json
+
+    import ezdxf
+    from click.testing import CliRunner
+
+    from pipeline.cli import main
+
+    def project(extra):
+        (tmp_path / "design.toml").write_text(
+            '[design]\nname = "t"\nrevision = "A"\n\n[parts.R1]\nkind = "resistor"\nvalue = "10k"\n'
+            f'package = "0603"\n{extra}\n[parts.R2]\nkind = "resistor"\nvalue = "10k"\npackage = "0603"\n\n'
+            '[nets]\nA = ["R1.1", "R2.1"]\nB = ["R1.2", "R2.2"]\n')
+        doc = ezdxf.new(units=ezdxf.units.MM)
+        doc.modelspace().add_lwpolyline([(0, 0), (20, 0), (20, 12), (0, 12)], close=True,
+                                         dxfattribs={"layer": "CAVITY"})
+        doc.saveas(tmp_path / "bay.dxf")
+        (tmp_path / "project.toml").write_text('[project]\nname = "t"\ndesign = "design.toml"\ncavity = "bay.dxf"\n')
+        return CliRunner().invoke(main, ["run", str(tmp_path)])
+
+    r = project("at = [12.5, 6]\nrotation = 270")
+    assert r.exit_code == 0, r.output
+    fit = json.loads((tmp_path / "out" / "fit.json").read_text())
+    p = next(p for p in fit["placements"] if p["ref"] == "R1")
+    assert (p["x_mm"], p["y_mm"], p["rotation_deg"], p["side"]) == (12.5, 6, 270, "top")
+    for extra, key in (("at = [1, 2, 3]", "parts.R1.at"), ("at = [5, 5]\nrotation = 45", "parts.R1.rotation"),
+                       ("at = [5, 5]\nside = \"under\"", "parts.R1.side"), ("rotation = 90", "parts.R1.rotation"),
+                       ("at = [0.2, 6]", "parts.R1.at")):
+        import shutil
+        shutil.rmtree(tmp_path / "out", ignore_errors=True)
+        r = project(extra)
+        assert r.exit_code == 2 and "design.toml" in r.output and key in r.output, (extra, r.output)
+        assert "Traceback" not in r.output and not (tmp_path / "out").exists()

@@ -77,11 +77,15 @@ def test_order_section_matches_the_bom_files_of_the_same_run(tmp_path):
     assert page.headings == [f"Order for {totals['boards']} boards"] and totals["boards"] == "10"
     # every line and every cell of the BOM files, in order (the CSV module reads them independently);
     # only columns empty on every row are left out of the page
-    for name in ("bom.csv", "bom-totals.csv", "bom-unfitted.csv"):
+    for name in ("bom.csv", "bom-totals.csv", "bom-unfitted.csv", "board-features.csv"):
         want = _csv(out / name)
         keep = [i for i in range(len(want[0])) if any(row[i] for row in want[1:])]
         assert page.tables[name] == [[row[i] for i in keep] for row in want], name
     assert "manufacturer" not in page.tables["bom.csv"][0] and "qty_order" in page.tables["bom.csv"][0]
+    # the board features are kept apart: none of their refs is on an order line (CONTRACT section 5)
+    features = {row[0] for row in _csv(out / "board-features.csv")[1:]}
+    ordered = {ref for row in _csv(out / "bom.csv")[1:] for ref in row[2].split()}
+    assert features and not features & ordered
     # parts to order add up: the sum of qty_order over the lines is the total's parts_to_order
     lines = _csv(out / "bom.csv")
     col = lines[0].index("qty_order")

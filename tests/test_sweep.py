@@ -8,6 +8,7 @@ import math
 import pytest
 from shapely.geometry import box
 
+from pipeline.library import load_library
 from pipeline.errors import UnknownNameError
 from pipeline.model import BoardOptions, Design, HeightZone, Net, Part, PartKind, PinDef, PinRef, Region
 from pipeline.sweep import sweep_sizes, two_terminal_passives
@@ -17,8 +18,7 @@ SIZES = ("0201", "0402", "0603", "0805", "1206")
 
 @pytest.fixture(scope="module")
 def lib():
-    library = pytest.importorskip("pipeline.library")
-    return library.load_library()
+    return load_library()
 
 
 def _two(ref, kind, package, dnp=False):
@@ -98,7 +98,7 @@ def test_sweep_largest_fitting(lib):
     assert progress and progress[-1] == 1.0
     d = res.to_dict()
     assert json.loads(json.dumps(d)) == d
-    assert d["largest_fitting"] == res.largest_fitting and len(d["sizes"]) == len(SIZES)
+    assert d["largest_fitting"] == res.largest_fitting and len(d["sizes"]) == len(SIZES) + 1  # the design first
 
 
 def test_sweep_nothing_fits(lib):
@@ -114,3 +114,45 @@ def test_sweep_unknown_size(lib):
     region = Region(geom, (HeightZone(geom, 4.0),), 0.8)
     with pytest.raises(UnknownNameError):  # an InputError: exit 2
         sweep_sizes(_design(), lib, region, BoardOptions(), ("0603", "0604x"))
+
+
+def test_sweep_skips_the_improvement_pass(lib, monkeypatch):
+    """Cost guard (issue 11): the sweep needs only the verdict, so the wirelength pass never runs;
+    counted, not timed. The same fit run directly does run it once (the counter can fail)."""
+    import pipeline.place as place
+    from pipeline.area import items_from_design
+
+    calls = []
+    real = place._improve
+    monkeypatch.setattr(place, "_improve", lambda *a, **k: (calls.append(1), real(*a, **k))[1])
+    region = Region(box(0, 0, 40, 30), (HeightZone(box(0, 0, 40, 30), 5.0),), 0.8)
+    sweep_sizes(_design(), lib, region, BoardOptions(), sizes=("0402", "0603"))
+    assert calls == []
+    place.place_and_fit(items_from_design(_design(), lib, "nominal"), region, BoardOptions())
+    assert calls == [1]
+
+
+def test_sweep_starts_with_the_design_and_keeps_fixed_parts(lib):
+    """Issue 8 item 8: the first row is the design as written (the same fit place_and_fit gives
+    on it), and a passive fixed in place keeps its package in every row and is named as kept."""
+    import dataclasses
+
+    from pipeline.area import items_from_design
+    from pipeline.model import Fixed
+    from pipeline.place import place_and_fit
+
+    d = _design()
+    parts = tuple(dataclasses.replace(p, fixed=Fixed(20.0, 15.0)) if p.ref == "R1" else p for p in d.parts)
+    d = dataclasses.replace(d, parts=parts)
+    region = Region(box(0, 0, 40, 30), (HeightZone(box(0, 0, 40, 30), 5.0),), 0.8)
+    res = sweep_sizes(d, lib, region, BoardOptions(), sizes=("0402", "1206"))
+    direct = place_and_fit(items_from_design(d, lib, "nominal"), region, BoardOptions())
+    assert res.designed.size == "design" and res.designed.fits == direct.fits
+    assert res.designed.courtyard_area_mm2 == pytest.approx(direct.courtyard_area_mm2)
+    assert res.kept == ("R1",) and "R1" not in res.swept
+    out = res.to_dict()
+    assert [r["size"] for r in out["sizes"]] == ["design", "0402", "1206"] and out["kept_refs"] == ["R1"]
+    # R1 stays 0603 while the other swept passives go to 0402
+    small = items_from_design(d, lib, "nominal", {r: "0402" for r in res.swept})
+    assert res.row("0402").courtyard_area_mm2 == pytest.approx(sum(i.length_mm * i.width_mm for i in small))
+    assert {i.ref: i.package for i in small if i.ref in ("R1", "R2")} == {"R1": "0603", "R2": "0402"}

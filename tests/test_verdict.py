@@ -107,7 +107,9 @@ def test_every_output_shows_the_same_verdict(tmp_path, case, edit, level, status
     assert " ".join(svg_lines) == v["headline"]
     assert v["headline"].startswith({"ready": "Ready to lay out", "attention": "Fits, needs attention",
                                      "does-not-fit": "Does not fit"}[level])
-    assert "placement only: routing not checked" in v["headline"]  # no routing result yet
+    # run routes by default (issue 9): these boards route; a board that does not fit is not routed
+    assert ("placement only: routing not checked" if level == "does-not-fit" else "(placed and routed)") \
+        in v["headline"]
     blocking = [x for x in v["reasons"] if x["blocking"]]
     assert bool(blocking) == (status == 1 and level == "attention")
     if case == "block-miss":

@@ -22,7 +22,7 @@ from .limits import REL_TOL
 from .load import short
 from .walk import Leaf
 
-__all__ = ["Piece", "CURVES", "convert_leaf"]
+__all__ = ["Piece", "CURVES", "convert_leaf", "arc_points"]
 
 _SPLINE_FRAME_VERTEX = 16  # POLYLINE VERTEX flag: spline frame control point (DXF reference)
 
@@ -94,7 +94,7 @@ def _arc_segments(r: float, span: float, tol: float, full: bool) -> int:
     return max(n, 3) if full else n
 
 
-def _arc_points(cx: float, cy: float, r: float, a0: float, span: float, tol: float,
+def arc_points(cx: float, cy: float, r: float, a0: float, span: float, tol: float,
                 full: bool = False) -> np.ndarray:
     n = _arc_segments(r, abs(span), max(tol, r * REL_TOL), full)
     t = a0 + span * np.arange(n + 1) / n
@@ -123,7 +123,7 @@ def _bulge_polyline(pts: Sequence[tuple[float, float, float]], closed: bool, tol
         off = (chord / 2.0) / math.tan(theta / 2.0)
         cx, cy = (x0 + x1) / 2.0 + nx * off, (y0 + y1) / 2.0 + ny * off
         a0 = math.atan2(y0 - cy, x0 - cx)
-        arc = _arc_points(cx, cy, r, a0, theta, tol)
+        arc = arc_points(cx, cy, r, a0, theta, tol)
         arc[-1] = (x1, y1)
         out.append(arc[1:])
     res = np.concatenate(out)
@@ -170,7 +170,7 @@ def _circle_or_arc(e, tol: float) -> tuple[np.ndarray, bool]:
                             (float(c[0]), float(c[1])))
     cx, cy = _finite(c[0], "centre"), _finite(c[1], "centre")
     if e.dxftype() == "CIRCLE":
-        xy = _arc_points(cx, cy, r, 0.0, 2 * math.pi, tol, full=True)[:-1]
+        xy = arc_points(cx, cy, r, 0.0, 2 * math.pi, tol, full=True)[:-1]
         closed = True
     else:
         a0 = math.radians(_finite(e.dxf.start_angle, "start angle"))
@@ -178,7 +178,7 @@ def _circle_or_arc(e, tol: float) -> tuple[np.ndarray, bool]:
         span = (a1 - a0) % (2 * math.pi)
         if span < 1e-12:
             span = 2 * math.pi
-        xy = _arc_points(cx, cy, r, a0, span, tol)
+        xy = arc_points(cx, cy, r, a0, span, tol)
         closed = False
     return _ocs_to_wcs(e.ocs(), xy, float(c[2])), closed
 

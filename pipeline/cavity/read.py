@@ -25,6 +25,7 @@ from .chain import Ring, chain, fmt_pt, loop_polygon, one_outline, to_mm
 from .convert import CURVES, MeshPolyline, Piece, convert_leaf
 from .limits import JOIN_TOL_MM, MAX_PLAUSIBLE_SIDE_MM, MIN_PLAUSIBLE_AREA_MM2, Limits
 from .load import LoaderLog, load_dxf, printable, short
+from .measured import MEASURED_SUFFIX, read_measured
 from .roles import LayerRoles, parse_layer_map
 from .units import drawing_units, unit_code
 from .walk import Walker
@@ -51,7 +52,9 @@ def read_cavity(
     Parameters
     ----------
     path : pathlib.Path
-        The DXF file (ASCII or binary, any version ezdxf reads).
+        The DXF file (ASCII or binary, any version ezdxf reads), or a
+        measured-cavity file ending in ``.toml``
+        (:mod:`pipeline.cavity.measured`).
     display_name : str, optional
         The path as the user wrote it, used in messages (default ``str(path)``).
     layer_map : mapping, optional
@@ -101,6 +104,8 @@ def read_cavity(
     findings: list[Finding] = []
     roles = parse_layer_map(layer_map, source=settings_file)
     default_code = _check_settings(depth_mm, chord_tol_mm, default_units, settings_file)
+    if Path(path).suffix.lower() == MEASURED_SUFFIX:
+        return read_measured(Path(path), display_name=name, depth_mm=float(depth_mm), chord_tol_mm=chord_tol_mm)
     with LoaderLog() as log:
         cavity = _read(Path(path), name, roles, default_code, float(depth_mm), chord_tol_mm,
                        findings, progress, limits or Limits())

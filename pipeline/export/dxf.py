@@ -60,7 +60,7 @@ from pipeline.dxflib import import_ezdxf
 ezdxf = import_ezdxf()
 from ezdxf.tools.juliandate import juliandate  # noqa: E402  (after the guarded import)
 
-__all__ = ["board_outline_dxf", "EDGE_LAYER"]
+__all__ = ["board_outline_dxf", "cavity_dxf", "EDGE_LAYER"]
 
 #: Layer of the board edge (our own name; "profile" as in the Gerber format's
 #: file function for the board outline).
@@ -133,22 +133,47 @@ def board_outline_dxf(outline: Polygon, *, timestamp: int | None = None,
     True
     """
     poly = _one_polygon(outline)
-    stamp = _timestamp(timestamp)
+    return _layers_dxf([(EDGE_LAYER, [poly])], units, _timestamp(timestamp))
+
+
+def cavity_dxf(cavity, *, timestamp: int | None = None) -> bytes:
+    """A cavity (:class:`~pipeline.model.Cavity`, mm) as a drawing on snugboard's layer roles.
+
+    Written in the units the cavity was given in (``$INSUNITS``): the floor
+    outline and its holes on ``CAVITY``, keep-outs on ``KEEPOUT``, each depth
+    zone on ``DEPTH-<mm>`` and a given board on ``BOARD``, every shape as
+    closed polylines, so the file reads back as the same cavity and can be
+    refined in any CAD program. Reproducible bytes as :func:`board_outline_dxf`.
+    """
+    from pipeline.cavity import cavity_units
+
+    depths: dict[float, list] = {}
+    for z in cavity.depth_zones:
+        depths.setdefault(float(z.depth_mm), []).append(z.polygon)
+    layers = [("CAVITY", [cavity.outline]), ("KEEPOUT", list(cavity.keepouts))]
+    layers += [(f"DEPTH-{d:g}", polys) for d, polys in sorted(depths.items())]
+    if cavity.board is not None:
+        layers.append(("BOARD", [cavity.board]))
+    return _layers_dxf(layers, cavity_units(cavity), _timestamp(timestamp))
+
+
+def _layers_dxf(layers: list[tuple[str, list]], units: tuple[int, float], stamp: datetime | None) -> bytes:
+    """Closed polylines of every polygon (exterior CCW, holes CW) on its layer, in ``units``."""
     code, mm_per_unit = units
-    poly = orient(poly, sign=1.0)  # exterior CCW, holes CW
+    polys = [(layer, orient(p, sign=1.0)) for layer, geoms in layers for g in geoms for p in shapely.get_parts(g)]
     if mm_per_unit != 1.0:
-        poly = shapely.transform(poly, lambda c: c / mm_per_unit)
+        polys = [(layer, shapely.transform(p, lambda c: c / mm_per_unit)) for layer, p in polys]
     with fixed_metadata():
         doc = ezdxf.new("R2013", units=code)
         doc.header["$MEASUREMENT"] = 0 if code in _IMPERIAL else 1
         doc.header["$LUNITS"] = 2  # decimal lengths
-        doc.layers.add(EDGE_LAYER, color=7)
+        for layer, _ in layers:
+            doc.layers.add(layer, color=7)
         msp = doc.modelspace()
-        attribs = {"layer": EDGE_LAYER}
-        msp.add_lwpolyline(_ring_points(poly.exterior), format="xy", close=True, dxfattribs=attribs)
-        for hole in poly.interiors:
-            msp.add_lwpolyline(_ring_points(hole), format="xy", close=True, dxfattribs=attribs)
-        minx, miny, maxx, maxy = (float(v) for v in poly.bounds)
+        for layer, poly in polys:
+            for ring in (poly.exterior, *poly.interiors):
+                msp.add_lwpolyline(_ring_points(ring), format="xy", close=True, dxfattribs={"layer": layer})
+        minx, miny, maxx, maxy = (float(v) for v in shapely.union_all([p for _, p in polys]).bounds)
         msp.dxf.extmin = (minx, miny, 0.0)
         msp.dxf.extmax = (maxx, maxy, 0.0)
         span = max(maxx - minx, maxy - miny, 1.0)

@@ -5,8 +5,8 @@ Entry point: :func:`order_section`.
 It renders what the BOM export wrote (:func:`pipeline.export.bom.bom_files`),
 cell for cell (leaving out only columns empty on every row), so the page
 and the CSV files cannot disagree: the parts
-lines of ``bom.csv``, every other ``bom-*.csv`` (board features, unfitted
-parts) as a table of its own, the totals of ``bom-totals.csv``, and the
+lines of ``bom.csv``, every other file the export gives (the board
+features kept apart, the unfitted parts) as a table of its own, the totals of ``bom-totals.csv``, and the
 bare board as a fabricator quotes it: outline size (the outline's bounding
 box in the drawing's frame, as ``board-outline.dxf`` holds it), area,
 copper layers, thickness, sides carrying parts and the number of boards.
@@ -28,6 +28,7 @@ _HEADINGS = {
     "bom.csv": "Parts to order",
     "bom-unfitted.csv": "Not fitted (not ordered)",
     "bom-totals.csv": "Totals",
+    "board-features.csv": "Board features (copper on the board itself: not ordered)",
 }
 #: Columns of bom.csv shown as numbers (right-aligned).
 _NUMERIC = ("line", "qty", "boards", "spares", "qty_order", "count")
@@ -45,13 +46,12 @@ def order_section(files: Mapping[str, bytes], fit: FitResult | None, board: Boar
     boards = totals.get("boards", "")
     out = [f'<section id="order"><h2>Order{f" for {escape(boards)} boards" if boards else ""}</h2>']
     out.append(_board(fit, board, boards))
-    names = ["bom.csv"] + sorted(n for n in files if n.startswith("bom-") and n != "bom-totals.csv")
-    names.append("bom-totals.csv")
+    names = ["bom.csv"] + sorted(n for n in files if n not in ("bom.csv", "bom-totals.csv")) + ["bom-totals.csv"]
     for name in names:
         if name not in files:
             continue
         head, rows = csv_table(files[name])
-        title = _HEADINGS.get(name, name.removesuffix(".csv").removeprefix("bom-").replace("-", " ").capitalize())
+        title = _HEADINGS.get(name, name.removesuffix(".csv").replace("-", " ").capitalize())
         out.append(f'<h3>{escape(title)} <span class="quiet">({escape(name)})</span></h3>')
         if not rows:
             out.append('<p class="quiet">None.</p>')

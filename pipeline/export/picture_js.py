@@ -9,8 +9,9 @@ What the script reads from the picture (:mod:`pipeline.export.svg` writes it):
   ``data-height`` (mm), ``data-side`` and ``data-nets`` (names separated by
   spaces: net names hold no spaces) - hover shows them in a tooltip;
 * any element with ``data-nets`` containing a net, or ``data-net`` equal to
-  it (pins and copper, once pads and routes are drawn), lights up when that
-  net is picked;
+  it (the pads today; tracks and copper areas join by carrying ``data-net``
+  too: the page's style sheet strokes them in the highlight colour), lights
+  up when that net is picked;
 * the layer groups ``.depth-zones`` / ``.cavity-floor``, ``.keepouts``,
   ``.placements`` and ``.labels``, hidden by a ``hide-<layer>`` class on
   the svg element.

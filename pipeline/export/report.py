@@ -94,6 +94,7 @@ svg.hide-zones .depth-zones, svg.hide-zones .cavity-floor, svg.hide-keepouts .ke
 svg.hide-courtyards .placements, svg.hide-courtyards .pads, svg.hide-labels .labels { display: none; }
 svg .net-hit path, svg path.pad.net-hit { fill: #f2c200; fill-opacity: .9; stroke: #6b5200; }
 svg path.pad.net-hit { stroke-width: .08; }
+svg .net-hit[data-net]:not(.pad) { stroke: #f2c200; }
 svg.net-active .part:not(.net-hit), svg.net-active .pad:not(.net-hit) { opacity: .35; }
 table { border-collapse: collapse; width: 100%; font-size: .92rem; margin: .3rem 0 .8rem; }
 th, td { text-align: left; padding: .3rem .55rem; border-bottom: 1px solid var(--rule); vertical-align: top; }
@@ -157,7 +158,8 @@ def report_html(
         from ``findings`` and ``fit`` when not given.
     order_files : mapping of file name to bytes, optional
         The BOM export's CSV files (``bom.csv``, ``bom-totals.csv``,
-        ``bom-unfitted.csv`` and any other ``bom-*.csv``), shown as the order.
+        ``bom-unfitted.csv``, ``board-features.csv`` and any other it gives),
+        shown as the order.
     board : BoardOptions, optional
         Layers, thickness and sides, for the board as one would order it.
 

@@ -1,0 +1,171 @@
+"""Routing: prove that a placed board can carry its connections.
+
+Entry point: :func:`route_placed` (a fit to a :class:`RouteOutcome`). Steps:
+pads from the placement (:mod:`.pads`, the one place to switch to real
+pads), routing demand (:mod:`.demand`, RUDY), the router (:mod:`.router`,
+PathFinder with A*), ``routes.json`` (:mod:`pipeline.export.routes`) and
+the independent check of that document (:mod:`pipeline.copper`). The board
+is called routed only when the router completed every connection AND the
+independent check is clean; a routing the router calls complete but the
+check rejects is a defect, reported as one.
+
+:class:`RouteVerdict` is the small frozen value other steps consume (the
+overall verdict, the report).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any, Callable
+
+from .rules import CopperRules
+
+# no geometry library at import time: reading project.toml imports the rules from here
+__all__ = ["RouteVerdict", "RouteOutcome", "route_placed", "route_fit", "skipped", "CopperRules", "SPREAD_STEPS"]
+
+ROUTED, OPEN, SKIPPED = "routed", "open", "skipped"
+
+#: room added around every courtyard (in routing pitches, to its length and to its width) when the
+#: compact placement does not route: tried in this order, first that routes wins (our choice).
+SPREAD_STEPS = (0, 1, 2, 3, 4, 6)
+
+
+@dataclass(frozen=True)
+class RouteVerdict:
+    """The routing verdict: ``status`` is ``"routed"``, ``"open"`` or ``"skipped"``.
+
+    ``open_nets`` names the nets not completed; ``demand_peak`` /
+    ``demand_p90`` are the RUDY demand-to-capacity ratios (``None`` when not
+    routed); ``congestion`` up to ten ``(x, y)`` mm where nets still shared;
+    ``defects`` the independent check's findings beyond the open nets
+    (should be empty: anything here is a router defect); ``reason`` says why
+    routing was skipped.
+    """
+
+    status: str
+    open_nets: tuple[str, ...] = ()
+    demand_peak: float | None = None
+    demand_p90: float | None = None
+    vias: int = 0
+    wirelength_mm: float = 0.0
+    congestion: tuple[tuple[float, float], ...] = ()
+    defects: tuple[str, ...] = ()
+    reason: str = ""
+    spread_mm: float = 0.0
+
+    @property
+    def open(self) -> tuple[str, ...]:
+        """The open nets (the name :func:`pipeline.verdict.decide` reads)."""
+        return self.open_nets
+
+    @property
+    def label(self) -> str:
+        """``routed``, ``open with N nets`` or ``skipped``."""
+        if self.status == OPEN:
+            return f"open with {len(self.open_nets)} net{'s' if len(self.open_nets) != 1 else ''}"
+        return self.status
+
+    def to_dict(self) -> dict[str, Any]:
+        r = lambda v: None if v is None else round(float(v), 4)  # noqa: E731
+        return {"status": self.status, "verdict": self.label, "open_nets": list(self.open_nets),
+                "demand_peak_ratio": r(self.demand_peak), "demand_p90_ratio": r(self.demand_p90),
+                "vias": self.vias, "wirelength_mm": r(self.wirelength_mm),
+                "congestion_at": [[r(x), r(y)] for x, y in self.congestion],
+                "defects": list(self.defects), "reason": self.reason, "spread_mm": r(self.spread_mm)}
+
+
+@dataclass(frozen=True)
+class RouteOutcome:
+    """Everything routing produced: verdict, the routing input, copper and the document."""
+
+    verdict: RouteVerdict
+    board: Any          # pipeline.route.board.RouteBoard
+    routing: Any
+    document: dict
+
+
+def skipped(reason: str) -> RouteVerdict:
+    return RouteVerdict(SKIPPED, reason=reason)
+
+
+def route_placed(outline, placements, design, library, rules: CopperRules, *, level: str = "nominal",
+                 progress: Callable[[str, float], None] | None = None) -> RouteOutcome:
+    """Route a placed design on ``outline`` (shapely polygon, mm) and check it independently.
+
+    Cost: the router's (see :mod:`pipeline.route.router`) plus the check's
+    O(n log n) in pieces of copper.
+    """
+    from ..copper import check_copper
+    from ..export.routes import routes_dict
+    from .demand import routing_demand
+    from .pads import board_from_placement
+    from .router import route_board
+
+    board = board_from_placement(outline, placements, design, library, rules.layer_names, level=level)
+    demand = routing_demand(board, rules)
+    routing = route_board(board, rules, progress=progress)
+    doc = routes_dict(board, rules, routing)
+    check = check_copper(doc)
+    defects = tuple(p.message + f" (at {p.x:.2f}, {p.y:.2f} mm)" for p in check.except_open(routing.open))
+    status = ROUTED if routing.status == ROUTED and check.clean else OPEN
+    doc["status"] = status
+    verdict = RouteVerdict(status, routing.open, demand.peak, demand.p90, len(routing.vias),
+                           routing.wirelength_mm, routing.congestion, defects)
+    return RouteOutcome(verdict, board, routing, doc)
+
+
+def route_fit(fit, items, region, options, design, library, rules: CopperRules, *, user_board=None,
+              progress: Callable[[str, float], None] | None = None):
+    """Route a fit; when it does not route, spread the parts and try again.
+
+    Placement for routing by iterating placement and routing: the placer
+    (:func:`pipeline.place.place_and_fit`, unchanged) places courtyards
+    grown by ``SPREAD_STEPS`` pitches (``m`` mm added to length and width),
+    so every part keeps ``m / 2`` of extra room on each side; each placement
+    is routed, the first that routes wins, else the one with fewest open
+    nets. A grown courtyard placed legally holds the true one at its centre,
+    so the true placement is legal too. Returns ``(fit, RouteOutcome)`` with
+    the fit whose placements were routed (true courtyards; the courtyard
+    sum and estimate of the compact fit).
+    """
+    import dataclasses
+
+    from ..place import place_and_fit
+
+    best = None
+    for step in SPREAD_STEPS:
+        m = step * rules.pitch_mm
+        if step == 0:
+            f = fit
+        else:
+            grown = tuple(dataclasses.replace(it, length_mm=it.length_mm + m, width_mm=it.width_mm + m)
+                          for it in items)
+            spread = place_and_fit(grown, region, options, user_board=user_board)
+            if not spread.fits:
+                break
+            f = dataclasses.replace(fit, placements=_true_courtyards(spread.placements, items),
+                                    board_outline=spread.board_outline, wirelength_mm=spread.wirelength_mm)
+        out = route_placed(f.board_outline, f.placements, design, library, rules, level=options.density,
+                           progress=progress)
+        out = dataclasses.replace(out, verdict=dataclasses.replace(out.verdict, spread_mm=m))
+        if best is None or len(out.verdict.open_nets) < len(best[1].verdict.open_nets):
+            best = (f, out)
+        if out.verdict.status == ROUTED:
+            break
+    return best
+
+
+def _true_courtyards(placements, items):
+    """Placements with each part's own courtyard rectangle at the same centre and turn."""
+    import dataclasses
+
+    from shapely.geometry import box
+
+    size = {it.ref: (it.length_mm, it.width_mm) for it in items}
+    out = []
+    for p in placements:
+        a, b = size[p.ref]
+        if p.rotation_deg in (90, 270):
+            a, b = b, a
+        out.append(dataclasses.replace(p, courtyard=box(p.x_mm - a / 2, p.y_mm - b / 2, p.x_mm + a / 2, p.y_mm + b / 2)))
+    return tuple(out)

@@ -26,8 +26,10 @@ Method
   history of shared nodes grows, the present factor grows by
   ``PRESENT_GROWTH``, and the nets that share are ripped up and routed
   again, until nothing is shared, ``MAX_ROUNDS`` pass or the time budget
-  runs out. Nets still sharing then are dropped one at a time (most shared
-  first) and reported open with the shared places as the congestion.
+  runs out, or a connection is found to have no path at all (then no
+  negotiation can complete the board). Nets still sharing then are dropped
+  one at a time (most shared first) and reported open with the shared
+  places as the congestion.
 * **Clearance model**: a track node or via claims the nodes around it that
   another net's copper may not use (none for two plain tracks: the pitch
   already holds the clearance; the 8 neighbours of a via; more around wide
@@ -129,7 +131,7 @@ class Routing:
 # --------------------------------------------------------------------------
 class _Net:
     __slots__ = ("name", "k", "pads", "width", "area", "grid", "terms", "paths", "vias", "core", "claim",
-                 "failed", "stubs", "halo")
+                 "failed", "stubs", "halo", "dead")
 
     def __init__(self, name, k, pads, width, area):
         self.name, self.k, self.pads, self.width, self.area = name, k, pads, width, area
@@ -140,6 +142,7 @@ class _Net:
         self.core: set[int] = set()
         self.claim: set[int] = set()
         self.failed = False
+        self.dead = False     # a connection has no path at all (not a matter of congestion)
         self.stubs: list[tuple[int, str, LineString]] = []
         self.halo: list[tuple[int, int]] = []
 
@@ -316,8 +319,8 @@ class _Router:
                 if self.progress:
                     self.progress(f"routing: round {rounds}, {net.name}", min(0.99, (rounds - 1 + idx / len(todo)) / 8))
             bad, involved = self.shared()
-            if not bad or time.monotonic() > self.deadline:
-                break
+            if not bad or time.monotonic() > self.deadline or any(n.dead for n in self.nets):
+                break   # done, out of time, or a connection has no path at all: negotiating cannot help
             for n in bad:
                 self.hist[n] += HISTORY_STEP
             present *= PRESENT_GROWTH
@@ -328,13 +331,17 @@ class _Router:
     def reroute(self, net: _Net, present: float) -> None:
         if net.paths or net.vias:
             self.commit(net, -1)
-        net.paths, net.vias, net.failed = [], [], False
-        if any(not t for t, pad in zip(net.terms, net.pads) if not (net.area and net.area in pad.layers)):
-            net.failed = True
+        net.paths, net.vias, net.failed = [], [], net.dead
+        if net.dead:
+            pass
+        elif any(not t for t, pad in zip(net.terms, net.pads) if not (net.area and net.area in pad.layers)):
+            net.failed = net.dead = True
         elif net.area:
             self.route_to_area(net, present)
         else:
             self.route_tree(net, present)
+        if net.failed:
+            net.paths, net.vias = [], []
         self.commit(net, +1)
 
     def route_tree(self, net: _Net, present: float) -> None:
@@ -346,7 +353,7 @@ class _Router:
             nxt = min(pads, key=lambda q: (min(cents[q].distance(cents[d]) for d in done), q))
             path = self.astar(net, tree, set(net.terms[nxt]), present)
             if path is None:
-                net.failed = True
+                net.failed = net.dead = True
                 return
             self.add_path(net, path)
             tree.update(path)
@@ -360,7 +367,7 @@ class _Router:
                 continue
             path = self.astar(net, set(terms), None, present)
             if path is None:
-                net.failed = True
+                net.failed = net.dead = True
                 return
             self.add_path(net, path)
             net.vias.append(path[-1] % (net.grid.nx * net.grid.ny))

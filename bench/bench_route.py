@@ -1,0 +1,147 @@
+"""Routing benchmark: the demo and a generated 60-part board, routed inside a whole run.
+
+Run from the repository root::
+
+    .venv/bin/python bench/bench_route.py
+
+For each board it runs the whole pipeline twice (``--no-route`` and
+routed) and prints side by side: the time of the rest of the run, the
+routing time (the difference) and their ratio, the routing verdict, the
+spreading the router needed (mm added around each courtyard), vias, track
+length, the RUDY demand peak, and the courtyard area placed on the routed
+board as a share of the board.
+
+The 60-part board (issue 9's example, generated here): a quad op-amp
+(SOIC-14), a quad comparator (TSSOP-14), four SOT-23 transistors, 0402
+and 0603 passives, a six-pin header and four wire pads; four channels of
+input filter, inverting amplifier, comparator with threshold divider and
+pull-up, transistor driver; 60 parts, 148 pins, 35 nets.
+
+Targets (issue 9): the demo routed with no via in a pad, routing under 5 x
+the rest of its run; the 60-part board routed.
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import ezdxf
+
+ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(ROOT))
+
+from pipeline.project import load_project, run  # noqa: E402
+
+
+def _sixty_part_design() -> str:
+    parts: dict[str, tuple[str, str, str]] = {"U1": ("opamp-quad", "SOIC-14", ""),
+                                              "U2": ("comparator-quad", "TSSOP-14", ""),
+                                              "J1": ("header", "header-1x6", "")}
+    nets: dict[str, list[str]] = {"VCC": ["U1.4", "U2.3", "J1.1"], "GND": ["U1.11", "U2.12", "J1.2"], "VREF": []}
+
+    def two(ref, kind, package, value, a, b):
+        parts[ref] = (kind, package, value)
+        nets.setdefault(a, []).append(f"{ref}.1")
+        nets.setdefault(b, []).append(f"{ref}.2")
+
+    amp = [("2", "3", "1"), ("6", "5", "7"), ("9", "10", "8"), ("13", "12", "14")]       # -IN, +IN, OUT
+    cmp_ = [("4", "5", "2"), ("6", "7", "1"), ("8", "9", "14"), ("10", "11", "13")]      # -IN, +IN, OUT
+    for i in range(4):
+        n = i + 1
+        neg, pos, out = amp[i]
+        cneg, cpos, cout = cmp_[i]
+        parts[f"P{n}"] = ("wire-pad", "pad-1.5mm", "")
+        nets[f"IN{n}"] = [f"P{n}.1"]
+        nets[f"NINV{n}"] = [f"U1.{neg}"]
+        nets["VREF"].append(f"U1.{pos}")
+        nets[f"AOUT{n}"] = [f"U1.{out}"]
+        nets[f"CIN{n}"] = [f"U2.{cpos}"]
+        nets[f"TH{n}"] = [f"U2.{cneg}"]
+        nets[f"COUT{n}"] = [f"U2.{cout}"]
+        two(f"C{n}", "capacitor", "0603", "1n", f"IN{n}", "GND")
+        two(f"R{n}", "resistor", "0402", "10k", f"IN{n}", f"NINV{n}")
+        two(f"R{n + 10}", "resistor", "0402", "100k", f"NINV{n}", f"AOUT{n}")
+        two(f"C{n + 10}", "capacitor", "0402", "100p", f"NINV{n}", f"AOUT{n}")
+        two(f"R{n + 20}", "resistor", "0402", "1k", f"AOUT{n}", f"CIN{n}")
+        two(f"R{n + 30}", "resistor", "0603", "10k", "VCC", f"TH{n}")
+        two(f"R{n + 40}", "resistor", "0603", "10k", f"TH{n}", "GND")
+        two(f"R{n + 50}", "resistor", "0402", "10k", "VCC", f"COUT{n}")
+        two(f"R{n + 60}", "resistor", "0402", "4k7", f"COUT{n}", f"BASE{n}")
+        two(f"R{n + 70}", "resistor", "0603", "1k", "VCC", f"COLL{n}")
+        parts[f"Q{n}"] = ("npn", "SOT-23", "")
+        nets[f"BASE{n}"].append(f"Q{n}.1")
+        nets["GND"].append(f"Q{n}.2")
+        nets[f"COLL{n}"].append(f"Q{n}.3")
+        nets[f"COLL{n}"].append(f"J1.{n + 2}")
+        if n < 4:
+            two(f"R{n + 80}", "resistor", "0402", "1M", f"COUT{n}", f"CIN{n}")
+    two("R91", "resistor", "0603", "10k", "VCC", "VREF")
+    two("R92", "resistor", "0603", "10k", "VREF", "GND")
+    two("C91", "capacitor", "0603", "100n", "VREF", "GND")
+    two("C92", "capacitor", "0603", "100n", "VCC", "GND")
+    two("C93", "capacitor", "0603", "100n", "VCC", "GND")
+    two("C94", "capacitor", "0603", "1u", "VCC", "GND")
+    assert len(parts) == 60, len(parts)
+    lines = ['[design]\nname = "sixty"\nrevision = "A"\n']
+    for ref, (kind, package, value) in parts.items():
+        lines.append(f'[parts.{ref}]\nkind = "{kind}"\npackage = "{package}"\n' + (f'value = "{value}"\n' if value else ""))
+    lines.append("[nets]")
+    lines += [f'{name} = [{", ".join(repr(p).replace(chr(39), chr(34)) for p in pins)}]' for name, pins in nets.items()]
+    return "\n".join(lines) + "\n"
+
+
+def _rect_cavity(path: Path, w: float, h: float) -> None:
+    doc = ezdxf.new("R2010", units=ezdxf.units.MM)
+    doc.layers.add("CAVITY")
+    doc.modelspace().add_lwpolyline([(0, 0), (w, 0), (w, h), (0, h)], close=True, dxfattribs={"layer": "CAVITY"})
+    doc.saveas(path)
+
+
+def _project(base: Path) -> Path:
+    proj = base / "sixty"
+    proj.mkdir()
+    (proj / "design.toml").write_text(_sixty_part_design())
+    _rect_cavity(proj / "bay.dxf", 40.0, 30.0)
+    (proj / "project.toml").write_text('[project]\nname = "sixty"\ndesign = "design.toml"\ncavity = "bay.dxf"\n'
+                                       '[board]\nlayers = 2\n[cavity]\ndepth_mm = 10.0\n')
+    return proj
+
+
+def measure(name: str, folder: Path, out: Path) -> dict:
+    t0 = time.perf_counter()
+    run(load_project(folder, out=str(out / "plain")), route=False)
+    rest = time.perf_counter() - t0
+    t0 = time.perf_counter()
+    res = run(load_project(folder, out=str(out / "routed")))
+    total = time.perf_counter() - t0
+    fit = json.loads((out / "routed" / "fit.json").read_text())
+    r = fit["routing"]
+    board = fit.get("board_area_mm2") or 0.0
+    return {"board": name, "parts": len(fit["placements"]), "rest_s": rest, "route_s": max(total - rest, 0.0),
+            "verdict": r["verdict"], "spread_mm": r["spread_mm"], "vias": r["vias"],
+            "wirelength_mm": r["wirelength_mm"], "demand_peak": r["demand_peak_ratio"],
+            "courtyard_share": fit["courtyard_area_mm2"] / board if board else float("nan"),
+            "exit": res.exit_status}
+
+
+def main() -> None:
+    rows = []
+    with tempfile.TemporaryDirectory() as tmp:
+        base = Path(tmp)
+        rows.append(measure("demo", ROOT / "demo_project", base / "demo"))
+        rows.append(measure("60 parts", _project(base), base / "sixty-out"))
+    head = ("board", "parts", "rest s", "route s", "route/rest", "verdict", "spread mm", "vias", "track mm",
+            "RUDY peak", "courtyards/board")
+    print(" | ".join(head))
+    for r in rows:
+        print(" | ".join([r["board"], str(r["parts"]), f"{r['rest_s']:.1f}", f"{r['route_s']:.1f}",
+                          f"{r['route_s'] / r['rest_s']:.2f}", r["verdict"], f"{r['spread_mm']:g}", str(r["vias"]),
+                          f"{r['wirelength_mm']:.0f}", f"{r['demand_peak']:.2f}", f"{r['courtyard_share']:.2f}"]))
+
+
+if __name__ == "__main__":
+    main()
