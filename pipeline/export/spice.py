@@ -82,7 +82,7 @@ from decimal import Decimal
 from typing import Any, Iterable
 
 from ..blocktables import RECORD
-from ..graph import SPICE_GROUND_NET, SPICE_GROUND_NODES
+from ..graph import SPICE_GROUND_NET, SPICE_GROUND_NODES, pin_net_map
 from ..model import Design, Part, PinDef
 from ..values import EXPONENT_PREFIX
 
@@ -380,10 +380,7 @@ def spice_netlist(design: Design) -> bytes:
     ['Divider', 'R1 IN 0 4.7k']
     """
     nodes = _node_names(design)
-    pin_net: dict[tuple[str, str], str] = {}
-    for net in design.nets:
-        for pr in net.pins:
-            pin_net.setdefault((pr.ref, pr.pin), net.name)
+    pin_net = {(pr.ref, pr.pin): nets[0].name for pr, nets in pin_net_map(design).items()}  # first net wins
     deck = _Deck(design, nodes, pin_net, elements=_Names(reserved=[f"Vsupply_{nodes[n.name]}" for n in design.nets]),
                  node_pool=_Names(reserved=[*nodes.values(), *SPICE_GROUND_NODES]),
                  categories={k.name: k.category for k in design.kinds}, voltages={})
