@@ -251,53 +251,65 @@ def parse_value(text: str, unit: str = "") -> float:
     pipeline.errors.ValueTextError: '4x7' is not a value: expected a number with an optional SI prefix or RKM code such as 4k7, 4.7k, 100n or 2u2
     """
     unit = _canon_unit(unit)
-    if isinstance(text, bool):
+    if isinstance(text, bool) or not isinstance(text, (str, int, float)):
         raise ValueTextError(f"{text!r} is not a value: {_HELP}")
     if isinstance(text, (int, float)):
-        v = float(text)
-        if not math.isfinite(v):
-            raise ValueTextError(f"{text!r} is not a finite number")
-        if v < 0:
-            raise ValueTextError(f"{text!r} is negative: component values are zero or positive")
-        return v
-    if not isinstance(text, str):
-        raise ValueTextError(f"{text!r} is not a value: {_HELP}")
-    original = text
+        return _plain_number(text)
     s = _normalise(text)
+    _refuse_written_forms(s, text)
+    m = _RKM.match(s)
+    if m and (m.group("int") or m.group("frac")):
+        return _rkm_value(m, s, unit, text)
+    return _engineering_value(s, unit, text)
+
+
+def _plain_number(v: int | float) -> float:
+    """A TOML number as a value: finite and not negative."""
+    if not math.isfinite(v):
+        raise ValueTextError(f"{v!r} is not a finite number")
+    if v < 0:
+        raise ValueTextError(f"{v!r} is negative: component values are zero or positive")
+    return float(v)
+
+
+def _refuse_written_forms(s: str, original: str) -> None:
+    """Empty text, a sign, NaN or infinity, a decimal comma: each refused with its own reason."""
     if not s:
         raise ValueTextError(f"empty value: {_HELP}")
     if s[0] == "-":
         raise ValueTextError(f"{original!r} is negative: component values are zero or positive")
     if s[0] == "+":
         raise ValueTextError(f"{original!r} has a sign: write the value without one")
-    low = s.lower()
-    if low.lstrip("+-") in ("nan", "inf", "infinity"):
+    if s.lower().lstrip("+-") in ("nan", "inf", "infinity"):
         raise ValueTextError(f"{original!r} is not a finite number")
     if "," in s:
         raise ValueTextError(
             f"{original!r} uses a comma: write the decimal point as '.' (4.7k) or use RKM code (4k7)"
         )
 
-    # RKM code: digits, one letter in place of the decimal point, digits.
-    m = _RKM.match(s)
-    if m and (m.group("int") or m.group("frac")):
-        letter = m.group("letter")
-        rest = s[m.end():]
-        if letter in "Rr":
-            if unit in ("F", "H"):
-                extra = " (on inductors 4R7 often means 4.7 uH: write 4u7 or 4.7u)" if unit == "H" else ""
-                raise ValueTextError(
-                    f"{original!r} uses R, the RKM code for ohm, but a value in {_UNIT_WORD[unit]} "
-                    f"was expected{extra}"
-                )
-            exp = 0
-        else:
-            exp = _PREFIX_EXP[letter]
-        if rest.strip() in ("R", "r"):
-            raise ValueTextError(f"{original!r} ends in R after an RKM code: write {s[: m.end()]!r} alone")
-        _match_unit(rest, unit, original, prefixed=True)
-        return _to_float(m.group("int"), m.group("frac"), exp, original)
 
+def _rkm_value(m: re.Match, s: str, unit: str, original: str) -> float:
+    """RKM code (IEC 60062): digits, one letter in place of the decimal point, digits."""
+    letter = m.group("letter")
+    rest = s[m.end():]
+    if letter in "Rr":
+        if unit in ("F", "H"):
+            extra = " (on inductors 4R7 often means 4.7 uH: write 4u7 or 4.7u)" if unit == "H" else ""
+            raise ValueTextError(
+                f"{original!r} uses R, the RKM code for ohm, but a value in {_UNIT_WORD[unit]} "
+                f"was expected{extra}"
+            )
+        exp = 0
+    else:
+        exp = _PREFIX_EXP[letter]
+    if rest.strip() in ("R", "r"):
+        raise ValueTextError(f"{original!r} ends in R after an RKM code: write {s[: m.end()]!r} alone")
+    _match_unit(rest, unit, original, prefixed=True)
+    return _to_float(m.group("int"), m.group("frac"), exp, original)
+
+
+def _engineering_value(s: str, unit: str, original: str) -> float:
+    """A decimal number with an optional exponent or SI prefix (``meg`` for mega), then the unit."""
     m = _NUMBER.match(s)
     if not m or not (m.group("int") or m.group("frac")):
         if s[0] in _PREFIX_HINT:
@@ -318,16 +330,22 @@ def parse_value(text: str, unit: str = "") -> float:
         prefix_exp, rest, prefixed = _PREFIX_EXP[rest[0]], rest[1:], True
     else:
         prefix_exp = 0
-    if prefixed and m.group("exp") is not None:
+    if prefixed:
+        _refuse_mixed_prefix(rest, exp_text, original)
+    _match_unit(rest, unit, original, prefixed=prefixed)
+    return _to_float(m.group("int"), m.group("frac"), exp + prefix_exp, original)
+
+
+def _refuse_mixed_prefix(rest: str, exp_text: str | None, original: str) -> None:
+    """An SI prefix with an exponent, with more digits (4.7k7) or with R (4.7kR) is refused."""
+    if exp_text is not None:
         raise ValueTextError(f"{original!r} has both an exponent and an SI prefix: use one of them")
-    if prefixed and rest[:1].isdigit():
+    if rest[:1].isdigit():
         raise ValueTextError(
             f"{original!r} is not a value: RKM code takes no decimal point (4k7, not 4.7k7); {_HELP}"
         )
-    if prefixed and rest.strip() in ("R", "r"):
+    if rest.strip() in ("R", "r"):
         raise ValueTextError(f"{original!r} mixes an SI prefix with R: write it without the R (4.7k) or as RKM code (4k7)")
-    _match_unit(rest, unit, original, prefixed=prefixed)
-    return _to_float(m.group("int"), m.group("frac"), exp + prefix_exp, original)
 
 
 # --------------------------------------------------------------------------
