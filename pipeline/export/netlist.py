@@ -49,6 +49,11 @@ def netlist_csv(design: Design) -> bytes:
     return csv_bytes(("net", "ref", "pin", "pin_name"), rows)
 
 
+def _natural_sorted(names: list[str]) -> list[str]:
+    """``names`` in natural order; a list of 0 or 1 names as is (sorted() would still key it)."""
+    return sorted(names, key=natural_key) if len(names) > 1 else list(names)
+
+
 def netlist_dict(design: Design) -> dict[str, Any]:
     pin_nets: dict[tuple[str, str], list[str]] = {}
     for n in design.nets:
@@ -65,7 +70,7 @@ def netlist_dict(design: Design) -> dict[str, Any]:
             "dnp": p.dnp,
             "pins": [
                 {"number": d.number, "name": d.name, "role": d.role,
-                 "nets": sorted(pin_nets.get((p.ref, d.number), []), key=natural_key)}
+                 "nets": _natural_sorted(pin_nets.get((p.ref, d.number), []))}
                 for d in p.pins
             ],
         })
