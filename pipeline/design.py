@@ -253,7 +253,8 @@ def _height_notes(parts: tuple[Part, ...], lib: Any) -> list[Finding]:
             and lib.package(p.package).family == "chip"]
     if not refs:
         return []
-    sizes = sorted({p.package for p in parts if p.ref in refs})
+    named = set(refs)  # a set: one hash lookup per part, not a scan of refs
+    sizes = sorted({p.package for p in parts if p.ref in named})
     shown = ", ".join(f"{s} {lib.package(s).height_mm:.2f} mm" for s in sizes)
     return [Finding("info", "design.height-default", tuple(refs),
                     f"{', '.join(refs)}: chip capacitors take the package height ({shown}, a "

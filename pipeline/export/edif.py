@@ -297,10 +297,15 @@ def _one_line(tree: list) -> dict[int, str]:
             stack.append((node, True))
             stack.extend((c, False) for c in node if isinstance(c, list))
             continue
-        parts = [c if isinstance(c, str) else flat[id(c)] for c in node]
-        long = any(not isinstance(c, str) and not flat[id(c)] for c in node)
-        size = 2 + max(len(parts) - 1, 0) + sum(len(x) for x in parts)
-        flat[id(node)] = "" if long or size > _WIDTH else "(" + " ".join(parts) + ")"
+        parts: list[str] = []
+        for c in node:  # one pass; stops at the first long child (then the list is long too)
+            text = c if isinstance(c, str) else flat[id(c)]
+            if not text and not isinstance(c, str):
+                parts = None  # type: ignore[assignment]
+                break
+            parts.append(text)
+        joined = "" if parts is None else " ".join(parts)
+        flat[id(node)] = "" if parts is None or len(joined) + 2 > _WIDTH else "(" + joined + ")"
     return flat
 
 

@@ -50,6 +50,11 @@ def netlist_csv(design: Design) -> bytes:
     return csv_bytes(("net", "ref", "pin", "pin_name"), rows)
 
 
+def _natural_sorted(names: list[str]) -> list[str]:
+    """``names`` in natural order; a list of 0 or 1 names as is (sorted() would still key it)."""
+    return sorted(names, key=natural_key) if len(names) > 1 else list(names)
+
+
 def netlist_dict(design: Design) -> dict[str, Any]:
     pin_nets = pin_net_map(design)
     parts = []
@@ -63,7 +68,7 @@ def netlist_dict(design: Design) -> dict[str, Any]:
             "dnp": p.dnp,
             "pins": [
                 {"number": d.number, "name": d.name, "role": d.role,
-                 "nets": sorted((n.name for n in pin_nets.get(PinRef(p.ref, d.number), [])), key=natural_key)}
+                 "nets": _natural_sorted([n.name for n in pin_nets.get(PinRef(p.ref, d.number), [])])}
                 for d in p.pins
             ],
         })
