@@ -384,13 +384,14 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     sweep_result = None
     extra: dict[str, Any] = {}
     sections = list(block_sections(reports))
-    route_verdict = None
+    route_verdict = routed = None
     if project.cavity_path is not None:
         cavity, region, items, fit, sweep_result, fit_findings = _fit(project, design, lib, sweep, progress)
         findings += fit_findings
         if sweep_result is not None:
             extra["passive_sizes"] = sweep_result.to_dict()
-        fit, route_verdict = _route(project, route, fit, items, region, cavity.board, design, lib, files, progress)
+        fit, route_verdict, routed = _route(project, route, fit, items, region, cavity.board, design, lib, files,
+                                            progress)
         findings += _route_findings(route_verdict)
         extra["routing"] = route_verdict.to_dict()
     else:
@@ -408,7 +409,8 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
         fit_json = results.fit_dict(fit, extra, verdict=verdict)
         files["fit.json"] = results.dump_json(fit_json)
         svg = svg_out.fit_svg(cavity, region, fit, title=design.name, verdict=verdict,
-                              facts=svg_out.part_facts(design, items), pads=_pads(fit, design, lib))
+                              facts=svg_out.part_facts(design, items), pads=_pads(fit, design, lib),
+                              routing=routed.routing if routed else None, demand=routed.demand if routed else None)
         files["fit.svg"] = svg
         if fit.board_outline is not None and not fit.board_outline.is_empty:
             units = cavity_units(cavity) if project.outline_units == "drawing" else (4, 1.0)
@@ -473,7 +475,8 @@ def _route(project: Project, route: bool, fit: FitResult, items: Any, region: An
            lib: Any, files: dict[str, bytes], progress: Progress | None):
     """Route the placed board (issue 9), spreading the parts when it must.
 
-    Returns ``(fit, verdict)``: the fit whose placement was routed. Adds
+    Returns ``(fit, verdict, outcome)``: the fit whose placement was routed
+    and the :class:`pipeline.route.RouteOutcome` (None when skipped). Adds
     routes.json, board-copper.dxf and placement.csv to ``files``.
     """
     from .export.placement import placement_csv
@@ -481,6 +484,7 @@ def _route(project: Project, route: bool, fit: FitResult, items: Any, region: An
     from .export.routes import routes_dxf
     from .route import route_fit, skipped
 
+    out = None
     if not (route and project.copper.route):
         verdict = skipped("routing is switched off (--no-route or [copper] route = false): the verdict is placement only")
     elif not fit.fits or fit.board_outline is None or fit.board_outline.is_empty:
@@ -493,7 +497,7 @@ def _route(project: Project, route: bool, fit: FitResult, items: Any, region: An
         verdict = out.verdict
     if fit.placements:
         files["placement.csv"] = placement_csv(fit.placements)
-    return fit, verdict
+    return fit, verdict, out
 
 
 def _route_findings(v) -> list[Finding]:

@@ -82,6 +82,7 @@ class RouteOutcome:
     board: Any          # pipeline.route.board.RouteBoard
     routing: Any
     document: dict
+    demand: Any = None  # pipeline.route.demand.Demand (the congestion map)
 
 
 def skipped(reason: str) -> RouteVerdict:
@@ -111,7 +112,7 @@ def route_placed(outline, placements, design, library, rules: CopperRules, *, le
     doc["status"] = status
     verdict = RouteVerdict(status, routing.open, demand.peak, demand.p90, len(routing.vias),
                            routing.wirelength_mm, routing.congestion, defects)
-    return RouteOutcome(verdict, board, routing, doc)
+    return RouteOutcome(verdict, board, routing, doc, demand)
 
 
 def route_fit(fit, items, region, options, design, library, rules: CopperRules, *, user_board=None,
