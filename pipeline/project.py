@@ -18,7 +18,8 @@ table      keys (default)
 project    name, design, cavity, parts_map
 board      layers (2), thickness_mm (0.8), sides (1), density ("nominal"),
            edge_clearance_mm (0.5), wall_clearance_mm (0.3),
-           outline ("region" or "rectangle"), min_inside_radius_mm (0.5),
+           outline ("region", "rectangle" or "smallest": the smallest board that
+           places and routes, pipeline.route.smallest), min_inside_radius_mm (0.5),
            outline_units ("mm" or "drawing": board-outline.dxf in the cavity's units)
 cavity     depth_mm (5.0), units ("mm"), layers (role map), chord_tolerance_mm (0.02)
 order      boards (1), spares_percent (0), min_spares (0), multiple (1)
@@ -199,7 +200,7 @@ def load_project(
         density=_text(src, "board.density", bd.get("density", b.density), DENSITY_LEVELS),
         edge_clearance_mm=float(_num(src, "board.edge_clearance_mm", bd.get("edge_clearance_mm", b.edge_clearance_mm), lo=0, hi=50)),
         wall_clearance_mm=float(_num(src, "board.wall_clearance_mm", bd.get("wall_clearance_mm", b.wall_clearance_mm), lo=0, hi=50)),
-        outline=_text(src, "board.outline", bd.get("outline", b.outline), ("region", "rectangle")),
+        outline=_text(src, "board.outline", bd.get("outline", b.outline), ("region", "rectangle", "smallest")),
         min_inside_radius_mm=float(_num(src, "board.min_inside_radius_mm", bd.get("min_inside_radius_mm", b.min_inside_radius_mm), lo=0, hi=50)),
     )
     if not any(abs(board.thickness_mm - t) < 1e-9 for t in STANDARD_THICKNESS):
@@ -492,6 +493,12 @@ def _route(project: Project, route: bool, fit: FitResult, items: Any, region: An
     else:
         fit, out = route_fit(fit, items, region, project.board, design, lib, project.copper, user_board=user_board,
                              progress=progress)
+        if project.board.outline == "smallest":
+            from .route.smallest import smallest_board
+            found = smallest_board(fit, items, region, project.board, design, lib, project.copper, progress=progress)
+            if found is not None:
+                fit, out = found.fit, found.outcome
+                out = dataclasses.replace(out, verdict=dataclasses.replace(out.verdict, smallest=found))
         files["routes.json"] = dump_json(out.document)
         files["board-copper.dxf"] = routes_dxf(out.board, project.copper, out.routing, timestamp=_source_date_epoch())
         verdict = out.verdict

@@ -52,6 +52,7 @@ class RouteVerdict:
     defects: tuple[str, ...] = ()
     reason: str = ""
     spread_mm: float = 0.0
+    smallest: Any = None  # pipeline.route.smallest.Smallest, outline mode "smallest" only
 
     @property
     def open(self) -> tuple[str, ...]:
@@ -71,7 +72,8 @@ class RouteVerdict:
                 "demand_peak_ratio": r(self.demand_peak), "demand_p90_ratio": r(self.demand_p90),
                 "vias": self.vias, "wirelength_mm": r(self.wirelength_mm),
                 "congestion_at": [[r(x), r(y)] for x, y in self.congestion],
-                "defects": list(self.defects), "reason": self.reason, "spread_mm": r(self.spread_mm)}
+                "defects": list(self.defects), "reason": self.reason, "spread_mm": r(self.spread_mm),
+                **({"smallest_board": self.smallest.to_dict()} if self.smallest is not None else {})}
 
 
 @dataclass(frozen=True)
