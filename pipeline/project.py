@@ -175,21 +175,20 @@ def load_project(
     def rel(key: str, value: Any) -> Path:
         return (root / _text(src, key, value, path=True)).resolve()
 
-    if design is not None:
-        design_path, design_shown = Path(design).resolve(), design
-    elif "design" in pj:
-        design_path = rel("project.design", pj["design"])
-        design_shown = _shown(design_path, root.resolve())
-    else:
+    def given(typed: str | None, key: str) -> tuple[Path | None, str]:
+        """An input file and its shown name: the command line's, else [project] KEY's, else (None, "")."""
+        if typed is not None:
+            return Path(typed).resolve(), typed
+        if key not in pj:
+            return None, ""
+        path = rel(f"project.{key}", pj[key])
+        return path, _shown(path, root.resolve())
+
+    design_path, design_shown = given(design, "design")
+    if design_path is None:
         raise src.error("project.design", "no design: set [project] design = \"design.toml\" or pass --design",
                         ProjectError)
-    if cavity is not None:
-        cavity_path, cavity_shown = Path(cavity).resolve(), cavity
-    elif "cavity" in pj:
-        cavity_path = rel("project.cavity", pj["cavity"])
-        cavity_shown = _shown(cavity_path, root.resolve())
-    else:
-        cavity_path, cavity_shown = None, ""
+    cavity_path, cavity_shown = given(cavity, "cavity")
     parts_map = rel("project.parts_map", pj["parts_map"]) if "parts_map" in pj else None
 
     b = BoardOptions()
