@@ -194,6 +194,11 @@ def run_cmd(ctx: click.Context, project_dir: str, design: str | None, cavity: st
                    f"(expected {f.estimate.expected_mm2:.0f})", err=err)
     if result.routing is not None:
         _say(f"routing: {result.routing.label}", err=err)
+        small = getattr(result.routing, "smallest", None)
+        if small is not None and result.fit is not None:
+            est = result.fit.estimate.expected_mm2 / result.fit.courtyard_area_mm2
+            _say(f"smallest board: {small.area_mm2:.0f} mm2 = {small.ratio:.2f} x the courtyard sum "
+                 f"(routed, at {small.angle_deg:g} deg); rule of thumb {est:.2f} x", err=err)
     _say(f"{result.design.name}: {_counts(result.findings)}; wrote {len(result.written)} files to "
                f"{_where(project.out_dir)}", err=err)
     _echo_verdict(result.verdict, err)

@@ -18,7 +18,8 @@ table      keys (default)
 project    name, design, cavity, parts_map
 board      layers (2), thickness_mm (0.8), sides (1), density ("nominal"),
            edge_clearance_mm (0.5), wall_clearance_mm (0.3),
-           outline ("region" or "rectangle"), min_inside_radius_mm (0.5),
+           outline ("region", "rectangle" or "smallest": the smallest board that
+           places and routes, pipeline.route.smallest), min_inside_radius_mm (0.5),
            outline_units ("mm" or "drawing": board-outline.dxf in the cavity's units)
 cavity     depth_mm (5.0), units ("mm"), layers (role map), chord_tolerance_mm (0.02)
 order      boards (1), spares_percent (0), min_spares (0), multiple (1)
@@ -242,7 +243,7 @@ def _read_board(src: TomlSource, bd: dict) -> tuple[BoardOptions, list[Finding]]
         density=_text(src, "board.density", bd.get("density", b.density), DENSITY_LEVELS),
         edge_clearance_mm=mm("edge_clearance_mm", b.edge_clearance_mm, lo=0, hi=50),
         wall_clearance_mm=mm("wall_clearance_mm", b.wall_clearance_mm, lo=0, hi=50),
-        outline=_text(src, "board.outline", bd.get("outline", b.outline), ("region", "rectangle")),
+        outline=_text(src, "board.outline", bd.get("outline", b.outline), ("region", "rectangle", "smallest")),
         min_inside_radius_mm=mm("min_inside_radius_mm", b.min_inside_radius_mm, lo=0, hi=50),
     )
     warnings = []
@@ -400,13 +401,14 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     sweep_result = None
     extra: dict[str, Any] = {}
     sections = list(block_sections(reports))
-    route_verdict = None
+    route_verdict = routed = None
     if project.cavity_path is not None:
         cavity, region, items, fit, sweep_result, fit_findings = _fit(project, design, lib, sweep, progress)
         findings += fit_findings
         if sweep_result is not None:
             extra["passive_sizes"] = sweep_result.to_dict()
-        fit, route_verdict = _route(project, route, fit, items, region, cavity.board, design, lib, files, progress)
+        fit, route_verdict, routed = _route(project, route, fit, items, region, cavity.board, design, lib, files,
+                                            progress)
         findings += _route_findings(route_verdict)
         extra["routing"] = route_verdict.to_dict()
     else:
@@ -424,7 +426,8 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
         fit_json = results.fit_dict(fit, extra, verdict=verdict)
         files["fit.json"] = results.dump_json(fit_json)
         svg = svg_out.fit_svg(cavity, region, fit, title=design.name, verdict=verdict,
-                              facts=svg_out.part_facts(design, items), pads=_pads(fit, design, lib))
+                              facts=svg_out.part_facts(design, items), pads=_pads(fit, design, lib),
+                              routing=routed.routing if routed else None, demand=routed.demand if routed else None)
         files["fit.svg"] = svg
         if fit.board_outline is not None and not fit.board_outline.is_empty:
             units = cavity_units(cavity) if project.outline_units == "drawing" else (4, 1.0)
@@ -489,7 +492,8 @@ def _route(project: Project, route: bool, fit: FitResult, items: Any, region: An
            lib: Any, files: dict[str, bytes], progress: Progress | None):
     """Route the placed board (issue 9), spreading the parts when it must.
 
-    Returns ``(fit, verdict)``: the fit whose placement was routed. Adds
+    Returns ``(fit, verdict, outcome)``: the fit whose placement was routed
+    and the :class:`pipeline.route.RouteOutcome` (None when skipped). Adds
     routes.json, board-copper.dxf and placement.csv to ``files``.
     """
     from .export.placement import placement_csv
@@ -497,6 +501,7 @@ def _route(project: Project, route: bool, fit: FitResult, items: Any, region: An
     from .export.routes import routes_dxf
     from .route import route_fit, skipped
 
+    out = None
     if not (route and project.copper.route):
         verdict = skipped("routing is switched off (--no-route or [copper] route = false): the verdict is placement only")
     elif not fit.fits or fit.board_outline is None or fit.board_outline.is_empty:
@@ -504,12 +509,18 @@ def _route(project: Project, route: bool, fit: FitResult, items: Any, region: An
     else:
         fit, out = route_fit(fit, items, region, project.board, design, lib, project.copper, user_board=user_board,
                              progress=progress)
+        if project.board.outline == "smallest":
+            from .route.smallest import smallest_board
+            found = smallest_board(fit, items, region, project.board, design, lib, project.copper, progress=progress)
+            if found is not None:
+                fit, out = found.fit, found.outcome
+                out = dataclasses.replace(out, verdict=dataclasses.replace(out.verdict, smallest=found))
         files["routes.json"] = dump_json(out.document)
         files["board-copper.dxf"] = routes_dxf(out.board, project.copper, out.routing, timestamp=_source_date_epoch())
         verdict = out.verdict
     if fit.placements:
         files["placement.csv"] = placement_csv(fit.placements)
-    return fit, verdict
+    return fit, verdict, out
 
 
 def _route_findings(v) -> list[Finding]:

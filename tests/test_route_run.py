@@ -106,3 +106,21 @@ def test_project_key_switches_routing_off(tmp_path):
     out = json.loads(r.stdout)
     assert out["fit"]["routing"]["status"] == "skipped"
     assert r.exit_code == (0 if out["fit"]["fits"] else 1)
+
+
+def test_demo_picture_and_report_show_the_copper(demo):
+    import re
+    import xml.etree.ElementTree as ET
+    out = demo[1]
+    routes = json.loads((out / "routes.json").read_text())
+    root = ET.parse(out / "fit.svg").getroot()
+    ns = "{http://www.w3.org/2000/svg}"
+    for layer in routes["layers"]:
+        group = root.find(f".//{ns}g[@data-layer-name='{layer}']")
+        assert len(group.findall(f"{ns}polyline")) == sum(t["layer"] == layer for t in routes["tracks"])
+    assert len(root.findall(f".//{ns}g[@class='via']")) == len(routes["vias"]) > 0
+    assert root.find(f".//{ns}g[@class='congestion']").get("display") == "none"
+    html = (out / "report.html").read_text()
+    assert html.count('class="track"') == len(routes["tracks"])
+    assert re.search(r'data-layer="copper" checked', html)
+    assert re.search(r'data-layer="congestion">', html)           # the congestion map starts switched off

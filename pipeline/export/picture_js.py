@@ -13,8 +13,9 @@ What the script reads from the picture (:mod:`pipeline.export.svg` writes it):
   too: the page's style sheet strokes them in the highlight colour), lights
   up when that net is picked;
 * the layer groups ``.depth-zones`` / ``.cavity-floor``, ``.keepouts``,
-  ``.placements`` and ``.labels``, hidden by a ``hide-<layer>`` class on
-  the svg element.
+  ``.placements``, ``.copper`` and ``.labels``, hidden by a
+  ``hide-<layer>`` class on the svg element; ``.congestion`` is drawn with
+  ``display="none"`` and shown by a ``show-congestion`` class.
 
 User text reaches the page only through ``textContent`` (never parsed as
 markup). Without scripts the controls stay hidden and the picture is the
@@ -25,9 +26,10 @@ from __future__ import annotations
 
 __all__ = ["SCRIPT", "LAYERS"]
 
-#: (layer key, label) of the switches; the key names the ``hide-<key>`` class.
-LAYERS = (("zones", "Depth zones"), ("keepouts", "Keep-outs"), ("courtyards", "Courtyards"),
-          ("labels", "Labels"))
+#: (layer key, label, on at first) of the switches; the key names the
+#: ``hide-<key>`` class (set when off) and the ``show-<key>`` class (set when on).
+LAYERS = (("zones", "Depth zones", True), ("keepouts", "Keep-outs", True), ("courtyards", "Courtyards", True),
+          ("copper", "Copper", True), ("congestion", "Congestion map", False), ("labels", "Labels", True))
 
 SCRIPT = r"""
 (function () {
@@ -43,6 +45,7 @@ SCRIPT = r"""
   Array.prototype.forEach.call(controls.querySelectorAll("input[data-layer]"), function (box) {
     box.addEventListener("change", function () {
       svg.classList.toggle("hide-" + box.getAttribute("data-layer"), !box.checked);
+      svg.classList.toggle("show-" + box.getAttribute("data-layer"), box.checked);
     });
   });
 

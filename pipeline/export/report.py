@@ -91,11 +91,16 @@ figure svg { touch-action: none; }
 table.order { font-size: .85rem; }
 table.order td:nth-child(3) { white-space: nowrap; }
 svg.hide-zones .depth-zones, svg.hide-zones .cavity-floor, svg.hide-keepouts .keepouts,
-svg.hide-courtyards .placements, svg.hide-courtyards .pads, svg.hide-labels .labels { display: none; }
+svg.hide-courtyards .placements, svg.hide-courtyards .pads, svg.hide-labels .labels,
+svg.hide-copper .copper { display: none; }
+svg.show-congestion .congestion { display: inline; }
 svg .net-hit path, svg path.pad.net-hit { fill: #f2c200; fill-opacity: .9; stroke: #6b5200; }
 svg path.pad.net-hit { stroke-width: .08; }
 svg .net-hit[data-net]:not(.pad) { stroke: #f2c200; }
 svg.net-active .part:not(.net-hit), svg.net-active .pad:not(.net-hit) { opacity: .35; }
+svg path.area.net-hit { fill: #f2c200; stroke: none; }
+svg g.via.net-hit circle:first-child { fill: #f2c200; }
+svg.net-active .copper [data-net]:not(.net-hit) { opacity: .35; }
 table { border-collapse: collapse; width: 100%; font-size: .92rem; margin: .3rem 0 .8rem; }
 th, td { text-align: left; padding: .3rem .55rem; border-bottom: 1px solid var(--rule); vertical-align: top; }
 th { background: var(--band); font-weight: 600; }
@@ -244,8 +249,8 @@ def _csp(script: str) -> str:
 
 def _picture(fit_svg: bytes) -> str:
     """The picture, with the controls the script shows (hidden when scripts are blocked)."""
-    layers = "".join(f'<label><input type="checkbox" data-layer="{k}" checked> {t}</label>'
-                     for k, t in _LAYERS)
+    layers = "".join(f'<label><input type="checkbox" data-layer="{k}"{" checked" if on else ""}> {t}</label>'
+                     for k, t, on in _LAYERS)
     return (
         '<section id="picture"><h2>Picture</h2>'
         f'<div id="picture-controls" class="controls" hidden><span class="group">{layers}</span>'

@@ -107,7 +107,7 @@ _HATCH_ID = "snug-fit-hatch"
 
 def fit_svg(cavity: Cavity, region: Region, fit: FitResult, *, title: str = "",
             verdict: Verdict | None = None, facts: Mapping[str, PartFacts] | None = None,
-            pads: Sequence = ()) -> bytes:
+            pads: Sequence = (), routing=None, demand=None) -> bytes:
     """Draw cavity, region, board and placed parts as a standalone SVG 1.1 picture.
 
     Parameters
@@ -134,6 +134,14 @@ def fit_svg(cavity: Cavity, region: Region, fit: FitResult, *, title: str = "",
         (or None) and ``polygon`` in mm (:class:`pipeline.route.board.RoutePad`);
         drawn in copper colour, each with ``data-net`` so that a picked net
         lights its pins.
+    routing : Routing, optional
+        The routing result (:class:`pipeline.route.router.Routing`): its
+        tracks, vias, copper areas and open nets are drawn per layer
+        (:mod:`pipeline.export.copper_svg`), each with ``data-net``.
+    demand : Demand, optional
+        RUDY routing demand (:class:`pipeline.route.demand.Demand`), drawn
+        as a congestion shading hidden by default (the report's switch
+        shows it).
 
     Returns
     -------
@@ -175,7 +183,7 @@ def fit_svg(cavity: Cavity, region: Region, fit: FitResult, *, title: str = "",
     top = -maxy - (_MARGIN + head_h) * u
     legend_x = maxx + _GAP * u
     legend_lines = _legend(depths, colour_of, float(region.thickness_mm), placements, skipped, unplaced, s,
-                           bool(pads))
+                           bool(pads), routing)
     bottom = max(-miny + (_MARGIN + _FOOT_H) * u,
                  top + (head_h + 2 * _MARGIN + _legend_height(legend_lines)) * u)
     right = max(legend_x + (_LEGEND_W + _MARGIN) * u, left + (2 * _MARGIN + _header_width(head)) * u)
@@ -183,12 +191,18 @@ def fit_svg(cavity: Cavity, region: Region, fit: FitResult, *, title: str = "",
 
     out: list[str] = [*_prologue(frame, s, head[0][0], u)]
     out += _ground(cavity, region, board, colour_of, u)
+    if demand is not None:
+        from .copper_svg import congestion_svg
+        out.append(congestion_svg(demand, u))
     if placements:  # courtyards: bottom side first (under the board), then top side
         out.append('<g class="placements">')
         out += [_part(pl, (facts or {}).get(pl.ref), u) for pl in placements]
         out.append("</g>")
     if pads:
         out.append(_pads_svg(pads, u))
+    if routing is not None:
+        from .copper_svg import copper_svg
+        out += copper_svg(routing, u)
     out.append(_labels_svg(labels, u))
     out.append(_scale_bar(minx, -miny + (_MARGIN - 1.0) * u, nice_length(w / 4.0), u))
     out.append(_origin(minx, miny, maxx, maxy, u))
@@ -722,7 +736,8 @@ def _wrap(words: Sequence[str], width: int) -> list[str]:
     return lines
 
 
-def _legend(depths, colour_of, thickness, placements, skipped, unplaced, s, pads: bool = False) -> list[tuple]:
+def _legend(depths, colour_of, thickness, placements, skipped, unplaced, s, pads: bool = False,
+            routing=None) -> list[tuple]:
     rows: list[tuple] = [("head", "Legend", None)]
     rows.append(("cavity", "cavity outline", None))
     for d in depths:  # shallowest (darkest) first
@@ -737,6 +752,8 @@ def _legend(depths, colour_of, thickness, placements, skipped, unplaced, s, pads
         rows.append(("bottom", "part courtyard, bottom side", None))
     if pads:
         rows.append(("pad", "copper pad", None))
+    if routing is not None:
+        rows += _copper_legend(routing)
     rows.append(("text", f"Scale {_scale_text(s)} when printed at 100 %", None))
     if unplaced:
         rows.append(("head-red", f"Not placed ({len(unplaced)})", None))
@@ -744,6 +761,18 @@ def _legend(depths, colour_of, thickness, placements, skipped, unplaced, s, pads
     if skipped:
         rows.append(("head", f"Not labelled, no room ({len(skipped)})", None))
         rows.extend(("text", line, None) for line in _wrap_capped(skipped, 34, _MAX_LIST_LINES // 2))
+    return rows
+
+
+def _copper_legend(routing) -> list[tuple]:
+    from .copper_svg import layer_colour
+
+    layers = list(routing.rules.layer_names)
+    rows: list[tuple] = [("track", f"track, {n} layer", layer_colour(layers, n)) for n in layers]
+    if routing.vias:
+        rows.append(("via", "via", None))
+    if routing.open:
+        rows.append(("open", f"open connection ({len(routing.open)} nets)", None))
     return rows
 
 
@@ -785,12 +814,28 @@ def _swatch(kind: str, extra, x: float, y: float, u: float) -> str:
         )
     if kind == "pad":
         return f'<rect {box} fill="{_COPPER}" stroke="none"/>'
+    if kind in ("track", "via", "open"):
+        return _copper_swatch(kind, extra, x, y, w, h, u)
     if kind == "bottom":
         return (
             f'<rect {box} fill="{_BOTTOM}" fill-opacity="0.10" stroke="{_BOTTOM}" '
             f'stroke-width="{_f(_W_LINE * u)}" stroke-dasharray="{_f(1.2 * u)} {_f(0.7 * u)}"/>'
         )
     return ""
+
+
+def _copper_swatch(kind: str, colour, x: float, y: float, w: float, h: float, u: float) -> str:
+    from .copper_svg import OPEN_COLOUR, VIA_COLOUR
+
+    mid = _f(y + h / 2)
+    if kind == "track":
+        return (f'<line x1="{_f(x + h / 4)}" y1="{mid}" x2="{_f(x + w - h / 4)}" y2="{mid}" stroke="{colour}" '
+                f'stroke-width="{_f(h / 2)}" stroke-linecap="round"/>')
+    if kind == "via":
+        return (f'<circle cx="{_f(x + w / 2)}" cy="{mid}" r="{_f(h / 2)}" fill="{VIA_COLOUR}"/>'
+                f'<circle cx="{_f(x + w / 2)}" cy="{mid}" r="{_f(h / 4)}" fill="{_PAPER}"/>')
+    return (f'<line x1="{_f(x)}" y1="{mid}" x2="{_f(x + w)}" y2="{mid}" stroke="{OPEN_COLOUR}" '
+            f'stroke-width="{_f(0.3 * u)}" stroke-dasharray="{_f(1.0 * u)} {_f(0.6 * u)}"/>')
 
 
 def _legend_svg(rows: Sequence[tuple], x: float, y: float, u: float) -> str:

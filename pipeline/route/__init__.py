@@ -52,6 +52,7 @@ class RouteVerdict:
     defects: tuple[str, ...] = ()
     reason: str = ""
     spread_mm: float = 0.0
+    smallest: Any = None  # pipeline.route.smallest.Smallest, outline mode "smallest" only
 
     @property
     def open(self) -> tuple[str, ...]:
@@ -71,7 +72,8 @@ class RouteVerdict:
                 "demand_peak_ratio": r(self.demand_peak), "demand_p90_ratio": r(self.demand_p90),
                 "vias": self.vias, "wirelength_mm": r(self.wirelength_mm),
                 "congestion_at": [[r(x), r(y)] for x, y in self.congestion],
-                "defects": list(self.defects), "reason": self.reason, "spread_mm": r(self.spread_mm)}
+                "defects": list(self.defects), "reason": self.reason, "spread_mm": r(self.spread_mm),
+                **({"smallest_board": self.smallest.to_dict()} if self.smallest is not None else {})}
 
 
 @dataclass(frozen=True)
@@ -82,6 +84,7 @@ class RouteOutcome:
     board: Any          # pipeline.route.board.RouteBoard
     routing: Any
     document: dict
+    demand: Any = None  # pipeline.route.demand.Demand (the congestion map)
 
 
 def skipped(reason: str) -> RouteVerdict:
@@ -111,7 +114,7 @@ def route_placed(outline, placements, design, library, rules: CopperRules, *, le
     doc["status"] = status
     verdict = RouteVerdict(status, routing.open, demand.peak, demand.p90, len(routing.vias),
                            routing.wirelength_mm, routing.congestion, defects)
-    return RouteOutcome(verdict, board, routing, doc)
+    return RouteOutcome(verdict, board, routing, doc, demand)
 
 
 def route_fit(fit, items, region, options, design, library, rules: CopperRules, *, user_board=None,

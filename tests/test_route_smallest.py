@@ -1,0 +1,51 @@
+"""Outline mode "smallest": the board found places and routes (independent check clean); one step smaller does not."""
+
+import json
+
+from pipeline.copper import check_copper
+from pipeline.route import smallest as smallest_mod
+from test_contract import _resistors, invoke, make_project, rect_cavity
+
+
+def test_smallest_board_routes_and_one_step_smaller_does_not(tmp_path, monkeypatch):
+    seen = {}
+    original = smallest_mod.smallest_board
+
+    def spy(fit, items, region, options, design, library, rules, **kw):
+        seen["args"] = (fit, items, region, options, design, library, rules)
+        seen["found"] = original(fit, items, region, options, design, library, rules, **kw)
+        return seen["found"]
+
+    monkeypatch.setattr(smallest_mod, "smallest_board", spy)
+    proj = make_project(tmp_path / "p", design=_resistors(4), cavity=rect_cavity(tmp_path / "c.dxf", 20.0, 14.0),
+                        tables={"board": {"outline": "smallest"}})
+    r = invoke("run", proj)
+    assert r.exit_code == 0, r.output
+    fit = json.loads((proj / "out" / "fit.json").read_text())
+    small = fit["routing"]["smallest_board"]
+    routes = json.loads((proj / "out" / "routes.json").read_text())
+    assert routes["status"] == "routed" and check_copper(routes).clean       # the independent check
+    assert small["ratio_to_courtyards"] >= 1.0                                # nothing under the courtyard sum
+    assert small["ratio_to_courtyards"] * fit["courtyard_area_mm2"] < fit["region_area_mm2"]
+    assert f"smallest board: {small['area_mm2']:.0f} mm2" in r.output and "rule of thumb" in r.output
+    # the board written is the one found
+    found = seen["found"]
+    assert abs(found.board.area - small["area_mm2"]) < 1e-3
+    # one bisection step smaller: below the courtyard sum, or it does not place and route
+    from pipeline.place import place_and_fit
+    from pipeline.route import ROUTED, route_fit
+    fit0, items, region, options, design, library, rules = seen["args"]
+    smaller = smallest_mod.cut(region.board_region, found.angle_deg, found.failed_shrink)
+    assert smaller.area < found.board.area
+    if smaller.area >= fit0.courtyard_area_mm2:
+        f = place_and_fit(items, region, options, user_board=smaller)
+        if f.fits:
+            _, out = route_fit(f, items, region, options, design, library, rules, user_board=smaller)
+            assert out.verdict.status != ROUTED
+
+
+def test_smallest_is_a_known_outline_mode(tmp_path):
+    proj = make_project(tmp_path / "q", design=_resistors(2), cavity=rect_cavity(tmp_path / "c.dxf"),
+                        tables={"board": {"outline": "tiniest"}})
+    r = invoke("run", proj)
+    assert r.exit_code == 2 and "board.outline" in r.output and "Traceback" not in r.output
