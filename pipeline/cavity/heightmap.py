@@ -24,8 +24,12 @@ import numpy as np
 import shapely
 from shapely.geometry import Polygon
 
-__all__ = ["HeightGrid", "height_map", "zones_from_heights", "CHUNK"]
+__all__ = ["HeightGrid", "height_map", "zones_from_heights", "CHUNK", "HEIGHT_TOL_MM"]
 
+#: Heights within this of a zone step (mm) count as on it: a mesh stored in single precision
+#: (binary STL, float32) carries coordinates to about 1e-5 of their size, so 1 micrometre
+#: keeps a 20 mm depth from rounding down to 19.9.
+HEIGHT_TOL_MM = 1e-3
 #: Largest count of (triangle, cell) pairs expanded at once.
 CHUNK = 2_000_000
 
@@ -105,7 +109,7 @@ def zones_from_heights(grid: HeightGrid, step: float, depth_mm: float
     """
     d = grid.depth
     valid = ~np.isnan(d)
-    q = np.where(np.isinf(d), depth_mm, np.floor(np.where(valid, d, 0) / step + 1e-6) * step)
+    q = np.where(np.isinf(d), depth_mm, np.floor((np.where(valid, d, 0) + HEIGHT_TOL_MM) / step) * step)
     q = np.round(q, 6)
     if not valid.any():
         return float(depth_mm), []
