@@ -209,3 +209,37 @@ def test_reading_a_dxf_never_imports_the_mesh_library():
             "read_cavity(Path('outlines/controller-bay.dxf'))\nimport sys\nprint('trimesh' in sys.modules)")
     out = subprocess.run([sys.executable, "-c", code], cwd=ROOT, capture_output=True, text=True, check=True)
     assert out.stdout.strip().splitlines()[-1] == "False"
+
+
+def _shell_script():
+    import importlib.util
+    spec = importlib.util.spec_from_file_location("outlines_shell", ROOT / "outlines" / "shell.py")
+    mod = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mod)
+    return mod
+
+
+def test_demo_bay_mesh_is_reproducible_and_committed():
+    mod = _shell_script()
+    data = mod.stl_bytes()
+    assert data == mod.stl_bytes()
+    assert (ROOT / "outlines" / "controller-bay.stl").read_bytes() == data, "stale: run outlines/shell.py"
+
+
+def test_demo_bay_mesh_gives_the_region_of_the_drawing():
+    from pipeline.model import BoardOptions
+    from pipeline.region import usable_region
+
+    mesh, _ = read_cavity(ROOT / "outlines" / "controller-bay.stl", display_name="controller-bay.stl")
+    dxf, _ = read_cavity(ROOT / "outlines" / "controller-bay.dxf", display_name="controller-bay.dxf", depth_mm=6.0)
+    tol = 0.02  # the chord tolerance both were flattened to
+    assert mesh.outline.symmetric_difference(dxf.outline).area <= tol * dxf.outline.length
+    for a, b in zip(mesh.keepouts, dxf.keepouts):
+        assert a.symmetric_difference(b).area <= tol * b.length
+    assert mesh.depth_mm == dxf.depth_mm == 6.0
+    assert [z.depth_mm for z in mesh.depth_zones] == [z.depth_mm for z in dxf.depth_zones] == [2.0]
+    (rm, _), (rd, _) = usable_region(mesh, BoardOptions()), usable_region(dxf, BoardOptions())
+    assert [z.max_height_mm for z in rm.zones] == [z.max_height_mm for z in rd.zones]
+    for zm, zd in zip(rm.zones, rd.zones):
+        # grid cells of side GRID along the zone boundaries, plus the chord tolerance along the outline
+        assert zm.polygon.symmetric_difference(zd.polygon).area <= GRID * zd.polygon.length + tol * dxf.outline.length
