@@ -243,3 +243,41 @@ def test_demo_bay_mesh_gives_the_region_of_the_drawing():
     for zm, zd in zip(rm.zones, rd.zones):
         # grid cells of side GRID along the zone boundaries, plus the chord tolerance along the outline
         assert zm.polygon.symmetric_difference(zd.polygon).area <= GRID * zd.polygon.length + tol * dxf.outline.length
+
+
+def _tray(w: float, h: float, depth: float, wall: float) -> trimesh.Trimesh:
+    """An open tray built by hand: inside w x h, floor at z = 0, walls up to z = depth, 'wall' thick.
+
+    Four rectangular rings (outer bottom, outer top, inner top, inner floor) joined by quads, the
+    outer bottom and the inner floor capped; normals made outward by the library afterwards.
+    """
+    def ring(x0, y0, x1, y1, z):
+        return [(x0, y0, z), (x1, y0, z), (x1, y1, z), (x0, y1, z)]
+    rings = [ring(-wall, -wall, w + wall, h + wall, -wall), ring(-wall, -wall, w + wall, h + wall, depth),
+             ring(0, 0, w, h, depth), ring(0, 0, w, h, 0)]
+    verts = np.array([p for r in rings for p in r], float)
+    faces = []
+    for r in range(3):
+        for i in range(4):
+            a, b = 4 * r + i, 4 * r + (i + 1) % 4
+            faces += [(a, b, b + 4), (a, b + 4, a + 4)]
+    faces += [(0, 2, 1), (0, 3, 2), (12, 13, 14), (12, 14, 15)]
+    mesh = trimesh.Trimesh(verts, faces, process=True)
+    trimesh.repair.fix_normals(mesh)
+    assert mesh.is_watertight and mesh.volume > 0  # a closed solid: wall volume, elementary
+    return mesh
+
+
+def test_open_tray_takes_the_project_depth_and_a_lid_mesh_its_own(tmp_path):
+    tray = _save(_tray(40, 30, 8, 2), tmp_path / "tray.stl")
+    open_cavity, _ = _read(tray, depth_mm=7.5)
+    assert open_cavity.outline.area == pytest.approx(40 * 30, rel=1e-9)  # inside of the walls
+    assert open_cavity.depth_mm == 7.5 and not open_cavity.depth_zones  # nothing above: the project's depth
+    lid = box((44, 34, 2), transform=trimesh.transformations.translation_matrix((20, 15, 9)))  # z 8..10
+    rib = box((3, 30, 2.5), transform=trimesh.transformations.translation_matrix((20, 15, 6.75)))  # z 5.5..8
+    _save(trimesh.util.concatenate([lid, rib]), tmp_path / "lid.stl")
+    closed, _ = _read(tray, depth_mm=7.5, mesh_options={"mesh_lid": str(tmp_path / "lid.stl")})
+    assert closed.depth_mm == 8.0  # floor z = 0 to the lid's underside z = 8
+    (zone,) = closed.depth_zones
+    assert zone.depth_mm == 5.5  # floor to the rib's bottom
+    assert abs(zone.polygon.area - 3 * 30) <= GRID * 2 * (3 + 30)  # one cell per unit of boundary
