@@ -72,27 +72,36 @@ def test_no_route_keeps_the_placement_verdict(tmp_path):
 
 
 def _tight_ring(tmp_path, name, tables):
-    """16 resistors in a ring packed on two sides of a board too small to route them (contract test)."""
-    w, h = 15.0, 9.5
+    """16 resistors in a ring packed on one copper layer, in a region of 1.5 x their courtyards.
+
+    Sized from one resistor's courtyard so that it follows the library.
+    """
+    probe = make_project(tmp_path / f"{name}-probe", design=_resistors(1, package="1206"),
+                         cavity=rect_cavity(tmp_path / f"{name}-probe.dxf"), tables={"copper": {"route": False}})
+    invoke("run", probe)
+    a = json.loads((probe / "out" / "fit.json").read_text())["courtyard_area_mm2"]
+    k = math.sqrt(16 * a * 1.5 / 40.0)
+    w, h = 8 * k + 0.6, 5 * k + 0.6          # the wall clearance 0.3 on each side
     return make_project(tmp_path / name, design=_resistors(16, package="1206"),
                         cavity=rect_cavity(tmp_path / f"{name}.dxf", w, h), tables=tables)
 
 
 def test_parts_that_fit_but_do_not_route_are_not_called_fitting(tmp_path):
-    proj = _tight_ring(tmp_path, "tight", {"board": {"sides": 2}})
+    proj = _tight_ring(tmp_path, "tight", {"board": {"layers": 1}})
     r = invoke("run", proj, "--json")
     out = json.loads(r.stdout)
-    if not out["fit"]["fits"]:
-        pytest.skip("the ring no longer fits this cavity: the test needs a tighter or looser cavity")
+    assert out["fit"]["fits"], out["fit"]["blocked_by"]
     assert out["fit"]["routing"]["status"] == "open" and out["fit"]["routing"]["open_nets"]
     assert r.exit_code == 1
-    opened = [f for f in out["findings"] if f["check"] == "route.open"]
-    assert opened and opened[0]["severity"] == "error" and "not proven" in opened[0]["message"]
-    assert set(opened[0]["subject"]) == set(out["fit"]["routing"]["open_nets"])
+    blocks = [r for r in out["verdict"]["reasons"] if r["check"] == "route.open"]
+    assert blocks and blocks[0]["blocking"] and set(blocks[0]["subject"]) == set(out["fit"]["routing"]["open_nets"])
+    assert "routing left nets open" in out["verdict"]["headline"]
+    notes = [f for f in out["findings"] if f["check"] == "route.demand"]
+    assert notes and "not proven" in notes[0]["message"] and "demand peak" in notes[0]["message"]
 
 
 def test_project_key_switches_routing_off(tmp_path):
-    proj = _tight_ring(tmp_path, "off", {"board": {"sides": 2}, "copper": {"route": False}})
+    proj = _tight_ring(tmp_path, "off", {"board": {"layers": 1}, "copper": {"route": False}})
     r = invoke("run", proj, "--json")
     out = json.loads(r.stdout)
     assert out["fit"]["routing"]["status"] == "skipped"
