@@ -29,14 +29,15 @@ from typing import Any, Iterable
 
 from . import values as _values
 from .blocktables import OLD_TABLE, TABLE, block_tables
-from .errors import DesignError
+from .errors import DesignError, Where
 from .library.custom import package_from_table
+from .library.kinds import CATEGORIES
 from .model import Package, OLD_PIN_ROLES, PIN_ROLES, Design, Finding, Fixed, Net, Part, PartKind, PinDef, PinRef, RawTable
 from .tomlsrc import TomlSource, load
 
 __all__ = ["read_design", "read_design_text", "KIND_CATEGORIES"]
 
-KIND_CATEGORIES = ("passive", "polarized", "semiconductor", "ic", "connector")
+KIND_CATEGORIES = CATEGORIES  # the library's list: one home
 
 _TOP_KEYS = ("design", "packages", "kinds", "parts", "nets", "voltages", TABLE, OLD_TABLE)
 _DESIGN_KEYS = ("name", "revision", "note")
@@ -260,6 +261,11 @@ def _height_notes(parts: tuple[Part, ...], lib: Any) -> list[Finding]:
                     "height_mm on a part to use its datasheet figure")]
 
 
+def _where(src: TomlSource, key: str, reason: str = "") -> Where:
+    """Where a value parser reports bad text: this file, at ``key`` (``reason``: see :class:`Where`)."""
+    return Where(src.display, src.line(key), key, reason)
+
+
 def _at(src: TomlSource, key: str) -> dict[str, Any]:
     """Where a library lookup reports an unknown name: this file, at ``key``."""
     return {"file": src.display, "line": src.line(key), "key": key}
@@ -291,10 +297,7 @@ def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dic
     if "value" in body:
         value_text = _expect_str(src, f"{key}.value", body["value"])
         if kind.value_unit:
-            try:
-                value = _values.parse_value(value_text, kind.value_unit)
-            except ValueError as exc:
-                raise _err(src, f"{key}.value", str(exc)) from None
+            value = _values.parse_value(value_text, kind.value_unit, at=_where(src, f"{key}.value"))
     elif kind.value_unit:
         raise _err(src, f"{key}.value", f"a {kind.name} needs a value, e.g. value = \"10k\"")
 
@@ -302,18 +305,12 @@ def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dic
     tol_text = ""
     if "tolerance" in body:
         tol_text = _expect_str(src, f"{key}.tolerance", body["tolerance"])
-        try:
-            tol = _values.parse_tolerance(tol_text)
-        except ValueError as exc:
-            raise _err(src, f"{key}.tolerance", str(exc)) from None
+        tol = _values.parse_tolerance(tol_text, at=_where(src, f"{key}.tolerance"))
     rv = rw = None
     rating_text = ""
     if "rating" in body:
         rating_text = _expect_str(src, f"{key}.rating", body["rating"])
-        try:
-            rv, rw = _values.parse_rating(rating_text)
-        except ValueError as exc:
-            raise _err(src, f"{key}.rating", str(exc)) from None
+        rv, rw = _values.parse_rating(rating_text, at=_where(src, f"{key}.rating"))
     dnp = body.get("dnp", False)
     if not isinstance(dnp, bool):
         raise _err(src, f"{key}.dnp", "dnp must be true or false")
@@ -439,9 +436,7 @@ def _volts(src: TomlSource, key: str, spec: Any) -> float:
     t = text.rstrip()
     if t[-1:] in "vV":
         t = t[:-1]
-    try:
-        neg = t.strip().startswith("-")
-        v = _values.parse_value(t.strip().lstrip("-"), "")
-    except ValueError:
-        raise _err(src, key, f"'{text}' is not a voltage; write e.g. \"3.3V\" or \"-5V\"") from None
+    neg = t.strip().startswith("-")
+    v = _values.parse_value(t.strip().lstrip("-"), "",
+                            at=_where(src, key, f"'{text}' is not a voltage; write e.g. \"3.3V\" or \"-5V\""))
     return float(src.number(key, -v if neg else v, DesignError, lo=-MAX_VOLTS, hi=MAX_VOLTS))

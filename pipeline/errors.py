@@ -25,6 +25,7 @@ d.toml:3: no net 'A\\x1b[2J\\u202eB'
 from __future__ import annotations
 
 import unicodedata
+from dataclasses import dataclass
 
 __all__ = [
     "shown",
@@ -36,6 +37,8 @@ __all__ = [
     "LibraryError",
     "UnknownNameError",
     "OutputError",
+    "ValueTextError",
+    "Where",
 ]
 
 
@@ -177,6 +180,50 @@ class UnknownNameError(LibraryError, DesignError):
         self.name = name
         self.suggestions = tuple(suggestions)
         super().__init__(file, reason, **where)  # type: ignore[arg-type]
+
+
+class ValueTextError(InputError):
+    """Text that is not a valid value, tolerance, rating, target or number.
+
+    Raised by the parsers of :mod:`pipeline.values` (and the SPICE and target
+    parsers built on them) when they are given no :class:`Where`: the message
+    is then the reason alone. Given a ``Where``, they raise the located error
+    it builds instead, so no caller translates errors by hand.
+
+    >>> str(ValueTextError("'4x7' is not a value"))
+    "'4x7' is not a value"
+    """
+
+    def __init__(self, reason: str) -> None:
+        super().__init__("", reason)
+
+    def _build(self) -> str:
+        return shown(self.reason)
+
+
+@dataclass(frozen=True)
+class Where:
+    """Where a piece of value text stands in the user's input, for a parser to raise a located error.
+
+    ``reason`` (optional) replaces the parser's reason where the caller's
+    wording says more (e.g. that a key takes a voltage or a net name).
+
+    >>> w = Where("design.toml", 12, "parts.R1.value")
+    >>> str(w.error("'4x7' is not a value"))
+    "design.toml:12: parts.R1.value: '4x7' is not a value"
+    >>> type(w.error("x")).__name__, type(Where("p.toml", kind=ProjectError).error("x")).__name__
+    ('DesignError', 'ProjectError')
+    """
+
+    file: str
+    line: int | None = None
+    key: str | None = None
+    reason: str = ""
+    kind: type[InputError] = DesignError
+
+    def error(self, reason: str) -> InputError:
+        """The located error (of class ``kind``) for ``reason``."""
+        return self.kind(self.file, self.reason or reason, line=self.line, key=self.key)
 
 
 class OutputError(SnugboardError):

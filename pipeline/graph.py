@@ -52,6 +52,8 @@ __all__ = [
     "connected_groups",
     "GROUND_NAMES",
     "is_ground",
+    "SPICE_GROUND_NODES",
+    "SPICE_GROUND_NET",
     "pin_net_map",
 ]
 
@@ -59,6 +61,14 @@ __all__ = [
 #: without regard to case; ``0`` is the SPICE ground node (ngspice manual,
 #: "circuit description": node 0 is ground).
 GROUND_NAMES = frozenset({"GND", "AGND", "DGND", "PGND", "0"})
+
+#: SPICE's own ground: the node names a simulator takes as ground (node ``0``;
+#: ``gnd`` in any case is its alias in ngspice and most simulators, from memory),
+#: and the one design net the SPICE reader and writer put on that node. Only
+#: this net, not every :data:`GROUND_NAMES` net: AGND and DGND stay separate
+#: nodes in a netlist, as they are separate nets in the design.
+SPICE_GROUND_NODES = frozenset({"0", "gnd"})
+SPICE_GROUND_NET = "GND"
 
 
 def is_ground(name: str) -> bool:

@@ -154,67 +154,34 @@ def load_project(
     root = Path(project_dir)
     if not root.is_dir():
         raise ProjectError(str(project_dir), "not a folder: give the project folder that holds project.toml")
-    pfile = root / "project.toml"
-    src = load(pfile, "project.toml", ProjectError)
+    src = load(root / "project.toml", "project.toml", ProjectError)
     data = src.data
-    warnings: list[Finding] = []
-    for table, body in data.items():
-        if table not in _KEYS:
-            raise src.error(table, f"unknown table [{table}]; expected one of: {', '.join(_KEYS)}", ProjectError)
-        if not isinstance(body, dict):
-            raise src.error(table, f"[{table}] must be a table", ProjectError)
-        for k in body:
-            if k not in _KEYS[table]:
-                raise src.error(f"{table}.{k}", f"unknown key '{k}' in [{table}]; expected one of: "
-                                f"{', '.join(_KEYS[table])}", ProjectError)
+    _check_tables(src)
     pj = data.get("project", {})
     bd = data.get("board", {})
     cv = data.get("cavity", {})
-    od = data.get("order", {})
     an = data.get("analysis", {})
 
     def rel(key: str, value: Any) -> Path:
         return (root / _text(src, key, value, path=True)).resolve()
 
-    if design is not None:
-        design_path, design_shown = Path(design).resolve(), design
-    elif "design" in pj:
-        design_path = rel("project.design", pj["design"])
-        design_shown = _shown(design_path, root.resolve())
-    else:
+    def given(typed: str | None, key: str) -> tuple[Path | None, str]:
+        """An input file and its shown name: the command line's, else [project] KEY's, else (None, "")."""
+        if typed is not None:
+            return Path(typed).resolve(), typed
+        if key not in pj:
+            return None, ""
+        path = rel(f"project.{key}", pj[key])
+        return path, _shown(path, root.resolve())
+
+    design_path, design_shown = given(design, "design")
+    if design_path is None:
         raise src.error("project.design", "no design: set [project] design = \"design.toml\" or pass --design",
                         ProjectError)
-    if cavity is not None:
-        cavity_path, cavity_shown = Path(cavity).resolve(), cavity
-    elif "cavity" in pj:
-        cavity_path = rel("project.cavity", pj["cavity"])
-        cavity_shown = _shown(cavity_path, root.resolve())
-    else:
-        cavity_path, cavity_shown = None, ""
+    cavity_path, cavity_shown = given(cavity, "cavity")
     parts_map = rel("project.parts_map", pj["parts_map"]) if "parts_map" in pj else None
-
-    b = BoardOptions()
-    board = BoardOptions(
-        layers=_num(src, "board.layers", bd.get("layers", b.layers), integer=True, lo=1, hi=64),
-        thickness_mm=float(_num(src, "board.thickness_mm", bd.get("thickness_mm", b.thickness_mm), lo=0, lo_open=True, hi=10)),
-        sides=_num(src, "board.sides", bd.get("sides", b.sides), integer=True, lo=1, hi=2),
-        density=_text(src, "board.density", bd.get("density", b.density), DENSITY_LEVELS),
-        edge_clearance_mm=float(_num(src, "board.edge_clearance_mm", bd.get("edge_clearance_mm", b.edge_clearance_mm), lo=0, hi=50)),
-        wall_clearance_mm=float(_num(src, "board.wall_clearance_mm", bd.get("wall_clearance_mm", b.wall_clearance_mm), lo=0, hi=50)),
-        outline=_text(src, "board.outline", bd.get("outline", b.outline), ("region", "rectangle")),
-        min_inside_radius_mm=float(_num(src, "board.min_inside_radius_mm", bd.get("min_inside_radius_mm", b.min_inside_radius_mm), lo=0, hi=50)),
-    )
-    if not any(abs(board.thickness_mm - t) < 1e-9 for t in STANDARD_THICKNESS):
-        warnings.append(Finding("warning", "project.thickness", ("board.thickness_mm",),
-                                f"{src.display}: board thickness {board.thickness_mm:g} mm is not a common stock thickness "
-                                f"({', '.join(f'{t:g}' for t in STANDARD_THICKNESS)} mm); check your fabricator offers it."))
-    o = OrderOptions()
-    order = OrderOptions(
-        boards=_num(src, "order.boards", od.get("boards", o.boards), integer=True, lo=1),
-        spares_percent=float(_num(src, "order.spares_percent", od.get("spares_percent", o.spares_percent), lo=0, hi=1000)),
-        min_spares=_num(src, "order.min_spares", od.get("min_spares", o.min_spares), integer=True, lo=0),
-        multiple=_num(src, "order.multiple", od.get("multiple", o.multiple), integer=True, lo=1),
-    )
+    board, warnings = _read_board(src, bd)
+    order = _read_order(src, data.get("order", {}))
     layer_map = cv.get("layers")
     if layer_map is not None and not isinstance(layer_map, dict):
         raise src.error("cavity.layers", "expected a table such as { CAVITY = \"Outline\", KEEPOUT = [\"Bosses\"] }",
@@ -249,6 +216,55 @@ def load_project(
         limits=tuple(sorted((k, _num(src, f"limits.{k}", v, integer=True, lo=1))
                             for k, v in data.get("limits", {}).items())),
         copper=read_copper(src, data.get("copper", {}), board.layers),
+    )
+
+
+def _check_tables(src: TomlSource) -> None:
+    """Every table and key of project.toml is one we know (:data:`_KEYS`); the first that is not is named."""
+    for table, body in src.data.items():
+        if table not in _KEYS:
+            raise src.error(table, f"unknown table [{table}]; expected one of: {', '.join(_KEYS)}", ProjectError)
+        if not isinstance(body, dict):
+            raise src.error(table, f"[{table}] must be a table", ProjectError)
+        for k in body:
+            if k not in _KEYS[table]:
+                raise src.error(f"{table}.{k}", f"unknown key '{k}' in [{table}]; expected one of: "
+                                f"{', '.join(_KEYS[table])}", ProjectError)
+
+
+def _read_board(src: TomlSource, bd: dict) -> tuple[BoardOptions, list[Finding]]:
+    """The ``[board]`` table, and a warning for a thickness that is not a common stock thickness."""
+    b = BoardOptions()
+
+    def mm(key: str, default: float, **bounds: Any) -> float:
+        return float(_num(src, f"board.{key}", bd.get(key, default), **bounds))
+
+    board = BoardOptions(
+        layers=_num(src, "board.layers", bd.get("layers", b.layers), integer=True, lo=1, hi=64),
+        thickness_mm=mm("thickness_mm", b.thickness_mm, lo=0, lo_open=True, hi=10),
+        sides=_num(src, "board.sides", bd.get("sides", b.sides), integer=True, lo=1, hi=2),
+        density=_text(src, "board.density", bd.get("density", b.density), DENSITY_LEVELS),
+        edge_clearance_mm=mm("edge_clearance_mm", b.edge_clearance_mm, lo=0, hi=50),
+        wall_clearance_mm=mm("wall_clearance_mm", b.wall_clearance_mm, lo=0, hi=50),
+        outline=_text(src, "board.outline", bd.get("outline", b.outline), ("region", "rectangle")),
+        min_inside_radius_mm=mm("min_inside_radius_mm", b.min_inside_radius_mm, lo=0, hi=50),
+    )
+    warnings = []
+    if not any(abs(board.thickness_mm - t) < 1e-9 for t in STANDARD_THICKNESS):
+        warnings.append(Finding("warning", "project.thickness", ("board.thickness_mm",),
+                                f"{src.display}: board thickness {board.thickness_mm:g} mm is not a common stock thickness "
+                                f"({', '.join(f'{t:g}' for t in STANDARD_THICKNESS)} mm); check your fabricator offers it."))
+    return board, warnings
+
+
+def _read_order(src: TomlSource, od: dict) -> OrderOptions:
+    """The ``[order]`` table."""
+    o = OrderOptions()
+    return OrderOptions(
+        boards=_num(src, "order.boards", od.get("boards", o.boards), integer=True, lo=1),
+        spares_percent=float(_num(src, "order.spares_percent", od.get("spares_percent", o.spares_percent), lo=0, hi=1000)),
+        min_spares=_num(src, "order.min_spares", od.get("min_spares", o.min_spares), integer=True, lo=0),
+        multiple=_num(src, "order.multiple", od.get("multiple", o.multiple), integer=True, lo=1),
     )
 
 

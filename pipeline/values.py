@@ -59,14 +59,18 @@ from __future__ import annotations
 import math
 import re
 from decimal import Decimal, DecimalException
-from functools import lru_cache
+from functools import lru_cache, wraps
+from typing import Any, Callable, TypeVar
 
 import numpy as np
+
+from .errors import ValueTextError, Where
 
 __all__ = [
     "parse_value",
     "parse_tolerance",
     "parse_rating",
+    "located",
     "format_value",
     "format_quantity",
     "round_sig",
@@ -142,26 +146,26 @@ def _match_unit(rest: str, unit: str, original: str, *, prefixed: bool) -> None:
         if unit == "ohm" or (unit == "" and rest in ("R", "r")):
             return
         if unit == "":
-            raise ValueError(f"{original!r} ends in the unit {rest!r}, but this part takes a plain number")
+            raise ValueTextError(f"{original!r} ends in the unit {rest!r}, but this part takes a plain number")
         if rest in ("R", "r"):
-            raise ValueError(
+            raise ValueTextError(
                 f"{original!r} uses R, the RKM code for ohm, but a value in {_UNIT_WORD[unit]} was expected"
             )
-        raise ValueError(f"{original!r} ends in the unit {rest!r}, but a value in {_UNIT_WORD[unit]} was expected")
+        raise ValueTextError(f"{original!r} ends in the unit {rest!r}, but a value in {_UNIT_WORD[unit]} was expected")
     if rest in ("F", "H"):
         if rest == unit:
             return
         if unit == "":
-            raise ValueError(f"{original!r} ends in the unit {rest!r}, but this part takes a plain number")
-        raise ValueError(f"{original!r} ends in the unit {rest!r}, but a value in {_UNIT_WORD[unit]} was expected")
+            raise ValueTextError(f"{original!r} ends in the unit {rest!r}, but this part takes a plain number")
+        raise ValueTextError(f"{original!r} ends in the unit {rest!r}, but a value in {_UNIT_WORD[unit]} was expected")
     if rest in ("f", "h") and unit == rest.upper() and prefixed:
-        raise ValueError(f"{original!r}: write the unit as {unit!r} (units are case-sensitive), e.g. 10u{unit}")
+        raise ValueTextError(f"{original!r}: write the unit as {unit!r} (units are case-sensitive), e.g. 10u{unit}")
     if rest[0] in _PREFIX_HINT:
-        raise ValueError(
+        raise ValueTextError(
             f"{original!r}: {rest[0]!r} is not an SI prefix (prefixes are case-sensitive): "
             f"did you mean {_PREFIX_HINT[rest[0]]!r}?"
         )
-    raise ValueError(f"{original!r} is not a value: {_HELP}")
+    raise ValueTextError(f"{original!r} is not a value: {_HELP}")
 
 
 def _to_float(int_part: str, frac: str, exp: int, original: str) -> float:
@@ -169,15 +173,43 @@ def _to_float(int_part: str, frac: str, exp: int, original: str) -> float:
     try:
         d = Decimal(digits).scaleb(exp)
     except DecimalException:
-        raise ValueError(f"{original!r} is out of range for a component value") from None
+        raise ValueTextError(f"{original!r} is out of range for a component value") from None
     v = float(d)
     if math.isinf(v):
-        raise ValueError(f"{original!r} is too large to be a component value")
+        raise ValueTextError(f"{original!r} is too large to be a component value")
     if v == 0.0 and d != 0:
-        raise ValueError(f"{original!r} is too small to be a component value")
+        raise ValueTextError(f"{original!r} is too small to be a component value")
     return v
 
 
+_F = TypeVar("_F", bound=Callable[..., Any])
+
+
+def located(parse: _F) -> _F:
+    """Give a text parser the optional keyword ``at`` (a :class:`~pipeline.errors.Where`).
+
+    The parser raises :class:`~pipeline.errors.ValueTextError` (the reason
+    alone) for bad text; with ``at`` the wrapped parser raises
+    ``at.error(reason)`` instead: the error naming file, line and key.
+
+    >>> from pipeline.errors import Where
+    >>> parse_tolerance("5", at=Where("d.toml", 4, "parts.R1.tolerance"))
+    Traceback (most recent call last):
+    ...
+    pipeline.errors.DesignError: d.toml:4: parts.R1.tolerance: tolerance '5' has no per-cent sign: expected a percentage such as 1%, ±5 % or +/-10%
+    """
+    @wraps(parse)
+    def run(*args: Any, at: Where | None = None, **kw: Any) -> Any:
+        try:
+            return parse(*args, **kw)
+        except ValueTextError as exc:
+            if at is None:
+                raise
+            raise at.error(exc.reason) from None
+    return run  # type: ignore[return-value]
+
+
+@located
 def parse_value(text: str, unit: str = "") -> float:
     """Parse a component value in engineering notation or RKM code.
 
@@ -199,9 +231,9 @@ def parse_value(text: str, unit: str = "") -> float:
 
     Raises
     ------
-    ValueError
-        With a reason naming the text and what was expected. Callers wrap
-        it into :class:`pipeline.errors.DesignError` with the location.
+    ValueTextError
+        With a reason naming the text and what was expected; given
+        ``at=Where(...)`` (:func:`located`), the located error instead.
 
     Notes
     -----
@@ -216,67 +248,79 @@ def parse_value(text: str, unit: str = "") -> float:
     >>> parse_value("4x7")
     Traceback (most recent call last):
     ...
-    ValueError: '4x7' is not a value: expected a number with an optional SI prefix or RKM code such as 4k7, 4.7k, 100n or 2u2
+    pipeline.errors.ValueTextError: '4x7' is not a value: expected a number with an optional SI prefix or RKM code such as 4k7, 4.7k, 100n or 2u2
     """
     unit = _canon_unit(unit)
-    if isinstance(text, bool):
-        raise ValueError(f"{text!r} is not a value: {_HELP}")
+    if isinstance(text, bool) or not isinstance(text, (str, int, float)):
+        raise ValueTextError(f"{text!r} is not a value: {_HELP}")
     if isinstance(text, (int, float)):
-        v = float(text)
-        if not math.isfinite(v):
-            raise ValueError(f"{text!r} is not a finite number")
-        if v < 0:
-            raise ValueError(f"{text!r} is negative: component values are zero or positive")
-        return v
-    if not isinstance(text, str):
-        raise ValueError(f"{text!r} is not a value: {_HELP}")
-    original = text
+        return _plain_number(text)
     s = _normalise(text)
+    _refuse_written_forms(s, text)
+    m = _RKM.match(s)
+    if m and (m.group("int") or m.group("frac")):
+        return _rkm_value(m, s, unit, text)
+    return _engineering_value(s, unit, text)
+
+
+def _plain_number(v: int | float) -> float:
+    """A TOML number as a value: finite and not negative."""
+    if not math.isfinite(v):
+        raise ValueTextError(f"{v!r} is not a finite number")
+    if v < 0:
+        raise ValueTextError(f"{v!r} is negative: component values are zero or positive")
+    return float(v)
+
+
+def _refuse_written_forms(s: str, original: str) -> None:
+    """Empty text, a sign, NaN or infinity, a decimal comma: each refused with its own reason."""
     if not s:
-        raise ValueError(f"empty value: {_HELP}")
+        raise ValueTextError(f"empty value: {_HELP}")
     if s[0] == "-":
-        raise ValueError(f"{original!r} is negative: component values are zero or positive")
+        raise ValueTextError(f"{original!r} is negative: component values are zero or positive")
     if s[0] == "+":
-        raise ValueError(f"{original!r} has a sign: write the value without one")
-    low = s.lower()
-    if low.lstrip("+-") in ("nan", "inf", "infinity"):
-        raise ValueError(f"{original!r} is not a finite number")
+        raise ValueTextError(f"{original!r} has a sign: write the value without one")
+    if s.lower().lstrip("+-") in ("nan", "inf", "infinity"):
+        raise ValueTextError(f"{original!r} is not a finite number")
     if "," in s:
-        raise ValueError(
+        raise ValueTextError(
             f"{original!r} uses a comma: write the decimal point as '.' (4.7k) or use RKM code (4k7)"
         )
 
-    # RKM code: digits, one letter in place of the decimal point, digits.
-    m = _RKM.match(s)
-    if m and (m.group("int") or m.group("frac")):
-        letter = m.group("letter")
-        rest = s[m.end():]
-        if letter in "Rr":
-            if unit in ("F", "H"):
-                extra = " (on inductors 4R7 often means 4.7 uH: write 4u7 or 4.7u)" if unit == "H" else ""
-                raise ValueError(
-                    f"{original!r} uses R, the RKM code for ohm, but a value in {_UNIT_WORD[unit]} "
-                    f"was expected{extra}"
-                )
-            exp = 0
-        else:
-            exp = _PREFIX_EXP[letter]
-        if rest.strip() in ("R", "r"):
-            raise ValueError(f"{original!r} ends in R after an RKM code: write {s[: m.end()]!r} alone")
-        _match_unit(rest, unit, original, prefixed=True)
-        return _to_float(m.group("int"), m.group("frac"), exp, original)
 
+def _rkm_value(m: re.Match, s: str, unit: str, original: str) -> float:
+    """RKM code (IEC 60062): digits, one letter in place of the decimal point, digits."""
+    letter = m.group("letter")
+    rest = s[m.end():]
+    if letter in "Rr":
+        if unit in ("F", "H"):
+            extra = " (on inductors 4R7 often means 4.7 uH: write 4u7 or 4.7u)" if unit == "H" else ""
+            raise ValueTextError(
+                f"{original!r} uses R, the RKM code for ohm, but a value in {_UNIT_WORD[unit]} "
+                f"was expected{extra}"
+            )
+        exp = 0
+    else:
+        exp = _PREFIX_EXP[letter]
+    if rest.strip() in ("R", "r"):
+        raise ValueTextError(f"{original!r} ends in R after an RKM code: write {s[: m.end()]!r} alone")
+    _match_unit(rest, unit, original, prefixed=True)
+    return _to_float(m.group("int"), m.group("frac"), exp, original)
+
+
+def _engineering_value(s: str, unit: str, original: str) -> float:
+    """A decimal number with an optional exponent or SI prefix (``meg`` for mega), then the unit."""
     m = _NUMBER.match(s)
     if not m or not (m.group("int") or m.group("frac")):
         if s[0] in _PREFIX_HINT:
-            raise ValueError(
+            raise ValueTextError(
                 f"{original!r}: {s[0]!r} is not an SI prefix (prefixes are case-sensitive): "
                 f"did you mean {_PREFIX_HINT[s[0]]!r}?"
             )
-        raise ValueError(f"{original!r} is not a value: {_HELP}")
+        raise ValueTextError(f"{original!r} is not a value: {_HELP}")
     exp_text = m.group("exp")
     if exp_text is not None and len(exp_text.lstrip("+-")) > 4:
-        raise ValueError(f"{original!r} has an exponent out of range for a component value")
+        raise ValueTextError(f"{original!r} has an exponent out of range for a component value")
     exp = int(exp_text) if exp_text is not None else 0
     rest = s[m.end():].lstrip()
     prefixed = False
@@ -286,16 +330,22 @@ def parse_value(text: str, unit: str = "") -> float:
         prefix_exp, rest, prefixed = _PREFIX_EXP[rest[0]], rest[1:], True
     else:
         prefix_exp = 0
-    if prefixed and m.group("exp") is not None:
-        raise ValueError(f"{original!r} has both an exponent and an SI prefix: use one of them")
-    if prefixed and rest[:1].isdigit():
-        raise ValueError(
-            f"{original!r} is not a value: RKM code takes no decimal point (4k7, not 4.7k7); {_HELP}"
-        )
-    if prefixed and rest.strip() in ("R", "r"):
-        raise ValueError(f"{original!r} mixes an SI prefix with R: write it without the R (4.7k) or as RKM code (4k7)")
+    if prefixed:
+        _refuse_mixed_prefix(rest, exp_text, original)
     _match_unit(rest, unit, original, prefixed=prefixed)
     return _to_float(m.group("int"), m.group("frac"), exp + prefix_exp, original)
+
+
+def _refuse_mixed_prefix(rest: str, exp_text: str | None, original: str) -> None:
+    """An SI prefix with an exponent, with more digits (4.7k7) or with R (4.7kR) is refused."""
+    if exp_text is not None:
+        raise ValueTextError(f"{original!r} has both an exponent and an SI prefix: use one of them")
+    if rest[:1].isdigit():
+        raise ValueTextError(
+            f"{original!r} is not a value: RKM code takes no decimal point (4k7, not 4.7k7); {_HELP}"
+        )
+    if rest.strip() in ("R", "r"):
+        raise ValueTextError(f"{original!r} mixes an SI prefix with R: write it without the R (4.7k) or as RKM code (4k7)")
 
 
 # --------------------------------------------------------------------------
@@ -304,6 +354,7 @@ def parse_value(text: str, unit: str = "") -> float:
 _TOL = re.compile(r"(?:±|\+/-|\+-|\+/−)?\s*(?P<num>\d+(?:\.\d*)?|\.\d+)\s*%")
 
 
+@located
 def parse_tolerance(text: str) -> float:
     """Parse a symmetric tolerance such as ``1%``, ``±5 %``, ``+/-10%``, ``0.1 %``.
 
@@ -314,7 +365,7 @@ def parse_tolerance(text: str) -> float:
 
     Raises
     ------
-    ValueError
+    ValueTextError
         For text without a per-cent sign, asymmetric tolerances
         (``+80/-20%``), or 100 % and more.
 
@@ -324,24 +375,24 @@ def parse_tolerance(text: str) -> float:
     (0.05, 0.1, 0.001)
     """
     if not isinstance(text, str):
-        raise ValueError(f"tolerance {text!r} is not text: write it as a percentage such as '1%'")
+        raise ValueTextError(f"tolerance {text!r} is not text: write it as a percentage such as '1%'")
     s = text.strip()
     if not s:
-        raise ValueError("empty tolerance: expected a percentage such as 1%, ±5 % or +/-10%")
+        raise ValueTextError("empty tolerance: expected a percentage such as 1%, ±5 % or +/-10%")
     m = _TOL.fullmatch(s)
     if not m:
         if "/" in s and "+/-" not in s:
-            raise ValueError(
+            raise ValueTextError(
                 f"tolerance {text!r} looks asymmetric: only symmetric tolerances such as ±20% are supported"
             )
         if "%" not in s:
-            raise ValueError(
+            raise ValueTextError(
                 f"tolerance {text!r} has no per-cent sign: expected a percentage such as 1%, ±5 % or +/-10%"
             )
-        raise ValueError(f"tolerance {text!r} is not a percentage: expected e.g. 1%, ±5 % or +/-10%")
+        raise ValueTextError(f"tolerance {text!r} is not a percentage: expected e.g. 1%, ±5 % or +/-10%")
     t = float(Decimal(m.group("num")) / 100)
     if t >= 1.0:
-        raise ValueError(f"tolerance {text!r} is 100 % or more: expected a percentage below 100 %")
+        raise ValueTextError(f"tolerance {text!r} is 100 % or more: expected a percentage below 100 %")
     return t
 
 
@@ -351,6 +402,7 @@ _RATING_ITEM = re.compile(
 )
 
 
+@located
 def parse_rating(text: str) -> tuple[float | None, float | None]:
     """Parse a voltage and/or power rating.
 
@@ -366,7 +418,7 @@ def parse_rating(text: str) -> tuple[float | None, float | None]:
 
     Raises
     ------
-    ValueError
+    ValueTextError
         For empty text, a zero rating, a repeated kind or anything else.
 
     Examples
@@ -377,17 +429,17 @@ def parse_rating(text: str) -> tuple[float | None, float | None]:
     (None, 0.25)
     """
     if not isinstance(text, str):
-        raise ValueError(f"rating {text!r} is not text: write it like '16V', '0.1W' or '50V 1/8W'")
+        raise ValueTextError(f"rating {text!r} is not text: write it like '16V', '0.1W' or '50V 1/8W'")
     s = text.strip()
     if not s:
-        raise ValueError("empty rating: expected a voltage and/or power such as 16V, 0.1W or 50V 1/8W")
+        raise ValueTextError("empty rating: expected a voltage and/or power such as 16V, 0.1W or 50V 1/8W")
     volts: float | None = None
     watts: float | None = None
     pos = 0
     while pos < len(s):
         m = _RATING_ITEM.match(s, pos)
         if not m or m.end() == pos:
-            raise ValueError(
+            raise ValueTextError(
                 f"rating {text!r} is not understood at {s[pos:]!r}: "
                 "expected a voltage and/or power such as 16V, 0.1W, 1/8W or 50V 250mW"
             )
@@ -395,20 +447,20 @@ def parse_rating(text: str) -> tuple[float | None, float | None]:
         if m.group("den") is not None:
             den = Decimal(m.group("den"))
             if den == 0:
-                raise ValueError(f"rating {text!r} divides by zero")
+                raise ValueTextError(f"rating {text!r} divides by zero")
             num = num / den
         num = num.scaleb(_PREFIX_EXP.get(m.group("prefix"), 0))
         v = float(num)
         if v <= 0:
-            raise ValueError(f"rating {text!r} is zero: a rating must be positive")
+            raise ValueTextError(f"rating {text!r} is zero: a rating must be positive")
         kind = m.group("unit")[0].upper()
         if kind == "V":
             if volts is not None:
-                raise ValueError(f"rating {text!r} gives the voltage twice")
+                raise ValueTextError(f"rating {text!r} gives the voltage twice")
             volts = v
         else:
             if watts is not None:
-                raise ValueError(f"rating {text!r} gives the power twice")
+                raise ValueTextError(f"rating {text!r} gives the power twice")
             watts = v
         pos = m.end()
     return volts, watts

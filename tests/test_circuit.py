@@ -28,7 +28,7 @@ from hypothesis import strategies as st
 from scipy import optimize, signal
 
 from pipeline.circuit import formulas as F
-from pipeline.errors import DesignError
+from pipeline.errors import DesignError, ValueTextError
 from pipeline.model import Design, Net, Part, PinDef, PinRef, RawTable
 from pipeline.circuit import BLOCK_TYPES, block_samples, parse_target
 from pipeline.circuit import analyse_blocks
@@ -682,7 +682,7 @@ def test_parse_target_good(text, unit, lo, hi):
 
 @pytest.mark.parametrize("text", ["1kHz", "", "abc ±5%", "1k ±0%", "2 .. 1", "1k ± -5%", "1k ±"])
 def test_parse_target_bad(text):
-    with pytest.raises(ValueError):
+    with pytest.raises(ValueTextError):
         parse_target(text, "f0", "Hz")
 
 

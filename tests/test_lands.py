@@ -36,6 +36,7 @@ CASES = {
     "SOIC-8": ((5.80, 6.20), (0.40, 1.27), (0.31, 0.51), GULL, 1.27),  # JEDEC MS-012AA, memory
     "TSSOP-14": ((6.20, 6.60), (0.45, 0.75), (0.19, 0.30), GULL, 0.65),  # JEDEC MO-153, memory
     "QFN-16-3x3": ((2.90, 3.10), (0.30, 0.50), (0.18, 0.30), QFN, 0.50),  # JEDEC MO-220, memory
+    "TO-252": ((9.40, 10.41), (1.40, 1.78), (0.64, 0.89), GULL, 2.28),  # JEDEC TO-252AA, memory
 }
 
 
@@ -189,3 +190,32 @@ def test_bottom_side_mirrors_pin1(lib):
 def test_pads_on_board_rejects_bad_calls(lib, rot, side):
     with pytest.raises(ValueError):
         pads_on_board(lib.package("0603"), 0, 0, rot, side)
+
+
+@pytest.mark.parametrize("level", DENSITY_LEVELS)
+def test_to252_tab_land(lib, level):
+    # JEDEC TO-252AA (DPAK, memory): leads 1 and 3 at e1 = 2 x e = 4.56 apart (e 2.28), the middle
+    # lead cut; the tab (pin 2) b3 up to 5.46 wide. Tab land: the IPC-7351B side equation on the
+    # tab width (no tolerance: min = max) and 5.80 mm deep (common practice; memory), its outer
+    # edge at the same toe line Z / 2 as the lead lands, on the side opposite the leads.
+    pkg = lib.package("DPAK")
+    assert pkg.name == "TO-252" and pkg.pin_count == 3
+    by = {p.number: p for p in pkg.pads_at(level)}
+    assert sorted(by) == ["1", "2", "3"]
+    assert abs((by["3"].x_mm - by["1"].x_mm) - 4.56) < 1e-9
+    toe, _, side = GULL[level]
+    x_hand = 5.46 + 2 * side + math.sqrt(F * F + P * P)
+    assert 0 <= by["2"].width_mm - x_hand < 0.05 + 1e-9
+    assert by["2"].height_mm == 5.80 and by["2"].x_mm == 0 and by["2"].y_mm > 0
+    z, _, _ = _hand(*CASES["TO-252"][:3], GULL[level])
+    lead_outer = abs(by["1"].y_mm) + by["1"].height_mm / 2
+    tab_outer = by["2"].y_mm + by["2"].height_mm / 2
+    assert abs(lead_outer - tab_outer) < 1e-9 and 0 <= 2 * tab_outer - z < 0.05 + 1e-9
+    # tab land and lead lands do not touch; every pad inside the level's courtyard
+    assert by["2"].y_mm - by["2"].height_mm / 2 > by["1"].y_mm + by["1"].height_mm / 2
+    c = pkg.courtyard(level)
+    for p in by.values():
+        assert abs(p.x_mm) + p.width_mm / 2 <= c.length_mm / 2
+        assert abs(p.y_mm) + p.height_mm / 2 <= c.width_mm / 2
+    # seated height A max 2.38 (JEDEC TO-252AA, memory)
+    assert pkg.height_mm == 2.38

@@ -351,7 +351,9 @@ def test_contract_packages_exist(lib, name):
 def test_contract_headers_1_to_20(lib, n):
     # CONTRACT.md s2: header-1xN-2.54, N = 1 .. 20; 2.54 mm pitch (the name)
     pkg = lib.package(f"header-1x{n}-2.54")
-    assert pkg.name == f"header-1x{n}-2.54" and pkg.pin_count == n
+    # the old name is an alias of the canonical pin row name (footprints/README.md)
+    assert pkg.name == f"pins-rows1-n{n}-pitch2.54-tht-vertical" and pkg.pin_count == n
+    assert lib.package(pkg.name) == pkg
     assert _close(pkg.pitch_mm, 2.54)
     # housing 2.54 mm a position (common practice); pads at 2.54 spacing: the land
     # extent is (n - 1) x 2.54 plus one pad (closed form)
@@ -540,7 +542,8 @@ def test_pin_mismatch_reported(lib, kind, package):
      ("TSSOP14", "TSSOP-14"), ("msop10", "MSOP-10"), ("DIP8", "DIP-8"), ("PDIP-8", "DIP-8"),
      ("qfn16-3x3", "QFN-16-3x3"), ("SOD123", "SOD-123"), ("TO-236AB", "SOT-23"),
      ("  0805 ", "0805"), ("tssop_16", "TSSOP-16"), ("SOT 23 5", "SOT-23-5"),
-     ("Header-1x07-2.54", "header-1x7-2.54"), ("header-1x3", "header-1x3-2.54")],
+     ("Header-1x07-2.54", "pins-rows1-n7-pitch2.54-tht-vertical"),
+     ("header-1x3", "pins-rows1-n3-pitch2.54-tht-vertical")],
 )
 def test_aliases(lib, alias, name):
     assert lib.package(alias).name == name
@@ -549,8 +552,9 @@ def test_aliases(lib, alias, name):
 @pytest.mark.parametrize(
     "bad,hint",
     [("SOIC-9", "SOIC-8"), ("TSOP-8", "TSSOP-8"), ("SOT-23-7", "SOT-23"), ("0604", "0603"),
-     ("MSOP-9", "MSOP-8"), ("QFN-16-4x4", "QFN-16-3x3"), ("headr-1x4-2.54", "header-1xN-2.54"),
-     ("header-1x21-2.54", "N from 1 to 20"), ("header-1x0-2.54", "N from 1 to 20"),
+     ("MSOP-9", "MSOP-8"), ("QFN-16-4x4", "QFN-16-3x3"), ("headr-1x4-2.54", "unknown package 'headr-1x4-2.54'"),
+     ("header-1x41-2.54", "n: '41' must be a whole number from 1 to 40"),
+     ("header-1x0-2.54", "n: '0' must be a whole number from 1 to 40"),
      ("pad-0.3mm", "D from 0.5 to 10 mm"), ("pad-12mm", "D from 0.5 to 10 mm"),
      ("", "empty package name"), ("resistor", "unknown package 'resistor'")],
 )
@@ -657,7 +661,8 @@ def _pkg_cell(root: Path, name: str, column: int, value: str) -> int:
         (9, "", "DIP-8.source", "must not be empty"),
         (0, "DIP 8", "name", "bad package name"),
         (1, "SOIC8", "DIP-8.aliases", "already used by package SOIC-8"),
-        (1, "header-1x2-2.54", "DIP-8.aliases", "family header-1xN-2.54"),
+        (1, "header-1x2-2.54", "DIP-8.aliases", "form of a pin row name"),
+        (1, "pad-2mm", "DIP-8.aliases", "family pad-Dmm"),
         (1, "sot-23-5", "DIP-8.aliases", "already used by package SOT-23-5"),
         (1, "SOT2-35", "DIP-8.aliases", "only in '-', '_' or spaces"),
     ],
@@ -742,15 +747,14 @@ def test_toml_syntax_error_gives_line(fp_copy):
 @pytest.mark.parametrize(
     "old,new,key,reason,header,anchor",
     [
-        ("max = 20\nbody_length_mm = { base = 0.0, per = 2.54 }\nbody_width_mm = 2.54",
-         "max = 0.5\nbody_length_mm = { base = 0.0, per = 2.54 }\nbody_width_mm = 2.54",
-         "header-1xN-2.54.max", "below min", '["header-1xN-2.54"]', "max = 0.5"),
+        ("max = 10.0\nbody_length_mm = { base = 0.0, per = 1.0 }",
+         "max = 0.2\nbody_length_mm = { base = 0.0, per = 1.0 }",
+         "pad-Dmm.max", "below min", '[pad-Dmm]', "max = 0.2"),
         ('pattern = "pad-{D}mm"', 'pattern = "pad-mm"', "pad-Dmm.pattern", "exactly once",
          "[pad-Dmm]", 'pattern = "pad-mm"'),
-        ("pad_mm = 1.70\ndrill_mm = 1.00\ncourtyard_class = \"general\"\nsource = \"single-row",
-         "pad_mm = { base = -3.0, per = 1.0 }\ndrill_mm = 1.00\ncourtyard_class = \"general\"\nsource = \"single-row",
-         "header-1xN-2.54.pad_mm", "greater than 0", '["header-1xN-2.54"]',
-         "pad_mm = { base = -3.0"),
+        ("pad_mm = { base = 0.0, per = 1.0 }\ndrill_mm = 0.0",
+         "pad_mm = { base = -3.0, per = 1.0 }\ndrill_mm = 0.0",
+         "pad-Dmm.pad_mm", "greater than 0", '[pad-Dmm]', "pad_mm = { base = -3.0"),
         ("pin_count = 1\n", "pin_count = { base = 0, per = 1 }\n", "pad-Dmm.pin_count",
          "whole number", "[pad-Dmm]", "pin_count"),
     ],

@@ -48,3 +48,33 @@ def test_placed_pads_follow_the_library_and_name_nets():
     assert by[("R2", "1")].layers == ("bottom",) and by[("R1", "1")].layers == ("top",)
     assert by[("J1", "1")].layers == ("top", "bottom")          # drilled: through-hole
     assert by[("R1", "1")].net == "A" and by[("J1", "2")].net is None
+
+
+@pytest.mark.parametrize("package, side, rot", [
+    ("pins(rows=2, n=3, pitch=2.0, mount=smd, entry=side)", "bottom", 90),
+    ("pins(n=4, pitch=1.27)", "top", 270),
+    ("TO-252", "bottom", 180),
+])
+def test_true_pad_shapes_placed_independently(package, side, rot):
+    # the package-frame pads moved by hand: a bottom part is mirrored in x (seen through the
+    # board), then turned anticlockwise (rotation matrix, closed form); every outline keeps its
+    # true area: w x h for rectangles, pi r^2 for round lands (less the buffer's chord loss)
+    import math
+    pkg = LIB.package(package)
+    pins = tuple(PinDef(str(i), str(i), "terminal") for i in range(1, pkg.pin_count + 1))
+    design = Design("t", "", "", (Part("J1", "header", package, pins),), ())
+    b = board_from_placement(box(0, 0, 40, 40), (Placement("J1", 20, 20, rot, side, None),),
+                             design, LIB, ("top", "bottom"))
+    by = {p.pin: p for p in b.pads}
+    c, s = round(math.cos(math.radians(rot))), round(math.sin(math.radians(rot)))
+    for pad in pkg.pads_at("nominal"):
+        x = -pad.x_mm if side == "bottom" else pad.x_mm
+        want = (20 + c * x - s * pad.y_mm, 20 + s * x + c * pad.y_mm)
+        got = by[pad.number].polygon
+        assert (got.centroid.x, got.centroid.y) == pytest.approx(want, abs=1e-9)
+        if pad.shape == "circle":
+            assert got.area == pytest.approx(math.pi * pad.width_mm ** 2 / 4, rel=0.03)
+        else:
+            assert got.area == pytest.approx(pad.width_mm * pad.height_mm, rel=1e-9)
+        drilled = pad.drill_mm > 0
+        assert by[pad.number].layers == (("top", "bottom") if drilled else (side,))

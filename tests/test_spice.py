@@ -30,7 +30,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from pipeline.errors import DesignError
+from pipeline.errors import DesignError, ValueTextError
 from pipeline.export.spice import spice_netlist, spice_number
 from pipeline.library import load_library
 from pipeline.model import Design, Net, Part, PartKind, PinDef, PinRef, RawTable
@@ -101,7 +101,7 @@ def test_parse_number_scale_factors(token, expected):
 
 @pytest.mark.parametrize("token", ["abc", "k10", "", "--1", "e3"])
 def test_parse_number_rejects(token):
-    with pytest.raises(ValueError):
+    with pytest.raises(ValueTextError):
         parse_number(token)
 
 

@@ -17,6 +17,7 @@ import numpy as np
 import pytest
 from quantiphy import Quantity
 
+from pipeline.errors import DesignError, ProjectError, ValueTextError, Where
 from pipeline.values import (
     SERIES,
     SERIES_TOLERANCE,
@@ -204,9 +205,24 @@ def test_parse_value_is_correctly_rounded():
     ],
 )
 def test_parse_value_bad_input(text, unit, reason):
-    with pytest.raises(ValueError) as exc:
+    with pytest.raises(ValueTextError) as exc:
         parse_value(text, unit)
     assert reason in str(exc.value)
+
+
+@pytest.mark.parametrize("parse,text", [(parse_value, "4x7"), (parse_tolerance, "5"), (parse_rating, "16")])
+def test_bad_text_raises_from_the_error_tree_located_when_given_where(parse, text):
+    # issue 12: no ValueError for a user's mistake; with at=Where the parser names file, line and key
+    with pytest.raises(ValueTextError) as plain:
+        parse(text)
+    assert not isinstance(plain.value, ValueError) and str(plain.value) == plain.value.reason
+    with pytest.raises(DesignError) as located:
+        parse(text, at=Where("design.toml", 12, "parts.R1.x"))
+    assert str(located.value) == f"design.toml:12: parts.R1.x: {plain.value.reason}"
+    with pytest.raises(ProjectError) as other:
+        parse(text, at=Where("p.toml", 3, "k", reason="say this", kind=ProjectError))
+    assert str(other.value) == "p.toml:3: k: say this"
+    assert parse_value("4k7", "ohm", at=Where("d.toml", 1, "k")) == 4700.0   # good text: no effect
 
 
 def test_parse_value_bad_unit_argument():
@@ -246,7 +262,7 @@ def test_parse_tolerance(text, expected):
     ],
 )
 def test_parse_tolerance_bad(text, reason):
-    with pytest.raises(ValueError) as exc:
+    with pytest.raises(ValueTextError) as exc:
         parse_tolerance(text)
     assert reason in str(exc.value)
 
@@ -292,7 +308,7 @@ def test_parse_rating(text, volts, watts):
     ],
 )
 def test_parse_rating_bad(text, reason):
-    with pytest.raises(ValueError) as exc:
+    with pytest.raises(ValueTextError) as exc:
         parse_rating(text)
     assert reason in str(exc.value)
 

@@ -15,7 +15,7 @@ from typing import Any, Mapping
 import numpy as np
 
 from .. import values as _values
-from ..errors import DesignError
+from ..errors import DesignError, Where
 from ..graph import is_ground, pin_net_map
 from ..model import Design, Net, Part, PinRef, RawTable, Target
 from .blocktype import BlockType, RoleRules, SettingsContext
@@ -64,6 +64,11 @@ class Decl:
             if f.name == figure:
                 return f.unit
         return ""
+
+
+def _where(table: RawTable, sub: str, reason: str = "") -> Where:
+    """Where in ``table`` a key stands (``reason``: see :class:`~pipeline.errors.Where`)."""
+    return Where(table.file, table.line or None, f"{table.key}.{sub}" if sub else table.key, reason)
 
 
 def _err(table: RawTable, sub: str, reason: str) -> DesignError:
@@ -121,11 +126,8 @@ def _volts(table: RawTable, key: str, spec: Any, design: Design) -> float:
                 raise _err(table, key, f"net '{spec.strip()}' has no declared voltage: declare it "
                                        f"under [voltages] or give a voltage such as \"3.3V\"")
             return v
-        try:
-            v = quantity(spec, "V")
-        except ValueError:
-            raise _err(table, key, f"'{spec}' is neither a voltage such as \"3.3V\" nor a net "
-                                   f"of the design") from None
+        v = quantity(spec, "V", at=_where(table, key, f"'{spec}' is neither a voltage such as \"3.3V\" nor a "
+                                                      "net of the design"))
     if not math.isfinite(v):
         raise _err(table, key, "the voltage must be a finite number")
     return v
@@ -264,10 +266,7 @@ def _targets(table: RawTable, bt: BlockType, items: Mapping[str, Any],
             raise _err(table, k, f"unknown figure for a {bt.name} block; figures are {', '.join(figs)}")
         if fname not in available:
             raise _err(table, k, why_not)
-        try:
-            targets.append(parse_target(targets_spec[fname], fname, figs[fname].unit))
-        except ValueError as e:
-            raise _err(table, k, str(e)) from None
+        targets.append(parse_target(targets_spec[fname], fname, figs[fname].unit, at=_where(table, k)))
     return tuple(targets)
 
 

@@ -27,7 +27,8 @@ import json
 from typing import Any
 
 from ..order import natural_key
-from ..model import Design
+from ..graph import pin_net_map
+from ..model import Design, PinRef
 from ..values import format_value
 from .csvcell import csv_bytes
 
@@ -50,10 +51,7 @@ def netlist_csv(design: Design) -> bytes:
 
 
 def netlist_dict(design: Design) -> dict[str, Any]:
-    pin_nets: dict[tuple[str, str], list[str]] = {}
-    for n in design.nets:
-        for pr in n.pins:
-            pin_nets.setdefault((pr.ref, pr.pin), []).append(n.name)
+    pin_nets = pin_net_map(design)
     parts = []
     for p in sorted(design.parts, key=lambda p: natural_key(p.ref)):
         parts.append({
@@ -65,7 +63,7 @@ def netlist_dict(design: Design) -> dict[str, Any]:
             "dnp": p.dnp,
             "pins": [
                 {"number": d.number, "name": d.name, "role": d.role,
-                 "nets": sorted(pin_nets.get((p.ref, d.number), []), key=natural_key)}
+                 "nets": sorted((n.name for n in pin_nets.get(PinRef(p.ref, d.number), [])), key=natural_key)}
                 for d in p.pins
             ],
         })

@@ -82,6 +82,7 @@ from decimal import Decimal
 from typing import Any, Iterable
 
 from ..blocktables import RECORD
+from ..graph import SPICE_GROUND_NET, SPICE_GROUND_NODES, pin_net_map
 from ..model import Design, Part, PinDef
 from ..values import EXPONENT_PREFIX
 
@@ -179,11 +180,11 @@ class _Names:
 
 
 def _node_names(design: Design) -> dict[str, str]:
-    names = _Names(reserved=("0", "gnd"))
+    names = _Names(reserved=SPICE_GROUND_NODES)
     out: dict[str, str] = {}
     rest = []
     for net in design.nets:
-        if net.name == "GND":
+        if net.name == SPICE_GROUND_NET:
             out[net.name] = "0"
         else:
             rest.append(net.name)
@@ -229,7 +230,7 @@ def _pin_named(part: Part, *names: str) -> PinDef | None:
 # Stub subcircuits
 # --------------------------------------------------------------------------
 def _port_names(pins: tuple[PinDef, ...]) -> list[str]:
-    names = _Names(reserved=("0", "gnd"))
+    names = _Names(reserved=SPICE_GROUND_NODES)
     out = []
     for p in pins:
         want = _legal(p.name) or f"pin{_legal(p.number) or len(out) + 1}"
@@ -379,12 +380,9 @@ def spice_netlist(design: Design) -> bytes:
     ['Divider', 'R1 IN 0 4.7k']
     """
     nodes = _node_names(design)
-    pin_net: dict[tuple[str, str], str] = {}
-    for net in design.nets:
-        for pr in net.pins:
-            pin_net.setdefault((pr.ref, pr.pin), net.name)
+    pin_net = {(pr.ref, pr.pin): nets[0].name for pr, nets in pin_net_map(design).items()}  # first net wins
     deck = _Deck(design, nodes, pin_net, elements=_Names(reserved=[f"Vsupply_{nodes[n.name]}" for n in design.nets]),
-                 node_pool=_Names(reserved=list(nodes.values()) + ["gnd"]),
+                 node_pool=_Names(reserved=[*nodes.values(), *SPICE_GROUND_NODES]),
                  categories={k.name: k.category for k in design.kinds}, voltages={})
     for n in design.nets:
         deck.voltages.setdefault(n.name, n.voltage)
@@ -427,7 +425,7 @@ def _net_records(design: Design, nodes: dict[str, str]) -> list[str]:
     out = []
     for net in design.nets:
         node = nodes[net.name]
-        plain = (node == net.name) or (net.name == "GND" and node == "0")
+        plain = (node == net.name) or (net.name == SPICE_GROUND_NET and node == "0")
         if plain and net.voltage is None and net.voltage_max is None and not net.battery:
             continue
         out.append(_record("net", [("node", node), ("name", None if plain else net.name),

@@ -18,6 +18,7 @@ from .courtyards import CourtyardRule, read_courtyard
 from .kinds import read_kinds
 from .heights import read_heights
 from .lands import read_land_rules, read_terminals
+from .pinrows import BadPinRow, PinRows, read_pin_rows
 from .packages import PackageFamily, PackageInfo, info_for, read_families, read_packages
 
 __all__ = ["DEFAULT_ROOT", "Library", "load_library"]
@@ -29,8 +30,9 @@ COURTYARD_FILE = "courtyard.toml"
 LANDS_FILE = "lands.toml"
 TERMINALS_FILE = "terminals.csv"
 HEIGHTS_FILE = "heights.csv"
+PINROWS_FILE = "pinrows.toml"
 _FILES = (COURTYARD_FILE, LANDS_FILE, TERMINALS_FILE, PACKAGES_FILE, FAMILIES_FILE, KINDS_FILE,
-          HEIGHTS_FILE)
+          HEIGHTS_FILE, PINROWS_FILE)
 
 
 def _default_root() -> Path:
@@ -69,6 +71,7 @@ class Library:
     grid_mm: float
     kind_table: tuple[PartKind, ...]
     heights: Mapping[tuple[str, str], tuple[float, str]] = field(default_factory=dict, compare=False)
+    pin_rows: PinRows | None = field(default=None, compare=False)
     _by_name: Mapping[str, Package] = field(init=False, compare=False, hash=False, repr=False)
     _by_compact: Mapping[str, Package] = field(init=False, compare=False, hash=False, repr=False)
     _kinds: Mapping[str, PartKind] = field(init=False, compare=False, hash=False, repr=False)
@@ -123,6 +126,9 @@ class Library:
         hit = self._by_name.get(text.casefold())
         if hit is not None:
             return hit
+        pin_row = self._pin_row(text, file, where)
+        if pin_row is not None:
+            return pin_row
         fam_hit = self._family_lookup(text)
         if fam_hit is not None:
             fam, value = fam_hit
@@ -138,6 +144,19 @@ class Library:
         raise UnknownNameError(
             file, f"unknown package '{text}'{hint} (list them with the packages command)",
             name=text, suggestions=suggestions, **where)
+
+    def _pin_row(self, text: str, file: str, where: Mapping[str, object]) -> Package | None:
+        """The ``pins`` package named by ``text`` (:mod:`.pinrows`), None for another form."""
+        if self.pin_rows is None:
+            return None
+        try:
+            spec = self.pin_rows.parse(text)
+        except BadPinRow as e:
+            raise UnknownNameError(file, f"package '{text}': {e.key}: {e.reason}", name=text,
+                                   **where) from None
+        if spec is None:
+            return None
+        return self.pin_rows.build(spec, self._rule("general"), self.grid_mm)
 
     def _suggest_packages(self, text: str) -> tuple[str, ...]:
         display: dict[str, str] = {}
@@ -179,6 +198,10 @@ class Library:
         hit = self._infos.get(pkg.name.casefold())
         if hit is not None:
             return hit
+        spec = self.pin_rows.parse(pkg.name) if self.pin_rows is not None else None
+        if spec is not None:
+            return info_for(pkg.name, "pins", "general", self.pin_rows.texts(spec),
+                            self._rule("general"))
         fam_hit = self._family_lookup(pkg.name)
         assert fam_hit is not None  # package() found it, so it is a family member
         fam = fam_hit[0]
@@ -311,8 +334,10 @@ def _load(base: Path) -> Library:
     families = read_families(base / FAMILIES_FILE, rule_map)
     land_rules = read_land_rules(base / LANDS_FILE)
     terminals = read_terminals(base / TERMINALS_FILE, land_rules)
+    pin_rows = read_pin_rows(base / PINROWS_FILE)
     listed, infos = read_packages(base / PACKAGES_FILE, rule_map, grid, families, terminals,
-                                  land_rules)
+                                  land_rules, pin_rows)
     return Library(root=base, listed=listed, infos=infos, family_table=families, rules=rules,
                    grid_mm=grid, kind_table=read_kinds(base / KINDS_FILE),
-                   heights=MappingProxyType(read_heights(base / HEIGHTS_FILE)))
+                   heights=MappingProxyType(read_heights(base / HEIGHTS_FILE)),
+                   pin_rows=pin_rows)

@@ -247,16 +247,19 @@ def _row_pads(t: Terminals, pin_count: int, pitch: float, depth: float, centre: 
             if token == "-":
                 continue
             px = round((i - (len(row) - 1) / 2) * pitch, 6)
-            width = x
+            width, land_depth, py = x, depth, y
             if token.endswith("*"):  # a wide tab: the side equation on the tab's width
                 token = token[:-1]
                 _, _, width = land_equations(
                     t.span, t.terminal, (t.tab_width_mm, t.tab_width_mm), toe=0, heel=0,
                     side=goal.at(level)[2], f=rules.fabrication_mm, p=rules.placement_mm,
                     round_mm=goal.round_mm)
-            pads.append(Pad(token, px, y, "rect", width, depth))
+                if t.tab_length_mm > 0:  # a deep tab land (TO-252): its outer edge at the toe
+                    land_depth = t.tab_length_mm
+                    py = math.copysign(round(centre + depth / 2 - land_depth / 2, 6), y)
+            pads.append(Pad(token, px, py, "rect", width, land_depth))
     pads.sort(key=lambda p: int(p.number))
-    if t.tab_width_mm > 0 and t.tab_length_mm > 0:  # a two-row no-lead part's exposed pad
+    if t.tab_width_mm > 0 and t.tab_length_mm > 0 and "*" not in t.pin_map:  # a no-lead EP
         pads.append(Pad("EP", 0.0, 0.0, "rect", t.tab_width_mm, t.tab_length_mm))
     return tuple(pads)
 

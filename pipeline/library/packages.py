@@ -261,9 +261,10 @@ def _family_field(f: Fields, raw: Any, name: str, param: str, integer: bool, lo:
 class _Names:
     """The names and aliases seen so far, to refuse clashes with a clear message."""
 
-    def __init__(self, path: Path, families: tuple[PackageFamily, ...]) -> None:
+    def __init__(self, path: Path, families: tuple[PackageFamily, ...], pin_rows=None) -> None:
         self.path = path
         self.families = families
+        self.pin_rows = pin_rows  # a .pinrows.PinRows: its names are refused too
         self.seen: dict[str, tuple[str, int]] = {}  # casefold name -> (package, line)
         self.seen_compact: dict[str, tuple[str, int]] = {}
 
@@ -285,14 +286,26 @@ class _Names:
                 if fam.match(n) is not None:
                     raise LibraryError(str(self.path), f"'{n}' has the form of family "
                                        f"{fam.name} from families.toml", line=line, key=key)
+            if self.pin_rows is not None and _is_pin_row(self.pin_rows, n):
+                raise LibraryError(str(self.path), f"'{n}' has the form of a pin row name "
+                                   "(pinrows.toml)", line=line, key=key)
             self.seen[n.casefold()] = (name, line)
             self.seen_compact.setdefault(compact(n), (name, line))
+
+
+def _is_pin_row(pin_rows, name: str) -> bool:
+    """Whether ``name`` has a pin row form (a bad value still counts)."""
+    from .pinrows import BadPinRow
+    try:
+        return pin_rows.parse(name) is not None
+    except BadPinRow:
+        return True
 
 
 def read_packages(
     path: Path, rules: Mapping[str, CourtyardRule], grid: float,
     families: tuple[PackageFamily, ...], terminals: Mapping[str, Terminals],
-    land_rules: LandRules,
+    land_rules: LandRules, pin_rows=None,
 ) -> tuple[tuple[Package, ...], tuple[PackageInfo, ...]]:
     """The listed packages of ``packages.csv`` and how each was sourced.
 
@@ -303,7 +316,7 @@ def read_packages(
     """
     header_line, header, rows = csv_rows(path)
     check_header(path, header_line, header, PACKAGE_COLUMNS)
-    names = _Names(path, families)
+    names = _Names(path, families, pin_rows)
     packages: list[Package] = []
     infos: list[PackageInfo] = []
     for line, cells in rows:

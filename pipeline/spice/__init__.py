@@ -124,7 +124,7 @@ The parts map
     [design]
     revision = "B"
 
-    [stages.lowpass]                # passed on to the stage analysis
+    [blocks.lowpass]                # passed on to the block analysis ([stages.*] read with a warning)
     type = "sallen-key-lowpass"
 
 Keys of a ``refs``, ``subckt`` or ``models`` table: ``kind``, ``package``,
@@ -144,7 +144,7 @@ element used give a warning.
 
 ``* snugboard:`` records
 ------------------------
-Comment lines ``* snugboard: design|kind|net|part|stage key=value ...``
+Comment lines ``* snugboard: design|kind|net|part|block key=value ...``
 (values bare or JSON strings) are what :func:`pipeline.export.spice.spice_netlist`
 writes so a written file reads back to the same design: part kinds,
 packages and values, net names SPICE cannot spell, and parts it does not

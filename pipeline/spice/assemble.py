@@ -6,7 +6,8 @@ import json
 from typing import Any
 
 from .. import values as _values
-from ..errors import DesignError
+from ..errors import DesignError, Where
+from ..graph import SPICE_GROUND_NET
 from ..model import Net, Part, PartKind, PinRef
 from .mapping import POLARITY_KINDS, kind_pins
 from .numbers import fmt
@@ -82,7 +83,7 @@ def _nets(b: Build, net_pins: dict[str, list[PinRef]], net_records: dict[str, di
     seen: set[str] = set()
     for node, pins in net_pins.items():
         rec = net_records.get(node, {})
-        name = "GND" if node == "0" else (rec.get("name") or b.net_names.get(node, node))
+        name = SPICE_GROUND_NET if node == "0" else (rec.get("name") or b.net_names.get(node, node))
         file, line = rec.get("_file", b.rd.shown), int(rec.get("_line", "0") or 0)
         v = float_or_none(rec.get("voltage"), file, line, "voltage") if "voltage" in rec else voltages.get(node)
         vmax = float_or_none(rec.get("voltage_max"), file, line, "voltage_max")
@@ -152,10 +153,7 @@ def _from_record(f: dict[str, Any], c: Cand, rec: dict[str, str], kind: PartKind
 def _from_map(f: dict[str, Any], extra: dict[str, str], spec: Spec, kind: PartKind) -> None:
     """What a ``[refs.NAME]`` table adds to ``f`` and ``extra``; values in TOML design notation (pipeline.values)."""
     def parsed(key: str, parse: Any, *args: Any) -> Any:
-        try:
-            return parse(spec.get(key), *args)
-        except ValueError as exc:
-            raise DesignError(spec.file, str(exc), line=spec.line, key=f"{spec.key}.{key}") from None
+        return parse(spec.get(key), *args, at=Where(spec.file, spec.line, f"{spec.key}.{key}"))
 
     if spec.get("value") is not None:
         f["value_text"] = spec.get("value")

@@ -3,7 +3,8 @@
 from __future__ import annotations
 
 
-from ..errors import DesignError
+from ..errors import DesignError, ValueTextError
+from ..graph import SPICE_GROUND_NET, SPICE_GROUND_NODES
 from .numbers import NUM_RE, PLAIN_NUM, number_warning, parse_number
 from .expr import ExprError, Scope, evaluate, strip_braces
 from .limits import SUBCKT_DEPTH, limit_hint
@@ -13,7 +14,6 @@ from .collect import Subckt, read_params
 from .state import Build, Ctx, global_scope
 from .mapping import DEFAULTS, LETTER_TYPES, POLARITY_KINDS, add_candidate, map_pins, resolve
 
-_GROUND = ("0", "gnd")
 
 
 _SOURCES = {"v": "voltage source", "i": "current source", "b": "behavioural source",
@@ -40,8 +40,8 @@ def net_key(b: Build, ctx: Ctx, node: str, ln: Line) -> str:
     if node[:1] in "{'\"" or "=" in node:
         raise DesignError(ln.file, f"'{node}' is not a node name", line=ln.line)
     low = node.lower()
-    if low in _GROUND:
-        b.net_names.setdefault("0", "GND")
+    if low in SPICE_GROUND_NODES:
+        b.net_names.setdefault("0", SPICE_GROUND_NET)
         b.net_lines.setdefault("0", ln.line)
         return "0"
     if low in ctx.ports:
@@ -75,7 +75,7 @@ def _value_of(token: str, ctx: Ctx, ln: Line, b: Build, name: str, letter: str) 
         t = t[1:-1]
     try:
         v = parse_number(t)
-    except ValueError:
+    except ValueTextError:
         try:
             ctx.scope.get(t)
             hint = f"; write {{{t}}} to use the parameter"
@@ -182,7 +182,7 @@ def _source(ln: Line, letter: str, ctx: Ctx, b: Build, spice_name: str) -> None:
         return
     try:
         v = _evaluate_at(vals[0], ctx, b) if vals[0][:1] in "{'" else parse_number(vals[0])
-    except (ValueError, ExprError):
+    except (ValueTextError, ExprError):
         return
     if v == 0:
         return

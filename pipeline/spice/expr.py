@@ -14,6 +14,7 @@ import re
 from dataclasses import dataclass, field
 from typing import Callable
 
+from ..errors import ValueTextError
 from .limits import EXPRESSION_DEPTH, limit_hint
 from .numbers import parse_number
 
@@ -91,8 +92,8 @@ def _operand(tok: tuple[str, str], nxt: tuple[str, str] | None, lookup: Callable
     if tok[0] == "num":
         try:
             return parse_number(tok[1])
-        except ValueError as exc:
-            raise ExprError(str(exc)) from None
+        except ValueTextError as exc:
+            raise ExprError(exc.reason) from None
     if nxt == ("op", "("):
         raise ExprError(f"function '{tok[1]}(...)' is not supported; use a plain value")
     return lookup(tok[1])

@@ -6,6 +6,7 @@ import math
 import re
 from decimal import Decimal, InvalidOperation, Overflow, Underflow, localcontext
 
+from ..errors import ValueTextError
 from ..values import PREFIX_EXPONENT
 
 
@@ -65,7 +66,7 @@ def parse_number(token: str) -> float:
 
     Raises
     ------
-    ValueError
+    ValueTextError
         When ``token`` does not start with a number, or overflows.
 
     Examples
@@ -77,10 +78,10 @@ def parse_number(token: str) -> float:
     """
     got = _split_number(token.strip())
     if got is None:
-        raise ValueError(f"'{token}' is not a number")
+        raise ValueTextError(f"'{token}' is not a number")
     value = float(got[0])
     if not math.isfinite(value):
-        raise ValueError(f"'{token}' is out of range")
+        raise ValueTextError(f"'{token}' is out of range")
     return value
 
 
