@@ -300,7 +300,7 @@ def cavity_cmd(ctx: click.Context, dxf_file: str, project_dir: str | None, as_js
             _say(f"  {f.message}")
     for i, k in enumerate(cavity.keepouts):
         c = k.centroid
-        _say(f"  keep-out {i + 1}: centre ({c.x:.2f}, {c.y:.2f}) mm, {k.area:.1f} mm2")
+        _say(f"  keep-out {i + 1}: centre ({round(c.x, 2) + 0.0:.2f}, {round(c.y, 2) + 0.0:.2f}) mm, {k.area:.1f} mm2")
     for z in cavity.depth_zones:
         _say(f"  depth zone {z.layer}: {z.depth_mm:g} mm deep on {z.polygon.area:.1f} mm2")
     _say(f"usable board region {region.area_mm2:.1f} mm2:")
