@@ -269,7 +269,8 @@ def new_cmd(ctx: click.Context, folder: str) -> None:
 @click.pass_context
 def cavity_cmd(ctx: click.Context, dxf_file: str, project_dir: str | None, as_json: bool,
                write_dxf: str | None) -> None:
-    """Read a cavity drawing or measured-cavity file alone: units, outline, keep-outs, depth zones, region."""
+    """Read a cavity drawing, measured-cavity file or shell mesh (STL, OBJ, 3MF) alone: units, outline,
+    keep-outs, depth zones, region."""
     from pathlib import Path
 
     from .project import inspect_cavity, load_project, write_cavity_dxf
@@ -299,6 +300,14 @@ def cavity_cmd(ctx: click.Context, dxf_file: str, project_dir: str | None, as_js
     _say(f"{dxf_file}: units {cavity.unit_name} ({cavity.mm_per_unit:g} mm each); cavity "
                f"{x1 - x0:.2f} x {y1 - y0:.2f} mm, {cavity.outline.area:.1f} mm2; {len(cavity.keepouts)} keep-out(s); "
                f"{len(cavity.depth_zones)} depth zone(s)" + ("; BOARD outline given" if cavity.board is not None else ""))
+    for f in findings:
+        if f.check == "cavity.mesh-floor":
+            _say(f"  {f.message}")
+    for i, k in enumerate(cavity.keepouts):
+        c = k.centroid
+        _say(f"  keep-out {i + 1}: centre ({round(c.x, 2) + 0.0:.2f}, {round(c.y, 2) + 0.0:.2f}) mm, {k.area:.1f} mm2")
+    for z in cavity.depth_zones:
+        _say(f"  depth zone {z.layer}: {z.depth_mm:g} mm deep on {z.polygon.area:.1f} mm2")
     _say(f"usable board region {region.area_mm2:.1f} mm2:")
     for z in region.zones:
         _say(f"  parts up to {z.max_height_mm:.2f} mm tall on {z.polygon.area:.1f} mm2")

@@ -110,6 +110,8 @@ CODES: dict[str, Code] = {
     "cavity.not-flat": _c("warning", "entities not in the drawing's plane"),
     "cavity.outside": _c("warning", "a keep-out or depth zone outside the cavity"),
     "cavity.implausible-size": _c("warning", "a cavity whose size suggests the wrong units"),
+    "cavity.mesh-floor": _c("info", "a shell mesh's board plane, grid step, zone step and default depth"),
+    "cavity.mesh-repaired": _c("warning", "a shell mesh with holes or flipped faces that the mesh library repaired"),
     # usable region (pipeline/region.py)
     "region.board-outside": _c("error", "a drawn BOARD outline closer to the wall than the clearance"),
     "region.board-over-keepout": _c("error", "a drawn BOARD outline over a keep-out"),

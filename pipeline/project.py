@@ -61,7 +61,8 @@ _KEYS: dict[str, tuple[str, ...]] = {
     "project": ("name", "design", "cavity", "parts_map"),
     "board": ("layers", "thickness_mm", "sides", "density", "edge_clearance_mm", "wall_clearance_mm",
               "outline", "min_inside_radius_mm", "outline_units"),
-    "cavity": ("depth_mm", "units", "layers", "chord_tolerance_mm"),
+    "cavity": ("depth_mm", "units", "layers", "chord_tolerance_mm",
+               "mesh_up", "mesh_floor", "mesh_lid", "mesh_grid_mm", "mesh_zone_step_mm"),
     "order": ("boards", "spares_percent", "min_spares", "multiple"),
     "analysis": ("draws", "seed", "retune_above_share"),
     "limits": tuple(SPICE_LIMITS) + tuple(CAVITY_LIMITS),  # README "Limits"; each a whole number >= 1
@@ -98,6 +99,7 @@ class Project:
     limits: tuple[tuple[str, int], ...] = ()  # [limits] keys given, sorted
     outline_units: str = "mm"  # board-outline.dxf in "mm" or in the cavity drawing's units
     copper: CopperRules = CopperRules()
+    mesh_options: tuple = ()  # [cavity] mesh_* keys, checked by the mesh reader (pipeline/cavity/mesh.py)
 
 
 @dataclass(frozen=True)
@@ -203,6 +205,8 @@ def load_project(
         units=_text(src, "cavity.units", cv.get("units", "mm"), UNITS),
         outline_units=_text(src, "board.outline_units", bd.get("outline_units", "mm"), ("mm", "drawing")),
         layer_map=layer_map,
+        mesh_options=tuple(sorted((k, str(rel(f"cavity.{k}", v)) if k == "mesh_lid" else v)
+                                  for k, v in cv.items() if k.startswith("mesh_"))),
         chord_tolerance_mm=float(_num(src, "cavity.chord_tolerance_mm", cv.get("chord_tolerance_mm", 0.02),
                                       lo=0, lo_open=True, hi=5)),
         draws=_num(src, "analysis.draws", an.get("draws", 10000), integer=True, lo=100, hi=1_000_000),
@@ -338,7 +342,8 @@ def inspect_cavity(path: Path, *, shown: str | None = None, project: Project | N
                              default_units=p.units if p else "mm",
                              depth_mm=p.depth_mm if p else 5.0,
                              chord_tol_mm=p.chord_tolerance_mm if p else 0.02,
-                             limits=Limits.from_table(dict(p.limits) if p else None))
+                             limits=Limits.from_table(dict(p.limits) if p else None),
+                             mesh_options=dict(p.mesh_options) if p else None)
     region, rw = usable_region(cavity, p.board if p else BoardOptions())
     return cavity, region, (*cw, *rw)
 
@@ -464,7 +469,8 @@ def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Prog
     cavity, cw = read_cavity(project.cavity_path, display_name=project.cavity_shown,
                              layer_map=project.layer_map, default_units=project.units,
                              depth_mm=project.depth_mm, chord_tol_mm=project.chord_tolerance_mm,
-                             limits=Limits.from_table(dict(project.limits)))
+                             limits=Limits.from_table(dict(project.limits)),
+                             mesh_options=dict(project.mesh_options))
     region, rw = usable_region(cavity, project.board)
     items = items_from_design(design, lib, project.board.density)
     fit = place_and_fit(items, region, project.board, user_board=cavity.board, progress=progress)

@@ -14,7 +14,7 @@ from pathlib import Path
 import pytest
 
 ROOT = Path(__file__).resolve().parents[1]
-HEAVY = ("scipy", "numpy", "shapely", "ezdxf", "networkx")
+HEAVY = ("scipy", "numpy", "shapely", "ezdxf", "networkx", "trimesh")
 
 
 def _imported_after(code: str) -> set[str]:

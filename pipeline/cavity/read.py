@@ -26,6 +26,7 @@ from .convert import CURVES, MeshPolyline, Piece, convert_leaf
 from .limits import JOIN_TOL_MM, MAX_PLAUSIBLE_SIDE_MM, MIN_PLAUSIBLE_AREA_MM2, Limits
 from .load import LoaderLog, load_dxf, printable, short
 from .measured import MEASURED_SUFFIX, read_measured
+from .mesh import MESH_SUFFIXES, mesh_settings, read_mesh
 from .roles import LayerRoles, parse_layer_map
 from .units import drawing_units, unit_code
 from .walk import Walker
@@ -46,6 +47,7 @@ def read_cavity(
     settings_file: str = "project.toml",
     limits: Limits | None = None,
     progress: Progress | None = None,
+    mesh_options: Mapping[str, Any] | None = None,
 ) -> tuple[Cavity, list[Finding]]:
     """Read a cavity drawing into millimetre polygons.
 
@@ -74,6 +76,9 @@ def read_cavity(
         :mod:`pipeline.cavity.limits` when not given.
     progress : callable, optional
         ``progress(message, fraction)`` now and then.
+    mesh_options : mapping, optional
+        project.toml's ``[cavity] mesh_*`` keys for a shell mesh (a file
+        ending in ``.stl``, ``.obj`` or ``.3mf``, :mod:`pipeline.cavity.mesh`).
 
     Returns
     -------
@@ -104,6 +109,10 @@ def read_cavity(
     findings: list[Finding] = []
     roles = parse_layer_map(layer_map, source=settings_file)
     default_code = _check_settings(depth_mm, chord_tol_mm, default_units, settings_file)
+    if Path(path).suffix.lower() in MESH_SUFFIXES:
+        cavity, findings = read_mesh(Path(path), display_name=name, unit_code=default_code, depth_mm=float(depth_mm),
+                                     options=mesh_settings(mesh_options, settings_file), progress=progress)
+        return cavity, findings + _plausibility(cavity.outline, cavity.unit_name, name)
     if Path(path).suffix.lower() == MEASURED_SUFFIX:
         return read_measured(Path(path), display_name=name, depth_mm=float(depth_mm), chord_tol_mm=chord_tol_mm)
     with LoaderLog() as log:
