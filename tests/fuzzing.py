@@ -26,6 +26,7 @@ import time
 from dataclasses import dataclass
 from pathlib import Path
 
+from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 #: per-case bounds of the long campaign (the default run's cases are far smaller)
@@ -196,3 +197,31 @@ def check_case(case: Case, runner=run_inprocess) -> Outcome:
 def report(title: str) -> str:
     n = sum(OUTCOMES.values())
     return f"{title}: {n} inputs; " + ", ".join(f"{k}: {v}" for k, v in sorted(OUTCOMES.items()))
+
+
+def warm() -> None:
+    """Import every module the command loads lazily, so that forked children start warm."""
+    with tempfile.TemporaryDirectory() as tmp:
+        p = Path(tmp)
+        (p / "project.toml").write_bytes(b'[project]\ndesign = "design.toml"\n')
+        (p / "design.toml").write_text('[design]\nname = "w"\n[parts.P1]\nkind = "wire-pad"\npackage = "pad-1.5mm"\n'
+                                       '[parts.P2]\nkind = "wire-pad"\npackage = "pad-1.5mm"\n[nets]\nA = ["P1.1", "P2.1"]\n')
+        run_inprocess(["run", str(p), "--out", str(p / "out")])
+
+
+def long_run(cases, title: str) -> None:
+    """The long campaign of the fuzz group: ``SNUGBOARD_FUZZ_EXAMPLES`` (2000) cases of the strategy
+    ``cases``, each through the real command in a forked child; prints the counts by outcome."""
+    n = int(os.environ.get("SNUGBOARD_FUZZ_EXAMPLES", "2000"))
+    OUTCOMES.clear()
+
+    @settings(max_examples=n, deadline=None, suppress_health_check=list(HealthCheck), database=None)
+    @given(cases)
+    def run(case):
+        check_case(case, run_forked)
+
+    warm()
+    try:
+        run()
+    finally:
+        print("\n" + report(title))

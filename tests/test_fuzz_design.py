@@ -5,13 +5,12 @@ forked children under a time and memory bound and prints the counts by outcome."
 
 from __future__ import annotations
 
-import os
 
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from fuzzing import ANY_VALUE, HOSTILE_TEXT, NUMBERS, OUTCOMES, Case, check_case, mutated, report, run_forked, \
+from fuzzing import ANY_VALUE, HOSTILE_TEXT, NUMBERS, Case, check_case, mutated, long_run, \
     toml_tables
 
 PROJECT = b'[project]\ndesign = "design.toml"\n'
@@ -90,30 +89,4 @@ def test_design_reader_properties(case):
 
 @pytest.mark.fuzz
 def test_design_reader_properties_long():
-    n = int(os.environ.get("SNUGBOARD_FUZZ_EXAMPLES", "2000"))
-    OUTCOMES.clear()
-
-    @settings(max_examples=n, deadline=None, suppress_health_check=list(HealthCheck), database=None)
-    @given(design_cases())
-    def run(case):
-        check_case(case, run_forked)
-
-    _warm()
-    try:
-        run()
-    finally:
-        print("\n" + report("design fuzz"))
-
-
-def _warm() -> None:
-    """Import every module the command loads lazily, so that forked children start warm."""
-    import tempfile
-    from pathlib import Path
-
-    from fuzzing import run_inprocess
-    with tempfile.TemporaryDirectory() as tmp:
-        p = Path(tmp)
-        (p / "project.toml").write_bytes(PROJECT)
-        (p / "design.toml").write_text('[design]\nname = "w"\n[parts.P1]\nkind = "wire-pad"\npackage = "pad-1.5mm"\n'
-                                       '[parts.P2]\nkind = "wire-pad"\npackage = "pad-1.5mm"\n[nets]\nA = ["P1.1", "P2.1"]\n')
-        run_inprocess(["run", str(p), "--out", str(p / "out")])
+    long_run(design_cases(), "design fuzz")

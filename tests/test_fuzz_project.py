@@ -5,15 +5,13 @@ is bounded and in-process; ``pytest -m fuzz tests/test_fuzz_project.py`` runs ``
 
 from __future__ import annotations
 
-import os
 
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from fuzzing import ANY_VALUE, HOSTILE_TEXT, OUTCOMES, Case, check_case, mutated, report, run_forked, toml_tables
+from fuzzing import ANY_VALUE, HOSTILE_TEXT, Case, check_case, mutated, long_run, toml_tables
 from generated import chain_design
-from test_fuzz_design import _warm
 
 KEYS = {
     "project": ["name", "design", "cavity", "parts_map"],
@@ -64,16 +62,4 @@ def test_project_reader_properties(case):
 
 @pytest.mark.fuzz
 def test_project_reader_properties_long():
-    n = int(os.environ.get("SNUGBOARD_FUZZ_EXAMPLES", "2000"))
-    OUTCOMES.clear()
-
-    @settings(max_examples=n, deadline=None, suppress_health_check=list(HealthCheck), database=None)
-    @given(project_cases())
-    def run(case):
-        check_case(case, run_forked)
-
-    _warm()
-    try:
-        run()
-    finally:
-        print("\n" + report("project fuzz"))
+    long_run(project_cases(), "project fuzz")
