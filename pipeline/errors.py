@@ -28,6 +28,7 @@ import unicodedata
 from dataclasses import dataclass
 
 __all__ = [
+    "limit_hint",
     "shown",
     "SnugboardError",
     "InputError",
@@ -233,3 +234,14 @@ class OutputError(SnugboardError):
         self.path = str(path)
         self.reason = reason
         super().__init__(shown(f"{self.path}: {reason}"))
+
+
+def limit_hint(key: str) -> str:
+    """How to raise the limit ``key``: a clause for the end of a message.
+
+    Examples
+    --------
+    >>> limit_hint("expression_depth")
+    'this is the expression_depth limit; raise it in project.toml with [limits] expression_depth = ...'
+    """
+    return f"this is the {key} limit; raise it in project.toml with [limits] {key} = ..."

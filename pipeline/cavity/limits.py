@@ -10,7 +10,7 @@ from __future__ import annotations
 from dataclasses import dataclass, fields, replace
 from typing import Any, Mapping
 
-from pipeline.spice.limits import limit_hint
+from pipeline.errors import limit_hint
 
 __all__ = [
     "JOIN_TOL_MM", "REL_TOL", "MAX_FILE_BYTES", "MAX_ENTITIES", "MAX_VERTICES", "MAX_BLOCK_DEPTH",
@@ -74,7 +74,7 @@ class Limits:
 
     @staticmethod
     def how_to_raise(key: str) -> str:
-        """The words every limit message ends with (the one wording, :func:`pipeline.spice.limits.limit_hint`)."""
+        """The words every limit message ends with (the one wording, :func:`pipeline.errors.limit_hint`)."""
         return limit_hint(key)
 
 

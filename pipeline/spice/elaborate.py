@@ -3,11 +3,11 @@
 from __future__ import annotations
 
 
-from ..errors import DesignError, ValueTextError
+from ..errors import DesignError, ValueTextError, limit_hint
 from ..graph import SPICE_GROUND_NET, SPICE_GROUND_NODES
 from .numbers import NUM_RE, PLAIN_NUM, number_warning, parse_number
 from .expr import ExprError, Scope, evaluate, strip_braces
-from .limits import SUBCKT_DEPTH, limit_hint
+from .limits import SUBCKT_DEPTH
 from .lines import Line
 from .tokens import REF_RE, is_kv, nodes_and_params, split_tokens
 from .collect import Subckt, read_params

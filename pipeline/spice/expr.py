@@ -14,8 +14,8 @@ import re
 from dataclasses import dataclass, field
 from typing import Callable
 
-from ..errors import ValueTextError
-from .limits import EXPRESSION_DEPTH, limit_hint
+from ..errors import ValueTextError, limit_hint
+from .limits import EXPRESSION_DEPTH
 from .numbers import parse_number
 
 _EXPR_TOKEN = re.compile(

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+
 #: Largest SPICE file (the design, an included file) read, in bytes.
 FILE_BYTES = 50_000_000
 #: Most ``.include`` / ``.lib`` splices in one reading, counted as they are
@@ -35,17 +36,6 @@ DEFAULTS = {
     "spice_expansion_parts": EXPANSION_PARTS,
     "expression_depth": EXPRESSION_DEPTH,
 }
-
-
-def limit_hint(key: str) -> str:
-    """How to raise the limit ``key``: a clause for the end of a message.
-
-    Examples
-    --------
-    >>> limit_hint("expression_depth")
-    'this is the expression_depth limit; raise it in project.toml with [limits] expression_depth = ...'
-    """
-    return f"this is the {key} limit; raise it in project.toml with [limits] {key} = ..."
 
 
 @dataclass(frozen=True)

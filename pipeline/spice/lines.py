@@ -10,9 +10,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Iterable
 
-from ..errors import DesignError
+from ..errors import DesignError, limit_hint
 from ..model import Finding
-from .limits import SpiceLimits, limit_hint
+from .limits import SpiceLimits
 
 _RECORD_RE = re.compile(r"^\*\s*snugboard:\s*(\w+)\s*(.*)$", re.I)
 
