@@ -503,16 +503,17 @@ def _route(project: Project, route: bool, fit: FitResult, items: Any, region: An
     routes.json, board-copper.dxf and placement.csv to ``files``.
     """
     from .export.placement import placement_csv
-    from .export.results import dump_json
-    from .export.routes import routes_dxf
-    from .route import route_fit, skipped
+    from .route import skipped
 
     out = None
     if not (route and project.copper.route):
         verdict = skipped("routing is switched off (--no-route or [copper] route = false): the verdict is placement only")
     elif not fit.fits or fit.board_outline is None or fit.board_outline.is_empty:
         verdict = skipped(NOT_FITTING)
-    else:
+    else:  # the router and its writers are imported only when routing runs
+        from .export.results import dump_json
+        from .export.routes import routes_dxf
+        from .route import route_fit
         fit, out = route_fit(fit, items, region, project.board, design, lib, project.copper, user_board=user_board,
                              progress=progress)
         if project.board.outline == "smallest":
