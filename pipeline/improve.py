@@ -18,7 +18,9 @@ own HPWL is smallest. One *round*:
 2. Each part's target is the median of its nets' box edges (one sort of
    all edges; no per-part ``np.median``); the ``SWAP_CANDIDATES`` slots of
    its class nearest the target (a k-d tree per class, queried in one
-   batch) are its candidate swaps.
+   batch; a class of at most ``BRUTE_FORCE_SLOTS`` slots uses one
+   distance matrix instead, so small boards do not import scipy) are its
+   candidate swaps.
 3. Every candidate swap ``(i, j)`` is evaluated at once with numpy: the
    change of HPWL of every net of ``i`` when ``i`` moves to ``j``'s slot,
    plus the same for ``j``; nets holding both parts do not change and are
