@@ -224,6 +224,8 @@ def load_project(
 
 def _read_mounts(src: TomlSource, body: Any) -> tuple:
     """``[[board.mount]]`` tables: ``at = [x, y]`` (mm, the drawing's frame) and ``screw``."""
+    if isinstance(body, list) and not body:
+        return ()
     from .mount import screw
 
     if not isinstance(body, list) or not all(isinstance(t, dict) for t in body):

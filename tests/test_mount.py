@@ -148,6 +148,8 @@ def test_cli_run_with_a_mount_writes_the_hole_everywhere(tmp_path):
     rings = [Polygon([(x, y) for x, y, *_ in e.get_points()]) for e in dxf.modelspace().query("LWPOLYLINE")]
     assert any(abs(p.area - math.pi * 1.2 ** 2) < 0.05 and p.centroid.distance(Point(25, 15)) < 1e-3 for p in rings)
     assert "region.mount" in (out / "findings.json").read_text()
+    svg = (out / "fit.svg").read_text()
+    assert '<circle class="mount-ring" cx="25.000" cy="-15.000" r="2.500"' in svg  # drawn at (x, -y)
     assert "M2 clearance hole" in (out / "report.html").read_text()
 
 
