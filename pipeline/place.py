@@ -766,6 +766,9 @@ def _fixed_parts(items, region: Region, board: BoardOptions) -> dict:
             raise DesignError(f.file or "design", f"the courtyard fixed at ({_fmt(f.x_mm)}, {_fmt(f.y_mm)}) mm "
                               f"reaches outside the usable region (the cavity less its wall clearance and "
                               f"keep-outs)", key=f"parts.{it.ref}.at", **where)
+        if region.mounts and court.intersection(mount_keepout(region.mounts)).area > 1e-9:
+            raise DesignError(f.file or "design", f"the courtyard fixed at ({_fmt(f.x_mm)}, {_fmt(f.y_mm)}) mm "
+                              "stands on a mounting screw's head ring or its boss", key=f"parts.{it.ref}.at", **where)
         for j, other in seen:
             if fixed[j][0] == side and court.intersection(other).area > 1e-9:
                 raise DesignError(f.file or "design", f"its fixed courtyard overlaps {items[j].ref}'s, also fixed "

@@ -180,3 +180,14 @@ def test_cli_measured_boss_mount_bad_size(tmp_path):
     assert r.exit_code == 2, r.output
     assert "bay.toml:6: boss[0].mount: unknown screw size 'M4'" in r.output
     assert not (folder / "out").exists()
+
+
+def test_cli_part_fixed_on_the_head_ring_exits_2(tmp_path):
+    folder = _starter(tmp_path, '\n[[board.mount]]\nat = [25, 15]\nscrew = "M2"\n')
+    design = folder / "design.toml"
+    # R1's courtyard centred 2 mm from the boss centre: inside the 2.5 mm M2 head ring
+    design.write_text(design.read_text().replace("[parts.R1]\n", "[parts.R1]\nat = [23.0, 15.0]\n", 1))
+    r = CliRunner().invoke(main, ["run", str(folder)])
+    assert r.exit_code == 2, r.output
+    assert "design.toml" in r.output and "parts.R1.at" in r.output and "head ring" in r.output
+    assert not (folder / "out").exists()
