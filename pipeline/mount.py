@@ -48,7 +48,7 @@ from .errors import CavityError, InputError, LibraryError
 from .model import Cavity, Mount, MountMark
 
 __all__ = ["Screw", "screws", "screw", "mark_points", "resolve_mounts", "circle", "mount_keepout",
-           "with_mount_holes",
+           "with_mount_holes", "head_room", "raised_heads",
            "HEAD_CLEARANCE_MM", "BOSS_WALL_MM", "BOSS_MAX_PER_HEAD", "SCREWS_FILE"]
 
 #: Radial clearance around the screw head's dk max, mm (common practice).
@@ -200,3 +200,22 @@ def with_mount_holes(outline, mounts: Sequence[Mount], blocked: list[str]):
                            f"({m.x_mm:.4g}, {m.y_mm:.4g}) mm ({m.where}): the board cannot be screwed there; "
                            "use the region outline or a board that covers the boss.")
     return orient(outline, 1.0) if outline.geom_type == "Polygon" else outline
+
+
+def head_room(m: Mount, zones) -> float:
+    """The height above the board over the boss centre (the lowest zone holding it; inf without zones)."""
+    p = Point(m.x_mm, m.y_mm)
+    return min((z.max_height_mm for z in zones if z.polygon.buffer(1e-9).covers(p)), default=math.inf)
+
+
+def raised_heads(mounts: Sequence[Mount], zones, gap: float) -> list[str]:
+    """Sentences for the screw heads that no longer fit under the lid when the board is raised
+    ``gap`` mm on bottom-side parts (``sides = 2``)."""
+    out = []
+    for m in mounts:
+        room = head_room(m, zones) - gap
+        if gap > 0 and m.head_height_mm > room + 1e-9:
+            out.append(f"The {m.screw} screw head ({m.head_height_mm:g} mm) on the boss at ({m.x_mm:.4g}, "
+                       f"{m.y_mm:.4g}) mm ({m.where}) does not fit under the lid with the board raised {gap:g} mm "
+                       f"on bottom-side parts: only {room:.3g} mm is left there.")
+    return out

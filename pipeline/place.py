@@ -102,7 +102,7 @@ from .area import estimate_area
 from .errors import DesignError, ProjectError
 from .improve import improve_swaps
 from .model import BoardOptions, FitResult, Finding, PlaceItem, Placement, Region
-from .mount import mount_keepout, with_mount_holes
+from .mount import mount_keepout, raised_heads, with_mount_holes
 from .order import natural_key
 from .outline import QUAD_SEGS, cells_inside, polygons_of, propose_outline
 
@@ -725,6 +725,7 @@ def _pack_and_check(items, area, region: Region, board: BoardOptions, estimate, 
             f"{_fmt(board.edge_clearance_mm)} mm edge clearance) or the height the lid allows for "
             f"{_fmt(items[i].height_mm)} mm: move it or choose a lower package.")
     out.blocked += _diagnose(packer, run, not_placed, region, board)
+    out.blocked += raised_heads(region.mounts, region.zones, run.gap)
     bottom = [p.ref for p in out.placements if p.side == "bottom"]
     if run.gap > 0 and bottom:
         out.warnings.append(Finding(

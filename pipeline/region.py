@@ -57,12 +57,12 @@ from __future__ import annotations
 import math
 
 import shapely
-from shapely.geometry import MultiPolygon, Point, Polygon
+from shapely.geometry import MultiPolygon, Polygon
 from shapely.geometry.base import BaseGeometry
 
 from pipeline.errors import ProjectError
 from pipeline.model import BoardOptions, Cavity, Finding, HeightZone, Region
-from pipeline.mount import circle, resolve_mounts
+from pipeline.mount import circle, head_room, resolve_mounts
 
 __all__ = ["usable_region", "polygonal", "SLIVER_MM2"]
 
@@ -226,8 +226,7 @@ def _mount_findings(mounts, region_geom: BaseGeometry, zones, cavity: Cavity) ->
                                "board region (wall clearance or another keep-out cuts it): no board can be "
                                "screwed there."))
             continue
-        room = min((z.max_height_mm for z in zones if z.polygon.buffer(1e-9).covers(Point(m.x_mm, m.y_mm))),
-                   default=math.inf)
+        room = head_room(m, zones)
         if m.head_height_mm > room + 1e-9:
             out.append(Finding("error", "region.mount-head", (cavity.source,),
                                f"The {m.screw} pan head ({m.head_height_mm:g} mm tall) on the mounting boss at "

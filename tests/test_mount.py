@@ -191,3 +191,26 @@ def test_cli_part_fixed_on_the_head_ring_exits_2(tmp_path):
     assert r.exit_code == 2, r.output
     assert "design.toml" in r.output and "parts.R1.at" in r.output and "head ring" in r.output
     assert not (folder / "out").exists()
+
+
+def test_hole_cut_by_the_wall_clearance_is_an_error_finding():
+    # hole of 2.4 mm at x = 1.0 reaches x = -0.2, beyond the 0.3 mm wall clearance (closed form)
+    region, findings = usable_region(_cavity(30, 20, 1.0, 10, 4.0), BoardOptions(wall_clearance_mm=0.3))
+    assert [(f.severity, f.check) for f in findings] == [("error", "region.mount-outside")]
+
+
+def test_two_mounts_on_one_keepout_are_refused():
+    cav = _cavity(30, 20, 10, 10, 4.0)
+    twice = mark_points(cav, [((10, 10), "M2", "board.mount[0].at", 4)], "project.toml", CavityError)
+    with pytest.raises(CavityError, match="already a mount"):
+        resolve_mounts(twice)
+
+
+@pytest.mark.parametrize("gap, blocked", [(0.0, False), (0.3, False), (0.5, True)])
+def test_raised_board_leaves_less_room_for_the_head(gap, blocked):
+    from pipeline.mount import raised_heads
+
+    # lid 2.8 mm over a 0.8 mm board: 2.0 mm; an M2 head is 1.6 mm (ISO 7045 k max): gap 0.4 mm is the limit
+    region, findings = usable_region(_cavity(30, 20, 10, 10, 4.0, depth=2.8), BoardOptions())
+    assert [f.check for f in findings] == ["region.mount"]
+    assert bool(raised_heads(region.mounts, region.zones, gap)) is blocked
