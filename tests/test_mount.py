@@ -214,3 +214,11 @@ def test_raised_board_leaves_less_room_for_the_head(gap, blocked):
     region, findings = usable_region(_cavity(30, 20, 10, 10, 4.0, depth=2.8), BoardOptions())
     assert [f.check for f in findings] == ["region.mount"]
     assert bool(raised_heads(region.mounts, region.zones, gap)) is blocked
+
+
+def test_cli_cavity_command_names_the_mounting_boss(tmp_path):
+    folder = _starter(tmp_path, '\n[[board.mount]]\nat = [25, 15]\nscrew = "M2"\n')
+    r = CliRunner().invoke(main, ["cavity", str(folder / "cavity.dxf"), "--project", str(folder)])
+    assert r.exit_code == 0, r.output
+    # ISO 273 medium series 2.4 mm; ISO 7045 dk max 4.0 + 2 x 0.5 mm (common practice) = 5 mm
+    assert "mounting boss: M2 hole 2.4 mm, head ring 5 mm" in r.output
