@@ -131,7 +131,7 @@ class Routing:
 # --------------------------------------------------------------------------
 class _Net:
     __slots__ = ("name", "k", "pads", "width", "area", "grid", "terms", "paths", "vias", "core", "claim",
-                 "failed", "stubs", "halo", "dead")
+                 "failed", "stubs", "halo", "dead", "halo_key", "corridor")
 
     def __init__(self, name, k, pads, width, area):
         self.name, self.k, self.pads, self.width, self.area = name, k, pads, width, area
@@ -145,6 +145,8 @@ class _Net:
         self.dead = False     # a connection has no path at all (not a matter of congestion)
         self.stubs: list[tuple[int, str, LineString]] = []
         self.halo: list[tuple[int, int]] = []
+        self.halo_key: tuple = ()
+        self.corridor = None  # plane cells (bytearray, 1 = usable) the detailed search keeps to, or None
 
 
 def route_board(board: RouteBoard, rules: CopperRules, *, progress: Progress | None = None,
@@ -208,6 +210,16 @@ class _Router:
         self.core_occ = [0] * n_nodes
         self.claim_occ = [0] * n_nodes
         self.hist = [0.0] * n_nodes
+        # copper of other nets near each node (per halo shape) and near each via site (all layers),
+        # kept up to date by commit() so that a search step reads one number instead of summing
+        self.near = {}
+        for net in self.nets:
+            net.halo_key = tuple(net.halo)
+            self.near.setdefault(net.halo_key, [0] * n_nodes)
+        self.via_near = [0] * (n_nodes // len(self.layers) if self.layers else 0)
+        prefer = len(self.layers) - len(self.rules.areas) > 1
+        self.steps = ([1.0 if not prefer or li % 2 == 0 else OFF_DIRECTION for li in range(len(self.layers))],
+                      [1.0 if not prefer or li % 2 == 1 else OFF_DIRECTION for li in range(len(self.layers))])
 
     def node_at(self, g: Grid, layer: str, xy) -> int:
         i = round((xy[0] - g.x0) / g.pitch)
@@ -290,11 +302,28 @@ class _Router:
                     out.append(lj * plane + jj * g.nx + ii)
         return out
 
+    def _spread(self, g: Grid, nodes, offsets, *, same_layer: bool) -> list[int]:
+        """Every node within ``offsets`` of each of ``nodes`` (with repeats: one per pair)."""
+        out: list[int] = []
+        for n in nodes:
+            out.extend(self.around(g, n, offsets, same_layer=same_layer))
+        return out
+
     def commit(self, net: _Net, sign: int) -> None:
         if sign > 0:
             net.core, net.claim = self.claims(net)
+        core_occ = self.core_occ
         for n in net.core:
-            self.core_occ[n] += sign
+            core_occ[n] += sign
+        if net.core:
+            g = net.grid
+            plane = g.nx * g.ny
+            for halo, near in self.near.items():
+                for m in self._spread(g, net.core, halo, same_layer=True):
+                    near[m] += sign
+            via_near = self.via_near
+            for m in self._spread(g, [n % plane for n in net.core], self.via_halo, same_layer=True):
+                via_near[m] += sign
         for n in net.claim:
             self.claim_occ[n] += sign
 
@@ -389,38 +418,30 @@ class _Router:
                 return path
         return self._search(net, sources, targets, present, (0, 0, g.nx - 1, g.ny - 1))
 
-    def _search(self, net, sources, targets, present, box):
+    def _search(self, net, sources, targets, present, box, mask=None):
+        """A* inside ``box`` (and the plane cells ``mask`` marks, when given).
+
+        The inner loop touches flat lists only: owners, history, sharers
+        and the occupancy near each node kept up to date by :meth:`commit`
+        (``self.near``, ``self.via_near``), so one expansion costs a few
+        list reads and at most one heap push per neighbour.
+        """
         g = net.grid
-        nx, ny = g.nx, g.ny
-        plane = nx * ny
+        nx = g.nx
+        plane = nx * g.ny
         nl = len(self.layers)
         node, ex, ey, via = g.node, g.ex, g.ey, g.via
-        hist, claim_occ, core_occ = self.hist, self.claim_occ, self.core_occ
+        hist, claim_occ = self.hist, self.claim_occ
+        near, via_near = self.near[net.halo_key], self.via_near
         k = net.k
         i0, j0, i1, j1 = box
-        if targets is not None:
-            tj = [(t % plane) // nx for t in targets]
+        aim = targets is not None
+        if aim:
             ti = [t % nx for t in targets]
+            tj = [(t % plane) // nx for t in targets]
             ti0, ti1, tj0, tj1 = min(ti), max(ti), min(tj), max(tj)
-        else:
-            ti0 = ti1 = tj0 = tj1 = None
-        prefer = nl - sum(1 for _, layer in self.rules.areas) > 1
-        halo = net.halo
-        via_halo = self.via_halo
-
-        def h(n):
-            if ti0 is None:
-                return 0.0
-            r = n % plane
-            j, i = divmod(r, nx)
-            return (max(ti0 - i, 0, i - ti1) + max(tj0 - j, 0, j - tj1)) * 1.0
-
-        def node_cost(n, step):
-            c = step * (1.0 + hist[n]) * (1.0 + present * claim_occ[n])
-            if halo:
-                c += present * sum(core_occ[m] for m in self.around(g, n, halo, same_layer=True))
-            return c
-
+        hstep, vstep = self.steps
+        heappush, heappop = heapq.heappush, heapq.heappop
         best: dict[int, float] = {}
         parent: dict[int, int] = {}
         heap: list = []
@@ -428,45 +449,65 @@ class _Router:
         for s in sorted(sources):
             best[s] = 0.0
             parent[s] = -1
-            heap.append((h(s), cnt, s, 0.0))
+            if aim:
+                r = s % plane
+                i, j = r % nx, r // nx
+                hv = ((ti0 - i if i < ti0 else (i - ti1 if i > ti1 else 0))
+                      + (tj0 - j if j < tj0 else (j - tj1 if j > tj1 else 0))) * 1.0
+            else:
+                hv = 0.0
+            heap.append((hv, cnt, s, 0.0))
             cnt += 1
         heapq.heapify(heap)
         while heap:
-            _, _, n, gn = heapq.heappop(heap)
+            _, _, n, gn = heappop(heap)
             if gn > best[n] + 1e-12:
                 continue
             li, r = divmod(n, plane)
-            j, i = divmod(r, nx)
-            if targets is None:
-                if via[r] in (FREE, k):
+            if not aim:
+                if via[r] == FREE or via[r] == k:
                     return self._path(parent, n)
             elif n in targets:
                 return self._path(parent, n)
-            horiz_pref = not prefer or li % 2 == 0
-            vert_pref = not prefer or li % 2 == 1
+            j, i = divmod(r, nx)
+            hs, vs = hstep[li], vstep[li]
             moves = []
-            if i + 1 <= i1 and ex[n] in (FREE, k):
-                moves.append((n + 1, 1.0 if horiz_pref else OFF_DIRECTION))
-            if i - 1 >= i0 and ex[n - 1] in (FREE, k):
-                moves.append((n - 1, 1.0 if horiz_pref else OFF_DIRECTION))
-            if j + 1 <= j1 and ey[n] in (FREE, k):
-                moves.append((n + nx, 1.0 if vert_pref else OFF_DIRECTION))
-            if j - 1 >= j0 and ey[n - nx] in (FREE, k):
-                moves.append((n - nx, 1.0 if vert_pref else OFF_DIRECTION))
-            if nl > 1 and via[r] in (FREE, k) and targets is not None:
-                extra = present * sum(core_occ[m] for m in self.around(g, r, via_halo, same_layer=False))
+            if i < i1:
+                o = ex[n]
+                if o == FREE or o == k:
+                    moves.append((n + 1, r + 1, i + 1, j, hs))
+            if i > i0:
+                o = ex[n - 1]
+                if o == FREE or o == k:
+                    moves.append((n - 1, r - 1, i - 1, j, hs))
+            if j < j1:
+                o = ey[n]
+                if o == FREE or o == k:
+                    moves.append((n + nx, r + nx, i, j + 1, vs))
+            if j > j0:
+                o = ey[n - nx]
+                if o == FREE or o == k:
+                    moves.append((n - nx, r - nx, i, j - 1, vs))
+            if nl > 1 and aim and (via[r] == FREE or via[r] == k):
+                step = VIA_COST + present * via_near[r]
                 for lj in range(nl):
                     if lj != li:
-                        moves.append((lj * plane + r, VIA_COST + extra))
-            for m, step in moves:
-                if node[m] not in (FREE, k):
+                        moves.append((lj * plane + r, r, i, j, step))
+            for m, rm, im, jm, step in moves:
+                o = node[m]
+                if (o != FREE and o != k) or (mask is not None and not mask[rm]):
                     continue
-                gm = gn + node_cost(m, step)
+                gm = gn + (step * (1.0 + hist[m]) * (1.0 + present * claim_occ[m]) + present * near[m])
                 if gm < best.get(m, math.inf) - 1e-12:
                     best[m] = gm
                     parent[m] = n
                     cnt += 1
-                    heapq.heappush(heap, (gm + h(m), cnt, m, gm))
+                    if aim:
+                        hv = ((ti0 - im if im < ti0 else (im - ti1 if im > ti1 else 0))
+                              + (tj0 - jm if jm < tj0 else (jm - tj1 if jm > tj1 else 0)))
+                        heappush(heap, (gm + hv, cnt, m, gm))
+                    else:
+                        heappush(heap, (gm, cnt, m, gm))
         return None
 
     @staticmethod
