@@ -35,6 +35,13 @@ Method
   already holds the clearance; the 8 neighbours of a via; more around wide
   tracks). Two nets conflict where one's copper stands on the other's
   claim.
+* **Large boards** (more than ``COARSE_PARTS`` parts): every net is
+  first routed globally on coarse tiles with negotiated congestion
+  (:mod:`pipeline.route.coarse`), and each detailed search keeps to its
+  net's corridor (the tiles of its global route grown by one), so a
+  search costs what its corridor holds, not the whole board. Nets the
+  global router cannot fit are reported open with the overfull tile
+  borders as the congestion; so are nets the time budget never reached.
 * **Copper areas**: a net given a layer fills it (board less edge
   clearance, holes and other nets' copper grown by the clearance); each of
   its pads not on that layer routes to the nearest via site.
@@ -57,6 +64,7 @@ import shapely
 from shapely.geometry import LineString, Point
 
 from .board import RouteBoard, RoutePad
+from .coarse import COARSE_PARTS, TILE_PITCHES, capacities, plan_corridors
 from .grid import BLOCKED, FREE, Grid, as_polygons, build_grid
 from .rules import CopperRules
 
@@ -131,7 +139,7 @@ class Routing:
 # --------------------------------------------------------------------------
 class _Net:
     __slots__ = ("name", "k", "pads", "width", "area", "grid", "terms", "paths", "vias", "core", "claim",
-                 "failed", "stubs", "halo", "dead", "halo_key", "corridor")
+                 "failed", "stubs", "halo", "dead", "halo_key", "corridor", "tried")
 
     def __init__(self, name, k, pads, width, area):
         self.name, self.k, self.pads, self.width, self.area = name, k, pads, width, area
@@ -147,15 +155,22 @@ class _Net:
         self.halo: list[tuple[int, int]] = []
         self.halo_key: tuple = ()
         self.corridor = None  # plane cells (bytearray, 1 = usable) the detailed search keeps to, or None
+        self.tried = False    # routed at least once (a net the time budget never reached is open)
 
 
 def route_board(board: RouteBoard, rules: CopperRules, *, progress: Progress | None = None,
-                time_budget_s: float | None = None) -> Routing:
+                time_budget_s: float | None = None, coarse: bool | None = None) -> Routing:
     """Route ``board`` under ``rules``; see the module docstring.
 
-    ``time_budget_s`` defaults to ``rules.time_budget_s``.
+    ``time_budget_s`` defaults to ``rules.time_budget_s``; ``coarse`` routes
+    globally on tiles first (:mod:`pipeline.route.coarse`), by default when
+    the board has more than ``COARSE_PARTS`` parts.
     """
-    return _Router(board, rules, progress, rules.time_budget_s if time_budget_s is None else time_budget_s).run()
+    if coarse is None:
+        coarse = len({p.ref for p in board.pads}) > COARSE_PARTS
+    router = _Router(board, rules, progress, rules.time_budget_s if time_budget_s is None else time_budget_s)
+    router.coarse = coarse
+    return router.run()
 
 
 class _Router:
@@ -169,6 +184,7 @@ class _Router:
                      for k, n in enumerate(self.names)]
         self.wmax = max([n.width for n in self.nets] + [rules.track_width_mm])
         self._grids: dict[float, Grid] = {}
+        self.coarse = False   # route globally on tiles first (route_board sets it)
 
     # ---------------------------------------------------------------- setup
     def grid(self, width: float, extra=None) -> Grid:
@@ -336,6 +352,9 @@ class _Router:
     def run(self) -> Routing:
         self.setup()
         order = sorted(self.nets, key=lambda n: (_span(n.pads), n.name))
+        plan = self.plan() if self.coarse and self.nets else None
+        if plan is not None:
+            order = [n for n in order if n.name not in plan.open]
         todo = order
         present = PRESENT_START
         rounds = 0
@@ -348,16 +367,42 @@ class _Router:
                 if self.progress:
                     self.progress(f"routing: round {rounds}, {net.name}", min(0.99, (rounds - 1 + idx / len(todo)) / 8))
             bad, involved = self.shared()
-            if not bad or time.monotonic() > self.deadline or any(n.dead for n in self.nets):
+            if not bad or time.monotonic() > self.deadline or (not self.coarse and any(n.dead for n in self.nets)):
                 break   # done, out of time, or a connection has no path at all: negotiating cannot help
             for n in bad:
                 self.hist[n] += HISTORY_STEP
             present *= PRESENT_GROWTH
             todo = [n for n in order if n in involved]
+        for net in self.nets:
+            net.failed = net.failed or not net.tried   # the budget ran out before this net was routed
         congestion = self.resolve(bad)
+        if plan is not None:
+            congestion = tuple(dict.fromkeys(plan.congestion + congestion))[:10]
         return self.result(rounds, congestion)
 
+    def plan(self):
+        """Global routing on tiles: each net's corridor; the nets it leaves open are not routed in detail."""
+        g = self.nets[0].grid
+        tile = TILE_PITCHES
+        ntx, nty = -(-g.nx // tile), -(-g.ny // tile)
+        caph, capv = capacities(g.node, g.ex, g.ey, g.nx, g.ny, len(self.layers), tile)
+        plane = g.nx * g.ny
+        net_tiles = {}
+        for net in sorted(self.nets, key=lambda n: n.name):
+            if net.area or net.dead or any(not t for t in net.terms):
+                continue
+            tiles = [((t[0] % plane) // g.nx // tile) * ntx + (t[0] % g.nx) // tile for t in net.terms]
+            net_tiles[net.name] = list(dict.fromkeys(tiles))
+        plan = plan_corridors(net_tiles, caph, capv, ntx, nty, tile, g.pitch, (g.x0, g.y0),
+                              (PRESENT_START, PRESENT_GROWTH, HISTORY_STEP), self.deadline, self.progress)
+        for net in self.nets:
+            if net.name in plan.open:
+                net.failed = net.tried = True
+            net.corridor = plan.mask(net.name, g.nx, g.ny)
+        return plan
+
     def reroute(self, net: _Net, present: float) -> None:
+        net.tried = True
         if net.paths or net.vias:
             self.commit(net, -1)
         net.paths, net.vias, net.failed = [], [], net.dead
@@ -382,7 +427,8 @@ class _Router:
             nxt = min(pads, key=lambda q: (min(cents[q].distance(cents[d]) for d in done), q))
             path = self.astar(net, tree, set(net.terms[nxt]), present)
             if path is None:
-                net.failed = net.dead = True
+                net.failed = True
+                net.dead = net.corridor is None   # outside a corridor a path may still exist
                 return
             self.add_path(net, path)
             tree.update(path)
@@ -413,10 +459,10 @@ class _Router:
         g = net.grid
         if targets is not None:
             box = _box(g, sources | targets, WINDOW)
-            path = self._search(net, sources, targets, present, box)
+            path = self._search(net, sources, targets, present, box, net.corridor)
             if path is not None or box == (0, 0, g.nx - 1, g.ny - 1):
                 return path
-        return self._search(net, sources, targets, present, (0, 0, g.nx - 1, g.ny - 1))
+        return self._search(net, sources, targets, present, (0, 0, g.nx - 1, g.ny - 1), net.corridor)
 
     def _search(self, net, sources, targets, present, box, mask=None):
         """A* inside ``box`` (and the plane cells ``mask`` marks, when given).
