@@ -79,6 +79,7 @@ HISTORY_STEP = 0.4       #: history added to a shared node per round
 WINDOW = 12              #: grid steps around a connection's box searched first
 AREA_MARGIN = 0.005      #: extra gap (mm) where copper areas are cut: buffer arcs are chords
 STUB_REACH = 3           #: grid steps within which a pin-access stub may end
+STUB_CELL = 2.0          #: side (mm) of the buckets pin-access stubs are filed in
 DOT = 1e-3               #: length (mm) of the track that stands for a single node of copper
 
 Progress = Callable[[str, float], None]
@@ -200,15 +201,18 @@ class _Router:
 
     def setup(self) -> None:
         stubs: dict[str, list] = {}
+        buckets: dict = {}
         for net in self.nets:
             g = self.grid(net.width)
             net.terms = [self.terminals(g, net, pad) for pad in net.pads]
             for pi, (pad, terms) in enumerate(zip(net.pads, net.terms)):
                 if not terms and not (net.area and net.area in pad.layers):
-                    stub = self.stub(g, net, pad, stubs)
+                    stub = self.stub(g, net, pad, buckets)
                     if stub is not None:
                         net.stubs.append((pi, *stub))
-                        stubs.setdefault(net.name, []).append((stub[0], stub[1].buffer(net.width / 2 + 0.002)))
+                        geo = stub[1].buffer(net.width / 2 + 0.002)
+                        stubs.setdefault(net.name, []).append((stub[0], geo))
+                        _bucket_add(buckets, net.name, stub[0], geo)
         if stubs:
             self._grids.clear()
             for width in sorted({n.width for n in self.nets}):
@@ -260,33 +264,40 @@ class _Router:
         return out
 
     def stub(self, g: Grid, net: _Net, pad: RoutePad, taken: dict) -> tuple[str, LineString] | None:
-        """A short straight track from inside ``pad`` to a nearby usable node (pin access)."""
+        """A short straight track from inside ``pad`` to a nearby usable node (pin access).
+
+        The shortest clear one (ties: layer, row, column). ``taken`` holds
+        the stubs already made, by ``STUB_CELL`` bucket; other pads are
+        found through an STRtree, so one pad costs O(candidates x log pads).
+        """
         anchor = pad.polygon.representative_point()
         w, s = net.width, self.rules.clearance_mm
-        others = [(p.polygon, p.layers) for p in self.board.pads if p.net != net.name]
-        best = None
+        reach = w / 2 + s + 1e-6
+        pads = self.board.pads
+        if not hasattr(self, "_pad_tree"):
+            self._pad_tree = shapely.STRtree([p.polygon for p in pads])
+        ci = round((anchor.x - g.x0) / g.pitch)
+        cj = round((anchor.y - g.y0) / g.pitch)
+        cands = []
         for li, name in enumerate(self.layers):
             if name not in pad.layers:
                 continue
-            ci = round((anchor.x - g.x0) / g.pitch)
-            cj = round((anchor.y - g.y0) / g.pitch)
-            for j in range(cj - STUB_REACH, cj + STUB_REACH + 1):
-                for i in range(ci - STUB_REACH, ci + STUB_REACH + 1):
-                    if not (0 <= i < g.nx and 0 <= j < g.ny):
-                        continue
+            for j in range(max(cj - STUB_REACH, 0), min(cj + STUB_REACH, g.ny - 1) + 1):
+                for i in range(max(ci - STUB_REACH, 0), min(ci + STUB_REACH, g.nx - 1) + 1):
                     n = (li * g.ny + j) * g.nx + i
-                    if g.node[n] not in (FREE, net.k):
-                        continue
-                    line = LineString([anchor.coords[0], g.xy(n)])
-                    if any(name in lay and line.distance(poly) < w / 2 + s + 1e-6 for poly, lay in others):
-                        continue
-                    if any(lay == name and line.distance(geo) < s + w / 2 + 1e-6
-                           for other, items in taken.items() if other != net.name for lay, geo in items):
-                        continue
-                    key = (line.length, li, j, i)
-                    if best is None or key < best[0]:
-                        best = (key, (name, line))
-        return None if best is None else best[1]
+                    if g.node[n] in (FREE, net.k):
+                        line = LineString([anchor.coords[0], g.xy(n)])
+                        cands.append(((line.length, li, j, i), name, line))
+        for _, name, line in sorted(cands, key=lambda c: c[0]):
+            near = self._pad_tree.query(line, predicate="dwithin", distance=reach)
+            if any(pads[q].net != net.name and name in pads[q].layers and line.distance(pads[q].polygon) < reach
+                   for q in near):
+                continue
+            if any(other != net.name and lay == name and line.distance(geo) < reach
+                   for other, lay, geo in _bucket_near(taken, line.bounds, reach)):
+                continue
+            return name, line
+        return None
 
     # ---------------------------------------------------------------- occupancy
     def claims(self, net: _Net) -> tuple[set[int], set[int]]:
@@ -654,6 +665,25 @@ def _offsets(radius: float, pitch: float) -> list[tuple[int, int]]:
     r = int(math.ceil(radius / pitch))
     return [(di, dj) for dj in range(-r, r + 1) for di in range(-r, r + 1)
             if (di or dj) and math.hypot(di, dj) * pitch < radius - 1e-9]
+
+
+def _bucket_add(buckets: dict, net: str, layer: str, geo) -> None:
+    """File ``geo`` under every ``STUB_CELL`` square its box touches."""
+    x0, y0, x1, y1 = geo.bounds
+    for cx in range(math.floor(x0 / STUB_CELL), math.floor(x1 / STUB_CELL) + 1):
+        for cy in range(math.floor(y0 / STUB_CELL), math.floor(y1 / STUB_CELL) + 1):
+            buckets.setdefault((cx, cy), []).append((net, layer, geo))
+
+
+def _bucket_near(buckets: dict, bounds, reach: float) -> list:
+    """The geometries filed near ``bounds`` grown by ``reach`` (each once, in filing order)."""
+    x0, y0, x1, y1 = bounds
+    out: dict[int, tuple] = {}
+    for cx in range(math.floor((x0 - reach) / STUB_CELL), math.floor((x1 + reach) / STUB_CELL) + 1):
+        for cy in range(math.floor((y0 - reach) / STUB_CELL), math.floor((y1 + reach) / STUB_CELL) + 1):
+            for item in buckets.get((cx, cy), ()):
+                out.setdefault(id(item[2]), item)
+    return list(out.values())
 
 
 def _span(pads) -> float:
