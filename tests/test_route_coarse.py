@@ -102,3 +102,13 @@ def test_corridor_keeps_the_search_inside_it(monkeypatch):
     monkeypatch.setattr(router._Router, "_search", spy)
     route_board(_open_board(), CopperRules(layers=2, time_budget_s=60), coarse=True)
     assert seen and all(seen)
+
+
+@pytest.mark.parametrize("coarse", [False, True])
+def test_nets_the_time_budget_never_reached_are_named_open(coarse):
+    # a budget of zero: no net is routed, so every net is open and named (never a silent "routed")
+    board = _open_board()
+    rules = CopperRules(layers=2, time_budget_s=60)
+    routing = route_board(board, rules, time_budget_s=0.0, coarse=coarse)
+    assert routing.status == "open" and routing.open == ("A", "B") and not routing.tracks
+    assert not check_copper(routes_dict(board, rules, routing)).except_open(routing.open)

@@ -41,13 +41,15 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["CoarsePlan", "plan_corridors", "COARSE_PARTS", "TILE_PITCHES", "CORRIDOR_GROW", "COARSE_ROUNDS"]
+__all__ = ["CoarsePlan", "plan_corridors", "COARSE_PARTS", "TILE_PITCHES", "CORRIDOR_GROW", "COARSE_ROUNDS",
+           "COARSE_SHARE"]
 
 COARSE_PARTS = 300       #: boards with more parts than this are routed globally first (our choice)
 TILE_PITCHES = 4         #: tile side in routing-grid pitches (our choice: 1.6 mm at 0.4 mm pitch)
 CORRIDOR_GROW = 1        #: tiles added around a net's global route to make its corridor
 COARSE_ROUNDS = 30       #: negotiation rounds on the tile graph at most
 COARSE_WINDOW = 6        #: tiles around a connection's box searched first
+COARSE_SHARE = 0.25      #: share of the router's time budget global routing may use (our choice)
 _BLOCKED = -2
 
 
@@ -182,7 +184,9 @@ def plan_corridors(net_tiles: dict[str, list[int]], caph, capv, ntx: int, nty: i
 
     ``schedule`` is PathFinder's (first present factor, its growth per
     round, history step); ``deadline`` a :func:`time.monotonic` time after
-    which the nets not yet routed are left open.
+    which negotiation stops: the nets routed keep their (perhaps crowded)
+    corridors, nets not reached get none, and nothing is dropped, since
+    the detailed router still negotiates.
     """
     g = _Coarse(caph, capv, ntx, nty, deadline)
     present, growth, step = schedule
@@ -213,7 +217,9 @@ def plan_corridors(net_tiles: dict[str, list[int]], caph, capv, ntx: int, nty: i
         todo = [n for n in net_tiles if n in routes and over.intersection(routes[n])]
     over = g.over()
     places = [_middle(e, g, tile, pitch, origin) for e in sorted(over, key=lambda e: (-(g.use[e] - g.cap[e]), e))]
-    open_ = set(dead) | {n for n in net_tiles if n not in routes and n not in dead}
+    open_ = set(dead)
+    if time.monotonic() > deadline:
+        over = set()   # cut short: the detailed router negotiates what is left (unreached nets: no corridor)
     while over:
         worst = max((n for n in routes if over.intersection(routes[n])),
                     key=lambda n: (len(over.intersection(routes[n])), n))

@@ -64,7 +64,7 @@ import shapely
 from shapely.geometry import LineString, Point
 
 from .board import RouteBoard, RoutePad
-from .coarse import COARSE_PARTS, TILE_PITCHES, capacities, plan_corridors
+from .coarse import COARSE_PARTS, COARSE_SHARE, TILE_PITCHES, capacities, plan_corridors
 from .grid import BLOCKED, FREE, Grid, as_polygons, build_grid
 from .rules import CopperRules
 
@@ -393,6 +393,7 @@ class _Router:
 
     def plan(self):
         """Global routing on tiles: each net's corridor; the nets it leaves open are not routed in detail."""
+        now = time.monotonic()
         g = self.nets[0].grid
         tile = TILE_PITCHES
         ntx, nty = -(-g.nx // tile), -(-g.ny // tile)
@@ -405,7 +406,8 @@ class _Router:
             tiles = [((t[0] % plane) // g.nx // tile) * ntx + (t[0] % g.nx) // tile for t in net.terms]
             net_tiles[net.name] = list(dict.fromkeys(tiles))
         plan = plan_corridors(net_tiles, caph, capv, ntx, nty, tile, g.pitch, (g.x0, g.y0),
-                              (PRESENT_START, PRESENT_GROWTH, HISTORY_STEP), self.deadline, self.progress)
+                              (PRESENT_START, PRESENT_GROWTH, HISTORY_STEP),
+                              now + COARSE_SHARE * max(self.deadline - now, 0.0), self.progress)
         for net in self.nets:
             if net.name in plan.open:
                 net.failed = net.tried = True
