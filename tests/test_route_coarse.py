@@ -7,7 +7,7 @@ from shapely.geometry import box
 from pipeline.copper import check_copper
 from pipeline.export.routes import routes_dict
 from pipeline.route.board import RouteBoard, RoutePad
-from pipeline.route.coarse import capacities, plan_corridors
+from pipeline.route.coarse import CORRIDOR_GROW, capacities, plan_corridors
 from pipeline.route.router import route_board
 from pipeline.route.rules import CopperRules
 
@@ -61,14 +61,15 @@ def test_no_gap_at_all_leaves_the_net_open_at_once():
     assert plan.open == ("A",) and not plan.corridors
 
 
-def test_corridor_is_the_route_grown_by_one_tile():
-    # 5 x 1 tiles, a net from tile 0 to tile 2: route tiles 0..2, grown by one: 0..3
-    caph = np.full((1, 4), 5)
-    plan = plan_corridors({"A": [0, 2]}, caph, np.zeros((0, 5), dtype=int), 5, 1, 4, 0.4, (0.0, 0.0), SCHEDULE,
+def test_corridor_is_the_route_grown_by_corridor_grow_tiles():
+    # 8 x 1 tiles, a net from tile 0 to tile 2: route tiles 0..2, grown by CORRIDOR_GROW (2): 0..4
+    assert CORRIDOR_GROW == 2
+    caph = np.full((1, 7), 5)
+    plan = plan_corridors({"A": [0, 2]}, caph, np.zeros((0, 8), dtype=int), 8, 1, 4, 0.4, (0.0, 0.0), SCHEDULE,
                           float("inf"))
-    assert plan.corridors["A"] == frozenset({0, 1, 2, 3})
-    mask = plan.mask("A", 18, 2)      # 18 nodes across: tiles 0-3 cover nodes 0-15
-    assert list(mask[:18]) == [1] * 16 + [0] * 2
+    assert plan.corridors["A"] == frozenset({0, 1, 2, 3, 4})
+    mask = plan.mask("A", 30, 2)      # 30 nodes across: tiles 0-4 cover nodes 0-19
+    assert list(mask[:30]) == [1] * 20 + [0] * 10
 
 
 # ---------------------------------------------------------------- detailed routing in the corridor

@@ -46,7 +46,8 @@ __all__ = ["CoarsePlan", "plan_corridors", "COARSE_PARTS", "TILE_PITCHES", "CORR
 
 COARSE_PARTS = 300       #: boards with more parts than this are routed globally first (our choice)
 TILE_PITCHES = 4         #: tile side in routing-grid pitches (our choice: 1.6 mm at 0.4 mm pitch)
-CORRIDOR_GROW = 1        #: tiles added around a net's global route to make its corridor
+CORRIDOR_GROW = 2        #: tiles added around a net's global route to make its corridor (one left the
+                         #: 60-part board with 3 nets open where the free search routes it; two, 2)
 COARSE_ROUNDS = 30       #: negotiation rounds on the tile graph at most
 COARSE_WINDOW = 6        #: tiles around a connection's box searched first
 COARSE_SHARE = 0.25      #: share of the router's time budget global routing may use (our choice)

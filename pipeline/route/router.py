@@ -38,7 +38,7 @@ Method
 * **Large boards** (more than ``COARSE_PARTS`` parts): every net is
   first routed globally on coarse tiles with negotiated congestion
   (:mod:`pipeline.route.coarse`), and each detailed search keeps to its
-  net's corridor (the tiles of its global route grown by one), so a
+  net's corridor (the tiles of its global route grown by ``CORRIDOR_GROW``), so a
   search costs what its corridor holds, not the whole board. Nets the
   global router cannot fit are reported open with the overfull tile
   borders as the congestion; so are nets the time budget never reached.
