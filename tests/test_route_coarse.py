@@ -113,3 +113,14 @@ def test_nets_the_time_budget_never_reached_are_named_open(coarse):
     routing = route_board(board, rules, time_budget_s=0.0, coarse=coarse)
     assert routing.status == "open" and routing.open == ("A", "B") and not routing.tracks
     assert not check_copper(routes_dict(board, rules, routing)).except_open(routing.open)
+
+
+def test_global_routing_is_deterministic_and_reports_progress():
+    from pipeline.export.routes import routes_json
+
+    board, rules = _open_board(), CopperRules(layers=2, time_budget_s=60)
+    seen = []
+    one = route_board(board, rules, coarse=True, progress=lambda msg, frac: seen.append(msg))
+    two = route_board(board, rules, coarse=True)
+    assert routes_json(board, rules, one) == routes_json(board, rules, two)
+    assert any(m.startswith("global routing") for m in seen) and any(m.startswith("routing") for m in seen)
