@@ -591,7 +591,8 @@ class _Router:
             _, _, worst = max(counts, key=lambda t: (t[0], t[1]))
             self.commit(worst, -1)
             worst.paths, worst.vias, worst.core, worst.claim, worst.failed = [], [], set(), set(), True
-            bad, _ = self.shared()
+            # dropping a net only frees nodes: what stays shared is a subset (shared() without the full sweep)
+            bad = {n for n in bad if self.core_occ[n] >= 1 and self.claim_occ[n] >= 2}
         return tuple(congestion[:10])
 
     def result(self, rounds: int, congestion) -> Routing:
