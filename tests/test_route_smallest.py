@@ -4,6 +4,7 @@ import json
 
 from pipeline.copper import check_copper
 from pipeline.route import smallest as smallest_mod
+from pipeline.route.shapes import board_at
 from test_contract import _resistors, invoke, make_project, rect_cavity
 
 
@@ -35,7 +36,8 @@ def test_smallest_board_routes_and_one_step_smaller_does_not(tmp_path, monkeypat
     from pipeline.place import place_and_fit
     from pipeline.route import ROUTED, route_fit
     fit0, items, region, options, design, library, rules = seen["args"]
-    smaller = smallest_mod.cut(region.board_region, found.angle_deg, found.failed_shrink)
+    assert 0 < found.failed_area_mm2 < found.area_mm2
+    smaller, _ = board_at(region.board_region, found.shape, found.failed_area_mm2)
     assert smaller.area < found.board.area
     if smaller.area >= fit0.courtyard_area_mm2:
         f = place_and_fit(items, region, options, user_board=smaller)
