@@ -408,7 +408,7 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     sections = list(block_sections(reports))
     route_verdict = routed = None
     if project.cavity_path is not None:
-        cavity, region, items, fit, sweep_result, fit_findings = _fit(project, design, lib, sweep, progress)
+        cavity, region, items, fit, sweep_result, fit_findings = _fit(project, design, lib, sweep, progress, route)
         findings += fit_findings
         if sweep_result is not None:
             extra["passive_sizes"] = sweep_result.to_dict()
@@ -455,7 +455,7 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
                      verdict=verdict, routing=route_verdict)
 
 
-def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Progress | None):
+def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Progress | None, route: bool = True):
     """Cavity, region, placement (with tried advice) and, with ``sweep``, the size sweep.
 
     Returns ``(cavity, region, placer items, fit, sweep_result, findings)``.
@@ -480,7 +480,8 @@ def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Prog
     sweep_result = None
     if sweep:
         from .sweep import sweep_sizes
-        sweep_result = sweep_sizes(design, lib, region, project.board, progress=progress, user_board=cavity.board)
+        sweep_result = sweep_sizes(design, lib, region, project.board, progress=progress, user_board=cavity.board,
+                                   rules=project.copper if route else None)
     return cavity, region, items, fit, sweep_result, [*cw, *rw, *placer, *_fit_findings(fit)]
 
 

@@ -53,7 +53,7 @@ from shapely.geometry import Polygon
 
 from .shapes import Shape, board_at
 
-__all__ = ["smallest_board", "Smallest", "shapes_to_try", "ANGLE_STEP_DEG", "ASPECTS", "PLACE_STEPS",
+__all__ = ["smallest_board", "search", "Smallest", "shapes_to_try", "ANGLE_STEP_DEG", "ASPECTS", "PLACE_STEPS",
            "ROUTE_STEPS", "P90_MAX", "BEAT"]
 
 #: orientation step over half a turn, degrees.
@@ -225,11 +225,28 @@ def smallest_board(fit, items, region, options, design, library, rules, *,
     region).
     """
     s = _Search(fit, items, region, options, design, library, rules, progress)
-    shapes = shapes_to_try(region.board_region)
+    best = search(s)
+    if best is None:
+        return None
+    shape, area, (f, out, board, mode), failed = best
+    if progress is not None:
+        progress("smallest board: done", 1.0)
+    est = fit.estimate.expected_mm2 / s.floor if s.floor > 0 else math.inf
+    return Smallest(f, out, board, shape.angle_deg, board.area, board.area / s.floor if s.floor > 0 else math.inf,
+                    s.tries, shape.aspect, mode, failed, est, dict(s.counts))
+
+
+def search(s: "_Search"):
+    """Phases 1 to 3 (module notes) over ``s`` (its ``places`` and ``routes`` screens).
+
+    Returns ``(shape, area, found, failed_area)`` for the smallest routed
+    board (``found`` is what ``s.routes`` returned), or None.
+    """
+    shapes = shapes_to_try(s.region.board_region)
     bounds = []
     for k, shape in enumerate(shapes):
-        if progress is not None:
-            progress(f"smallest board: placement bound {k + 1}/{len(shapes)}", 0.5 * k / len(shapes))
+        if s.progress is not None:
+            s.progress(f"smallest board: placement bound {k + 1}/{len(shapes)}", 0.5 * k / len(shapes))
         b = s.place_bound(shape)
         if b is not None:
             bounds.append((b, k, shape))
@@ -246,13 +263,7 @@ def smallest_board(fit, items, region, options, design, library, rules, *,
         b = s.place_bound(shape)
         if b is not None:
             fresh.append((b, shape))
-    best = _route_phase(s, sorted(fresh, key=lambda t: t[0]), best, 0.9, 0.1)
-    shape, area, (f, out, board, mode), failed = best
-    if progress is not None:
-        progress("smallest board: done", 1.0)
-    est = fit.estimate.expected_mm2 / s.floor if s.floor > 0 else math.inf
-    return Smallest(f, out, board, shape.angle_deg, board.area, board.area / s.floor if s.floor > 0 else math.inf,
-                    s.tries, shape.aspect, mode, failed, est, dict(s.counts))
+    return _route_phase(s, sorted(fresh, key=lambda t: t[0]), best, 0.9, 0.1)
 
 
 def _route_phase(s: _Search, bounds, best, start: float, span: float):
