@@ -36,8 +36,8 @@ from shapely.ops import nearest_points
 __all__ = ["Shape", "erode_box", "board_at", "INSIDE", "CUT", "CUT_STEPS"]
 
 INSIDE, CUT = "rectangle", "region cut by a rectangle"
-#: bisection halvings of the cut rectangle's scale (area to a part in 2^-40 of the region: geometry only).
-CUT_STEPS = 40
+#: bisection halvings of the cut rectangle's scale (the scale to a part in 2^-24: geometry only).
+CUT_STEPS = 24
 
 
 @dataclass(frozen=True)

@@ -32,7 +32,9 @@ and routes: the first shape that routes at all is bisected on area
 (``ROUTE_STEPS`` halvings, screens 1 to 4); every later shape is first
 tried at ``1 - BEAT`` of the best area so far and bisected only when it
 routes there; a shape whose placement bound is not below that is skipped,
-and so are all after it (branch and bound). Phase 3 refines the best
+and so are all after it (branch and bound); only the ``SHAPES_ROUTED``
+shapes with the least bounds are routed at all (a screen that trades
+completeness for time: routing is the expensive step). Phase 3 refines the best
 shape's angle by ``REFINE_DEG`` either side and its aspect by
 ``REFINE_ASPECT``, as in phase 2. Deterministic (shapes in a fixed order,
 ties keep the first); the router's own time budget is the one outside
@@ -54,7 +56,7 @@ from shapely.geometry import Polygon
 from .shapes import Shape, board_at
 
 __all__ = ["smallest_board", "search", "Smallest", "shapes_to_try", "ANGLE_STEP_DEG", "ASPECTS", "PLACE_STEPS",
-           "ROUTE_STEPS", "P90_MAX", "BEAT"]
+           "ROUTE_STEPS", "P90_MAX", "BEAT", "SHAPES_ROUTED"]
 
 #: orientation step over half a turn, degrees.
 ANGLE_STEP_DEG = 15.0
@@ -69,6 +71,9 @@ BEAT = 0.02
 #: RUDY 90th-percentile demand / capacity above which a placement is not routed (our choice, measured on
 #: the benchmark boards: see bench/README.md).
 P90_MAX = 1.0
+#: phase 2 routes at most this many shapes, those with the least placement bounds (a screen: routing
+#: is the expensive step; our choice).
+SHAPES_ROUTED = 10
 #: phase 3: angle steps either side of the best, degrees, and aspect factors.
 REFINE_DEG = (7.5, 3.75)
 REFINE_ASPECT = (1.25, 1.0 / 1.25)
@@ -251,7 +256,7 @@ def search(s: "_Search"):
         if b is not None:
             bounds.append((b, k, shape))
     bounds.sort()
-    best = _route_phase(s, [(b, sh) for b, _, sh in bounds], None, 0.5, 0.4)
+    best = _route_phase(s, [(b, sh) for b, _, sh in bounds[:SHAPES_ROUTED]], None, 0.5, 0.4)
     if best is None:
         return None
     refined = []
