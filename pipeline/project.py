@@ -531,6 +531,17 @@ def _route(project: Project, route: bool, fit: FitResult, items: Any, region: An
 
 
 def _route_findings(v) -> list[Finding]:
+    small = [Finding("info", "route.smallest", (), _smallest_note(v.smallest))] if v.smallest is not None else []
+    return small + _verdict_findings(v)
+
+
+def _smallest_note(s) -> str:
+    return (f"Smallest board that places and routes: {s.area_mm2:.0f} mm2, {s.ratio:.2f} x the courtyard sum "
+            f"(rule of thumb {s.rule_of_thumb_ratio:.2f} x); a {s.mode} at {s.angle_deg:g} deg, aspect "
+            f"{s.aspect:.2f}, found in {s.tries} tries.")
+
+
+def _verdict_findings(v) -> list[Finding]:
     if v.status == "routed":
         spread = (f" after spreading the parts ({v.spread_mm:g} mm more room around each courtyard)"
                   if v.spread_mm else "")

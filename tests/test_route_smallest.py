@@ -29,6 +29,10 @@ def test_smallest_board_routes_and_one_step_smaller_does_not(tmp_path, monkeypat
     assert small["ratio_to_courtyards"] >= 1.0                                # nothing under the courtyard sum
     assert small["ratio_to_courtyards"] * fit["courtyard_area_mm2"] < fit["region_area_mm2"]
     assert f"smallest board: {small['area_mm2']:.0f} mm2" in r.output and "rule of thumb" in r.output
+    # the report's findings carry both ratios side by side
+    note = (proj / "out" / "findings.json").read_text()
+    assert "route.smallest" in note and f"{small['ratio_to_courtyards']:.2f} x the courtyard sum" in note
+    assert f"rule of thumb {small['rule_of_thumb_ratio']:.2f} x" in note
     # the board written is the one found
     found = seen["found"]
     assert abs(found.board.area - small["area_mm2"]) < 1e-3
