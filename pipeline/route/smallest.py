@@ -68,8 +68,8 @@ PLACE_STEPS = 5
 ROUTE_STEPS = 4
 #: a later shape must beat the best area so far by this share to be tried (our choice).
 BEAT = 0.02
-#: RUDY 90th-percentile demand / capacity above which a placement is not routed (our choice, measured on
-#: the benchmark boards: see bench/README.md).
+#: RUDY 90th-percentile demand / capacity above which a placement is not routed (our choice: only the
+#: hopeless; it stopped nothing on the demo and 22 candidates on the 60-part board, bench/README.md).
 P90_MAX = 1.0
 #: phase 2 routes at most this many shapes, those with the least placement bounds (a screen: routing
 #: is the expensive step; our choice).
