@@ -3,6 +3,7 @@
 Run from the repository root::
 
     .venv/bin/python bench/bench_route.py
+    .venv/bin/python bench/bench_route.py --smallest   # also the smallest-board search (many minutes)
 
 For each board it runs the whole pipeline twice (``--no-route`` and
 routed) and prints side by side: the time of the rest of the run, the
@@ -173,14 +174,47 @@ def measure_child(name: str, folder: Path) -> dict:
             "open_nets": r["open_nets"], "congestion": r["congestion_at"]}
 
 
+def measure_smallest(name: str, folder: Path, out: Path) -> dict:
+    """The smallest board that places and routes (outline mode "smallest"), with its search time."""
+    import dataclasses
+
+    project = load_project(folder, out=str(out / "smallest"))
+    project = dataclasses.replace(project, board=dataclasses.replace(project.board, outline="smallest"))
+    t0 = time.perf_counter()
+    run(project)
+    took = time.perf_counter() - t0
+    fit = json.loads((out / "smallest" / "fit.json").read_text())
+    small = fit["routing"].get("smallest_board") or {}
+    return {"board": name, "search_s": took, "ratio": small.get("ratio_to_courtyards", float("nan")),
+            "thumb": small.get("rule_of_thumb_ratio", float("nan")), "area": small.get("area_mm2", float("nan")),
+            "angle": small.get("angle_deg", float("nan")), "aspect": small.get("aspect_ratio", float("nan")),
+            "shape": small.get("shape", "none routed"), "region": fit["region_area_mm2"] / fit["courtyard_area_mm2"],
+            "screened": small.get("screened", {})}
+
+
+def print_smallest(rows: list[dict]) -> None:
+    """Smallest-board table; targets (issue 9): demo at most 1.5 x, 60 parts at most 2.5 x the courtyard sum."""
+    print("board | smallest x courtyards | rule of thumb x | region x | area mm2 | angle deg | aspect | shape | "
+          "whole run s | placements | route attempts")
+    for r in rows:
+        sc = r["screened"]
+        print(" | ".join([r["board"], f"{r['ratio']:.2f}", f"{r['thumb']:.2f}", f"{r['region']:.2f}", f"{r['area']:.0f}",
+                          f"{r['angle']:g}", f"{r['aspect']:.2f}", r["shape"], f"{r['search_s']:.0f}",
+                          str(sc.get("placements", "-")), str(sc.get("route attempts", "-"))]))
+
+
 def main() -> None:
     rows = []
+    small = []
     with tempfile.TemporaryDirectory() as tmp:
         base = Path(tmp)
         rows.append(measure("demo", ROOT / "demo_project", base / "demo"))
         rows.append(measure("60 parts", _project(base), base / "sixty-out"))
         if "--no-large" not in sys.argv:
             rows.append(measure_child(f"{LARGE_PARTS} parts", _large_project(base)))
+        if "--smallest" in sys.argv:
+            small.append(measure_smallest("demo", ROOT / "demo_project", base / "demo"))
+            small.append(measure_smallest("60 parts", base / "sixty", base / "sixty-out"))
     head = ("board", "parts", "rest s", "route s", "route/rest", "verdict", "spread mm", "vias", "track mm",
             "RUDY peak", "courtyards/board")
     print(" | ".join(head))
@@ -188,6 +222,8 @@ def main() -> None:
         print(" | ".join([r["board"], str(r["parts"]), f"{r['rest_s']:.1f}", f"{r['route_s']:.1f}",
                           f"{r['route_s'] / r['rest_s']:.2f}", r["verdict"], f"{r['spread_mm']:g}", str(r["vias"]),
                           f"{r['wirelength_mm']:.0f}", f"{r['demand_peak']:.2f}", f"{r['courtyard_share']:.2f}"]))
+    if small:
+        print_smallest(small)
 
     for r in rows:
         if "rss_mib" in r:
