@@ -86,38 +86,26 @@ def _indented(o: Any, nl: str, out: list[str]) -> None:
     if text is not None:
         out.append(text)
         return
-    inner = nl + "  "
     if isinstance(o, (list, tuple)):
-        if not o:
-            out.append("[]")
-            return
-        out.append("[")
-        sep = inner
-        for v in o:
-            if type(v) is str:  # the common leaf, without a call
-                out.append(sep + _json_string(v))
-            else:
-                out.append(sep)
-                _indented(v, inner, out)
-            sep = "," + inner
-        out.append(nl + "]")
+        brackets, items = "[]", (("", v) for v in o)
     elif isinstance(o, dict):
-        if not o:
-            out.append("{}")
-            return
-        out.append("{")
-        sep = inner
-        for k, v in o.items():
-            head = sep + (_json_string(k) if type(k) is str else _key(k)) + ": "
-            if type(v) is str:  # the common leaf, without a call
-                out.append(head + _json_string(v))
-            else:
-                out.append(head)
-                _indented(v, inner, out)
-            sep = "," + inner
-        out.append(nl + "}")
+        brackets, items = "{}", (((_json_string(k) if type(k) is str else _key(k)) + ": ", v) for k, v in o.items())
     else:
         raise TypeError(f"Object of type {type(o).__name__} is not JSON serializable")
+    if not o:
+        out.append(brackets)
+        return
+    inner = nl + "  "
+    out.append(brackets[0])
+    sep = inner
+    for head, v in items:
+        if type(v) is str:  # the common leaf, without a call
+            out.append(sep + head + _json_string(v))
+        else:
+            out.append(sep + head)
+            _indented(v, inner, out)
+        sep = "," + inner
+    out.append(nl + brackets[1])
 
 
 def netlist_csv(design: Design) -> bytes:
