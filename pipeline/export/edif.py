@@ -70,6 +70,8 @@ _ID_RE = re.compile(r"^[A-Za-z][A-Za-z0-9_]*$")
 _MAX_ID = 200
 _DIRECTION = {"in": "INPUT", "supply": "INPUT", "out": "OUTPUT", "open-drain": "OUTPUT",
               "supply-out": "OUTPUT"}
+#: printable ASCII but '"', '%', '[' and ']': written as it is inside an EDIF string
+_PLAIN_RE = re.compile(r"[\x20\x21\x23\x24\x26-\x5a\x5c\x5e-\x7e]*")
 _MAX_EPOCH = 253402300799  # 9999-12-31 23:59:59 UTC
 
 
@@ -81,8 +83,11 @@ def edif_string(text: str) -> str:
     >>> edif_string('say "hi" 100%')
     '"say %34%hi%34% 100%37%"'
     """
+    text = str(text)
+    if _PLAIN_RE.fullmatch(text):  # the common case: nothing to escape
+        return '"' + text + '"'
     out = []
-    for ch in str(text):
+    for ch in text:
         code = ord(ch)
         if ch in '"%[]' or code < 32 or code > 126:
             out.append(f"%{code}%")
