@@ -305,60 +305,47 @@ def _capacitor_findings(part: Part, pin_nets: dict[PinRef, list[Net]]) -> list[F
     else:
         used = ctype = stated
     frac = _TYPE_FRACTION[used]
-    out: list[Finding | _Missing] = []
-
-    if polarized:
-        out.extend(_polarity(part, pin_nets))
-
+    out: list[Finding | _Missing] = _polarity(part, pin_nets) if polarized else []
     if part.rating_v is None:
-        if across is None:
-            out.append(_Missing("voltage", part.ref, None, None))
-        elif across.volts / frac > UNRATED_SAFE_V * (1 + _EPS):
-            need = across.volts / frac
-            out.append(_Missing("voltage", part.ref, across,
-                                f"sees up to {_volts(across.volts)} between {across.net_a} and {across.net_b}, "
-                                f"so it needs at least {_volts(need)} ({ctype}, at most {_pct(frac)} of rating)"))
-        return out
+        return out + _unrated_capacitor(part, across, frac, ctype)
     if across is None:
         return out
+    return out + _capacitor_margin(part, across, frac, ctype, tantalum_note=polarized and stated is None)
 
+
+def _unrated_capacitor(part: Part, across, frac: float, ctype: str) -> list[_Missing]:
+    """A capacitor with no rating: missing always, with the needed rating when above the safe bound."""
+    if across is None:
+        return [_Missing("voltage", part.ref, None, None)]
+    need = across.volts / frac
+    if need <= UNRATED_SAFE_V * (1 + _EPS):
+        return []
+    return [_Missing("voltage", part.ref, across,
+                     f"sees up to {_volts(across.volts)} between {across.net_a} and {across.net_b}, "
+                     f"so it needs at least {_volts(need)} ({ctype}, at most {_pct(frac)} of rating)")]
+
+
+def _capacitor_margin(part: Part, across, frac: float, ctype: str, *, tantalum_note: bool) -> list[Finding]:
+    """The rated capacitor's voltage against its rating and the derating ``frac`` of its type."""
     rating = float(part.rating_v)
     v = across.volts
     subject = (part.ref, across.net_a, across.net_b)
     where = f"{_volts(v)} between {across.net_a} and {across.net_b}"
     if v > rating * (1 + _EPS):
-        out.append(
-            Finding(
-                "error",
-                "ratings.capacitor-voltage",
-                subject,
-                f"{part.ref} sees up to {where}, above its {_volts(rating)} rating: "
-                f"choose at least {_volts(v / frac)} ({ctype}, at most {_pct(frac)} of rating).",
-            )
-        )
-    elif v > frac * rating * (1 + _EPS):
-        out.append(
-            Finding(
-                "warning",
-                "ratings.capacitor-voltage",
-                subject,
-                f"{part.ref} sees up to {where}, {_pct(v / rating)} of its {_volts(rating)} rating; "
-                f"{'an' if ctype[0] in 'aeiou' else 'a'} {ctype} should work at most {_pct(frac)}: "
-                f"choose at least {_volts(v / frac)}.",
-            )
-        )
-    elif polarized and stated is None and v > TANTALUM_FRACTION * rating * (1 + _EPS):
-        out.append(
-            Finding(
-                "info",
-                "ratings.capacitor-voltage",
-                subject,
-                f"{part.ref} sees up to {where}, {_pct(v / rating)} of its {_volts(rating)} rating: "
-                f"fine for an aluminium electrolytic (at most {_pct(ALUMINIUM_FRACTION)}) but too high "
-                f"for a tantalum (at most {_pct(TANTALUM_FRACTION)}); name the type in its note.",
-            )
-        )
-    return out
+        return [Finding("error", "ratings.capacitor-voltage", subject,
+                        f"{part.ref} sees up to {where}, above its {_volts(rating)} rating: "
+                        f"choose at least {_volts(v / frac)} ({ctype}, at most {_pct(frac)} of rating).")]
+    if v > frac * rating * (1 + _EPS):
+        return [Finding("warning", "ratings.capacitor-voltage", subject,
+                        f"{part.ref} sees up to {where}, {_pct(v / rating)} of its {_volts(rating)} rating; "
+                        f"{'an' if ctype[0] in 'aeiou' else 'a'} {ctype} should work at most {_pct(frac)}: "
+                        f"choose at least {_volts(v / frac)}.")]
+    if tantalum_note and v > TANTALUM_FRACTION * rating * (1 + _EPS):
+        return [Finding("info", "ratings.capacitor-voltage", subject,
+                        f"{part.ref} sees up to {where}, {_pct(v / rating)} of its {_volts(rating)} rating: "
+                        f"fine for an aluminium electrolytic (at most {_pct(ALUMINIUM_FRACTION)}) but too high "
+                        f"for a tantalum (at most {_pct(TANTALUM_FRACTION)}); name the type in its note.")]
+    return []
 
 
 def _polarity(part: Part, pin_nets: dict[PinRef, list[Net]]) -> list[Finding]:
