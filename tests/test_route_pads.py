@@ -78,3 +78,46 @@ def test_true_pad_shapes_placed_independently(package, side, rot):
             assert got.area == pytest.approx(pad.width_mm * pad.height_mm, rel=1e-9)
         drilled = pad.drill_mm > 0
         assert by[pad.number].layers == (("top", "bottom") if drilled else (side,))
+
+
+def test_turned_pads_computed_once_per_package_rotation_side(monkeypatch):
+    # cost guard: 40 parts of one package in two orientations turn the land pattern twice, not 40 times
+    import pipeline.route.pads as pads_mod
+    calls = []
+    real = pads_mod.turned_pads
+
+    def counting(*a, **k):
+        calls.append(a[1:3])
+        return real(*a, **k)
+
+    monkeypatch.setattr(pads_mod, "turned_pads", counting)
+    pins = (PinDef("1", "1", "passive"), PinDef("2", "2", "passive"))
+    parts = tuple(Part(f"R{i}", "resistor", "0603", pins) for i in range(40))
+    pl = tuple(Placement(f"R{i}", 2.0 * i, 5, 90 * (i % 2), "top", None) for i in range(40))
+    b = board_from_placement(box(0, 0, 100, 10), pl, Design("t", "", "", parts, ()), LIB, ("top", "bottom"))
+    assert sorted(calls) == [(0, "top"), (90, "top")] and len(b.pads) == 80
+
+
+@pytest.mark.parametrize("pad", [
+    Pad("1", 1.1, 2.3, "rect", 1.0, 0.5, rotation=90), Pad("2", -3.7, 0.2, "roundrect", 0.6, 0.9),
+    Pad("3", 0.3, 0.7, "circle", 1.7, 1.7, drill_mm=1.0), Pad("4", 5.0, -1.0, "oblong", 2.0, 1.0, rotation=90),
+    Pad("5", 0.0, 0.0, "oblong", 1.0, 1.0),
+])
+def test_bulk_outlines_equal_one_at_a_time(pad):
+    # the bulk maker gives exactly the coordinates of shapely's own one-pad constructors
+    # (shapely.geometry.box, Point.buffer, LineString.buffer: the reference library)
+    from shapely.geometry import LineString, Point
+    from pipeline.route.pads import pad_polygons
+    w, h = (pad.height_mm, pad.width_mm) if pad.rotation == 90 else (pad.width_mm, pad.height_mm)
+    x, y = pad.x_mm, pad.y_mm
+    if pad.shape == "circle":
+        want = Point(x, y).buffer(w / 2, quad_segs=4)
+    elif pad.shape == "oblong" and w != h:
+        r = min(w, h) / 2
+        d = (w / 2 - r, 0.0) if w > h else (0.0, h / 2 - r)
+        want = LineString([(x - d[0], y - d[1]), (x + d[0], y + d[1])]).buffer(r, quad_segs=4)
+    else:
+        want = box(x - w / 2, y - h / 2, x + w / 2, y + h / 2)
+    got = pad_polygons([pad.shape] * 3, [x] * 3, [y] * 3, [pad.width_mm] * 3, [pad.height_mm] * 3,
+                       [pad.rotation] * 3)
+    assert all(list(g.exterior.coords) == list(want.exterior.coords) for g in got)

@@ -43,7 +43,7 @@ from ._data import Fields, check_header, csv_number, csv_rows, read_toml
 from .courtyards import ceil_to_grid
 
 __all__ = ["Goals", "LandRules", "Terminals", "land_equations", "read_land_rules", "read_terminals",
-           "surface_pads", "package_pads", "through_hole_row_pads", "pad_extent", "pads_on_board",
+           "surface_pads", "package_pads", "through_hole_row_pads", "pad_extent", "pads_on_board", "turned_pads", "board_xy",
            "TERMINAL_COLUMNS", "LAYOUTS"]
 
 #: How a package's terminals are arranged (terminals.csv ``layout``).
@@ -331,20 +331,19 @@ def pad_extent(pads: tuple[Pad, ...]) -> tuple[float, float]:
     return round(2 * half_x, 6), round(2 * half_y, 6)
 
 
-def pads_on_board(package: Package, x: float, y: float, rotation_deg: float, side: str,
-                  level: str = "nominal") -> tuple[Pad, ...]:
-    """The pads of a part of ``package`` placed at (``x``, ``y``) mm on the board.
+def turned_pads(package: Package, rotation_deg: float, side: str,
+                level: str = "nominal") -> tuple[tuple[Pad, float, float, int], ...]:
+    """The pads of ``package`` turned and mirrored as placed, before the move.
 
-    The part's origin goes to (x, y); it is turned ``rotation_deg`` anticlockwise
-    (a multiple of 90) seen from the top; a part on the ``"bottom"`` side is
-    first mirrored in x (it is seen through the board). Each pad keeps its own
-    width and height; ``rotation`` says whether it now stands turned by 90
-    degrees. Pads are those of density ``level``. Cost: one pass over the pads.
-
-    >>> from pipeline.library import load_library
-    >>> [(p.number, p.x_mm, p.y_mm, p.rotation) for p in
-    ...  pads_on_board(load_library().package("0603"), 10.0, 5.0, 90, "top")]
-    [('1', 10.0, 4.225, 90), ('2', 10.0, 5.775, 90)]
+    One ``(pad, dx, dy, rotation)`` per pad of density ``level``: the pad's
+    offset from the part origin on the board (mm, not rounded) and whether it
+    now stands turned by 90 degrees. The part is turned ``rotation_deg``
+    anticlockwise (a multiple of 90) seen from the top; a part on the
+    ``"bottom"`` side is first mirrored in x (it is seen through the board).
+    It depends on the package, rotation, side and level only, so a caller
+    placing many parts of one package computes it once per such key
+    (:func:`pipeline.route.pads.board_from_placement`). Cost: one pass over
+    the pads.
     """
     quarter = round(rotation_deg / 90.0)
     if abs(quarter * 90.0 - rotation_deg) > 1e-9:
@@ -355,7 +354,34 @@ def pads_on_board(package: Package, x: float, y: float, rotation_deg: float, sid
     out = []
     for p in package.pads_at(level):
         px = -p.x_mm if side == "bottom" else p.x_mm
-        bx, by = px * cos - p.y_mm * sin, px * sin + p.y_mm * cos
-        turned = (p.rotation + 90 * (quarter % 2)) % 180
-        out.append(replace(p, x_mm=round(x + bx, 6), y_mm=round(y + by, 6), rotation=turned))
+        out.append((p, px * cos - p.y_mm * sin, px * sin + p.y_mm * cos, (p.rotation + 90 * (quarter % 2)) % 180))
+    return tuple(out)
+
+
+def board_xy(x: float, y: float, dx: float, dy: float) -> tuple[float, float]:
+    """A pad's board position (mm, to 1 nm) from the part origin (``x``, ``y``) and its
+    :func:`turned_pads` offset."""
+    return round(x + dx, 6), round(y + dy, 6)
+
+
+def pads_on_board(package: Package, x: float, y: float, rotation_deg: float, side: str,
+                  level: str = "nominal") -> tuple[Pad, ...]:
+    """The pads of a part of ``package`` placed at (``x``, ``y``) mm on the board.
+
+    The part's origin goes to (x, y); it is turned ``rotation_deg`` anticlockwise
+    (a multiple of 90) seen from the top; a part on the ``"bottom"`` side is
+    first mirrored in x (it is seen through the board). Each pad keeps its own
+    width and height; ``rotation`` says whether it now stands turned by 90
+    degrees. Pads are those of density ``level`` (:func:`turned_pads`, then
+    :func:`board_xy`). Cost: one pass over the pads.
+
+    >>> from pipeline.library import load_library
+    >>> [(p.number, p.x_mm, p.y_mm, p.rotation) for p in
+    ...  pads_on_board(load_library().package("0603"), 10.0, 5.0, 90, "top")]
+    [('1', 10.0, 4.225, 90), ('2', 10.0, 5.775, 90)]
+    """
+    out = []
+    for p, dx, dy, turned in turned_pads(package, rotation_deg, side, level):
+        bx, by = board_xy(x, y, dx, dy)
+        out.append(replace(p, x_mm=bx, y_mm=by, rotation=turned))
     return tuple(out)

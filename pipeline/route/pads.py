@@ -22,13 +22,15 @@ from __future__ import annotations
 
 from typing import Iterable
 
-from shapely.geometry import LineString, Point, Polygon, box
+import numpy as np
+import shapely
+from shapely.geometry import LineString, Polygon
 
-from ..library import pads_on_board
+from ..library.lands import board_xy, turned_pads
 from ..model import Design, Pad, Placement
 from .board import RouteBoard, RoutePad
 
-__all__ = ["board_from_placement", "pad_polygon"]
+__all__ = ["board_from_placement", "pad_polygon", "pad_polygons"]
 
 #: circle segments per quarter for round pads.
 _QUAD_SEGS = 4
@@ -40,15 +42,36 @@ def pad_polygon(pad: Pad) -> Polygon:
     >>> pad_polygon(Pad("1", 1.0, 2.0, "rect", 0.8, 0.4, 0.0, 90)).bounds
     (0.8, 1.6, 1.2, 2.4)
     """
-    w, h = (pad.height_mm, pad.width_mm) if pad.rotation == 90 else (pad.width_mm, pad.height_mm)
-    x, y = pad.x_mm, pad.y_mm
-    if pad.shape == "circle":
-        return Point(x, y).buffer(w / 2, quad_segs=_QUAD_SEGS)
-    if pad.shape == "oblong" and abs(w - h) > 1e-9:
-        r = min(w, h) / 2
-        dx, dy = (w / 2 - r, 0.0) if w > h else (0.0, h / 2 - r)
-        return LineString([(x - dx, y - dy), (x + dx, y + dy)]).buffer(r, quad_segs=_QUAD_SEGS)
-    return box(x - w / 2, y - h / 2, x + w / 2, y + h / 2)
+    return pad_polygons([pad.shape], [pad.x_mm], [pad.y_mm], [pad.width_mm], [pad.height_mm],
+                        [pad.rotation])[0]
+
+
+def pad_polygons(shapes, xs, ys, widths, heights, rotations) -> list[Polygon]:
+    """The copper outlines of many placed pads, one per entry of the equal-length columns.
+
+    Rectangles and circles are made in bulk (one shapely call each, the
+    same coordinates as one pad at a time); oblongs one by one. Cost
+    O(pads), a few shapely calls.
+    """
+    x, y = np.asarray(xs, dtype=float), np.asarray(ys, dtype=float)
+    turned = np.asarray(rotations) == 90
+    w = np.where(turned, heights, widths).astype(float)
+    h = np.where(turned, widths, heights).astype(float)
+    shape = np.asarray(shapes, dtype=object)
+    circle = shape == "circle"
+    oblong = (shape == "oblong") & (np.abs(w - h) > 1e-9)
+    rect = ~(circle | oblong)
+    out = np.empty(len(x), dtype=object)
+    x0, x1, y0, y1 = x - w / 2, x + w / 2, y - h / 2, y + h / 2
+    corners = np.stack([np.stack([x1, y0], 1), np.stack([x1, y1], 1), np.stack([x0, y1], 1),
+                        np.stack([x0, y0], 1)], 1)
+    out[rect] = shapely.polygons(corners[rect])
+    out[circle] = shapely.buffer(shapely.points(x[circle], y[circle]), w[circle] / 2, quad_segs=_QUAD_SEGS)
+    for i in np.flatnonzero(oblong):
+        r = min(w[i], h[i]) / 2
+        dx, dy = (w[i] / 2 - r, 0.0) if w[i] > h[i] else (0.0, h[i] / 2 - r)
+        out[i] = LineString([(x[i] - dx, y[i] - dy), (x[i] + dx, y[i] + dy)]).buffer(r, quad_segs=_QUAD_SEGS)
+    return list(out)
 
 
 def board_from_placement(outline, placements: Iterable[Placement], design: Design, library,
@@ -59,18 +82,30 @@ def board_from_placement(outline, placements: Iterable[Placement], design: Desig
     ``outline`` is the board (a Polygon, or the largest part of a
     MultiPolygon; its interiors become holes), ``library`` anything with
     ``package(name)``, ``layers`` the copper layer names top first,
-    ``level`` the IPC-7351B density level of the lands.
+    ``level`` the IPC-7351B density level of the lands. Each package's
+    turned pads are computed once per (package, rotation, side)
+    (:func:`pipeline.library.lands.turned_pads`) and moved per part; the
+    outlines are made in bulk (:func:`pad_polygons`).
     """
     net_of = {(pr.ref, pr.pin): n.name for n in design.nets for pr in n.pins}
-    pads: list[RoutePad] = []
+    turned: dict[tuple, tuple] = {}
+    rows, cols = [], ([], [], [], [], [], [])
     for pl in placements:
-        part = design.part(pl.ref)
-        for pad in pads_on_board(library.package(part.package), pl.x_mm, pl.y_mm, pl.rotation_deg, pl.side, level):
+        package = design.part(pl.ref).package
+        key = (package, pl.rotation_deg, pl.side)
+        if key not in turned:
+            turned[key] = turned_pads(library.package(package), pl.rotation_deg, pl.side, level)
+        for pad, dx, dy, rot in turned[key]:
             if pad.drill_mm > 0:
                 on = layers
             else:
                 on = (layers[0],) if pl.side == "top" else (layers[-1],)
-            pads.append(RoutePad(pl.ref, pad.number, net_of.get((pl.ref, pad.number)), on, pad_polygon(pad)))
+            rows.append((pl.ref, pad.number, net_of.get((pl.ref, pad.number)), on))
+            x, y = board_xy(pl.x_mm, pl.y_mm, dx, dy)
+            for col, v in zip(cols, (pad.shape, x, y, pad.width_mm, pad.height_mm, rot)):
+                col.append(v)
+    polygons = pad_polygons(*cols) if rows else []
+    pads = [RoutePad(*row, poly) for row, poly in zip(rows, polygons)]
     if getattr(outline, "geom_type", "") == "MultiPolygon":
         outline = max(outline.geoms, key=lambda g: g.area)
     holes = tuple(Polygon(r) for r in getattr(outline, "interiors", ())) + tuple(holes)
