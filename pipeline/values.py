@@ -210,6 +210,7 @@ def located(parse: _F) -> _F:
 
 
 @located
+@lru_cache(maxsize=4096, typed=True)  # pure; a design repeats few value texts (typed: True is not 1)
 def parse_value(text: str, unit: str = "") -> float:
     """Parse a component value in engineering notation or RKM code.
 

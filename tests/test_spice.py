@@ -824,3 +824,16 @@ def test_same_bytes_across_hash_seeds_and_folders(tmp_path):
         assert res.returncode == 0, res.stderr
         outs.append(res.stdout.strip())
     assert len(set(outs)) == 1 and len(outs[0]) == 64
+
+
+
+# worked by hand from the rule (ASCII letters/digits/_ kept, + -> p, a sign-like - -> n, anything
+# else _, runs of _ merged, ends stripped): already-legal names take the fast path unchanged
+@pytest.mark.parametrize("name, signed, plain", [
+    ("VCC", "VCC", "VCC"), ("net_1", "net_1", "net_1"), ("Ab9_c7", "Ab9_c7", "Ab9_c7"),
+    ("_a", "a", "a"), ("a__b", "a_b", "a_b"), ("b_", "b", "b"), ("V+", "Vp", "V"),
+    ("IN-", "INn", "IN"), ("A-B", "A_B", "A_B"), ("\u00b51", "1", "1"), ("x y", "x_y", "x_y"), ("", "", ""),
+])
+def test_legal_names(name, signed, plain):
+    from pipeline.export.spice import _legal
+    assert _legal(name) == signed and _legal(name, signs=False) == plain

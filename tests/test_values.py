@@ -548,3 +548,17 @@ def test_docstring_examples_run():
 
     result = doctest.testmod(pipeline.values)
     assert result.attempted > 0 and result.failed == 0
+
+
+def test_parse_value_parses_each_distinct_text_once():
+    # cost guard: a design repeating one value text parses it once (lru cache on the text);
+    # True is not taken for a cached 1 (typed cache)
+    from pipeline.errors import ValueTextError
+    inner = parse_value.__wrapped__
+    inner.cache_clear()
+    for _ in range(500):
+        assert parse_value("4k7") == 4700.0
+    assert inner.cache_info().misses == 1 and inner.cache_info().hits == 499
+    assert parse_value(1) == 1.0
+    with pytest.raises(ValueTextError):
+        parse_value(True)

@@ -142,13 +142,22 @@ def spice_number(value: float) -> str:
     return sign + txt + _SCALE[eng]
 
 
+#: a name :func:`_legal` leaves as it is.
+_LEGAL_RE = re.compile(r"[A-Za-z0-9]+(?:_[A-Za-z0-9]+)*")
+
+
 def _between_words(text: str, i: int) -> bool:
     """Whether ``text[i]`` stands between two letters or digits (a hyphen, not a sign)."""
     return 0 < i < len(text) - 1 and text[i - 1].isalnum() and text[i + 1].isalnum()
 
 
 def _legal(name: str, *, signs: bool = True) -> str:
-    """Letters, digits and ``_`` only; with ``signs`` ``+`` -> ``p``, ``-`` -> ``n``."""
+    """Letters, digits and ``_`` only; with ``signs`` ``+`` -> ``p``, ``-`` -> ``n``.
+
+    A name that is already legal (ASCII letters and digits, single ``_``
+    inside) is returned at once; most names are."""
+    if _LEGAL_RE.fullmatch(name):
+        return name
     out = []
     for i, ch in enumerate(name):
         if ch.isascii() and (ch.isalnum() or ch == "_"):
