@@ -135,9 +135,8 @@ def nets_of_part(g: nx.MultiGraph, ref: str) -> list[str]:
 
 def pins_on_net(g: nx.MultiGraph, net: str) -> list[tuple[str, str, str]]:
     """``(ref, pin, role)`` of every pin on ``net``, natural order."""
-    out = [(u[1] if u[0] == "part" else v[1], d["pin"], d["role"])
-           for u, v, d in g.edges(net_node(net), data=True)]
-    return sorted(out, key=lambda t: (natural_key(t[0]), natural_key(t[1])))
+    out = [(part[1], d["pin"], d["role"]) for part, keyed in g.adj[net_node(net)].items() for d in keyed.values()]
+    return sorted(out, key=lambda t: (natural_key(t[0]), natural_key(t[1]))) if len(out) > 1 else out
 
 
 def pin_count(g: nx.MultiGraph, net: str) -> int:
@@ -148,14 +147,16 @@ def pin_count(g: nx.MultiGraph, net: str) -> int:
 def pin_nets(g: nx.MultiGraph, ref: str) -> dict[str, list[str]]:
     """Pin number -> nets it is on, for every connected pin of ``ref``."""
     out: dict[str, list[str]] = {}
-    for _, net, d in g.edges(part_node(ref), data=True):
-        out.setdefault(d["pin"], []).append(net[1])
-    return {k: sorted(v, key=natural_key) for k, v in sorted(out.items(), key=lambda kv: natural_key(kv[0]))}
+    for net, keyed in g.adj[part_node(ref)].items():
+        for d in keyed.values():
+            out.setdefault(d["pin"], []).append(net[1])
+    return {k: sorted(v, key=natural_key) if len(v) > 1 else v
+            for k, v in sorted(out.items(), key=lambda kv: natural_key(kv[0]))}
 
 
 def unconnected_pins(g: nx.MultiGraph, ref: str) -> list[str]:
     """Pin numbers of ``ref`` on no net, natural order."""
-    connected = {d["pin"] for _, _, d in g.edges(part_node(ref), data=True)}
+    connected = {d["pin"] for keyed in g.adj[part_node(ref)].values() for d in keyed.values()}
     return [p.number for p in g.nodes[part_node(ref)]["pins"] if p.number not in connected]
 
 
