@@ -470,6 +470,7 @@ def parse_rating(text: str) -> tuple[float | None, float | None]:
 # --------------------------------------------------------------------------
 # Formatting
 # --------------------------------------------------------------------------
+@lru_cache(maxsize=4096)  # pure; designs and writers repeat few values (equal keys give equal text)
 def format_value(value: float, unit: str = "") -> str:
     """Canonical short ASCII text for a value, e.g. ``4700 -> "4.7k"``.
 

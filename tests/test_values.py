@@ -562,3 +562,16 @@ def test_parse_value_parses_each_distinct_text_once():
     assert parse_value(1) == 1.0
     with pytest.raises(ValueTextError):
         parse_value(True)
+
+
+def test_format_value_formats_each_distinct_value_once():
+    # cost guard: the writers format the same few values thousands of times (lru cache); keys that
+    # compare equal (4700, 4700.0; 0.0, -0.0) have the same text, so sharing an entry is exact
+    format_value.cache_clear()
+    for _ in range(300):
+        assert format_value(4700.0) == "4.7k" and format_value(4700) == "4.7k"
+        assert format_value(1e-7, "F") == "100nF"
+    assert format_value.cache_info().misses == 3  # 4700 and 4700.0: functools keys a lone int apart
+    assert format_value(-0.0) == format_value(0.0) == "0"
+    with pytest.raises(ValueError):
+        format_value(float("nan"))
