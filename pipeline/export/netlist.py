@@ -81,26 +81,47 @@ def _key(k: Any) -> str:
 
 
 def _indented(o: Any, nl: str, out: list[str]) -> None:
-    """Append the JSON text of ``o`` to ``out``; ``nl`` is a newline and the current indent."""
+    """Append the JSON text of ``o`` to ``out``; ``nl`` is a newline and the current indent.
+
+    Plain dicts, lists and tuples (the exact types, the common case) go
+    straight to :func:`_members`; anything else takes json's order of
+    checks (a ``str`` subclass is text, not a container).
+    """
+    t = type(o)
+    if t is dict:
+        _members(o, "{}", nl, out)
+        return
+    if t is list or t is tuple:
+        _members(o, "[]", nl, out)
+        return
     text = _scalar(o)
     if text is not None:
         out.append(text)
-        return
-    if isinstance(o, (list, tuple)):
-        brackets, items = "[]", (("", v) for v in o)
+    elif isinstance(o, (list, tuple)):
+        _members(o, "[]", nl, out)
     elif isinstance(o, dict):
-        brackets, items = "{}", (((_json_string(k) if type(k) is str else _key(k)) + ": ", v) for k, v in o.items())
+        _members(o, "{}", nl, out)
     else:
         raise TypeError(f"Object of type {type(o).__name__} is not JSON serializable")
+
+
+def _members(o: Any, brackets: str, nl: str, out: list[str]) -> None:
+    """Append a dict's (``brackets`` ``"{}"``) or list's items, one a line, indented two more."""
     if not o:
         out.append(brackets)
         return
     inner = nl + "  "
     out.append(brackets[0])
     sep = inner
-    for head, v in items:
-        if type(v) is str:  # the common leaf, without a call
+    pairs = (((_json_string(k) if type(k) is str else _key(k)) + ": ", v) for k, v in o.items()) \
+        if brackets == "{}" else (("", v) for v in o)
+    for head, v in pairs:
+        tv = type(v)
+        if tv is str:  # the common leaf, without a call
             out.append(sep + head + _json_string(v))
+        elif tv is dict or tv is list or tv is tuple:
+            out.append(sep + head)
+            _members(v, "{}" if tv is dict else "[]", inner, out)
         else:
             out.append(sep + head)
             _indented(v, inner, out)
