@@ -100,6 +100,7 @@ from shapely.geometry.polygon import orient
 
 from .area import estimate_area
 from .errors import DesignError, ProjectError
+from . import place_rules
 from .improve import improve_swaps
 from .model import BoardOptions, FitResult, Finding, PlaceItem, Placement, Region
 from .order import natural_key
@@ -688,6 +689,7 @@ def _pack_and_check(items, area, region: Region, board: BoardOptions, estimate, 
     refs = [it.ref for it in items]
     out = _Outcome()
     fixed = _fixed_parts(items, region, board)
+    items, fixed, out.warnings = place_rules.pin_edge_parts(items, fixed, area, region)  # edge rule first
     packer = _Packer(items, area, region.zones, _rank(items, nets), fixed=fixed)
     tries = _tries(items, packer, area, board, estimate)
     low = max((items[i].height_mm for i, (side, _) in fixed.items() if side == "bottom"), default=0.0)
@@ -695,6 +697,7 @@ def _pack_and_check(items, area, region: Region, board: BoardOptions, estimate, 
     run = _best_run(packer, tries, board.sides, progress)
     if improve:
         _improve(packer, run, nets, progress)
+    place_rules.near_pass(packer, run, fixed)  # after the swaps, so they cannot undo it
     rects = {i: packer.rect(i, run.slots[i]) for i in run.slots}
     rects.update({i: r for i, (_, r) in fixed.items()})
     sides = {i: s[0] for i, s in run.slots.items()} | {i: sd for i, (sd, _) in fixed.items()}
@@ -722,6 +725,9 @@ def _pack_and_check(items, area, region: Region, board: BoardOptions, estimate, 
             f"{_fmt(board.edge_clearance_mm)} mm edge clearance) or the height the lid allows for "
             f"{_fmt(items[i].height_mm)} mm: move it or choose a lower package.")
     out.blocked += _diagnose(packer, run, not_placed, region, board)
+    unmet, notes = place_rules.unmet_rules(items, out.placements)
+    out.blocked += unmet
+    out.warnings += notes
     bottom = [p.ref for p in out.placements if p.side == "bottom"]
     if run.gap > 0 and bottom:
         out.warnings.append(Finding(

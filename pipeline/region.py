@@ -206,7 +206,8 @@ def usable_region(cavity: Cavity, board: BoardOptions) -> tuple[Region, list[Fin
         region_geom = polygonal(inset.difference(keep).difference(shallow))
     findings += _shape_findings(region_geom, c, cavity)
     zones = _height_zones(region_geom, grown, t, float(cavity.depth_mm))
-    return Region(board_region=region_geom, zones=zones, thickness_mm=t), findings
+    entry = shapely.union_all(list(cavity.wire_entries)) if cavity.wire_entries else None
+    return Region(board_region=region_geom, zones=zones, thickness_mm=t, wire_entry=entry), findings
 
 
 def _too_shallow(grown: list[tuple[float, BaseGeometry, tuple[str, ...]]], t: float,

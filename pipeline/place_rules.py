@@ -1,0 +1,414 @@
+"""Parts that must sit somewhere: the board edge by the wire entry, and near another part's pins.
+
+Entry points (all called by :mod:`pipeline.place` and :mod:`pipeline.area`,
+each at one line):
+
+* :func:`attach_rules` - which placer items carry a rule (area step).
+* :func:`pin_edge_parts` - the edge rule, applied *before* the packing.
+* :func:`near_pass` - the near rule, applied *after* the packing and its
+  swap improvement.
+* :func:`unmet_rules` - what is left unmet, as ``blocked_by`` sentences
+  and findings.
+
+The rules (millimetres)
+-----------------------
+* **Edge.** Wire pads (kind ``wire-pad``) and connectors (kind ``header``),
+  or any part with ``at_edge = true``, go inside the wire-entry zone (layer
+  role ``WIRE-ENTRY``, :attr:`pipeline.model.Region.wire_entry`) or else in
+  the *edge band* nearest to it: courtyards within :data:`EDGE_BAND_MM` of
+  the outer edge of the placement area (the board outline less its edge
+  clearance; holes around keep-outs are not edges a wire can come over).
+  With no zone drawn they go in the edge band, kept together.
+  ``at_edge = false`` on a part switches the rule off for it.
+* **Near.** A part with ``near = "U3"`` keeps one of its pads within
+  ``within_mm`` (default :data:`NEAR_WITHIN_MM`) of one of U3's pads,
+  distance between pad centres. By default every decoupling capacitor, as
+  the connection check pairs them (:func:`pipeline.check.decoupling_caps`),
+  keeps a pad within :data:`NEAR_WITHIN_MM` of the supply pins of its IC;
+  a capacitor that pairs with several ICs (a shared supply) goes with the
+  one nearest to it in the design's part order (ties: the earlier).
+
+The method
+----------
+*Edge: pre-placement as fixed parts.* Before the packing, each edge part
+(natural ref order) takes the best legal spot on a candidate grid of
+courtyard centres (step :data:`EDGE_STEP_MM`, coarser on large boards so
+at most about :data:`EDGE_CANDIDATES` centres) in both orientations. Legal:
+the courtyard lies in the placement area and in the height zones that allow
+its height, and overlaps no fixed or earlier edge part (exact shapely
+tests, vectorised). Best, in tiers: inside the wire-entry zone (nearest the
+edge first), then in the edge band (nearest the zone first; with no zone,
+nearest the edge parts already placed), then anywhere (nearest the zone or
+edge; reported). The spot becomes a :class:`pipeline.model.Fixed`, so the
+packer treats it as a part the user fixed. Cost: O(parts x candidates)
+shapely predicates.
+
+*Near: a post-pass that moves a part to the nearest legal slot.* After the
+packing and the swap improvement (so the swaps cannot take the part away
+again), each near part that is too far (natural ref order) is moved to the
+grid origin, among all legal ones of its height level in both orientations,
+whose pads come nearest the target's pins. Legal origins come from a
+summed-area table of the blocked cells (outside the level's mask or under
+another courtyard; Crow 1984, from memory), so a move is legal on the same
+grid the packer uses and the placer's shapely self-check still applies.
+Cost: O(cells) per moved part.
+
+Defaults (common practice, from memory)
+---------------------------------------
+:data:`NEAR_WITHIN_MM` = 3 mm: decoupling capacitors "within a few mm" of
+the supply pins (REFERENCES.md section 7; application notes commonly ask
+for under about 3 mm, from memory). :data:`EDGE_BAND_MM` = 1 mm: a courtyard
+at most that far in from the edge still counts as at the edge (our own
+figure; a soldered wire leaves over it).
+
+Reference: F. C. Crow, "Summed-area tables for texture mapping", SIGGRAPH
+1984 (cited from memory).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from typing import Any, Sequence
+
+import numpy as np
+import shapely
+from shapely.geometry.base import BaseGeometry
+
+from .library.lands import pads_on_board
+from .model import Finding, Fixed, NearRule, PlaceItem, Region
+from .order import natural_key
+
+__all__ = ["attach_rules", "pin_edge_parts", "near_pass", "unmet_rules", "near_distance",
+           "EDGE_KINDS", "EDGE_BAND_MM", "NEAR_WITHIN_MM", "EDGE_STEP_MM"]
+
+#: Kinds that go to the board edge by the wire entry unless ``at_edge = false``.
+EDGE_KINDS = ("wire-pad", "header")
+#: A courtyard at most this far in from the placement area's outer edge is at the edge, mm (our own figure).
+EDGE_BAND_MM = 1.0
+#: Default near distance between pad centres, mm (common practice, from memory: "within a few mm").
+NEAR_WITHIN_MM = 3.0
+#: Candidate step of the edge pre-placement, mm.
+EDGE_STEP_MM = 0.25
+#: Most candidate centres per orientation the edge pre-placement looks at.
+EDGE_CANDIDATES = 40_000
+#: Geometric tolerance, mm.
+TOL = 1e-6
+
+
+def _fmt(v: float) -> str:
+    return f"{v:.2f}".rstrip("0").rstrip(".")
+
+
+# --------------------------------------------------------------------------
+# which items carry a rule
+# --------------------------------------------------------------------------
+def attach_rules(items: Sequence[PlaceItem], design: Any, library: Any, density: str) -> tuple[PlaceItem, ...]:
+    """``items`` with ``edge`` and ``near`` set from the design (module notes: the rules).
+
+    Cost: one connectivity graph of the design and O(ICs x caps).
+    """
+    from .check import decoupling_caps
+    from .graph import build_graph, pin_nets
+
+    parts = {p.ref: p for p in design.parts}
+    pkg = {it.ref: library.package(it.package) for it in items}
+    g = build_graph(design)
+    cat = {p.kind: library.kind(p.kind).category for p in design.parts}
+    decap = _decoupling_targets(design, decoupling_caps(design, g, cat), set(pkg))
+    out = []
+    for it in items:
+        part = parts[it.ref]
+        ask = part.ask
+        edge = part.kind in EDGE_KINDS if ask is None or ask.at_edge is None else ask.at_edge
+        near = None
+        if ask is not None and ask.near and ask.near in pkg:
+            near = NearRule(ask.near, (), ask.within_mm or NEAR_WITHIN_MM, "near", pkg[it.ref], pkg[ask.near],
+                            density, ask.file, ask.line)
+        elif it.ref in decap:
+            ic = decap[it.ref]
+            mine = {n for ns in pin_nets(g, it.ref).values() for n in ns}
+            pins = tuple(p.number for p in parts[ic].pins if p.role == "supply"
+                         and set(pin_nets(g, ic).get(p.number, ())) & mine)
+            near = NearRule(ic, pins, NEAR_WITHIN_MM, "decoupling", pkg[it.ref], pkg[ic], density)
+        out.append(dataclasses.replace(it, edge=bool(edge), near=near))
+    return tuple(out)
+
+
+def _decoupling_targets(design: Any, pairs: dict[str, tuple[str, ...]], fitted: set[str]) -> dict[str, str]:
+    """cap ref -> the one IC it decouples: the paired IC nearest in part order (ties: the earlier)."""
+    index = {p.ref: n for n, p in enumerate(design.parts)}
+    ics_of: dict[str, list[str]] = {}
+    for ic, caps in pairs.items():
+        for c in caps:
+            if ic in fitted and c in fitted:
+                ics_of.setdefault(c, []).append(ic)
+    return {c: min(ics, key=lambda ic: (abs(index[ic] - index[c]), index[ic])) for c, ics in ics_of.items()}
+
+
+# --------------------------------------------------------------------------
+# the edge rule: pre-placement
+# --------------------------------------------------------------------------
+def _outer_edge(area: BaseGeometry) -> BaseGeometry:
+    return shapely.union_all([shapely.get_exterior_ring(p) for p in shapely.get_parts(area)])
+
+
+def _allowed(area: BaseGeometry, region: Region, height: float) -> BaseGeometry:
+    """Where a top-side part of ``height`` may stand (area and the height zones that allow it)."""
+    if not region.zones:
+        return area
+    ok = [z.polygon for z in region.zones if z.max_height_mm >= height - 1e-9]
+    if not ok:
+        return shapely.Polygon()
+    u = shapely.union_all(ok).buffer(1e-7, join_style="mitre").buffer(-1e-7, join_style="mitre")
+    return area.intersection(u)
+
+
+def _candidates(area: BaseGeometry, dx: float, dy: float) -> tuple[np.ndarray, np.ndarray]:
+    minx, miny, maxx, maxy = area.bounds
+    span = max(maxx - minx, 1e-9) * max(maxy - miny, 1e-9)
+    step = max(EDGE_STEP_MM, math.sqrt(span / EDGE_CANDIDATES))
+    xs = np.arange(minx + dx / 2, maxx - dx / 2 + 1e-9, step)
+    ys = np.arange(miny + dy / 2, maxy - dy / 2 + 1e-9, step)
+    gx, gy = np.meshgrid(xs, ys)
+    return gx.ravel(), gy.ravel()
+
+
+def pin_edge_parts(items: Sequence[PlaceItem], fixed: dict, area: BaseGeometry, region: Region
+                   ) -> tuple[tuple[PlaceItem, ...], dict, list[Finding]]:
+    """Pre-place the edge parts as fixed parts (module notes: the method).
+
+    Parameters
+    ----------
+    items : sequence of PlaceItem
+    fixed : dict
+        ``item -> (side, (x1, y1, x2, y2))`` of the parts the user fixed.
+    area : geometry
+        The placement area (board less its edge clearance), mm.
+    region : Region
+        Height zones and the wire-entry zone.
+
+    Returns
+    -------
+    (items, fixed, findings)
+        Items with the pre-placed ones fixed, ``fixed`` with them added, and
+        a ``place.rule-unmet`` warning for each part that found no place in
+        the zone or the edge band.
+    """
+    todo = sorted((i for i, it in enumerate(items) if it.edge and it.fixed is None and i not in fixed),
+                  key=lambda i: natural_key(items[i].ref))
+    if not todo or area.is_empty:
+        return tuple(items), fixed, []
+    items, fixed = list(items), dict(fixed)
+    edge, zone = _outer_edge(area), region.wire_entry
+    shapely.prepare(edge)
+    if zone is not None:
+        shapely.prepare(zone)
+    taken = [shapely.box(*r) for side, r in fixed.values() if side == "top"]
+    notes: list[Finding] = []
+    placed: list[tuple[float, float]] = []
+    for i in todo:
+        it = items[i]
+        best = _best_edge_spot(it, _allowed(area, region, it.height_mm), taken, edge, zone, placed)
+        if best is None:
+            notes.append(Finding("warning", "place.rule-unmet", (it.ref,),
+                                 f"{it.ref} should sit at the board edge {_by(zone)}, but its courtyard fits "
+                                 "nowhere beside the parts fixed there; it is placed with the other parts."))
+            continue
+        tier, x, y, rot, far = best
+        rect = _rect(it, x, y, rot)
+        items[i] = dataclasses.replace(it, fixed=Fixed(x, y, rot, "top", "", 0))
+        fixed[i] = ("top", rect)
+        taken.append(shapely.box(*rect))
+        placed.append((x, y))
+        if tier == 2:
+            notes.append(Finding("warning", "place.rule-unmet", (it.ref,),
+                                 f"{it.ref} should sit at the board edge {_by(zone)} (edge rule), but no room "
+                                 f"is left there: it ended {_fmt(far)} mm from "
+                                 + ("the zone." if zone is not None else "the edge band.")))
+    return tuple(items), fixed, notes
+
+
+def _by(zone) -> str:
+    return "nearest the wire-entry zone" if zone is not None else "(no wire-entry zone is drawn)"
+
+
+def _rect(it: PlaceItem, x: float, y: float, rot: int) -> tuple[float, float, float, float]:
+    dx, dy = (it.length_mm, it.width_mm) if rot in (0, 180) else (it.width_mm, it.length_mm)
+    return (x - dx / 2, y - dy / 2, x + dx / 2, y + dy / 2)
+
+
+def _best_edge_spot(it: PlaceItem, allowed: BaseGeometry, taken: list, edge, zone, placed: list):
+    """(tier, x, y, rotation, distance) of the best legal centre, or None (module notes: tiers)."""
+    if allowed.is_empty:
+        return None
+    shapely.prepare(allowed)
+    blocked = shapely.union_all(taken).buffer(-1e-7, join_style="mitre") if taken else None
+    rows = []
+    for rot in ((0, 90) if abs(it.length_mm - it.width_mm) > TOL else (0,)):
+        dx, dy = (it.length_mm, it.width_mm) if rot == 0 else (it.width_mm, it.length_mm)
+        x, y = _candidates(allowed, dx, dy)
+        if not len(x):
+            continue
+        boxes = shapely.box(x - dx / 2, y - dy / 2, x + dx / 2, y + dy / 2)
+        ok = shapely.covers(allowed, boxes)
+        if blocked is not None and not blocked.is_empty:
+            ok &= ~shapely.intersects(blocked, boxes)
+        if not ok.any():
+            continue
+        x, y, boxes = x[ok], y[ok], boxes[ok]
+        de = np.round(shapely.distance(edge, boxes), 6)
+        dz = np.round(shapely.distance(zone, boxes), 6) if zone is not None else None
+        if dz is not None:
+            tier = np.where(dz <= TOL, 0, np.where(de <= EDGE_BAND_MM + TOL, 1, 2))
+            score = np.where(tier == 0, de, dz)
+            far = dz
+        else:
+            tier = np.where(de <= EDGE_BAND_MM + TOL, 1, 2)
+            if placed:
+                cx, cy = np.mean(placed, axis=0)
+                score = np.where(tier == 1, np.round(np.hypot(x - cx, y - cy), 6), de)
+            else:
+                score = de
+            far = de
+        rows.append((tier, score, np.round(y, 6), np.round(x, 6), np.full(len(x), rot), far))
+    if not rows:
+        return None
+    tier, score, y, x, rot, far = (np.concatenate(c) for c in zip(*rows))
+    k = int(np.lexsort((rot, x, y, score, tier))[0])
+    return int(tier[k]), float(x[k]), float(y[k]), int(rot[k]), float(far[k])
+
+
+# --------------------------------------------------------------------------
+# the near rule: a post-pass on the packer's grid
+# --------------------------------------------------------------------------
+def _points(rule: NearRule, own: bool, x: float, y: float, rot: int, side: str, pins=()) -> np.ndarray:
+    pkg = rule.own_package if own else rule.target_package
+    pads = pads_on_board(pkg, x, y, rot, side, rule.level)
+    if pins:
+        pads = [p for p in pads if p.number in pins]
+    return np.array([(p.x_mm, p.y_mm) for p in pads], dtype=float).reshape(-1, 2)
+
+
+def near_distance(rule: NearRule, own_at: tuple, target_at: tuple) -> float:
+    """Nearest distance between this part's pad centres and the target's ``pins`` (all: empty), mm.
+
+    ``own_at`` and ``target_at`` are ``(x, y, rotation, side)`` of the two
+    placements (courtyard centres).
+    """
+    a = _points(rule, True, *own_at)
+    b = _points(rule, False, *target_at, pins=rule.pins)
+    if not len(a) or not len(b):
+        return 0.0
+    return float(np.min(np.hypot(a[:, None, 0] - b[None, :, 0], a[:, None, 1] - b[None, :, 1])))
+
+
+def _cells(g, rect) -> tuple[int, int, int, int]:
+    x1, y1, x2, y2 = rect
+    c0 = int(math.floor((x1 - g.x0) / g.cell + 1e-9))
+    c1 = int(math.ceil((x2 - g.x0) / g.cell - 1e-9))
+    r0 = int(math.floor((y1 - g.y0) / g.cell + 1e-9))
+    r1 = int(math.ceil((y2 - g.y0) / g.cell - 1e-9))
+    return max(r0, 0), max(r1, 0), max(c0, 0), max(c1, 0)
+
+
+def _where(packer, run, fixed: dict, i: int) -> tuple | None:
+    """(x, y, rotation, side) of item ``i`` as placed, or None when it is not."""
+    if i in fixed:
+        f = packer.items[i].fixed
+        return (f.x_mm, f.y_mm, f.rotation_deg, f.side)
+    if i not in run.slots:
+        return None
+    x1, y1, x2, y2 = packer.rect(i, run.slots[i])
+    return ((x1 + x2) / 2, (y1 + y2) / 2, 90 if run.slots[i][1] else 0, run.slots[i][0])
+
+
+def near_pass(packer: Any, run: Any, fixed: dict) -> None:
+    """Move each packed part whose near rule is unmet to its nearest legal slot (module notes).
+
+    ``packer`` and ``run`` are :mod:`pipeline.place`'s packer and packing
+    run (``run.slots`` is updated); ``fixed`` its fixed parts. Only top-side
+    parts move; fixed parts never do.
+    """
+    items = packer.items
+    index = {it.ref: n for n, it in enumerate(items)}
+    movers = sorted((i for i, it in enumerate(items) if it.near is not None and i in run.slots
+                     and run.slots[i][0] == "top" and run.top_level.get(i) is not None),
+                    key=lambda i: natural_key(items[i].ref))
+    for i in movers:
+        rule = items[i].near
+        target = _where(packer, run, fixed, index[rule.target])
+        if target is None or near_distance(rule, _where(packer, run, fixed, i), target) <= rule.within_mm + TOL:
+            continue
+        slot = _nearest_slot(packer, run, fixed, i, _points(rule, False, *target, pins=rule.pins))
+        if slot is not None:
+            run.slots[i] = slot
+
+
+def _nearest_slot(packer, run, fixed: dict, i: int, goal: np.ndarray):
+    """The legal top-side slot of item ``i`` whose pads come nearest ``goal`` (ties: row, column, turn)."""
+    g = packer.grid
+    blocked = ~packer.mask(run.top_level[i])
+    blocked = blocked.copy()
+    for j, slot in run.slots.items():
+        if j != i and slot[0] == "top":
+            r0, r1, c0, c1 = _cells(g, packer.rect(j, slot))
+            blocked[r0:r1, c0:c1] = True
+    for side, rect in fixed.values():
+        if side == "top":
+            r0, r1, c0, c1 = _cells(g, rect)
+            blocked[r0:r1, c0:c1] = True
+    sat = np.zeros((g.ny + 1, g.nx + 1), dtype=np.int64)
+    sat[1:, 1:] = np.cumsum(np.cumsum(blocked, axis=0), axis=1)
+    rule, it = packer.items[i].near, packer.items[i]
+    best = None
+    h0, w0 = packer.hc[i], packer.wc[i]
+    for o, (h, w) in enumerate(((h0, w0), (w0, h0))):
+        if h > g.ny or w > g.nx:
+            continue
+        win = sat[h:, w:] - sat[:-h, w:] - sat[h:, :-w] + sat[:-h, :-w]
+        rows, cols = np.nonzero(win == 0)
+        if not len(rows):
+            continue
+        dx, dy = (it.length_mm, it.width_mm) if o == 0 else (it.width_mm, it.length_mm)
+        pads = _points(rule, True, 0.0, 0.0, 90 * o, "top")
+        cx = g.x0 + cols * g.cell + dx / 2
+        cy = g.y0 + rows * g.cell + dy / 2
+        d = np.full(len(rows), np.inf)
+        for px, py in pads:
+            for tx, ty in goal:
+                d = np.minimum(d, np.hypot(cx + px - tx, cy + py - ty))
+        k = int(np.lexsort((cols, rows, np.round(d, 6)))[0])
+        cand = (round(float(d[k]), 6), int(rows[k]), int(cols[k]), o)
+        if best is None or cand < best:
+            best = cand
+    return None if best is None else ("top", best[3], best[1], best[2])
+
+
+# --------------------------------------------------------------------------
+# what is left unmet
+# --------------------------------------------------------------------------
+def unmet_rules(items: Sequence[PlaceItem], placements: Sequence[Any]) -> tuple[list[str], list[Finding]]:
+    """Near rules the final placement does not meet: ``blocked_by`` sentences (a ``near`` the
+    design asked for) and ``place.rule-unmet`` warnings (the decoupling default)."""
+    at = {p.ref: (p.x_mm, p.y_mm, p.rotation_deg, p.side) for p in placements}
+    blocked: list[str] = []
+    notes: list[Finding] = []
+    for it in sorted(items, key=lambda it: natural_key(it.ref)):
+        rule = it.near
+        if rule is None or it.ref not in at or rule.target not in at:
+            continue
+        d = near_distance(rule, at[it.ref], at[rule.target])
+        if d <= rule.within_mm + TOL:
+            continue
+        pins = f"supply pins {', '.join(rule.pins)}" if rule.pins else "pins"
+        text = (f"{it.ref} should have a pad within {_fmt(rule.within_mm)} mm of {rule.target}'s {pins} "
+                f"({'near' if rule.why == 'near' else 'decoupling, the default'} rule), but the nearest place "
+                f"left for it is {_fmt(d)} mm away")
+        if rule.why == "near":
+            blocked.append(text + f" (near, {rule.file}): give the board more room around {rule.target} "
+                                  "or raise within_mm.")
+        else:
+            notes.append(Finding("warning", "place.rule-unmet", (it.ref, rule.target),
+                                 text + ": give the board more room or fix the capacitor's place with at."))
+    return blocked, notes
