@@ -46,8 +46,11 @@ shapely predicates.
 *Near: a post-pass that moves a part to the nearest legal slot.* After the
 packing and the swap improvement (so the swaps cannot take the part away
 again), each near part that is too far (natural ref order) is moved to the
-grid origin, among all legal ones of its height level in both orientations,
-whose pads come nearest the target's pins. Legal origins come from a
+free grid origin, among all legal ones of its height level in both
+orientations, whose pads come nearest the target's pins; when no free
+origin is near enough, it trades slots with the part of its own packing
+class (same cells, level and side, so both stay legal; parts with a near
+rule of their own are not taken) whose slot brings it nearest. Legal origins come from a
 summed-area table of the blocked cells (outside the level's mask or under
 another courtyard; Crow 1984, from memory), so a move is legal on the same
 grid the packer uses and the placer's shapely self-check still applies.
@@ -79,7 +82,7 @@ from .library.lands import pads_on_board
 from .model import Finding, Fixed, NearRule, PlaceItem, Region
 from .order import natural_key
 
-__all__ = ["attach_rules", "pin_edge_parts", "near_pass", "unmet_rules", "near_distance",
+__all__ = ["attach_rules", "pin_edge_parts", "near_pass", "unmet_rules", "near_distance", "refresh_near_notes",
            "EDGE_KINDS", "EDGE_BAND_MM", "NEAR_WITHIN_MM", "EDGE_STEP_MM"]
 
 #: Kinds that go to the board edge by the wire entry unless ``at_edge = false``.
@@ -340,13 +343,41 @@ def near_pass(packer: Any, run: Any, fixed: dict) -> None:
         target = _where(packer, run, fixed, index[rule.target])
         if target is None or near_distance(rule, _where(packer, run, fixed, i), target) <= rule.within_mm + TOL:
             continue
-        slot = _nearest_slot(packer, run, fixed, i, _points(rule, False, *target, pins=rule.pins))
-        if slot is not None:
-            run.slots[i] = slot
+        goal = _points(rule, False, *target, pins=rule.pins)
+        free = _nearest_slot(packer, run, fixed, i, goal)
+        swap = _nearest_swap(packer, run, i, goal)
+        if free is not None and (swap is None or free[0] <= max(rule.within_mm + TOL, swap[0])):
+            run.slots[i] = free[1]
+        elif swap is not None:
+            j = swap[1]
+            run.slots[i], run.slots[j] = run.slots[j], run.slots[i]
+
+
+def _slot_distance(packer, i: int, slot, goal: np.ndarray) -> float:
+    x1, y1, x2, y2 = packer.rect(i, slot)
+    own = _points(packer.items[i].near, True, (x1 + x2) / 2, (y1 + y2) / 2, 90 if slot[1] else 0, slot[0])
+    return float(np.min(np.hypot(own[:, None, 0] - goal[None, :, 0], own[:, None, 1] - goal[None, :, 1])))
+
+
+def _nearest_swap(packer, run, i: int, goal: np.ndarray):
+    """(distance, j) of the packed part of ``i``'s class, without a near rule of its own, whose slot
+    brings ``i``'s pads nearest ``goal`` (a swap keeps both legal: same cells, level and side)."""
+    key = run.class_of.get(i)
+    best = None
+    for j in run.classes.get(key, ()):
+        if j == i or j not in run.slots or packer.items[j].near is not None:
+            continue
+        d = round(_slot_distance(packer, i, run.slots[j], goal), 6)
+        if best is None or (d, j) < best:
+            best = (d, j)
+    if best is None or best[0] >= round(_slot_distance(packer, i, run.slots[i], goal), 6):
+        return None
+    return best
 
 
 def _nearest_slot(packer, run, fixed: dict, i: int, goal: np.ndarray):
-    """The legal top-side slot of item ``i`` whose pads come nearest ``goal`` (ties: row, column, turn)."""
+    """(distance, slot): the free legal top-side slot of item ``i`` whose pads come nearest ``goal``
+    (ties: row, column, turn), or None."""
     g = packer.grid
     blocked = ~packer.mask(run.top_level[i])
     blocked = blocked.copy()
@@ -382,7 +413,7 @@ def _nearest_slot(packer, run, fixed: dict, i: int, goal: np.ndarray):
         cand = (round(float(d[k]), 6), int(rows[k]), int(cols[k]), o)
         if best is None or cand < best:
             best = cand
-    return None if best is None else ("top", best[3], best[1], best[2])
+    return None if best is None else (best[0], ("top", best[3], best[1], best[2]))
 
 
 # --------------------------------------------------------------------------
@@ -412,3 +443,11 @@ def unmet_rules(items: Sequence[PlaceItem], placements: Sequence[Any]) -> tuple[
             notes.append(Finding("warning", "place.rule-unmet", (it.ref, rule.target),
                                  text + ": give the board more room or fix the capacitor's place with at."))
     return blocked, notes
+
+
+def refresh_near_notes(findings: Sequence[Finding], items: Sequence[PlaceItem], placements: Sequence[Any]
+                       ) -> list[Finding]:
+    """``findings`` with the near-rule warnings recomputed for ``placements`` (the routing step may
+    have spread the parts after the placer wrote them)."""
+    kept = [f for f in findings if not (f.check == "place.rule-unmet" and len(f.subject) == 2)]
+    return kept + unmet_rules(items, placements)[1]
