@@ -13,7 +13,8 @@ each at one line):
 The rules (millimetres)
 -----------------------
 * **Edge.** Wire pads (kind ``wire-pad``) and connectors (kind ``header``),
-  or any part with ``at_edge = true``, go inside the wire-entry zone (layer
+  or any part with ``at_edge = true``, go inside the wire-entry zone (the
+  courtyard centre in it) (layer
   role ``WIRE-ENTRY``, :attr:`pipeline.model.Region.wire_entry`) or else in
   the *edge band* nearest to it: courtyards within :data:`EDGE_BAND_MM` of
   the outer edge of the placement area (the board outline less its edge
@@ -36,8 +37,8 @@ courtyard centres (step :data:`EDGE_STEP_MM`, coarser on large boards so
 at most about :data:`EDGE_CANDIDATES` centres) in both orientations. Legal:
 the courtyard lies in the placement area and in the height zones that allow
 its height, and overlaps no fixed or earlier edge part (exact shapely
-tests, vectorised). Best, in tiers: inside the wire-entry zone (nearest the
-edge first), then in the edge band (nearest the zone first; with no zone,
+tests, vectorised). Best, in tiers: centre inside the wire-entry zone
+(nearest the edge first, then nearest the zone's middle), then in the edge band (nearest the zone first; with no zone,
 nearest the edge parts already placed), then anywhere (nearest the zone or
 edge; reported). The spot becomes a :class:`pipeline.model.Fixed`, so the
 packer treats it as a part the user fixed. Cost: O(parts x candidates)
@@ -117,7 +118,8 @@ def attach_rules(items: Sequence[PlaceItem], design: Any, library: Any, density:
     parts = {p.ref: p for p in design.parts}
     pkg = {it.ref: library.package(it.package) for it in items}
     g = build_graph(design)
-    cat = {p.kind: library.kind(p.kind).category for p in design.parts}
+    own = {k.name: k.category for k in design.kinds}  # kinds the design defines itself
+    cat = {p.kind: own[p.kind] if p.kind in own else library.kind(p.kind).category for p in design.parts}
     decap = _decoupling_targets(design, decoupling_caps(design, g, cat), set(pkg))
     out = []
     for it in items:
@@ -203,16 +205,17 @@ def pin_edge_parts(items: Sequence[PlaceItem], fixed: dict, area: BaseGeometry, 
     if not todo or area.is_empty:
         return tuple(items), fixed, []
     items, fixed = list(items), dict(fixed)
-    edge, zone = _outer_edge(area), region.wire_entry
-    shapely.prepare(edge)
-    if zone is not None:
-        shapely.prepare(zone)
-    taken = [shapely.box(*r) for side, r in fixed.values() if side == "top"]
+    zone = region.wire_entry
+    taken = [fixed[j][1] for j in fixed if fixed[j][0] == "top"]
     notes: list[Finding] = []
     placed: list[tuple[float, float]] = []
+    spots: dict[tuple, tuple | None] = {}  # candidate spots by courtyard size and height (computed once)
     for i in todo:
         it = items[i]
-        best = _best_edge_spot(it, _allowed(area, region, it.height_mm), taken, edge, zone, placed)
+        key = (it.length_mm, it.width_mm, it.height_mm)
+        if key not in spots:
+            spots[key] = _spots(it, _allowed(area, region, it.height_mm), _outer_edge(area), zone)
+        best = _best_edge_spot(spots[key], taken, placed, zone is not None)
         if best is None:
             notes.append(Finding("warning", "place.rule-unmet", (it.ref,),
                                  f"{it.ref} should sit at the board edge {_by(zone)}, but its courtyard fits "
@@ -222,7 +225,7 @@ def pin_edge_parts(items: Sequence[PlaceItem], fixed: dict, area: BaseGeometry, 
         rect = _rect(it, x, y, rot)
         items[i] = dataclasses.replace(it, fixed=Fixed(x, y, rot, "top", "", 0))
         fixed[i] = ("top", rect)
-        taken.append(shapely.box(*rect))
+        taken.append(rect)
         placed.append((x, y))
         if tier == 2:
             notes.append(Finding("warning", "place.rule-unmet", (it.ref,),
@@ -241,13 +244,13 @@ def _rect(it: PlaceItem, x: float, y: float, rot: int) -> tuple[float, float, fl
     return (x - dx / 2, y - dy / 2, x + dx / 2, y + dy / 2)
 
 
-def _best_edge_spot(it: PlaceItem, allowed: BaseGeometry, taken: list, edge, zone, placed: list):
-    """(tier, x, y, rotation, distance) of the best legal centre, or None (module notes: tiers)."""
+def _spots(it: PlaceItem, allowed: BaseGeometry, edge: BaseGeometry, zone) -> tuple | None:
+    """Every legal candidate centre of ``it`` on an empty board: (x, y, rotation, boxes, tier,
+    distance to the edge, distance to the zone or None), in both orientations."""
     if allowed.is_empty:
         return None
     shapely.prepare(allowed)
-    blocked = shapely.union_all(taken).buffer(-1e-7, join_style="mitre") if taken else None
-    rows = []
+    cols: list[list] = [[] for _ in range(7)]
     for rot in ((0, 90) if abs(it.length_mm - it.width_mm) > TOL else (0,)):
         dx, dy = (it.length_mm, it.width_mm) if rot == 0 else (it.width_mm, it.length_mm)
         x, y = _candidates(allowed, dx, dy)
@@ -255,30 +258,47 @@ def _best_edge_spot(it: PlaceItem, allowed: BaseGeometry, taken: list, edge, zon
             continue
         boxes = shapely.box(x - dx / 2, y - dy / 2, x + dx / 2, y + dy / 2)
         ok = shapely.covers(allowed, boxes)
-        if blocked is not None and not blocked.is_empty:
-            ok &= ~shapely.intersects(blocked, boxes)
-        if not ok.any():
-            continue
         x, y, boxes = x[ok], y[ok], boxes[ok]
         de = np.round(shapely.distance(edge, boxes), 6)
-        dz = np.round(shapely.distance(zone, boxes), 6) if zone is not None else None
-        if dz is not None:
-            tier = np.where(dz <= TOL, 0, np.where(de <= EDGE_BAND_MM + TOL, 1, 2))
-            score = np.where(tier == 0, de, dz)
-            far = dz
+        dz = np.round(shapely.distance(zone, boxes), 6) if zone is not None else np.full(len(x), np.inf)
+        if zone is not None:
+            inside = shapely.contains_xy(zone, x, y)
+            tier = np.where(inside, 0, np.where(de <= EDGE_BAND_MM + TOL, 1, 2))
+            c = zone.centroid  # inside the zone: nearest the edge, then nearest its middle
+            dz = np.where(inside, np.round(np.hypot(x - c.x, y - c.y), 6), dz)
         else:
             tier = np.where(de <= EDGE_BAND_MM + TOL, 1, 2)
-            if placed:
-                cx, cy = np.mean(placed, axis=0)
-                score = np.where(tier == 1, np.round(np.hypot(x - cx, y - cy), 6), de)
-            else:
-                score = de
-            far = de
-        rows.append((tier, score, np.round(y, 6), np.round(x, 6), np.full(len(x), rot), far))
-    if not rows:
+        for c, v in zip(cols, (x, y, np.full(len(x), rot), boxes, tier, de, dz)):
+            c.append(v)
+    if not cols[0]:
         return None
-    tier, score, y, x, rot, far = (np.concatenate(c) for c in zip(*rows))
-    k = int(np.lexsort((rot, x, y, score, tier))[0])
+    x, y, rot, boxes, tier, de, dz = (np.concatenate(c) for c in cols)
+    return x, y, rot, boxes, tier, de, dz, shapely.STRtree(boxes)
+
+
+def _best_edge_spot(spots, taken: list, placed: list, has_zone: bool):
+    """(tier, x, y, rotation, distance) of the best free candidate, or None (module notes: tiers)."""
+    if spots is None:
+        return None
+    x, y, rot, boxes, tier, de, dz, tree = spots
+    free = np.ones(len(x), dtype=bool)
+    if taken:
+        r = np.array(taken, dtype=float).reshape(-1, 4) + np.array([1e-7, 1e-7, -1e-7, -1e-7])  # touching is legal
+        shrunk = shapely.box(*r.T)
+        _, hit = tree.query(shrunk, predicate="intersects")
+        free[hit] = False
+    if not free.any():
+        return None
+    x, y, rot, tier, de, dz = x[free], y[free], rot[free], tier[free], de[free], dz[free]
+    if has_zone:
+        score, far = np.where(tier == 0, de + 1e-3 * dz, dz), dz
+    else:
+        far = de
+        score = de
+        if placed:
+            cx, cy = np.mean(placed, axis=0)
+            score = np.where(tier == 1, np.round(np.hypot(x - cx, y - cy), 6), de)
+    k = int(np.lexsort((rot, np.round(x, 6), np.round(y, 6), score, tier))[0])
     return int(tier[k]), float(x[k]), float(y[k]), int(rot[k]), float(far[k])
 
 
@@ -375,12 +395,38 @@ def _nearest_swap(packer, run, i: int, goal: np.ndarray):
     return best
 
 
+def _window(g, goal: np.ndarray, reach: float) -> tuple[int, int, int, int]:
+    """Grid rows and columns of origins within ``reach`` mm (a box) of the goal points: a courtyard
+    outside it has every pad farther than ``reach`` less its own size from the goal."""
+    (gx0, gy0), (gx1, gy1) = goal.min(axis=0), goal.max(axis=0)
+    c0 = max(0, int((gx0 - reach - g.x0) / g.cell))
+    r0 = max(0, int((gy0 - reach - g.y0) / g.cell))
+    return (r0, max(r0, int(math.ceil((gy1 + reach - g.y0) / g.cell))),
+            c0, max(c0, int(math.ceil((gx1 + reach - g.x0) / g.cell))))
+
+
+def _scan(ok: np.ndarray, g, goal: np.ndarray, pads: np.ndarray, size: tuple, span) -> tuple | None:
+    """(distance, row, column) of the free origin in ``span`` (rows, columns) nearest the goal."""
+    r0, r1, c0, c1 = span
+    rows, cols = np.nonzero(ok[r0:r1, c0:c1])
+    if not len(rows):
+        return None
+    rows, cols = rows + r0, cols + c0
+    cx = g.x0 + cols * g.cell + size[0] / 2
+    cy = g.y0 + rows * g.cell + size[1] / 2
+    d = np.full(len(rows), np.inf)
+    for px, py in pads:
+        for tx, ty in goal:
+            d = np.minimum(d, np.hypot(cx + px - tx, cy + py - ty))
+    k = int(np.lexsort((cols, rows, np.round(d, 6)))[0])
+    return round(float(d[k]), 6), int(rows[k]), int(cols[k])
+
+
 def _nearest_slot(packer, run, fixed: dict, i: int, goal: np.ndarray):
     """(distance, slot): the free legal top-side slot of item ``i`` whose pads come nearest ``goal``
     (ties: row, column, turn), or None."""
     g = packer.grid
     blocked = ~packer.mask(run.top_level[i])
-    blocked = blocked.copy()
     for j, slot in run.slots.items():
         if j != i and slot[0] == "top":
             r0, r1, c0, c1 = _cells(g, packer.rect(j, slot))
@@ -397,22 +443,14 @@ def _nearest_slot(packer, run, fixed: dict, i: int, goal: np.ndarray):
     for o, (h, w) in enumerate(((h0, w0), (w0, h0))):
         if h > g.ny or w > g.nx:
             continue
-        win = sat[h:, w:] - sat[:-h, w:] - sat[h:, :-w] + sat[:-h, :-w]
-        rows, cols = np.nonzero(win == 0)
-        if not len(rows):
-            continue
-        dx, dy = (it.length_mm, it.width_mm) if o == 0 else (it.width_mm, it.length_mm)
+        ok = (sat[h:, w:] - sat[:-h, w:] - sat[h:, :-w] + sat[:-h, :-w]) == 0
+        size = (it.length_mm, it.width_mm) if o == 0 else (it.width_mm, it.length_mm)
         pads = _points(rule, True, 0.0, 0.0, 90 * o, "top")
-        cx = g.x0 + cols * g.cell + dx / 2
-        cy = g.y0 + rows * g.cell + dy / 2
-        d = np.full(len(rows), np.inf)
-        for px, py in pads:
-            for tx, ty in goal:
-                d = np.minimum(d, np.hypot(cx + px - tx, cy + py - ty))
-        k = int(np.lexsort((cols, rows, np.round(d, 6)))[0])
-        cand = (round(float(d[k]), 6), int(rows[k]), int(cols[k]), o)
-        if best is None or cand < best:
-            best = cand
+        found = _scan(ok, g, goal, pads, size, _window(g, goal, rule.within_mm + size[0] + size[1]))
+        if found is None or found[0] > rule.within_mm:  # nothing near enough close by: look everywhere
+            found = _scan(ok, g, goal, pads, size, (0, ok.shape[0], 0, ok.shape[1]))
+        if found is not None and (found[0], found[1], found[2], o) < (best or (math.inf,)):
+            best = (found[0], found[1], found[2], o)
     return None if best is None else (best[0], ("top", best[3], best[1], best[2]))
 
 
