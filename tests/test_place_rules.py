@@ -263,3 +263,13 @@ def test_a_project_with_a_drawn_zone_runs_and_puts_the_pads_there(tmp_path):
         ref, x, y, rot, _side = row.split(",")
         if ref.startswith("P"):  # two 2 mm pads fit in the 4 mm zone: both centres in it
             assert zone.contains(shapely.Point(float(x), float(y))), row
+
+
+def test_measured_zone_survives_the_dxf_writer(tmp_path):
+    """snugboard cavity bay.toml --write-dxf: the zone comes back on WIRE-ENTRY with the same shape."""
+    out = tmp_path / "bay.dxf"
+    r = CliRunner().invoke(main, ["cavity", str(ROOT / "outlines" / "controller-bay.cavity.toml"),
+                                  "--write-dxf", str(out)])
+    assert r.exit_code == 0, r.output
+    cav, _ = read_cavity(out, depth_mm=6.0)
+    assert len(cav.wire_entries) == 1 and cav.wire_entries[0].area == pytest.approx(21.0, abs=1e-6)
