@@ -49,9 +49,10 @@ packing and the swap improvement (so the swaps cannot take the part away
 again), each near part that is too far (natural ref order) is moved to the
 free grid origin, among all legal ones of its height level in both
 orientations, whose pads come nearest the target's pins; when no free
-origin is near enough, it trades slots with the part of its own packing
-class (same cells, level and side, so both stay legal; parts with a near
-rule of their own are not taken) whose slot brings it nearest. Legal origins come from a
+origin is near enough, it trades slots with the packed part of the same
+cell size whose slot brings it nearest (both stay legal: the cells are the
+same, and each must be allowed its height in the other's cells; a part
+with a near rule of its own only when the trade still meets that rule). Legal origins come from a
 summed-area table of the blocked cells (outside the level's mask or under
 another courtyard; Crow 1984, from memory), so a move is legal on the same
 grid the packer uses and the placer's shapely self-check still applies.
@@ -365,7 +366,7 @@ def near_pass(packer: Any, run: Any, fixed: dict) -> None:
             continue
         goal = _points(rule, False, *target, pins=rule.pins)
         free = _nearest_slot(packer, run, fixed, i, goal)
-        swap = _nearest_swap(packer, run, i, goal)
+        swap = _nearest_swap(packer, run, fixed, i, goal)
         if free is not None and (swap is None or free[0] <= max(rule.within_mm + TOL, swap[0])):
             run.slots[i] = free[1]
         elif swap is not None:
@@ -379,17 +380,39 @@ def _slot_distance(packer, i: int, slot, goal: np.ndarray) -> float:
     return float(np.min(np.hypot(own[:, None, 0] - goal[None, :, 0], own[:, None, 1] - goal[None, :, 1])))
 
 
-def _nearest_swap(packer, run, i: int, goal: np.ndarray):
-    """(distance, j) of the packed part of ``i``'s class, without a near rule of its own, whose slot
-    brings ``i``'s pads nearest ``goal`` (a swap keeps both legal: same cells, level and side)."""
-    key = run.class_of.get(i)
+def _stands(packer, run, k: int, slot) -> bool:
+    """May item ``k`` stand in ``slot`` as far as heights go (its level's free cells cover it)?"""
+    lvl = run.top_level.get(k)
+    if lvl is None:
+        return False
+    r0, r1, c0, c1 = _cells(packer.grid, packer.rect(k, slot))
+    return bool(packer.mask(lvl)[r0:r1, c0:c1].all())
+
+
+def _nearest_swap(packer, run, fixed: dict, i: int, goal: np.ndarray):
+    """(distance, j) of the packed top-side part of ``i``'s cell size whose slot brings ``i``'s pads
+    nearest ``goal``; a trade keeps both legal when each may stand, by height, in the other's cells
+    (the cells are the same); a part with a near rule of its own is taken only when ``i``'s old slot
+    still meets it."""
+    index = {it.ref: n for n, it in enumerate(packer.items)}
     best = None
-    for j in run.classes.get(key, ()):
-        if j == i or j not in run.slots or packer.items[j].near is not None:
+    for j in sorted(run.slots):
+        if j == i or (packer.wc[j], packer.hc[j]) != (packer.wc[i], packer.hc[i]) or run.slots[j][0] != "top":
+            continue
+        if not (_stands(packer, run, i, run.slots[j]) and _stands(packer, run, j, run.slots[i])):
             continue
         d = round(_slot_distance(packer, i, run.slots[j], goal), 6)
-        if best is None or (d, j) < best:
-            best = (d, j)
+        if best is not None and (d, j) >= best:
+            continue
+        other = packer.items[j].near
+        if other is not None:
+            there = _where(packer, run, fixed, index[other.target])
+            if there is None or index[other.target] == i:
+                continue
+            theirs = _points(other, False, *there, pins=other.pins)
+            if not len(theirs) or _slot_distance(packer, j, run.slots[i], theirs) > other.within_mm + TOL:
+                continue
+        best = (d, j)
     if best is None or best[0] >= round(_slot_distance(packer, i, run.slots[i], goal), 6):
         return None
     return best
