@@ -132,7 +132,7 @@ def test_with_a_zone_the_pads_sit_in_it_first():
 def test_at_edge_false_and_true_change_the_items():
     extra = '[parts.R9]\nkind = "resistor"\nvalue = "1k"\npackage = "0603"\nat_edge = true\n'
     text = _design(2, 1, None, extra).replace('package = "pad-1.5mm"\n', 'package = "pad-1.5mm"\nat_edge = false\n', 1)
-    text = text.replace('"IN" = [', '"IN" = [').replace('IN = ["U1.3"', 'IN = ["R9.1", "R9.2", "U1.3"')
+    text = text.replace('IN = ["U1.3"', 'IN = ["R9.1", "U1.3"').replace('OUTB = ["U1.6"', 'OUTB = ["R9.2", "U1.6"')
     design, _ = read_design_text(text, LIB)
     edge = {it.ref: it.edge for it in items_from_design(design, LIB, "nominal")}
     assert edge["P1"] is False and edge["P2"] is True and edge["R9"] is True and edge["R1"] is False
@@ -140,12 +140,11 @@ def test_at_edge_false_and_true_change_the_items():
 
 def test_a_near_rule_that_cannot_be_met_blocks_and_says_how_far():
     """C1 fixed 20 mm from U1 with near = U1 within 2 mm: the fit names C1, the rule and the distance."""
-    extra = ""
     text = _design(0, 1, None).replace('[parts.C1]\nkind = "capacitor"\nvalue = "100n"\npackage = "0603"\n',
                                        '[parts.C1]\nkind = "capacitor"\nvalue = "100n"\npackage = "0603"\n'
                                        'near = "U1"\nwithin_mm = 2\nat = [27, 10]\n')
     text = text.replace('[parts.U1]\nkind = "opamp-dual"\npackage = "SOIC-8"\n',
-                        '[parts.U1]\nkind = "opamp-dual"\npackage = "SOIC-8"\nat = [5, 10]\n') + extra
+                        '[parts.U1]\nkind = "opamp-dual"\npackage = "SOIC-8"\nat = [5, 10]\n')
     design, _ = read_design_text(text, LIB)
     region = Region(box(0, 0, 30, 20), (HeightZone(box(0, 0, 30, 20), 5.0),), 0.8)
     fit = place_and_fit(items_from_design(design, LIB, "nominal"), region, BoardOptions(edge_clearance_mm=EDGE))
