@@ -80,11 +80,26 @@ def _zone(wall: str, w: float, h: float, at: float) -> shapely.Geometry:
     return box(x, y0, x + 4, y0 + 3)
 
 
+GENERATED = dict(w=st.floats(26, 34), h=st.floats(18, 22), wall=WALLS, at=st.floats(0, 1), pads=st.integers(1, 5),
+                 resistors=st.integers(1, 5), fx=st.floats(0.3, 0.7), fy=st.floats(0.3, 0.7), zone=st.booleans())
+
+
 @settings(max_examples=6, deadline=None, suppress_health_check=[HealthCheck.too_slow],
           phases=[Phase.explicit, Phase.generate])  # bounded: no shrinking (a slow placement per example)
-@given(w=st.floats(26, 34), h=st.floats(18, 22), wall=WALLS, at=st.floats(0, 1), pads=st.integers(1, 5),
-       resistors=st.integers(1, 5), fx=st.floats(0.3, 0.7), fy=st.floats(0.3, 0.7), zone=st.booleans())
-def test_generated_designs_keep_every_rule(w, h, wall, at, pads, resistors, fx, fy, zone):
+@given(**GENERATED)
+def test_generated_designs_keep_every_rule(**case):
+    _check_generated(**case)
+
+
+@pytest.mark.fuzz
+@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(**GENERATED)
+def test_generated_designs_keep_every_rule_long(**case):
+    """The same, many more designs (pytest -m fuzz; minutes)."""
+    _check_generated(**case)
+
+
+def _check_generated(w, h, wall, at, pads, resistors, fx, fy, zone):
     fixed = (round(fx * w, 2), round(fy * h, 2))
     design, _ = read_design_text(_design(pads, resistors, fixed), LIB)
     items = items_from_design(design, LIB, "nominal")
