@@ -71,6 +71,12 @@ The method
    defect and drops the part with a warning instead of reporting a false
    fit.
 
+*Rules* (:mod:`pipeline.place_rules`): parts the user fixed hold their
+cells before step 2; wire pads and connectors are pre-placed at the board
+edge by the wire-entry zone and then count as fixed; after step 3 parts
+with a near rule (decoupling capacitors by default) move next to their
+target's pins; rules left unmet go to ``blocked_by`` or a warning.
+
 Everything is deterministic: classes and parts are sorted with refs as
 the last key and the improvement breaks ties by index.
 
