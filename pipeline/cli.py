@@ -303,9 +303,12 @@ def cavity_cmd(ctx: click.Context, dxf_file: str, project_dir: str | None, as_js
     for f in findings:
         if f.check == "cavity.mesh-floor":
             _say(f"  {f.message}")
+    mounted = {m.keepout: m for m in region.mounts}
     for i, k in enumerate(cavity.keepouts):
-        c = k.centroid
-        _say(f"  keep-out {i + 1}: centre ({round(c.x, 2) + 0.0:.2f}, {round(c.y, 2) + 0.0:.2f}) mm, {k.area:.1f} mm2")
+        c, m = k.centroid, mounted.get(i)
+        extra = f"; mounting boss: {m.screw} hole {m.hole_mm:g} mm, head ring {m.ring_mm:g} mm" if m else ""
+        _say(f"  keep-out {i + 1}: centre ({round(c.x, 2) + 0.0:.2f}, {round(c.y, 2) + 0.0:.2f}) mm, {k.area:.1f} mm2"
+             + extra)
     for z in cavity.depth_zones:
         _say(f"  depth zone {z.layer}: {z.depth_mm:g} mm deep on {z.polygon.area:.1f} mm2")
     _say(f"usable board region {region.area_mm2:.1f} mm2:")

@@ -119,6 +119,9 @@ CODES: dict[str, Code] = {
     "region.too-shallow": _c("warning", "a depth zone shallower than the board: left out of the region"),
     "region.empty": _c("warning", "no usable region is left"),
     "region.split": _c("info", "the usable region falls into separate pieces"),
+    "region.mount": _c("info", "a mounting boss the board covers: its screw hole, head ring and head height"),
+    "region.mount-outside": _c("error", "a mounting boss whose screw hole is not inside the usable board region"),
+    "region.mount-head": _c("error", "a mounting screw's head taller than the room under the lid over its boss"),
     # placement and fit (pipeline/place.py, pipeline/project.py)
     "fit.fits": _c("info", "every fitted part is placed inside the cavity"),
     "fit.blocked": _c("error", "a reason the parts do not fit"),

@@ -472,8 +472,44 @@ class Cavity:
     depth_mm: float
     unit_name: str
     mm_per_unit: float
+    mounts: tuple[MountMark, ...] = ()
     #: Where wires enter the cavity (layer role WIRE-ENTRY, mm), as drawn.
     wire_entries: tuple[BaseGeometry, ...] = ()
+
+
+@dataclass(frozen=True)
+class MountMark:
+    """A keep-out declared a mounting boss (:mod:`pipeline.mount`): the board covers it.
+
+    ``keepout`` indexes ``Cavity.keepouts``; ``screw`` is the size as written
+    (``"M2.5"``); ``centre`` the boss centre in mm when the source knows it
+    (a measured boss), else ``None`` (the keep-out's centroid); ``file``,
+    ``key`` and ``line`` say where it was declared, for messages.
+    """
+
+    keepout: int
+    screw: str
+    centre: tuple[float, float] | None
+    file: str
+    key: str
+    line: int | None = None
+
+
+@dataclass(frozen=True)
+class Mount:
+    """A mounting boss the board covers, mm: a screw hole at ``(x_mm, y_mm)``
+    of ``hole_mm`` across, a head clearance ring ``ring_mm`` across kept free
+    of parts and copper, and the screw head ``head_height_mm`` tall."""
+
+    x_mm: float
+    y_mm: float
+    screw: str
+    hole_mm: float
+    ring_mm: float
+    head_height_mm: float
+    boss: BaseGeometry = field(compare=False, repr=False)
+    keepout: int = 0
+    where: str = ""
 
 
 @dataclass(frozen=True)
@@ -499,6 +535,7 @@ class Region:
     board_region: BaseGeometry
     zones: tuple[HeightZone, ...]
     thickness_mm: float
+    mounts: tuple[Mount, ...] = ()
     #: The union of the wire-entry zones (mm), or None when none is drawn.
     wire_entry: BaseGeometry | None = None
 

@@ -109,6 +109,7 @@ from .errors import DesignError, ProjectError
 from . import place_rules
 from .improve import improve_swaps
 from .model import BoardOptions, FitResult, Finding, PlaceItem, Placement, Region
+from .mount import mount_keepout, raised_heads, with_mount_holes
 from .order import natural_key
 from .outline import QUAD_SEGS, cells_inside, polygons_of, propose_outline
 
@@ -591,6 +592,8 @@ def place_and_fit(items: Sequence[PlaceItem], region: Region, board: BoardOption
     outline, where, blocked, warnings = _board(region, board, user_board)
     area = _inset(where, board.edge_clearance_mm) if not where.is_empty else where
     area = shapely.union_all([p for p in polygons_of(area)]) if not area.is_empty else Polygon()
+    if region.mounts:  # no courtyard on a screw head's ring (top) or over a boss (bottom): pipeline/mount.py
+        area = area.difference(mount_keepout(region.mounts))
     nets = _nets(items)
     if items and area.is_empty:
         out = _Outcome(unplaced=sorted((it.ref for it in items), key=natural_key))
@@ -647,8 +650,8 @@ def _board(region: Region, board: BoardOptions, user_board: BaseGeometry | None)
                 f"(cavity minus wall clearance and keep-outs), near ({_fmt(c.x)}, {_fmt(c.y)}) mm: "
                 f"shrink it there or remove the BOARD outline to have one proposed.")
         where = outline.intersection(board_region) if board_region is not None else outline
-        return outline, where, blocked, warnings
-    outline = propose_outline(region, (), board)
+        return with_mount_holes(outline, region.mounts, blocked), where, blocked, warnings
+    outline = with_mount_holes(propose_outline(region, (), board), region.mounts, blocked)
     pieces = [p for p in polygons_of(board_region) if p.area > 1e-3]
     if len(pieces) > 1:
         warnings.append(Finding(
@@ -734,6 +737,7 @@ def _pack_and_check(items, area, region: Region, board: BoardOptions, estimate, 
     unmet, notes = place_rules.unmet_rules(items, out.placements)
     out.blocked += unmet
     out.warnings += notes
+    out.blocked += raised_heads(region.mounts, region.zones, run.gap)
     bottom = [p.ref for p in out.placements if p.side == "bottom"]
     if run.gap > 0 and bottom:
         out.warnings.append(Finding(
@@ -775,6 +779,9 @@ def _fixed_parts(items, region: Region, board: BoardOptions) -> dict:
             raise DesignError(f.file or "design", f"the courtyard fixed at ({_fmt(f.x_mm)}, {_fmt(f.y_mm)}) mm "
                               f"reaches outside the usable region (the cavity less its wall clearance and "
                               f"keep-outs)", key=f"parts.{it.ref}.at", **where)
+        if region.mounts and court.intersection(mount_keepout(region.mounts)).area > 1e-9:
+            raise DesignError(f.file or "design", f"the courtyard fixed at ({_fmt(f.x_mm)}, {_fmt(f.y_mm)}) mm "
+                              "stands on a mounting screw's head ring or its boss", key=f"parts.{it.ref}.at", **where)
         for j, other in seen:
             if fixed[j][0] == side and court.intersection(other).area > 1e-9:
                 raise DesignError(f.file or "design", f"its fixed courtyard overlaps {items[j].ref}'s, also fixed "

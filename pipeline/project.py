@@ -60,7 +60,7 @@ Progress = Callable[[str, float], None]
 _KEYS: dict[str, tuple[str, ...]] = {
     "project": ("name", "design", "cavity", "parts_map"),
     "board": ("layers", "thickness_mm", "sides", "density", "edge_clearance_mm", "wall_clearance_mm",
-              "outline", "min_inside_radius_mm", "outline_units"),
+              "outline", "min_inside_radius_mm", "outline_units", "mount"),
     "cavity": ("depth_mm", "units", "layers", "chord_tolerance_mm",
                "mesh_up", "mesh_floor", "mesh_lid", "mesh_grid_mm", "mesh_zone_step_mm"),
     "order": ("boards", "spares_percent", "min_spares", "multiple"),
@@ -100,6 +100,7 @@ class Project:
     outline_units: str = "mm"  # board-outline.dxf in "mm" or in the cavity drawing's units
     copper: CopperRules = CopperRules()
     mesh_options: tuple = ()  # [cavity] mesh_* keys, checked by the mesh reader (pipeline/cavity/mesh.py)
+    mounts: tuple = ()  # [[board.mount]]: ((x, y), screw, key, line) each (pipeline/mount.py)
 
 
 @dataclass(frozen=True)
@@ -217,7 +218,32 @@ def load_project(
         limits=tuple(sorted((k, _num(src, f"limits.{k}", v, integer=True, lo=1))
                             for k, v in data.get("limits", {}).items())),
         copper=read_copper(src, data.get("copper", {}), board.layers),
+        mounts=_read_mounts(src, bd.get("mount", [])),
     )
+
+
+def _read_mounts(src: TomlSource, body: Any) -> tuple:
+    """``[[board.mount]]`` tables: ``at = [x, y]`` (mm, the drawing's frame) and ``screw``."""
+    if isinstance(body, list) and not body:
+        return ()
+    from .mount import screw
+
+    if not isinstance(body, list) or not all(isinstance(t, dict) for t in body):
+        raise src.error("board.mount", "write each mounting boss as a [[board.mount]] table", ProjectError)
+    out = []
+    for i, t in enumerate(body):
+        key, line = f"board.mount[{i}]", src.line(f"board.mount.{i}")
+        for k in t:
+            if k not in ("at", "screw"):
+                raise ProjectError(src.display, f"unknown key {k!r}; expected at, screw", line=line, key=f"{key}.{k}")
+        at = t.get("at")
+        if not isinstance(at, list) or len(at) != 2:
+            raise ProjectError(src.display, f"expected a point at = [x, y] in mm, found {at!r}", line=line,
+                               key=f"{key}.at")
+        xy = tuple(float(_num(src, f"{key}.at", v)) for v in at)
+        s = screw(t.get("screw"), src.display, f"{key}.screw", line, ProjectError)
+        out.append((xy, s.name, f"{key}.at", line))
+    return tuple(out)
 
 
 def _check_tables(src: TomlSource) -> None:
@@ -344,6 +370,7 @@ def inspect_cavity(path: Path, *, shown: str | None = None, project: Project | N
                              chord_tol_mm=p.chord_tolerance_mm if p else 0.02,
                              limits=Limits.from_table(dict(p.limits) if p else None),
                              mesh_options=dict(p.mesh_options) if p else None)
+    cavity = _with_mounts(cavity, p) if p else cavity
     region, rw = usable_region(cavity, p.board if p else BoardOptions())
     return cavity, region, (*cw, *rw)
 
@@ -474,6 +501,7 @@ def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Prog
                              depth_mm=project.depth_mm, chord_tol_mm=project.chord_tolerance_mm,
                              limits=Limits.from_table(dict(project.limits)),
                              mesh_options=dict(project.mesh_options))
+    cavity = _with_mounts(cavity, project)
     region, rw = usable_region(cavity, project.board)
     items = items_from_design(design, lib, project.board.density)
     fit = place_and_fit(items, region, project.board, user_board=cavity.board, progress=progress)
@@ -485,6 +513,13 @@ def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Prog
         from .sweep import sweep_sizes
         sweep_result = sweep_sizes(design, lib, region, project.board, progress=progress, user_board=cavity.board)
     return cavity, region, items, fit, sweep_result, [*cw, *rw, *placer, *_fit_findings(fit)]
+
+
+def _with_mounts(cavity: Any, project: Project) -> Any:
+    """The cavity with project.toml's ``[[board.mount]]`` bosses marked (pipeline/mount.py)."""
+    from .mount import mark_points
+
+    return mark_points(cavity, project.mounts, project.file, ProjectError) if project.mounts else cavity
 
 
 def _pads(fit: FitResult, design: Design, lib: Any) -> tuple:

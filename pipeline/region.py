@@ -62,6 +62,7 @@ from shapely.geometry.base import BaseGeometry
 
 from pipeline.errors import ProjectError
 from pipeline.model import BoardOptions, Cavity, Finding, HeightZone, Region
+from pipeline.mount import circle, head_room, resolve_mounts
 
 __all__ = ["usable_region", "polygonal", "SLIVER_MM2"]
 
@@ -195,7 +196,10 @@ def usable_region(cavity: Cavity, board: BoardOptions) -> tuple[Region, list[Fin
     floor_full = Polygon(cavity.outline.exterior.coords) if isinstance(cavity.outline, Polygon) \
         else shapely.union_all([Polygon(p.exterior.coords) for p in shapely.get_parts(cavity.outline)])
     inset = polygonal(cavity.outline.buffer(-c, join_style=_JOIN) if c > 0 else cavity.outline)
-    keep = _grow(shapely.union_all(list(cavity.keepouts)), c) if cavity.keepouts else Polygon()
+    mounts = resolve_mounts(cavity)
+    on = {m.keepout for m in mounts}  # mounting bosses: the board covers them (pipeline/mount.py)
+    others = [k for i, k in enumerate(cavity.keepouts) if i not in on]
+    keep = _grow(shapely.union_all(others), c) if others else Polygon()
     # exact depth areas, then each grown by c; ascending depth wins
     grown = [(d, _grow(a, c), lay) for d, a, lay in _depth_partition(cavity, floor_full)]
     shallow, findings = _too_shallow(grown, t, name)
@@ -207,7 +211,34 @@ def usable_region(cavity: Cavity, board: BoardOptions) -> tuple[Region, list[Fin
     findings += _shape_findings(region_geom, c, cavity)
     zones = _height_zones(region_geom, grown, t, float(cavity.depth_mm))
     entry = shapely.union_all(list(cavity.wire_entries)) if cavity.wire_entries else None
-    return Region(board_region=region_geom, zones=zones, thickness_mm=t, wire_entry=entry), findings
+    findings += _mount_findings(mounts, region_geom, zones, cavity)
+    return Region(board_region=region_geom, zones=zones, thickness_mm=t, mounts=mounts,
+                  wire_entry=entry), findings
+
+
+def _mount_findings(mounts, region_geom: BaseGeometry, zones, cavity: Cavity) -> list[Finding]:
+    """Per mounting boss: a note of hole and ring, or an error when the hole leaves the board region
+    or the screw head is taller than the room under the lid over the boss centre."""
+    out = []
+    for m in mounts:
+        at = f"({m.x_mm:.4g}, {m.y_mm:.4g}) mm ({m.where})"
+        if not region_geom.covers(circle(m.x_mm, m.y_mm, m.hole_mm)):
+            out.append(Finding("error", "region.mount-outside", (cavity.source,),
+                               f"The {m.screw} screw hole of the mounting boss at {at} is not inside the usable "
+                               "board region (wall clearance or another keep-out cuts it): no board can be "
+                               "screwed there."))
+            continue
+        room = head_room(m, zones)
+        if m.head_height_mm > room + 1e-9:
+            out.append(Finding("error", "region.mount-head", (cavity.source,),
+                               f"The {m.screw} pan head ({m.head_height_mm:g} mm tall) on the mounting boss at "
+                               f"{at} does not fit under the lid: only {room:g} mm above the board there."))
+            continue
+        out.append(Finding("info", "region.mount", (cavity.source,),
+                           f"The board covers the boss at {at} and is screwed to it: an {m.screw} clearance "
+                           f"hole of {m.hole_mm:g} mm, a {m.ring_mm:g} mm head ring kept free of parts and "
+                           f"copper, a {m.head_height_mm:g} mm head under {room:g} mm of room."))
+    return out
 
 
 def _too_shallow(grown: list[tuple[float, BaseGeometry, tuple[str, ...]]], t: float,

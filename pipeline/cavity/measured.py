@@ -10,7 +10,9 @@ README "A measured cavity") gives, in its ``units``:
                  ``at`` (its lower-left corner, default ``[0, 0]``), or
                  ``points = [[x, y], ...]`` with optional ``radii`` (one per
                  corner, 0 for a sharp one)
-``[[boss]]``     a round boss or post: ``center = [x, y]``, ``diameter``
+``[[boss]]``     a round boss or post: ``center = [x, y]``, ``diameter``;
+                 optional ``mount = "M2"``: the board covers the boss and is
+                 screwed to it (:mod:`pipeline.mount`)
 ``[[rib]]``      a rib or ledge: ``at`` and ``size`` (a rectangle), or
                  ``path = [[x, y], ...]`` and ``width`` (a polyline that wide,
                  square ends)
@@ -42,7 +44,8 @@ import shapely
 from shapely.geometry import LineString, Polygon, box
 
 from pipeline.errors import CavityError
-from pipeline.model import Cavity, DepthZone, Finding
+from pipeline.model import Cavity, DepthZone, Finding, MountMark
+from pipeline.mount import screw
 from pipeline.tomlsrc import TomlSource, load
 
 from .chain import to_mm
@@ -57,7 +60,7 @@ MEASURED_SUFFIX = ".toml"
 _TOP = ("units", "lid_depth", "pocket", "boss", "rib", "zone", "wire_entry")
 _KEYS = {
     "pocket": ("size", "corner_radius", "at", "points", "radii"),
-    "boss": ("center", "diameter"),
+    "boss": ("center", "diameter", "mount"),
     "rib": ("at", "size", "path", "width"),
     "zone": ("depth", "at", "size", "points", "name"),
     "wire_entry": ("at", "size", "points"),
@@ -91,7 +94,7 @@ def read_measured(path: Path, *, display_name: str, depth_mm: float, chord_tol_m
     entries = [to_mm(m.wire_entry(i, w, pocket), k) for i, w in enumerate(m.items("wire_entry"))]
     cavity = Cavity(source=src.display, outline=to_mm(pocket, k), keepouts=tuple(to_mm(p, k) for p in keepouts),
                     depth_zones=tuple(zones), board=None, depth_mm=lid, unit_name=UNIT_NAMES[code],
-                    mm_per_unit=k, wire_entries=tuple(entries))
+                    mm_per_unit=k, mounts=m.mounts(k), wire_entries=tuple(entries))
     return cavity, []
 
 
@@ -184,6 +187,18 @@ class _Measured:
         if not circle.intersects(pocket):
             raise self.fail(f"{where}.center", f"the boss at ({cx:g}, {cy:g}) lies wholly outside the pocket")
         return circle
+
+    def mounts(self, k: float) -> tuple[MountMark, ...]:
+        """A mount mark for every boss with ``mount = "M2"`` (its screw size), centre in mm."""
+        out = []
+        for i, body in enumerate(self.items("boss")):
+            if "mount" in body:
+                key = f"boss[{i}].mount"
+                s = screw(body["mount"], self.src.display, key, self.src.line(f"boss.{i}.mount"))
+                cx, cy = self.point(f"boss[{i}].center", body.get("center"))
+                out.append(MountMark(i, s.name, (cx * k, cy * k), self.src.display, key,
+                                     self.src.line(f"boss.{i}.mount")))
+        return tuple(out)
 
     def rib(self, i: int, body: dict, pocket: Polygon) -> Polygon:
         where = f"rib[{i}]"

@@ -270,6 +270,11 @@ def _ground(cavity: Cavity, region: Region, board, colour_of: dict, u: float) ->
         out.append(f'<path class="board-outline" d="{_path_d(board)}" fill="{_PAPER}" fill-opacity="0.3" '
                    f'fill-rule="evenodd" stroke="{_BOARD_LINE}" stroke-width="{_f(_W_BOARD * u)}" '
                    f'stroke-linejoin="round"/>')
+    for m in region.mounts:  # mounting bosses: the screw head's ring, kept free of parts and copper
+        out.append(f'<circle class="mount-ring" cx="{_f(m.x_mm)}" cy="{_f(-m.y_mm)}" r="{_f(m.ring_mm / 2)}" '
+                   f'fill="none" stroke="{_BOARD_LINE}" stroke-width="{_f(_W_THIN * u)}" '
+                   f'stroke-dasharray="{_f(0.6 * u)} {_f(0.4 * u)}"><title>{_esc(m.screw)} screw: '
+                   f'{_mm(m.hole_mm)} mm hole, {_mm(m.ring_mm)} mm head ring</title></circle>')
     return out
 
 

@@ -92,8 +92,11 @@ def skipped(reason: str) -> RouteVerdict:
 
 
 def route_placed(outline, placements, design, library, rules: CopperRules, *, level: str = "nominal",
-                 progress: Callable[[str, float], None] | None = None) -> RouteOutcome:
+                 progress: Callable[[str, float], None] | None = None, keepouts=()) -> RouteOutcome:
     """Route a placed design on ``outline`` (shapely polygon, mm) and check it independently.
+
+    ``keepouts``: polygons copper keeps off on every layer, passed to the
+    router as holes (so ``routes.json`` lists them under ``holes`` too).
 
     Cost: the router's (see :mod:`pipeline.route.router`) plus the check's
     O(n log n) in pieces of copper.
@@ -104,7 +107,7 @@ def route_placed(outline, placements, design, library, rules: CopperRules, *, le
     from .pads import board_from_placement
     from .router import route_board
 
-    board = board_from_placement(outline, placements, design, library, rules.layer_names, level=level)
+    board = board_from_placement(outline, placements, design, library, rules.layer_names, keepouts, level=level)
     demand = routing_demand(board, rules)
     routing = route_board(board, rules, progress=progress)
     doc = routes_dict(board, rules, routing)
@@ -149,13 +152,20 @@ def route_fit(fit, items, region, options, design, library, rules: CopperRules, 
             f = dataclasses.replace(fit, placements=_true_courtyards(spread.placements, items),
                                     board_outline=spread.board_outline, wirelength_mm=spread.wirelength_mm)
         out = route_placed(f.board_outline, f.placements, design, library, rules, level=options.density,
-                           progress=progress)
+                           progress=progress, keepouts=_head_rings(region))
         out = dataclasses.replace(out, verdict=dataclasses.replace(out.verdict, spread_mm=m))
         if best is None or len(out.verdict.open_nets) < len(best[1].verdict.open_nets):
             best = (f, out)
         if out.verdict.status == ROUTED:
             break
     return best
+
+
+def _head_rings(region) -> tuple:
+    """Mounting screws' head rings: copper keeps off them on every layer (pipeline/mount.py)."""
+    from ..mount import circle
+
+    return tuple(circle(m.x_mm, m.y_mm, m.ring_mm, outside=True) for m in getattr(region, "mounts", ()))
 
 
 def _true_courtyards(placements, items):
