@@ -125,10 +125,11 @@ def _echo_findings(findings, err: bool, verbose: bool = False) -> None:
 
 def _echo_sweep(sw: dict, err: bool) -> None:
     _say(f"passive sizes ({len(sw['swept_refs'])} two-terminal passives swept):", err=err)
-    _say(f"  {'size':<6}{'fits':<6}{'courtyards mm2':>15}{'estimate mm2':>14}{'margin mm2':>12}  not placed",
+    _say(f"  {'size':<6}{'fits':<6}{'routing':<9}{'courtyards mm2':>15}{'estimate mm2':>14}{'margin mm2':>12}  not placed",
                err=err)
     for row in sw["sizes"]:
-        _say(f"  {row['size']:<6}{'yes' if row['fits'] else 'no':<6}{row['courtyard_area_mm2']:>15.1f}"
+        _say(f"  {row['size']:<6}{'yes' if row['fits'] else 'no':<6}{row.get('routing', '-'):<9}"
+             f"{row['courtyard_area_mm2']:>15.1f}"
                    f"{row['estimated_board_area_mm2']:>14.1f}{row['margin_mm2']:>12.1f}  "
                    f"{' '.join(row['unplaced']) or '-'}", err=err)
     best = sw.get("largest_fitting")

@@ -137,6 +137,8 @@ CODES: dict[str, Code] = {
     # routing (pipeline/route/, pipeline/verdict.py)
     "route.open": _c("error", "nets the router could not complete on this board"),
     "route.routed": _c("info", "every connection routed and the independent copper check is clean"),
+    "route.smallest": _c("info", "the smallest board that places and routes, against the courtyard sum and the "
+                                 "rule of thumb"),
     "route.skipped": _c("info", "routing switched off or not tried: the verdict is placement only"),
     "route.demand": _c("info", "routing demand (RUDY) and where the router found congestion, for open nets"),
     "route.defect": _c("error", "the independent copper check rejects a routing the router called complete "

@@ -18,7 +18,9 @@ own HPWL is smallest. One *round*:
 2. Each part's target is the median of its nets' box edges (one sort of
    all edges; no per-part ``np.median``); the ``SWAP_CANDIDATES`` slots of
    its class nearest the target (a k-d tree per class, queried in one
-   batch) are its candidate swaps.
+   batch; a class of at most ``BRUTE_FORCE_SLOTS`` slots uses one
+   distance matrix instead, so small boards do not import scipy) are its
+   candidate swaps.
 3. Every candidate swap ``(i, j)`` is evaluated at once with numpy: the
    change of HPWL of every net of ``i`` when ``i`` moves to ``j``'s slot,
    plus the same for ``j``; nets holding both parts do not change and are
@@ -60,6 +62,8 @@ MAX_ROUNDS = 30
 MIN_GAIN = 1e-3
 #: Candidate slots looked at per part and round.
 SWAP_CANDIDATES = 12
+#: Classes of at most this many slots find their candidates from a distance matrix (no k-d tree).
+BRUTE_FORCE_SLOTS = 64
 
 
 class _Pins:
@@ -145,6 +149,24 @@ def _move_cost(pins: _Pins, who: np.ndarray, tx: np.ndarray, ty: np.ndarray, oth
     return np.bincount(rep, weights=d, minlength=len(who))
 
 
+class _NearestSlots:
+    """The ``k`` slots nearest each query point, nearest first: a k-d tree for large classes
+    (:class:`scipy.spatial.cKDTree`, imported only then), one distance matrix for small ones
+    (ties by slot order), so a small board never imports scipy."""
+
+    def __init__(self, xy: np.ndarray):
+        self.xy = xy
+        if len(xy) > BRUTE_FORCE_SLOTS:
+            from scipy.spatial import cKDTree
+            self.tree = cKDTree(xy)
+
+    def query(self, at: np.ndarray, k: int) -> np.ndarray:
+        if len(self.xy) > BRUTE_FORCE_SLOTS:
+            return self.tree.query(at, k=k)[1]
+        d = ((at[:, None, :] - self.xy[None, :, :]) ** 2).sum(axis=2)
+        return np.argsort(d, axis=1, kind="stable")[:, :k]
+
+
 def _pick(pairs: np.ndarray, gain: np.ndarray, nets_of: list[list[int]], n_nets: int) -> list[int]:
     """Improving swaps, best first (one per moving part), sharing no net or part with one already taken."""
     keep = gain < -1e-9
@@ -215,8 +237,6 @@ def improve_swaps(groups: Sequence[Sequence[int]], xy: np.ndarray, nets: Sequenc
     opt = [m for m in opt if 2 <= len(m) <= fanout]
     if not opt or n < 2:
         return slot
-    from scipy.spatial import cKDTree
-
     pins = _Pins(opt, n)
     nets_of: list[list[int]] = [[] for _ in range(n)]
     for k, m in enumerate(opt):
@@ -232,7 +252,7 @@ def improve_swaps(groups: Sequence[Sequence[int]], xy: np.ndarray, nets: Sequenc
         group_of[members] = g
         occupant.append(members.copy())
         where[members] = np.arange(len(members))
-        trees.append(cKDTree(pos[members]) if len(members) > 1 else None)
+        trees.append(_NearestSlots(pos[members]) if len(members) > 1 else None)
     movable = np.array([i for i in range(n) if group_of[i] >= 0 and pins.deg[i] > 0
                         and trees[group_of[i]] is not None], dtype=np.int64)
     if not len(movable):
@@ -249,7 +269,7 @@ def improve_swaps(groups: Sequence[Sequence[int]], xy: np.ndarray, nets: Sequenc
         for g in np.unique(gmov):
             sel = movable[gmov == g]
             k = min(SWAP_CANDIDATES, len(occupant[g]))
-            _, cand = trees[g].query(tgt[gmov == g], k=k)
+            cand = trees[g].query(tgt[gmov == g], k)
             cand = np.asarray(cand).reshape(len(sel), k)
             j = occupant[g][cand]
             pairs.append(np.stack((np.repeat(sel, k), j.reshape(-1)), axis=1))

@@ -435,7 +435,7 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     sections = list(block_sections(reports))
     route_verdict = routed = None
     if project.cavity_path is not None:
-        cavity, region, items, fit, sweep_result, fit_findings = _fit(project, design, lib, sweep, progress)
+        cavity, region, items, fit, sweep_result, fit_findings = _fit(project, design, lib, sweep, progress, route)
         findings += fit_findings
         if sweep_result is not None:
             extra["passive_sizes"] = sweep_result.to_dict()
@@ -485,7 +485,7 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
                      verdict=verdict, routing=route_verdict)
 
 
-def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Progress | None):
+def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Progress | None, route: bool = True):
     """Cavity, region, placement (with tried advice) and, with ``sweep``, the size sweep.
 
     Returns ``(cavity, region, placer items, fit, sweep_result, findings)``.
@@ -511,7 +511,8 @@ def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Prog
     sweep_result = None
     if sweep:
         from .sweep import sweep_sizes
-        sweep_result = sweep_sizes(design, lib, region, project.board, progress=progress, user_board=cavity.board)
+        sweep_result = sweep_sizes(design, lib, region, project.board, progress=progress, user_board=cavity.board,
+                                   rules=project.copper if route else None)
     return cavity, region, items, fit, sweep_result, [*cw, *rw, *placer, *_fit_findings(fit)]
 
 
@@ -541,16 +542,17 @@ def _route(project: Project, route: bool, fit: FitResult, items: Any, region: An
     routes.json, board-copper.dxf and placement.csv to ``files``.
     """
     from .export.placement import placement_csv
-    from .export.results import dump_json
-    from .export.routes import routes_dxf
-    from .route import route_fit, skipped
+    from .route import skipped
 
     out = None
     if not (route and project.copper.route):
         verdict = skipped("routing is switched off (--no-route or [copper] route = false): the verdict is placement only")
     elif not fit.fits or fit.board_outline is None or fit.board_outline.is_empty:
         verdict = skipped(NOT_FITTING)
-    else:
+    else:  # the router and its writers are imported only when routing runs
+        from .export.results import dump_json
+        from .export.routes import routes_dxf
+        from .route import route_fit
         fit, out = route_fit(fit, items, region, project.board, design, lib, project.copper, user_board=user_board,
                              progress=progress)
         if project.board.outline == "smallest":
@@ -568,6 +570,17 @@ def _route(project: Project, route: bool, fit: FitResult, items: Any, region: An
 
 
 def _route_findings(v) -> list[Finding]:
+    small = [Finding("info", "route.smallest", (), _smallest_note(v.smallest))] if v.smallest is not None else []
+    return small + _verdict_findings(v)
+
+
+def _smallest_note(s) -> str:
+    return (f"Smallest board that places and routes: {s.area_mm2:.0f} mm2, {s.ratio:.2f} x the courtyard sum "
+            f"(rule of thumb {s.rule_of_thumb_ratio:.2f} x); a {s.mode} at {s.angle_deg:g} deg, aspect "
+            f"{s.aspect:.2f}, found in {s.tries} tries.")
+
+
+def _verdict_findings(v) -> list[Finding]:
     if v.status == "routed":
         spread = (f" after spreading the parts ({v.spread_mm:g} mm more room around each courtyard)"
                   if v.spread_mm else "")

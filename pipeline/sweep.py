@@ -13,8 +13,16 @@ the routing rule of thumb leaves room to spare; a size can fit (every
 courtyard placed) with a negative margin, which means routing will be
 tight. ``free_mm2`` is the board area minus the courtyard sum.
 
-The sweep reports only fit and margin, so it skips the placer's wirelength
-improvement (``improve=False``); cost: one packing per size.
+A size fits only when its parts place AND the board routes (the routed
+verdict of :func:`pipeline.route.route_fit`, independent copper check
+clean), unless routing is off (``rules`` None, or ``rules.route`` false):
+then placing is enough and each row says routing was skipped.
+
+Cost: one packing per size without the placer's wirelength improvement
+(``improve=False``: the verdict does not need it); only the sizes that
+place are placed again with the improvement and routed, and a size whose
+parts come out exactly as an earlier row's (same courtyards) reuses that
+row's routing instead of routing again.
 """
 
 from __future__ import annotations
@@ -48,11 +56,15 @@ class SweepRow:
     free_mm2: float
     unplaced: tuple[str, ...]
     courtyard_mm: tuple[float, float]
+    placed: bool = True
+    routing: str = "skipped"  #: "routed", "open" (placed, not routed) or "skipped" (routing off or not placed)
 
     def to_dict(self) -> dict[str, Any]:
         return {
             "size": self.size,
             "fits": self.fits,
+            "placed": self.placed,
+            "routing": self.routing,
             "courtyard_mm": None if self.size == DESIGNED else [round(v, 4) for v in self.courtyard_mm],
             "courtyard_area_mm2": round(self.courtyard_area_mm2, 4),
             "estimated_board_area_mm2": round(self.estimated_board_area_mm2, 4),
@@ -120,7 +132,7 @@ def two_terminal_passives(design: Design, library) -> tuple[str, ...]:
 
 def sweep_sizes(design: Design, library, region: Region, board: BoardOptions,
                 sizes: Sequence[str] = DEFAULT_SIZES, progress: Progress | None = None,
-                user_board=None) -> SweepResult:
+                user_board=None, rules=None) -> SweepResult:
     """Fit the design with every two-terminal passive at each of ``sizes``.
 
     Parameters
@@ -133,6 +145,9 @@ def sweep_sizes(design: Design, library, region: Region, board: BoardOptions,
     progress : callable(message, fraction), optional
     user_board : Polygon, optional
         The user's board outline, passed on to the fit.
+    rules : pipeline.route.CopperRules, optional
+        Copper rules: a size fits only when it also routes. None (or
+        ``rules.route`` false) keeps the placement-only verdict.
 
     Returns
     -------
@@ -155,16 +170,24 @@ def sweep_sizes(design: Design, library, region: Region, board: BoardOptions,
         cy = library.package(s, file="sweep", key="sizes").courtyard(board.density)
         shape[s] = (float(cy.length_mm), float(cy.width_mm))
     rows = []
+    routed: dict = {}  # placer items -> routing status (sizes whose courtyards come out the same route once)
     for n, s in enumerate((DESIGNED, *sizes)):
         if progress is not None:
             progress(f"trying passives in {s}", n / (len(sizes) + 1))
         override = {} if s == DESIGNED else {ref: s for ref in swept}
         items = items_from_design(design, library, board.density, override)
-        fit = place_and_fit(items, region, board, user_board=user_board, improve=False)  # verdict only
+        fit = place_and_fit(items, region, board, user_board=user_board, improve=False)  # placement verdict
         board_area = float(fit.board_outline.area) if fit.board_outline is not None else 0.0
+        routing = "skipped"
+        if fit.fits and rules is not None and rules.route:
+            if items not in routed:
+                routed[items] = _routes(items, region, board, design, library, rules, user_board)
+            routing = routed[items]
         rows.append(SweepRow(
             size=s,
-            fits=fit.fits,
+            fits=fit.fits and routing != "open",
+            placed=fit.fits,
+            routing=routing,
             courtyard_area_mm2=fit.courtyard_area_mm2,
             estimated_board_area_mm2=fit.estimate.expected_mm2,
             board_area_mm2=board_area,
@@ -181,3 +204,14 @@ def sweep_sizes(design: Design, library, region: Region, board: BoardOptions,
         progress("sweep done", 1.0)
     return SweepResult(tuple(rows), swept, best.size if best else None, best.margin_mm2 if best else None,
                        designed, kept)
+
+
+def _routes(items, region: Region, board: BoardOptions, design: Design, library, rules, user_board) -> str:
+    """``"routed"`` or ``"open"``: the parts placed with the improvement pass and routed (spread as needed)."""
+    from .route import ROUTED, route_fit
+
+    fit = place_and_fit(items, region, board, user_board=user_board)
+    if not fit.fits:  # placed without the improvement pass but not with it: not proven either
+        return "open"
+    _, out = route_fit(fit, items, region, board, design, library, rules, user_board=user_board)
+    return "routed" if out.verdict.status == ROUTED else "open"

@@ -950,3 +950,35 @@ def test_check_gives_the_same_findings_and_status_as_run(tmp_path, target):
     assert run_status == check_status == (0 if target is None else 1)
     assert any(f["check"] == "block.summary" for f in check_findings)
     assert any(f["check"] == "block.target-missed" for f in check_findings) == (target is not None)
+
+
+# --------------------------------------------------------------------------
+# Cost guard: the Monte Carlo is vectorised (counted calls, never timed)
+# --------------------------------------------------------------------------
+def _calls_during(fn) -> int:
+    """Python and C function calls made while ``fn`` runs (sys.setprofile events)."""
+    n = 0
+
+    def count(frame, event, arg):
+        nonlocal n
+        if event in ("call", "c_call"):
+            n += 1
+
+    sys.setprofile(count)
+    try:
+        fn()
+    finally:
+        sys.setprofile(None)
+    return n
+
+
+@pytest.mark.parametrize("targets", [{"f0": "1.2kHz ±20%", "q": "0.707 ±30%"},  # passes: no retune
+                                     {"f0": "1.5kHz ±1%"}])  # misses at nominal: retune proposals too
+def test_monte_carlo_cost_does_not_grow_with_the_draws(targets):
+    d = sk_lowpass(10e3, 10e3, 22e-9, 10e-9, targets=targets)
+    few = _calls_during(lambda: analyse_blocks(d, draws=50, seed=3))
+    many = _calls_during(lambda: analyse_blocks(d, draws=20000, seed=3))
+    # 400 times the draws, about the same number of calls (formatting of the figures varies a little):
+    # every build is evaluated inside numpy; a Python loop over the builds would add 19,950 calls or more
+    assert many - few < 1000
+    assert few < 20000  # and the whole analysis of a block is a bounded number of calls

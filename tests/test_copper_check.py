@@ -151,3 +151,48 @@ def test_checker_shares_no_code_with_the_router():
 def test_same_document_same_verdict():
     d = _doc()
     assert check_copper(copy.deepcopy(d)) == check_copper(d)
+
+
+def _four_layers(inner_rule):
+    """The clean board on four layers; net B gets a track on inner1 whose copper ends 0.3 mm from x = 10."""
+    d = _doc()
+    d["layers"] = ["top", "inner1", "inner2", "bottom"]
+    d["tracks"].append({"net": "B", "layer": "inner1", "width_mm": 0.2, "points": [[2, 8], [9.6, 8], [8, 8]]})
+    d["pads"][2]["layers"] = d["pads"][3]["layers"] = ["top", "inner1", "inner2", "bottom"]
+    if inner_rule is not None:
+        d["rules"]["inner_edge_clearance_mm"] = inner_rule
+    return d
+
+
+@pytest.mark.parametrize("inner_rule, caught", [(0.4, True), (0.25, False), (None, False)])
+def test_inner_layer_copper_keeps_the_inner_edge_clearance(inner_rule, caught):
+    # By hand: the track's centre line ends at x = 9.6, its copper at 9.6 + 0.1 = 9.7, 0.3 mm from the
+    # edge x = 10: over an inner rule of 0.4, within an outer rule of 0.25 (used when no inner key).
+    d = _four_layers(inner_rule)
+    problems = [p for p in check_copper(d).problems if p.kind == "edge"]
+    if not caught:
+        assert not problems
+        return
+    (p,) = problems
+    assert (p.nets, p.layer) == (("B",), "inner1")
+    # the position is the middle of the shortest line from the centre line's end (9.6) to the edge (10)
+    assert p.x == pytest.approx(9.8) and p.y == pytest.approx(8)
+
+
+def test_inner_rule_does_not_move_the_outer_layers():
+    # the top track of A ends 0.3 mm from the edge too (copper to x = 9.7): fine under the outer 0.25 mm
+    d = _four_layers(0.4)
+    d["tracks"] = [t for t in d["tracks"] if t["layer"] != "inner1"]
+    d["tracks"][0]["points"] = [[2, 2], [9.6, 2], [8, 2]]
+    assert check_copper(d).clean
+
+
+def test_through_hole_pad_keeps_the_larger_rule_of_its_layers():
+    # a through-hole pad of B whose copper edge is 0.3 mm from x = 10 (centre 9.4, half side 0.3):
+    # within the outer 0.25 but over the inner 0.4, so it is caught on its inner layers
+    d = _four_layers(0.4)
+    d["tracks"] = d["tracks"][:2]
+    d["pads"][3]["polygon"] = _sq(9.4, 8)
+    d["tracks"][1]["points"] = [[2, 8], [9.4, 8]]
+    (p,) = [p for p in check_copper(d).problems if p.kind == "edge"]
+    assert p.nets == ("B",) and p.x == pytest.approx(9.85)

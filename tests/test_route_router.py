@@ -37,18 +37,20 @@ def _neck_board(n_nets, W):
     return RouteBoard(outline, (), tuple(pads))
 
 
-@pytest.mark.parametrize("n", [1, 2, 3])
-def test_channel_carries_floor_of_W_minus_s_over_w_plus_s_tracks(n):
+@pytest.mark.parametrize("n, coarse", [(1, False), (2, False), (3, False), (1, True), (2, True)])
+def test_channel_carries_floor_of_W_minus_s_over_w_plus_s_tracks(n, coarse):
     # Closed form: n tracks of width w with gaps s fit a channel of width W when n w + (n + 1) s <= W,
     # i.e. n = floor((W - s) / (w + s)). With w = s = 0.2 and W = 0.4 n + 0.3: floor(n + 0.25) = n.
+    # coarse: the same with global routing on tiles first and detailed routing in corridors.
     rules = CopperRules(layers=1, edge_clearance_mm=0.2, time_budget_s=60)
     W = 0.4 * n + 0.3
     assert int((W - 0.2) // 0.4) == n
-    fits = route_board(_neck_board(n, W), rules)
+    fits = route_board(_neck_board(n, W), rules, coarse=coarse)
     assert fits.status == "routed" and _check(_neck_board(n, W), rules, fits).clean
-    more = route_board(_neck_board(n + 1, W), rules)
+    more = route_board(_neck_board(n + 1, W), rules, coarse=coarse)
     assert more.status == "open" and len(more.open) == 1       # up to n, not one more
     assert more.congestion                                        # and it says where
+    assert any(6 <= x <= 14 for x, _ in more.congestion)          # in the neck
     assert not _check(_neck_board(n + 1, W), rules, more).except_open(more.open)
 
 

@@ -4,6 +4,7 @@ import json
 
 from pipeline.copper import check_copper
 from pipeline.route import smallest as smallest_mod
+from pipeline.route.shapes import board_at
 from test_contract import _resistors, invoke, make_project, rect_cavity
 
 
@@ -28,21 +29,33 @@ def test_smallest_board_routes_and_one_step_smaller_does_not(tmp_path, monkeypat
     assert small["ratio_to_courtyards"] >= 1.0                                # nothing under the courtyard sum
     assert small["ratio_to_courtyards"] * fit["courtyard_area_mm2"] < fit["region_area_mm2"]
     assert f"smallest board: {small['area_mm2']:.0f} mm2" in r.output and "rule of thumb" in r.output
+    # the report's findings carry both ratios side by side
+    note = (proj / "out" / "findings.json").read_text()
+    assert "route.smallest" in note and f"{small['ratio_to_courtyards']:.2f} x the courtyard sum" in note
+    assert f"rule of thumb {small['rule_of_thumb_ratio']:.2f} x" in note
     # the board written is the one found
     found = seen["found"]
     assert abs(found.board.area - small["area_mm2"]) < 1e-3
-    # one bisection step smaller: below the courtyard sum, or it does not place and route
+    # the last smaller area tried at the same shape: below the courtyard sum, or it does not place, or its
+    # RUDY demand is past the screen, or it does not route
     from pipeline.place import place_and_fit
     from pipeline.route import ROUTED, route_fit
+    from pipeline.route.demand import routing_demand
+    from pipeline.route.pads import board_from_placement
     fit0, items, region, options, design, library, rules = seen["args"]
-    smaller = smallest_mod.cut(region.board_region, found.angle_deg, found.failed_shrink)
-    assert smaller.area < found.board.area
-    if smaller.area >= fit0.courtyard_area_mm2:
-        f = place_and_fit(items, region, options, user_board=smaller)
+    assert small["shape"] == found.mode and small["rule_of_thumb_ratio"] > 1.0
+    assert found.failed_area_mm2 < found.area_mm2
+    if found.failed_area_mm2 >= fit0.courtyard_area_mm2:
+        smaller, _ = board_at(region.board_region, found.shape, found.failed_area_mm2)
+        assert smaller.area < found.board.area
+        f = place_and_fit(items, region, options, user_board=smaller, improve=False)
         if f.fits:
-            _, out = route_fit(f, items, region, options, design, library, rules, user_board=smaller)
-            assert out.verdict.status != ROUTED
-
+            pads = board_from_placement(smaller, f.placements, design, library, rules.layer_names)
+            if routing_demand(pads, rules).p90 <= smallest_mod.P90_MAX:
+                f = place_and_fit(items, region, options, user_board=smaller)
+                if f.fits:
+                    _, out = route_fit(f, items, region, options, design, library, rules, user_board=smaller)
+                    assert out.verdict.status != ROUTED
 
 def test_smallest_is_a_known_outline_mode(tmp_path):
     proj = make_project(tmp_path / "q", design=_resistors(2), cavity=rect_cavity(tmp_path / "c.dxf"),

@@ -156,3 +156,57 @@ def test_sweep_starts_with_the_design_and_keeps_fixed_parts(lib):
     small = items_from_design(d, lib, "nominal", {r: "0402" for r in res.swept})
     assert res.row("0402").courtyard_area_mm2 == pytest.approx(sum(i.length_mm * i.width_mm for i in small))
     assert {i.ref: i.package for i in small if i.ref in ("R1", "R2")} == {"R1": "0603", "R2": "0402"}
+
+
+def _crossing(n=12):
+    """``n`` 0603 resistors, net k joining R_k pin 2 to R_(5k+3 mod n) pin 1: connections that cross."""
+    parts = tuple(_two(f"R{i}", "resistor", "0603") for i in range(n))
+    nets = tuple(Net(f"N{k}", (PinRef(f"R{k}", "2"), PinRef(f"R{(k * 5 + 3) % n}", "1"))) for k in range(n))
+    return Design("cross", "A", "design.toml", parts, nets)
+
+
+def test_a_size_that_places_but_does_not_route_does_not_fit(lib):
+    # One copper layer: tracks of different nets cannot cross (a planar layer), and a 0402's pads sit too close
+    # for a track (0.2 mm, 0.2 mm clearance each side: 0.6 mm) to pass between them, while a 1206's gap lets
+    # tracks through; on a square of 1.3 x the 1206 courtyards, the 0402s place but their connections do not
+    # route, the 1206s place and route. Routing is re-checked by the independent copper check (route_fit).
+    from pipeline.route import CopperRules
+
+    design = _crossing()
+    swept = two_terminal_passives(design, lib)
+    side = math.sqrt(1.3 * _areas(lib, design, "1206", swept))
+    geom = box(0, 0, side, side)
+    region = Region(geom, (HeightZone(geom, 4.0),), 0.8)
+    board = BoardOptions(edge_clearance_mm=0.0, min_inside_radius_mm=0.0, sides=1)
+    res = sweep_sizes(design, lib, region, board, ("0402", "1206"), rules=CopperRules(layers=1))
+    small, large = res.row("0402"), res.row("1206")
+    assert small.placed and small.routing == "open" and not small.fits
+    assert large.placed and large.routing == "routed" and large.fits
+    assert res.largest_fitting == "1206"
+    # routing off: placing is enough, and each row says routing was skipped
+    off = sweep_sizes(design, lib, region, board, ("0402",), rules=None)
+    assert off.row("0402").fits and off.row("0402").routing == "skipped"
+    assert res.to_dict()["sizes"][1]["routing"] == "open"
+
+
+def test_the_sweep_routes_only_placed_sizes_and_each_layout_once(lib, monkeypatch):
+    # cost guard (counts calls): the design is all 0603 already, so the "0603" row has the designed row's
+    # courtyards and reuses its routing; the 1206 row does not place on a square of 0.9 x its courtyard sum
+    # (area argument: courtyards may not overlap) and is not routed.
+    import pipeline.route as route
+    from pipeline.route import CopperRules
+
+    calls = []
+    original = route.route_fit
+    monkeypatch.setattr(route, "route_fit", lambda *a, **k: calls.append(1) or original(*a, **k))
+    design = _crossing(6)
+    swept = two_terminal_passives(design, lib)
+    side = math.sqrt(0.9 * _areas(lib, design, "1206", swept))
+    assert side ** 2 > 2 * _areas(lib, design, "0603", swept)
+    geom = box(0, 0, side, side)
+    region = Region(geom, (HeightZone(geom, 4.0),), 0.8)
+    board = BoardOptions(edge_clearance_mm=0.0, min_inside_radius_mm=0.0, sides=1)
+    res = sweep_sizes(design, lib, region, board, ("0603", "1206"), rules=CopperRules(layers=2))
+    assert not res.row("1206").placed and res.row("1206").routing == "skipped"
+    assert res.designed.routing == res.row("0603").routing == "routed"
+    assert len(calls) == 1

@@ -105,6 +105,7 @@ def test_every_output_shows_the_same_verdict(tmp_path, case, edit, level, status
     assert fit_json["verdict"] == v and out["fit"]["verdict"] == v
     assert (page.text, page.level) == (v["headline"], level)
     assert " ".join(svg_lines) == v["headline"]
+    assert svg.find(SVG_NS + "title").text.endswith(" - verdict: " + v["headline"])  # as the terminal says it
     assert v["headline"].startswith({"ready": "Ready to lay out", "attention": "Fits, needs attention",
                                      "does-not-fit": "Does not fit"}[level])
     # run routes by default (issue 9): these boards route; a board that does not fit is not routed

@@ -20,7 +20,11 @@ What it checks (millimetres; ``TOL`` absorbs the file's 0.1 um rounding)
   fall in more than one piece is open; copper joined to none of its net's
   pads is stray.
 * **Inside the board**: all copper inside the outline at least
-  ``rules.edge_clearance_mm`` from its edge and from every hole.
+  ``rules.edge_clearance_mm`` from its edge and from every hole; on an
+  inner layer (any but the first and last of ``layers``) at least
+  ``rules.inner_edge_clearance_mm`` when the document gives it (an
+  extension key; else the outer figure). Copper on several layers (vias,
+  through-hole pads) keeps the largest figure of its layers.
 * **Sizes**: tracks at least ``rules.min_track_width_mm`` wide, drills at
   least ``rules.min_drill_mm``, via annular ring at least
   ``rules.min_annular_ring_mm``.
@@ -95,7 +99,7 @@ def check_copper(doc: dict) -> CopperCheck:
         return CopperCheck((CopperProblem("format", (), "", 0.0, 0.0, f"routes document unreadable: {exc!r}"),))
     problems = _sizes(doc, rules)
     problems += _gaps(pieces, layers, rules["clearance_mm"])
-    problems += _inside(pieces, board, holes, rules["edge_clearance_mm"])
+    problems += _inside(pieces, board, holes, _edge_rules(layers, rules))
     problems += _connected(pieces)
     problems.sort(key=lambda p: (p.kind, p.nets, p.layer, round(p.x, 4), round(p.y, 4), p.message))
     return CopperCheck(tuple(problems))
@@ -111,6 +115,7 @@ def _read(doc: dict):
     layers = tuple(doc["layers"])
     rules = {k: float(doc["rules"][k]) for k in ("clearance_mm", "edge_clearance_mm", "min_track_width_mm",
                                                   "min_annular_ring_mm", "min_drill_mm")}
+    rules["inner_edge_clearance_mm"] = float(doc["rules"].get("inner_edge_clearance_mm", rules["edge_clearance_mm"]))
     pieces: list[_Piece] = []
     for p in doc["pads"]:
         name = f"{p['ref']}.{p['pin']}"
@@ -175,9 +180,18 @@ def _gaps(pieces: list[_Piece], layers, clearance: float) -> list[CopperProblem]
     return out
 
 
-def _inside(pieces: list[_Piece], board: Polygon, holes: list[Polygon], edge: float) -> list[CopperProblem]:
+def _edge_rules(layers: tuple[str, ...], rules: dict[str, float]) -> dict[str, float]:
+    """Copper-to-edge figure per layer: the outer one on the first and last layer, the inner one between."""
+    outer, inner = rules["edge_clearance_mm"], rules["inner_edge_clearance_mm"]
+    edges = {name: outer if k in (0, len(layers) - 1) else inner for k, name in enumerate(layers)}
+    edges[""] = outer     # a layer the document does not list: the outer figure
+    return edges
+
+
+def _inside(pieces: list[_Piece], board: Polygon, holes: list[Polygon], edges: dict[str, float]) -> list[CopperProblem]:
     out = []
     for p in pieces:
+        edge = max(edges.get(name, edges[""]) for name in p.layers)
         copper = p.core.buffer(p.grow) if p.grow else p.core
         lay = ",".join(p.layers)
         if not board.contains(p.core) or _gap_to(p, board.exterior) < edge - TOL:

@@ -28,9 +28,13 @@ def _r(v: float) -> float:
 
 
 def _rules(rules: CopperRules) -> dict[str, float]:
-    return {"clearance_mm": _r(rules.clearance_mm), "edge_clearance_mm": _r(rules.edge_clearance_mm),
-            "min_track_width_mm": _r(rules.track_width_mm), "min_annular_ring_mm": _r(rules.annular_ring_mm),
-            "min_drill_mm": _r(rules.via_drill_mm)}
+    """The issue's five rule keys, plus ``inner_edge_clearance_mm`` on a board with inner layers."""
+    out = {"clearance_mm": _r(rules.clearance_mm), "edge_clearance_mm": _r(rules.edge_clearance_mm),
+           "min_track_width_mm": _r(rules.track_width_mm), "min_annular_ring_mm": _r(rules.annular_ring_mm),
+           "min_drill_mm": _r(rules.via_drill_mm)}
+    if len(rules.layer_names) > 2:
+        out["inner_edge_clearance_mm"] = _r(rules.inner_edge_clearance_mm)
+    return out
 
 
 def routes_dict(board: RouteBoard, rules: CopperRules, routing: Routing | None) -> dict[str, Any]:

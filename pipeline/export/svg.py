@@ -190,7 +190,9 @@ def fit_svg(cavity: Cavity, region: Region, fit: FitResult, *, title: str = "",
     right = max(legend_x + (_LEGEND_W + _MARGIN) * u, left + (2 * _MARGIN + _header_width(head)) * u)
     frame = (left, top, right - left, bottom - top)
 
-    out: list[str] = [*_prologue(frame, s, head[0][0], u)]
+    # the hover title says the verdict in the terminal's words (verdict.py words it)
+    named = head[0][0] if verdict is None else f"{head[0][0]} - verdict: {verdict.headline}"
+    out: list[str] = [*_prologue(frame, s, named, u)]
     out += _ground(cavity, region, board, colour_of, u)
     if demand is not None:
         from .copper_svg import congestion_svg

@@ -92,11 +92,14 @@ def skipped(reason: str) -> RouteVerdict:
 
 
 def route_placed(outline, placements, design, library, rules: CopperRules, *, level: str = "nominal",
-                 progress: Callable[[str, float], None] | None = None, keepouts=()) -> RouteOutcome:
+                 progress: Callable[[str, float], None] | None = None, keepouts=(),
+                 time_budget_s: float | None = None) -> RouteOutcome:
     """Route a placed design on ``outline`` (shapely polygon, mm) and check it independently.
 
     ``keepouts``: polygons copper keeps off on every layer, passed to the
     router as holes (so ``routes.json`` lists them under ``holes`` too).
+    ``time_budget_s``: seconds the router may take (default
+    ``rules.time_budget_s``).
 
     Cost: the router's (see :mod:`pipeline.route.router`) plus the check's
     O(n log n) in pieces of copper.
@@ -109,7 +112,7 @@ def route_placed(outline, placements, design, library, rules: CopperRules, *, le
 
     board = board_from_placement(outline, placements, design, library, rules.layer_names, keepouts, level=level)
     demand = routing_demand(board, rules)
-    routing = route_board(board, rules, progress=progress)
+    routing = route_board(board, rules, progress=progress, time_budget_s=time_budget_s)
     doc = routes_dict(board, rules, routing)
     check = check_copper(doc)
     defects = tuple(p.message + f" (at {p.x:.2f}, {p.y:.2f} mm)" for p in check.except_open(routing.open))
@@ -133,13 +136,21 @@ def route_fit(fit, items, region, options, design, library, rules: CopperRules, 
     so the true placement is legal too. Returns ``(fit, RouteOutcome)`` with
     the fit whose placements were routed (true courtyards; the courtyard
     sum and estimate of the compact fit).
+
+    ``rules.time_budget_s`` bounds all the attempts together: each routing
+    gets what the earlier ones left, and no further spread is tried once it
+    is spent (the first attempt always runs).
     """
     import dataclasses
+    import time
 
     from ..place import place_and_fit
 
     best = None
+    deadline = time.monotonic() + rules.time_budget_s
     for step in SPREAD_STEPS:
+        if best is not None and time.monotonic() >= deadline:
+            break
         m = step * rules.pitch_mm
         if step == 0:
             f = fit
@@ -151,8 +162,9 @@ def route_fit(fit, items, region, options, design, library, rules: CopperRules, 
                 break
             f = dataclasses.replace(fit, placements=_true_courtyards(spread.placements, items),
                                     board_outline=spread.board_outline, wirelength_mm=spread.wirelength_mm)
+        left = max(deadline - time.monotonic(), 0.0)
         out = route_placed(f.board_outline, f.placements, design, library, rules, level=options.density,
-                           progress=progress, keepouts=_head_rings(region))
+                           progress=progress, keepouts=_head_rings(region), time_budget_s=left)
         out = dataclasses.replace(out, verdict=dataclasses.replace(out.verdict, spread_mm=m))
         if best is None or len(out.verdict.open_nets) < len(best[1].verdict.open_nets):
             best = (f, out)

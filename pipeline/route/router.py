@@ -35,6 +35,13 @@ Method
   already holds the clearance; the 8 neighbours of a via; more around wide
   tracks). Two nets conflict where one's copper stands on the other's
   claim.
+* **Large boards** (more than ``COARSE_PARTS`` parts): every net is
+  first routed globally on coarse tiles with negotiated congestion
+  (:mod:`pipeline.route.coarse`), and each detailed search keeps to its
+  net's corridor (the tiles of its global route grown by ``CORRIDOR_GROW``), so a
+  search costs what its corridor holds, not the whole board. Nets the
+  global router cannot fit are reported open with the overfull tile
+  borders as the congestion; so are nets the time budget never reached.
 * **Copper areas**: a net given a layer fills it (board less edge
   clearance, holes and other nets' copper grown by the clearance); each of
   its pads not on that layer routes to the nearest via site.
@@ -57,6 +64,7 @@ import shapely
 from shapely.geometry import LineString, Point
 
 from .board import RouteBoard, RoutePad
+from .coarse import COARSE_PARTS, COARSE_SHARE, TILE_PITCHES, capacities, plan_corridors
 from .grid import BLOCKED, FREE, Grid, as_polygons, build_grid
 from .rules import CopperRules
 
@@ -71,6 +79,7 @@ HISTORY_STEP = 0.4       #: history added to a shared node per round
 WINDOW = 12              #: grid steps around a connection's box searched first
 AREA_MARGIN = 0.005      #: extra gap (mm) where copper areas are cut: buffer arcs are chords
 STUB_REACH = 3           #: grid steps within which a pin-access stub may end
+STUB_CELL = 2.0          #: side (mm) of the buckets pin-access stubs are filed in
 DOT = 1e-3               #: length (mm) of the track that stands for a single node of copper
 
 Progress = Callable[[str, float], None]
@@ -131,7 +140,7 @@ class Routing:
 # --------------------------------------------------------------------------
 class _Net:
     __slots__ = ("name", "k", "pads", "width", "area", "grid", "terms", "paths", "vias", "core", "claim",
-                 "failed", "stubs", "halo", "dead")
+                 "failed", "stubs", "halo", "dead", "halo_key", "corridor", "tried")
 
     def __init__(self, name, k, pads, width, area):
         self.name, self.k, self.pads, self.width, self.area = name, k, pads, width, area
@@ -145,15 +154,24 @@ class _Net:
         self.dead = False     # a connection has no path at all (not a matter of congestion)
         self.stubs: list[tuple[int, str, LineString]] = []
         self.halo: list[tuple[int, int]] = []
+        self.halo_key: tuple = ()
+        self.corridor = None  # plane cells (bytearray, 1 = usable) the detailed search keeps to, or None
+        self.tried = False    # routed at least once (a net the time budget never reached is open)
 
 
 def route_board(board: RouteBoard, rules: CopperRules, *, progress: Progress | None = None,
-                time_budget_s: float | None = None) -> Routing:
+                time_budget_s: float | None = None, coarse: bool | None = None) -> Routing:
     """Route ``board`` under ``rules``; see the module docstring.
 
-    ``time_budget_s`` defaults to ``rules.time_budget_s``.
+    ``time_budget_s`` defaults to ``rules.time_budget_s``; ``coarse`` routes
+    globally on tiles first (:mod:`pipeline.route.coarse`), by default when
+    the board has more than ``COARSE_PARTS`` parts.
     """
-    return _Router(board, rules, progress, rules.time_budget_s if time_budget_s is None else time_budget_s).run()
+    if coarse is None:
+        coarse = len({p.ref for p in board.pads}) > COARSE_PARTS
+    router = _Router(board, rules, progress, rules.time_budget_s if time_budget_s is None else time_budget_s)
+    router.coarse = coarse
+    return router.run()
 
 
 class _Router:
@@ -167,6 +185,7 @@ class _Router:
                      for k, n in enumerate(self.names)]
         self.wmax = max([n.width for n in self.nets] + [rules.track_width_mm])
         self._grids: dict[float, Grid] = {}
+        self.coarse = False   # route globally on tiles first (route_board sets it)
 
     # ---------------------------------------------------------------- setup
     def grid(self, width: float, extra=None) -> Grid:
@@ -182,15 +201,18 @@ class _Router:
 
     def setup(self) -> None:
         stubs: dict[str, list] = {}
+        buckets: dict = {}
         for net in self.nets:
             g = self.grid(net.width)
             net.terms = [self.terminals(g, net, pad) for pad in net.pads]
             for pi, (pad, terms) in enumerate(zip(net.pads, net.terms)):
                 if not terms and not (net.area and net.area in pad.layers):
-                    stub = self.stub(g, net, pad, stubs)
+                    stub = self.stub(g, net, pad, buckets)
                     if stub is not None:
                         net.stubs.append((pi, *stub))
-                        stubs.setdefault(net.name, []).append((stub[0], stub[1].buffer(net.width / 2 + 0.002)))
+                        geo = stub[1].buffer(net.width / 2 + 0.002)
+                        stubs.setdefault(net.name, []).append((stub[0], geo))
+                        _bucket_add(buckets, net.name, stub[0], geo)
         if stubs:
             self._grids.clear()
             for width in sorted({n.width for n in self.nets}):
@@ -208,6 +230,16 @@ class _Router:
         self.core_occ = [0] * n_nodes
         self.claim_occ = [0] * n_nodes
         self.hist = [0.0] * n_nodes
+        # copper of other nets near each node (per halo shape) and near each via site (all layers),
+        # kept up to date by commit() so that a search step reads one number instead of summing
+        self.near = {}
+        for net in self.nets:
+            net.halo_key = tuple(net.halo)
+            self.near.setdefault(net.halo_key, [0] * n_nodes)
+        self.via_near = [0] * (n_nodes // len(self.layers) if self.layers else 0)
+        prefer = len(self.layers) - len(self.rules.areas) > 1
+        self.steps = ([1.0 if not prefer or li % 2 == 0 else OFF_DIRECTION for li in range(len(self.layers))],
+                      [1.0 if not prefer or li % 2 == 1 else OFF_DIRECTION for li in range(len(self.layers))])
 
     def node_at(self, g: Grid, layer: str, xy) -> int:
         i = round((xy[0] - g.x0) / g.pitch)
@@ -232,33 +264,40 @@ class _Router:
         return out
 
     def stub(self, g: Grid, net: _Net, pad: RoutePad, taken: dict) -> tuple[str, LineString] | None:
-        """A short straight track from inside ``pad`` to a nearby usable node (pin access)."""
+        """A short straight track from inside ``pad`` to a nearby usable node (pin access).
+
+        The shortest clear one (ties: layer, row, column). ``taken`` holds
+        the stubs already made, by ``STUB_CELL`` bucket; other pads are
+        found through an STRtree, so one pad costs O(candidates x log pads).
+        """
         anchor = pad.polygon.representative_point()
         w, s = net.width, self.rules.clearance_mm
-        others = [(p.polygon, p.layers) for p in self.board.pads if p.net != net.name]
-        best = None
+        reach = w / 2 + s + 1e-6
+        pads = self.board.pads
+        if not hasattr(self, "_pad_tree"):
+            self._pad_tree = shapely.STRtree([p.polygon for p in pads])
+        ci = round((anchor.x - g.x0) / g.pitch)
+        cj = round((anchor.y - g.y0) / g.pitch)
+        cands = []
         for li, name in enumerate(self.layers):
             if name not in pad.layers:
                 continue
-            ci = round((anchor.x - g.x0) / g.pitch)
-            cj = round((anchor.y - g.y0) / g.pitch)
-            for j in range(cj - STUB_REACH, cj + STUB_REACH + 1):
-                for i in range(ci - STUB_REACH, ci + STUB_REACH + 1):
-                    if not (0 <= i < g.nx and 0 <= j < g.ny):
-                        continue
+            for j in range(max(cj - STUB_REACH, 0), min(cj + STUB_REACH, g.ny - 1) + 1):
+                for i in range(max(ci - STUB_REACH, 0), min(ci + STUB_REACH, g.nx - 1) + 1):
                     n = (li * g.ny + j) * g.nx + i
-                    if g.node[n] not in (FREE, net.k):
-                        continue
-                    line = LineString([anchor.coords[0], g.xy(n)])
-                    if any(name in lay and line.distance(poly) < w / 2 + s + 1e-6 for poly, lay in others):
-                        continue
-                    if any(lay == name and line.distance(geo) < s + w / 2 + 1e-6
-                           for other, items in taken.items() if other != net.name for lay, geo in items):
-                        continue
-                    key = (line.length, li, j, i)
-                    if best is None or key < best[0]:
-                        best = (key, (name, line))
-        return None if best is None else best[1]
+                    if g.node[n] in (FREE, net.k):
+                        line = LineString([anchor.coords[0], g.xy(n)])
+                        cands.append(((line.length, li, j, i), name, line))
+        for _, name, line in sorted(cands, key=lambda c: c[0]):
+            near = self._pad_tree.query(line, predicate="dwithin", distance=reach)
+            if any(pads[q].net != net.name and name in pads[q].layers and line.distance(pads[q].polygon) < reach
+                   for q in near):
+                continue
+            if any(other != net.name and lay == name and line.distance(geo) < reach
+                   for other, lay, geo in _bucket_near(taken, line.bounds, reach)):
+                continue
+            return name, line
+        return None
 
     # ---------------------------------------------------------------- occupancy
     def claims(self, net: _Net) -> tuple[set[int], set[int]]:
@@ -290,11 +329,28 @@ class _Router:
                     out.append(lj * plane + jj * g.nx + ii)
         return out
 
+    def _spread(self, g: Grid, nodes, offsets, *, same_layer: bool) -> list[int]:
+        """Every node within ``offsets`` of each of ``nodes`` (with repeats: one per pair)."""
+        out: list[int] = []
+        for n in nodes:
+            out.extend(self.around(g, n, offsets, same_layer=same_layer))
+        return out
+
     def commit(self, net: _Net, sign: int) -> None:
         if sign > 0:
             net.core, net.claim = self.claims(net)
+        core_occ = self.core_occ
         for n in net.core:
-            self.core_occ[n] += sign
+            core_occ[n] += sign
+        if net.core:
+            g = net.grid
+            plane = g.nx * g.ny
+            for halo, near in self.near.items():
+                for m in self._spread(g, net.core, halo, same_layer=True):
+                    near[m] += sign
+            via_near = self.via_near
+            for m in self._spread(g, [n % plane for n in net.core], self.via_halo, same_layer=True):
+                via_near[m] += sign
         for n in net.claim:
             self.claim_occ[n] += sign
 
@@ -307,6 +363,9 @@ class _Router:
     def run(self) -> Routing:
         self.setup()
         order = sorted(self.nets, key=lambda n: (_span(n.pads), n.name))
+        plan = self.plan() if self.coarse and self.nets else None
+        if plan is not None:
+            order = [n for n in order if n.name not in plan.open]
         todo = order
         present = PRESENT_START
         rounds = 0
@@ -319,16 +378,44 @@ class _Router:
                 if self.progress:
                     self.progress(f"routing: round {rounds}, {net.name}", min(0.99, (rounds - 1 + idx / len(todo)) / 8))
             bad, involved = self.shared()
-            if not bad or time.monotonic() > self.deadline or any(n.dead for n in self.nets):
+            if not bad or time.monotonic() > self.deadline or (not self.coarse and any(n.dead for n in self.nets)):
                 break   # done, out of time, or a connection has no path at all: negotiating cannot help
             for n in bad:
                 self.hist[n] += HISTORY_STEP
             present *= PRESENT_GROWTH
             todo = [n for n in order if n in involved]
+        for net in self.nets:
+            net.failed = net.failed or not net.tried   # the budget ran out before this net was routed
         congestion = self.resolve(bad)
+        if plan is not None:
+            congestion = tuple(dict.fromkeys(plan.congestion + congestion))[:10]
         return self.result(rounds, congestion)
 
+    def plan(self):
+        """Global routing on tiles: each net's corridor; the nets it leaves open are not routed in detail."""
+        now = time.monotonic()
+        g = self.nets[0].grid
+        tile = TILE_PITCHES
+        ntx, nty = -(-g.nx // tile), -(-g.ny // tile)
+        caph, capv = capacities(g.node, g.ex, g.ey, g.nx, g.ny, len(self.layers), tile)
+        plane = g.nx * g.ny
+        net_tiles = {}
+        for net in sorted(self.nets, key=lambda n: n.name):
+            if net.area or net.dead or any(not t for t in net.terms):
+                continue
+            tiles = [((t[0] % plane) // g.nx // tile) * ntx + (t[0] % g.nx) // tile for t in net.terms]
+            net_tiles[net.name] = list(dict.fromkeys(tiles))
+        plan = plan_corridors(net_tiles, caph, capv, ntx, nty, tile, g.pitch, (g.x0, g.y0),
+                              (PRESENT_START, PRESENT_GROWTH, HISTORY_STEP),
+                              now + COARSE_SHARE * max(self.deadline - now, 0.0), self.progress)
+        for net in self.nets:
+            if net.name in plan.open:
+                net.failed = net.tried = True
+            net.corridor = plan.mask(net.name, g.nx, g.ny)
+        return plan
+
     def reroute(self, net: _Net, present: float) -> None:
+        net.tried = True
         if net.paths or net.vias:
             self.commit(net, -1)
         net.paths, net.vias, net.failed = [], [], net.dead
@@ -353,7 +440,8 @@ class _Router:
             nxt = min(pads, key=lambda q: (min(cents[q].distance(cents[d]) for d in done), q))
             path = self.astar(net, tree, set(net.terms[nxt]), present)
             if path is None:
-                net.failed = net.dead = True
+                net.failed = True
+                net.dead = net.corridor is None   # outside a corridor a path may still exist
                 return
             self.add_path(net, path)
             tree.update(path)
@@ -384,43 +472,35 @@ class _Router:
         g = net.grid
         if targets is not None:
             box = _box(g, sources | targets, WINDOW)
-            path = self._search(net, sources, targets, present, box)
+            path = self._search(net, sources, targets, present, box, net.corridor)
             if path is not None or box == (0, 0, g.nx - 1, g.ny - 1):
                 return path
-        return self._search(net, sources, targets, present, (0, 0, g.nx - 1, g.ny - 1))
+        return self._search(net, sources, targets, present, (0, 0, g.nx - 1, g.ny - 1), net.corridor)
 
-    def _search(self, net, sources, targets, present, box):
+    def _search(self, net, sources, targets, present, box, mask=None):
+        """A* inside ``box`` (and the plane cells ``mask`` marks, when given).
+
+        The inner loop touches flat lists only: owners, history, sharers
+        and the occupancy near each node kept up to date by :meth:`commit`
+        (``self.near``, ``self.via_near``), so one expansion costs a few
+        list reads and at most one heap push per neighbour.
+        """
         g = net.grid
-        nx, ny = g.nx, g.ny
-        plane = nx * ny
+        nx = g.nx
+        plane = nx * g.ny
         nl = len(self.layers)
         node, ex, ey, via = g.node, g.ex, g.ey, g.via
-        hist, claim_occ, core_occ = self.hist, self.claim_occ, self.core_occ
+        hist, claim_occ = self.hist, self.claim_occ
+        near, via_near = self.near[net.halo_key], self.via_near
         k = net.k
         i0, j0, i1, j1 = box
-        if targets is not None:
-            tj = [(t % plane) // nx for t in targets]
+        aim = targets is not None
+        if aim:
             ti = [t % nx for t in targets]
+            tj = [(t % plane) // nx for t in targets]
             ti0, ti1, tj0, tj1 = min(ti), max(ti), min(tj), max(tj)
-        else:
-            ti0 = ti1 = tj0 = tj1 = None
-        prefer = nl - sum(1 for _, layer in self.rules.areas) > 1
-        halo = net.halo
-        via_halo = self.via_halo
-
-        def h(n):
-            if ti0 is None:
-                return 0.0
-            r = n % plane
-            j, i = divmod(r, nx)
-            return (max(ti0 - i, 0, i - ti1) + max(tj0 - j, 0, j - tj1)) * 1.0
-
-        def node_cost(n, step):
-            c = step * (1.0 + hist[n]) * (1.0 + present * claim_occ[n])
-            if halo:
-                c += present * sum(core_occ[m] for m in self.around(g, n, halo, same_layer=True))
-            return c
-
+        hstep, vstep = self.steps
+        heappush, heappop = heapq.heappush, heapq.heappop
         best: dict[int, float] = {}
         parent: dict[int, int] = {}
         heap: list = []
@@ -428,45 +508,65 @@ class _Router:
         for s in sorted(sources):
             best[s] = 0.0
             parent[s] = -1
-            heap.append((h(s), cnt, s, 0.0))
+            if aim:
+                r = s % plane
+                i, j = r % nx, r // nx
+                hv = ((ti0 - i if i < ti0 else (i - ti1 if i > ti1 else 0))
+                      + (tj0 - j if j < tj0 else (j - tj1 if j > tj1 else 0))) * 1.0
+            else:
+                hv = 0.0
+            heap.append((hv, cnt, s, 0.0))
             cnt += 1
         heapq.heapify(heap)
         while heap:
-            _, _, n, gn = heapq.heappop(heap)
+            _, _, n, gn = heappop(heap)
             if gn > best[n] + 1e-12:
                 continue
             li, r = divmod(n, plane)
-            j, i = divmod(r, nx)
-            if targets is None:
-                if via[r] in (FREE, k):
+            if not aim:
+                if via[r] == FREE or via[r] == k:
                     return self._path(parent, n)
             elif n in targets:
                 return self._path(parent, n)
-            horiz_pref = not prefer or li % 2 == 0
-            vert_pref = not prefer or li % 2 == 1
+            j, i = divmod(r, nx)
+            hs, vs = hstep[li], vstep[li]
             moves = []
-            if i + 1 <= i1 and ex[n] in (FREE, k):
-                moves.append((n + 1, 1.0 if horiz_pref else OFF_DIRECTION))
-            if i - 1 >= i0 and ex[n - 1] in (FREE, k):
-                moves.append((n - 1, 1.0 if horiz_pref else OFF_DIRECTION))
-            if j + 1 <= j1 and ey[n] in (FREE, k):
-                moves.append((n + nx, 1.0 if vert_pref else OFF_DIRECTION))
-            if j - 1 >= j0 and ey[n - nx] in (FREE, k):
-                moves.append((n - nx, 1.0 if vert_pref else OFF_DIRECTION))
-            if nl > 1 and via[r] in (FREE, k) and targets is not None:
-                extra = present * sum(core_occ[m] for m in self.around(g, r, via_halo, same_layer=False))
+            if i < i1:
+                o = ex[n]
+                if o == FREE or o == k:
+                    moves.append((n + 1, r + 1, i + 1, j, hs))
+            if i > i0:
+                o = ex[n - 1]
+                if o == FREE or o == k:
+                    moves.append((n - 1, r - 1, i - 1, j, hs))
+            if j < j1:
+                o = ey[n]
+                if o == FREE or o == k:
+                    moves.append((n + nx, r + nx, i, j + 1, vs))
+            if j > j0:
+                o = ey[n - nx]
+                if o == FREE or o == k:
+                    moves.append((n - nx, r - nx, i, j - 1, vs))
+            if nl > 1 and aim and (via[r] == FREE or via[r] == k):
+                step = VIA_COST + present * via_near[r]
                 for lj in range(nl):
                     if lj != li:
-                        moves.append((lj * plane + r, VIA_COST + extra))
-            for m, step in moves:
-                if node[m] not in (FREE, k):
+                        moves.append((lj * plane + r, r, i, j, step))
+            for m, rm, im, jm, step in moves:
+                o = node[m]
+                if (o != FREE and o != k) or (mask is not None and not mask[rm]):
                     continue
-                gm = gn + node_cost(m, step)
+                gm = gn + (step * (1.0 + hist[m]) * (1.0 + present * claim_occ[m]) + present * near[m])
                 if gm < best.get(m, math.inf) - 1e-12:
                     best[m] = gm
                     parent[m] = n
                     cnt += 1
-                    heapq.heappush(heap, (gm + h(m), cnt, m, gm))
+                    if aim:
+                        hv = ((ti0 - im if im < ti0 else (im - ti1 if im > ti1 else 0))
+                              + (tj0 - jm if jm < tj0 else (jm - tj1 if jm > tj1 else 0)))
+                        heappush(heap, (gm + hv, cnt, m, gm))
+                    else:
+                        heappush(heap, (gm, cnt, m, gm))
         return None
 
     @staticmethod
@@ -491,7 +591,8 @@ class _Router:
             _, _, worst = max(counts, key=lambda t: (t[0], t[1]))
             self.commit(worst, -1)
             worst.paths, worst.vias, worst.core, worst.claim, worst.failed = [], [], set(), set(), True
-            bad, _ = self.shared()
+            # dropping a net only frees nodes: what stays shared is a subset (shared() without the full sweep)
+            bad = {n for n in bad if self.core_occ[n] >= 1 and self.claim_occ[n] >= 2}
         return tuple(congestion[:10])
 
     def result(self, rounds: int, congestion) -> Routing:
@@ -567,6 +668,25 @@ def _offsets(radius: float, pitch: float) -> list[tuple[int, int]]:
     r = int(math.ceil(radius / pitch))
     return [(di, dj) for dj in range(-r, r + 1) for di in range(-r, r + 1)
             if (di or dj) and math.hypot(di, dj) * pitch < radius - 1e-9]
+
+
+def _bucket_add(buckets: dict, net: str, layer: str, geo) -> None:
+    """File ``geo`` under every ``STUB_CELL`` square its box touches."""
+    x0, y0, x1, y1 = geo.bounds
+    for cx in range(math.floor(x0 / STUB_CELL), math.floor(x1 / STUB_CELL) + 1):
+        for cy in range(math.floor(y0 / STUB_CELL), math.floor(y1 / STUB_CELL) + 1):
+            buckets.setdefault((cx, cy), []).append((net, layer, geo))
+
+
+def _bucket_near(buckets: dict, bounds, reach: float) -> list:
+    """The geometries filed near ``bounds`` grown by ``reach`` (each once, in filing order)."""
+    x0, y0, x1, y1 = bounds
+    out: dict[int, tuple] = {}
+    for cx in range(math.floor((x0 - reach) / STUB_CELL), math.floor((x1 + reach) / STUB_CELL) + 1):
+        for cy in range(math.floor((y0 - reach) / STUB_CELL), math.floor((y1 + reach) / STUB_CELL) + 1):
+            for item in buckets.get((cx, cy), ()):
+                out.setdefault(id(item[2]), item)
+    return list(out.values())
 
 
 def _span(pads) -> float:

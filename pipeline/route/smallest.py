@@ -2,42 +2,93 @@
 
 Entry point: :func:`smallest_board`.
 
-Method (ours): for each of a few orientations ``ANGLES_DEG`` the usable
-region's bounding rectangle in that orientation is shrunk about the region's
-centroid by a factor ``t`` in (0, 1]; the candidate board is the region cut
-by that rectangle (a plain rectangle wherever the region is convex). Its
-area grows monotonically with ``t``, so a bisection on ``t`` (``STEPS``
-halvings) finds the smallest candidate that places
-(:func:`pipeline.place.place_and_fit` on it as the user's board) and routes
-(:func:`pipeline.route.route_fit`, whose verdict needs the independent
-copper check clean). The search starts at the board whose area equals the
-courtyard sum (nothing smaller can hold the parts) and ends at the whole
-region. The smallest routed board over all orientations wins; ties keep the
-first angle. Deterministic.
+Method: branch and bound over rectangle shapes with a bisection on area
+per shape (ours; bisection: R. L. Burden and J. D. Faires, "Numerical
+analysis", section 2.1; branch and bound: A. H. Land and A. G. Doig,
+Econometrica 28, 1960). A candidate board is a rectangle of a given
+orientation, aspect ratio and area at the best position inside the usable
+region, or the region cut by such a rectangle
+(:func:`pipeline.route.shapes.board_at`). Shapes: every ``ANGLE_STEP_DEG``
+over half a turn, times the aspect ratios ``ASPECTS`` and the region's own
+(its bounding box in that orientation).
 
-Cost: ``len(ANGLES_DEG) x (STEPS + 2)`` placements and routings at most.
+Each candidate passes cheap screens before the expensive routing:
+
+1. area at least the courtyard sum (nothing smaller holds the parts);
+2. the placer without routing and without the improvement pass
+   (:func:`pipeline.place.place_and_fit`): it must place every part;
+3. the RUDY demand estimate (:mod:`pipeline.route.demand`) of that
+   placement: a 90th-percentile demand above ``P90_MAX`` of capacity is
+   hopeless and is not routed;
+4. placement with the improvement pass and routing
+   (:func:`pipeline.route.route_fit`, which spreads the parts while they
+   still place); the board counts only when the independent copper check is
+   clean.
+
+Phase 1 bounds every shape from below: a bisection on area (``PLACE_STEPS``
+halvings of its logarithm) with screen 2 alone gives the least area at
+which the shape places. Phase 2 takes the shapes in order of that bound
+and routes: the first shape that routes at all is bisected on area
+(``ROUTE_STEPS`` halvings, screens 1 to 4); every later shape is first
+tried at ``1 - BEAT`` of the best area so far and bisected only when it
+routes there; a shape whose placement bound is not below that is skipped,
+and so are all after it (branch and bound); only the ``SHAPES_ROUTED``
+shapes with the least bounds are routed at all (a screen that trades
+completeness for time: routing is the expensive step). Phase 3 refines the best
+shape's angle by ``REFINE_DEG`` either side and its aspect by
+``REFINE_ASPECT``, as in phase 2. Deterministic (shapes in a fixed order,
+ties keep the first); the router's own time budget is the one outside
+influence.
+
+Cost: ``shapes x PLACE_STEPS`` placements (about 0.1 s each for 60 parts)
+plus, for the routed shapes, ``ROUTE_STEPS + 1`` route attempts each, an
+attempt being up to ``len(SPREAD_STEPS)`` routings.
 """
 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any, Callable
 
-from shapely import affinity
 from shapely.geometry import Polygon
 
-__all__ = ["smallest_board", "Smallest", "ANGLES_DEG", "STEPS"]
+from .shapes import Shape, board_at
 
-#: Rectangle orientations tried, degrees (a rectangle repeats every 90 deg).
-ANGLES_DEG = (0.0, 30.0, 60.0)
-#: Bisection halvings of the shrink factor per orientation.
-STEPS = 6
+__all__ = ["smallest_board", "search", "Smallest", "shapes_to_try", "ANGLE_STEP_DEG", "ASPECTS", "PLACE_STEPS",
+           "ROUTE_STEPS", "P90_MAX", "BEAT", "SHAPES_ROUTED"]
+
+#: orientation step over half a turn, degrees.
+ANGLE_STEP_DEG = 15.0
+#: aspect ratios tried besides the region's own (long side / short side).
+ASPECTS = (1.0, 1.5, 2.0, 3.0, 4.0)
+#: bisection halvings of log(area) for the placement bound of each shape.
+PLACE_STEPS = 5
+#: bisection halvings of log(area) for the routed area of a shape.
+ROUTE_STEPS = 4
+#: a later shape must beat the best area so far by this share to be tried (our choice).
+BEAT = 0.02
+#: RUDY 90th-percentile demand / capacity above which a placement is not routed (our choice: only the
+#: hopeless; it stopped nothing on the demo and 22 candidates on the 60-part board, bench/README.md).
+P90_MAX = 1.0
+#: phase 2 routes at most this many shapes, those with the least placement bounds (a screen: routing
+#: is the expensive step; our choice).
+SHAPES_ROUTED = 10
+#: phase 3: angle steps either side of the best, degrees, and aspect factors.
+REFINE_DEG = (7.5, 3.75)
+REFINE_ASPECT = (1.25, 1.0 / 1.25)
+
+Progress = Callable[[str, float], None]
 
 
 @dataclass(frozen=True)
 class Smallest:
-    """The search's answer: the board, its fit and routing, and its area against the courtyard sum."""
+    """The search's answer: the board, its fit and routing, and its area against the courtyard sum.
+
+    ``failed_area_mm2`` is the largest area below the answer at the same
+    shape that was tried and did not place and route (0 when none was).
+    ``counts`` says how many candidates each screen stopped.
+    """
 
     fit: Any            # pipeline.model.FitResult on the smallest board
     outcome: Any        # pipeline.route.RouteOutcome
@@ -46,77 +97,198 @@ class Smallest:
     area_mm2: float
     ratio: float        # board area / courtyard sum
     tries: int
-    shrink: float = 1.0       # the shrink factor of the found board
-    failed_shrink: float = 0.0  # the last smaller factor that did not place and route (one step smaller)
+    aspect: float = 1.0
+    mode: str = ""
+    failed_area_mm2: float = 0.0
+    rule_of_thumb_ratio: float = 0.0  # the area estimate's expected board / courtyard sum
+    counts: dict = field(default_factory=dict, compare=False)
+
+    @property
+    def shape(self) -> Shape:
+        return Shape(self.angle_deg, self.aspect)
 
     def to_dict(self) -> dict:
-        return {"method": "region cut by a shrunk rectangle, bisection", "angle_deg": self.angle_deg,
+        return {"method": "branch and bound over rectangle shapes, bisection on area", "angle_deg": self.angle_deg,
                 "area_mm2": round(self.area_mm2, 3), "ratio_to_courtyards": round(self.ratio, 4),
-                "tries": self.tries}
+                "tries": self.tries, "aspect_ratio": round(self.aspect, 4), "shape": self.mode,
+                "rule_of_thumb_ratio": round(self.rule_of_thumb_ratio, 4),
+                "screened": {k: self.counts[k] for k in sorted(self.counts)}}
 
 
-def cut(region: Polygon, angle_deg: float, t: float) -> Polygon:
-    """``region`` cut by its bounding rectangle at ``angle_deg`` shrunk by ``t`` about its centroid."""
-    c = region.centroid
-    turned = affinity.rotate(region, -angle_deg, origin=c)
-    minx, miny, maxx, maxy = turned.bounds
-    cx, cy = (minx + maxx) / 2, (miny + maxy) / 2
-    hw, hh = (maxx - minx) * t / 2, (maxy - miny) * t / 2
-    rect = Polygon([(cx - hw, cy - hh), (cx + hw, cy - hh), (cx + hw, cy + hh), (cx - hw, cy + hh)])
-    board = affinity.rotate(rect, angle_deg, origin=c).intersection(region)
-    if board.geom_type != "Polygon":  # keep the largest piece of a cut that splits the region
-        board = max(getattr(board, "geoms", [Polygon()]), key=lambda g: g.area, default=Polygon())
-    return board if isinstance(board, Polygon) else Polygon()
+def shapes_to_try(region, angle_step: float = ANGLE_STEP_DEG, aspects=ASPECTS) -> list[Shape]:
+    """Every orientation in ``[0, 180)`` by ``angle_step`` times ``aspects`` and the region's own aspect there.
+
+    The region's own aspect at an angle where it is below 1 is the same
+    rectangle as its inverse a quarter turn on, so it is kept only where it
+    is at least 1; an own aspect within 5 % of a listed one is left out.
+    """
+    from shapely import affinity
+
+    out = []
+    for k in range(int(round(180.0 / angle_step))):
+        angle = k * angle_step
+        minx, miny, maxx, maxy = affinity.rotate(region, -angle, origin=region.centroid).bounds
+        own = (maxx - minx) / (maxy - miny) if maxy > miny else 1.0
+        extra = (own,) if own >= 1.0 and all(abs(own / a - 1) > 0.05 for a in aspects) else ()
+        out += [Shape(angle, a) for a in (*aspects, *extra)]
+    return out
+
+
+class _Search:
+    """The screens and the bookkeeping; ``works(shape, area)`` is the whole test of one candidate."""
+
+    def __init__(self, fit, items, region, options, design, library, rules, progress):
+        self.fit, self.items, self.region, self.options = fit, items, region, options
+        self.design, self.library, self.rules, self.progress = design, library, rules, progress
+        self.floor = fit.courtyard_area_mm2
+        self.counts = {"below courtyard sum": 0, "outside region": 0, "does not place": 0, "demand too high": 0,
+                       "routed": 0, "route attempts": 0, "placements": 0}
+        self.tries = 0
+
+    def places(self, shape: Shape, area: float):
+        """Screens 1 and 2: the board and its compact placement, or None."""
+        from ..place import place_and_fit
+
+        self.tries += 1
+        if area < self.floor:
+            self.counts["below courtyard sum"] += 1
+            return None
+        got = board_at(self.region.board_region, shape, area)
+        if got is None or got[0].is_empty:
+            self.counts["outside region"] += 1
+            return None
+        self.counts["placements"] += 1
+        f = place_and_fit(self.items, self.region, self.options, user_board=got[0], improve=False)
+        if not f.fits:
+            self.counts["does not place"] += 1
+            return None
+        return got, f
+
+    def routes(self, shape: Shape, area: float):
+        """All four screens: ``(fit, outcome, board, mode)`` when the board routes, else None."""
+        from ..place import place_and_fit
+        from . import ROUTED, route_fit
+        from .demand import routing_demand
+        from .pads import board_from_placement
+
+        placed = self.places(shape, area)
+        if placed is None:
+            return None
+        (board, mode), f = placed
+        pads = board_from_placement(board, f.placements, self.design, self.library, self.rules.layer_names,
+                                    level=self.options.density)
+        if routing_demand(pads, self.rules).p90 > P90_MAX:
+            self.counts["demand too high"] += 1
+            return None
+        self.counts["route attempts"] += 1
+        f = place_and_fit(self.items, self.region, self.options, user_board=board, improve=True)
+        if not f.fits:
+            self.counts["does not place"] += 1
+            return None
+        f, out = route_fit(f, self.items, self.region, self.options, self.design, self.library, self.rules,
+                           user_board=board)
+        if out.verdict.status != ROUTED:
+            return None
+        self.counts["routed"] += 1
+        return f, out, board, mode
+
+    def place_bound(self, shape: Shape) -> float | None:
+        """Least area (mm^2) found by bisection at which ``shape`` places; None when not even the region does."""
+        lo, hi = self.floor, self.region.board_region.area
+        if self.places(shape, hi) is None:
+            return None
+        if self.places(shape, lo) is not None:
+            return lo
+        for _ in range(PLACE_STEPS):
+            mid = math.sqrt(lo * hi)
+            if self.places(shape, mid) is None:
+                lo = mid
+            else:
+                hi = mid
+        return hi
+
+    def bisect_route(self, shape: Shape, lo: float, hi: float, found):
+        """Bisect log(area) in ``(lo, hi]`` (``found`` routes at ``hi``): the least routed area and the last failure."""
+        failed = 0.0
+        for _ in range(ROUTE_STEPS):
+            mid = math.sqrt(lo * hi)
+            got = self.routes(shape, mid)
+            if got is None:
+                lo = failed = mid
+            else:
+                hi, found = mid, got
+        return hi, found, failed
 
 
 def smallest_board(fit, items, region, options, design, library, rules, *,
-                   progress: Callable[[str, float], None] | None = None) -> Smallest | None:
-    """Search the smallest board inside ``region.board_region`` that places and routes.
+                   progress: Progress | None = None) -> Smallest | None:
+    """Search the smallest board inside ``region.board_region`` that places and routes (method: module notes).
 
     ``fit`` is the compact fit on the whole region (its courtyard sum is the
-    lower bound). Returns None when no candidate routes (not even the whole
+    lower bound, its area estimate the rule of thumb reported beside the
+    answer). Returns None when no candidate routes (not even the whole
     region).
     """
-    from ..place import place_and_fit
-    from . import ROUTED, route_fit
-
-    whole = region.board_region
-    floor = fit.courtyard_area_mm2
-    best: Smallest | None = None
-    tries = 0
-
-    def attempt(angle: float, t: float):
-        nonlocal tries
-        tries += 1
-        board = cut(whole, angle, t)
-        if board.is_empty or board.area < floor:
-            return None
-        f = place_and_fit(items, region, options, user_board=board, improve=True)
-        if not f.fits:
-            return None
-        f, out = route_fit(f, items, region, options, design, library, rules, user_board=board)
-        return (f, out, board) if out.verdict.status == ROUTED else None
-
-    for k, angle in enumerate(ANGLES_DEG):
-        if progress is not None:
-            progress(f"smallest board: orientation {angle:g} deg", k / len(ANGLES_DEG))
-        minx, miny, maxx, maxy = affinity.rotate(whole, -angle, origin=whole.centroid).bounds
-        lo, hi = math.sqrt(floor / ((maxx - minx) * (maxy - miny))), 1.0  # cut area <= t^2 x rectangle
-        found = attempt(angle, hi)
-        if found is None:
-            continue
-        for _ in range(STEPS):
-            mid = (lo + hi) / 2
-            got = attempt(angle, mid)
-            if got is None:
-                lo = mid
-            else:
-                hi, found = mid, got
-        f, out, board = found
-        if best is None or board.area < best.area_mm2 - 1e-9:
-            best = Smallest(f, out, board, angle, board.area, board.area / floor if floor > 0 else math.inf, 0,
-                            hi, lo)
+    s = _Search(fit, items, region, options, design, library, rules, progress)
+    best = search(s)
     if best is None:
         return None
-    from dataclasses import replace
-    return replace(best, tries=tries)
+    shape, area, (f, out, board, mode), failed = best
+    if progress is not None:
+        progress("smallest board: done", 1.0)
+    est = fit.estimate.expected_mm2 / s.floor if s.floor > 0 else math.inf
+    return Smallest(f, out, board, shape.angle_deg, board.area, board.area / s.floor if s.floor > 0 else math.inf,
+                    s.tries, shape.aspect, mode, failed, est, dict(s.counts))
+
+
+def search(s: "_Search"):
+    """Phases 1 to 3 (module notes) over ``s`` (its ``places`` and ``routes`` screens).
+
+    Returns ``(shape, area, found, failed_area)`` for the smallest routed
+    board (``found`` is what ``s.routes`` returned), or None.
+    """
+    shapes = shapes_to_try(s.region.board_region)
+    bounds = []
+    for k, shape in enumerate(shapes):
+        if s.progress is not None:
+            s.progress(f"smallest board: placement bound {k + 1}/{len(shapes)}", 0.5 * k / len(shapes))
+        b = s.place_bound(shape)
+        if b is not None:
+            bounds.append((b, k, shape))
+    bounds.sort()
+    best = _route_phase(s, [(b, sh) for b, _, sh in bounds[:SHAPES_ROUTED]], None, 0.5, 0.4)
+    if best is None:
+        return None
+    refined = []
+    for d in REFINE_DEG:
+        refined += [Shape((best[0].angle_deg + sign * d) % 180.0, best[0].aspect) for sign in (-1, 1)]
+    refined += [Shape(best[0].angle_deg, max(1.0, best[0].aspect * f)) for f in REFINE_ASPECT]
+    fresh = []
+    for shape in dict.fromkeys(refined):
+        b = s.place_bound(shape)
+        if b is not None:
+            fresh.append((b, shape))
+    return _route_phase(s, sorted(fresh, key=lambda t: t[0]), best, 0.9, 0.1)
+
+
+def _route_phase(s: _Search, bounds, best, start: float, span: float):
+    """Phase 2/3: route the shapes in order of their placement bound; ``best`` is (shape, area, found, failed)."""
+    for k, (bound, shape) in enumerate(bounds):
+        if s.progress is not None:
+            s.progress(f"smallest board: routing shape {k + 1}/{len(bounds)}", start + span * k / max(len(bounds), 1))
+        if best is None:
+            top = s.region.board_region.area
+            got = s.routes(shape, top)
+            if got is None:
+                continue
+            area, found, failed = s.bisect_route(shape, bound, top, got)
+            best = (shape, area, found, failed)
+            continue
+        target = best[1] * (1.0 - BEAT)
+        if bound >= target:
+            break  # every later shape places only on a board at least this large
+        got = s.routes(shape, target)
+        if got is not None:
+            area, found, failed = s.bisect_route(shape, bound, target, got)
+            best = (shape, area, found, failed)
+    return best

@@ -1,0 +1,117 @@
+"""Tests of the smallest-board search (pipeline.route.smallest) and its candidate boards (pipeline.route.shapes)."""
+
+from __future__ import annotations
+
+import math
+
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from shapely import affinity
+from shapely.geometry import LineString, box
+
+from pipeline.model import HeightZone, Region
+from pipeline.route import smallest
+from pipeline.route.shapes import CUT, INSIDE, Shape, board_at, erode_box
+
+
+def _region(geom) -> Region:
+    return Region(geom, (HeightZone(geom, 4.0),), 0.8)
+
+
+class _Oracle(smallest._Search):
+    """The search with a closed-form test in place of placing and routing: ``ok(board)``."""
+
+    def __init__(self, geom, floor, ok):
+        self.region, self.floor, self.ok = _region(geom), floor, ok
+        self.progress, self.tries, self.counts = None, 0, {}
+
+    def places(self, shape, area):
+        self.tries += 1
+        got = board_at(self.region.board_region, shape, area) if area >= self.floor else None
+        return (got, None) if got is not None and self.ok(got[0]) else None
+
+    def routes(self, shape, area):
+        placed = self.places(shape, area)
+        return None if placed is None else (None, None, placed[0][0], placed[0][1])
+
+
+# ---------------------------------------------------------------- the erosion (closed forms)
+def test_erosion_of_a_rectangle_by_a_box_is_the_rectangle_shrunk_by_half_the_box():
+    # Minkowski difference of axis-aligned boxes: [a, b] (-) [-w/2, w/2] = [a + w/2, b - w/2] (closed form)
+    got = erode_box(box(0, 0, 10, 6), 4.0, 2.0)
+    assert got.symmetric_difference(box(2, 1, 8, 5)).area < 1e-9
+
+
+def test_erosion_grows_a_hole_by_half_the_box():
+    # a 2 x 2 box centred within 1 of a hole's edge overlaps the hole: the hole grows by 1 each way (closed form)
+    region = box(0, 0, 10, 10).difference(box(4, 4, 6, 6))
+    got = erode_box(region, 2.0, 2.0)
+    assert got.symmetric_difference(box(1, 1, 9, 9).difference(box(3, 3, 7, 7))).area < 1e-9
+    assert got.area == pytest.approx(64 - 16)
+
+
+def test_no_centre_when_the_box_is_wider_than_the_region():
+    assert erode_box(box(0, 0, 10, 6), 4.0, 7.0).is_empty
+
+
+# ---------------------------------------------------------------- candidate boards
+@settings(max_examples=60, deadline=None)
+@given(angle=st.sampled_from([0.0, 15.0, 30.0, 45.0, 60.0, 75.0, 90.0, 135.0]), aspect=st.floats(1.0, 6.0),
+       share=st.floats(0.05, 1.0))
+def test_every_candidate_board_lies_inside_the_region_and_holds_the_area(angle, aspect, share):
+    region = box(0, 0, 20, 20).difference(box(10, 10, 20, 20)).union(box(2, 20, 6, 24))  # an L with a tab
+    got = board_at(region, Shape(angle, aspect), share * region.area)
+    assert got is not None
+    board, mode = got
+    assert region.buffer(1e-7).contains(board)                      # shapely containment
+    assert board.area >= share * region.area * (1 - 1e-6)           # the cut is grown until it holds the area
+    if mode == INSIDE:  # a whole rectangle: area and sides as asked (closed form w = sqrt(A a), h = sqrt(A / a))
+        assert board.area == pytest.approx(share * region.area, rel=1e-6)
+        rect = affinity.rotate(board, -angle, origin=board.centroid)
+        minx, miny, maxx, maxy = rect.bounds
+        assert (maxx - minx) == pytest.approx(math.sqrt(board.area * aspect), rel=1e-6)
+
+
+def test_no_board_larger_than_the_region():
+    assert board_at(box(0, 0, 10, 10), Shape(0.0, 1.0), 100.5) is None
+
+
+# ---------------------------------------------------------------- the search on closed-form cases
+def test_the_search_finds_the_rotation_of_a_long_thin_region():
+    # a 40 x 4 strip turned by 30 deg; a board works when it holds the strip's 30 mm centre segment.
+    # The least rectangle holding a segment of length L along its long side, aspect a, has area L^2 / a
+    # (closed form); at 0 deg the segment needs 26 x 15 mm, more than the strip gives.
+    strip = affinity.rotate(box(0, 0, 40, 4), 30.0, origin=(0, 0))
+    c = strip.centroid
+    seg = affinity.rotate(LineString([(c.x - 15, c.y), (c.x + 15, c.y)]), 30.0, origin=c)
+    s = _Oracle(strip, 40.0, lambda b: b.buffer(1e-6).contains(seg))
+    shape, area, (_, _, board, mode), _failed = smallest.search(s)
+    assert abs((shape.angle_deg - 30.0 + 90) % 180 - 90) <= smallest.REFINE_DEG[0]
+    assert board.buffer(1e-6).contains(seg) and strip.buffer(1e-7).contains(board)
+    own = 10.0  # the strip's own aspect at 30 deg: 40 / 4
+    assert board.area <= 1.1 * 30.0 ** 2 / own  # at most the bisections' resolution above the closed form
+    assert board.area >= 30.0 ** 2 / (own * smallest.REFINE_ASPECT[0]) * (1 - 1e-6)
+
+
+def test_the_cut_beats_every_inscribed_rectangle_in_a_notched_region():
+    # an L: 20 x 20 less a 10 x 10 corner notch, 300 mm2; its largest axis-aligned inscribed rectangle is
+    # 20 x 10 = 200 mm2 (closed form). A board works when its area is at least 240 mm2: no rectangle inside does.
+    ell = box(0, 0, 20, 20).difference(box(10, 10, 20, 20))
+    s = _Oracle(ell, 240.0, lambda b: True)
+    shape, area, (_, _, board, mode), _failed = smallest.search(s)
+    assert mode == CUT and ell.buffer(1e-7).contains(board)
+    assert 240.0 * (1 - 1e-6) <= board.area <= 240.0 * 1.1
+    for sh in smallest.shapes_to_try(ell):  # no rectangle of any shape tried holds 240 mm2 inside the L
+        w, h = sh.sides(240.0)
+        assert erode_box(affinity.rotate(ell, -sh.angle_deg, origin=ell.centroid), w, h).is_empty
+
+
+def test_the_search_is_deterministic():
+    ell = box(0, 0, 20, 20).difference(box(10, 10, 20, 20))
+    runs = [smallest.search(_Oracle(ell, 150.0, lambda b: b.area >= 150.0)) for _ in range(2)]
+    assert runs[0][0] == runs[1][0] and runs[0][2][2].equals(runs[1][2][2])
+
+
+def test_nothing_found_when_nothing_works():
+    assert smallest.search(_Oracle(box(0, 0, 10, 10), 50.0, lambda b: False)) is None
