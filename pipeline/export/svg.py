@@ -70,6 +70,7 @@ _PAPER = "#ffffff"
 _KEEPOUT_FILL = "#e9e9e6"
 _KEEPOUT_LINE = "#6d6d69"
 _REGION_LINE = "#1d7f6e"  # usable region, dashed
+_ENTRY_LINE = "#7a4fb3"  # wire-entry zone, dotted
 _BOARD_LINE = "#143a52"
 _TOP = "#2f4f9e"  # top-side courtyards
 _BOTTOM = "#8a3f8f"  # bottom-side courtyards, dashed
@@ -185,7 +186,7 @@ def fit_svg(cavity: Cavity, region: Region, fit: FitResult, *, title: str = "",
     top = -maxy - (_MARGIN + head_h) * u
     legend_x = maxx + _GAP * u
     legend_lines = _legend(depths, colour_of, float(region.thickness_mm), placements, skipped, unplaced, s,
-                           bool(pads), routing)
+                           bool(pads), routing, entry=region.wire_entry is not None)
     bottom = max(-miny + (_MARGIN + _FOOT_H) * u,
                  top + (head_h + 2 * _MARGIN + _legend_height(legend_lines)) * u)
     right = max(legend_x + (_LEGEND_W + _MARGIN) * u, left + (2 * _MARGIN + _header_width(head)) * u)
@@ -260,6 +261,11 @@ def _ground(cavity: Cavity, region: Region, board, colour_of: dict, u: float) ->
         out.append("</g>")
     out.append(f'<path class="cavity-outline" d="{_path_d(cavity.outline)}" fill="none" '
                f'stroke="{_INK}" stroke-width="{_f(_W_THICK * u)}" stroke-linejoin="round"/>')
+    entry = _path_d(_clip(region.wire_entry, cavity.outline)) if region.wire_entry is not None else ""
+    if entry:
+        out.append(f'<path class="wire-entry" d="{entry}" fill="{_ENTRY_LINE}" fill-opacity="0.15" '
+                   f'stroke="{_ENTRY_LINE}" stroke-width="{_f(_W_MID * u)}" stroke-dasharray="{_f(0.5 * u)} '
+                   f'{_f(0.5 * u)}"><title>wire-entry zone</title></path>')
     d = _path_d(region.board_region)
     if d:
         out.append(f'<path class="usable-region" d="{d}" fill="none" fill-rule="evenodd" stroke="{_REGION_LINE}" '
@@ -809,7 +815,7 @@ def _wrap(words: Sequence[str], width: int) -> list[str]:
 
 
 def _legend(depths, colour_of, thickness, placements, skipped, unplaced, s, pads: bool = False,
-            routing=None) -> list[tuple]:
+            routing=None, entry: bool = False) -> list[tuple]:
     rows: list[tuple] = [("head", "Legend", None)]
     rows.append(("cavity", "cavity outline", None))
     for d in depths:  # shallowest (darkest) first
@@ -818,6 +824,8 @@ def _legend(depths, colour_of, thickness, placements, skipped, unplaced, s, pads
         rows.append(("depth", f"{_mm(d)} mm deep \u00b7 {tail}", colour_of[d]))
     rows.append(("keepout", "keep-out", None))
     rows.append(("region", "usable board region", None))
+    if entry:
+        rows.append(("entry", "wire-entry zone", None))
     rows.append(("board", "board outline", None))
     rows.append(("top", "part courtyard, top side", None))
     if any(p.side == "bottom" for p in placements):
@@ -880,6 +888,9 @@ def _swatch(kind: str, extra, x: float, y: float, u: float) -> str:
         )
     if kind == "board":
         return f'<line {line} stroke="{_BOARD_LINE}" stroke-width="{_f(_W_BOARD * u)}"/>'
+    if kind == "entry":
+        return (f'<rect {box} fill="{_ENTRY_LINE}" fill-opacity="0.15" stroke="{_ENTRY_LINE}" '
+                f'stroke-width="{_f(_W_MID * u)}" stroke-dasharray="{_f(0.5 * u)} {_f(0.5 * u)}"/>')
     if kind == "top":
         return (
             f'<rect {box} fill="{_TOP}" fill-opacity="0.20" stroke="{_TOP}" stroke-width="{_f(_W_LINE * u)}"/>'
