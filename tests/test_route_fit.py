@@ -65,8 +65,16 @@ def _run(monkeypatch, budget_s, open_counts, clock_step=0.0, places=lambda items
 def test_first_placement_that_routes_wins(monkeypatch):
     calls, out = _run(monkeypatch, 60.0, [3, 2, 0, 0, 0, 0])
     assert len(calls) == 3 and out.verdict.status == ROUTED
-    # the third attempt is the second pin-side step: the 0603 grew by that many pitches (0.4 mm each)
-    assert out.verdict.spread_mm == pytest.approx(PIN_STEPS[1] * CopperRules().pitch_mm)
+    # the third attempt is the second uniform step: every courtyard grew by that many pitches (0.4 mm each)
+    assert out.verdict.spread_mm == pytest.approx(SPREAD_STEPS[2] * CopperRules().pitch_mm)
+
+
+def test_pin_side_steps_follow_the_uniform_ones(monkeypatch):
+    counts = [9] * len(SPREAD_STEPS) + [0] + [9] * (len(PIN_STEPS) - 1)
+    calls, out = _run(monkeypatch, 60.0, counts)
+    assert len(calls) == len(SPREAD_STEPS) + 1 and out.verdict.status == ROUTED
+    # the first pin-side step: the 0603 grew in length only (its pads lie along x), by one step of pitches
+    assert out.verdict.spread_mm == pytest.approx(PIN_STEPS[0] * CopperRules().pitch_mm)
 
 
 def test_fewest_open_nets_kept_when_nothing_routes(monkeypatch):
@@ -77,11 +85,10 @@ def test_fewest_open_nets_kept_when_nothing_routes(monkeypatch):
 
 
 def test_a_sequence_stops_where_it_no_longer_places(monkeypatch):
-    # the fake placer refuses every pin-side growth (length grown, width not): the loop goes on to the
-    # uniform steps instead of giving up
-    calls, out = _run(monkeypatch, 60.0, [4] * ATTEMPTS,
-                      places=lambda items: not (items[0].length_mm > 1.0 and items[0].width_mm == 0.5))
-    assert len(calls) == 1 + len(SPREAD_STEPS) - 1
+    # the fake placer refuses every uniform growth (width grown): the loop goes on to the pin-side steps
+    # (which grow a 0603 in length only) instead of giving up
+    calls, out = _run(monkeypatch, 60.0, [4] * ATTEMPTS, places=lambda items: items[0].width_mm == 0.5)
+    assert len(calls) == 1 + len(PIN_STEPS)
     assert out.verdict.spread_mm == 0.0     # the compact fit kept (ties keep the first)
 
 

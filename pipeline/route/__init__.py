@@ -29,7 +29,7 @@ ROUTED, OPEN, SKIPPED = "routed", "open", "skipped"
 #: room added around every courtyard (in routing pitches, to its length and to its width) when the
 #: compact placement does not route: tried in this order, first that routes wins (our choice).
 SPREAD_STEPS = (0, 1, 2, 3, 4, 6)
-#: pitches added across each part's pin rows (pin-side inflation, pipeline/route/inflate.py), tried before
+#: pitches added across each part's pin rows (pin-side inflation, pipeline/route/inflate.py), tried after
 #: the uniform steps (our choice: on the demo it routes boards of 1.6 and 1.7 x the courtyard sum that
 #: uniform growth does not place, bench/README.md).
 PIN_STEPS = (1, 2, 3, 4)
@@ -136,9 +136,10 @@ def route_fit(fit, items, region, options, design, library, rules: CopperRules, 
     (:func:`pipeline.place.place_and_fit`, unchanged) places grown
     courtyards and each placement is routed; the first that routes wins,
     else the one with fewest open nets (:func:`spread_attempts` gives the
-    order: the compact fit, then pin-side inflation by ``PIN_STEPS``
-    pitches (:mod:`.inflate`: room only on the sides facing the pins), then
-    uniform growth by ``SPREAD_STEPS`` pitches as the fallback). A sequence stops at its first
+    order: the compact fit, uniform growth by ``SPREAD_STEPS`` pitches,
+    then pin-side inflation by ``PIN_STEPS`` pitches (:mod:`.inflate`: room
+    only on the sides facing the pins), which still places where uniform
+    growth no longer does). A sequence stops at its first
     placement that does not place (larger growth places no better). A grown
     courtyard placed legally holds the true one at its centre, so the true
     placement is legal too. Returns ``(fit, RouteOutcome)`` with the fit
@@ -186,23 +187,28 @@ def route_fit(fit, items, region, options, design, library, rules: CopperRules, 
 def spread_attempts(items, library, level: str, pitch_mm: float):
     """The placements route_fit tries, in order: ``(kind, grown items or None for the compact fit)``.
 
-    Kinds: ``"compact"``, ``"pins"`` (:func:`pipeline.route.inflate.inflate`
-    across the pin rows by each of ``PIN_STEPS`` pitches) and ``"uniform"``
-    (every courtyard grown by ``SPREAD_STEPS`` pitches in length and
-    width). Lazy: the grown items are built when asked.
+    Kinds: ``"compact"``, ``"uniform"`` (every courtyard grown by
+    ``SPREAD_STEPS`` pitches in length and width) and ``"pins"``
+    (:func:`pipeline.route.inflate.inflate` across the pin rows by each of
+    ``PIN_STEPS`` pitches). Uniform growth comes first because on the
+    60-part board of bench/bench_route.py pin-side placements left more
+    nets open and, tried first, spent the time budget; pin-side growth adds
+    about half the area, so it still places on the tight boards where
+    uniform growth stops (the demo at 1.6 and 1.7 x the courtyard sum).
+    Lazy: the grown items are built when asked.
     """
     import dataclasses
 
     from .inflate import inflate, pin_axes
 
     yield "compact", None
-    axes = pin_axes(items, library, level)
-    for s in PIN_STEPS:
-        yield "pins", inflate(items, axes, s, pitch_mm)
     for step in SPREAD_STEPS[1:]:
         m = step * pitch_mm
         yield "uniform", tuple(dataclasses.replace(it, length_mm=it.length_mm + m, width_mm=it.width_mm + m)
                                for it in items)
+    axes = pin_axes(items, library, level)
+    for s in PIN_STEPS:
+        yield "pins", inflate(items, axes, s, pitch_mm)
 
 
 def _growth(grown, items) -> float:
