@@ -61,9 +61,10 @@ def _new(version: str = "R2010", unit: int | None = units.MM):
 
 def controller_bay():
     """The demo controller's accessory bay: a 28 x 17 mm pocket, corner radius 3 mm,
-    two 4 mm screw bosses and a 3.5 mm wide lid rib (depth 2.0 mm) across it."""
+    two 4 mm screw bosses, a 3.5 mm wide lid rib (depth 2.0 mm) across it, and
+    where the wires come in: through a gap in the lower wall, x 4 to 10 mm."""
     doc, msp = _new()
-    for name in ("CAVITY", "KEEPOUT", "DEPTH-2.0"):
+    for name in ("CAVITY", "KEEPOUT", "DEPTH-2.0", "WIRE-ENTRY"):
         doc.layers.add(name)
     msp.add_lwpolyline(rounded_rect(0, 0, 28, 17, 3), format="xyb", close=True,
                        dxfattribs={"layer": "CAVITY"})
@@ -71,6 +72,8 @@ def controller_bay():
     msp.add_circle((23.5, 4.5), 2.0, dxfattribs={"layer": "KEEPOUT"})
     # the rib runs across the whole lid, so it is drawn past the walls
     msp.add_lwpolyline(rect(12.5, -1, 16, 18), close=True, dxfattribs={"layer": "DEPTH-2.0"})
+    # the wires come through the lower wall: the zone straddles it
+    msp.add_lwpolyline(rect(4, -1, 10, 2.5), close=True, dxfattribs={"layer": "WIRE-ENTRY"})
     return doc
 
 

@@ -104,7 +104,8 @@ def items_from_design(design: Design, library, density: str,
             package=pkg.name,
             fixed=part.fixed,
         ))
-    return tuple(items)
+    from .place_rules import attach_rules  # where parts must sit (edge, near)
+    return attach_rules(items, design, library, density)
 
 
 def estimate_area(items: Sequence[PlaceItem], layers: int) -> AreaEstimate:

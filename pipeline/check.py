@@ -42,7 +42,7 @@ from .graph import part_node, pin_count, pin_nets, pins_on_net, unconnected_pins
 from .model import Design, Finding
 from .order import natural_key
 
-__all__ = ["check_connections", "CHECKS"]
+__all__ = ["check_connections", "CHECKS", "decoupling_caps"]
 
 Check = Callable[[Design, nx.MultiGraph, Mapping[str, str]], list[Finding]]
 
@@ -141,14 +141,34 @@ def _supply_nets(g: nx.MultiGraph, ref: str, pins) -> tuple[list[str], list[str]
     return supply, on
 
 
-def check_supplies(design: Design, g: nx.MultiGraph, cat: Mapping[str, str]) -> list[Finding]:
-    out = []
+def decoupling_caps(design: Design, g: nx.MultiGraph, cat: Mapping[str, str]) -> dict[str, tuple[str, ...]]:
+    """The decoupling rule, written once: IC ref -> capacitors across two of its supply nets.
+
+    Common practice (REFERENCES.md section 7): a capacitor with one pin on
+    each of two of the IC's supply nets decouples it. Only ICs with two or
+    more supply pins on two or more nets are keys; caps in design order.
+    Cost O(ICs x caps).
+    """
     caps = [p for p in design.parts if p.kind in ("capacitor", "capacitor-polarized")]
     cap_nets = []
     for c in caps:
         nets = [ns[0] for ns in pin_nets(g, c.ref).values() if ns]
         if len(nets) == 2 and nets[0] != nets[1]:
             cap_nets.append((c.ref, frozenset(nets)))
+    out: dict[str, tuple[str, ...]] = {}
+    for p in design.parts:
+        if cat.get(p.kind) != "ic":
+            continue
+        supply, nets = _supply_nets(g, p.ref, p.pins)
+        if len(supply) >= 2 and len(nets) >= 2:
+            pairs = {frozenset(pair) for pair in combinations(nets, 2)}
+            out[p.ref] = tuple(ref for ref, cn in cap_nets if cn in pairs)
+    return out
+
+
+def check_supplies(design: Design, g: nx.MultiGraph, cat: Mapping[str, str]) -> list[Finding]:
+    out = []
+    decoupled = decoupling_caps(design, g, cat)
     for p in design.parts:
         if cat.get(p.kind) != "ic":
             continue
@@ -161,8 +181,7 @@ def check_supplies(design: Design, g: nx.MultiGraph, cat: Mapping[str, str]) -> 
                                f"{p.ref} ({p.kind}) has its supply pins {where}: "
                                "its positive and ground supply must be on two different nets."))
             continue
-        pairs = {frozenset(pair) for pair in combinations(nets, 2)}
-        if not any(cn in pairs for _, cn in cap_nets):
+        if not decoupled.get(p.ref):
             out.append(Finding("warning", "connect.no-decoupling", (p.ref, *nets),
                                f"{p.ref} ({p.kind}) has no capacitor across its supply nets ({', '.join(nets)}): "
                                "common practice is a 100 nF ceramic close to its supply pins."))

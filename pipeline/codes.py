@@ -130,6 +130,10 @@ CODES: dict[str, Code] = {
     "fit.bottom-side": _c("info", "parts placed on the bottom side"),
     "fit.self-check": _c("warning", "the placement self-check rejected parts; they are reported as unplaced"),
     "fit.no-cavity": _c("info", "no cavity drawing given: the fit was not checked"),
+    "place.rule-unmet": _c("warning", "a part is not where a default placement rule wants it (a decoupling "
+                                      "capacitor too far from its IC's supply pins, a wire pad or connector "
+                                      "off the edge by the wire entry); a near rule the design asks for "
+                                      "blocks the fit instead"),
     # routing (pipeline/route/, pipeline/verdict.py)
     "route.open": _c("error", "nets the router could not complete on this board"),
     "route.routed": _c("info", "every connection routed and the independent copper check is clean"),

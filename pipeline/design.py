@@ -32,7 +32,7 @@ from .blocktables import OLD_TABLE, TABLE, block_tables
 from .errors import DesignError, Where
 from .library.custom import package_from_table
 from .library.kinds import CATEGORIES
-from .model import Package, OLD_PIN_ROLES, PIN_ROLES, Design, Finding, Fixed, Net, Part, PartKind, PinDef, PinRef, RawTable
+from .model import Package, OLD_PIN_ROLES, PIN_ROLES, Ask, Design, Finding, Fixed, Net, Part, PartKind, PinDef, PinRef, RawTable
 from .tomlsrc import TomlSource, load
 
 __all__ = ["read_design", "read_design_text", "KIND_CATEGORIES"]
@@ -44,6 +44,7 @@ _DESIGN_KEYS = ("name", "revision", "note")
 _PART_KEYS = (
     "kind", "value", "package", "tolerance", "rating", "manufacturer", "mpn",
     "note", "dnp", "supplier", "order_code", "description", "height_mm", "at", "rotation", "side",
+    "near", "within_mm", "at_edge",
 )
 _PASSTHROUGH = ("supplier", "order_code", "description")
 _KIND_KEYS = ("category", "package", "pins", "description", "value_unit", "board_feature")
@@ -153,6 +154,7 @@ def _read(src: TomlSource, library: Any) -> tuple[Design, list[Finding]]:
         raise _err(src, "parts", "the design has no parts: add [parts.REF] tables")
     parts = tuple(_read_part(src, ref, body, lib, default_pkgs) for ref, body in parts_tbl.items())
     by_ref = {p.ref: p for p in parts}
+    _check_near(src, parts, by_ref)
     warnings.extend(_height_notes(parts, lib))
 
     nets_tbl = _expect_table(src, "nets", data.get("nets", {}))
@@ -324,7 +326,7 @@ def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dic
         raise _err(src, f"{key}.height_mm", f"height_mm must be a number of millimetres above 0, "
                                             f"got {height!r}")
     return Part(
-        fixed=_read_fixed(src, key, body),
+        fixed=_read_fixed(src, key, body), ask=_read_ask(src, key, body),
         ref=ref, kind=kind.name, package=package.name, pins=pins, value=value, value_text=value_text,
         tolerance=tol, tolerance_text=tol_text, rating_v=rv, rating_w=rw, rating_text=rating_text,
         manufacturer=_expect_str(src, f"{key}.manufacturer", body.get("manufacturer", "")),
@@ -357,6 +359,38 @@ def _resolve_pin(src: TomlSource, key: str, text: str, by_ref: dict[str, Part]) 
         raise _err(src, key, f"{part.ref} has several pins named '{pin}' (numbers {', '.join(named)}): use the number", ref=text)
     choices = ", ".join(f"{p.number} {p.name}" if p.name != p.number else p.number for p in part.pins)
     raise _err(src, key, f"{part.ref} ({part.kind}, {part.package}) has no pin '{pin}'; its pins are: {choices}", ref=text)
+
+
+def _read_ask(src: TomlSource, key: str, body: dict) -> Ask | None:
+    """``near = "U3"`` with ``within_mm``, ``at_edge``: where the placer should put the part."""
+    if not any(k in body for k in ("near", "within_mm", "at_edge")):
+        return None
+    near = _expect_str(src, f"{key}.near", body.get("near", ""))
+    within = body.get("within_mm")
+    if within is not None and (isinstance(within, bool) or not isinstance(within, (int, float))
+                               or not math.isfinite(within) or within <= 0):
+        raise _err(src, f"{key}.within_mm", f"within_mm must be a number of millimetres above 0, got {within!r}")
+    if within is not None and not near:
+        raise _err(src, f"{key}.within_mm", "within_mm goes with near = \"REF\" (the part to sit near)")
+    edge = body.get("at_edge")
+    if edge is not None and not isinstance(edge, bool):
+        raise _err(src, f"{key}.at_edge", f"at_edge must be true or false, not {edge!r}")
+    return Ask(near, None if within is None else float(within), edge, src.display, src.line(key) or 0)
+
+
+def _check_near(src: TomlSource, parts: tuple[Part, ...], by_ref: dict[str, Part]) -> None:
+    """Every ``near`` names another fitted part of the design."""
+    for p in parts:
+        if p.ask is None or not p.ask.near:
+            continue
+        key = f"parts.{p.ref}.near"
+        other = by_ref.get(p.ask.near)
+        if other is None:
+            raise _err(src, key, f"near names {p.ask.near!r}, which is not a part of the design")
+        if other.ref == p.ref:
+            raise _err(src, key, "near names the part itself: name the part it should sit beside")
+        if other.dnp and not p.dnp:
+            raise _err(src, key, f"near names {other.ref}, which is not fitted (dnp)")
 
 
 def _read_fixed(src: TomlSource, key: str, body: dict) -> Fixed | None:

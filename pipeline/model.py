@@ -229,6 +229,45 @@ class Fixed:
     line: int = 0
 
 
+@dataclass(frozen=True)
+class Ask:
+    """Where the user asks a part to sit (design keys ``near``, ``within_mm``, ``at_edge``; issue 8).
+
+    ``near``: the ref of the part whose pins this one should sit near ("" for
+    none), ``within_mm`` the distance asked (None: the default of
+    :mod:`pipeline.place_rules`); ``at_edge`` False keeps a wire pad or
+    connector off the board edge, True sends any part there, None leaves it to
+    the part's kind. ``file`` and ``line`` locate the part for messages.
+    """
+
+    near: str = ""
+    within_mm: float | None = None
+    at_edge: bool | None = None
+    file: str = ""
+    line: int = 0
+
+
+@dataclass(frozen=True)
+class NearRule:
+    """A placement rule: one of this item's pads within ``within_mm`` of one of ``target``'s ``pins``.
+
+    Distances are between pad centres, mm (:mod:`pipeline.place_rules`).
+    ``own_package`` / ``target_package`` give the pads; ``level`` the density
+    level. ``why`` is ``"near"`` (the design asked) or ``"decoupling"``
+    (a capacitor the connection check pairs with the target's supply pins).
+    """
+
+    target: str
+    pins: tuple[str, ...]
+    within_mm: float
+    why: str
+    own_package: "Package" = field(compare=False, repr=False)
+    target_package: "Package" = field(compare=False, repr=False)
+    level: str = "nominal"
+    file: str = ""
+    line: int = 0
+
+
 @dataclass(frozen=True, order=True)
 class PinRef:
     """A connected pin: part ref and pin number (text). ``str()`` is ``REF.PIN``."""
@@ -273,6 +312,7 @@ class Part:
     #: capacitor is thicker than the package default); ``None``: by kind and package.
     height_mm: float | None = None
     fixed: Fixed | None = None
+    ask: Ask | None = None
 
     @cached_property
     def _pin_index(self) -> dict[str, PinDef]:
@@ -433,6 +473,8 @@ class Cavity:
     unit_name: str
     mm_per_unit: float
     mounts: tuple[MountMark, ...] = ()
+    #: Where wires enter the cavity (layer role WIRE-ENTRY, mm), as drawn.
+    wire_entries: tuple[BaseGeometry, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -494,6 +536,8 @@ class Region:
     zones: tuple[HeightZone, ...]
     thickness_mm: float
     mounts: tuple[Mount, ...] = ()
+    #: The union of the wire-entry zones (mm), or None when none is drawn.
+    wire_entry: BaseGeometry | None = None
 
     @property
     def area_mm2(self) -> float:
@@ -515,6 +559,9 @@ class PlaceItem:
     pin_count: int = 2
     package: str = ""
     fixed: Fixed | None = None
+    #: Goes to the board edge nearest the wire entry (wire pads, connectors; :mod:`pipeline.place_rules`).
+    edge: bool = False
+    near: NearRule | None = None
 
 
 @dataclass(frozen=True)

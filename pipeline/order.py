@@ -12,12 +12,14 @@ are ordered by their exact text, so the order is total and deterministic.
 from __future__ import annotations
 
 import re
+from functools import lru_cache
 
 __all__ = ["natural_key"]
 
 _DIGITS = re.compile(r"(\d+)")
 
 
+@lru_cache(maxsize=1 << 17)  # the same refs, pins and nets are sorted by many writers (issue 11)
 def natural_key(text: str) -> tuple:
     """Sort key: digit runs compare as numbers, other runs case-folded; exact text breaks ties."""
     runs = tuple((0, int(t), "") if t.isdigit() else (1, 0, t.casefold()) for t in _DIGITS.split(text) if t)

@@ -71,6 +71,12 @@ The method
    defect and drops the part with a warning instead of reporting a false
    fit.
 
+*Rules* (:mod:`pipeline.place_rules`): parts the user fixed hold their
+cells before step 2; wire pads and connectors are pre-placed at the board
+edge by the wire-entry zone and then count as fixed; after step 3 parts
+with a near rule (decoupling capacitors by default) move next to their
+target's pins; rules left unmet go to ``blocked_by`` or a warning.
+
 Everything is deterministic: classes and parts are sorted with refs as
 the last key and the improvement breaks ties by index.
 
@@ -100,6 +106,7 @@ from shapely.geometry.polygon import orient
 
 from .area import estimate_area
 from .errors import DesignError, ProjectError
+from . import place_rules
 from .improve import improve_swaps
 from .model import BoardOptions, FitResult, Finding, PlaceItem, Placement, Region
 from .mount import mount_keepout, raised_heads, with_mount_holes
@@ -691,6 +698,7 @@ def _pack_and_check(items, area, region: Region, board: BoardOptions, estimate, 
     refs = [it.ref for it in items]
     out = _Outcome()
     fixed = _fixed_parts(items, region, board)
+    items, fixed, out.warnings = place_rules.pin_edge_parts(items, fixed, area, region)  # edge rule first
     packer = _Packer(items, area, region.zones, _rank(items, nets), fixed=fixed)
     tries = _tries(items, packer, area, board, estimate)
     low = max((items[i].height_mm for i, (side, _) in fixed.items() if side == "bottom"), default=0.0)
@@ -698,6 +706,7 @@ def _pack_and_check(items, area, region: Region, board: BoardOptions, estimate, 
     run = _best_run(packer, tries, board.sides, progress)
     if improve:
         _improve(packer, run, nets, progress)
+    place_rules.near_pass(packer, run, fixed)  # after the swaps, so they cannot undo it
     rects = {i: packer.rect(i, run.slots[i]) for i in run.slots}
     rects.update({i: r for i, (_, r) in fixed.items()})
     sides = {i: s[0] for i, s in run.slots.items()} | {i: sd for i, (sd, _) in fixed.items()}
@@ -725,6 +734,9 @@ def _pack_and_check(items, area, region: Region, board: BoardOptions, estimate, 
             f"{_fmt(board.edge_clearance_mm)} mm edge clearance) or the height the lid allows for "
             f"{_fmt(items[i].height_mm)} mm: move it or choose a lower package.")
     out.blocked += _diagnose(packer, run, not_placed, region, board)
+    unmet, notes = place_rules.unmet_rules(items, out.placements)
+    out.blocked += unmet
+    out.warnings += notes
     out.blocked += raised_heads(region.mounts, region.zones, run.gap)
     bottom = [p.ref for p in out.placements if p.side == "bottom"]
     if run.gap > 0 and bottom:

@@ -441,6 +441,9 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
             extra["passive_sizes"] = sweep_result.to_dict()
         fit, route_verdict, routed = _route(project, route, fit, items, region, cavity.board, design, lib, files,
                                             progress)
+        if route_verdict.spread_mm:  # the routed placement is a spread one: say where its rules stand
+            from .place_rules import refresh_near_notes
+            findings = refresh_near_notes(findings, items, fit.placements)
         findings += _route_findings(route_verdict)
         extra["routing"] = route_verdict.to_dict()
     else:

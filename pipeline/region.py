@@ -210,8 +210,10 @@ def usable_region(cavity: Cavity, board: BoardOptions) -> tuple[Region, list[Fin
         region_geom = polygonal(inset.difference(keep).difference(shallow))
     findings += _shape_findings(region_geom, c, cavity)
     zones = _height_zones(region_geom, grown, t, float(cavity.depth_mm))
+    entry = shapely.union_all(list(cavity.wire_entries)) if cavity.wire_entries else None
     findings += _mount_findings(mounts, region_geom, zones, cavity)
-    return Region(board_region=region_geom, zones=zones, thickness_mm=t, mounts=mounts), findings
+    return Region(board_region=region_geom, zones=zones, thickness_mm=t, mounts=mounts,
+                  wire_entry=entry), findings
 
 
 def _mount_findings(mounts, region_geom: BaseGeometry, zones, cavity: Cavity) -> list[Finding]:

@@ -69,8 +69,69 @@ def _split_dotted(text: str) -> list[str]:
     return out
 
 
+_SIGNIFICANT_RE = re.compile(r"[#\"'\[\]{}]")
+#: a value text that cannot change the scan's state: no significant character, or one plain basic string
+_INERT_RE = re.compile(r"""[^#"'\[\]{}]*(?:"[^"\\]*"[^#"'\[\]{}]*)?""")
+_BASIC_REST_RE = re.compile(r'(?:[^"\\]|\\.)*"')  # the rest of a basic string, through its closing quote
+
+
+def _scan_value(rest: str, depth: int, array_key: str | None, elements: int, no: int,
+                lines: dict[str, int]) -> tuple[int, int, str | None]:
+    """Follow brackets and strings along the value text ``rest`` of line ``no``.
+
+    Returns ``(depth, elements, in_ml)``: the bracket depth after the line,
+    the inline tables counted so far in ``array_key``'s array (each one's
+    line goes to ``lines`` as ``KEY[i]``) and the delimiter of a multi-line
+    string left open, or None. Visits only the significant characters.
+    """
+    if _INERT_RE.fullmatch(rest):
+        return depth, elements, None
+    n = len(rest)
+    find = _SIGNIFICANT_RE.search
+    m = find(rest, 0)
+    while m is not None:
+        i = m.start()
+        c = rest[i]
+        if c == "#":
+            break
+        if c in "\"'":
+            if rest.startswith(c * 3, i):
+                j = rest.find(c * 3, i + 3)
+                if j < 0:
+                    return depth, elements, c * 3
+                i = j + 3
+            elif c == '"':
+                s = _BASIC_REST_RE.match(rest, i + 1)
+                if s is None:
+                    break
+                i = s.end()
+            else:
+                j = rest.find("'", i + 1)
+                if j < 0:
+                    break
+                i = j + 1
+        else:
+            if c in "[{":
+                if c == "{" and depth == 1 and array_key is not None:
+                    lines.setdefault(f"{array_key}[{elements}]", no)  # KEY[i]: i-th inline table
+                    elements += 1
+                depth += 1
+            else:
+                depth = max(0, depth - 1)
+            i += 1
+        if i >= n:
+            break
+        m = find(rest, i)
+    return depth, elements, None
+
+
 def _scan_lines(text: str) -> dict[str, int]:
-    """Map dotted key paths to 1-based line numbers (first occurrence)."""
+    """Map dotted key paths to 1-based line numbers (first occurrence).
+
+    Cost: each line is read once, and within a value only the characters
+    that matter (quotes, brackets, braces, ``#``) are visited, found by a
+    compiled pattern (:func:`_scan_value`).
+    """
     lines: dict[str, int] = {}
     table: list[str] = []
     depth = 0  # bracket / brace depth of an unfinished value
@@ -108,33 +169,7 @@ def _scan_lines(text: str) -> dict[str, int]:
         else:
             rest = line
         # track multi-line strings and open brackets in the value part
-        i = 0
-        while i < len(rest):
-            c = rest[i]
-            if c == "#":
-                break
-            if rest.startswith('"""', i) or rest.startswith("'''", i):
-                delim = rest[i:i + 3]
-                j = rest.find(delim, i + 3)
-                if j < 0:
-                    in_ml = delim
-                    break
-                i = j + 3
-                continue
-            if c in "\"'":
-                j = i + 1
-                while j < len(rest) and rest[j] != c:
-                    j += 2 if (c == '"' and rest[j] == "\\") else 1
-                i = j + 1
-                continue
-            if c in "[{":
-                if c == "{" and depth == 1 and array_key is not None:
-                    lines.setdefault(f"{array_key}[{elements}]", no)  # KEY[i]: i-th inline table
-                    elements += 1
-                depth += 1
-            elif c in "]}":
-                depth = max(0, depth - 1)
-            i += 1
+        depth, elements, in_ml = _scan_value(rest, depth, array_key, elements, no, lines)
     return lines
 
 

@@ -740,3 +740,64 @@ def test_svg_depth_colours_cannot_be_read_as_copper():
     for f in fills:
         r, g, b = (int(f[i:i + 2], 16) / 255 for i in (1, 3, 5))
         assert colorsys.rgb_to_hsv(r, g, b)[1] < 0.08, f  # grey: no hue to speak of
+
+
+# --------------------------------------------------------------------------
+# cost guards (issue 11): counted box tests, never seconds
+# --------------------------------------------------------------------------
+def _dense_grid(n: int, pitch: float = 1.0):
+    """n parts of 0.6 x 0.3 mm on a square grid of ``pitch`` (too small for a label inside)."""
+    side = math.ceil(math.sqrt(n))
+    return [_placement(f"C{k + 1}", (k % side) * pitch, (k // side) * pitch, 0.6, 0.3) for k in range(n)]
+
+
+def _count_box_tests(monkeypatch, placements):
+    import pipeline.export.svg as svg
+
+    grids = []
+
+    class Counting(svg._BoxGrid):
+        def __init__(self, cell):
+            super().__init__(cell)
+            grids.append(self)
+
+    monkeypatch.setattr(svg, "_BoxGrid", Counting)
+    b = svg._bounds([p.courtyard for p in placements])
+    labels, skipped = svg.place_labels(placements, 1.0, b)
+    return sum(g.tests for g in grids), labels, skipped
+
+
+def test_label_placer_box_tests_grow_linearly(monkeypatch):
+    # a pairwise placer makes about n^2 / 2 box tests; ours makes O(1) per part, so the count per part
+    # stays level when n grows 4 x (closed form of linear cost: tests(4n) / tests(n) <= 4 x slack)
+    # (the frame's edge rejects spots cheaply, so small scenes are a little cheaper per part: 1.5 x slack)
+    small, labels_s, _ = _count_box_tests(monkeypatch, _dense_grid(1600))
+    large, labels_l, _ = _count_box_tests(monkeypatch, _dense_grid(6400))
+    assert labels_s and labels_l
+    assert large / small <= 4 * 1.5
+    assert large < 6400 * 6399 / 2 / 4
+
+
+@given(st.lists(st.tuples(st.floats(0, 30), st.floats(0, 30), st.sampled_from([(0.6, 0.3), (2.2, 1.2), (6.0, 4.0)])),
+                min_size=1, max_size=40))
+@settings(max_examples=40, deadline=None)
+def test_label_placer_labels_never_overlap_checked_pairwise(parts):
+    # the grid is only an index: every pair of placed label boxes, checked the plain pairwise way, is apart
+    import pipeline.export.svg as svg
+
+    pls = [_placement(f"R{k + 1}", x, y, ln, wd) for k, (x, y, (ln, wd)) in enumerate(parts)]
+    labels, skipped = svg.place_labels(pls, 1.0, svg._bounds([p.courtyard for p in pls]))
+    assert len(labels) + len(skipped) == len(pls)
+    for i, a in enumerate(labels):
+        for b in labels[i + 1:]:
+            assert not (a.box[0] < b.box[2] and b.box[0] < a.box[2] and a.box[1] < b.box[3] and b.box[1] < a.box[3])
+
+
+@pytest.mark.parametrize("x, text", [(-0.0004, "0.000"), (0.0004, "0.000"), (-0.0006, "-0.001"),
+                                     (-10.0, "-10.000"), (2.0005, "2.001"), (-100.25, "-100.250")])
+def test_svg_path_numbers_are_the_plain_three_decimal_text(x, text):
+    # reference: Python's own "%.3f" (correctly rounded, IEEE 754), with a negative zero written 0.000
+    from pipeline.export.svg import _path_d
+
+    d = _path_d(LineString([(x, 1.0), (1.0, -x)]))
+    assert d == f"M{text},-1.000 L1.000,{text}"

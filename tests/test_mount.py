@@ -27,7 +27,7 @@ from pipeline.starter import write_starter
 # ISO 273 clearance holes, medium series (H13): M2 2.4, M2.5 2.9, M3 3.4 mm (the ISO 273 / DIN 406
 #   table as reprinted by engineeringhardware.com "Clearance Hole Sizes" and draughtsman.co.uk).
 # ISO 7045 pan head with cross recess, product grade A: dk max M2 4.0, M2.5 5.0, M3 5.6 mm; k max
-#   1.6, 2.1, 2.4 mm (the ISO 7045 dimension table as reprinted by fullerfasteners.com; DIN 7985,
+#   1.6, 2.1, 2.4 mm (the ISO 7045 dimension table as reprinted by a fastener supplier; DIN 7985,
 #   the older German pan head, differs: M3 dk 6.0, k 2.52, so the two must not be mixed up).
 @pytest.mark.parametrize("name, hole, dk, k", [
     ("M2", 2.4, 4.0, 1.6),

@@ -25,6 +25,10 @@ Layer names are compared without regard to case.
                 filled. ``DEPTH-0`` is allowed (the lid touches the floor).
 ``BOARD``       optional: the user's own board outline, read like
                 ``CAVITY`` (one outline, inner loops are holes).
+``WIRE-ENTRY``  optional: closed shapes where wires enter the cavity
+                (:mod:`pipeline.place_rules` puts wire pads and
+                connectors there); a loop wholly outside the cavity
+                outline is an error.
 ==============  ==========================================================
 
 ``layer_map`` (project.toml's ``[cavity] layers``) maps the user's layer

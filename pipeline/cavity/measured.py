@@ -18,6 +18,9 @@ README "A measured cavity") gives, in its ``units``:
                  square ends)
 ``[[zone]]``     a depth zone: ``depth`` and a rectangle (``at``, ``size``) or
                  ``points``; optional ``name``
+``[[wire_entry]]`` where wires come into the cavity: a rectangle (``at``,
+                 ``size``) or ``points``; it must overlap the pocket (the
+                 layer role ``WIRE-ENTRY`` of a drawing)
 
 Bosses and ribs become keep-outs, zones depth zones, exactly as the layers
 of a drawing would (:mod:`pipeline.cavity`). Curves are flattened with
@@ -54,12 +57,13 @@ __all__ = ["read_measured", "MEASURED_SUFFIX"]
 #: The file ending by which a project's cavity is read as a measured cavity.
 MEASURED_SUFFIX = ".toml"
 
-_TOP = ("units", "lid_depth", "pocket", "boss", "rib", "zone")
+_TOP = ("units", "lid_depth", "pocket", "boss", "rib", "zone", "wire_entry")
 _KEYS = {
     "pocket": ("size", "corner_radius", "at", "points", "radii"),
     "boss": ("center", "diameter", "mount"),
     "rib": ("at", "size", "path", "width"),
     "zone": ("depth", "at", "size", "points", "name"),
+    "wire_entry": ("at", "size", "points"),
 }
 
 
@@ -87,9 +91,10 @@ def read_measured(path: Path, *, display_name: str, depth_mm: float, chord_tol_m
     keepouts = [m.boss(i, b, pocket, tol) for i, b in enumerate(m.items("boss"))]
     keepouts += [m.rib(i, r, pocket) for i, r in enumerate(m.items("rib"))]
     zones = [m.zone(i, z, k) for i, z in enumerate(m.items("zone"))]
+    entries = [to_mm(m.wire_entry(i, w, pocket), k) for i, w in enumerate(m.items("wire_entry"))]
     cavity = Cavity(source=src.display, outline=to_mm(pocket, k), keepouts=tuple(to_mm(p, k) for p in keepouts),
                     depth_zones=tuple(zones), board=None, depth_mm=lid, unit_name=UNIT_NAMES[code],
-                    mm_per_unit=k, mounts=m.mounts(k))
+                    mm_per_unit=k, mounts=m.mounts(k), wire_entries=tuple(entries))
     return cavity, []
 
 
@@ -205,6 +210,17 @@ class _Measured:
             shape = self.rectangle(where, body)
         if not shape.intersects(pocket):
             raise self.fail(where, "the rib lies wholly outside the pocket")
+        return shape
+
+    def wire_entry(self, i: int, body: dict, pocket: Polygon) -> Polygon:
+        where = f"wire_entry[{i}]"
+        if "points" in body:
+            shape = self.simple(f"{where}.points", Polygon(self.points(f"{where}.points", body["points"], 3)))
+        else:
+            shape = self.rectangle(where, body)
+        if not shape.intersects(pocket):
+            raise self.fail(where, "the wire-entry zone lies wholly outside the pocket: draw it where the "
+                            "wires come in, overlapping the pocket")
         return shape
 
     def zone(self, i: int, body: dict, k: float) -> DepthZone:

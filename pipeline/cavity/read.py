@@ -181,6 +181,7 @@ def _read(path: Path, name: str, roles: LayerRoles, default_code: int, depth_mm:
         if not p.intersects(floor):
             findings.append(_outside_finding(name, f"depth zone on layer {layer}", ring))
         zones.append(DepthZone(to_mm(p, k), found.depth_of[("DEPTH", layer)], layer))
+    entries = _wire_entries(found, roles, floor, name, k)
     if board is not None and not board.intersects(floor):
         findings.append(Finding(
             "warning", "cavity.outside", (name,),
@@ -190,7 +191,33 @@ def _read(path: Path, name: str, roles: LayerRoles, default_code: int, depth_mm:
     findings += _plausibility(outline_mm, unit_name, name)
     return Cavity(source=name, outline=outline_mm, keepouts=tuple(keepouts), depth_zones=tuple(zones),
                   board=to_mm(board, k) if board is not None else None, depth_mm=depth_mm,
-                  unit_name=unit_name, mm_per_unit=k)
+                  unit_name=unit_name, mm_per_unit=k, wire_entries=entries)
+
+
+def _wire_entries(found: _Collected, roles: LayerRoles, floor: Polygon, name: str,
+                  k: float) -> tuple[Polygon, ...]:
+    """The closed loops of the WIRE-ENTRY role (mm); each must reach the cavity outline.
+
+    Raises
+    ------
+    CavityError
+        A zone lies wholly outside the cavity outline (it would steer wire
+        pads nowhere), naming the entity; or project.toml maps WIRE-ENTRY to
+        layers the drawing has nothing on, naming the key.
+    """
+    loops = _loops(found, "WIRE-ENTRY", name, k)
+    if not loops and roles.wire_entry is not None:
+        raise CavityError(name, f"project.toml maps WIRE-ENTRY to layer(s) {', '.join(roles.wire_entry)}, "
+                          "but the drawing has no closed outline on them: draw the zone where wires "
+                          "come in, or fix the layer name", key="cavity.layers.WIRE-ENTRY")
+    out = []
+    for p, ring, _layer in loops:
+        if not p.intersects(floor):
+            raise CavityError(name, f"the wire-entry zone {ring.label} at {fmt_pt(ring.pts[0])} (drawing "
+                              "units) lies wholly outside the cavity outline: draw it where the wires "
+                              "come in, overlapping the cavity", entity=ring.label)
+        out.append(to_mm(p, k))
+    return tuple(out)
 
 
 def _declared_units(doc) -> int:
@@ -307,6 +334,7 @@ def _skipped_findings(found: _Collected, walker: Walker, name: str) -> list[Find
 
 
 _WHAT = {"CAVITY": "cavity outline", "BOARD": "board outline", "KEEPOUT": "keep-out on layer {}",
+         "WIRE-ENTRY": "wire-entry zone on layer {}",
          "DEPTH": "depth zone on layer {}"}
 
 

@@ -1,4 +1,4 @@
-"""Layer roles: which drawing layers hold the cavity, keep-outs, depth zones, board.
+"""Layer roles: which drawing layers hold the cavity, keep-outs, depth zones, board, wire entries.
 
 The roles and project.toml's ``[cavity] layers`` map are described in
 :mod:`pipeline.cavity`. Layer names are compared without regard to case.
@@ -16,7 +16,7 @@ from pipeline.errors import CavityError
 __all__ = ["LayerRoles", "parse_layer_map", "ROLES"]
 
 #: The role names, in the order messages list them.
-ROLES = ("CAVITY", "KEEPOUT", "DEPTH", "BOARD")
+ROLES = ("CAVITY", "KEEPOUT", "DEPTH", "BOARD", "WIRE-ENTRY")
 
 
 @dataclass(frozen=True)
@@ -33,6 +33,7 @@ class LayerRoles:
     keepout: tuple[str, ...] | None = None
     board: tuple[str, ...] | None = None
     depth: tuple[tuple[str, float], ...] | None = None
+    wire_entry: tuple[str, ...] | None = None
 
     def role_of(self, layer: str, file: str = "") -> tuple[str, float | None] | None:
         """The role of ``layer``: ``("CAVITY", None)``, ``("DEPTH", 1.5)``, ... or None.
@@ -50,7 +51,7 @@ class LayerRoles:
         """
         key = layer.casefold()
         for role, names in (("CAVITY", self.cavity), ("KEEPOUT", self.keepout),
-                            ("BOARD", self.board)):
+                            ("BOARD", self.board), ("WIRE-ENTRY", self.wire_entry)):
             if names is None:
                 if key == role.casefold():
                     return role, None
@@ -125,6 +126,7 @@ def parse_layer_map(layer_map: Mapping[str, Any] | None, *, source: str = "proje
         keepout=found.get("KEEPOUT"),
         board=found.get("BOARD"),
         depth=found.get("DEPTH"),
+        wire_entry=found.get("WIRE-ENTRY"),
     )
 
 

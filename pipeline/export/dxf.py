@@ -141,7 +141,8 @@ def cavity_dxf(cavity, *, timestamp: int | None = None) -> bytes:
 
     Written in the units the cavity was given in (``$INSUNITS``): the floor
     outline and its holes on ``CAVITY``, keep-outs on ``KEEPOUT``, each depth
-    zone on ``DEPTH-<mm>`` and a given board on ``BOARD``, every shape as
+    zone on ``DEPTH-<mm>``, a given board on ``BOARD`` and the wire-entry
+    zones on ``WIRE-ENTRY``, every shape as
     closed polylines, so the file reads back as the same cavity and can be
     refined in any CAD program. Reproducible bytes as :func:`board_outline_dxf`.
     """
@@ -154,6 +155,8 @@ def cavity_dxf(cavity, *, timestamp: int | None = None) -> bytes:
     layers += [(f"DEPTH-{d:g}", polys) for d, polys in sorted(depths.items())]
     if cavity.board is not None:
         layers.append(("BOARD", [cavity.board]))
+    if cavity.wire_entries:
+        layers.append(("WIRE-ENTRY", list(cavity.wire_entries)))
     return _layers_dxf(layers, cavity_units(cavity), _timestamp(timestamp))
 
 

@@ -70,6 +70,8 @@ _ID_RE = re.compile(r"^[A-Za-z][A-Za-z0-9_]*$")
 _MAX_ID = 200
 _DIRECTION = {"in": "INPUT", "supply": "INPUT", "out": "OUTPUT", "open-drain": "OUTPUT",
               "supply-out": "OUTPUT"}
+#: printable ASCII but '"', '%', '[' and ']': written as it is inside an EDIF string
+_PLAIN_RE = re.compile(r"[\x20\x21\x23\x24\x26-\x5a\x5c\x5e-\x7e]*")
 _MAX_EPOCH = 253402300799  # 9999-12-31 23:59:59 UTC
 
 
@@ -81,8 +83,11 @@ def edif_string(text: str) -> str:
     >>> edif_string('say "hi" 100%')
     '"say %34%hi%34% 100%37%"'
     """
+    text = str(text)
+    if _PLAIN_RE.fullmatch(text):  # the common case: nothing to escape
+        return '"' + text + '"'
     out = []
-    for ch in str(text):
+    for ch in text:
         code = ord(ch)
         if ch in '"%[]' or code < 32 or code > 126:
             out.append(f"%{code}%")
@@ -284,28 +289,30 @@ _WIDTH = 100
 def _one_line(tree: list) -> dict[int, str]:
     """The one-line form of every list short enough to be written whole, by ``id``.
 
-    One post-order pass with an explicit stack: a list's form is joined
-    from its children's, so each character is built once per enclosing
-    short list (at most ``_WIDTH`` characters each). A longer list maps to
-    ``""``; its length is all :func:`_render` needs of it.
+    One post-order pass: a list's form is joined from its children's, so
+    each character is built once per enclosing short list (at most
+    ``_WIDTH`` characters each). A longer list maps to ``""``; its length
+    is all :func:`_render` needs of it. Recursion is as deep as the tree,
+    which the EDIF layout written here fixes (under ten levels).
     """
     flat: dict[int, str] = {}
-    stack: list[tuple[list, bool]] = [(tree, False)]
-    while stack:
-        node, done = stack.pop()
-        if not done:
-            stack.append((node, True))
-            stack.extend((c, False) for c in node if isinstance(c, list))
-            continue
+
+    def visit(node: list) -> str:
         parts: list[str] = []
-        for c in node:  # one pass; stops at the first long child (then the list is long too)
-            text = c if isinstance(c, str) else flat[id(c)]
-            if not text and not isinstance(c, str):
-                parts = None  # type: ignore[assignment]
-                break
-            parts.append(text)
-        joined = "" if parts is None else " ".join(parts)
-        flat[id(node)] = "" if parts is None or len(joined) + 2 > _WIDTH else "(" + joined + ")"
+        long = False
+        for c in node:
+            if isinstance(c, str):
+                parts.append(c)
+            else:
+                text = visit(c)
+                long = long or not text
+                parts.append(text)
+        joined = "" if long else " ".join(parts)
+        text = "" if long or len(joined) + 2 > _WIDTH else "(" + joined + ")"
+        flat[id(node)] = text
+        return text
+
+    visit(tree)
     return flat
 
 
@@ -315,28 +322,27 @@ def _render(tree: list, indent: int) -> str:
     A list is written on one line when that line, indent included, is at
     most ``_WIDTH`` characters (or it holds no list); otherwise its words
     open the line and each child list follows on a line of its own, indented
-    two more. Cost: linear in the output (:func:`_one_line`), no recursion.
+    two more. Cost: linear in the output (:func:`_one_line`); recursion as
+    deep as the tree.
     """
     flat = _one_line(tree)
     out: list[str] = []
-    stack: list[tuple[bool, list | str, int]] = [(False, tree, indent)]
-    while stack:
-        is_text, node, level = stack.pop()
-        if is_text or isinstance(node, str):
-            out.append(node)  # type: ignore[arg-type]
-            continue
+
+    def emit(node: list, level: int) -> None:
         one = flat[id(node)]
         if one and len(one) + level <= _WIDTH:
             out.append(one)
-            continue
-        kids = [c for c in node if isinstance(c, list)]
+            return
+        kids = [c for c in node if not isinstance(c, str)]
         if not kids:
             out.append("(" + " ".join(node) + ")")
-            continue
+            return
+        out.append("(" + " ".join(c for c in node if isinstance(c, str)))
         pad = "\n" + " " * (level + 2)
-        seq: list[tuple[bool, list | str, int]] = [(True, "(" + " ".join(c for c in node if isinstance(c, str)), 0)]
         for c in kids:
-            seq += [(True, pad, 0), (False, c, level + 2)]
-        seq.append((True, ")", 0))
-        stack.extend(reversed(seq))
+            out.append(pad)
+            emit(c, level + 2)
+        out.append(")")
+
+    emit(tree, indent)
     return "".join(out)

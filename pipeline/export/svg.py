@@ -51,6 +51,8 @@ import re
 from dataclasses import dataclass
 from typing import Iterable, Mapping, Sequence
 
+import numpy as np
+import shapely
 from shapely.geometry import LinearRing, LineString, Polygon
 from shapely.geometry.base import BaseGeometry, BaseMultipartGeometry
 
@@ -68,6 +70,7 @@ _PAPER = "#ffffff"
 _KEEPOUT_FILL = "#e9e9e6"
 _KEEPOUT_LINE = "#6d6d69"
 _REGION_LINE = "#1d7f6e"  # usable region, dashed
+_ENTRY_LINE = "#7a4fb3"  # wire-entry zone, dotted
 _BOARD_LINE = "#143a52"
 _TOP = "#2f4f9e"  # top-side courtyards
 _BOTTOM = "#8a3f8f"  # bottom-side courtyards, dashed
@@ -183,7 +186,7 @@ def fit_svg(cavity: Cavity, region: Region, fit: FitResult, *, title: str = "",
     top = -maxy - (_MARGIN + head_h) * u
     legend_x = maxx + _GAP * u
     legend_lines = _legend(depths, colour_of, float(region.thickness_mm), placements, skipped, unplaced, s,
-                           bool(pads), routing)
+                           bool(pads), routing, entry=region.wire_entry is not None)
     bottom = max(-miny + (_MARGIN + _FOOT_H) * u,
                  top + (head_h + 2 * _MARGIN + _legend_height(legend_lines)) * u)
     right = max(legend_x + (_LEGEND_W + _MARGIN) * u, left + (2 * _MARGIN + _header_width(head)) * u)
@@ -258,6 +261,11 @@ def _ground(cavity: Cavity, region: Region, board, colour_of: dict, u: float) ->
         out.append("</g>")
     out.append(f'<path class="cavity-outline" d="{_path_d(cavity.outline)}" fill="none" '
                f'stroke="{_INK}" stroke-width="{_f(_W_THICK * u)}" stroke-linejoin="round"/>')
+    entry = _path_d(_clip(region.wire_entry, cavity.outline)) if region.wire_entry is not None else ""
+    if entry:
+        out.append(f'<path class="wire-entry" d="{entry}" fill="{_ENTRY_LINE}" fill-opacity="0.15" '
+                   f'stroke="{_ENTRY_LINE}" stroke-width="{_f(_W_MID * u)}" stroke-dasharray="{_f(0.5 * u)} '
+                   f'{_f(0.5 * u)}"><title>wire-entry zone</title></path>')
     d = _path_d(region.board_region)
     if d:
         out.append(f'<path class="usable-region" d="{d}" fill="none" fill-rule="evenodd" stroke="{_REGION_LINE}" '
@@ -331,13 +339,15 @@ def _polygons(geom: BaseGeometry | None) -> Iterable[Polygon]:
             yield from _polygons(g)
 
 
-def _ring_d(coords: Sequence[tuple[float, ...]], closed: bool) -> str:
-    pts = [(c[0], c[1]) for c in coords]
+def _ring_d(xy: np.ndarray, closed: bool) -> str:
+    """Path data of one ring or line from its (k, 2) coordinates: ``_f`` text of x and -y, joined once."""
+    pts = xy.tolist()
     if closed and len(pts) > 1 and pts[0] == pts[-1]:
         pts.pop()
     if not pts:
         return ""
-    d = "M" + " L".join(f"{_f(x)},{_f(-y)}" for x, y in pts)
+    # "%.3f" is _f's format; "-0.000" can only be a whole number here (3 decimals, then a separator)
+    d = ("M" + " L".join(["%.3f,%.3f" % (x, -y) for x, y in pts])).replace("-0.000", "0.000")
     return d + (" Z" if closed else "")
 
 
@@ -346,11 +356,11 @@ def _path_d(geom: BaseGeometry | None) -> str:
     if geom is None or geom.is_empty:
         return ""
     if isinstance(geom, (LineString, LinearRing)):
-        return _ring_d(list(geom.coords), isinstance(geom, LinearRing))
+        return _ring_d(shapely.get_coordinates(geom), isinstance(geom, LinearRing))
     parts = []
     for poly in _polygons(geom):
-        parts.append(_ring_d(list(poly.exterior.coords), True))
-        parts.extend(_ring_d(list(r.coords), True) for r in poly.interiors)
+        parts.append(_ring_d(shapely.get_coordinates(poly.exterior), True))
+        parts.extend(_ring_d(shapely.get_coordinates(r), True) for r in poly.interiors)
     return " ".join(p for p in parts if p)
 
 
@@ -485,10 +495,12 @@ def place_labels(placements: Sequence[Placement], u: float,
     spot on any ring is left unlabelled. Boxes are the rendered extent
     (``_BOX_ADVANCE`` em per character, ``_BOX_HALF_H`` em above and below
     the centre: ascent plus descent of common sans-serif faces, from
-    memory). Cost: O(n x rings x 8) box queries on a grid.
+    memory). Cost: O(n) grid queries, each meeting O(1) boxes when labels
+    and courtyards are of similar size (cells sized from them); a part's
+    rings x 8 spots are tested at once against the labels near them.
     """
     labels: list[Label] = []
-    taken = _BoxGrid(8.0 * _LABEL_MAX * u)
+    taken = _BoxGrid(4.0 * _LEADER_SIZE * u)  # about one leader label's width
     rest: list[Placement] = []
     for pl in sorted(placements, key=lambda p: (p.side == "bottom", natural_key(p.ref))):
         lab = _inside_label(pl, u)
@@ -497,10 +509,13 @@ def place_labels(placements: Sequence[Placement], u: float,
         else:
             taken.add(lab.box)
             labels.append(lab)
-    courtyards = _BoxGrid(8.0 * _LABEL_MAX * u)
-    for pl in placements:
-        if pl.courtyard is not None and not pl.courtyard.is_empty:
-            courtyards.add(tuple(pl.courtyard.bounds))
+    drawn = [tuple(pl.courtyard.bounds) for pl in placements
+             if pl.courtyard is not None and not pl.courtyard.is_empty]
+    # cells about twice the mean courtyard side: a query meets a few courtyards per cell
+    mean_side = sum(b[2] - b[0] + b[3] - b[1] for b in drawn) / max(2 * len(drawn), 1)
+    courtyards = _BoxGrid(max(2.0 * mean_side, _LEADER_SIZE * u))
+    for b in drawn:
+        courtyards.add(b)
     skipped: list[str] = []
     for pl in sorted(rest, key=lambda p: natural_key(p.ref)):
         lab = _leader_label(pl, u, bounds, taken, courtyards)
@@ -529,9 +544,18 @@ def _inside_label(pl: Placement, u: float) -> Label | None:
 
 
 _DIRECTIONS = ((1, 0), (-1, 0), (0, 1), (0, -1), (1, 1), (-1, 1), (1, -1), (-1, -1))
+# the leader spots in the order tried: ring by ring, the eight directions in each
+_SPOT_DX = np.array([dx for _ in range(_LEADER_RINGS) for dx, _dy in _DIRECTIONS], dtype=float)
+_SPOT_DY = np.array([dy for _ in range(_LEADER_RINGS) for _dx, dy in _DIRECTIONS], dtype=float)
+_SPOT_RING = np.array([ring for ring in range(_LEADER_RINGS) for _ in _DIRECTIONS], dtype=float)
 
 
 def _leader_label(pl: Placement, u: float, bounds, taken: _BoxGrid, courtyards: _BoxGrid) -> Label | None:
+    """The first spot on the rings free of labels and courtyards (else the first free of labels), or None.
+
+    All the part's spots are tested at once against the labels near them (numpy),
+    then only the spots free of labels are tested against the courtyards.
+    """
     if pl.courtyard is None or pl.courtyard.is_empty:
         return None
     cx0, cy0, cx1, cy1 = pl.courtyard.bounds
@@ -540,50 +564,97 @@ def _leader_label(pl: Placement, u: float, bounds, taken: _BoxGrid, courtyards: 
     hh = _BOX_HALF_H * size
     fx0, fy0, fx1, fy1 = (bounds[0] - 0.8 * _MARGIN * u, bounds[1] - 0.8 * _MARGIN * u,
                           bounds[2] + 0.8 * _MARGIN * u, bounds[3] + 0.8 * _MARGIN * u)
+    gap = (1.0 + 1.6 * _SPOT_RING) * u
+    lx = pl.x_mm + _SPOT_DX * (0.5 * (cx1 - cx0) + hw + gap)
+    ly = pl.y_mm + _SPOT_DY * (0.5 * (cy1 - cy0) + hh + gap)
+    bx0, by0, bx1, by1 = lx - hw, ly - hh, lx + hw, ly + hh
+    free = (bx0 >= fx0) & (by0 >= fy0) & (bx1 <= fx1) & (by1 <= fy1)
+    near = taken.boxes_near((float(bx0.min()), float(by0.min()), float(bx1.max()), float(by1.max())))
+    if len(near):
+        o = near
+        over = ((bx0[:, None] < o[None, :, 2]) & (o[None, :, 0] < bx1[:, None])
+                & (by0[:, None] < o[None, :, 3]) & (o[None, :, 1] < by1[:, None]))
+        free &= ~over.any(axis=1)
+    fallback = None  # the first free spot over a courtyard, used when no spot avoids every part
+    for k in np.flatnonzero(free):
+        spot = (float(lx[k]), float(ly[k]))
+        b = (float(bx0[k]), float(by0[k]), float(bx1[k]), float(by1[k]))
+        if not courtyards.hits(b):
+            return _leader(pl, *spot, b, size)
+        if fallback is None:
+            fallback = (*spot, b)
+    return None if fallback is None else _leader(pl, *fallback, size)
+
+
+def _leader(pl: Placement, lx: float, ly: float, b: tuple[float, float, float, float], size: float) -> Label:
+    """A leader label centred at ``(lx, ly)`` covering ``b``, its line joining the nearest points."""
     x, y = pl.x_mm, pl.y_mm
-    spots = []
-    for ring in range(_LEADER_RINGS):
-        gap = (1.0 + 1.6 * ring) * u
-        for dx, dy in _DIRECTIONS:
-            lx = x + dx * (0.5 * (cx1 - cx0) + hw + gap)
-            ly = y + dy * (0.5 * (cy1 - cy0) + hh + gap)
-            spots.append((lx, ly))
-    for avoid_parts in (True, False):
-        for lx, ly in spots:
-            b = (lx - hw, ly - hh, lx + hw, ly + hh)
-            if b[0] < fx0 or b[1] < fy0 or b[2] > fx1 or b[3] > fy1 or taken.hits(b):
-                continue
-            if avoid_parts and courtyards.hits(b):
-                continue
-            ax, ay = min(max(x, b[0]), b[2]), min(max(y, b[1]), b[3])  # label end: box point nearest the part
-            px, py = min(max(lx, cx0), cx1), min(max(ly, cy0), cy1)  # part end: courtyard point nearest the label
-            return Label(pl.ref, pl.side, lx, ly, size, False, b, (ax, ay, px, py))
-    return None
+    cx0, cy0, cx1, cy1 = pl.courtyard.bounds
+    ax, ay = min(max(x, b[0]), b[2]), min(max(y, b[1]), b[3])  # label end: box point nearest the part
+    px, py = min(max(lx, cx0), cx1), min(max(ly, cy0), cy1)  # part end: courtyard point nearest the label
+    return Label(pl.ref, pl.side, lx, ly, size, False, b, (ax, ay, px, py))
 
 
 class _BoxGrid:
-    """Axis-aligned boxes bucketed on a square grid, for overlap queries."""
+    """Axis-aligned boxes bucketed on a square grid of side ``cell``, for overlap queries.
+
+    A query looks only at the boxes in the cells it touches, so with a cell
+    near the size of the boxes stored and asked about, a query costs O(1)
+    box tests whatever the number of boxes. ``tests`` counts the box tests
+    made (the cost guard in tests/test_export_pictures.py reads it).
+    """
 
     def __init__(self, cell: float) -> None:
         self.cell = max(cell, 1e-9)
         self.cells: dict[tuple[int, int], list[tuple[float, float, float, float]]] = {}
+        self.tests = 0
+        self._arrays: dict[tuple[int, int], np.ndarray] = {}  # boxes_near's per-cell arrays
 
-    def _keys(self, b):
+    def _span(self, b) -> tuple[range, range]:
         c = self.cell
-        for i in range(math.floor(b[0] / c), math.floor(b[2] / c) + 1):
-            for j in range(math.floor(b[1] / c), math.floor(b[3] / c) + 1):
-                yield (i, j)
+        return (range(math.floor(b[0] / c), math.floor(b[2] / c) + 1),
+                range(math.floor(b[1] / c), math.floor(b[3] / c) + 1))
 
     def hits(self, b) -> bool:
-        for k in self._keys(b):
-            for o in self.cells.get(k, ()):
-                if b[0] < o[2] and o[0] < b[2] and b[1] < o[3] and o[1] < b[3]:
-                    return True
+        bx0, by0, bx1, by1 = b
+        get = self.cells.get
+        xs, ys = self._span(b)
+        for i in xs:
+            for j in ys:
+                boxes = get((i, j))
+                if not boxes:
+                    continue
+                self.tests += len(boxes)
+                for o in boxes:
+                    if bx0 < o[2] and o[0] < bx1 and by0 < o[3] and o[1] < by1:
+                        return True
         return False
 
+    def boxes_near(self, b) -> np.ndarray:
+        """Every box stored in a cell that ``b`` touches, as a (k, 4) array (a box in several such cells
+        comes more than once). Each cell's array is built once after its last change."""
+        arrays = self._arrays
+        found = []
+        xs, ys = self._span(b)
+        for i in xs:
+            for j in ys:
+                a = arrays.get((i, j))
+                if a is None:
+                    boxes = self.cells.get((i, j))
+                    if not boxes:
+                        continue
+                    a = arrays[(i, j)] = np.array(boxes, dtype=float)
+                found.append(a)
+        out = np.concatenate(found) if found else np.zeros((0, 4))
+        self.tests += len(out)
+        return out
+
     def add(self, b) -> None:
-        for k in self._keys(b):
-            self.cells.setdefault(k, []).append(b)
+        xs, ys = self._span(b)
+        for i in xs:
+            for j in ys:
+                self.cells.setdefault((i, j), []).append(b)
+                self._arrays.pop((i, j), None)
 
 
 def _part(pl: Placement, facts: PartFacts | None, u: float) -> str:
@@ -744,7 +815,7 @@ def _wrap(words: Sequence[str], width: int) -> list[str]:
 
 
 def _legend(depths, colour_of, thickness, placements, skipped, unplaced, s, pads: bool = False,
-            routing=None) -> list[tuple]:
+            routing=None, entry: bool = False) -> list[tuple]:
     rows: list[tuple] = [("head", "Legend", None)]
     rows.append(("cavity", "cavity outline", None))
     for d in depths:  # shallowest (darkest) first
@@ -753,6 +824,8 @@ def _legend(depths, colour_of, thickness, placements, skipped, unplaced, s, pads
         rows.append(("depth", f"{_mm(d)} mm deep \u00b7 {tail}", colour_of[d]))
     rows.append(("keepout", "keep-out", None))
     rows.append(("region", "usable board region", None))
+    if entry:
+        rows.append(("entry", "wire-entry zone", None))
     rows.append(("board", "board outline", None))
     rows.append(("top", "part courtyard, top side", None))
     if any(p.side == "bottom" for p in placements):
@@ -815,6 +888,9 @@ def _swatch(kind: str, extra, x: float, y: float, u: float) -> str:
         )
     if kind == "board":
         return f'<line {line} stroke="{_BOARD_LINE}" stroke-width="{_f(_W_BOARD * u)}"/>'
+    if kind == "entry":
+        return (f'<rect {box} fill="{_ENTRY_LINE}" fill-opacity="0.15" stroke="{_ENTRY_LINE}" '
+                f'stroke-width="{_f(_W_MID * u)}" stroke-dasharray="{_f(0.5 * u)} {_f(0.5 * u)}"/>')
     if kind == "top":
         return (
             f'<rect {box} fill="{_TOP}" fill-opacity="0.20" stroke="{_TOP}" stroke-width="{_f(_W_LINE * u)}"/>'

@@ -1,0 +1,514 @@
+"""Parts that must sit somewhere: the board edge by the wire entry, and near another part's pins.
+
+Entry points (all called by :mod:`pipeline.place` and :mod:`pipeline.area`,
+each at one line):
+
+* :func:`attach_rules` - which placer items carry a rule (area step).
+* :func:`pin_edge_parts` - the edge rule, applied *before* the packing.
+* :func:`near_pass` - the near rule, applied *after* the packing and its
+  swap improvement.
+* :func:`unmet_rules` - what is left unmet, as ``blocked_by`` sentences
+  and findings.
+
+The rules (millimetres)
+-----------------------
+* **Edge.** Wire pads (kind ``wire-pad``) and connectors (kind ``header``),
+  or any part with ``at_edge = true``, go inside the wire-entry zone (the
+  courtyard centre in it) (layer
+  role ``WIRE-ENTRY``, :attr:`pipeline.model.Region.wire_entry`) or else in
+  the *edge band* nearest to it: courtyards within :data:`EDGE_BAND_MM` of
+  the outer edge of the placement area (the board outline less its edge
+  clearance; holes around keep-outs are not edges a wire can come over).
+  With no zone drawn they go in the edge band, kept together.
+  ``at_edge = false`` on a part switches the rule off for it.
+* **Near.** A part with ``near = "U3"`` keeps one of its pads within
+  ``within_mm`` (default :data:`NEAR_WITHIN_MM`) of one of U3's pads,
+  distance between pad centres. By default every decoupling capacitor, as
+  the connection check pairs them (:func:`pipeline.check.decoupling_caps`),
+  keeps a pad within :data:`NEAR_WITHIN_MM` of the supply pins of its IC;
+  a capacitor that pairs with several ICs (a shared supply) goes with the
+  one nearest to it in the design's part order (ties: the earlier).
+
+The method
+----------
+*Edge: pre-placement as fixed parts.* Before the packing, each edge part
+(natural ref order) takes the best legal spot on a candidate grid of
+courtyard centres (step :data:`EDGE_STEP_MM`, coarser on large boards so
+at most about :data:`EDGE_CANDIDATES` centres) in both orientations. Legal:
+the courtyard lies in the placement area and in the height zones that allow
+its height, and overlaps no fixed or earlier edge part (exact shapely
+tests, vectorised). Best, in tiers: centre inside the wire-entry zone
+(nearest the edge first, then nearest the zone's middle), then in the edge band (nearest the zone first; with no zone,
+nearest the edge parts already placed), then anywhere (nearest the zone or
+edge; reported). The spot becomes a :class:`pipeline.model.Fixed`, so the
+packer treats it as a part the user fixed. Cost: O(parts x candidates)
+shapely predicates.
+
+*Near: a post-pass that moves a part to the nearest legal slot.* After the
+packing and the swap improvement (so the swaps cannot take the part away
+again), each near part that is too far (natural ref order) is moved to the
+free grid origin, among all legal ones of its height level in both
+orientations, whose pads come nearest the target's pins; when no free
+origin is near enough, it trades slots with the packed part of the same
+cell size whose slot brings it nearest (both stay legal: the cells are the
+same, and each must be allowed its height in the other's cells; a part
+with a near rule of its own only when the trade still meets that rule). Legal origins come from a
+summed-area table of the blocked cells (outside the level's mask or under
+another courtyard; Crow 1984, from memory), so a move is legal on the same
+grid the packer uses and the placer's shapely self-check still applies.
+Cost: O(cells) per moved part.
+
+Defaults (common practice, from memory)
+---------------------------------------
+:data:`NEAR_WITHIN_MM` = 3 mm: decoupling capacitors "within a few mm" of
+the supply pins (REFERENCES.md section 7; application notes commonly ask
+for under about 3 mm, from memory). :data:`EDGE_BAND_MM` = 1 mm: a courtyard
+at most that far in from the edge still counts as at the edge (our own
+figure; a soldered wire leaves over it).
+
+Reference: F. C. Crow, "Summed-area tables for texture mapping", SIGGRAPH
+1984 (cited from memory).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from typing import Any, Sequence
+
+import numpy as np
+import shapely
+from shapely.geometry.base import BaseGeometry
+
+from .library.lands import pads_on_board
+from .model import Finding, Fixed, NearRule, PlaceItem, Region
+from .order import natural_key
+
+__all__ = ["attach_rules", "pin_edge_parts", "near_pass", "unmet_rules", "near_distance", "refresh_near_notes",
+           "EDGE_KINDS", "EDGE_BAND_MM", "NEAR_WITHIN_MM", "EDGE_STEP_MM"]
+
+#: Kinds that go to the board edge by the wire entry unless ``at_edge = false``.
+EDGE_KINDS = ("wire-pad", "header")
+#: A courtyard at most this far in from the placement area's outer edge is at the edge, mm (our own figure).
+EDGE_BAND_MM = 1.0
+#: Default near distance between pad centres, mm (common practice, from memory: "within a few mm").
+NEAR_WITHIN_MM = 3.0
+#: Candidate step of the edge pre-placement, mm.
+EDGE_STEP_MM = 0.25
+#: Most candidate centres per orientation the edge pre-placement looks at.
+EDGE_CANDIDATES = 40_000
+#: Geometric tolerance, mm.
+TOL = 1e-6
+
+
+def _fmt(v: float) -> str:
+    return f"{v:.2f}".rstrip("0").rstrip(".")
+
+
+# --------------------------------------------------------------------------
+# which items carry a rule
+# --------------------------------------------------------------------------
+def attach_rules(items: Sequence[PlaceItem], design: Any, library: Any, density: str) -> tuple[PlaceItem, ...]:
+    """``items`` with ``edge`` and ``near`` set from the design (module notes: the rules).
+
+    Cost: one connectivity graph of the design and O(ICs x caps).
+    """
+    from .check import decoupling_caps
+    from .graph import build_graph, pin_nets
+
+    parts = {p.ref: p for p in design.parts}
+    pkg = {it.ref: library.package(it.package) for it in items}
+    g = build_graph(design)
+    own = {k.name: k.category for k in design.kinds}  # kinds the design defines itself
+    cat = {p.kind: own[p.kind] if p.kind in own else library.kind(p.kind).category for p in design.parts}
+    decap = _decoupling_targets(design, decoupling_caps(design, g, cat), set(pkg))
+    out = []
+    for it in items:
+        part = parts[it.ref]
+        ask = part.ask
+        edge = part.kind in EDGE_KINDS if ask is None or ask.at_edge is None else ask.at_edge
+        near = None
+        if ask is not None and ask.near and ask.near in pkg:
+            near = NearRule(ask.near, (), ask.within_mm or NEAR_WITHIN_MM, "near", pkg[it.ref], pkg[ask.near],
+                            density, ask.file, ask.line)
+        elif it.ref in decap:
+            ic = decap[it.ref]
+            mine = {n for ns in pin_nets(g, it.ref).values() for n in ns}
+            pins = tuple(p.number for p in parts[ic].pins if p.role == "supply"
+                         and set(pin_nets(g, ic).get(p.number, ())) & mine)
+            near = NearRule(ic, pins, NEAR_WITHIN_MM, "decoupling", pkg[it.ref], pkg[ic], density)
+        out.append(dataclasses.replace(it, edge=bool(edge), near=near))
+    return tuple(out)
+
+
+def _decoupling_targets(design: Any, pairs: dict[str, tuple[str, ...]], fitted: set[str]) -> dict[str, str]:
+    """cap ref -> the one IC it decouples: the paired IC nearest in part order (ties: the earlier)."""
+    index = {p.ref: n for n, p in enumerate(design.parts)}
+    ics_of: dict[str, list[str]] = {}
+    for ic, caps in pairs.items():
+        for c in caps:
+            if ic in fitted and c in fitted:
+                ics_of.setdefault(c, []).append(ic)
+    return {c: min(ics, key=lambda ic: (abs(index[ic] - index[c]), index[ic])) for c, ics in ics_of.items()}
+
+
+# --------------------------------------------------------------------------
+# the edge rule: pre-placement
+# --------------------------------------------------------------------------
+def _outer_edge(area: BaseGeometry) -> BaseGeometry:
+    return shapely.union_all([shapely.get_exterior_ring(p) for p in shapely.get_parts(area)])
+
+
+def _allowed(area: BaseGeometry, region: Region, height: float) -> BaseGeometry:
+    """Where a top-side part of ``height`` may stand (area and the height zones that allow it)."""
+    if not region.zones:
+        return area
+    ok = [z.polygon for z in region.zones if z.max_height_mm >= height - 1e-9]
+    if not ok:
+        return shapely.Polygon()
+    u = shapely.union_all(ok).buffer(1e-7, join_style="mitre").buffer(-1e-7, join_style="mitre")
+    return area.intersection(u)
+
+
+def _candidates(area: BaseGeometry, dx: float, dy: float) -> tuple[np.ndarray, np.ndarray]:
+    minx, miny, maxx, maxy = area.bounds
+    span = max(maxx - minx, 1e-9) * max(maxy - miny, 1e-9)
+    step = max(EDGE_STEP_MM, math.sqrt(span / EDGE_CANDIDATES))
+    xs = np.arange(minx + dx / 2, maxx - dx / 2 + 1e-9, step)
+    ys = np.arange(miny + dy / 2, maxy - dy / 2 + 1e-9, step)
+    gx, gy = np.meshgrid(xs, ys)
+    return gx.ravel(), gy.ravel()
+
+
+def pin_edge_parts(items: Sequence[PlaceItem], fixed: dict, area: BaseGeometry, region: Region
+                   ) -> tuple[tuple[PlaceItem, ...], dict, list[Finding]]:
+    """Pre-place the edge parts as fixed parts (module notes: the method).
+
+    Parameters
+    ----------
+    items : sequence of PlaceItem
+    fixed : dict
+        ``item -> (side, (x1, y1, x2, y2))`` of the parts the user fixed.
+    area : geometry
+        The placement area (board less its edge clearance), mm.
+    region : Region
+        Height zones and the wire-entry zone.
+
+    Returns
+    -------
+    (items, fixed, findings)
+        Items with the pre-placed ones fixed, ``fixed`` with them added, and
+        a ``place.rule-unmet`` warning for each part that found no place in
+        the zone or the edge band.
+    """
+    todo = sorted((i for i, it in enumerate(items) if it.edge and it.fixed is None and i not in fixed),
+                  key=lambda i: natural_key(items[i].ref))
+    if not todo or area.is_empty:
+        return tuple(items), fixed, []
+    items, fixed = list(items), dict(fixed)
+    zone = region.wire_entry
+    taken = [fixed[j][1] for j in fixed if fixed[j][0] == "top"]
+    notes: list[Finding] = []
+    placed: list[tuple[float, float]] = []
+    spots: dict[tuple, tuple | None] = {}  # candidate spots by courtyard size and height (computed once)
+    for i in todo:
+        it = items[i]
+        key = (it.length_mm, it.width_mm, it.height_mm)
+        if key not in spots:
+            spots[key] = _spots(it, _allowed(area, region, it.height_mm), _outer_edge(area), zone)
+        best = _best_edge_spot(spots[key], taken, placed, zone is not None)
+        if best is None:
+            notes.append(Finding("warning", "place.rule-unmet", (it.ref,),
+                                 f"{it.ref} should sit at the board edge {_by(zone)}, but its courtyard fits "
+                                 "nowhere beside the parts fixed there; it is placed with the other parts."))
+            continue
+        tier, x, y, rot, far = best
+        rect = _rect(it, x, y, rot)
+        items[i] = dataclasses.replace(it, fixed=Fixed(x, y, rot, "top", "", 0))
+        fixed[i] = ("top", rect)
+        taken.append(rect)
+        placed.append((x, y))
+        if tier == 2:
+            notes.append(Finding("warning", "place.rule-unmet", (it.ref,),
+                                 f"{it.ref} should sit at the board edge {_by(zone)} (edge rule), but no room "
+                                 f"is left there: it ended {_fmt(far)} mm from "
+                                 + ("the zone." if zone is not None else "the edge band.")))
+    return tuple(items), fixed, notes
+
+
+def _by(zone) -> str:
+    return "nearest the wire-entry zone" if zone is not None else "(no wire-entry zone is drawn)"
+
+
+def _rect(it: PlaceItem, x: float, y: float, rot: int) -> tuple[float, float, float, float]:
+    dx, dy = (it.length_mm, it.width_mm) if rot in (0, 180) else (it.width_mm, it.length_mm)
+    return (x - dx / 2, y - dy / 2, x + dx / 2, y + dy / 2)
+
+
+def _spots(it: PlaceItem, allowed: BaseGeometry, edge: BaseGeometry, zone) -> tuple | None:
+    """Every legal candidate centre of ``it`` on an empty board: (x, y, rotation, boxes, tier,
+    distance to the edge, distance to the zone or None), in both orientations."""
+    if allowed.is_empty:
+        return None
+    shapely.prepare(allowed)
+    cols: list[list] = [[] for _ in range(7)]
+    for rot in ((0, 90) if abs(it.length_mm - it.width_mm) > TOL else (0,)):
+        dx, dy = (it.length_mm, it.width_mm) if rot == 0 else (it.width_mm, it.length_mm)
+        x, y = _candidates(allowed, dx, dy)
+        if not len(x):
+            continue
+        boxes = shapely.box(x - dx / 2, y - dy / 2, x + dx / 2, y + dy / 2)
+        ok = shapely.covers(allowed, boxes)
+        x, y, boxes = x[ok], y[ok], boxes[ok]
+        de = np.round(shapely.distance(edge, boxes), 6)
+        dz = np.round(shapely.distance(zone, boxes), 6) if zone is not None else np.full(len(x), np.inf)
+        if zone is not None:
+            inside = shapely.contains_xy(zone, x, y)
+            tier = np.where(inside, 0, np.where(de <= EDGE_BAND_MM + TOL, 1, 2))
+            c = zone.centroid  # inside the zone: nearest the edge, then nearest its middle
+            dz = np.where(inside, np.round(np.hypot(x - c.x, y - c.y), 6), dz)
+        else:
+            tier = np.where(de <= EDGE_BAND_MM + TOL, 1, 2)
+        for c, v in zip(cols, (x, y, np.full(len(x), rot), boxes, tier, de, dz)):
+            c.append(v)
+    if not cols[0]:
+        return None
+    x, y, rot, boxes, tier, de, dz = (np.concatenate(c) for c in cols)
+    return x, y, rot, boxes, tier, de, dz, shapely.STRtree(boxes)
+
+
+def _best_edge_spot(spots, taken: list, placed: list, has_zone: bool):
+    """(tier, x, y, rotation, distance) of the best free candidate, or None (module notes: tiers)."""
+    if spots is None:
+        return None
+    x, y, rot, boxes, tier, de, dz, tree = spots
+    free = np.ones(len(x), dtype=bool)
+    if taken:
+        r = np.array(taken, dtype=float).reshape(-1, 4) + np.array([1e-7, 1e-7, -1e-7, -1e-7])  # touching is legal
+        shrunk = shapely.box(*r.T)
+        _, hit = tree.query(shrunk, predicate="intersects")
+        free[hit] = False
+    if not free.any():
+        return None
+    x, y, rot, tier, de, dz = x[free], y[free], rot[free], tier[free], de[free], dz[free]
+    if has_zone:
+        score, far = np.where(tier == 0, de + 1e-3 * dz, dz), dz
+    else:
+        far = de
+        score = de
+        if placed:
+            cx, cy = np.mean(placed, axis=0)
+            score = np.where(tier == 1, np.round(np.hypot(x - cx, y - cy), 6), de)
+    k = int(np.lexsort((rot, np.round(x, 6), np.round(y, 6), score, tier))[0])
+    return int(tier[k]), float(x[k]), float(y[k]), int(rot[k]), float(far[k])
+
+
+# --------------------------------------------------------------------------
+# the near rule: a post-pass on the packer's grid
+# --------------------------------------------------------------------------
+def _points(rule: NearRule, own: bool, x: float, y: float, rot: int, side: str, pins=()) -> np.ndarray:
+    pkg = rule.own_package if own else rule.target_package
+    pads = pads_on_board(pkg, x, y, rot, side, rule.level)
+    if pins:
+        pads = [p for p in pads if p.number in pins]
+    return np.array([(p.x_mm, p.y_mm) for p in pads], dtype=float).reshape(-1, 2)
+
+
+def near_distance(rule: NearRule, own_at: tuple, target_at: tuple) -> float:
+    """Nearest distance between this part's pad centres and the target's ``pins`` (all: empty), mm.
+
+    ``own_at`` and ``target_at`` are ``(x, y, rotation, side)`` of the two
+    placements (courtyard centres).
+    """
+    a = _points(rule, True, *own_at)
+    b = _points(rule, False, *target_at, pins=rule.pins)
+    if not len(a) or not len(b):
+        return 0.0
+    return float(np.min(np.hypot(a[:, None, 0] - b[None, :, 0], a[:, None, 1] - b[None, :, 1])))
+
+
+def _cells(g, rect) -> tuple[int, int, int, int]:
+    x1, y1, x2, y2 = rect
+    c0 = int(math.floor((x1 - g.x0) / g.cell + 1e-9))
+    c1 = int(math.ceil((x2 - g.x0) / g.cell - 1e-9))
+    r0 = int(math.floor((y1 - g.y0) / g.cell + 1e-9))
+    r1 = int(math.ceil((y2 - g.y0) / g.cell - 1e-9))
+    return max(r0, 0), max(r1, 0), max(c0, 0), max(c1, 0)
+
+
+def _where(packer, run, fixed: dict, i: int) -> tuple | None:
+    """(x, y, rotation, side) of item ``i`` as placed, or None when it is not."""
+    if i in fixed:
+        f = packer.items[i].fixed
+        return (f.x_mm, f.y_mm, f.rotation_deg, f.side)
+    if i not in run.slots:
+        return None
+    x1, y1, x2, y2 = packer.rect(i, run.slots[i])
+    return ((x1 + x2) / 2, (y1 + y2) / 2, 90 if run.slots[i][1] else 0, run.slots[i][0])
+
+
+def near_pass(packer: Any, run: Any, fixed: dict) -> None:
+    """Move each packed part whose near rule is unmet to its nearest legal slot (module notes).
+
+    ``packer`` and ``run`` are :mod:`pipeline.place`'s packer and packing
+    run (``run.slots`` is updated); ``fixed`` its fixed parts. Only top-side
+    parts move; fixed parts never do.
+    """
+    items = packer.items
+    index = {it.ref: n for n, it in enumerate(items)}
+    movers = sorted((i for i, it in enumerate(items) if it.near is not None and i in run.slots
+                     and run.slots[i][0] == "top" and run.top_level.get(i) is not None),
+                    key=lambda i: natural_key(items[i].ref))
+    for i in movers:
+        rule = items[i].near
+        target = _where(packer, run, fixed, index[rule.target])
+        if target is None or near_distance(rule, _where(packer, run, fixed, i), target) <= rule.within_mm + TOL:
+            continue
+        goal = _points(rule, False, *target, pins=rule.pins)
+        free = _nearest_slot(packer, run, fixed, i, goal)
+        swap = _nearest_swap(packer, run, fixed, i, goal)
+        if free is not None and (swap is None or free[0] <= max(rule.within_mm + TOL, swap[0])):
+            run.slots[i] = free[1]
+        elif swap is not None:
+            j = swap[1]
+            run.slots[i], run.slots[j] = run.slots[j], run.slots[i]
+
+
+def _slot_distance(packer, i: int, slot, goal: np.ndarray) -> float:
+    x1, y1, x2, y2 = packer.rect(i, slot)
+    own = _points(packer.items[i].near, True, (x1 + x2) / 2, (y1 + y2) / 2, 90 if slot[1] else 0, slot[0])
+    return float(np.min(np.hypot(own[:, None, 0] - goal[None, :, 0], own[:, None, 1] - goal[None, :, 1])))
+
+
+def _stands(packer, run, k: int, slot) -> bool:
+    """May item ``k`` stand in ``slot`` as far as heights go (its level's free cells cover it)?"""
+    lvl = run.top_level.get(k)
+    if lvl is None:
+        return False
+    r0, r1, c0, c1 = _cells(packer.grid, packer.rect(k, slot))
+    return bool(packer.mask(lvl)[r0:r1, c0:c1].all())
+
+
+def _nearest_swap(packer, run, fixed: dict, i: int, goal: np.ndarray):
+    """(distance, j) of the packed top-side part of ``i``'s cell size whose slot brings ``i``'s pads
+    nearest ``goal``; a trade keeps both legal when each may stand, by height, in the other's cells
+    (the cells are the same); a part with a near rule of its own is taken only when ``i``'s old slot
+    still meets it."""
+    index = {it.ref: n for n, it in enumerate(packer.items)}
+    best = None
+    for j in sorted(run.slots):
+        if j == i or (packer.wc[j], packer.hc[j]) != (packer.wc[i], packer.hc[i]) or run.slots[j][0] != "top":
+            continue
+        if not (_stands(packer, run, i, run.slots[j]) and _stands(packer, run, j, run.slots[i])):
+            continue
+        d = round(_slot_distance(packer, i, run.slots[j], goal), 6)
+        if best is not None and (d, j) >= best:
+            continue
+        other = packer.items[j].near
+        if other is not None:
+            there = _where(packer, run, fixed, index[other.target])
+            if there is None or index[other.target] == i:
+                continue
+            theirs = _points(other, False, *there, pins=other.pins)
+            if not len(theirs) or _slot_distance(packer, j, run.slots[i], theirs) > other.within_mm + TOL:
+                continue
+        best = (d, j)
+    if best is None or best[0] >= round(_slot_distance(packer, i, run.slots[i], goal), 6):
+        return None
+    return best
+
+
+def _window(g, goal: np.ndarray, reach: float) -> tuple[int, int, int, int]:
+    """Grid rows and columns of origins within ``reach`` mm (a box) of the goal points: a courtyard
+    outside it has every pad farther than ``reach`` less its own size from the goal."""
+    (gx0, gy0), (gx1, gy1) = goal.min(axis=0), goal.max(axis=0)
+    c0 = max(0, int((gx0 - reach - g.x0) / g.cell))
+    r0 = max(0, int((gy0 - reach - g.y0) / g.cell))
+    return (r0, max(r0, int(math.ceil((gy1 + reach - g.y0) / g.cell))),
+            c0, max(c0, int(math.ceil((gx1 + reach - g.x0) / g.cell))))
+
+
+def _scan(ok: np.ndarray, g, goal: np.ndarray, pads: np.ndarray, size: tuple, span) -> tuple | None:
+    """(distance, row, column) of the free origin in ``span`` (rows, columns) nearest the goal."""
+    r0, r1, c0, c1 = span
+    rows, cols = np.nonzero(ok[r0:r1, c0:c1])
+    if not len(rows):
+        return None
+    rows, cols = rows + r0, cols + c0
+    cx = g.x0 + cols * g.cell + size[0] / 2
+    cy = g.y0 + rows * g.cell + size[1] / 2
+    d = np.full(len(rows), np.inf)
+    for px, py in pads:
+        for tx, ty in goal:
+            d = np.minimum(d, np.hypot(cx + px - tx, cy + py - ty))
+    k = int(np.lexsort((cols, rows, np.round(d, 6)))[0])
+    return round(float(d[k]), 6), int(rows[k]), int(cols[k])
+
+
+def _nearest_slot(packer, run, fixed: dict, i: int, goal: np.ndarray):
+    """(distance, slot): the free legal top-side slot of item ``i`` whose pads come nearest ``goal``
+    (ties: row, column, turn), or None."""
+    g = packer.grid
+    blocked = ~packer.mask(run.top_level[i])
+    for j, slot in run.slots.items():
+        if j != i and slot[0] == "top":
+            r0, r1, c0, c1 = _cells(g, packer.rect(j, slot))
+            blocked[r0:r1, c0:c1] = True
+    for side, rect in fixed.values():
+        if side == "top":
+            r0, r1, c0, c1 = _cells(g, rect)
+            blocked[r0:r1, c0:c1] = True
+    sat = np.zeros((g.ny + 1, g.nx + 1), dtype=np.int64)
+    sat[1:, 1:] = np.cumsum(np.cumsum(blocked, axis=0), axis=1)
+    rule, it = packer.items[i].near, packer.items[i]
+    best = None
+    h0, w0 = packer.hc[i], packer.wc[i]
+    for o, (h, w) in enumerate(((h0, w0), (w0, h0))):
+        if h > g.ny or w > g.nx:
+            continue
+        ok = (sat[h:, w:] - sat[:-h, w:] - sat[h:, :-w] + sat[:-h, :-w]) == 0
+        size = (it.length_mm, it.width_mm) if o == 0 else (it.width_mm, it.length_mm)
+        pads = _points(rule, True, 0.0, 0.0, 90 * o, "top")
+        found = _scan(ok, g, goal, pads, size, _window(g, goal, rule.within_mm + size[0] + size[1]))
+        if found is None or found[0] > rule.within_mm:  # nothing near enough close by: look everywhere
+            found = _scan(ok, g, goal, pads, size, (0, ok.shape[0], 0, ok.shape[1]))
+        if found is not None and (found[0], found[1], found[2], o) < (best or (math.inf,)):
+            best = (found[0], found[1], found[2], o)
+    return None if best is None else (best[0], ("top", best[3], best[1], best[2]))
+
+
+# --------------------------------------------------------------------------
+# what is left unmet
+# --------------------------------------------------------------------------
+def unmet_rules(items: Sequence[PlaceItem], placements: Sequence[Any]) -> tuple[list[str], list[Finding]]:
+    """Near rules the final placement does not meet: ``blocked_by`` sentences (a ``near`` the
+    design asked for) and ``place.rule-unmet`` warnings (the decoupling default)."""
+    at = {p.ref: (p.x_mm, p.y_mm, p.rotation_deg, p.side) for p in placements}
+    blocked: list[str] = []
+    notes: list[Finding] = []
+    for it in sorted(items, key=lambda it: natural_key(it.ref)):
+        rule = it.near
+        if rule is None or it.ref not in at or rule.target not in at:
+            continue
+        d = near_distance(rule, at[it.ref], at[rule.target])
+        if d <= rule.within_mm + TOL:
+            continue
+        pins = f"supply pins {', '.join(rule.pins)}" if rule.pins else "pins"
+        text = (f"{it.ref} should have a pad within {_fmt(rule.within_mm)} mm of {rule.target}'s {pins} "
+                f"({'near' if rule.why == 'near' else 'decoupling, the default'} rule), but the nearest place "
+                f"left for it is {_fmt(d)} mm away")
+        if rule.why == "near":
+            blocked.append(text + f" (near, {rule.file}): give the board more room around {rule.target} "
+                                  "or raise within_mm.")
+        else:
+            notes.append(Finding("warning", "place.rule-unmet", (it.ref, rule.target),
+                                 text + ": give the board more room or fix the capacitor's place with at."))
+    return blocked, notes
+
+
+def refresh_near_notes(findings: Sequence[Finding], items: Sequence[PlaceItem], placements: Sequence[Any]
+                       ) -> list[Finding]:
+    """``findings`` with the near-rule warnings recomputed for ``placements`` (the routing step may
+    have spread the parts after the placer wrote them)."""
+    kept = [f for f in findings if not (f.check == "place.rule-unmet" and len(f.subject) == 2)]
+    return kept + unmet_rules(items, placements)[1]

@@ -1,0 +1,289 @@
+"""Parts that must sit somewhere (pipeline/place_rules.py): fixed parts, the wire-entry zone, near rules.
+
+Every placement is re-checked here with shapely and the test's own pad
+arithmetic (a quarter turn maps (x, y) to (-y, x): elementary geometry),
+independently of the placer.
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import ezdxf
+import pytest
+import shapely
+from click.testing import CliRunner
+from hypothesis import HealthCheck, Phase, given, settings
+from hypothesis import strategies as st
+from shapely.geometry import box
+
+from pipeline.area import items_from_design
+from pipeline.cavity import read_cavity
+from pipeline.cavity.roles import parse_layer_map
+from pipeline.cli import main
+from pipeline.design import read_design_text
+from pipeline.library import load_library
+from pipeline.model import BoardOptions, HeightZone, Region
+from pipeline.place import place_and_fit
+from pipeline.place_rules import EDGE_BAND_MM, NEAR_WITHIN_MM
+
+ROOT = Path(__file__).resolve().parents[1]
+LIB = load_library()
+EDGE = 0.5  # edge clearance of the tests' boards, mm
+
+
+def _design(pads: int, resistors: int, fixed_r1: tuple[float, float] | None, extra: str = "") -> str:
+    """An op-amp with two decoupling caps across its supply, wire pads and resistors."""
+    out = ['[design]\nname = "t"\n',
+           '[parts.U1]\nkind = "opamp-dual"\npackage = "SOIC-8"\n',
+           '[parts.C1]\nkind = "capacitor"\nvalue = "100n"\npackage = "0603"\n',
+           '[parts.C2]\nkind = "capacitor"\nvalue = "1u"\npackage = "0603"\n']
+    for k in range(1, pads + 1):
+        out.append(f'[parts.P{k}]\nkind = "wire-pad"\npackage = "pad-1.5mm"\n')
+    for k in range(1, resistors + 1):
+        at = f"at = [{fixed_r1[0]}, {fixed_r1[1]}]\nrotation = 90\n" if k == 1 and fixed_r1 else ""
+        out.append(f'[parts.R{k}]\nkind = "resistor"\nvalue = "10k"\npackage = "0603"\n{at}')
+    out.append(extra)
+    sig = ["U1.3", "U1.5"] + [f"R{k}.1" for k in range(1, resistors + 1)]
+    nets = {"VCC": ["U1.8", "C1.1", "C2.1"], "GND": ["U1.4", "C1.2", "C2.2"],
+            "OUT": ["U1.1", "U1.2"] + [f"R{k}.2" for k in range(1, resistors + 1)], "OUTB": ["U1.6", "U1.7"],
+            "IN": sig}
+    for k in range(1, pads + 1):
+        nets[["VCC", "GND", "IN", "OUT"][(k - 1) % 4]].append(f"P{k}.1")
+    out.append("[nets]\n" + "".join(f"{n} = {v!r}\n".replace("'", '"') for n, v in nets.items()))
+    return "\n".join(out)
+
+
+def _pad_centres(ref_pkg: str, x: float, y: float, rot: int, pins=None) -> list[tuple[float, float]]:
+    """Pad centres on the board, by the test's own quarter-turn arithmetic."""
+    c, s = round(math.cos(math.radians(rot))), round(math.sin(math.radians(rot)))
+    return [(x + p.x_mm * c - p.y_mm * s, y + p.x_mm * s + p.y_mm * c)
+            for p in LIB.package(ref_pkg).pads if pins is None or p.number in pins]
+
+
+def _nearest(a, b) -> float:
+    return min(math.dist(p, q) for p in a for q in b)
+
+
+WALLS = st.sampled_from(["left", "right", "bottom", "top"])
+
+
+def _zone(wall: str, w: float, h: float, at: float) -> shapely.Geometry:
+    """A 4 mm wide zone straddling one wall of the w x h board, at fraction ``at`` along it."""
+    if wall in ("left", "right"):
+        y = at * (h - 4)
+        x0 = -1 if wall == "left" else w - 2
+        return box(x0, y, x0 + 3, y + 4)
+    x = at * (w - 4)
+    y0 = -1 if wall == "bottom" else h - 2
+    return box(x, y0, x + 4, y0 + 3)
+
+
+GENERATED = dict(w=st.floats(26, 34), h=st.floats(18, 22), wall=WALLS, at=st.floats(0, 1), pads=st.integers(1, 5),
+                 resistors=st.integers(1, 5), fx=st.floats(0.3, 0.7), fy=st.floats(0.3, 0.7), zone=st.booleans())
+
+
+@settings(max_examples=6, deadline=None, suppress_health_check=[HealthCheck.too_slow],
+          phases=[Phase.explicit, Phase.generate])  # bounded: no shrinking (a slow placement per example)
+@given(**GENERATED)
+def test_generated_designs_keep_every_rule(**case):
+    _check_generated(**case)
+
+
+@pytest.mark.fuzz
+@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(**GENERATED)
+def test_generated_designs_keep_every_rule_long(**case):
+    """The same, many more designs (pytest -m fuzz; minutes)."""
+    _check_generated(**case)
+
+
+def _check_generated(w, h, wall, at, pads, resistors, fx, fy, zone):
+    fixed = (round(fx * w, 2), round(fy * h, 2))
+    design, _ = read_design_text(_design(pads, resistors, fixed), LIB)
+    items = items_from_design(design, LIB, "nominal")
+    entry = _zone(wall, w, h, at) if zone else None
+    region = Region(box(0, 0, w, h), (HeightZone(box(0, 0, w, h), 5.0),), 0.8, wire_entry=entry)
+    fit = place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE))
+    assert fit.fits, fit.blocked_by
+    at_ = {p.ref: p for p in fit.placements}
+    # fixed part exactly where asked
+    assert (at_["R1"].x_mm, at_["R1"].y_mm, at_["R1"].rotation_deg) == (fixed[0], fixed[1], 90)
+    # every courtyard inside the board less its edge clearance, none overlapping (shapely, not the placer)
+    area = box(EDGE, EDGE, w - EDGE, h - EDGE)
+    courts = [p.courtyard for p in fit.placements]
+    assert all(area.buffer(1e-6).covers(c) for c in courts)
+    for i, a in enumerate(courts):
+        for b in courts[i + 1:]:
+            assert a.intersection(b).area < 1e-9
+    # wire pads inside the zone or in the edge band: courtyard within the edge clearance plus
+    # EDGE_BAND_MM of the board outline (plus 0.01 mm: the placer insets by a polygon that keeps
+    # arcs outside the true circle, pipeline/place.py _inset)
+    outline = box(0, 0, w, h).exterior
+    for k in range(1, pads + 1):
+        c = at_[f"P{k}"].courtyard
+        in_zone = entry is not None and entry.contains(c.centroid)
+        assert in_zone or outline.distance(c) <= EDGE + EDGE_BAND_MM + 0.01, (f"P{k}", c.bounds)
+    # decoupling caps within NEAR_WITHIN_MM (pad centre to supply pad centre) of U1's pins 4 and 8
+    u = at_["U1"]
+    supply = _pad_centres("SOIC-8", u.x_mm, u.y_mm, u.rotation_deg, pins=("4", "8"))
+    for cap in ("C1", "C2"):
+        p = at_[cap]
+        assert _nearest(_pad_centres("0603", p.x_mm, p.y_mm, p.rotation_deg), supply) <= NEAR_WITHIN_MM + 1e-6
+
+
+def test_with_a_zone_the_pads_sit_in_it_first():
+    """Three pads and a zone wide enough for three: all three courtyards touch the zone."""
+    design, _ = read_design_text(_design(3, 2, None), LIB)
+    items = items_from_design(design, LIB, "nominal")
+    entry = box(20, -1, 28, 2)  # across the lower wall; 8 mm holds three 2 mm pads
+    region = Region(box(0, 0, 30, 20), (HeightZone(box(0, 0, 30, 20), 5.0),), 0.8, wire_entry=entry)
+    fit = place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE))
+    pads = [p for p in fit.placements if p.ref.startswith("P")]
+    assert len(pads) == 3 and all(entry.contains(p.courtyard.centroid) for p in pads)
+
+
+def test_at_edge_false_and_true_change_the_items():
+    extra = '[parts.R9]\nkind = "resistor"\nvalue = "1k"\npackage = "0603"\nat_edge = true\n'
+    text = _design(2, 1, None, extra).replace('package = "pad-1.5mm"\n', 'package = "pad-1.5mm"\nat_edge = false\n', 1)
+    text = text.replace('IN = ["U1.3"', 'IN = ["R9.1", "U1.3"').replace('OUTB = ["U1.6"', 'OUTB = ["R9.2", "U1.6"')
+    design, _ = read_design_text(text, LIB)
+    edge = {it.ref: it.edge for it in items_from_design(design, LIB, "nominal")}
+    assert edge["P1"] is False and edge["P2"] is True and edge["R9"] is True and edge["R1"] is False
+
+
+def test_a_near_rule_that_cannot_be_met_blocks_and_says_how_far():
+    """C1 fixed 20 mm from U1 with near = U1 within 2 mm: the fit names C1, the rule and the distance."""
+    text = _design(0, 1, None).replace('[parts.C1]\nkind = "capacitor"\nvalue = "100n"\npackage = "0603"\n',
+                                       '[parts.C1]\nkind = "capacitor"\nvalue = "100n"\npackage = "0603"\n'
+                                       'near = "U1"\nwithin_mm = 2\nat = [27, 10]\n')
+    text = text.replace('[parts.U1]\nkind = "opamp-dual"\npackage = "SOIC-8"\n',
+                        '[parts.U1]\nkind = "opamp-dual"\npackage = "SOIC-8"\nat = [5, 10]\n')
+    design, _ = read_design_text(text, LIB)
+    region = Region(box(0, 0, 30, 20), (HeightZone(box(0, 0, 30, 20), 5.0),), 0.8)
+    fit = place_and_fit(items_from_design(design, LIB, "nominal"), region, BoardOptions(edge_clearance_mm=EDGE))
+    assert not fit.fits
+    # the expected distance, by the test's own arithmetic: nearest of C1's pads to any of U1's pads
+    want = _nearest(_pad_centres("0603", 27, 10, 0), _pad_centres("SOIC-8", 5, 10, 0))
+    text = next(b for b in fit.blocked_by if b.startswith("C1 "))
+    assert "within 2 mm of U1" in text and "near" in text and f"{want:.2f}".rstrip("0").rstrip(".") in text
+
+
+def test_the_swap_pass_does_not_take_a_decoupling_cap_away():
+    """With and without the swap improvement, the caps end within the distance."""
+    design, _ = read_design_text(_design(2, 8, None), LIB)
+    items = items_from_design(design, LIB, "nominal")
+    region = Region(box(0, 0, 30, 20), (HeightZone(box(0, 0, 30, 20), 5.0),), 0.8)
+    for improve in (True, False):
+        fit = place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE), improve=improve)
+        at_ = {p.ref: p for p in fit.placements}
+        u = at_["U1"]
+        supply = _pad_centres("SOIC-8", u.x_mm, u.y_mm, u.rotation_deg, pins=("4", "8"))
+        for cap in ("C1", "C2"):
+            p = at_[cap]
+            assert _nearest(_pad_centres("0603", p.x_mm, p.y_mm, p.rotation_deg), supply) <= NEAR_WITHIN_MM
+
+
+# ---------------------------------------------------------------------------- the zone in the cavity readers
+def test_layer_map_takes_the_wire_entry_role():
+    roles = parse_layer_map({"WIRE-ENTRY": "Wires in"})
+    assert roles.role_of("WIRES IN") == ("WIRE-ENTRY", None)
+    assert roles.role_of("WIRE-ENTRY") is None  # a mapped role takes only the named layers
+
+
+def test_demo_bay_has_its_wire_entry_zone_in_both_forms():
+    """x 4..10, y -1..2.5 (outlines/README.md): 6 x 3.5 = 21 mm² drawn, the same in the measured file."""
+    for name in ("controller-bay.dxf", "controller-bay.cavity.toml"):
+        cav, _ = read_cavity(ROOT / "outlines" / name, depth_mm=6.0)
+        assert len(cav.wire_entries) == 1
+        assert cav.wire_entries[0].area == pytest.approx(21.0, abs=1e-9)
+        assert cav.wire_entries[0].bounds == pytest.approx((4, -1, 10, 2.5))
+
+
+# ---------------------------------------------------------------------------- bad input through the CLI
+_MINI = _design(2, 1, None)
+
+
+def _dxf(path: Path, zone_layer: str | None, zone_at=(4, -1)) -> None:
+    doc = ezdxf.new("R2010", units=4)  # $INSUNITS 4: millimetres
+    msp = doc.modelspace()
+    msp.add_lwpolyline([(0, 0), (30, 0), (30, 20), (0, 20)], close=True, dxfattribs={"layer": "CAVITY"})
+    if zone_layer:
+        x, y = zone_at
+        msp.add_lwpolyline([(x, y), (x + 4, y), (x + 4, y + 3), (x, y + 3)], close=True,
+                           dxfattribs={"layer": zone_layer})
+    doc.saveas(path)
+
+
+def _project(tmp_path: Path, *, cavity: str, design: str = _MINI, layers: str = "") -> Path:
+    d = tmp_path / "proj"
+    d.mkdir()
+    (d / "design.toml").write_text(design)
+    (d / "project.toml").write_text(f'[project]\nname = "t"\ndesign = "design.toml"\ncavity = "{cavity}"\n'
+                                    f'[cavity]\ndepth_mm = 5.0\n{layers}')
+    return d
+
+
+MEASURED = 'units = "mm"\n[pocket]\nsize = [30, 20]\n'
+
+
+@pytest.mark.parametrize("case, needles", [
+    ("unknown-zone-layer", ["bay.dxf", "cavity.layers.WIRE-ENTRY"]),
+    ("zone-outside-drawing", ["bay.dxf", "wire-entry zone", "outside the cavity"]),
+    ("zone-outside-measured", ["bay.cavity.toml", "wire_entry[0]", "outside the pocket"]),
+    ("zone-unknown-key", ["bay.cavity.toml", "wire_entry[0].depth"]),
+    ("near-missing-part", ["design.toml", "parts.C1.near", "U9"]),
+    ("within-without-near", ["design.toml", "parts.C1.within_mm"]),
+    ("at-edge-not-bool", ["design.toml", "parts.P1.at_edge"]),
+])
+def test_bad_input_exits_2_naming_file_and_key(tmp_path, case, needles):
+    design, layers, cavity = _MINI, "", "bay.dxf"
+    if case == "unknown-zone-layer":
+        layers = '[cavity.layers]\n"WIRE-ENTRY" = "Wires"\n'
+    if case.endswith("measured") or case == "zone-unknown-key":
+        cavity = "bay.cavity.toml"
+    d = _project(tmp_path, cavity=cavity, layers=layers, design=design)
+    if cavity.endswith(".dxf"):
+        _dxf(d / cavity, "WIRE-ENTRY" if case == "zone-outside-drawing" else None, zone_at=(100, 100))
+    elif case == "zone-outside-measured":
+        (d / cavity).write_text(MEASURED + "[[wire_entry]]\nat = [100, 100]\nsize = [3, 3]\n")
+    else:
+        (d / cavity).write_text(MEASURED + "[[wire_entry]]\nat = [4, -1]\nsize = [3, 3]\ndepth = 2\n")
+    cap = '[parts.C1]\nkind = "capacitor"\nvalue = "100n"\npackage = "0603"\n'
+    edits = {"near-missing-part": (cap, cap + 'near = "U9"\n'),
+             "within-without-near": (cap, cap + "within_mm = 2\n"),
+             "at-edge-not-bool": ('package = "pad-1.5mm"\n', 'package = "pad-1.5mm"\nat_edge = "yes"\n')}
+    if case in edits:
+        old, new = edits[case]
+        (d / "design.toml").write_text(design.replace(old, new, 1))
+    before = sorted(p.name for p in d.iterdir())
+    r = CliRunner().invoke(main, ["run", str(d), "--out", str(d / "out")])
+    assert r.exit_code == 2, r.output
+    text = r.output
+    assert all(n in text for n in needles), text
+    assert "Traceback" not in text
+    assert not (d / "out").exists() and sorted(p.name for p in d.iterdir()) == before
+
+
+def test_a_project_with_a_drawn_zone_runs_and_puts_the_pads_there(tmp_path):
+    d = _project(tmp_path, cavity="bay.dxf")
+    _dxf(d / "bay.dxf", "WIRE-ENTRY", zone_at=(20, -1))
+    r = CliRunner().invoke(main, ["run", str(d), "--out", str(d / "out"), "--no-route"])
+    assert r.exit_code in (0, 1), r.output
+    rows = (d / "out" / "placement.csv").read_text().splitlines()[1:]
+    zone = box(20, -1, 24, 2)
+    for row in rows:
+        ref, x, y, rot, _side = row.split(",")
+        if ref.startswith("P"):  # two 2 mm pads fit in the 4 mm zone: both centres in it
+            assert zone.contains(shapely.Point(float(x), float(y))), row
+
+
+def test_measured_zone_survives_the_dxf_writer(tmp_path):
+    """snugboard cavity bay.toml --write-dxf: the zone comes back on WIRE-ENTRY with the same shape."""
+    out = tmp_path / "bay.dxf"
+    r = CliRunner().invoke(main, ["cavity", str(ROOT / "outlines" / "controller-bay.cavity.toml"),
+                                  "--write-dxf", str(out)])
+    assert r.exit_code == 0, r.output
+    cav, _ = read_cavity(out, depth_mm=6.0)
+    assert len(cav.wire_entries) == 1 and cav.wire_entries[0].area == pytest.approx(21.0, abs=1e-6)
