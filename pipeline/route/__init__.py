@@ -30,9 +30,9 @@ ROUTED, OPEN, SKIPPED = "routed", "open", "skipped"
 #: compact placement does not route: tried in this order, first that routes wins (our choice).
 SPREAD_STEPS = (0, 1, 2, 3, 4, 6)
 #: pitches added across each part's pin rows (pin-side inflation, pipeline/route/inflate.py), tried after
-#: the uniform steps (our choice: on the demo it routes boards of 1.6 and 1.7 x the courtyard sum that
-#: uniform growth does not place, bench/README.md).
-PIN_STEPS = (1, 2, 3, 4)
+#: the uniform steps (our choice: on the demo it routes boards of 1.7 x the courtyard sum that uniform
+#: growth does not place; the half steps are what routes them, bench/README.md).
+PIN_STEPS = (0.5, 1, 1.5, 2, 3, 4)
 
 
 @dataclass(frozen=True)
