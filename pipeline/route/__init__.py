@@ -21,13 +21,18 @@ from typing import Any, Callable
 from .rules import CopperRules
 
 # no geometry library at import time: reading project.toml imports the rules from here
-__all__ = ["RouteVerdict", "RouteOutcome", "route_placed", "route_fit", "skipped", "CopperRules", "SPREAD_STEPS"]
+__all__ = ["RouteVerdict", "RouteOutcome", "route_placed", "route_fit", "skipped", "CopperRules", "SPREAD_STEPS",
+           "PIN_STEPS", "spread_attempts"]
 
 ROUTED, OPEN, SKIPPED = "routed", "open", "skipped"
 
 #: room added around every courtyard (in routing pitches, to its length and to its width) when the
 #: compact placement does not route: tried in this order, first that routes wins (our choice).
 SPREAD_STEPS = (0, 1, 2, 3, 4, 6)
+#: pitches added across each part's pin rows (pin-side inflation, pipeline/route/inflate.py), tried after
+#: the uniform steps (our choice: on the demo it routes boards of 1.7 x the courtyard sum that uniform
+#: growth does not place; the half steps are what routes them, bench/README.md).
+PIN_STEPS = (0.5, 1, 1.5, 2, 3, 4)
 
 
 @dataclass(frozen=True)
@@ -128,14 +133,19 @@ def route_fit(fit, items, region, options, design, library, rules: CopperRules, 
     """Route a fit; when it does not route, spread the parts and try again.
 
     Placement for routing by iterating placement and routing: the placer
-    (:func:`pipeline.place.place_and_fit`, unchanged) places courtyards
-    grown by ``SPREAD_STEPS`` pitches (``m`` mm added to length and width),
-    so every part keeps ``m / 2`` of extra room on each side; each placement
-    is routed, the first that routes wins, else the one with fewest open
-    nets. A grown courtyard placed legally holds the true one at its centre,
-    so the true placement is legal too. Returns ``(fit, RouteOutcome)`` with
-    the fit whose placements were routed (true courtyards; the courtyard
-    sum and estimate of the compact fit).
+    (:func:`pipeline.place.place_and_fit`, unchanged) places grown
+    courtyards and each placement is routed; the first that routes wins,
+    else the one with fewest open nets (:func:`spread_attempts` gives the
+    order: the compact fit, uniform growth by ``SPREAD_STEPS`` pitches,
+    then pin-side inflation by ``PIN_STEPS`` pitches (:mod:`.inflate`: room
+    only on the sides facing the pins), which still places where uniform
+    growth no longer does). A sequence stops at its first
+    placement that does not place (larger growth places no better). A grown
+    courtyard placed legally holds the true one at its centre, so the true
+    placement is legal too. Returns ``(fit, RouteOutcome)`` with the fit
+    whose placements were routed (true courtyards; the courtyard sum and
+    estimate of the compact fit); ``spread_mm`` is the most mm added to a
+    courtyard's length or width.
 
     ``rules.time_budget_s`` bounds all the attempts together: each routing
     gets what the earlier ones left, and no further spread is tried once it
@@ -146,31 +156,66 @@ def route_fit(fit, items, region, options, design, library, rules: CopperRules, 
 
     from ..place import place_and_fit
 
-    best = None
+    best, stopped = None, set()
     deadline = time.monotonic() + rules.time_budget_s
-    for step in SPREAD_STEPS:
+    for kind, grown in spread_attempts(items, library, options.density, rules.pitch_mm):
         if best is not None and time.monotonic() >= deadline:
             break
-        m = step * rules.pitch_mm
-        if step == 0:
+        if kind in stopped:
+            continue
+        if grown is None:
             f = fit
         else:
-            grown = tuple(dataclasses.replace(it, length_mm=it.length_mm + m, width_mm=it.width_mm + m)
-                          for it in items)
             spread = place_and_fit(grown, region, options, user_board=user_board)
             if not spread.fits:
-                break
+                stopped.add(kind)
+                continue
             f = dataclasses.replace(fit, placements=_true_courtyards(spread.placements, items),
                                     board_outline=spread.board_outline, wirelength_mm=spread.wirelength_mm)
         left = max(deadline - time.monotonic(), 0.0)
         out = route_placed(f.board_outline, f.placements, design, library, rules, level=options.density,
                            progress=progress, keepouts=_head_rings(region), time_budget_s=left)
+        m = _growth(grown, items)
         out = dataclasses.replace(out, verdict=dataclasses.replace(out.verdict, spread_mm=m))
         if best is None or len(out.verdict.open_nets) < len(best[1].verdict.open_nets):
             best = (f, out)
         if out.verdict.status == ROUTED:
             break
     return best
+
+
+def spread_attempts(items, library, level: str, pitch_mm: float):
+    """The placements route_fit tries, in order: ``(kind, grown items or None for the compact fit)``.
+
+    Kinds: ``"compact"``, ``"uniform"`` (every courtyard grown by
+    ``SPREAD_STEPS`` pitches in length and width) and ``"pins"``
+    (:func:`pipeline.route.inflate.inflate` across the pin rows by each of
+    ``PIN_STEPS`` pitches). Uniform growth comes first because on the
+    60-part board of bench/bench_route.py pin-side placements left more
+    nets open and, tried first, spent the time budget; pin-side growth adds
+    about half the area, so it still places on the tight boards where
+    uniform growth stops (the demo at 1.6 and 1.7 x the courtyard sum).
+    Lazy: the grown items are built when asked.
+    """
+    import dataclasses
+
+    from .inflate import inflate, pin_axes
+
+    yield "compact", None
+    for step in SPREAD_STEPS[1:]:
+        m = step * pitch_mm
+        yield "uniform", tuple(dataclasses.replace(it, length_mm=it.length_mm + m, width_mm=it.width_mm + m)
+                               for it in items)
+    axes = pin_axes(items, library, level)
+    for s in PIN_STEPS:
+        yield "pins", inflate(items, axes, s, pitch_mm)
+
+
+def _growth(grown, items) -> float:
+    """The most mm added to a courtyard's length or width (0 for the compact fit)."""
+    if grown is None or not items:
+        return 0.0
+    return max(max(g.length_mm - it.length_mm, g.width_mm - it.width_mm) for g, it in zip(grown, items))
 
 
 def _head_rings(region) -> tuple:
