@@ -84,8 +84,10 @@ class CopperRules:
     on an inner layer, a pour on an outer one); a layer given to a net is
     not used for other nets' tracks. ``currents`` pairs a net with its
     current (A); its tracks get :func:`width_for_current` when that is wider
-    than ``track_width_mm``. ``time_budget_s`` bounds the router (default
-    60 s, our choice: the demo routes in about a second).
+    than ``track_width_mm``. ``time_budget_s`` bounds all routing attempts
+    together (default 180 s, our choice: the demo routes in about a second,
+    the 60-part board of ``bench/bench_route.py`` needs about a minute of
+    CPU over its spreading attempts).
     """
 
     layers: int = 2
@@ -100,7 +102,7 @@ class CopperRules:
     currents: tuple[tuple[str, float], ...] = ()
     temperature_rise_c: float = 10.0
     copper_oz: float = 1.0
-    time_budget_s: float = 60.0
+    time_budget_s: float = 180.0
     route: bool = True
 
     @property
