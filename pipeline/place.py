@@ -112,6 +112,7 @@ from .model import BoardOptions, FitResult, Finding, PlaceItem, Placement, Regio
 from .mount import mount_keepout, raised_heads, with_mount_holes
 from .order import natural_key
 from .outline import QUAD_SEGS, cells_inside, polygons_of, propose_outline
+from .values import format_mm as _fmt
 
 __all__ = ["place_and_fit", "hpwl", "CELL_BUDGET", "OPT_FANOUT"]
 
@@ -134,10 +135,6 @@ ROOMY = 2.5
 # --------------------------------------------------------------------------
 # helpers
 # --------------------------------------------------------------------------
-
-
-def _fmt(v: float) -> str:
-    return f"{v:.2f}".rstrip("0").rstrip(".") if abs(v) < 1000 else f"{v:.0f}"
 
 
 def _area(v: float) -> str:

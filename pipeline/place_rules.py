@@ -83,6 +83,7 @@ from shapely.geometry.base import BaseGeometry
 from .library.lands import pads_on_board
 from .model import Finding, Fixed, NearRule, PlaceItem, Region
 from .order import natural_key
+from .values import format_mm as _fmt
 
 __all__ = ["attach_rules", "pin_edge_parts", "near_pass", "unmet_rules", "near_distance", "refresh_near_notes",
            "EDGE_KINDS", "EDGE_BAND_MM", "NEAR_WITHIN_MM", "EDGE_STEP_MM"]
@@ -99,10 +100,6 @@ EDGE_STEP_MM = 0.25
 EDGE_CANDIDATES = 40_000
 #: Geometric tolerance, mm.
 TOL = 1e-6
-
-
-def _fmt(v: float) -> str:
-    return f"{v:.2f}".rstrip("0").rstrip(".")
 
 
 # --------------------------------------------------------------------------

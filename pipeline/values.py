@@ -75,6 +75,7 @@ __all__ = [
     "format_quantity",
     "round_sig",
     "format_share",
+    "format_mm",
     "SERIES",
     "SERIES_TOLERANCE",
     "series_of",
@@ -547,6 +548,17 @@ def format_quantity(x: float | None, unit: str, digits: int = 4) -> str:
     if unit == "ohm":
         return f"{txt}{p}{sym}" if p else f"{txt}{sym}"
     return f"{txt} {p}{unit}"
+
+
+def format_mm(v: float) -> str:
+    """A length (mm) as messages write it: two decimals at most, trailing zeros dropped; whole mm from 1000.
+
+    Examples
+    --------
+    >>> format_mm(2.5), format_mm(3.0), format_mm(0.125), format_mm(1234.5)
+    ('2.5', '3', '0.12', '1234')
+    """
+    return f"{v:.2f}".rstrip("0").rstrip(".") if abs(v) < 1000 else f"{v:.0f}"
 
 
 def format_share(x: float | None) -> str:
