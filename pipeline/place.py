@@ -70,8 +70,9 @@ The method
    Eisenmann and Johannes, DAC 1998, with greedy legalisation). The
    packed block is spread over the board it is given (at most
    ``place_spread.SPREAD_MAX`` times the courtyard sum), keeping the parts'
-   relative order, so tracks find room between the parts; the swaps then
-   run again on the spread slots. Skipped with the improvement.
+   relative order, so tracks find room between the parts (swaps again on
+   the spread slots gained 1 % of the wirelength on the 60-part board of
+   bench/bench_route.py: not done). Skipped with the improvement.
 5. *Self-check.* Every placed courtyard is checked with shapely against the
    exact area, zones and its neighbours (STRtree); a failure would be a
    defect and drops the part with a warning instead of reporting a false
@@ -717,8 +718,7 @@ def _pack_and_check(items, area, region: Region, board: BoardOptions, estimate, 
     run = _best_run(packer, tries, board.sides, progress)
     if improve:
         _improve(packer, run, nets, progress)
-        if place_spread.spread_block(packer, run, fixed, estimate.courtyard_area_mm2):  # room for routing
-            _improve(packer, run, nets, progress)  # swaps among the spread slots
+        place_spread.spread_block(packer, run, fixed, estimate.courtyard_area_mm2)  # room for routing
     place_rules.near_pass(packer, run, fixed)  # after the swaps, so they cannot undo it
     rects = {i: packer.rect(i, run.slots[i]) for i in run.slots}
     rects.update({i: r for i, (_, r) in fixed.items()})
