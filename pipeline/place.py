@@ -70,7 +70,8 @@ The method
    Eisenmann and Johannes, DAC 1998, with greedy legalisation). The
    packed block is spread over the board it is given (at most
    ``place_spread.SPREAD_MAX`` times the courtyard sum), keeping the parts'
-   relative order, so tracks find room between the parts (swaps again on
+   relative order (a near part keeps its offset from its target: the near
+   pass runs before it too), so tracks find room between the parts (swaps again on
    the spread slots gained 1 % of the wirelength on the 60-part board of
    bench/bench_route.py: not done). Skipped with the improvement.
 5. *Self-check.* Every placed courtyard is checked with shapely against the
@@ -718,6 +719,7 @@ def _pack_and_check(items, area, region: Region, board: BoardOptions, estimate, 
     run = _best_run(packer, tries, board.sides, progress)
     if improve:
         _improve(packer, run, nets, progress)
+        place_rules.near_pass(packer, run, fixed)  # so the spreading keeps each near part by its target
         place_spread.spread_block(packer, run, fixed, estimate.courtyard_area_mm2)  # room for routing
     place_rules.near_pass(packer, run, fixed)  # after the swaps, so they cannot undo it
     rects = {i: packer.rect(i, run.slots[i]) for i in run.slots}

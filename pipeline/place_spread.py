@@ -28,6 +28,12 @@ blocked cells (F. C. Crow, SIGGRAPH 1984, from memory) in a window holding
 both its current origin and its target, so a part never moves to a worse
 place than where it stands: its own slot is always legal.
 
+A part with a near rule (a decoupling capacitor by default,
+:mod:`pipeline.place_rules`) does not follow the linear map: its goal keeps
+its offset from its target part's goal (the near pass runs before the
+spreading as well as after it), so the spreading does not pull it away
+from the pins it must stay near.
+
 Legal means what the packer means: the courtyard's cells lie in the free
 cells of the part's height level (placement area and height zones) and
 overlap no other courtyard on its side; the placer's shapely self-check
@@ -105,7 +111,26 @@ def _targets(packer, run, movers: list, courtyard_mm2: float) -> dict | None:
     cx, cy = (rects[:, 0] + rects[:, 2]) / 2, (rects[:, 1] + rects[:, 3]) / 2
     tx = tx0 + (cx - bx0) * sx if sx >= SPREAD_MIN_SCALE else cx
     ty = ty0 + (cy - by0) * sy if sy >= SPREAD_MIN_SCALE else cy
-    return {i: (float(x), float(y)) for i, x, y in zip(movers, tx, ty)}
+    target = {i: (float(x), float(y)) for i, x, y in zip(movers, tx, ty)}
+    return _keep_near(packer, movers, target, dict(zip(movers, zip(cx, cy))))
+
+
+def _keep_near(packer, movers: list, target: dict, centre: dict) -> dict:
+    """A part with a near rule (a decoupling capacitor) keeps its packed offset from its target part:
+    its goal moves with the target's (or stays, when the target is fixed), so spreading does not pull
+    it away from the pins it must stay near (pipeline/place_rules.py)."""
+    index = {it.ref: n for n, it in enumerate(packer.items)}
+    out = dict(target)
+    for i in movers:
+        rule = packer.items[i].near
+        j = index.get(rule.target) if rule is not None else None
+        if j is None or j == i:
+            continue
+        if j in target:
+            out[i] = (target[j][0] + centre[i][0] - centre[j][0], target[j][1] + centre[i][1] - centre[j][1])
+        else:
+            out[i] = centre[i]
+    return out
 
 
 def _cells(packer, i: int, slot) -> tuple[int, int, int, int]:
