@@ -402,21 +402,67 @@ def _source_date_epoch() -> int | None:
 def run(project: Project, *, progress: Progress | None = None, sweep: bool = False, route: bool = True) -> RunResult:
     """Run every stage of ``project`` and write all its outputs at once.
 
+    Parameters
+    ----------
+    project : Project
+        From :func:`load_project`.
+    progress : callable, optional
+        ``progress(message, fraction)`` during the long steps (placement, sweep, routing).
+    sweep : bool
+        Also place once per passive size (:func:`pipeline.sweep.sweep_sizes`).
+    route : bool
+        Route a fitting board unless ``[copper] route = false`` (``--no-route`` sets it false).
+
+    Returns
+    -------
+    RunResult
+        Findings in the order the stages made them, the fit, the verdict and the files written.
+
+    Notes
+    -----
     Order: design -> graph -> connection checks -> value and rating checks ->
     declared blocks -> (with a cavity) cavity -> region -> area -> placement
-    and outline -> routing (unless ``route`` is false or ``[copper] route =
-    false``) -> outputs. Raises :class:`~pipeline.errors.InputError` on bad
-    input, before anything is written.
+    and outline -> routing -> outputs, all kept in memory and written together
+    by :func:`pipeline.export.atomic.write_all`. Raises
+    :class:`~pipeline.errors.InputError` on bad input, before anything is
+    written. Cost: the placement and routing steps dominate.
     """
-    from .export import atomic, bom, edif, netlist, results
-    from .export import spice as spice_out
-    from .export.blocks import block_sections
+    from .export import atomic
 
     timestamp = _source_date_epoch()
     design, lib, checked, reports = _read_and_check(project.design_path, project.design_shown, project.parts_map,
                                                     project.root, limits=project.limits, progress=progress,
                                                     **_analysis(project))
-    findings: list[Finding] = [*project.warnings, *checked]
+    files, order_files = _design_files(design, lib, project, reports, timestamp)
+    placed, findings = _placed(project, design, lib, sweep, route, files, [*project.warnings, *checked], progress)
+    verdict = _run_verdict(findings, placed)
+    fit_json, svg = _drawing_files(project, design, lib, placed, verdict, files)
+    files.update(_report_files(project, design, reports, placed, findings, svg, verdict, order_files))
+    written = atomic.write_all(project.out_dir, files, protect=_protected(project, design))
+    return RunResult(design=design, findings=tuple(findings), fit=placed.fit, exit_status=verdict.exit_status,
+                     written=tuple(written), stage_reports=tuple(reports), sweep=placed.sweep, fit_json=fit_json,
+                     verdict=verdict, routing=placed.routing)
+
+
+@dataclass
+class _Placed:
+    """The cavity half of a run: all ``None`` (``extra`` empty) when the project gives no cavity."""
+
+    cavity: Any = None
+    region: Any = None
+    items: Any = None          # the placer's items (pipeline.area.items_from_design)
+    fit: FitResult | None = None
+    sweep: Any = None          # pipeline.sweep.SweepResult with --sweep
+    routing: Any = None        # pipeline.route.RouteVerdict
+    routed: Any = None         # pipeline.route.RouteOutcome when the router ran
+    extra: dict = field(default_factory=dict)  # fit.json's passive_sizes and routing
+
+
+def _design_files(design: Design, lib: Any, project: Project, reports: Any,
+                  timestamp: int | None) -> tuple[dict[str, bytes], dict[str, bytes]]:
+    """The outputs of the design alone (BOM, netlists, blocks.json), and the BOM files (the report's order)."""
+    from .export import bom, edif, netlist, results
+    from .export import spice as spice_out
 
     files: dict[str, bytes] = {}
     features = frozenset(k.name for k in lib.kinds() if k.board_feature)  # never ordered
@@ -428,61 +474,83 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     files["design.cir"] = spice_out.spice_netlist(design)
     if reports:
         files["blocks.json"] = results.dump_json([r.to_dict() for r in reports])
+    return files, order_files
 
-    fit = None
-    sweep_result = None
+
+def _placed(project: Project, design: Design, lib: Any, sweep: bool, route: bool, files: dict[str, bytes],
+            findings: list[Finding], progress: Progress | None) -> tuple[_Placed, list[Finding]]:
+    """Cavity, placement, sweep and routing (adding their files to ``files``), and the findings so far."""
+    if project.cavity_path is None:
+        return _Placed(), [*findings, Finding(
+            "info", "fit.no-cavity", (),
+            "No cavity drawing given: the fit was not checked. Set [project] cavity or pass --cavity.")]
+    cavity, region, items, fit, sweep_result, fit_findings = _fit(project, design, lib, sweep, progress, route)
+    findings = [*findings, *fit_findings]
     extra: dict[str, Any] = {}
-    sections = list(block_sections(reports))
-    route_verdict = routed = None
-    if project.cavity_path is not None:
-        cavity, region, items, fit, sweep_result, fit_findings = _fit(project, design, lib, sweep, progress, route)
-        findings += fit_findings
-        if sweep_result is not None:
-            extra["passive_sizes"] = sweep_result.to_dict()
-        fit, route_verdict, routed = _route(project, route, fit, items, region, cavity.board, design, lib, files,
-                                            progress)
-        if route_verdict.spread_mm:  # the routed placement is a spread one: say where its rules stand
-            from .place_rules import refresh_near_notes
-            findings = refresh_near_notes(findings, items, fit.placements)
-        findings += _route_findings(route_verdict)
-        extra["routing"] = route_verdict.to_dict()
-    else:
-        findings.append(Finding("info", "fit.no-cavity", (),
-                                "No cavity drawing given: the fit was not checked. Set [project] cavity or pass --cavity."))
-    from .verdict import decide
-    tried = route_verdict is not None and route_verdict.reason != NOT_FITTING
-    verdict = decide(findings, fit, routing=route_verdict if tried else None)
-    fit_json: dict = {}
-    svg = None
-    if fit is not None:
-        from .cavity import cavity_units
-        from .export import dxf as dxf_out
-        from .export import svg as svg_out
-        fit_json = results.fit_dict(fit, extra, verdict=verdict)
-        files["fit.json"] = results.dump_json(fit_json)
-        svg = svg_out.fit_svg(cavity, region, fit, title=design.name, verdict=verdict,
-                              facts=svg_out.part_facts(design, items), pads=_pads(fit, design, lib),
-                              routing=routed.routing if routed else None, demand=routed.demand if routed else None)
-        files["fit.svg"] = svg
-        if fit.board_outline is not None and not fit.board_outline.is_empty:
-            units = cavity_units(cavity) if project.outline_units == "drawing" else (4, 1.0)
-            files["board-outline.dxf"] = dxf_out.board_outline_dxf(fit.board_outline, units=units)
+    if sweep_result is not None:
+        extra["passive_sizes"] = sweep_result.to_dict()
+    fit, route_verdict, routed = _route(project, route, fit, items, region, cavity.board, design, lib, files,
+                                        progress)
+    if route_verdict.spread_mm:  # the routed placement is a spread one: say where its rules stand
+        from .place_rules import refresh_near_notes
+        findings = refresh_near_notes(findings, items, fit.placements)
+    findings = [*findings, *_route_findings(route_verdict)]
+    extra["routing"] = route_verdict.to_dict()
+    return _Placed(cavity, region, items, fit, sweep_result, route_verdict, routed, extra), findings
 
-    files["findings.json"] = results.findings_json(findings)
+
+def _run_verdict(findings: list[Finding], placed: _Placed) -> Any:
+    """The overall verdict; routing counts only when it was tried (a board that does not fit is not routed)."""
+    from .verdict import decide
+
+    tried = placed.routing is not None and placed.routing.reason != NOT_FITTING
+    return decide(findings, placed.fit, routing=placed.routing if tried else None)
+
+
+def _drawing_files(project: Project, design: Design, lib: Any, placed: _Placed, verdict: Any,
+                   files: dict[str, bytes]) -> tuple[dict, bytes | None]:
+    """Add fit.json, fit.svg and board-outline.dxf to ``files`` (with a fit); return fit.json's dict and the SVG."""
+    fit, routed = placed.fit, placed.routed
+    if fit is None:
+        return {}, None
+    from .cavity import cavity_units
+    from .export import dxf as dxf_out
+    from .export import results
+    from .export import svg as svg_out
+    fit_json = results.fit_dict(fit, placed.extra, verdict=verdict)
+    files["fit.json"] = results.dump_json(fit_json)
+    svg = svg_out.fit_svg(placed.cavity, placed.region, fit, title=design.name, verdict=verdict,
+                          facts=svg_out.part_facts(design, placed.items), pads=_pads(fit, design, lib),
+                          routing=routed.routing if routed else None, demand=routed.demand if routed else None)
+    files["fit.svg"] = svg
+    if fit.board_outline is not None and not fit.board_outline.is_empty:
+        units = cavity_units(placed.cavity) if project.outline_units == "drawing" else (4, 1.0)
+        files["board-outline.dxf"] = dxf_out.board_outline_dxf(fit.board_outline, units=units)
+    return fit_json, svg
+
+
+def _report_files(project: Project, design: Design, reports: Any, placed: _Placed, findings: list[Finding],
+                  svg: bytes | None, verdict: Any, order_files: dict[str, bytes]) -> dict[str, bytes]:
+    """findings.json and report.html (with the declared blocks' sections)."""
     from .export import report as report_out
-    files["report.html"] = report_out.report_html(title=f"{design.name} {design.revision}".strip(), fit=fit,
-                                                  findings=findings, fit_svg=svg, sections=sections,
-                                                  verdict=verdict, order_files=order_files, board=project.board)
-    status = verdict.exit_status
+    from .export import results
+    from .export.blocks import block_sections
+
+    return {"findings.json": results.findings_json(findings),
+            "report.html": report_out.report_html(
+                title=f"{design.name} {design.revision}".strip(), fit=placed.fit, findings=findings, fit_svg=svg,
+                sections=list(block_sections(reports)), verdict=verdict, order_files=order_files,
+                board=project.board)}
+
+
+def _protected(project: Project, design: Design) -> list[Path]:
+    """Every input of the run: the writer never writes over one."""
     protect = [project.design_path, project.root / "project.toml", *design.inputs]
     if project.cavity_path is not None:
         protect.append(project.cavity_path)
     if project.parts_map is not None:
         protect.append(project.parts_map)
-    written = atomic.write_all(project.out_dir, files, protect=protect)
-    return RunResult(design=design, findings=tuple(findings), fit=fit, exit_status=status,
-                     written=tuple(written), stage_reports=tuple(reports), sweep=sweep_result, fit_json=fit_json,
-                     verdict=verdict, routing=route_verdict)
+    return protect
 
 
 def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Progress | None, route: bool = True):
