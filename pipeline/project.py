@@ -149,23 +149,62 @@ def load_project(
 ) -> Project:
     """Read ``PROJECT_DIR/project.toml`` with the command line's overrides.
 
-    ``design`` / ``cavity`` / ``out`` are paths as typed on the command
-    line (relative to the working folder); keys in the file are relative to
-    the file.
+    Parameters
+    ----------
+    project_dir : str or path
+        The project folder, holding ``project.toml``.
+    design, cavity, out : str, optional
+        Paths as typed on the command line (relative to the working
+        folder); they win over ``[project] design`` / ``cavity`` and the
+        output folder ``PROJECT_DIR/out``. Keys in the file are relative to
+        the file.
+
+    Returns
+    -------
+    Project
+        Paths resolved, lengths in mm; ``warnings`` holds the file's own
+        warnings (a board thickness that is not a stock thickness).
+
+    Raises
+    ------
+    ProjectError
+        No folder or file, an unknown table or key, or a bad value, naming
+        its key and line; the first fault found, in the order of the steps.
     """
     root = Path(project_dir)
     if not root.is_dir():
         raise ProjectError(str(project_dir), "not a folder: give the project folder that holds project.toml")
     src = load(root / "project.toml", "project.toml", ProjectError)
-    data = src.data
     _check_tables(src)
-    pj = data.get("project", {})
-    bd = data.get("board", {})
-    cv = data.get("cavity", {})
-    an = data.get("analysis", {})
+    data = src.data
+    bd, cv = data.get("board", {}), data.get("cavity", {})
+    inputs = _input_paths(src, root, design, cavity)
+    board, warnings = _read_board(src, bd)
+    order = _read_order(src, data.get("order", {}))
+    layer_map = _layer_map(src, cv)
+    # not resolved: a symbolic link as the output folder is refused by the writer, not followed
+    out_dir = Path(os.path.abspath(out if out is not None else root.resolve() / "out"))
+    name = _text(src, "project.name", data.get("project", {}).get("name", root.resolve().name or "project"))
+    return Project(name=name, root=root.resolve(), file=src.display, **inputs, out_dir=out_dir, board=board,
+                   order=order, **_cavity_settings(src, root, cv, bd), layer_map=layer_map,
+                   **_analysis_settings(src, data.get("analysis", {})), warnings=tuple(warnings),
+                   limits=tuple(sorted((k, _num(src, f"limits.{k}", v, integer=True, lo=1))
+                                       for k, v in data.get("limits", {}).items())),
+                   copper=read_copper(src, data.get("copper", {}), board.layers),
+                   mounts=_read_mounts(src, bd.get("mount", [])))
 
-    def rel(key: str, value: Any) -> Path:
-        return (root / _text(src, key, value, path=True)).resolve()
+
+def _rel(src: TomlSource, root: Path, key: str, value: Any) -> Path:
+    """A path key of the file, relative to the project folder, resolved."""
+    return (root / _text(src, key, value, path=True)).resolve()
+
+
+def _input_paths(src: TomlSource, root: Path, design: str | None, cavity: str | None) -> dict[str, Any]:
+    """Design, cavity and parts map, each resolved with its shown name, as :class:`Project` fields.
+
+    A path typed on the command line wins over ``[project] KEY``; no design at all is an error.
+    """
+    pj = src.data.get("project", {})
 
     def given(typed: str | None, key: str) -> tuple[Path | None, str]:
         """An input file and its shown name: the command line's, else [project] KEY's, else (None, "")."""
@@ -173,7 +212,7 @@ def load_project(
             return Path(typed).resolve(), typed
         if key not in pj:
             return None, ""
-        path = rel(f"project.{key}", pj[key])
+        path = _rel(src, root, f"project.{key}", pj[key])
         return path, _shown(path, root.resolve())
 
     design_path, design_shown = given(design, "design")
@@ -181,44 +220,40 @@ def load_project(
         raise src.error("project.design", "no design: set [project] design = \"design.toml\" or pass --design",
                         ProjectError)
     cavity_path, cavity_shown = given(cavity, "cavity")
-    parts_map = rel("project.parts_map", pj["parts_map"]) if "parts_map" in pj else None
-    board, warnings = _read_board(src, bd)
-    order = _read_order(src, data.get("order", {}))
+    parts_map = _rel(src, root, "project.parts_map", pj["parts_map"]) if "parts_map" in pj else None
+    return dict(design_path=design_path, design_shown=design_shown, cavity_path=cavity_path,
+                cavity_shown=cavity_shown, parts_map=parts_map)
+
+
+def _layer_map(src: TomlSource, cv: dict) -> Any:
+    """``[cavity] layers``, a table (its roles are checked by the cavity reader), or None."""
     layer_map = cv.get("layers")
     if layer_map is not None and not isinstance(layer_map, dict):
         raise src.error("cavity.layers", "expected a table such as { CAVITY = \"Outline\", KEEPOUT = [\"Bosses\"] }",
                         ProjectError)
-    # not resolved: a symbolic link as the output folder is refused by the writer, not followed
-    out_dir = Path(os.path.abspath(out if out is not None else root.resolve() / "out"))
-    return Project(
-        name=_text(src, "project.name", pj.get("name", root.resolve().name or "project")),
-        root=root.resolve(),
-        file=src.display,
-        design_path=design_path,
-        design_shown=design_shown,
-        cavity_path=cavity_path,
-        cavity_shown=cavity_shown,
-        parts_map=parts_map,
-        out_dir=out_dir,
-        board=board,
-        order=order,
+    return layer_map
+
+
+def _cavity_settings(src: TomlSource, root: Path, cv: dict, bd: dict) -> dict[str, Any]:
+    """``[cavity]`` depth (mm), units, mesh keys and chord tolerance (mm), and ``[board] outline_units``."""
+    return dict(
         depth_mm=float(_num(src, "cavity.depth_mm", cv.get("depth_mm", 5.0), lo=0, lo_open=True, hi=1000)),
         units=_text(src, "cavity.units", cv.get("units", "mm"), UNITS),
         outline_units=_text(src, "board.outline_units", bd.get("outline_units", "mm"), ("mm", "drawing")),
-        layer_map=layer_map,
-        mesh_options=tuple(sorted((k, str(rel(f"cavity.{k}", v)) if k == "mesh_lid" else v)
+        mesh_options=tuple(sorted((k, str(_rel(src, root, f"cavity.{k}", v)) if k == "mesh_lid" else v)
                                   for k, v in cv.items() if k.startswith("mesh_"))),
         chord_tolerance_mm=float(_num(src, "cavity.chord_tolerance_mm", cv.get("chord_tolerance_mm", 0.02),
                                       lo=0, lo_open=True, hi=5)),
+    )
+
+
+def _analysis_settings(src: TomlSource, an: dict) -> dict[str, Any]:
+    """``[analysis]`` draws, seed and retune share (None: the circuit package's default)."""
+    return dict(
         draws=_num(src, "analysis.draws", an.get("draws", 10000), integer=True, lo=100, hi=1_000_000),
         seed=_num(src, "analysis.seed", an.get("seed", 1), integer=True, lo=0),
         retune_above_share=(float(_num(src, "analysis.retune_above_share", an["retune_above_share"], lo=0, hi=1))
                             if "retune_above_share" in an else None),
-        warnings=tuple(warnings),
-        limits=tuple(sorted((k, _num(src, f"limits.{k}", v, integer=True, lo=1))
-                            for k, v in data.get("limits", {}).items())),
-        copper=read_copper(src, data.get("copper", {}), board.layers),
-        mounts=_read_mounts(src, bd.get("mount", [])),
     )
 
 
