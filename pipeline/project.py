@@ -42,6 +42,7 @@ from typing import Any, Callable
 
 from .errors import OutputError, ProjectError
 from .model import DENSITY_LEVELS, BoardOptions, Design, FitResult, Finding, OrderOptions
+from .cavity.limits import CHORD_TOL_MM, DEFAULT_DEPTH_MM, DEFAULT_UNITS
 from .cavity.limits import DEFAULTS as CAVITY_LIMITS
 from .spice.limits import DEFAULTS as SPICE_LIMITS
 from .route.rules import COPPER_KEYS, CopperRules, read_copper
@@ -88,10 +89,10 @@ class Project:
     out_dir: Path
     board: BoardOptions
     order: OrderOptions
-    depth_mm: float = 5.0
-    units: str = "mm"
+    depth_mm: float = DEFAULT_DEPTH_MM
+    units: str = DEFAULT_UNITS
     layer_map: Any = None
-    chord_tolerance_mm: float = 0.02
+    chord_tolerance_mm: float = CHORD_TOL_MM
     draws: int = 10000
     seed: int = 1
     warnings: tuple[Finding, ...] = ()
@@ -117,6 +118,15 @@ class RunResult:
     fit_json: dict = field(default_factory=dict)
     verdict: Any = None
     routing: Any = None   # pipeline.route.RouteVerdict, or None without a fit
+
+
+#: The defaults of project.toml's keys, from :class:`Project`'s fields (their one home).
+_DEFAULT = {f.name: f.default for f in dataclasses.fields(Project) if f.default is not dataclasses.MISSING}
+
+
+def _or_default(table: dict, key: str) -> Any:
+    """``table[key]`` as written, else the default of the :class:`Project` field ``key``."""
+    return table.get(key, _DEFAULT[key])
 
 
 # --------------------------------------------------------------------------
@@ -237,12 +247,12 @@ def _layer_map(src: TomlSource, cv: dict) -> Any:
 def _cavity_settings(src: TomlSource, root: Path, cv: dict, bd: dict) -> dict[str, Any]:
     """``[cavity]`` depth (mm), units, mesh keys and chord tolerance (mm), and ``[board] outline_units``."""
     return dict(
-        depth_mm=float(_num(src, "cavity.depth_mm", cv.get("depth_mm", 5.0), lo=0, lo_open=True, hi=1000)),
-        units=_text(src, "cavity.units", cv.get("units", "mm"), UNITS),
-        outline_units=_text(src, "board.outline_units", bd.get("outline_units", "mm"), ("mm", "drawing")),
+        depth_mm=float(_num(src, "cavity.depth_mm", _or_default(cv, "depth_mm"), lo=0, lo_open=True, hi=1000)),
+        units=_text(src, "cavity.units", _or_default(cv, "units"), UNITS),
+        outline_units=_text(src, "board.outline_units", _or_default(bd, "outline_units"), ("mm", "drawing")),
         mesh_options=tuple(sorted((k, str(_rel(src, root, f"cavity.{k}", v)) if k == "mesh_lid" else v)
                                   for k, v in cv.items() if k.startswith("mesh_"))),
-        chord_tolerance_mm=float(_num(src, "cavity.chord_tolerance_mm", cv.get("chord_tolerance_mm", 0.02),
+        chord_tolerance_mm=float(_num(src, "cavity.chord_tolerance_mm", _or_default(cv, "chord_tolerance_mm"),
                                       lo=0, lo_open=True, hi=5)),
     )
 
@@ -250,8 +260,8 @@ def _cavity_settings(src: TomlSource, root: Path, cv: dict, bd: dict) -> dict[st
 def _analysis_settings(src: TomlSource, an: dict) -> dict[str, Any]:
     """``[analysis]`` draws, seed and retune share (None: the circuit package's default)."""
     return dict(
-        draws=_num(src, "analysis.draws", an.get("draws", 10000), integer=True, lo=100, hi=1_000_000),
-        seed=_num(src, "analysis.seed", an.get("seed", 1), integer=True, lo=0),
+        draws=_num(src, "analysis.draws", _or_default(an, "draws"), integer=True, lo=100, hi=1_000_000),
+        seed=_num(src, "analysis.seed", _or_default(an, "seed"), integer=True, lo=0),
         retune_above_share=(float(_num(src, "analysis.retune_above_share", an["retune_above_share"], lo=0, hi=1))
                             if "retune_above_share" in an else None),
     )
@@ -394,20 +404,26 @@ def inspect_cavity(path: Path, *, shown: str | None = None, project: Project | N
     region, findings)``; bad drawings raise
     :class:`~pipeline.errors.CavityError`.
     """
-    from .cavity import Limits, read_cavity
     from .region import usable_region
 
-    p = project
-    cavity, cw = read_cavity(Path(path), display_name=shown or str(path),
-                             layer_map=p.layer_map if p else None,
-                             default_units=p.units if p else "mm",
-                             depth_mm=p.depth_mm if p else 5.0,
-                             chord_tol_mm=p.chord_tolerance_mm if p else 0.02,
-                             limits=Limits.from_table(dict(p.limits) if p else None),
-                             mesh_options=dict(p.mesh_options) if p else None)
-    cavity = _with_mounts(cavity, p) if p else cavity
-    region, rw = usable_region(cavity, p.board if p else BoardOptions())
+    cavity, cw = _cavity(Path(path), shown or str(path), project)
+    region, rw = usable_region(cavity, project.board if project else BoardOptions())
     return cavity, region, (*cw, *rw)
+
+
+def _cavity(path: Path, shown: str, project: Project | None) -> tuple[Any, list[Finding]]:
+    """Read a cavity drawing with the project's ``[cavity]`` settings and ``[limits]``, its mounting
+    bosses marked; without a project, with the cavity reader's defaults."""
+    from .cavity import Limits, read_cavity
+
+    if project is None:
+        return read_cavity(path, display_name=shown)
+    cavity, warnings = read_cavity(path, display_name=shown, layer_map=project.layer_map,
+                                   default_units=project.units, depth_mm=project.depth_mm,
+                                   chord_tol_mm=project.chord_tolerance_mm,
+                                   limits=Limits.from_table(dict(project.limits)),
+                                   mesh_options=dict(project.mesh_options))
+    return _with_mounts(cavity, project), warnings
 
 
 def write_cavity_dxf(cavity: Any, out: Path, *, shown: str) -> None:
@@ -595,16 +611,10 @@ def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Prog
     """
     from .advice import tried_advice
     from .area import items_from_design
-    from .cavity import Limits, read_cavity
     from .place import place_and_fit
     from .region import usable_region
 
-    cavity, cw = read_cavity(project.cavity_path, display_name=project.cavity_shown,
-                             layer_map=project.layer_map, default_units=project.units,
-                             depth_mm=project.depth_mm, chord_tol_mm=project.chord_tolerance_mm,
-                             limits=Limits.from_table(dict(project.limits)),
-                             mesh_options=dict(project.mesh_options))
-    cavity = _with_mounts(cavity, project)
+    cavity, cw = _cavity(project.cavity_path, project.cavity_shown, project)
     region, rw = usable_region(cavity, project.board)
     items = items_from_design(design, lib, project.board.density)
     fit = place_and_fit(items, region, project.board, user_board=cavity.board, progress=progress)

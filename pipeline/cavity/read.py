@@ -34,7 +34,8 @@ from pipeline.model import Cavity, DepthZone, Finding
 
 from .chain import Ring, chain, fmt_pt, loop_polygon, one_outline, to_mm
 from .convert import CURVES, MeshPolyline, Piece, convert_leaf
-from .limits import JOIN_TOL_MM, MAX_PLAUSIBLE_SIDE_MM, MIN_PLAUSIBLE_AREA_MM2, Limits
+from .limits import (CHORD_TOL_MM, DEFAULT_DEPTH_MM, DEFAULT_UNITS, JOIN_TOL_MM, MAX_PLAUSIBLE_SIDE_MM,
+                     MIN_PLAUSIBLE_AREA_MM2, Limits)
 from .load import LoaderLog, load_dxf, printable, short
 from .measured import MEASURED_SUFFIX, read_measured
 from .mesh import MESH_SUFFIXES, mesh_settings, read_mesh
@@ -49,7 +50,7 @@ Progress = Callable[[str, float], None]
 
 def read_cavity(
     path: Path, *, display_name: str | None = None, layer_map: Mapping[str, Any] | None = None,
-    default_units: str = "mm", depth_mm: float = 5.0, chord_tol_mm: float = 0.02,
+    default_units: str = DEFAULT_UNITS, depth_mm: float = DEFAULT_DEPTH_MM, chord_tol_mm: float = CHORD_TOL_MM,
     settings_file: str = "project.toml", limits: Limits | None = None, progress: Progress | None = None,
     mesh_options: Mapping[str, Any] | None = None,
 ) -> tuple[Cavity, list[Finding]]:
