@@ -64,13 +64,8 @@ def resolve(b: Build, ln: Line, letter: str, spice_name: str, ref: str, model: s
     ref_spec = _lookup_specs(b, (spice_name, spice_name.replace(".", "_"), ref))
     rec_spec = _record_spec(b, spice_name, ln)
     chain: list[Spec] = [s for s in (ref_spec, rec_spec) if s is not None]
-    if subckt:
-        s = b.pm.subckt.get(subckt.lower())
-        if s is not None:
-            b.pm.used.add(s.key)
-            chain.append(s)
-    if model:
-        s = b.pm.models.get(model.lower())
+    for table, name in ((b.pm.subckt, subckt), (b.pm.models, model)):  # the parts map's subckt, then models
+        s = table.get(name.lower()) if name else None
         if s is not None:
             b.pm.used.add(s.key)
             chain.append(s)
