@@ -45,7 +45,7 @@ import hashlib
 import re
 from typing import Mapping, Sequence
 
-from ..model import SEVERITIES, BoardOptions, FitResult, Finding
+from ..model import SEVERITIES, SEVERITY_WORDS, BoardOptions, FitResult, Finding
 from ..order import natural_key
 from .markup import escape as _esc
 from ..verdict import Verdict, decide
@@ -56,8 +56,6 @@ from .picture_js import SCRIPT as _SCRIPT
 __all__ = ["report_html"]
 
 _XML_PROLOG = re.compile(r"^\s*<\?xml[^>]*\?>\s*")
-
-_SEVERITY_HEADING = {"error": "Errors", "warning": "Warnings", "info": "Notes"}
 
 _CSS = """
 :root { --ink: #1f252d; --muted: #5b6470; --rule: #d5d9de; --band: #f4f6f8;
@@ -295,7 +293,7 @@ def _verdict(verdict: Verdict, counts: dict[str, int]) -> str:
 
 
 def _count(n: int, severity: str) -> str:
-    word = {"error": "error", "warning": "warning", "info": "note"}.get(severity, severity)
+    word = SEVERITY_WORDS.get(severity, severity)
     return f"{n} {word}" + ("" if n == 1 else "s")
 
 
@@ -365,7 +363,7 @@ def _findings(findings: Sequence[Finding]) -> str:
         group = [f for f in findings if f.severity == sev]
         if not group:
             continue
-        head = _SEVERITY_HEADING.get(sev, sev.capitalize())
+        head = f"{SEVERITY_WORDS[sev].capitalize()}s" if sev in SEVERITY_WORDS else sev.capitalize()
         out.append(f'<h3 class="sev-{_esc(_slug(sev))}">{_esc(head)} ({len(group)})</h3>')
         out.append(
             f'<table class="findings findings-{_esc(_slug(sev))}">'
