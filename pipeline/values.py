@@ -73,6 +73,7 @@ __all__ = [
     "located",
     "format_value",
     "format_quantity",
+    "format_fixed",
     "round_sig",
     "format_share",
     "format_mm",
@@ -558,6 +559,16 @@ def format_mm(v: float) -> str:
     ('2.5', '3', '0.12', '1234')
     """
     return f"{v:.2f}".rstrip("0").rstrip(".") if abs(v) < 1000 else f"{v:.0f}"
+
+
+def format_fixed(v: float) -> str:
+    """A coordinate (mm) as the outputs write it: three decimals, never a negative zero.
+
+    >>> format_fixed(1.23456), format_fixed(-0.0001), format_fixed(2)
+    ('1.235', '0.000', '2.000')
+    """
+    s = f"{float(v):.3f}"
+    return "0.000" if s == "-0.000" else s
 
 
 def format_share(x: float | None) -> str:

@@ -47,6 +47,7 @@ from typing import Mapping, Sequence
 
 from ..model import SEVERITIES, SEVERITY_WORDS, BoardOptions, FitResult, Finding
 from ..order import natural_key
+from ..values import format_fixed
 from .markup import escape as _esc
 from ..verdict import Verdict, decide
 from .order_view import order_section
@@ -346,8 +347,8 @@ def _placements(fit: FitResult) -> str:
     )
     for p in sorted(fit.placements, key=lambda p: (natural_key(p.ref), p.side)):
         out.append(
-            f"<tr><td>{_esc(p.ref)}</td><td class=\"num\">{_fix(p.x_mm)}</td>"
-            f"<td class=\"num\">{_fix(p.y_mm)}</td><td class=\"num\">{int(p.rotation_deg)}</td>"
+            f"<tr><td>{_esc(p.ref)}</td><td class=\"num\">{format_fixed(p.x_mm)}</td>"
+            f"<td class=\"num\">{format_fixed(p.y_mm)}</td><td class=\"num\">{int(p.rotation_deg)}</td>"
             f"<td>{_esc(p.side)}</td></tr>"
         )
     out.append("</tbody></table></section>")
@@ -402,8 +403,3 @@ def _inline_svg(svg: bytes) -> str:
 
 def _slug(text: str) -> str:
     return re.sub(r"[^a-z0-9-]+", "-", text.lower()).strip("-") or "other"
-
-
-def _fix(v: float) -> str:
-    s = f"{float(v):.3f}"
-    return "0.000" if s == "-0.000" else s
