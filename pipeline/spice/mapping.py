@@ -8,7 +8,7 @@ from ..errors import DesignError
 from ..model import PartKind, PinDef
 from .lines import Line
 from .tokens import REF_RE
-from .partsmap import Spec
+from .partsmap import PART_LETTERS, Spec
 from .state import Build, Cand
 
 DEFAULTS = {
@@ -91,7 +91,7 @@ def resolve(b: Build, ln: Line, letter: str, spice_name: str, ref: str, model: s
                               f"name its kind in the parts map ([refs.{spice_name}] kind = ...)", line=ln.line)
         defaulted = True
     if kind is not None and not package:
-        package = DEFAULTS.get(letter, ("", "SOT-23"))[1] if letter in "rcldqmj" else ""
+        package = DEFAULTS.get(letter, ("", "SOT-23"))[1] if letter in PART_LETTERS else ""
         if not package:
             raise DesignError(ln.file, f"{spice_name}: give its package in the parts map "
                               f"([refs.{spice_name}] package = ...)", line=ln.line)

@@ -34,7 +34,7 @@ from .collect import collect
 from .elaborate import elaborate
 from .limits import SpiceLimits
 from .lines import Line, Reader, expand_includes, logical_lines, read_text
-from .partsmap import PartsMap, read_parts_map
+from .partsmap import PART_LETTERS, PartsMap, letters_text, read_parts_map
 from .records import RecordSet, loose_part, record_kinds, sort_records, stage_tables
 from .state import Build, Ctx, global_scope
 
@@ -130,7 +130,7 @@ def _assembled(b: Build, recs: RecordSet, shown: str) -> tuple[tuple[Part, ...],
     """The board parts and nets; a design without a board part is refused."""
     parts, nets = assemble(b, recs.nets)
     if not parts:
-        raise DesignError(shown, "no board parts found: expected R, C, L, D, Q, M, J or X element lines")
+        raise DesignError(shown, f"no board parts found: expected {letters_text((*PART_LETTERS, 'x'))} element lines")
     return parts, nets
 
 
