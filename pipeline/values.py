@@ -74,6 +74,7 @@ __all__ = [
     "format_value",
     "format_quantity",
     "format_fixed",
+    "format_area",
     "round_sig",
     "format_share",
     "format_mm",
@@ -569,6 +570,15 @@ def format_fixed(v: float) -> str:
     """
     s = f"{float(v):.3f}"
     return "0.000" if s == "-0.000" else s
+
+
+def format_area(v: float) -> str:
+    """An area (mm^2) as the report writes it: one decimal and the unit.
+
+    >>> format_area(1234.56), format_area(0)
+    ('1234.6 mm\u00b2', '0.0 mm\u00b2')
+    """
+    return f"{float(v):.1f} mm\u00b2"
 
 
 def format_share(x: float | None) -> str:

@@ -588,3 +588,14 @@ def test_format_fixed_matches_decimal_rounding_without_negative_zero(v):
     ref = Decimal(float(v)).quantize(Decimal("0.001"), rounding=ROUND_HALF_EVEN)
     expected = "0.000" if ref == 0 else str(ref)
     assert format_fixed(v) == expected
+
+
+@pytest.mark.parametrize("v", [0.0, 0.05, 0.25, 12.345, 599.5, 1234.56, 1e6])
+def test_format_area_matches_decimal_rounding(v):
+    from decimal import ROUND_HALF_EVEN, Decimal
+
+    from pipeline.values import format_area
+
+    # Reference: Python's decimal module rounding the exact binary value half-to-even to 0.1 (printf's rule).
+    ref = Decimal(float(v)).quantize(Decimal("0.1"), rounding=ROUND_HALF_EVEN)
+    assert format_area(v) == f"{ref} mm\u00b2"

@@ -47,7 +47,7 @@ from typing import Mapping, Sequence
 
 from ..model import SEVERITIES, SEVERITY_WORDS, BoardOptions, FitResult, Finding
 from ..order import natural_key
-from ..values import format_fixed
+from ..values import format_area, format_fixed
 from .markup import escape as _esc
 from ..verdict import Verdict, decide
 from .order_view import order_section
@@ -301,26 +301,22 @@ def _count(n: int, severity: str) -> str:
 def _areas(fit: FitResult) -> str:
     est = fit.estimate
     rows = [
-        ("Usable board region", _area(fit.region_area_mm2)),
-        ("Courtyards of the fitted parts (sum)", _area(fit.courtyard_area_mm2)),
-        ("Estimated board area, low", _area(est.low_mm2)),
-        ("Estimated board area, expected", _area(est.expected_mm2)),
-        ("Estimated board area, high", _area(est.high_mm2)),
+        ("Usable board region", format_area(fit.region_area_mm2)),
+        ("Courtyards of the fitted parts (sum)", format_area(fit.courtyard_area_mm2)),
+        ("Estimated board area, low", format_area(est.low_mm2)),
+        ("Estimated board area, expected", format_area(est.expected_mm2)),
+        ("Estimated board area, high", format_area(est.high_mm2)),
     ]
     if fit.region_area_mm2 > 0:
         share = 100.0 * est.expected_mm2 / fit.region_area_mm2
         rows.append(("Expected area as a share of the region", f"{share:.1f} %"))
     if fit.board_outline is not None and not fit.board_outline.is_empty:
-        rows.append(("Board outline", _area(float(fit.board_outline.area))))
+        rows.append(("Board outline", format_area(float(fit.board_outline.area))))
     if fit.wirelength_mm > 0:
         rows.append(("Half-perimeter wirelength of the placement", f"{fit.wirelength_mm:.1f} mm"))
     body = "".join(f'<tr><th scope="row">{_esc(k)}</th><td class="num">{_esc(v)}</td></tr>' for k, v in rows)
     rule = f'<p class="quiet">Estimate: {_esc(est.rule)}</p>' if est.rule else ""
     return f'<section id="areas"><h2>Areas</h2><table class="figures">{body}</table>{rule}</section>'
-
-
-def _area(v: float) -> str:
-    return f"{float(v):.1f} mm\u00b2"
 
 
 def _blocked(fit: FitResult) -> str:
