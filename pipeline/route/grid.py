@@ -28,7 +28,7 @@ from shapely.geometry import MultiPolygon, Polygon
 from .board import RouteBoard
 from .rules import CopperRules
 
-__all__ = ["Grid", "build_grid", "FREE", "BLOCKED"]
+__all__ = ["Grid", "build_grid", "edge_rule", "FREE", "BLOCKED"]
 
 FREE = -1
 BLOCKED = -2
@@ -97,7 +97,7 @@ def build_grid(board: RouteBoard, rules: CopperRules, width: float, layers: tupl
     copper = _copper_by_layer(board, layers, index, extra or {})
     for li, name in enumerate(layers):
         off = li * nx * ny
-        inside = _inside(board, pts, _edge_rule(rules, name, len(layers)) + width / 2)
+        inside = _inside(board, pts, edge_rule(rules, name, len(layers)) + width / 2)
         sl = node[off:off + nx * ny]
         sl[~inside] = BLOCKED
         tree = shapely.STRtree(pts)
@@ -106,13 +106,13 @@ def build_grid(board: RouteBoard, rules: CopperRules, width: float, layers: tupl
             hit = hit[shapely.distance(pts[hit], geo) < half - EPS]
             _own(sl, hit, net)
         ex[off:off + nx * ny], ey[off:off + nx * ny] = _edges(board, sl, gx, gy, p, copper[name], half,
-                                                              _edge_rule(rules, name, len(layers)) + width / 2)
+                                                              edge_rule(rules, name, len(layers)) + width / 2)
     via = _vias(board, rules, pts, layers, copper, len(layers))
     return Grid(float(xmin), float(ymin), p, nx, ny, tuple(layers), node.tolist(), ex.tolist(), ey.tolist(),
                 via.tolist(), tuple(nets))
 
 
-def _edge_rule(rules: CopperRules, layer: str, count: int) -> float:
+def edge_rule(rules: CopperRules, layer: str, count: int) -> float:
     inner = layer not in ("top", "bottom")
     return rules.inner_edge_clearance_mm if inner else rules.edge_clearance_mm
 
@@ -209,7 +209,7 @@ def _edges(board, sl, gx, gy, p, copper, half, margin):
 def _vias(board, rules, pts, layers, copper, count) -> np.ndarray:
     """Owners of via sites (one per grid point, through every layer)."""
     rv = rules.via_diameter_mm / 2
-    edge = max(_edge_rule(rules, name, count) for name in layers)
+    edge = max(edge_rule(rules, name, count) for name in layers)
     via = np.where(_inside(board, pts, edge + rv), FREE, BLOCKED).astype(np.int64)
     tree = shapely.STRtree(pts)
     half = rv + rules.clearance_mm

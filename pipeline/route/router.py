@@ -65,7 +65,8 @@ from shapely.geometry import LineString, Point
 
 from .board import RouteBoard, RoutePad
 from .coarse import COARSE_PARTS, COARSE_SHARE, TILE_PITCHES, capacities, plan_corridors
-from .grid import BLOCKED, FREE, Grid, as_polygons, build_grid
+from .escape import ESCAPE_REACH, escape, island
+from .grid import BLOCKED, FREE, Grid, as_polygons, build_grid, edge_rule
 from .rules import CopperRules
 
 __all__ = ["Track", "Via", "Area", "Routing", "route_board", "VIA_COST", "MAX_ROUNDS"]
@@ -78,8 +79,8 @@ PRESENT_GROWTH = 1.6     #: its growth per round (McMurchie and Ebeling use 1.5 
 HISTORY_STEP = 0.4       #: history added to a shared node per round
 WINDOW = 12              #: grid steps around a connection's box searched first
 AREA_MARGIN = 0.005      #: extra gap (mm) where copper areas are cut: buffer arcs are chords
-STUB_REACH = 3           #: grid steps within which a pin-access stub may end
 STUB_CELL = 2.0          #: side (mm) of the buckets pin-access stubs are filed in
+ESCAPE_PASSES = 3        #: rounds of pin escapes (each on the grid with the escapes before it)
 DOT = 1e-3               #: length (mm) of the track that stands for a single node of copper
 
 Progress = Callable[[str, float], None]
@@ -202,18 +203,9 @@ class _Router:
     def setup(self) -> None:
         stubs: dict[str, list] = {}
         buckets: dict = {}
-        for net in self.nets:
-            g = self.grid(net.width)
-            net.terms = [self.terminals(g, net, pad) for pad in net.pads]
-            for pi, (pad, terms) in enumerate(zip(net.pads, net.terms)):
-                if not terms and not (net.area and net.area in pad.layers):
-                    stub = self.stub(g, net, pad, buckets)
-                    if stub is not None:
-                        net.stubs.append((pi, *stub))
-                        geo = stub[1].buffer(net.width / 2 + 0.002)
-                        stubs.setdefault(net.name, []).append((stub[0], geo))
-                        _bucket_add(buckets, net.name, stub[0], geo)
-        if stubs:
+        for _ in range(ESCAPE_PASSES):   # an escape may cut off another pad: look again on the new grid
+            if not self.escapes(stubs, buckets):
+                break
             self._grids.clear()
             for width in sorted({n.width for n in self.nets}):
                 self.grid(width, stubs)
@@ -241,6 +233,29 @@ class _Router:
         self.steps = ([1.0 if not prefer or li % 2 == 0 else OFF_DIRECTION for li in range(len(self.layers))],
                       [1.0 if not prefer or li % 2 == 1 else OFF_DIRECTION for li in range(len(self.layers))])
 
+    def escapes(self, stubs: dict, buckets: dict) -> int:
+        """Pin escapes (:meth:`stub`) for the pads the current grid leaves on small islands; how many made."""
+        made = 0
+        for net in self.nets:
+            if len(net.pads) < 2:
+                continue
+            g = self.grid(net.width)
+            have = {pi for pi, *_ in net.stubs}
+            terms = [self.terminals(g, net, pad) for pad in net.pads]
+            for pi, pad in enumerate(net.pads):
+                if pi in have or (net.area and net.area in pad.layers):
+                    continue
+                others = {n for q, t in enumerate(terms) if q != pi for n in t}
+                cut = island(g, net.k, terms[pi], others)
+                stub = None if cut is None else self.stub(g, net, pad, cut, others, buckets)
+                if stub is not None:
+                    net.stubs.append((pi, *stub))
+                    geo = stub[1].buffer(net.width / 2 + 0.002)
+                    stubs.setdefault(net.name, []).append((stub[0], geo))
+                    _bucket_add(buckets, net.name, stub[0], geo)
+                    made += 1
+        return made
+
     def node_at(self, g: Grid, layer: str, xy) -> int:
         i = round((xy[0] - g.x0) / g.pitch)
         j = round((xy[1] - g.y0) / g.pitch)
@@ -263,40 +278,34 @@ class _Router:
                         out.append(n)
         return out
 
-    def stub(self, g: Grid, net: _Net, pad: RoutePad, taken: dict) -> tuple[str, LineString] | None:
-        """A short straight track from inside ``pad`` to a nearby usable node (pin access).
+    def stub(self, g: Grid, net: _Net, pad: RoutePad, cut: set[int], others: set[int], taken: dict) -> tuple[str, LineString] | None:
+        """Pin escape: an any-angle track from inside ``pad`` to a node off its island ``cut``.
 
-        The shortest clear one (ties: layer, row, column). ``taken`` holds
-        the stubs already made, by ``STUB_CELL`` bucket; other pads are
-        found through an STRtree, so one pad costs O(candidates x log pads).
+        For a pad the grid leaves cut off from the rest of its net
+        (:func:`pipeline.route.escape.island`); the track comes from Lee's
+        maze routing on a fine lattice (:func:`pipeline.route.escape.escape`),
+        clear of other nets' pads (found through an STRtree) and of the
+        escapes already made (``taken``, by ``STUB_CELL`` bucket). Layers
+        are tried in order; ``None`` when none has a way out.
         """
-        anchor = pad.polygon.representative_point()
-        w, s = net.width, self.rules.clearance_mm
-        reach = w / 2 + s + 1e-6
         pads = self.board.pads
         if not hasattr(self, "_pad_tree"):
             self._pad_tree = shapely.STRtree([p.polygon for p in pads])
-        ci = round((anchor.x - g.x0) / g.pitch)
-        cj = round((anchor.y - g.y0) / g.pitch)
-        cands = []
+        w, s = net.width, self.rules.clearance_mm
+        half = w / 2 + s
+        window = pad.polygon.buffer(ESCAPE_REACH + half, join_style="mitre")
+        near = self._pad_tree.query(window, predicate="intersects")
+        edge = (self.board.outline, self.board.holes)
         for li, name in enumerate(self.layers):
             if name not in pad.layers:
                 continue
-            for j in range(max(cj - STUB_REACH, 0), min(cj + STUB_REACH, g.ny - 1) + 1):
-                for i in range(max(ci - STUB_REACH, 0), min(ci + STUB_REACH, g.nx - 1) + 1):
-                    n = (li * g.ny + j) * g.nx + i
-                    if g.node[n] in (FREE, net.k):
-                        line = LineString([anchor.coords[0], g.xy(n)])
-                        cands.append(((line.length, li, j, i), name, line))
-        for _, name, line in sorted(cands, key=lambda c: c[0]):
-            near = self._pad_tree.query(line, predicate="dwithin", distance=reach)
-            if any(pads[q].net != net.name and name in pads[q].layers and line.distance(pads[q].polygon) < reach
-                   for q in near):
-                continue
-            if any(other != net.name and lay == name and line.distance(geo) < reach
-                   for other, lay, geo in _bucket_near(taken, line.bounds, reach)):
-                continue
-            return name, line
+            obstacles = [pads[q].polygon for q in sorted(near) if pads[q].net != net.name and name in pads[q].layers]
+            obstacles += [geo for other, lay, geo in _bucket_near(taken, window.bounds, 0.0)
+                          if other != net.name and lay == name]
+            line = escape(pad.polygon, li, g, net.k, cut, others, obstacles, edge, half,
+                          w / 2 + edge_rule(self.rules, name, len(self.layers)))
+            if line is not None:
+                return name, line
         return None
 
     # ---------------------------------------------------------------- occupancy
@@ -478,81 +487,34 @@ class _Router:
         return self._search(net, sources, targets, present, (0, 0, g.nx - 1, g.ny - 1), net.corridor)
 
     def _search(self, net, sources, targets, present, box, mask=None):
-        """A* inside ``box`` (and the plane cells ``mask`` marks, when given).
+        """A* (Hart, Nilsson and Raphael 1968) inside ``box`` (and the plane cells ``mask`` marks).
 
         The inner loop touches flat lists only: owners, history, sharers
         and the occupancy near each node kept up to date by :meth:`commit`
         (``self.near``, ``self.via_near``), so one expansion costs a few
-        list reads and at most one heap push per neighbour.
+        list reads and at most one heap push per neighbour. With
+        ``targets`` None it is Dijkstra's search for the nearest usable via
+        site (the heuristic is 0). Neighbours come from :meth:`_mover`.
         """
         g = net.grid
-        nx = g.nx
-        plane = nx * g.ny
-        nl = len(self.layers)
-        node, ex, ey, via = g.node, g.ex, g.ey, g.via
-        hist, claim_occ = self.hist, self.claim_occ
-        near, via_near = self.near[net.halo_key], self.via_near
-        k = net.k
-        i0, j0, i1, j1 = box
+        nx, plane = g.nx, g.nx * g.ny
+        node, hist, claim_occ = g.node, self.hist, self.claim_occ
+        near, k = self.near[net.halo_key], net.k
         aim = targets is not None
-        if aim:
-            ti = [t % nx for t in targets]
-            tj = [(t % plane) // nx for t in targets]
-            ti0, ti1, tj0, tj1 = min(ti), max(ti), min(tj), max(tj)
-        hstep, vstep = self.steps
+        h = _heuristic(targets, nx, plane) if aim else (lambda i, j: 0.0)
+        heap, best, parent = _seed(sources, h, nx, plane)
+        moves_of = self._mover(net, box, present, aim)
+        via = g.via
         heappush, heappop = heapq.heappush, heapq.heappop
-        best: dict[int, float] = {}
-        parent: dict[int, int] = {}
-        heap: list = []
-        cnt = 0
-        for s in sorted(sources):
-            best[s] = 0.0
-            parent[s] = -1
-            if aim:
-                r = s % plane
-                i, j = r % nx, r // nx
-                hv = ((ti0 - i if i < ti0 else (i - ti1 if i > ti1 else 0))
-                      + (tj0 - j if j < tj0 else (j - tj1 if j > tj1 else 0))) * 1.0
-            else:
-                hv = 0.0
-            heap.append((hv, cnt, s, 0.0))
-            cnt += 1
-        heapq.heapify(heap)
+        cnt = len(heap)
         while heap:
             _, _, n, gn = heappop(heap)
             if gn > best[n] + 1e-12:
                 continue
             li, r = divmod(n, plane)
-            if not aim:
-                if via[r] == FREE or via[r] == k:
-                    return self._path(parent, n)
-            elif n in targets:
+            if (n in targets) if aim else (via[r] == FREE or via[r] == k):
                 return self._path(parent, n)
-            j, i = divmod(r, nx)
-            hs, vs = hstep[li], vstep[li]
-            moves = []
-            if i < i1:
-                o = ex[n]
-                if o == FREE or o == k:
-                    moves.append((n + 1, r + 1, i + 1, j, hs))
-            if i > i0:
-                o = ex[n - 1]
-                if o == FREE or o == k:
-                    moves.append((n - 1, r - 1, i - 1, j, hs))
-            if j < j1:
-                o = ey[n]
-                if o == FREE or o == k:
-                    moves.append((n + nx, r + nx, i, j + 1, vs))
-            if j > j0:
-                o = ey[n - nx]
-                if o == FREE or o == k:
-                    moves.append((n - nx, r - nx, i, j - 1, vs))
-            if nl > 1 and aim and (via[r] == FREE or via[r] == k):
-                step = VIA_COST + present * via_near[r]
-                for lj in range(nl):
-                    if lj != li:
-                        moves.append((lj * plane + r, r, i, j, step))
-            for m, rm, im, jm, step in moves:
+            for m, rm, im, jm, step in moves_of(n, li, r):
                 o = node[m]
                 if (o != FREE and o != k) or (mask is not None and not mask[rm]):
                     continue
@@ -561,13 +523,38 @@ class _Router:
                     best[m] = gm
                     parent[m] = n
                     cnt += 1
-                    if aim:
-                        hv = ((ti0 - im if im < ti0 else (im - ti1 if im > ti1 else 0))
-                              + (tj0 - jm if jm < tj0 else (jm - tj1 if jm > tj1 else 0)))
-                        heappush(heap, (gm + hv, cnt, m, gm))
-                    else:
-                        heappush(heap, (gm, cnt, m, gm))
+                    heappush(heap, (gm + h(im, jm), cnt, m, gm))
         return None
+
+    def _mover(self, net, box, present, aim):
+        """The neighbour generator of one search: ``moves(n, layer, plane cell)`` ->
+        ``[(node, plane cell, i, j, step cost), ...]`` along usable grid edges inside
+        ``box`` and, when aiming at targets, through a usable via site to every other layer."""
+        g = net.grid
+        nx, plane, nl = g.nx, g.nx * g.ny, len(self.layers)
+        ex, ey, via, via_near, k = g.ex, g.ey, g.via, self.via_near, net.k
+        i0, j0, i1, j1 = box
+        hstep, vstep = self.steps
+        vias = nl > 1 and aim
+
+        def moves(n, li, r):
+            j, i = divmod(r, nx)
+            hs, vs = hstep[li], vstep[li]
+            out = []
+            if i < i1 and (ex[n] == FREE or ex[n] == k):
+                out.append((n + 1, r + 1, i + 1, j, hs))
+            if i > i0 and (ex[n - 1] == FREE or ex[n - 1] == k):
+                out.append((n - 1, r - 1, i - 1, j, hs))
+            if j < j1 and (ey[n] == FREE or ey[n] == k):
+                out.append((n + nx, r + nx, i, j + 1, vs))
+            if j > j0 and (ey[n - nx] == FREE or ey[n - nx] == k):
+                out.append((n - nx, r - nx, i, j - 1, vs))
+            if vias and (via[r] == FREE or via[r] == k):
+                step = VIA_COST + present * via_near[r]
+                out.extend((lj * plane + r, r, i, j, step) for lj in range(nl) if lj != li)
+            return out
+
+        return moves
 
     @staticmethod
     def _path(parent: dict[int, int], n: int) -> list[int]:
@@ -693,6 +680,34 @@ def _span(pads) -> float:
     xs = [p.polygon.centroid.x for p in pads]
     ys = [p.polygon.centroid.y for p in pads]
     return (max(xs) - min(xs)) + (max(ys) - min(ys))
+
+
+def _heuristic(targets, nx: int, plane: int):
+    """A* heuristic: grid steps (Manhattan) from ``(i, j)`` to the box around ``targets``: admissible,
+    as every step costs at least 1."""
+    ti = [t % nx for t in targets]
+    tj = [(t % plane) // nx for t in targets]
+    ti0, ti1, tj0, tj1 = min(ti), max(ti), min(tj), max(tj)
+
+    def h(i, j):
+        return ((ti0 - i if i < ti0 else (i - ti1 if i > ti1 else 0))
+                + (tj0 - j if j < tj0 else (j - tj1 if j > tj1 else 0)))
+
+    return h
+
+
+def _seed(sources, h, nx: int, plane: int):
+    """The search's heap, best costs and parents with every source at cost 0 (sorted: deterministic)."""
+    best: dict[int, float] = {}
+    parent: dict[int, int] = {}
+    heap: list = []
+    for cnt, s in enumerate(sorted(sources)):
+        best[s] = 0.0
+        parent[s] = -1
+        r = s % plane
+        heap.append((float(h(r % nx, r // nx)), cnt, s, 0.0))
+    heapq.heapify(heap)
+    return heap, best, parent
 
 
 def _box(g: Grid, nodes: set[int], margin: int) -> tuple[int, int, int, int]:
