@@ -75,12 +75,13 @@ VIA_COST = 4.0           #: a via, in grid steps (our choice)
 OFF_DIRECTION = 1.5      #: a step against the layer's preferred direction (our choice)
 MAX_ROUNDS = 40          #: negotiation rounds at most
 PRESENT_START = 0.5      #: PathFinder's first present-sharing factor (our choice)
-PRESENT_GROWTH = 1.6     #: its growth per round (McMurchie and Ebeling use 1.5 to 2)
-HISTORY_STEP = 0.4       #: history added to a shared node per round
+PRESENT_GROWTH = 1.3     #: its growth per round (our choice, measured: 1.6 left the demo's compact placement open)
+HISTORY_STEP = 0.8       #: history added to a shared node per round
 WINDOW = 12              #: grid steps around a connection's box searched first
 AREA_MARGIN = 0.005      #: extra gap (mm) where copper areas are cut: buffer arcs are chords
 STUB_CELL = 2.0          #: side (mm) of the buckets pin-access stubs are filed in
 ESCAPE_PASSES = 3        #: rounds of pin escapes (each on the grid with the escapes before it)
+HARD = 1e6               #: the present-sharing factor of the last rip-up-and-reroute pass (sharing forbidden)
 DOT = 1e-3               #: length (mm) of the track that stands for a single node of copper
 
 Progress = Callable[[str, float], None]
@@ -395,7 +396,11 @@ class _Router:
             todo = [n for n in order if n in involved]
         for net in self.nets:
             net.failed = net.failed or not net.tried   # the budget ran out before this net was routed
-        congestion = self.resolve(bad)
+        places = bad
+        if bad and not any(n.dead for n in self.nets):
+            self.settle([n for n in order if n in involved])
+            bad = self.shared()[0]
+        congestion = self.resolve(places, bad)
         if plan is not None:
             congestion = tuple(dict.fromkeys(plan.congestion + congestion))[:10]
         return self.result(rounds, congestion)
@@ -564,10 +569,40 @@ class _Router:
         return out[::-1]
 
     # ---------------------------------------------------------------- ending
-    def resolve(self, bad: set[int]) -> tuple[tuple[float, float], ...]:
-        """Drop sharing nets (most shared first) until nothing is shared; return the crowded places."""
+    def settle(self, nets: list[_Net]) -> None:
+        """Rip up and reroute, sharing forbidden: the last step when negotiation has not converged.
+
+        The nets still sharing are ripped up and routed again one at a time
+        (shortest first) at a present-sharing factor of ``HARD``, so each
+        takes a path clear of every other net's copper when one exists; a
+        net whose best path still shares is ripped up and left open (the
+        classic sequential rip-up-and-reroute pass after negotiation).
+        """
+        for net in nets:
+            self.drop(net)
+        for net in nets:
+            if time.monotonic() > self.deadline:
+                break
+            self.reroute(net, HARD)
+            if net.failed or self.shares(net):
+                self.drop(net)
+
+    def shares(self, net: _Net) -> bool:
+        """Whether ``net``'s copper stands on another net's claim or another net's copper on its own."""
+        core_occ, claim_occ = self.core_occ, self.claim_occ
+        return (any(claim_occ[n] >= 2 for n in net.core)
+                or any(core_occ[n] >= (2 if n in net.core else 1) for n in net.claim))
+
+    def drop(self, net: _Net) -> None:
+        """Rip ``net`` up and mark it open."""
+        self.commit(net, -1)
+        net.paths, net.vias, net.core, net.claim, net.failed = [], [], set(), set(), True
+
+    def resolve(self, places: set[int], bad: set[int]) -> tuple[tuple[float, float], ...]:
+        """Drop sharing nets (most shared first) until nothing in ``bad`` is shared; return the crowded
+        places (``places``: where nets shared when negotiation stopped), most shared first."""
         g0 = self.nets[0].grid if self.nets else None
-        places = sorted(bad, key=lambda n: (-self.hist[n], n))
+        places = sorted(places, key=lambda n: (-self.hist[n], n))
         congestion = []
         for n in places:
             xy = g0.xy(n)
@@ -576,8 +611,7 @@ class _Router:
         while bad:
             counts = [(len(net.claim & bad) + len(net.core & bad), net.name, net) for net in self.nets]
             _, _, worst = max(counts, key=lambda t: (t[0], t[1]))
-            self.commit(worst, -1)
-            worst.paths, worst.vias, worst.core, worst.claim, worst.failed = [], [], set(), set(), True
+            self.drop(worst)
             # dropping a net only frees nodes: what stays shared is a subset (shared() without the full sweep)
             bad = {n for n in bad if self.core_occ[n] >= 1 and self.claim_occ[n] >= 2}
         return tuple(congestion[:10])
