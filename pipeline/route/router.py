@@ -494,23 +494,36 @@ class _Router:
     def _search(self, net, sources, targets, present, box, mask=None):
         """A* (Hart, Nilsson and Raphael 1968) inside ``box`` (and the plane cells ``mask`` marks).
 
-        The inner loop touches flat lists only: owners, history, sharers
-        and the occupancy near each node kept up to date by :meth:`commit`
-        (``self.near``, ``self.via_near``), so one expansion costs a few
-        list reads and at most one heap push per neighbour. With
-        ``targets`` None it is Dijkstra's search for the nearest usable via
-        site (the heuristic is 0). Neighbours come from :meth:`_mover`.
+        With ``targets`` None it is Dijkstra's search for the nearest
+        usable via site (the heuristic's box is the whole plane: it is 0).
+        The loop is :meth:`_expand`.
         """
         g = net.grid
         nx, plane = g.nx, g.nx * g.ny
-        node, hist, claim_occ = g.node, self.hist, self.claim_occ
-        near, k = self.near[net.halo_key], net.k
-        aim = targets is not None
-        h = _heuristic(targets, nx, plane) if aim else (lambda i, j: 0.0)
-        heap, best, parent = _seed(sources, h, nx, plane)
-        moves_of = self._mover(net, box, present, aim)
-        via = g.via
-        heappush, heappop = heapq.heappush, heapq.heappop
+        tbox = _target_box(targets, nx, plane) if targets is not None else (-1 << 40, 1 << 40, -1 << 40, 1 << 40)
+        heap, best, parent = _seed(sources, tbox, nx, plane)
+        end = self._expand(net, heap, best, parent, targets, tbox, present, box, mask)
+        return None if end is None else self._path(parent, end)
+
+    def _expand(self, net, heap, best, parent, targets, tbox, present, box, mask):
+        """The A* loop; returns the node reached (a target, or a usable via site) or None.
+
+        It touches flat lists only: owners, history, sharers and the
+        occupancy near each node kept up to date by :meth:`commit`
+        (``self.near``, ``self.via_near``), so one expansion costs a few
+        list reads and at most one heap push per neighbour. The heuristic
+        is the Manhattan distance in steps to ``tbox`` (admissible: every
+        step costs at least 1).
+        """
+        g, k, aim = net.grid, net.k, targets is not None
+        nx, plane, nl = g.nx, g.nx * g.ny, len(self.layers)
+        node, ex, ey, via, hist, claim_occ = g.node, g.ex, g.ey, g.via, self.hist, self.claim_occ
+        near, via_near = self.near[net.halo_key], self.via_near
+        i0, j0, i1, j1 = box
+        ti0, ti1, tj0, tj1 = tbox
+        hstep, vstep = self.steps
+        vias = nl > 1 and aim
+        heappush, heappop, inf = heapq.heappush, heapq.heappop, math.inf
         cnt = len(heap)
         while heap:
             _, _, n, gn = heappop(heap)
@@ -518,48 +531,36 @@ class _Router:
                 continue
             li, r = divmod(n, plane)
             if (n in targets) if aim else (via[r] == FREE or via[r] == k):
-                return self._path(parent, n)
-            for m, rm, im, jm, step in moves_of(n, li, r):
+                return n
+            j, i = divmod(r, nx)
+            hs, vs = hstep[li], vstep[li]
+            moves = []
+            if i < i1 and (ex[n] == FREE or ex[n] == k):
+                moves.append((n + 1, r + 1, i + 1, j, hs))
+            if i > i0 and (ex[n - 1] == FREE or ex[n - 1] == k):
+                moves.append((n - 1, r - 1, i - 1, j, hs))
+            if j < j1 and (ey[n] == FREE or ey[n] == k):
+                moves.append((n + nx, r + nx, i, j + 1, vs))
+            if j > j0 and (ey[n - nx] == FREE or ey[n - nx] == k):
+                moves.append((n - nx, r - nx, i, j - 1, vs))
+            if vias and (via[r] == FREE or via[r] == k):
+                step = VIA_COST + present * via_near[r]
+                for lj in range(nl):
+                    if lj != li:
+                        moves.append((lj * plane + r, r, i, j, step))
+            for m, rm, im, jm, step in moves:
                 o = node[m]
                 if (o != FREE and o != k) or (mask is not None and not mask[rm]):
                     continue
                 gm = gn + (step * (1.0 + hist[m]) * (1.0 + present * claim_occ[m]) + present * near[m])
-                if gm < best.get(m, math.inf) - 1e-12:
+                if gm < best.get(m, inf) - 1e-12:
                     best[m] = gm
                     parent[m] = n
                     cnt += 1
-                    heappush(heap, (gm + h(im, jm), cnt, m, gm))
+                    hv = ((ti0 - im if im < ti0 else (im - ti1 if im > ti1 else 0))
+                          + (tj0 - jm if jm < tj0 else (jm - tj1 if jm > tj1 else 0)))
+                    heappush(heap, (gm + hv, cnt, m, gm))
         return None
-
-    def _mover(self, net, box, present, aim):
-        """The neighbour generator of one search: ``moves(n, layer, plane cell)`` ->
-        ``[(node, plane cell, i, j, step cost), ...]`` along usable grid edges inside
-        ``box`` and, when aiming at targets, through a usable via site to every other layer."""
-        g = net.grid
-        nx, plane, nl = g.nx, g.nx * g.ny, len(self.layers)
-        ex, ey, via, via_near, k = g.ex, g.ey, g.via, self.via_near, net.k
-        i0, j0, i1, j1 = box
-        hstep, vstep = self.steps
-        vias = nl > 1 and aim
-
-        def moves(n, li, r):
-            j, i = divmod(r, nx)
-            hs, vs = hstep[li], vstep[li]
-            out = []
-            if i < i1 and (ex[n] == FREE or ex[n] == k):
-                out.append((n + 1, r + 1, i + 1, j, hs))
-            if i > i0 and (ex[n - 1] == FREE or ex[n - 1] == k):
-                out.append((n - 1, r - 1, i - 1, j, hs))
-            if j < j1 and (ey[n] == FREE or ey[n] == k):
-                out.append((n + nx, r + nx, i, j + 1, vs))
-            if j > j0 and (ey[n - nx] == FREE or ey[n - nx] == k):
-                out.append((n - nx, r - nx, i, j - 1, vs))
-            if vias and (via[r] == FREE or via[r] == k):
-                step = VIA_COST + present * via_near[r]
-                out.extend((lj * plane + r, r, i, j, step) for lj in range(nl) if lj != li)
-            return out
-
-        return moves
 
     @staticmethod
     def _path(parent: dict[int, int], n: int) -> list[int]:
@@ -716,22 +717,16 @@ def _span(pads) -> float:
     return (max(xs) - min(xs)) + (max(ys) - min(ys))
 
 
-def _heuristic(targets, nx: int, plane: int):
-    """A* heuristic: grid steps (Manhattan) from ``(i, j)`` to the box around ``targets``: admissible,
-    as every step costs at least 1."""
+def _target_box(targets, nx: int, plane: int) -> tuple[int, int, int, int]:
+    """``(i0, i1, j0, j1)``: the grid box around ``targets`` the A* heuristic measures to."""
     ti = [t % nx for t in targets]
     tj = [(t % plane) // nx for t in targets]
-    ti0, ti1, tj0, tj1 = min(ti), max(ti), min(tj), max(tj)
-
-    def h(i, j):
-        return ((ti0 - i if i < ti0 else (i - ti1 if i > ti1 else 0))
-                + (tj0 - j if j < tj0 else (j - tj1 if j > tj1 else 0)))
-
-    return h
+    return min(ti), max(ti), min(tj), max(tj)
 
 
-def _seed(sources, h, nx: int, plane: int):
+def _seed(sources, tbox, nx: int, plane: int):
     """The search's heap, best costs and parents with every source at cost 0 (sorted: deterministic)."""
+    ti0, ti1, tj0, tj1 = tbox
     best: dict[int, float] = {}
     parent: dict[int, int] = {}
     heap: list = []
@@ -739,7 +734,10 @@ def _seed(sources, h, nx: int, plane: int):
         best[s] = 0.0
         parent[s] = -1
         r = s % plane
-        heap.append((float(h(r % nx, r // nx)), cnt, s, 0.0))
+        i, j = r % nx, r // nx
+        hv = ((ti0 - i if i < ti0 else (i - ti1 if i > ti1 else 0))
+              + (tj0 - j if j < tj0 else (j - tj1 if j > tj1 else 0)))
+        heap.append((float(hv), cnt, s, 0.0))
     heapq.heapify(heap)
     return heap, best, parent
 
