@@ -60,13 +60,14 @@ import time
 from dataclasses import dataclass
 from typing import Callable
 
+import numpy as np
 import shapely
 from shapely.geometry import LineString, Point
 
 from .board import RouteBoard, RoutePad
 from .coarse import COARSE_PARTS, COARSE_SHARE, TILE_PITCHES, capacities, plan_corridors
 from .escape import ESCAPE_REACH, escape, island
-from .grid import BLOCKED, FREE, Grid, as_polygons, build_grid, edge_rule
+from .grid import BLOCKED, FREE, Grid, add_copper, as_polygons, build_grid, edge_rule
 from .rules import CopperRules
 
 __all__ = ["Track", "Via", "Area", "Routing", "route_board", "VIA_COST", "MAX_ROUNDS"]
@@ -190,10 +191,10 @@ class _Router:
         self.coarse = False   # route globally on tiles first (route_board sets it)
 
     # ---------------------------------------------------------------- setup
-    def grid(self, width: float, extra=None) -> Grid:
+    def grid(self, width: float) -> Grid:
         key = round(width, 9)
-        if extra is not None or key not in self._grids:
-            g = build_grid(self.board, self.rules, width, self.layers, self.names, extra)
+        if key not in self._grids:
+            g = build_grid(self.board, self.rules, width, self.layers, self.names)
             for li, name in enumerate(self.layers):  # a layer given to a copper area carries no tracks
                 if any(layer == name for _, layer in self.rules.areas):
                     off = li * g.nx * g.ny
@@ -202,14 +203,12 @@ class _Router:
         return self._grids[key]
 
     def setup(self) -> None:
-        stubs: dict[str, list] = {}
         buckets: dict = {}
+        for width in sorted({n.width for n in self.nets}):
+            self.grid(width)
         for _ in range(ESCAPE_PASSES):   # an escape may cut off another pad: look again on the new grid
-            if not self.escapes(stubs, buckets):
+            if not self.escapes(buckets):
                 break
-            self._grids.clear()
-            for width in sorted({n.width for n in self.nets}):
-                self.grid(width, stubs)
         p = self.rules.pitch_mm
         rv = self.rules.via_diameter_mm / 2
         self.via_halo = _offsets(rv + max(rv, self.wmax / 2) + self.rules.clearance_mm, p)
@@ -234,7 +233,7 @@ class _Router:
         self.steps = ([1.0 if not prefer or li % 2 == 0 else OFF_DIRECTION for li in range(len(self.layers))],
                       [1.0 if not prefer or li % 2 == 1 else OFF_DIRECTION for li in range(len(self.layers))])
 
-    def escapes(self, stubs: dict, buckets: dict) -> int:
+    def escapes(self, buckets: dict) -> int:
         """Pin escapes (:meth:`stub`) for the pads the current grid leaves on small islands; how many made."""
         made = 0
         for net in self.nets:
@@ -252,8 +251,9 @@ class _Router:
                 if stub is not None:
                     net.stubs.append((pi, *stub))
                     geo = stub[1].buffer(net.width / 2 + 0.002)
-                    stubs.setdefault(net.name, []).append((stub[0], geo))
                     _bucket_add(buckets, net.name, stub[0], geo)
+                    for width, other in self._grids.items():   # copper every grid keeps clear of
+                        add_copper(other, self.rules, width, net.k, stub[0], geo)
                     made += 1
         return made
 
@@ -263,20 +263,25 @@ class _Router:
         return (self.layers.index(layer) * g.ny + j) * g.nx + i
 
     def terminals(self, g: Grid, net: _Net, pad: RoutePad) -> list[int]:
-        """Nodes where a track of ``net`` overlaps ``pad`` (by at least 0.01 mm)."""
-        out = []
+        """Nodes where a track of ``net`` overlaps ``pad`` (by at least 0.01 mm); one vectorised
+        shapely distance call over the nodes of the pad's box."""
         reach = max(net.width / 2 - 0.01, 0.0)
         x0, y0, x1, y1 = pad.polygon.bounds
         i0, i1 = max(0, math.ceil((x0 - reach - g.x0) / g.pitch)), min(g.nx - 1, math.floor((x1 + reach - g.x0) / g.pitch))
         j0, j1 = max(0, math.ceil((y0 - reach - g.y0) / g.pitch)), min(g.ny - 1, math.floor((y1 + reach - g.y0) / g.pitch))
+        if i1 < i0 or j1 < j0:
+            return []
+        jj, ii = np.mgrid[j0:j1 + 1, i0:i1 + 1]
+        ii, jj = ii.ravel(), jj.ravel()
+        close = shapely.distance(shapely.points(g.x0 + ii * g.pitch, g.y0 + jj * g.pitch), pad.polygon) <= reach
+        out = []
         for li, name in enumerate(self.layers):
             if name not in pad.layers:
                 continue
-            for j in range(j0, j1 + 1):
-                for i in range(i0, i1 + 1):
-                    n = (li * g.ny + j) * g.nx + i
-                    if g.node[n] in (FREE, net.k) and pad.polygon.distance(Point(g.xy(n))) <= reach:
-                        out.append(n)
+            for i, j in zip(ii[close].tolist(), jj[close].tolist()):
+                n = (li * g.ny + j) * g.nx + i
+                if g.node[n] in (FREE, net.k):
+                    out.append(n)
         return out
 
     def stub(self, g: Grid, net: _Net, pad: RoutePad, cut: set[int], others: set[int], taken: dict) -> tuple[str, LineString] | None:
