@@ -389,7 +389,7 @@ class _Router:
             for idx, net in enumerate(todo):
                 if time.monotonic() > self.deadline:
                     break
-                self.reroute(net, present)
+                self.reroute(net, present, bad if rounds > 1 else None)
                 if self.progress:
                     self.progress(f"routing: round {rounds}, {net.name}", min(0.99, (rounds - 1 + idx / len(todo)) / 8))
             bad, involved = self.shared()
@@ -433,8 +433,11 @@ class _Router:
             net.corridor = plan.mask(net.name, g.nx, g.ny)
         return plan
 
-    def reroute(self, net: _Net, present: float) -> None:
+    def reroute(self, net: _Net, present: float, bad: set[int] | None = None) -> None:
+        """Rip ``net`` up and route it again; with ``bad`` (shared nodes) only the connections whose
+        copper or claim touches them are ripped up (partial rip-up; tree nets only)."""
         net.tried = True
+        keep = self.kept_paths(net, bad) if bad is not None and not net.area and not net.failed else []
         if net.paths or net.vias:
             self.commit(net, -1)
         net.paths, net.vias, net.failed = [], [], net.dead
@@ -445,28 +448,87 @@ class _Router:
         elif net.area:
             self.route_to_area(net, present)
         else:
+            for path in keep:
+                self.add_path(net, path)
             self.route_tree(net, present)
         if net.failed:
             net.paths, net.vias = [], []
         self.commit(net, +1)
 
+    def kept_paths(self, net: _Net, bad: set[int]) -> list[list[int]]:
+        """The paths of ``net`` clear of ``bad`` (neither on it nor claiming it), in routing order,
+        each still joined to what is kept before it (its first node on a kept path or a pad)."""
+        g = net.grid
+        plane = g.nx * g.ny
+        held: set[int] = {n for t in net.terms for n in t}
+        out = []
+        for path in net.paths:
+            if path[0] not in held or bad.intersection(path):
+                continue
+            claim = set(path)
+            for n in path:
+                claim.update(self.around(g, n, net.halo, same_layer=True))
+            for a, b in zip(path, path[1:]):
+                if a // plane != b // plane:
+                    claim.update(self.around(g, a % plane, self.via_halo, same_layer=False))
+            if claim & bad:
+                continue
+            out.append(path)
+            held.update(path)
+        return out
+
     def route_tree(self, net: _Net, present: float) -> None:
-        pads = list(range(len(net.pads)))
-        done = [pads.pop(0)]
-        tree: set[int] = set(net.terms[done[0]])
+        """Grow ``net``'s tree (Prim's order) from its first pad and the paths it already has; each
+        pad joined by an A* search to it and everything already joined to it."""
+        parts = self.pieces(net)
+        done = [parts[0]]
+        tree: set[int] = set(parts[0][1])
         cents = [p.polygon.centroid for p in net.pads]
-        while pads:
-            nxt = min(pads, key=lambda q: (min(cents[q].distance(cents[d]) for d in done), q))
-            path = self.astar(net, tree, set(net.terms[nxt]), present)
+        todo = parts[1:]
+        while todo:
+            joined = [d for part in done for d in part[0]]
+            nxt = min(todo, key=lambda c: (min(cents[q].distance(cents[d]) for q in c[0] for d in joined), c[0]))
+            path = self.astar(net, tree, set(nxt[1]), present)
             if path is None:
                 net.failed = True
                 net.dead = net.corridor is None   # outside a corridor a path may still exist
                 return
             self.add_path(net, path)
             tree.update(path)
-            tree.update(net.terms[nxt])
-            pads.remove(nxt)
+            tree.update(nxt[1])
+            todo.remove(nxt)
             done.append(nxt)
+
+    def pieces(self, net: _Net) -> list[tuple[tuple[int, ...], set[int]]]:
+        """The pads of ``net`` grouped by the paths it has: ``[(pad indices, nodes), ...]``, the group
+        of pad 0 first, then by lowest pad (each pad alone when it has no paths)."""
+        owner = {}
+        groups: list[list] = []
+        for q, terms in enumerate(net.terms):
+            groups.append([[q], set(terms)])
+            for n in terms:
+                owner.setdefault(n, q)
+        root = list(range(len(groups)))
+
+        def find(q):
+            while root[q] != q:
+                q = root[q]
+            return q
+
+        for path in net.paths:
+            a = find(owner[path[0]]) if path[0] in owner else None
+            ends = {find(owner[n]) for n in (path[-1],) if n in owner}
+            for b in ends:
+                if a is not None and a != b:
+                    root[b] = a
+                    groups[a][0] += groups[b][0]
+                    groups[a][1] |= groups[b][1]
+            if a is not None:
+                groups[a][1].update(path)
+                for n in path:
+                    owner.setdefault(n, a)
+        out = [(tuple(sorted(groups[q][0])), groups[q][1]) for q in range(len(groups)) if find(q) == q]
+        return sorted(out, key=lambda c: c[0])
 
     def route_to_area(self, net: _Net, present: float) -> None:
         for pad, terms in zip(net.pads, net.terms):
