@@ -67,3 +67,20 @@ def test_fine_pitch_row_all_pins_escape():
     r = route_board(board, RULES)
     assert r.status == "routed" and len({t.net for t in r.tracks}) == n
     assert check_copper(routes_dict(board, RULES, r)).clean
+
+
+@pytest.mark.parametrize("line", [[(1.0, 0.0), (2.3, 0.35)], [(-0.2, -0.1), (0.3, 0.6), (2.0, 0.6)]])
+def test_escape_marked_in_place_equals_a_grid_built_with_it(line):
+    # add_copper (in place, near the new copper only) against build_grid given the same copper as
+    # `extra`: every node, edge and via-site owner alike.
+    from shapely.geometry import LineString
+
+    from pipeline.route.grid import add_copper
+
+    board = _walled(0.7)
+    rules = CopperRules(layers=2)
+    geo = LineString(line).buffer(0.1)
+    g = build_grid(board, rules, 0.2, ("top", "bottom"), ("A",))
+    add_copper(g, rules, 0.2, 0, "top", geo)
+    ref = build_grid(board, rules, 0.2, ("top", "bottom"), ("A",), {"A": [("top", geo)]})
+    assert (g.node, g.ex, g.ey, g.via) == (ref.node, ref.ex, ref.ey, ref.via)

@@ -19,17 +19,25 @@ Method
   Manhattan distance to that pad's nodes as an admissible heuristic. Each
   layer prefers one direction (horizontal on top, vertical below: common
   practice), a via costs ``VIA_COST`` steps.
+* **Pin escape** (:mod:`pipeline.route.escape`): a pad the grid leaves on
+  a small island (tight gaps off the grid between other pads) gets an
+  any-angle track out of it, found by Lee's maze routing (C. Y. Lee,
+  1961) on a fine lattice and tested exactly; its end node becomes the
+  pad's terminal.
 * **Negotiated congestion** (PathFinder: L. McMurchie and C. Ebeling,
   "PathFinder: a negotiation-based performance-driven router for FPGAs",
   FPGA 1995): nets may first share nodes; a node's cost is
   ``step x (1 + history) x (1 + present x sharers)``. After each round the
-  history of shared nodes grows, the present factor grows by
-  ``PRESENT_GROWTH``, and the nets that share are ripped up and routed
-  again, until nothing is shared, ``MAX_ROUNDS`` pass or the time budget
-  runs out, or a connection is found to have no path at all (then no
-  negotiation can complete the board). Nets still sharing then are dropped
-  one at a time (most shared first) and reported open with the shared
-  places as the congestion.
+  history of shared nodes grows by ``HISTORY_STEP``, the present factor
+  grows by ``PRESENT_GROWTH``, and the connections that share are ripped
+  up and routed again (partial rip-up: a net keeps its other paths),
+  until nothing is shared, ``MAX_ROUNDS`` pass or the time budget runs
+  out, or a connection is found to have no path at all (then no
+  negotiation can complete the board). Nets still sharing then are
+  ripped up and routed once more one at a time with sharing forbidden
+  (the classic sequential rip-up-and-reroute pass); those that still
+  share are dropped (most shared first) and reported open with the
+  shared places as the congestion.
 * **Clearance model**: a track node or via claims the nodes around it that
   another net's copper may not use (none for two plain tracks: the pitch
   already holds the clearance; the 8 neighbours of a via; more around wide
