@@ -15,17 +15,20 @@ whatever the negotiation does.
 
 Method: Lee's maze routing (C. Y. Lee, "An algorithm for path connections
 and its applications", IRE Trans. EC-10(3), 1961) on a fine lattice (the
-grid pitch / ``FINE`` , aligned to the grid so that grid nodes are lattice
-points) inside a window around the pad, with eight neighbours (steps of 1
-alike: Lee's wavefront, one numpy dilation per step) from the lattice
-points in the pad to the nearest usable grid node off the pad's island; a lattice point is usable when it is at least ``w/2 + s`` (plus a
-small margin for the sag of a short segment) from other nets' copper and
-``w/2 +`` the edge rule inside the board. The lattice path is then pulled
-tight (greedy: from each corner the farthest later point in clear line of
-sight) and every segment of the result is tested exactly with shapely, so
-the track returned keeps the clearance exactly (the independent copper
-check re-tests it). Cost: O(L d) vectorised for the L lattice points of the window
-(tens of thousands) and a path of d steps, plus O(k^2) exact segment tests for a path of k points.
+grid pitch / ``FINE``, aligned to the grid so that grid nodes are lattice
+points) inside a window around the pad: a wavefront with eight neighbours,
+one numpy dilation per step, from the lattice points in the pad to the
+nearest usable grid node off the pad's island (a window of
+``FIRST_REACH`` mm first, then ``ESCAPE_REACH``). A lattice point is
+usable when it is at least ``w/2 + s`` (plus a small margin for the sag of
+a short segment) from other nets' copper and ``w/2 +`` the edge rule
+inside the board. The lattice path is then pulled tight (greedy: from each
+corner the farthest later point in clear line of sight) and every segment
+of the result is tested exactly with shapely, so the track returned keeps
+the clearance exactly (the independent copper check re-tests it). Cost:
+O(L d) vectorised for the L lattice points of the window (tens of
+thousands) and a path of d steps, plus O(k^2) exact segment tests for a
+path of k points.
 """
 
 from __future__ import annotations
