@@ -323,3 +323,35 @@ def test_defect_16_run_without_cavity_after_one_with_leaves_no_fit_files(tmp_pat
     assert not names & {"fit.json", "fit.svg", "board-outline.dxf"}
     listed = {f["name"] for f in json.loads((proj / "out" / MANIFEST).read_text())["files"]}
     assert names == listed | {MANIFEST}
+
+
+class _Handled(Exception):
+    pass
+
+
+def _raising_handler(signum, frame):
+    raise _Handled(signum)
+
+
+@pytest.mark.parametrize("handler, expected", [
+    (_raising_handler, _Handled),              # the user's Python handler runs before write_all returns
+    (signal.SIG_IGN, OutputError),             # an ignored signal stays ignored: the old set stays, said so
+])
+def test_defect_15_a_held_signal_goes_to_the_handler_that_was_there(tmp_path, monkeypatch, handler, expected):
+    out = tmp_path / "out"
+    write_all(out, OLD)
+    real_write = os.write
+
+    def write(fd, data):
+        os.kill(os.getpid(), signal.SIGTERM)
+        return real_write(fd, data)
+
+    previous = signal.signal(signal.SIGTERM, handler)
+    try:
+        monkeypatch.setattr(atomic.os, "write", write)
+        with pytest.raises(expected):
+            write_all(out, NEW)
+    finally:
+        signal.signal(signal.SIGTERM, previous)
+    assert _complete(out, OLD)
+    assert _beside(out) == []

@@ -49,7 +49,7 @@ import tempfile
 import threading
 from contextlib import contextmanager
 from pathlib import Path
-from typing import Iterable, Iterator, Mapping
+from typing import Any, Iterable, Iterator, Mapping
 
 from ..errors import OutputError
 
@@ -272,7 +272,20 @@ def _signals_held() -> Iterator[list[int]]:
         for s, handler in old.items():
             signal.signal(s, handler if handler is not None else signal.SIG_DFL)
         if got:
-            signal.raise_signal(got[0])
+            _deliver(got[0], old[got[0]])
+
+
+def _deliver(signum: int, handler: Any) -> None:
+    """Act on a held-back signal now: a Python handler is called here (Ctrl-C's raises KeyboardInterrupt
+    before the caller's next line), a default action is raised, an ignored signal stays ignored.
+
+    Raising a signal with a Python handler only marks it for the interpreter's next check, which
+    may come after the caller has already gone on; calling the handler makes the order certain.
+    """
+    if callable(handler):
+        handler(signum, None)
+    elif handler != signal.SIG_IGN:
+        signal.raise_signal(signum)
 
 
 class _Stopped(Exception):
