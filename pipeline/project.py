@@ -22,7 +22,8 @@ board      layers (2), thickness_mm (0.8), sides (1), density ("nominal"),
            places and routes, pipeline.route.smallest), min_inside_radius_mm (0.5),
            outline_units ("mm", another unit word, or "drawing": board-outline.dxf in
            the cavity's units)
-cavity     depth_mm (5.0), units ("mm"; the words of pipeline.cavity.units.UNIT_WORDS), layers (role map), chord_tolerance_mm (0.02)
+cavity     depth_mm (5.0), units ("mm"; a word of pipeline.cavity.units.UNIT_WORDS),
+           layers (role map), chord_tolerance_mm (0.02)
 order      boards (1), spares_percent (0), min_spares (0), multiple (1)
 analysis   draws (10000), seed (1), retune_above_share (0.01)
 limits     spice_file_bytes, spice_include_splices, spice_expansion_parts,
@@ -140,7 +141,10 @@ def _text(src: TomlSource, key: str, v: Any, choices: tuple[str, ...] | None = N
 
 
 def _unit_word(src: TomlSource, key: str, v: Any, *, also: str | None = None) -> str:
-    """``v`` if it is one of :data:`pipeline.cavity.units.UNIT_WORDS` (or ``also``), else a located error listing them."""
+    """``v`` if it is a word of :data:`pipeline.cavity.units.UNIT_WORDS` (or ``also``).
+
+    Otherwise a :class:`ProjectError` at ``key`` listing the words.
+    """
     problem = unit_problem(_text(src, key, v), also=also)
     if problem:
         raise src.error(key, problem, ProjectError)
