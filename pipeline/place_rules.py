@@ -324,7 +324,8 @@ def near_distance(rule: NearRule, own_at: tuple, target_at: tuple) -> float:
     return float(np.min(np.hypot(a[:, None, 0] - b[None, :, 0], a[:, None, 1] - b[None, :, 1])))
 
 
-def _cells(g, rect) -> tuple[int, int, int, int]:
+def cells_of(g, rect) -> tuple[int, int, int, int]:
+    """Rows and columns ``(r0, r1, c0, c1)`` of the grid ``g`` a rectangle ``(x1, y1, x2, y2)`` covers (rounded out)."""
     x1, y1, x2, y2 = rect
     c0 = int(math.floor((x1 - g.x0) / g.cell + 1e-9))
     c1 = int(math.ceil((x2 - g.x0) / g.cell - 1e-9))
@@ -382,7 +383,7 @@ def _stands(packer, run, k: int, slot) -> bool:
     lvl = run.top_level.get(k)
     if lvl is None:
         return False
-    r0, r1, c0, c1 = _cells(packer.grid, packer.rect(k, slot))
+    r0, r1, c0, c1 = cells_of(packer.grid, packer.rect(k, slot))
     return bool(packer.mask(lvl)[r0:r1, c0:c1].all())
 
 
@@ -449,11 +450,11 @@ def _nearest_slot(packer, run, fixed: dict, i: int, goal: np.ndarray):
     blocked = ~packer.mask(run.top_level[i])
     for j, slot in run.slots.items():
         if j != i and slot[0] == "top":
-            r0, r1, c0, c1 = _cells(g, packer.rect(j, slot))
+            r0, r1, c0, c1 = cells_of(g, packer.rect(j, slot))
             blocked[r0:r1, c0:c1] = True
     for side, rect in fixed.values():
         if side == "top":
-            r0, r1, c0, c1 = _cells(g, rect)
+            r0, r1, c0, c1 = cells_of(g, rect)
             blocked[r0:r1, c0:c1] = True
     sat = np.zeros((g.ny + 1, g.nx + 1), dtype=np.int64)
     sat[1:, 1:] = np.cumsum(np.cumsum(blocked, axis=0), axis=1)

@@ -28,7 +28,7 @@ from shapely.geometry import MultiPolygon, Polygon
 from .board import RouteBoard
 from .rules import CopperRules
 
-__all__ = ["Grid", "build_grid", "FREE", "BLOCKED"]
+__all__ = ["Grid", "build_grid", "add_copper", "edge_rule", "FREE", "BLOCKED"]
 
 FREE = -1
 BLOCKED = -2
@@ -97,7 +97,7 @@ def build_grid(board: RouteBoard, rules: CopperRules, width: float, layers: tupl
     copper = _copper_by_layer(board, layers, index, extra or {})
     for li, name in enumerate(layers):
         off = li * nx * ny
-        inside = _inside(board, pts, _edge_rule(rules, name, len(layers)) + width / 2)
+        inside = _inside(board, pts, edge_rule(rules, name, len(layers)) + width / 2)
         sl = node[off:off + nx * ny]
         sl[~inside] = BLOCKED
         tree = shapely.STRtree(pts)
@@ -106,13 +106,50 @@ def build_grid(board: RouteBoard, rules: CopperRules, width: float, layers: tupl
             hit = hit[shapely.distance(pts[hit], geo) < half - EPS]
             _own(sl, hit, net)
         ex[off:off + nx * ny], ey[off:off + nx * ny] = _edges(board, sl, gx, gy, p, copper[name], half,
-                                                              _edge_rule(rules, name, len(layers)) + width / 2)
+                                                              edge_rule(rules, name, len(layers)) + width / 2)
     via = _vias(board, rules, pts, layers, copper, len(layers))
     return Grid(float(xmin), float(ymin), p, nx, ny, tuple(layers), node.tolist(), ex.tolist(), ey.tolist(),
                 via.tolist(), tuple(nets))
 
 
-def _edge_rule(rules: CopperRules, layer: str, count: int) -> float:
+def add_copper(g: Grid, rules: CopperRules, width: float, net: int, layer: str, geo) -> None:
+    """Mark in ``g`` (in place) the nodes, grid edges and via sites too near ``geo``, new copper of
+    net index ``net`` on ``layer``, as :func:`build_grid` would have marked them.
+
+    For pin escapes added after the grid was built: the same exact tests
+    (shapely distances against ``w/2 + s`` for nodes and edges of that
+    layer, ``via radius + s`` for via sites), only over the grid points
+    near ``geo``. Cost O(points in its box).
+    """
+    half = width / 2 + rules.clearance_mm
+    hv = rules.via_diameter_mm / 2 + rules.clearance_mm
+    reach = max(half, hv)
+    x0, y0, x1, y1 = geo.bounds
+    i0, i1 = max(0, math.floor((x0 - reach - g.x0) / g.pitch)), min(g.nx - 1, math.ceil((x1 + reach - g.x0) / g.pitch))
+    j0, j1 = max(0, math.floor((y0 - reach - g.y0) / g.pitch)), min(g.ny - 1, math.ceil((y1 + reach - g.y0) / g.pitch))
+    jj, ii = np.mgrid[j0:j1 + 1, i0:i1 + 1]
+    ii, jj = ii.ravel(), jj.ravel()
+    xs, ys = g.x0 + ii * g.pitch, g.y0 + jj * g.pitch
+    off = g.layers.index(layer) * g.nx * g.ny
+    cell = jj * g.nx + ii
+    d = shapely.distance(shapely.points(xs, ys), geo)
+    for arr, base, limit in ((g.node, off, half), (g.via, 0, hv)):
+        for c in cell[d < limit - EPS]:
+            arr[base + c] = _owner(arr[base + c], net)
+    for arr, di, dj in ((g.ex, 1, 0), (g.ey, 0, 1)):
+        ok = (ii + di < g.nx) & (jj + dj < g.ny)
+        segs = shapely.linestrings(np.stack([np.stack([xs, ys], -1), np.stack([xs + di * g.pitch, ys + dj * g.pitch], -1)], 1)[ok])
+        near = shapely.distance(segs, geo) < half - EPS
+        for c in cell[ok][near]:
+            arr[off + c] = _owner(arr[off + c], net)
+
+
+def _owner(cur: int, net: int) -> int:
+    """The owner of a place that was ``cur`` once ``net``'s copper is near (BLOCKED if another net's is)."""
+    return net if cur in (FREE, net) else BLOCKED
+
+
+def edge_rule(rules: CopperRules, layer: str, count: int) -> float:
     inner = layer not in ("top", "bottom")
     return rules.inner_edge_clearance_mm if inner else rules.edge_clearance_mm
 
@@ -209,7 +246,7 @@ def _edges(board, sl, gx, gy, p, copper, half, margin):
 def _vias(board, rules, pts, layers, copper, count) -> np.ndarray:
     """Owners of via sites (one per grid point, through every layer)."""
     rv = rules.via_diameter_mm / 2
-    edge = max(_edge_rule(rules, name, count) for name in layers)
+    edge = max(edge_rule(rules, name, count) for name in layers)
     via = np.where(_inside(board, pts, edge + rv), FREE, BLOCKED).astype(np.int64)
     tree = shapely.STRtree(pts)
     half = rv + rules.clearance_mm

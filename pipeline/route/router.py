@@ -19,17 +19,25 @@ Method
   Manhattan distance to that pad's nodes as an admissible heuristic. Each
   layer prefers one direction (horizontal on top, vertical below: common
   practice), a via costs ``VIA_COST`` steps.
+* **Pin escape** (:mod:`pipeline.route.escape`): a pad the grid leaves on
+  a small island (tight gaps off the grid between other pads) gets an
+  any-angle track out of it, found by Lee's maze routing (C. Y. Lee,
+  1961) on a fine lattice and tested exactly; its end node becomes the
+  pad's terminal.
 * **Negotiated congestion** (PathFinder: L. McMurchie and C. Ebeling,
   "PathFinder: a negotiation-based performance-driven router for FPGAs",
   FPGA 1995): nets may first share nodes; a node's cost is
   ``step x (1 + history) x (1 + present x sharers)``. After each round the
-  history of shared nodes grows, the present factor grows by
-  ``PRESENT_GROWTH``, and the nets that share are ripped up and routed
-  again, until nothing is shared, ``MAX_ROUNDS`` pass or the time budget
-  runs out, or a connection is found to have no path at all (then no
-  negotiation can complete the board). Nets still sharing then are dropped
-  one at a time (most shared first) and reported open with the shared
-  places as the congestion.
+  history of shared nodes grows by ``HISTORY_STEP``, the present factor
+  grows by ``PRESENT_GROWTH``, and the connections that share are ripped
+  up and routed again (partial rip-up: a net keeps its other paths),
+  until nothing is shared, ``MAX_ROUNDS`` pass or the time budget runs
+  out, or a connection is found to have no path at all (then no
+  negotiation can complete the board). Nets still sharing then are
+  ripped up and routed once more one at a time with sharing forbidden
+  (the classic sequential rip-up-and-reroute pass); those that still
+  share are dropped (most shared first) and reported open with the
+  shared places as the congestion.
 * **Clearance model**: a track node or via claims the nodes around it that
   another net's copper may not use (none for two plain tracks: the pitch
   already holds the clearance; the 8 neighbours of a via; more around wide
@@ -60,12 +68,14 @@ import time
 from dataclasses import dataclass
 from typing import Callable
 
+import numpy as np
 import shapely
 from shapely.geometry import LineString, Point
 
 from .board import RouteBoard, RoutePad
 from .coarse import COARSE_PARTS, COARSE_SHARE, TILE_PITCHES, capacities, plan_corridors
-from .grid import BLOCKED, FREE, Grid, as_polygons, build_grid
+from .escape import ESCAPE_REACH, escape, island
+from .grid import BLOCKED, FREE, Grid, add_copper, as_polygons, build_grid, edge_rule
 from .rules import CopperRules
 
 __all__ = ["Track", "Via", "Area", "Routing", "route_board", "VIA_COST", "MAX_ROUNDS"]
@@ -73,13 +83,14 @@ __all__ = ["Track", "Via", "Area", "Routing", "route_board", "VIA_COST", "MAX_RO
 VIA_COST = 4.0           #: a via, in grid steps (our choice)
 OFF_DIRECTION = 1.5      #: a step against the layer's preferred direction (our choice)
 MAX_ROUNDS = 40          #: negotiation rounds at most
-PRESENT_START = 0.5      #: PathFinder's first present-sharing factor (our choice)
-PRESENT_GROWTH = 1.6     #: its growth per round (McMurchie and Ebeling use 1.5 to 2)
-HISTORY_STEP = 0.4       #: history added to a shared node per round
+PRESENT_START = 1.0      #: PathFinder's first present-sharing factor (our choice, measured: 0.5 took 21 rounds on the demo, 40 and 1 net open on the 60-part board at 1.2 mm spread)
+PRESENT_GROWTH = 1.3     #: its growth per round (our choice, measured: 1.6 left the demo's compact placement open)
+HISTORY_STEP = 0.8       #: history added to a shared node per round
 WINDOW = 12              #: grid steps around a connection's box searched first
 AREA_MARGIN = 0.005      #: extra gap (mm) where copper areas are cut: buffer arcs are chords
-STUB_REACH = 3           #: grid steps within which a pin-access stub may end
 STUB_CELL = 2.0          #: side (mm) of the buckets pin-access stubs are filed in
+ESCAPE_PASSES = 3        #: rounds of pin escapes (each on the grid with the escapes before it)
+HARD = 1e6               #: the present-sharing factor of the last rip-up-and-reroute pass (sharing forbidden)
 DOT = 1e-3               #: length (mm) of the track that stands for a single node of copper
 
 Progress = Callable[[str, float], None]
@@ -188,10 +199,10 @@ class _Router:
         self.coarse = False   # route globally on tiles first (route_board sets it)
 
     # ---------------------------------------------------------------- setup
-    def grid(self, width: float, extra=None) -> Grid:
+    def grid(self, width: float) -> Grid:
         key = round(width, 9)
-        if extra is not None or key not in self._grids:
-            g = build_grid(self.board, self.rules, width, self.layers, self.names, extra)
+        if key not in self._grids:
+            g = build_grid(self.board, self.rules, width, self.layers, self.names)
             for li, name in enumerate(self.layers):  # a layer given to a copper area carries no tracks
                 if any(layer == name for _, layer in self.rules.areas):
                     off = li * g.nx * g.ny
@@ -200,23 +211,12 @@ class _Router:
         return self._grids[key]
 
     def setup(self) -> None:
-        stubs: dict[str, list] = {}
         buckets: dict = {}
-        for net in self.nets:
-            g = self.grid(net.width)
-            net.terms = [self.terminals(g, net, pad) for pad in net.pads]
-            for pi, (pad, terms) in enumerate(zip(net.pads, net.terms)):
-                if not terms and not (net.area and net.area in pad.layers):
-                    stub = self.stub(g, net, pad, buckets)
-                    if stub is not None:
-                        net.stubs.append((pi, *stub))
-                        geo = stub[1].buffer(net.width / 2 + 0.002)
-                        stubs.setdefault(net.name, []).append((stub[0], geo))
-                        _bucket_add(buckets, net.name, stub[0], geo)
-        if stubs:
-            self._grids.clear()
-            for width in sorted({n.width for n in self.nets}):
-                self.grid(width, stubs)
+        for width in sorted({n.width for n in self.nets}):
+            self.grid(width)
+        for _ in range(ESCAPE_PASSES):   # an escape may cut off another pad: look again on the new grid
+            if not self.escapes(buckets):
+                break
         p = self.rules.pitch_mm
         rv = self.rules.via_diameter_mm / 2
         self.via_halo = _offsets(rv + max(rv, self.wmax / 2) + self.rules.clearance_mm, p)
@@ -241,62 +241,85 @@ class _Router:
         self.steps = ([1.0 if not prefer or li % 2 == 0 else OFF_DIRECTION for li in range(len(self.layers))],
                       [1.0 if not prefer or li % 2 == 1 else OFF_DIRECTION for li in range(len(self.layers))])
 
+    def escapes(self, buckets: dict) -> int:
+        """Pin escapes (:meth:`stub`) for the pads the current grid leaves on small islands; how many made."""
+        made = 0
+        for net in self.nets:
+            if len(net.pads) < 2:
+                continue
+            g = self.grid(net.width)
+            have = {pi for pi, *_ in net.stubs}
+            terms = [self.terminals(g, net, pad) for pad in net.pads]
+            for pi, pad in enumerate(net.pads):
+                if pi in have or (net.area and net.area in pad.layers):
+                    continue
+                others = {n for q, t in enumerate(terms) if q != pi for n in t}
+                cut = island(g, net.k, terms[pi], others)
+                stub = None if cut is None else self.stub(g, net, pad, cut, others, buckets)
+                if stub is not None:
+                    net.stubs.append((pi, *stub))
+                    geo = stub[1].buffer(net.width / 2 + 0.002)
+                    _bucket_add(buckets, net.name, stub[0], geo)
+                    for width, other in self._grids.items():   # copper every grid keeps clear of
+                        add_copper(other, self.rules, width, net.k, stub[0], geo)
+                    made += 1
+        return made
+
     def node_at(self, g: Grid, layer: str, xy) -> int:
         i = round((xy[0] - g.x0) / g.pitch)
         j = round((xy[1] - g.y0) / g.pitch)
         return (self.layers.index(layer) * g.ny + j) * g.nx + i
 
     def terminals(self, g: Grid, net: _Net, pad: RoutePad) -> list[int]:
-        """Nodes where a track of ``net`` overlaps ``pad`` (by at least 0.01 mm)."""
-        out = []
+        """Nodes where a track of ``net`` overlaps ``pad`` (by at least 0.01 mm); one vectorised
+        shapely distance call over the nodes of the pad's box."""
         reach = max(net.width / 2 - 0.01, 0.0)
         x0, y0, x1, y1 = pad.polygon.bounds
         i0, i1 = max(0, math.ceil((x0 - reach - g.x0) / g.pitch)), min(g.nx - 1, math.floor((x1 + reach - g.x0) / g.pitch))
         j0, j1 = max(0, math.ceil((y0 - reach - g.y0) / g.pitch)), min(g.ny - 1, math.floor((y1 + reach - g.y0) / g.pitch))
+        if i1 < i0 or j1 < j0:
+            return []
+        jj, ii = np.mgrid[j0:j1 + 1, i0:i1 + 1]
+        ii, jj = ii.ravel(), jj.ravel()
+        close = shapely.distance(shapely.points(g.x0 + ii * g.pitch, g.y0 + jj * g.pitch), pad.polygon) <= reach
+        out = []
         for li, name in enumerate(self.layers):
             if name not in pad.layers:
                 continue
-            for j in range(j0, j1 + 1):
-                for i in range(i0, i1 + 1):
-                    n = (li * g.ny + j) * g.nx + i
-                    if g.node[n] in (FREE, net.k) and pad.polygon.distance(Point(g.xy(n))) <= reach:
-                        out.append(n)
+            for i, j in zip(ii[close].tolist(), jj[close].tolist()):
+                n = (li * g.ny + j) * g.nx + i
+                if g.node[n] in (FREE, net.k):
+                    out.append(n)
         return out
 
-    def stub(self, g: Grid, net: _Net, pad: RoutePad, taken: dict) -> tuple[str, LineString] | None:
-        """A short straight track from inside ``pad`` to a nearby usable node (pin access).
+    def stub(self, g: Grid, net: _Net, pad: RoutePad, cut: set[int], others: set[int], taken: dict) -> tuple[str, LineString] | None:
+        """Pin escape: an any-angle track from inside ``pad`` to a node off its island ``cut``.
 
-        The shortest clear one (ties: layer, row, column). ``taken`` holds
-        the stubs already made, by ``STUB_CELL`` bucket; other pads are
-        found through an STRtree, so one pad costs O(candidates x log pads).
+        For a pad the grid leaves cut off from the rest of its net
+        (:func:`pipeline.route.escape.island`); the track comes from Lee's
+        maze routing on a fine lattice (:func:`pipeline.route.escape.escape`),
+        clear of other nets' pads (found through an STRtree) and of the
+        escapes already made (``taken``, by ``STUB_CELL`` bucket). Layers
+        are tried in order; ``None`` when none has a way out.
         """
-        anchor = pad.polygon.representative_point()
-        w, s = net.width, self.rules.clearance_mm
-        reach = w / 2 + s + 1e-6
         pads = self.board.pads
         if not hasattr(self, "_pad_tree"):
             self._pad_tree = shapely.STRtree([p.polygon for p in pads])
-        ci = round((anchor.x - g.x0) / g.pitch)
-        cj = round((anchor.y - g.y0) / g.pitch)
-        cands = []
+        w, s = net.width, self.rules.clearance_mm
+        half = w / 2 + s
+        window = pad.polygon.buffer(ESCAPE_REACH + half, join_style="mitre")
+        near = self._pad_tree.query(window, predicate="intersects")
+        edge = (self.board.outline, self.board.holes)
         for li, name in enumerate(self.layers):
             if name not in pad.layers:
                 continue
-            for j in range(max(cj - STUB_REACH, 0), min(cj + STUB_REACH, g.ny - 1) + 1):
-                for i in range(max(ci - STUB_REACH, 0), min(ci + STUB_REACH, g.nx - 1) + 1):
-                    n = (li * g.ny + j) * g.nx + i
-                    if g.node[n] in (FREE, net.k):
-                        line = LineString([anchor.coords[0], g.xy(n)])
-                        cands.append(((line.length, li, j, i), name, line))
-        for _, name, line in sorted(cands, key=lambda c: c[0]):
-            near = self._pad_tree.query(line, predicate="dwithin", distance=reach)
-            if any(pads[q].net != net.name and name in pads[q].layers and line.distance(pads[q].polygon) < reach
-                   for q in near):
-                continue
-            if any(other != net.name and lay == name and line.distance(geo) < reach
-                   for other, lay, geo in _bucket_near(taken, line.bounds, reach)):
-                continue
-            return name, line
+            obstacles = [pads[q].polygon for q in sorted(near) if pads[q].net != net.name and name in pads[q].layers]
+            obstacles += [geo for other, lay, geo in _bucket_near(taken, window.bounds, 0.0)
+                          if other != net.name and lay == name]
+            line = escape(pad.polygon, li, g, net.k, cut, others, obstacles, edge, half,
+                          w / 2 + edge_rule(self.rules, name, len(self.layers)))
+            if line is not None:
+                return name, line
         return None
 
     # ---------------------------------------------------------------- occupancy
@@ -374,7 +397,7 @@ class _Router:
             for idx, net in enumerate(todo):
                 if time.monotonic() > self.deadline:
                     break
-                self.reroute(net, present)
+                self.reroute(net, present, bad if rounds > 1 else None)
                 if self.progress:
                     self.progress(f"routing: round {rounds}, {net.name}", min(0.99, (rounds - 1 + idx / len(todo)) / 8))
             bad, involved = self.shared()
@@ -386,7 +409,11 @@ class _Router:
             todo = [n for n in order if n in involved]
         for net in self.nets:
             net.failed = net.failed or not net.tried   # the budget ran out before this net was routed
-        congestion = self.resolve(bad)
+        places = bad
+        if bad and not any(n.dead for n in self.nets):
+            self.settle([n for n in order if n in involved])
+            bad = self.shared()[0]
+        congestion = self.resolve(places, bad)
         if plan is not None:
             congestion = tuple(dict.fromkeys(plan.congestion + congestion))[:10]
         return self.result(rounds, congestion)
@@ -414,8 +441,11 @@ class _Router:
             net.corridor = plan.mask(net.name, g.nx, g.ny)
         return plan
 
-    def reroute(self, net: _Net, present: float) -> None:
+    def reroute(self, net: _Net, present: float, bad: set[int] | None = None) -> None:
+        """Rip ``net`` up and route it again; with ``bad`` (shared nodes) only the connections whose
+        copper or claim touches them are ripped up (partial rip-up; tree nets only)."""
         net.tried = True
+        keep = self.kept_paths(net, bad) if bad is not None and not net.area and not net.failed else []
         if net.paths or net.vias:
             self.commit(net, -1)
         net.paths, net.vias, net.failed = [], [], net.dead
@@ -426,28 +456,87 @@ class _Router:
         elif net.area:
             self.route_to_area(net, present)
         else:
+            for path in keep:
+                self.add_path(net, path)
             self.route_tree(net, present)
         if net.failed:
             net.paths, net.vias = [], []
         self.commit(net, +1)
 
+    def kept_paths(self, net: _Net, bad: set[int]) -> list[list[int]]:
+        """The paths of ``net`` clear of ``bad`` (neither on it nor claiming it), in routing order,
+        each still joined to what is kept before it (its first node on a kept path or a pad)."""
+        g = net.grid
+        plane = g.nx * g.ny
+        held: set[int] = {n for t in net.terms for n in t}
+        out = []
+        for path in net.paths:
+            if path[0] not in held or bad.intersection(path):
+                continue
+            claim = set(path)
+            for n in path:
+                claim.update(self.around(g, n, net.halo, same_layer=True))
+            for a, b in zip(path, path[1:]):
+                if a // plane != b // plane:
+                    claim.update(self.around(g, a % plane, self.via_halo, same_layer=False))
+            if claim & bad:
+                continue
+            out.append(path)
+            held.update(path)
+        return out
+
     def route_tree(self, net: _Net, present: float) -> None:
-        pads = list(range(len(net.pads)))
-        done = [pads.pop(0)]
-        tree: set[int] = set(net.terms[done[0]])
+        """Grow ``net``'s tree (Prim's order) from its first pad and the paths it already has; each
+        pad joined by an A* search to it and everything already joined to it."""
+        parts = self.pieces(net)
+        done = [parts[0]]
+        tree: set[int] = set(parts[0][1])
         cents = [p.polygon.centroid for p in net.pads]
-        while pads:
-            nxt = min(pads, key=lambda q: (min(cents[q].distance(cents[d]) for d in done), q))
-            path = self.astar(net, tree, set(net.terms[nxt]), present)
+        todo = parts[1:]
+        while todo:
+            joined = [d for part in done for d in part[0]]
+            nxt = min(todo, key=lambda c: (min(cents[q].distance(cents[d]) for q in c[0] for d in joined), c[0]))
+            path = self.astar(net, tree, set(nxt[1]), present)
             if path is None:
                 net.failed = True
                 net.dead = net.corridor is None   # outside a corridor a path may still exist
                 return
             self.add_path(net, path)
             tree.update(path)
-            tree.update(net.terms[nxt])
-            pads.remove(nxt)
+            tree.update(nxt[1])
+            todo.remove(nxt)
             done.append(nxt)
+
+    def pieces(self, net: _Net) -> list[tuple[tuple[int, ...], set[int]]]:
+        """The pads of ``net`` grouped by the paths it has: ``[(pad indices, nodes), ...]``, the group
+        of pad 0 first, then by lowest pad (each pad alone when it has no paths)."""
+        owner = {}
+        groups: list[list] = []
+        for q, terms in enumerate(net.terms):
+            groups.append([[q], set(terms)])
+            for n in terms:
+                owner.setdefault(n, q)
+        root = list(range(len(groups)))
+
+        def find(q):
+            while root[q] != q:
+                q = root[q]
+            return q
+
+        for path in net.paths:
+            a = find(owner[path[0]]) if path[0] in owner else None
+            ends = {find(owner[n]) for n in (path[-1],) if n in owner}
+            for b in ends:
+                if a is not None and a != b:
+                    root[b] = a
+                    groups[a][0] += groups[b][0]
+                    groups[a][1] |= groups[b][1]
+            if a is not None:
+                groups[a][1].update(path)
+                for n in path:
+                    owner.setdefault(n, a)
+        out = [(tuple(sorted(groups[q][0])), groups[q][1]) for q in range(len(groups)) if find(q) == q]
+        return sorted(out, key=lambda c: c[0])
 
     def route_to_area(self, net: _Net, present: float) -> None:
         for pad, terms in zip(net.pads, net.terms):
@@ -478,76 +567,58 @@ class _Router:
         return self._search(net, sources, targets, present, (0, 0, g.nx - 1, g.ny - 1), net.corridor)
 
     def _search(self, net, sources, targets, present, box, mask=None):
-        """A* inside ``box`` (and the plane cells ``mask`` marks, when given).
+        """A* (Hart, Nilsson and Raphael 1968) inside ``box`` (and the plane cells ``mask`` marks).
 
-        The inner loop touches flat lists only: owners, history, sharers
-        and the occupancy near each node kept up to date by :meth:`commit`
-        (``self.near``, ``self.via_near``), so one expansion costs a few
-        list reads and at most one heap push per neighbour.
+        With ``targets`` None it is Dijkstra's search for the nearest
+        usable via site (the heuristic's box is the whole plane: it is 0).
+        The loop is :meth:`_expand`.
         """
         g = net.grid
-        nx = g.nx
-        plane = nx * g.ny
-        nl = len(self.layers)
-        node, ex, ey, via = g.node, g.ex, g.ey, g.via
-        hist, claim_occ = self.hist, self.claim_occ
+        nx, plane = g.nx, g.nx * g.ny
+        tbox = _target_box(targets, nx, plane) if targets is not None else (-1 << 40, 1 << 40, -1 << 40, 1 << 40)
+        heap, best, parent = _seed(sources, tbox, nx, plane)
+        end = self._expand(net, heap, best, parent, targets, tbox, present, box, mask)
+        return None if end is None else self._path(parent, end)
+
+    def _expand(self, net, heap, best, parent, targets, tbox, present, box, mask):
+        """The A* loop; returns the node reached (a target, or a usable via site) or None.
+
+        It touches flat lists only: owners, history, sharers and the
+        occupancy near each node kept up to date by :meth:`commit`
+        (``self.near``, ``self.via_near``), so one expansion costs a few
+        list reads and at most one heap push per neighbour. The heuristic
+        is the Manhattan distance in steps to ``tbox`` (admissible: every
+        step costs at least 1).
+        """
+        g, k, aim = net.grid, net.k, targets is not None
+        nx, plane, nl = g.nx, g.nx * g.ny, len(self.layers)
+        node, ex, ey, via, hist, claim_occ = g.node, g.ex, g.ey, g.via, self.hist, self.claim_occ
         near, via_near = self.near[net.halo_key], self.via_near
-        k = net.k
         i0, j0, i1, j1 = box
-        aim = targets is not None
-        if aim:
-            ti = [t % nx for t in targets]
-            tj = [(t % plane) // nx for t in targets]
-            ti0, ti1, tj0, tj1 = min(ti), max(ti), min(tj), max(tj)
+        ti0, ti1, tj0, tj1 = tbox
         hstep, vstep = self.steps
-        heappush, heappop = heapq.heappush, heapq.heappop
-        best: dict[int, float] = {}
-        parent: dict[int, int] = {}
-        heap: list = []
-        cnt = 0
-        for s in sorted(sources):
-            best[s] = 0.0
-            parent[s] = -1
-            if aim:
-                r = s % plane
-                i, j = r % nx, r // nx
-                hv = ((ti0 - i if i < ti0 else (i - ti1 if i > ti1 else 0))
-                      + (tj0 - j if j < tj0 else (j - tj1 if j > tj1 else 0))) * 1.0
-            else:
-                hv = 0.0
-            heap.append((hv, cnt, s, 0.0))
-            cnt += 1
-        heapq.heapify(heap)
+        vias = nl > 1 and aim
+        heappush, heappop, inf = heapq.heappush, heapq.heappop, math.inf
+        cnt = len(heap)
         while heap:
             _, _, n, gn = heappop(heap)
             if gn > best[n] + 1e-12:
                 continue
             li, r = divmod(n, plane)
-            if not aim:
-                if via[r] == FREE or via[r] == k:
-                    return self._path(parent, n)
-            elif n in targets:
-                return self._path(parent, n)
+            if (n in targets) if aim else (via[r] == FREE or via[r] == k):
+                return n
             j, i = divmod(r, nx)
             hs, vs = hstep[li], vstep[li]
             moves = []
-            if i < i1:
-                o = ex[n]
-                if o == FREE or o == k:
-                    moves.append((n + 1, r + 1, i + 1, j, hs))
-            if i > i0:
-                o = ex[n - 1]
-                if o == FREE or o == k:
-                    moves.append((n - 1, r - 1, i - 1, j, hs))
-            if j < j1:
-                o = ey[n]
-                if o == FREE or o == k:
-                    moves.append((n + nx, r + nx, i, j + 1, vs))
-            if j > j0:
-                o = ey[n - nx]
-                if o == FREE or o == k:
-                    moves.append((n - nx, r - nx, i, j - 1, vs))
-            if nl > 1 and aim and (via[r] == FREE or via[r] == k):
+            if i < i1 and (ex[n] == FREE or ex[n] == k):
+                moves.append((n + 1, r + 1, i + 1, j, hs))
+            if i > i0 and (ex[n - 1] == FREE or ex[n - 1] == k):
+                moves.append((n - 1, r - 1, i - 1, j, hs))
+            if j < j1 and (ey[n] == FREE or ey[n] == k):
+                moves.append((n + nx, r + nx, i, j + 1, vs))
+            if j > j0 and (ey[n - nx] == FREE or ey[n - nx] == k):
+                moves.append((n - nx, r - nx, i, j - 1, vs))
+            if vias and (via[r] == FREE or via[r] == k):
                 step = VIA_COST + present * via_near[r]
                 for lj in range(nl):
                     if lj != li:
@@ -557,16 +628,13 @@ class _Router:
                 if (o != FREE and o != k) or (mask is not None and not mask[rm]):
                     continue
                 gm = gn + (step * (1.0 + hist[m]) * (1.0 + present * claim_occ[m]) + present * near[m])
-                if gm < best.get(m, math.inf) - 1e-12:
+                if gm < best.get(m, inf) - 1e-12:
                     best[m] = gm
                     parent[m] = n
                     cnt += 1
-                    if aim:
-                        hv = ((ti0 - im if im < ti0 else (im - ti1 if im > ti1 else 0))
-                              + (tj0 - jm if jm < tj0 else (jm - tj1 if jm > tj1 else 0)))
-                        heappush(heap, (gm + hv, cnt, m, gm))
-                    else:
-                        heappush(heap, (gm, cnt, m, gm))
+                    hv = ((ti0 - im if im < ti0 else (im - ti1 if im > ti1 else 0))
+                          + (tj0 - jm if jm < tj0 else (jm - tj1 if jm > tj1 else 0)))
+                    heappush(heap, (gm + hv, cnt, m, gm))
         return None
 
     @staticmethod
@@ -577,10 +645,40 @@ class _Router:
         return out[::-1]
 
     # ---------------------------------------------------------------- ending
-    def resolve(self, bad: set[int]) -> tuple[tuple[float, float], ...]:
-        """Drop sharing nets (most shared first) until nothing is shared; return the crowded places."""
+    def settle(self, nets: list[_Net]) -> None:
+        """Rip up and reroute, sharing forbidden: the last step when negotiation has not converged.
+
+        The nets still sharing are ripped up and routed again one at a time
+        (shortest first) at a present-sharing factor of ``HARD``, so each
+        takes a path clear of every other net's copper when one exists; a
+        net whose best path still shares is ripped up and left open (the
+        classic sequential rip-up-and-reroute pass after negotiation).
+        """
+        for net in nets:
+            self.drop(net)
+        for net in nets:
+            if time.monotonic() > self.deadline:
+                break
+            self.reroute(net, HARD)
+            if net.failed or self.shares(net):
+                self.drop(net)
+
+    def shares(self, net: _Net) -> bool:
+        """Whether ``net``'s copper stands on another net's claim or another net's copper on its own."""
+        core_occ, claim_occ = self.core_occ, self.claim_occ
+        return (any(claim_occ[n] >= 2 for n in net.core)
+                or any(core_occ[n] >= (2 if n in net.core else 1) for n in net.claim))
+
+    def drop(self, net: _Net) -> None:
+        """Rip ``net`` up and mark it open."""
+        self.commit(net, -1)
+        net.paths, net.vias, net.core, net.claim, net.failed = [], [], set(), set(), True
+
+    def resolve(self, places: set[int], bad: set[int]) -> tuple[tuple[float, float], ...]:
+        """Drop sharing nets (most shared first) until nothing in ``bad`` is shared; return the crowded
+        places (``places``: where nets shared when negotiation stopped), most shared first."""
         g0 = self.nets[0].grid if self.nets else None
-        places = sorted(bad, key=lambda n: (-self.hist[n], n))
+        places = sorted(places, key=lambda n: (-self.hist[n], n))
         congestion = []
         for n in places:
             xy = g0.xy(n)
@@ -589,8 +687,7 @@ class _Router:
         while bad:
             counts = [(len(net.claim & bad) + len(net.core & bad), net.name, net) for net in self.nets]
             _, _, worst = max(counts, key=lambda t: (t[0], t[1]))
-            self.commit(worst, -1)
-            worst.paths, worst.vias, worst.core, worst.claim, worst.failed = [], [], set(), set(), True
+            self.drop(worst)
             # dropping a net only frees nodes: what stays shared is a subset (shared() without the full sweep)
             bad = {n for n in bad if self.core_occ[n] >= 1 and self.claim_occ[n] >= 2}
         return tuple(congestion[:10])
@@ -693,6 +790,31 @@ def _span(pads) -> float:
     xs = [p.polygon.centroid.x for p in pads]
     ys = [p.polygon.centroid.y for p in pads]
     return (max(xs) - min(xs)) + (max(ys) - min(ys))
+
+
+def _target_box(targets, nx: int, plane: int) -> tuple[int, int, int, int]:
+    """``(i0, i1, j0, j1)``: the grid box around ``targets`` the A* heuristic measures to."""
+    ti = [t % nx for t in targets]
+    tj = [(t % plane) // nx for t in targets]
+    return min(ti), max(ti), min(tj), max(tj)
+
+
+def _seed(sources, tbox, nx: int, plane: int):
+    """The search's heap, best costs and parents with every source at cost 0 (sorted: deterministic)."""
+    ti0, ti1, tj0, tj1 = tbox
+    best: dict[int, float] = {}
+    parent: dict[int, int] = {}
+    heap: list = []
+    for cnt, s in enumerate(sorted(sources)):
+        best[s] = 0.0
+        parent[s] = -1
+        r = s % plane
+        i, j = r % nx, r // nx
+        hv = ((ti0 - i if i < ti0 else (i - ti1 if i > ti1 else 0))
+              + (tj0 - j if j < tj0 else (j - tj1 if j > tj1 else 0)))
+        heap.append((float(hv), cnt, s, 0.0))
+    heapq.heapify(heap)
+    return heap, best, parent
 
 
 def _box(g: Grid, nodes: set[int], margin: int) -> tuple[int, int, int, int]:
