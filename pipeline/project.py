@@ -20,8 +20,10 @@ board      layers (2), thickness_mm (0.8), sides (1), density ("nominal"),
            edge_clearance_mm (0.5), wall_clearance_mm (0.3),
            outline ("region", "rectangle" or "smallest": the smallest board that
            places and routes, pipeline.route.smallest), min_inside_radius_mm (0.5),
-           outline_units ("mm" or "drawing": board-outline.dxf in the cavity's units)
-cavity     depth_mm (5.0), units ("mm"), layers (role map), chord_tolerance_mm (0.02)
+           outline_units ("mm", another unit word, or "drawing": board-outline.dxf in
+           the cavity's units)
+cavity     depth_mm (5.0), units ("mm"; a word of pipeline.cavity.units.UNIT_WORDS),
+           layers (role map), chord_tolerance_mm (0.02)
 order      boards (1), spares_percent (0), min_spares (0), multiple (1)
 analysis   draws (10000), seed (1), retune_above_share (0.01)
 limits     spice_file_bytes, spice_include_splices, spice_expansion_parts,
@@ -44,16 +46,16 @@ from .errors import OutputError, ProjectError
 from .model import DENSITY_LEVELS, BoardOptions, Design, FitResult, Finding, OrderOptions
 from .cavity.limits import CHORD_TOL_MM, DEFAULT_DEPTH_MM, DEFAULT_UNITS
 from .cavity.limits import DEFAULTS as CAVITY_LIMITS
+from .cavity.units import unit_problem
 from .spice.limits import DEFAULTS as SPICE_LIMITS
 from .route.rules import COPPER_KEYS, CopperRules, read_copper
 from .tomlsrc import TomlSource, load
 
 __all__ = ["Project", "RunResult", "load_project", "run", "check_design", "inspect_cavity", "read_any_design",
-           "SPICE_SUFFIXES", "UNITS"]
+           "SPICE_SUFFIXES"]
 
 NOT_FITTING = "the parts do not fit, so routing was not tried"
 SPICE_SUFFIXES = (".cir", ".sp", ".spice", ".net")
-UNITS = ("mm", "cm", "m", "inch", "in", "foot", "ft", "mil", "um")
 STANDARD_THICKNESS = (0.4, 0.6, 0.8, 1.0, 1.2, 1.6, 2.0)  # REFERENCES.md section 4, common practice
 
 Progress = Callable[[str, float], None]
@@ -98,7 +100,7 @@ class Project:
     warnings: tuple[Finding, ...] = ()
     retune_above_share: float | None = None     # None: pipeline.circuit.RETUNE_ABOVE_SHARE
     limits: tuple[tuple[str, int], ...] = ()  # [limits] keys given, sorted
-    outline_units: str = "mm"  # board-outline.dxf in "mm" or in the cavity drawing's units
+    outline_units: str = "mm"  # board-outline.dxf in a unit word's units or "drawing" (the cavity drawing's)
     copper: CopperRules = CopperRules()
     mesh_options: tuple = ()  # [cavity] mesh_* keys, checked by the mesh reader (pipeline/cavity/mesh.py)
     mounts: tuple = ()  # [[board.mount]]: ((x, y), screw, key, line) each (pipeline/mount.py)
@@ -136,6 +138,17 @@ def _num(src: TomlSource, key: str, v: Any, **checks: Any) -> Any:
 
 def _text(src: TomlSource, key: str, v: Any, choices: tuple[str, ...] | None = None, *, path: bool = False) -> str:
     return src.text(key, v, ProjectError, choices=choices, path=path)
+
+
+def _unit_word(src: TomlSource, key: str, v: Any, *, also: str | None = None) -> str:
+    """``v`` if it is a word of :data:`pipeline.cavity.units.UNIT_WORDS` (or ``also``).
+
+    Otherwise a :class:`ProjectError` at ``key`` listing the words.
+    """
+    problem = unit_problem(_text(src, key, v), also=also)
+    if problem:
+        raise src.error(key, problem, ProjectError)
+    return v
 
 
 def _shown(p: Path, root: Path) -> str:
@@ -248,8 +261,8 @@ def _cavity_settings(src: TomlSource, root: Path, cv: dict, bd: dict) -> dict[st
     """``[cavity]`` depth (mm), units, mesh keys and chord tolerance (mm), and ``[board] outline_units``."""
     return dict(
         depth_mm=float(_num(src, "cavity.depth_mm", _or_default(cv, "depth_mm"), lo=0, lo_open=True, hi=1000)),
-        units=_text(src, "cavity.units", _or_default(cv, "units"), UNITS),
-        outline_units=_text(src, "board.outline_units", _or_default(bd, "outline_units"), ("mm", "drawing")),
+        units=_unit_word(src, "cavity.units", _or_default(cv, "units")),
+        outline_units=_unit_word(src, "board.outline_units", _or_default(bd, "outline_units"), also="drawing"),
         mesh_options=tuple(sorted((k, str(_rel(src, root, f"cavity.{k}", v)) if k == "mesh_lid" else v)
                                   for k, v in cv.items() if k.startswith("mesh_"))),
         chord_tolerance_mm=float(_num(src, "cavity.chord_tolerance_mm", _or_default(cv, "chord_tolerance_mm"),
@@ -564,7 +577,7 @@ def _drawing_files(project: Project, design: Design, lib: Any, placed: _Placed, 
     fit, routed = placed.fit, placed.routed
     if fit is None:
         return {}, None
-    from .cavity import cavity_units
+    from .cavity.units import cavity_units, unit_scale
     from .export import dxf as dxf_out
     from .export import results
     from .export import svg as svg_out
@@ -575,7 +588,8 @@ def _drawing_files(project: Project, design: Design, lib: Any, placed: _Placed, 
                           routing=routed.routing if routed else None, demand=routed.demand if routed else None)
     files["fit.svg"] = svg
     if fit.board_outline is not None and not fit.board_outline.is_empty:
-        units = cavity_units(placed.cavity) if project.outline_units == "drawing" else (4, 1.0)
+        drawing = project.outline_units == "drawing"
+        units = cavity_units(placed.cavity) if drawing else unit_scale(project.outline_units)
         files["board-outline.dxf"] = dxf_out.board_outline_dxf(fit.board_outline, units=units)
     return fit_json, svg
 

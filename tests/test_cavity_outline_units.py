@@ -58,7 +58,7 @@ def _inch_project(tmp_path: Path, outline_units: str | None) -> Path:
     return proj
 
 
-@pytest.mark.parametrize("setting,code,k", [(None, 4, 1.0), ("mm", 4, 1.0), ("drawing", 1, 25.4)])
+@pytest.mark.parametrize("setting,code,k", [(None, 4, 1.0), ("mm", 4, 1.0), ("drawing", 1, 25.4), ("mil", 9, 0.0254)])
 def test_run_writes_the_outline_in_the_chosen_units(tmp_path, setting, code, k):
     proj = _inch_project(tmp_path, setting)
     r = CliRunner().invoke(main, ["run", str(proj), "--out", str(tmp_path / "out")], catch_exceptions=False)

@@ -155,3 +155,25 @@ def test_a_block_name_is_escaped_as_all_user_text_is():
     root = ET.fromstring(svg)
     assert "it&#39;s \ufffd &lt;f&gt;" in svg and "\x01" not in svg
     assert root.get("aria-label") == "frequency response of block it's \ufffd <f>"
+
+
+@pytest.mark.parametrize("name,note", [("f\x01", "plain note"), ("f", "a \x01 note"), ("f\x0b<g>", "it's \x1f & <b>")])
+def test_a_block_with_a_control_character_gives_a_well_formed_section(name, note):
+    """A block name and its note are user text (a TOML key and string may hold U+0001). Reference:
+    XML 1.0 (fifth edition) section 2.2, whose Char production leaves out C0 controls other than tab,
+    line feed and carriage return; expat (behind xml.etree) refuses a document holding one. The section
+    escapes them with pipeline.export.markup.escape (U+FFFD), the one rule for user text."""
+    from dataclasses import replace
+
+    from pipeline.export.blocks import block_sections
+
+    d = _design("rc-lowpass", {"R": 1e3, "C": 10e-9})
+    raw = d.stages[0]
+    d = replace(d, stages=(replace(raw, name=name, items=raw.items + (("note", note),)),))
+    reps, _ = analyse_blocks(d, draws=0)
+    (heading, frag), = block_sections(reps)
+    root = ET.fromstring(f"<section>{frag}</section>")    # raises on any control character
+    assert not re.search("[\x00-\x08\x0b\x0c\x0e-\x1f]", frag)
+    text = " ".join(root.itertext())
+    assert note.translate({c: "\ufffd" for c in (1, 0x0b, 0x1f)}) in text   # the note is shown, escaped
+    assert heading.startswith(f"Block {name} (")   # plain text: report.html escapes it

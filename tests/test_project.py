@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 from pathlib import Path
 
 import pytest
@@ -130,3 +131,57 @@ def test_load_project_defaults(tmp_path):
     p = load_project(proj)
     assert p.design_path == (proj / "design.toml").resolve()
     assert p.chord_tolerance_mm == 0.02 and p.order.spares_percent == 0
+
+
+# The unit words (pipeline.cavity.units.UNIT_WORDS, the reader's one list): project.toml takes every
+# word the cavity reader takes, and its message for any other word lists them all.
+from pipeline.cavity.units import UNIT_WORDS, unit_code  # noqa: E402
+from pipeline.errors import CavityError  # noqa: E402
+
+
+def _toml_text(s: str) -> str:
+    return json.dumps(s)   # a JSON string with \\u escapes is a TOML basic string (TOML 1.0, "String")
+
+
+@pytest.mark.parametrize("word", [*UNIT_WORDS, "MM", " Inch "])
+@pytest.mark.parametrize("key", ["cavity.units", "board.outline_units"])
+def test_every_unit_word_the_reader_takes_is_taken_in_project_toml(tmp_path, key, word):
+    table, name = key.split(".")
+    proj = _proj(tmp_path, f'[project]\ndesign = "design.toml"\n[{table}]\n{name} = {_toml_text(word)}\n')
+    p = load_project(proj)
+    assert getattr(p, "units" if key == "cavity.units" else "outline_units") == word
+    unit_code(word)   # and the reader takes it too (raises otherwise)
+
+
+def test_the_words_the_readers_message_suggests_are_taken_in_project_toml(tmp_path):
+    """The bug this guards: the reader's message said "micron", which project.toml refused."""
+    with pytest.raises(CavityError) as ei:
+        unit_code("furlong")
+    suggested = str(ei.value).split("use one of ", 1)[1].split(", ")
+    assert suggested == list(UNIT_WORDS)
+    for i, word in enumerate(suggested):
+        (tmp_path / str(i)).mkdir()
+        proj = _proj(tmp_path / str(i), f'[project]\ndesign = "design.toml"\n[cavity]\nunits = {_toml_text(word)}\n')
+        assert load_project(proj).units == word
+
+
+@pytest.mark.parametrize("key,also", [("cavity.units", ""), ("board.outline_units", "drawing or ")])
+@pytest.mark.parametrize("word", ["furlong", "millimetre2", "drawing2", "", "u m"])
+def test_an_unknown_unit_word_is_located_and_lists_the_words_exit_2(tmp_path, key, also, word):
+    table, name = key.split(".")
+    proj = _proj(tmp_path, f'[project]\ndesign = "design.toml"\n[{table}]\n{name} = {_toml_text(word)}\n')
+    r = _run(proj)
+    assert r.exit_code == 2, r.output
+    assert "Traceback" not in r.output and not (proj / "out").exists()
+    if not word:
+        assert f"project.toml:4: {key}: expected text" in r.stderr, r.stderr
+        return
+    want = f"project.toml:4: {key}: unknown units {word!r}: use {also}one of {', '.join(UNIT_WORDS)}"
+    assert want in r.stderr, r.stderr
+    assert all(w in r.stderr for w in ("micron", "um", "mil", "inch", "millimetre"))
+
+
+def test_drawing_is_a_cavity_units_word_only_for_the_outline(tmp_path):
+    proj = _proj(tmp_path, '[project]\ndesign = "design.toml"\n[cavity]\nunits = "drawing"\n')
+    r = _run(proj)
+    assert r.exit_code == 2 and "project.toml:4: cavity.units: unknown units 'drawing'" in r.stderr, r.stderr

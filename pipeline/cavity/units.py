@@ -11,7 +11,8 @@ from __future__ import annotations
 from pipeline.errors import CavityError
 from pipeline.model import Finding
 
-__all__ = ["MM_PER_UNIT", "UNIT_NAMES", "unit_code", "drawing_units", "cavity_units"]
+__all__ = ["MM_PER_UNIT", "UNIT_NAMES", "UNIT_WORDS", "IMPERIAL_CODES", "unit_words_text", "unit_problem",
+           "unit_code", "unit_scale", "drawing_units", "cavity_units"]
 
 _INCH = 25.4  # mm, exact (international inch, 1959)
 _US_SURVEY_FOOT = 1200.0 / 3937.0 * 1000.0  # mm (US survey foot definition)
@@ -54,7 +55,15 @@ UNIT_NAMES: dict[int, str] = {
     23: "US survey yard", 24: "US survey mile",
 }
 
-_UNIT_WORDS: dict[str, int] = {
+#: ``$INSUNITS`` codes of inch-based units (DXF reference, header variable
+#: ``$INSUNITS``): a drawing in them is written with ``$MEASUREMENT`` 0
+#: (imperial), every other unit with 1 (metric).
+IMPERIAL_CODES: frozenset[int] = frozenset({1, 2, 3, 8, 9, 10, 21, 22, 23, 24})
+
+#: The one list of unit words a user may write (project.toml ``[cavity] units``
+#: and ``[board] outline_units``, a measured-cavity file's ``units``),
+#: compared without regard to case, with the ``$INSUNITS`` code each means.
+UNIT_WORDS: dict[str, int] = {
     "mm": 4, "millimeter": 4, "millimeters": 4, "millimetre": 4, "millimetres": 4,
     "cm": 5, "centimeter": 5, "centimeters": 5, "centimetre": 5, "centimetres": 5,
     "m": 6, "meter": 6, "meters": 6, "metre": 6, "metres": 6,
@@ -67,6 +76,28 @@ _UNIT_WORDS: dict[str, int] = {
 }
 
 
+def unit_words_text() -> str:
+    """The accepted unit words for a message, in :data:`UNIT_WORDS` order.
+
+    >>> unit_words_text().startswith("mm, millimeter, ")
+    True
+    """
+    return ", ".join(UNIT_WORDS)
+
+
+def unit_problem(text: object, *, also: str | None = None) -> str | None:
+    """Why ``text`` is not an accepted unit word (nor ``also``), or ``None`` when it is one.
+
+    >>> unit_problem("Inch") is None, unit_problem("furlong")[:24]
+    (True, "unknown units 'furlong':")
+    >>> unit_problem("drawing", also="drawing") is None, unit_problem("x", also="drawing")[:34]
+    (True, "unknown units 'x': use drawing or ")
+    """
+    if also is not None and text == also or isinstance(text, str) and text.strip().casefold() in UNIT_WORDS:
+        return None
+    return f"unknown units {text!r}: use {also + ' or ' if also else ''}one of {unit_words_text()}"
+
+
 def unit_code(text: str, *, source: str = "project.toml", key: str = "cavity.units") -> int:
     """``$INSUNITS`` code for a unit name such as ``"mm"``, ``"inch"`` or ``"mil"``.
 
@@ -74,18 +105,27 @@ def unit_code(text: str, *, source: str = "project.toml", key: str = "cavity.uni
     ------
     CavityError
         For an unknown name, naming ``source`` and ``key`` (where the user
-        wrote it).
+        wrote it) and listing the accepted words.
 
     Examples
     --------
     >>> unit_code("Inch"), unit_code("mm"), unit_code("micron")
     (1, 4, 13)
     """
-    word = str(text).strip().casefold()
-    if word not in _UNIT_WORDS:
-        raise CavityError(source, f"unknown units {text!r}: use mm, cm, m, inch, foot, mil or micron",
-                          key=key)
-    return _UNIT_WORDS[word]
+    problem = unit_problem(text)
+    if problem:
+        raise CavityError(source, problem, key=key)
+    return UNIT_WORDS[text.strip().casefold()]
+
+
+def unit_scale(text: str) -> tuple[int, float]:
+    """``($INSUNITS code, mm per unit)`` of an accepted unit word (checked beforehand).
+
+    >>> unit_scale("inch"), unit_scale("MM")
+    ((1, 25.4), (4, 1.0))
+    """
+    code = UNIT_WORDS[text.strip().casefold()]
+    return code, MM_PER_UNIT[code]
 
 
 def drawing_units(declared: int | None, default_code: int, name: str,

@@ -2,24 +2,22 @@
 
 Entry point: :func:`block_sections`, one (heading, html fragment) pair per
 :class:`~pipeline.model.BlockReport`. Pure functions of the reports; every
-user-written string is escaped here.
+user-written string is escaped here, by :func:`pipeline.export.markup.escape`
+(the one escaping rule for user text).
 """
 
 from __future__ import annotations
 
-import html
 from typing import Sequence
 
 from ..circuit.blocktype import part_value_text
 from ..model import BlockReport
 from ..values import format_quantity as fmt
 from ..values import format_share
+from .markup import escape as _E
 from .response_plot import response_svg
 
 __all__ = ["block_sections"]
-
-
-_E = html.escape
 
 
 def _table(head: Sequence[str], rows: Sequence[Sequence[str]], cls: str) -> str:

@@ -7,11 +7,12 @@ What the file holds
 - Units: millimetres by default, ``$INSUNITS = 4`` and ``$MEASUREMENT = 1``
   (metric), so a layout program imports the outline at true size.
   Coordinates are millimetres in the cavity drawing's frame, unchanged.
-  With ``units`` (project.toml ``[board] outline_units = "drawing"``) the
-  file is written in the cavity drawing's own units instead: coordinates
-  divided by the millimetres per unit, ``$INSUNITS`` that unit's code and
-  ``$MEASUREMENT`` 0 (imperial) for inch-based units, so a user can copy
-  the outline back into the drawing it came from.
+  With ``units`` (project.toml ``[board] outline_units = "drawing"``, or a
+  unit word such as ``"inch"``) the file is written in the cavity drawing's
+  own units (or that unit) instead: coordinates divided by the millimetres
+  per unit, ``$INSUNITS`` that unit's code and ``$MEASUREMENT`` 0 (imperial)
+  for inch-based units (:data:`pipeline.cavity.units.IMPERIAL_CODES`), so a
+  user can copy the outline back into the drawing it came from.
 - One closed ``LWPOLYLINE`` for the outline's exterior, counter-clockwise,
   on layer ``BOARD-PROFILE`` (our name; "profile" is the board outline's
   name in the Gerber format's file functions, an open standard). A board with cut-outs (a polygon with holes)
@@ -55,6 +56,7 @@ import shapely
 from shapely.geometry import MultiPolygon, Polygon
 from shapely.geometry.polygon import orient
 
+from pipeline.cavity.units import IMPERIAL_CODES
 from pipeline.dxflib import import_ezdxf
 
 ezdxf = import_ezdxf()
@@ -65,9 +67,6 @@ __all__ = ["board_outline_dxf", "cavity_dxf", "EDGE_LAYER"]
 #: Layer of the board edge (our own name; "profile" as in the Gerber format's
 #: file function for the board outline).
 EDGE_LAYER = "BOARD-PROFILE"
-#: ``$INSUNITS`` codes of inch-based units (DXF reference): written with
-#: ``$MEASUREMENT`` 0 (imperial); every other unit with 1 (metric).
-_IMPERIAL = frozenset({1, 2, 3, 8, 9, 10, 21, 22, 23, 24})
 
 #: Header variables holding dates (DXF header reference: Julian date.fraction).
 _DATE_VARS = ("$TDCREATE", "$TDUCREATE", "$TDUPDATE", "$TDUUPDATE")
@@ -168,7 +167,7 @@ def _layers_dxf(layers: list[tuple[str, list]], units: tuple[int, float], stamp:
         polys = [(layer, shapely.transform(p, lambda c: c / mm_per_unit)) for layer, p in polys]
     with fixed_metadata():
         doc = ezdxf.new("R2013", units=code)
-        doc.header["$MEASUREMENT"] = 0 if code in _IMPERIAL else 1
+        doc.header["$MEASUREMENT"] = 0 if code in IMPERIAL_CODES else 1
         doc.header["$LUNITS"] = 2  # decimal lengths
         for layer, _ in layers:
             doc.layers.add(layer, color=7)
