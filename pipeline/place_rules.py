@@ -80,7 +80,7 @@ import numpy as np
 import shapely
 from shapely.geometry.base import BaseGeometry
 
-from .library.lands import pads_on_board
+from .library.lands import board_xy, pads_on_board, turned_pads
 from .model import Finding, Fixed, NearRule, PlaceItem, Region
 from .order import natural_key
 from .values import format_mm as _fmt
@@ -430,9 +430,22 @@ def near_pass(packer: Any, run: Any, fixed: dict) -> None:
 
 
 def _slot_distance(packer, i: int, slot, goal: np.ndarray) -> float:
+    """Nearest distance from item ``i``'s pads in ``slot`` to ``goal``: :func:`_points` with the
+    turned pad offsets of the package kept per turn (the same :func:`board_xy` positions)."""
     x1, y1, x2, y2 = packer.rect(i, slot)
-    own = _points(packer.items[i].near, True, (x1 + x2) / 2, (y1 + y2) / 2, 90 if slot[1] else 0, slot[0])
+    x, y = (x1 + x2) / 2, (y1 + y2) / 2
+    rule = packer.items[i].near
+    key = (id(rule.own_package), slot[1], slot[0], rule.level)
+    offs = _OFFSETS.get(key)
+    if offs is None or offs[0] is not rule.own_package:
+        offs = _OFFSETS[key] = (rule.own_package, [(dx, dy) for _p, dx, dy, _t in turned_pads(
+            rule.own_package, 90 if slot[1] else 0, slot[0], rule.level)])
+    own = np.array([board_xy(x, y, dx, dy) for dx, dy in offs[1]], dtype=float).reshape(-1, 2)
     return float(np.min(np.hypot(own[:, None, 0] - goal[None, :, 0], own[:, None, 1] - goal[None, :, 1])))
+
+
+#: turned pad offsets per (package id, turn, side, level); the package is kept to check the id
+_OFFSETS: dict[tuple, tuple] = {}
 
 
 def _stands(packer, run, k: int, slot) -> bool:
