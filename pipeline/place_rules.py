@@ -52,11 +52,14 @@ orientations, whose pads come nearest the target's pins; when no free
 origin is near enough, it trades slots with the packed part of the same
 cell size whose slot brings it nearest (both stay legal: the cells are the
 same, and each must be allowed its height in the other's cells; a part
-with a near rule of its own only when the trade still meets that rule). Legal origins come from a
-summed-area table of the blocked cells (outside the level's mask or under
-another courtyard; Crow 1984, from memory), so a move is legal on the same
-grid the packer uses and the placer's shapely self-check still applies.
-Cost: O(cells) per moved part.
+with a near rule of its own only when the trade still meets that rule). Legal origins come from
+the packer's own window test over the blocked cells (outside the level's mask or under
+another courtyard, counted once for the board and updated as parts move), so a move is legal on
+the same grid the packer uses and the placer's shapely self-check still applies. The free
+origins are searched in a window round the goal, widened only as far as the best trade found
+allows (or, with no trade, until nothing outside can be nearer); trades are tried in order of
+a lower bound of their distance. Cost: O(window cells + n) per moved part for n parts, the
+window about the rule's distance (the trade's) across.
 
 Defaults (common practice, from memory)
 ---------------------------------------
@@ -65,9 +68,6 @@ the supply pins (REFERENCES.md section 7; application notes commonly ask
 for under about 3 mm, from memory). :data:`EDGE_BAND_MM` = 1 mm: a courtyard
 at most that far in from the edge still counts as at the edge (our own
 figure; a soldered wire leaves over it).
-
-Reference: F. C. Crow, "Summed-area tables for texture mapping", SIGGRAPH
-1984 (cited from memory).
 """
 
 from __future__ import annotations
@@ -537,17 +537,16 @@ def _scan(ok: np.ndarray, g, goal: np.ndarray, pads: np.ndarray, size: tuple, sp
 
 
 def _scan_window(board: _TopBoard, i: int, h: int, w: int, goal, pads, size, span) -> tuple | None:
-    """:func:`_scan` over the free origins of ``span`` only: the summed-area table (Crow 1984) is
-    built over the window's cells, not the board's."""
+    """:func:`_scan` over the free origins of ``span`` only: the packer's sliding window test
+    (``place._feasible``) over the window's cells, not the board's."""
     g = board.g
     r0, r1, c0, c1 = span
     r1, c1 = min(r1, g.ny - h + 1), min(c1, g.nx - w + 1)
     if r1 <= r0 or c1 <= c0:
         return None
-    blocked = board.blocked(i, slice(r0, r1 + h - 1), slice(c0, c1 + w - 1))
-    sat = np.zeros((blocked.shape[0] + 1, blocked.shape[1] + 1), dtype=np.int64)
-    sat[1:, 1:] = np.cumsum(np.cumsum(blocked, axis=0), axis=1)
-    ok = (sat[h:, w:] - sat[:-h, w:] - sat[h:, :-w] + sat[:-h, :-w]) == 0
+    from .place import _feasible  # the packer's own window test (imported here: place imports us)
+
+    ok = _feasible(~board.blocked(i, slice(r0, r1 + h - 1), slice(c0, c1 + w - 1)), h, w)
     return _scan(ok, g, goal, pads, size, (0, ok.shape[0], 0, ok.shape[1]), at=(r0, c0))
 
 
