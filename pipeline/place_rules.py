@@ -459,20 +459,24 @@ def _stands(packer, run, k: int, slot) -> bool:
 
 def _swap_bounds(board: _TopBoard, i: int, goal: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """The packed top-side parts of ``i``'s cell size (``i`` left out) and, for each, a lower bound of
-    the distance from ``i``'s pads in its slot to ``goal``: the courtyard centre's distance less the
-    farthest pad centre from the centre (triangle inequality)."""
+    the distance from ``i``'s pads in its slot to ``goal``: :func:`_slot_distance` for all of them at
+    once with numpy (its rounding to the nanometre may differ in the last bit), less 1e-9 mm."""
     packer, g = board.packer, board.g
     cand = np.flatnonzero(board.top & (board.wc == board.wc[i]) & (board.hc == board.hc[i]))
     cand = cand[cand != i]  # top is set only for items in run.slots
     it = packer.items[i]
     turned = board.turn[cand] != 0
-    cx = g.x0 + board.col[cand] * g.cell + np.where(turned, it.width_mm, it.length_mm) / 2
-    cy = g.y0 + board.row[cand] * g.cell + np.where(turned, it.length_mm, it.width_mm) / 2
-    pads = _points(it.near, True, 0.0, 0.0, 0, "top")
-    reach = float(np.max(np.hypot(pads[:, 0], pads[:, 1]))) if len(pads) else 0.0
-    d = np.min(np.hypot(cx[:, None] - goal[None, :, 0], cy[:, None] - goal[None, :, 1]), axis=1) if len(goal) \
-        else np.zeros(len(cand))
-    return cand, d - reach
+    x = g.x0 + board.col[cand] * g.cell
+    y = g.y0 + board.row[cand] * g.cell
+    cx = (x + (x + np.where(turned, it.width_mm, it.length_mm))) / 2
+    cy = (y + (y + np.where(turned, it.length_mm, it.width_mm))) / 2
+    low = np.full(len(cand), np.inf)
+    for t in (0, 1):
+        for _p, dx, dy, _r in turned_pads(it.near.own_package, 90 * t, "top", it.near.level):
+            px, py = np.round(cx + dx, 6), np.round(cy + dy, 6)
+            for tx, ty in goal:
+                low = np.where(turned == bool(t), np.minimum(low, np.hypot(px - tx, py - ty)), low)
+    return cand, low - 1e-9
 
 
 def _nearest_swap(board: _TopBoard, fixed: dict, i: int, goal: np.ndarray):
