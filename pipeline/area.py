@@ -63,7 +63,9 @@ def items_from_design(design: Design, library, density: str,
     tuple of PlaceItem, in the design's part order, dnp parts left out.
     Courtyard length x width are the package's courtyard at ``density``
     (mm), the height its seated height (mm), ``nets`` the sorted names of
-    the nets the part is on, ``pin_count`` the part's pins.
+    the nets the part is on, ``pin_count`` the part's pins; the placement
+    rules attached (:func:`pipeline.place_rules.attach_rules`). Cost:
+    linear in parts and pins.
 
     Raises
     ------
@@ -73,39 +75,43 @@ def items_from_design(design: Design, library, density: str,
         ``density`` is not a density level.
     """
     if density not in DENSITY_LEVELS:
-        raise ProjectError("project.toml", f"density {density!r} is not one of most, nominal, least",
+        raise ProjectError("project.toml", f"density {density!r} is not one of {', '.join(DENSITY_LEVELS)}",
                            key="board.density")
     override = dict(package_override or {})
+    nets_of = _nets_of(design)
+    items = [_item(design, part, library, density, override.get(part.ref, part.package), nets_of)
+             for part in design.parts if not part.dnp]
+    from .place_rules import attach_rules  # where parts must sit (edge, near)
+    return attach_rules(items, design, library, density)
+
+
+def _nets_of(design: Design) -> dict[str, set[str]]:
+    """Ref -> the names of the nets its pins are on."""
     nets_of: dict[str, set[str]] = {}
     for net in design.nets:
         for pin in net.pins:
             nets_of.setdefault(pin.ref, set()).add(net.name)
-    items = []
-    for part in design.parts:
-        if part.dnp:
-            continue
-        name = override.get(part.ref, part.package)
-        pkg = library.package(name, file=design.source, line=part.line or None,
-                              key=f"parts.{part.ref}.package")
-        try:
-            cy = pkg.courtyard(density)
-        except KeyError:
-            raise DesignError(design.source, f"package {pkg.name!r} has no {density!r} courtyard",
-                              line=part.line or None, key=f"parts.{part.ref}.package") from None
-        pins = len(part.pins) if part.pins else int(getattr(pkg, "pin_count", 2) or 2)
-        items.append(PlaceItem(
-            ref=part.ref,
-            length_mm=float(cy.length_mm),
-            width_mm=float(cy.width_mm),
-            height_mm=float(part.height_mm if part.height_mm is not None
-                            else library.part_height(part.kind, pkg)[0]),
-            nets=tuple(sorted(nets_of.get(part.ref, ()))),
-            pin_count=pins,
-            package=pkg.name,
-            fixed=part.fixed,
-        ))
-    from .place_rules import attach_rules  # where parts must sit (edge, near)
-    return attach_rules(items, design, library, density)
+    return nets_of
+
+
+def _item(design: Design, part, library, density: str, package: str, nets_of: dict[str, set[str]]) -> PlaceItem:
+    """One part as a placer item, in ``package``'s courtyard at ``density`` (mm)."""
+    where = dict(line=part.line or None, key=f"parts.{part.ref}.package")
+    pkg = library.package(package, file=design.source, **where)
+    try:
+        cy = pkg.courtyard(density)
+    except KeyError:
+        raise DesignError(design.source, f"package {pkg.name!r} has no {density!r} courtyard", **where) from None
+    return PlaceItem(
+        ref=part.ref,
+        length_mm=float(cy.length_mm),
+        width_mm=float(cy.width_mm),
+        height_mm=float(part.height_mm if part.height_mm is not None else library.part_height(part.kind, pkg)[0]),
+        nets=tuple(sorted(nets_of.get(part.ref, ()))),
+        pin_count=len(part.pins) if part.pins else int(getattr(pkg, "pin_count", 2) or 2),
+        package=pkg.name,
+        fixed=part.fixed,
+    )
 
 
 def estimate_area(items: Sequence[PlaceItem], layers: int) -> AreaEstimate:

@@ -29,8 +29,6 @@ import click
 from . import __version__
 from .errors import SnugboardError, shown
 
-_SEV_MARK = {"error": "error", "warning": "warning", "info": "note"}
-
 
 def _say(text: str, err: bool = False) -> None:
     """Print one line of human text; characters from input files that could steer the terminal
@@ -116,11 +114,13 @@ class _Progress:
 
 def _echo_findings(findings, err: bool, verbose: bool = False) -> None:
     """Errors and warnings always; notes (info) only with --verbose."""
+    from .model import SEVERITY_WORDS
+
     for f in findings:
         if f.severity == "info" and not verbose:
             continue
         subj = f" [{', '.join(f.subject)}]" if f.subject else ""
-        _say(f"{_SEV_MARK[f.severity]}: {f.message}{subj}", err=err)
+        _say(f"{SEVERITY_WORDS[f.severity]}: {f.message}{subj}", err=err)
 
 
 def _echo_sweep(sw: dict, err: bool) -> None:

@@ -43,6 +43,8 @@ OLD_PIN_ROLES = {
 }
 
 SEVERITIES = ("error", "warning", "info")
+#: The word a person reads for each severity (the CLI's line mark, the report's counts and headings).
+SEVERITY_WORDS = {"error": "error", "warning": "warning", "info": "note"}
 
 
 # --------------------------------------------------------------------------

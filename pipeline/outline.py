@@ -490,7 +490,8 @@ def rounded_region(geom: BaseGeometry, radius: float, tol: float = SIMPLIFY_MM) 
     Returns
     -------
     Polygon inside ``geom`` equal to its own closing by ``radius`` (module
-    notes) up to ``tol``; empty when nothing is left.
+    notes) up to ``tol``; empty when nothing is left. Cost: a few buffer
+    operations on the region, then one per sliver the bit cannot reach.
 
     Examples
     --------
@@ -502,52 +503,78 @@ def rounded_region(geom: BaseGeometry, radius: float, tol: float = SIMPLIFY_MM) 
     >>> round(B.hausdorff_distance(B.buffer(1.0).buffer(-1.0)), 2) <= 0.02
     True
     """
+    simple = _simplified(geom, tol)
+    if simple.is_empty or radius <= 0:
+        return simple
+    r = float(radius)
+    sliver = _unreachable(simple, r, tol)
+    if sliver.is_empty or sliver.area < tol * tol:
+        return simple
+    corners = _reflex_vertices(simple)
+    cuts = [_sliver_cut(comp, simple, corners, r, tol) for comp in polygons_of(sliver) if comp.area >= tol * tol]
+    if not cuts:
+        return simple
+    return main_polygon(simple.difference(shapely.union_all(cuts)))
+
+
+def _simplified(geom: BaseGeometry, tol: float) -> Polygon:
+    """The largest polygon of ``geom``, shrunk by ``tol / 2`` and simplified within ``tol / 2``, inside ``geom``."""
     poly = main_polygon(geom)
     if poly.is_empty:
         return Polygon()
     simple = poly.buffer(-tol / 2, join_style="mitre").simplify(tol / 2, preserve_topology=True)
-    simple = main_polygon(simple.intersection(poly))
-    if simple.is_empty or radius <= 0:
-        return simple
-    r = float(radius)
-    r_cover = r / math.cos(math.pi / (4 * QUAD_SEGS))  # polygon circumscribing the bit
+    return main_polygon(simple.intersection(poly))
+
+
+def _unreachable(simple: Polygon, r: float, tol: float) -> BaseGeometry:
+    """What a bit of radius ``r`` running outside ``simple`` cannot reach: the inside corners' slivers.
+
+    The opening (erosion then dilation by ``r``) of the outside, taken from the outside, slivers
+    thinner than ``tol / 2`` dropped.
+    """
     frame = box(*simple.bounds).buffer(4 * r + 1.0, join_style="mitre")
     outside = frame.difference(simple)
     reach = outside.buffer(-r, quad_segs=QUAD_SEGS).buffer(r, quad_segs=QUAD_SEGS)
-    sliver = _clean(outside.difference(reach), tol / 2)
-    if sliver.is_empty or sliver.area < tol * tol:
-        return simple
-    corners = _reflex_vertices(simple)
-    pts = shapely.points([(x, y) for x, y, *_ in corners]) if corners else None
-    cuts = []
-    for comp in polygons_of(sliver):
-        if comp.area < tol * tol:
-            continue
-        # (a) a bit slot along the bisector of each inside corner touching the sliver,
-        #     the rest of the sliver covered from its middle
-        caps = []
-        if pts is not None:
-            near = shapely.distance(comp, pts) <= tol
-            for (x, y, ux, uy, phi), hit in zip(corners, near):
-                if hit:
-                    d0 = min(r / max(math.sin(phi / 2), 1e-6), 1e3)
-                    a = (x + ux * r, y + uy * r)
-                    b = (x + ux * d0, y + uy * d0)
-                    seg = shapely.LineString([a, b]) if d0 > r + 1e-9 else shapely.Point(a)
-                    caps.append(seg.buffer(r_cover, quad_segs=QUAD_SEGS))
-        options = []
-        if caps:
-            covered = shapely.union_all(caps)
-            rest = _clean(comp.difference(covered.buffer(tol / 2)), tol / 2)
-            parts = [covered] + ([_cover_from_middle(rest, r, r_cover)] if rest.area >= tol * tol else [])
-            options.append(shapely.union_all(parts))
-        # (b) the whole sliver covered from its middle (best for slots narrower than the bit)
-        options.append(_cover_from_middle(comp, r, r_cover))
-        cuts.append(min(options, key=lambda c: c.intersection(simple).area))
-    if not cuts:
-        return simple
-    board = simple.difference(shapely.union_all(cuts))
-    return main_polygon(board)
+    return _clean(outside.difference(reach), tol / 2)
+
+
+def _sliver_cut(comp: Polygon, simple: Polygon, corners: list, r: float, tol: float) -> BaseGeometry:
+    """What to cut from the board so the bit can reach the sliver ``comp``: of two ways, the one taking least board.
+
+    (a) a bit slot along the bisector of each inside corner touching the sliver, the rest of the sliver
+    covered from its middle; (b) the whole sliver covered from its middle (best for slots narrower than
+    the bit).
+    """
+    r_cover = r / math.cos(math.pi / (4 * QUAD_SEGS))  # polygon circumscribing the bit
+    options = []
+    caps = _corner_slots(comp, corners, r, r_cover, tol)
+    if caps:
+        covered = shapely.union_all(caps)
+        rest = _clean(comp.difference(covered.buffer(tol / 2)), tol / 2)
+        parts = [covered] + ([_cover_from_middle(rest, r, r_cover)] if rest.area >= tol * tol else [])
+        options.append(shapely.union_all(parts))
+    options.append(_cover_from_middle(comp, r, r_cover))
+    return min(options, key=lambda c: c.intersection(simple).area)
+
+
+def _corner_slots(comp: Polygon, corners: list, r: float, r_cover: float, tol: float) -> list:
+    """A bit slot along the bisector of each inside corner within ``tol`` of ``comp``.
+
+    The slot runs from ``r`` to ``r / sin(phi / 2)`` (capped at 1 m) along the bisector, where the bit
+    touches both sides of the corner of angle ``phi``; drawn with the bit's circumscribing radius ``r_cover``.
+    """
+    if not corners:
+        return []
+    pts = shapely.points([(x, y) for x, y, *_ in corners])
+    caps = []
+    for (x, y, ux, uy, phi), hit in zip(corners, shapely.distance(comp, pts) <= tol):
+        if hit:
+            d0 = min(r / max(math.sin(phi / 2), 1e-6), 1e3)
+            a = (x + ux * r, y + uy * r)
+            b = (x + ux * d0, y + uy * d0)
+            seg = shapely.LineString([a, b]) if d0 > r + 1e-9 else shapely.Point(a)
+            caps.append(seg.buffer(r_cover, quad_segs=QUAD_SEGS))
+    return caps
 
 
 # --------------------------------------------------------------------------

@@ -42,6 +42,7 @@ from typing import Any, Callable
 
 from .errors import OutputError, ProjectError
 from .model import DENSITY_LEVELS, BoardOptions, Design, FitResult, Finding, OrderOptions
+from .cavity.limits import CHORD_TOL_MM, DEFAULT_DEPTH_MM, DEFAULT_UNITS
 from .cavity.limits import DEFAULTS as CAVITY_LIMITS
 from .spice.limits import DEFAULTS as SPICE_LIMITS
 from .route.rules import COPPER_KEYS, CopperRules, read_copper
@@ -88,10 +89,10 @@ class Project:
     out_dir: Path
     board: BoardOptions
     order: OrderOptions
-    depth_mm: float = 5.0
-    units: str = "mm"
+    depth_mm: float = DEFAULT_DEPTH_MM
+    units: str = DEFAULT_UNITS
     layer_map: Any = None
-    chord_tolerance_mm: float = 0.02
+    chord_tolerance_mm: float = CHORD_TOL_MM
     draws: int = 10000
     seed: int = 1
     warnings: tuple[Finding, ...] = ()
@@ -117,6 +118,15 @@ class RunResult:
     fit_json: dict = field(default_factory=dict)
     verdict: Any = None
     routing: Any = None   # pipeline.route.RouteVerdict, or None without a fit
+
+
+#: The defaults of project.toml's keys, from :class:`Project`'s fields (their one home).
+_DEFAULT = {f.name: f.default for f in dataclasses.fields(Project) if f.default is not dataclasses.MISSING}
+
+
+def _or_default(table: dict, key: str) -> Any:
+    """``table[key]`` as written, else the default of the :class:`Project` field ``key``."""
+    return table.get(key, _DEFAULT[key])
 
 
 # --------------------------------------------------------------------------
@@ -149,23 +159,62 @@ def load_project(
 ) -> Project:
     """Read ``PROJECT_DIR/project.toml`` with the command line's overrides.
 
-    ``design`` / ``cavity`` / ``out`` are paths as typed on the command
-    line (relative to the working folder); keys in the file are relative to
-    the file.
+    Parameters
+    ----------
+    project_dir : str or path
+        The project folder, holding ``project.toml``.
+    design, cavity, out : str, optional
+        Paths as typed on the command line (relative to the working
+        folder); they win over ``[project] design`` / ``cavity`` and the
+        output folder ``PROJECT_DIR/out``. Keys in the file are relative to
+        the file.
+
+    Returns
+    -------
+    Project
+        Paths resolved, lengths in mm; ``warnings`` holds the file's own
+        warnings (a board thickness that is not a stock thickness).
+
+    Raises
+    ------
+    ProjectError
+        No folder or file, an unknown table or key, or a bad value, naming
+        its key and line; the first fault found, in the order of the steps.
     """
     root = Path(project_dir)
     if not root.is_dir():
         raise ProjectError(str(project_dir), "not a folder: give the project folder that holds project.toml")
     src = load(root / "project.toml", "project.toml", ProjectError)
-    data = src.data
     _check_tables(src)
-    pj = data.get("project", {})
-    bd = data.get("board", {})
-    cv = data.get("cavity", {})
-    an = data.get("analysis", {})
+    data = src.data
+    bd, cv = data.get("board", {}), data.get("cavity", {})
+    inputs = _input_paths(src, root, design, cavity)
+    board, warnings = _read_board(src, bd)
+    order = _read_order(src, data.get("order", {}))
+    layer_map = _layer_map(src, cv)
+    # not resolved: a symbolic link as the output folder is refused by the writer, not followed
+    out_dir = Path(os.path.abspath(out if out is not None else root.resolve() / "out"))
+    name = _text(src, "project.name", data.get("project", {}).get("name", root.resolve().name or "project"))
+    return Project(name=name, root=root.resolve(), file=src.display, **inputs, out_dir=out_dir, board=board,
+                   order=order, **_cavity_settings(src, root, cv, bd), layer_map=layer_map,
+                   **_analysis_settings(src, data.get("analysis", {})), warnings=tuple(warnings),
+                   limits=tuple(sorted((k, _num(src, f"limits.{k}", v, integer=True, lo=1))
+                                       for k, v in data.get("limits", {}).items())),
+                   copper=read_copper(src, data.get("copper", {}), board.layers),
+                   mounts=_read_mounts(src, bd.get("mount", [])))
 
-    def rel(key: str, value: Any) -> Path:
-        return (root / _text(src, key, value, path=True)).resolve()
+
+def _rel(src: TomlSource, root: Path, key: str, value: Any) -> Path:
+    """A path key of the file, relative to the project folder, resolved."""
+    return (root / _text(src, key, value, path=True)).resolve()
+
+
+def _input_paths(src: TomlSource, root: Path, design: str | None, cavity: str | None) -> dict[str, Any]:
+    """Design, cavity and parts map, each resolved with its shown name, as :class:`Project` fields.
+
+    A path typed on the command line wins over ``[project] KEY``; no design at all is an error.
+    """
+    pj = src.data.get("project", {})
 
     def given(typed: str | None, key: str) -> tuple[Path | None, str]:
         """An input file and its shown name: the command line's, else [project] KEY's, else (None, "")."""
@@ -173,7 +222,7 @@ def load_project(
             return Path(typed).resolve(), typed
         if key not in pj:
             return None, ""
-        path = rel(f"project.{key}", pj[key])
+        path = _rel(src, root, f"project.{key}", pj[key])
         return path, _shown(path, root.resolve())
 
     design_path, design_shown = given(design, "design")
@@ -181,44 +230,40 @@ def load_project(
         raise src.error("project.design", "no design: set [project] design = \"design.toml\" or pass --design",
                         ProjectError)
     cavity_path, cavity_shown = given(cavity, "cavity")
-    parts_map = rel("project.parts_map", pj["parts_map"]) if "parts_map" in pj else None
-    board, warnings = _read_board(src, bd)
-    order = _read_order(src, data.get("order", {}))
+    parts_map = _rel(src, root, "project.parts_map", pj["parts_map"]) if "parts_map" in pj else None
+    return dict(design_path=design_path, design_shown=design_shown, cavity_path=cavity_path,
+                cavity_shown=cavity_shown, parts_map=parts_map)
+
+
+def _layer_map(src: TomlSource, cv: dict) -> Any:
+    """``[cavity] layers``, a table (its roles are checked by the cavity reader), or None."""
     layer_map = cv.get("layers")
     if layer_map is not None and not isinstance(layer_map, dict):
         raise src.error("cavity.layers", "expected a table such as { CAVITY = \"Outline\", KEEPOUT = [\"Bosses\"] }",
                         ProjectError)
-    # not resolved: a symbolic link as the output folder is refused by the writer, not followed
-    out_dir = Path(os.path.abspath(out if out is not None else root.resolve() / "out"))
-    return Project(
-        name=_text(src, "project.name", pj.get("name", root.resolve().name or "project")),
-        root=root.resolve(),
-        file=src.display,
-        design_path=design_path,
-        design_shown=design_shown,
-        cavity_path=cavity_path,
-        cavity_shown=cavity_shown,
-        parts_map=parts_map,
-        out_dir=out_dir,
-        board=board,
-        order=order,
-        depth_mm=float(_num(src, "cavity.depth_mm", cv.get("depth_mm", 5.0), lo=0, lo_open=True, hi=1000)),
-        units=_text(src, "cavity.units", cv.get("units", "mm"), UNITS),
-        outline_units=_text(src, "board.outline_units", bd.get("outline_units", "mm"), ("mm", "drawing")),
-        layer_map=layer_map,
-        mesh_options=tuple(sorted((k, str(rel(f"cavity.{k}", v)) if k == "mesh_lid" else v)
+    return layer_map
+
+
+def _cavity_settings(src: TomlSource, root: Path, cv: dict, bd: dict) -> dict[str, Any]:
+    """``[cavity]`` depth (mm), units, mesh keys and chord tolerance (mm), and ``[board] outline_units``."""
+    return dict(
+        depth_mm=float(_num(src, "cavity.depth_mm", _or_default(cv, "depth_mm"), lo=0, lo_open=True, hi=1000)),
+        units=_text(src, "cavity.units", _or_default(cv, "units"), UNITS),
+        outline_units=_text(src, "board.outline_units", _or_default(bd, "outline_units"), ("mm", "drawing")),
+        mesh_options=tuple(sorted((k, str(_rel(src, root, f"cavity.{k}", v)) if k == "mesh_lid" else v)
                                   for k, v in cv.items() if k.startswith("mesh_"))),
-        chord_tolerance_mm=float(_num(src, "cavity.chord_tolerance_mm", cv.get("chord_tolerance_mm", 0.02),
+        chord_tolerance_mm=float(_num(src, "cavity.chord_tolerance_mm", _or_default(cv, "chord_tolerance_mm"),
                                       lo=0, lo_open=True, hi=5)),
-        draws=_num(src, "analysis.draws", an.get("draws", 10000), integer=True, lo=100, hi=1_000_000),
-        seed=_num(src, "analysis.seed", an.get("seed", 1), integer=True, lo=0),
+    )
+
+
+def _analysis_settings(src: TomlSource, an: dict) -> dict[str, Any]:
+    """``[analysis]`` draws, seed and retune share (None: the circuit package's default)."""
+    return dict(
+        draws=_num(src, "analysis.draws", _or_default(an, "draws"), integer=True, lo=100, hi=1_000_000),
+        seed=_num(src, "analysis.seed", _or_default(an, "seed"), integer=True, lo=0),
         retune_above_share=(float(_num(src, "analysis.retune_above_share", an["retune_above_share"], lo=0, hi=1))
                             if "retune_above_share" in an else None),
-        warnings=tuple(warnings),
-        limits=tuple(sorted((k, _num(src, f"limits.{k}", v, integer=True, lo=1))
-                            for k, v in data.get("limits", {}).items())),
-        copper=read_copper(src, data.get("copper", {}), board.layers),
-        mounts=_read_mounts(src, bd.get("mount", [])),
     )
 
 
@@ -359,20 +404,26 @@ def inspect_cavity(path: Path, *, shown: str | None = None, project: Project | N
     region, findings)``; bad drawings raise
     :class:`~pipeline.errors.CavityError`.
     """
-    from .cavity import Limits, read_cavity
     from .region import usable_region
 
-    p = project
-    cavity, cw = read_cavity(Path(path), display_name=shown or str(path),
-                             layer_map=p.layer_map if p else None,
-                             default_units=p.units if p else "mm",
-                             depth_mm=p.depth_mm if p else 5.0,
-                             chord_tol_mm=p.chord_tolerance_mm if p else 0.02,
-                             limits=Limits.from_table(dict(p.limits) if p else None),
-                             mesh_options=dict(p.mesh_options) if p else None)
-    cavity = _with_mounts(cavity, p) if p else cavity
-    region, rw = usable_region(cavity, p.board if p else BoardOptions())
+    cavity, cw = _cavity(Path(path), shown or str(path), project)
+    region, rw = usable_region(cavity, project.board if project else BoardOptions())
     return cavity, region, (*cw, *rw)
+
+
+def _cavity(path: Path, shown: str, project: Project | None) -> tuple[Any, list[Finding]]:
+    """Read a cavity drawing with the project's ``[cavity]`` settings and ``[limits]``, its mounting
+    bosses marked; without a project, with the cavity reader's defaults."""
+    from .cavity import Limits, read_cavity
+
+    if project is None:
+        return read_cavity(path, display_name=shown)
+    cavity, warnings = read_cavity(path, display_name=shown, layer_map=project.layer_map,
+                                   default_units=project.units, depth_mm=project.depth_mm,
+                                   chord_tol_mm=project.chord_tolerance_mm,
+                                   limits=Limits.from_table(dict(project.limits)),
+                                   mesh_options=dict(project.mesh_options))
+    return _with_mounts(cavity, project), warnings
 
 
 def write_cavity_dxf(cavity: Any, out: Path, *, shown: str) -> None:
@@ -402,21 +453,67 @@ def _source_date_epoch() -> int | None:
 def run(project: Project, *, progress: Progress | None = None, sweep: bool = False, route: bool = True) -> RunResult:
     """Run every stage of ``project`` and write all its outputs at once.
 
+    Parameters
+    ----------
+    project : Project
+        From :func:`load_project`.
+    progress : callable, optional
+        ``progress(message, fraction)`` during the long steps (placement, sweep, routing).
+    sweep : bool
+        Also place once per passive size (:func:`pipeline.sweep.sweep_sizes`).
+    route : bool
+        Route a fitting board unless ``[copper] route = false`` (``--no-route`` sets it false).
+
+    Returns
+    -------
+    RunResult
+        Findings in the order the stages made them, the fit, the verdict and the files written.
+
+    Notes
+    -----
     Order: design -> graph -> connection checks -> value and rating checks ->
     declared blocks -> (with a cavity) cavity -> region -> area -> placement
-    and outline -> routing (unless ``route`` is false or ``[copper] route =
-    false``) -> outputs. Raises :class:`~pipeline.errors.InputError` on bad
-    input, before anything is written.
+    and outline -> routing -> outputs, all kept in memory and written together
+    by :func:`pipeline.export.atomic.write_all`. Raises
+    :class:`~pipeline.errors.InputError` on bad input, before anything is
+    written. Cost: the placement and routing steps dominate.
     """
-    from .export import atomic, bom, edif, netlist, results
-    from .export import spice as spice_out
-    from .export.blocks import block_sections
+    from .export import atomic
 
     timestamp = _source_date_epoch()
     design, lib, checked, reports = _read_and_check(project.design_path, project.design_shown, project.parts_map,
                                                     project.root, limits=project.limits, progress=progress,
                                                     **_analysis(project))
-    findings: list[Finding] = [*project.warnings, *checked]
+    files, order_files = _design_files(design, lib, project, reports, timestamp)
+    placed, findings = _placed(project, design, lib, sweep, route, files, [*project.warnings, *checked], progress)
+    verdict = _run_verdict(findings, placed)
+    fit_json, svg = _drawing_files(project, design, lib, placed, verdict, files)
+    files.update(_report_files(project, design, reports, placed, findings, svg, verdict, order_files))
+    written = atomic.write_all(project.out_dir, files, protect=_protected(project, design))
+    return RunResult(design=design, findings=tuple(findings), fit=placed.fit, exit_status=verdict.exit_status,
+                     written=tuple(written), stage_reports=tuple(reports), sweep=placed.sweep, fit_json=fit_json,
+                     verdict=verdict, routing=placed.routing)
+
+
+@dataclass
+class _Placed:
+    """The cavity half of a run: all ``None`` (``extra`` empty) when the project gives no cavity."""
+
+    cavity: Any = None
+    region: Any = None
+    items: Any = None          # the placer's items (pipeline.area.items_from_design)
+    fit: FitResult | None = None
+    sweep: Any = None          # pipeline.sweep.SweepResult with --sweep
+    routing: Any = None        # pipeline.route.RouteVerdict
+    routed: Any = None         # pipeline.route.RouteOutcome when the router ran
+    extra: dict = field(default_factory=dict)  # fit.json's passive_sizes and routing
+
+
+def _design_files(design: Design, lib: Any, project: Project, reports: Any,
+                  timestamp: int | None) -> tuple[dict[str, bytes], dict[str, bytes]]:
+    """The outputs of the design alone (BOM, netlists, blocks.json), and the BOM files (the report's order)."""
+    from .export import bom, edif, netlist, results
+    from .export import spice as spice_out
 
     files: dict[str, bytes] = {}
     features = frozenset(k.name for k in lib.kinds() if k.board_feature)  # never ordered
@@ -428,61 +525,83 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     files["design.cir"] = spice_out.spice_netlist(design)
     if reports:
         files["blocks.json"] = results.dump_json([r.to_dict() for r in reports])
+    return files, order_files
 
-    fit = None
-    sweep_result = None
+
+def _placed(project: Project, design: Design, lib: Any, sweep: bool, route: bool, files: dict[str, bytes],
+            findings: list[Finding], progress: Progress | None) -> tuple[_Placed, list[Finding]]:
+    """Cavity, placement, sweep and routing (adding their files to ``files``), and the findings so far."""
+    if project.cavity_path is None:
+        return _Placed(), [*findings, Finding(
+            "info", "fit.no-cavity", (),
+            "No cavity drawing given: the fit was not checked. Set [project] cavity or pass --cavity.")]
+    cavity, region, items, fit, sweep_result, fit_findings = _fit(project, design, lib, sweep, progress, route)
+    findings = [*findings, *fit_findings]
     extra: dict[str, Any] = {}
-    sections = list(block_sections(reports))
-    route_verdict = routed = None
-    if project.cavity_path is not None:
-        cavity, region, items, fit, sweep_result, fit_findings = _fit(project, design, lib, sweep, progress, route)
-        findings += fit_findings
-        if sweep_result is not None:
-            extra["passive_sizes"] = sweep_result.to_dict()
-        fit, route_verdict, routed = _route(project, route, fit, items, region, cavity.board, design, lib, files,
-                                            progress)
-        if route_verdict.spread_mm:  # the routed placement is a spread one: say where its rules stand
-            from .place_rules import refresh_near_notes
-            findings = refresh_near_notes(findings, items, fit.placements)
-        findings += _route_findings(route_verdict)
-        extra["routing"] = route_verdict.to_dict()
-    else:
-        findings.append(Finding("info", "fit.no-cavity", (),
-                                "No cavity drawing given: the fit was not checked. Set [project] cavity or pass --cavity."))
-    from .verdict import decide
-    tried = route_verdict is not None and route_verdict.reason != NOT_FITTING
-    verdict = decide(findings, fit, routing=route_verdict if tried else None)
-    fit_json: dict = {}
-    svg = None
-    if fit is not None:
-        from .cavity import cavity_units
-        from .export import dxf as dxf_out
-        from .export import svg as svg_out
-        fit_json = results.fit_dict(fit, extra, verdict=verdict)
-        files["fit.json"] = results.dump_json(fit_json)
-        svg = svg_out.fit_svg(cavity, region, fit, title=design.name, verdict=verdict,
-                              facts=svg_out.part_facts(design, items), pads=_pads(fit, design, lib),
-                              routing=routed.routing if routed else None, demand=routed.demand if routed else None)
-        files["fit.svg"] = svg
-        if fit.board_outline is not None and not fit.board_outline.is_empty:
-            units = cavity_units(cavity) if project.outline_units == "drawing" else (4, 1.0)
-            files["board-outline.dxf"] = dxf_out.board_outline_dxf(fit.board_outline, units=units)
+    if sweep_result is not None:
+        extra["passive_sizes"] = sweep_result.to_dict()
+    fit, route_verdict, routed = _route(project, route, fit, items, region, cavity.board, design, lib, files,
+                                        progress)
+    if route_verdict.spread_mm:  # the routed placement is a spread one: say where its rules stand
+        from .place_rules import refresh_near_notes
+        findings = refresh_near_notes(findings, items, fit.placements)
+    findings = [*findings, *_route_findings(route_verdict)]
+    extra["routing"] = route_verdict.to_dict()
+    return _Placed(cavity, region, items, fit, sweep_result, route_verdict, routed, extra), findings
 
-    files["findings.json"] = results.findings_json(findings)
+
+def _run_verdict(findings: list[Finding], placed: _Placed) -> Any:
+    """The overall verdict; routing counts only when it was tried (a board that does not fit is not routed)."""
+    from .verdict import decide
+
+    tried = placed.routing is not None and placed.routing.reason != NOT_FITTING
+    return decide(findings, placed.fit, routing=placed.routing if tried else None)
+
+
+def _drawing_files(project: Project, design: Design, lib: Any, placed: _Placed, verdict: Any,
+                   files: dict[str, bytes]) -> tuple[dict, bytes | None]:
+    """Add fit.json, fit.svg and board-outline.dxf to ``files`` (with a fit); return fit.json's dict and the SVG."""
+    fit, routed = placed.fit, placed.routed
+    if fit is None:
+        return {}, None
+    from .cavity import cavity_units
+    from .export import dxf as dxf_out
+    from .export import results
+    from .export import svg as svg_out
+    fit_json = results.fit_dict(fit, placed.extra, verdict=verdict)
+    files["fit.json"] = results.dump_json(fit_json)
+    svg = svg_out.fit_svg(placed.cavity, placed.region, fit, title=design.name, verdict=verdict,
+                          facts=svg_out.part_facts(design, placed.items), pads=_pads(fit, design, lib),
+                          routing=routed.routing if routed else None, demand=routed.demand if routed else None)
+    files["fit.svg"] = svg
+    if fit.board_outline is not None and not fit.board_outline.is_empty:
+        units = cavity_units(placed.cavity) if project.outline_units == "drawing" else (4, 1.0)
+        files["board-outline.dxf"] = dxf_out.board_outline_dxf(fit.board_outline, units=units)
+    return fit_json, svg
+
+
+def _report_files(project: Project, design: Design, reports: Any, placed: _Placed, findings: list[Finding],
+                  svg: bytes | None, verdict: Any, order_files: dict[str, bytes]) -> dict[str, bytes]:
+    """findings.json and report.html (with the declared blocks' sections)."""
     from .export import report as report_out
-    files["report.html"] = report_out.report_html(title=f"{design.name} {design.revision}".strip(), fit=fit,
-                                                  findings=findings, fit_svg=svg, sections=sections,
-                                                  verdict=verdict, order_files=order_files, board=project.board)
-    status = verdict.exit_status
+    from .export import results
+    from .export.blocks import block_sections
+
+    return {"findings.json": results.findings_json(findings),
+            "report.html": report_out.report_html(
+                title=f"{design.name} {design.revision}".strip(), fit=placed.fit, findings=findings, fit_svg=svg,
+                sections=list(block_sections(reports)), verdict=verdict, order_files=order_files,
+                board=project.board)}
+
+
+def _protected(project: Project, design: Design) -> list[Path]:
+    """Every input of the run: the writer never writes over one."""
     protect = [project.design_path, project.root / "project.toml", *design.inputs]
     if project.cavity_path is not None:
         protect.append(project.cavity_path)
     if project.parts_map is not None:
         protect.append(project.parts_map)
-    written = atomic.write_all(project.out_dir, files, protect=protect)
-    return RunResult(design=design, findings=tuple(findings), fit=fit, exit_status=status,
-                     written=tuple(written), stage_reports=tuple(reports), sweep=sweep_result, fit_json=fit_json,
-                     verdict=verdict, routing=route_verdict)
+    return protect
 
 
 def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Progress | None, route: bool = True):
@@ -492,16 +611,10 @@ def _fit(project: Project, design: Design, lib: Any, sweep: bool, progress: Prog
     """
     from .advice import tried_advice
     from .area import items_from_design
-    from .cavity import Limits, read_cavity
     from .place import place_and_fit
     from .region import usable_region
 
-    cavity, cw = read_cavity(project.cavity_path, display_name=project.cavity_shown,
-                             layer_map=project.layer_map, default_units=project.units,
-                             depth_mm=project.depth_mm, chord_tol_mm=project.chord_tolerance_mm,
-                             limits=Limits.from_table(dict(project.limits)),
-                             mesh_options=dict(project.mesh_options))
-    cavity = _with_mounts(cavity, project)
+    cavity, cw = _cavity(project.cavity_path, project.cavity_shown, project)
     region, rw = usable_region(cavity, project.board)
     items = items_from_design(design, lib, project.board.density)
     fit = place_and_fit(items, region, project.board, user_board=cavity.board, progress=progress)

@@ -27,7 +27,7 @@ row's routing instead of routing again.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any, Callable, Sequence
 
 from .area import items_from_design
@@ -154,7 +154,7 @@ def sweep_sizes(design: Design, library, region: Region, board: BoardOptions,
     SweepResult
         ``rows`` in the order of ``sizes``; ``designed`` the fit as designed
         (listed first in :meth:`SweepResult.to_dict`); passives the user
-        fixed in place are not swept (``kept``).
+        fixed in place are not swept (``kept``). Cost: module docstring.
 
     Raises
     ------
@@ -165,26 +165,51 @@ def sweep_sizes(design: Design, library, region: Region, board: BoardOptions,
     passives = two_terminal_passives(design, library)
     kept = tuple(r for r in passives if design.part(r).fixed is not None)
     swept = tuple(r for r in passives if r not in kept)
-    shape = {}
-    for s in sizes:
-        cy = library.package(s, file="sweep", key="sizes").courtyard(board.density)
-        shape[s] = (float(cy.length_mm), float(cy.width_mm))
+    shape = _courtyard_shapes(library, sizes, board.density)
+    fitter = _Fitter(design, library, region, board, user_board, rules)
     rows = []
-    routed: dict = {}  # placer items -> routing status (sizes whose courtyards come out the same route once)
     for n, s in enumerate((DESIGNED, *sizes)):
         if progress is not None:
             progress(f"trying passives in {s}", n / (len(sizes) + 1))
         override = {} if s == DESIGNED else {ref: s for ref in swept}
-        items = items_from_design(design, library, board.density, override)
-        fit = place_and_fit(items, region, board, user_board=user_board, improve=False)  # placement verdict
+        rows.append(fitter.row(s, override, shape.get(s, (0.0, 0.0))))
+    designed, rows = rows[0], rows[1:]
+    best = _largest_fitting(rows, sizes)
+    if progress is not None:
+        progress("sweep done", 1.0)
+    return SweepResult(tuple(rows), swept, best.size if best else None, best.margin_mm2 if best else None,
+                       designed, kept)
+
+
+def _courtyard_shapes(library, sizes: tuple[str, ...], density: str) -> dict[str, tuple[float, float]]:
+    """Each size's courtyard (length, width) in mm at ``density``; an unknown size is refused."""
+    shape = {}
+    for s in sizes:
+        cy = library.package(s, file="sweep", key="sizes").courtyard(density)
+        shape[s] = (float(cy.length_mm), float(cy.width_mm))
+    return shape
+
+
+@dataclass
+class _Fitter:
+    """The design fitted again with other passive sizes; routing is reused for identical placer items."""
+
+    design: Design
+    library: Any
+    region: Region
+    board: BoardOptions
+    user_board: Any
+    rules: Any
+    routed: dict = field(default_factory=dict)  # placer items -> routing status
+
+    def row(self, size: str, override: dict[str, str], courtyard_mm: tuple[float, float]) -> SweepRow:
+        """The row of one size: placed without the improvement pass (the verdict does not need it), then routed."""
+        items = items_from_design(self.design, self.library, self.board.density, override)
+        fit = place_and_fit(items, self.region, self.board, user_board=self.user_board, improve=False)
+        routing = self._routing(items) if fit.fits else "skipped"
         board_area = float(fit.board_outline.area) if fit.board_outline is not None else 0.0
-        routing = "skipped"
-        if fit.fits and rules is not None and rules.route:
-            if items not in routed:
-                routed[items] = _routes(items, region, board, design, library, rules, user_board)
-            routing = routed[items]
-        rows.append(SweepRow(
-            size=s,
+        return SweepRow(
+            size=size,
             fits=fit.fits and routing != "open",
             placed=fit.fits,
             routing=routing,
@@ -194,16 +219,25 @@ def sweep_sizes(design: Design, library, region: Region, board: BoardOptions,
             margin_mm2=board_area - fit.estimate.expected_mm2,
             free_mm2=board_area - fit.courtyard_area_mm2,
             unplaced=fit.unplaced,
-            courtyard_mm=shape.get(s, (0.0, 0.0)),
-        ))
-    designed, rows = rows[0], rows[1:]
+            courtyard_mm=courtyard_mm,
+        )
+
+    def _routing(self, items) -> str:
+        """``"skipped"`` with routing off, else ``"routed"`` or ``"open"`` (once per distinct items)."""
+        if self.rules is None or not self.rules.route:
+            return "skipped"
+        if items not in self.routed:
+            self.routed[items] = _routes(items, self.region, self.board, self.design, self.library, self.rules,
+                                         self.user_board)
+        return self.routed[items]
+
+
+def _largest_fitting(rows: Sequence[SweepRow], sizes: tuple[str, ...]) -> SweepRow | None:
+    """The fitting row with the largest courtyard area (ties: the earlier size); None when none fits."""
     fitting = [r for r in rows if r.fits]
-    best = max(fitting, key=lambda r: (r.courtyard_mm[0] * r.courtyard_mm[1], -sizes.index(r.size))) \
-        if fitting else None
-    if progress is not None:
-        progress("sweep done", 1.0)
-    return SweepResult(tuple(rows), swept, best.size if best else None, best.margin_mm2 if best else None,
-                       designed, kept)
+    if not fitting:
+        return None
+    return max(fitting, key=lambda r: (r.courtyard_mm[0] * r.courtyard_mm[1], -sizes.index(r.size)))
 
 
 def _routes(items, region: Region, board: BoardOptions, design: Design, library, rules, user_board) -> str:

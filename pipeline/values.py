@@ -73,6 +73,8 @@ __all__ = [
     "located",
     "format_value",
     "format_quantity",
+    "format_fixed",
+    "format_area",
     "round_sig",
     "format_share",
     "format_mm",
@@ -411,12 +413,13 @@ def parse_rating(text: str) -> tuple[float | None, float | None]:
     Accepts one voltage and one power item in any order, separated by
     spaces, commas or semicolons: ``16V``, ``6.3 V``, ``0.1W``, ``1/8W``,
     ``250mW``, ``16V 0.1W``, ``50V, 1/10W``, ``1kV``. Prefixes ``k``/``K``,
-    ``m`` and ``u`` are allowed; ``VDC`` reads as ``V``.
+    ``m`` and ``u`` are allowed; ``VDC`` reads as ``V``. Cost: linear in
+    the text (one regular-expression match an item).
 
     Returns
     -------
     (volts, watts) : tuple of float or None
-        ``None`` for the one not given.
+        In V and W; ``None`` for the one not given.
 
     Raises
     ------
@@ -435,8 +438,7 @@ def parse_rating(text: str) -> tuple[float | None, float | None]:
     s = text.strip()
     if not s:
         raise ValueTextError("empty rating: expected a voltage and/or power such as 16V, 0.1W or 50V 1/8W")
-    volts: float | None = None
-    watts: float | None = None
+    found: dict[str, float] = {}  # "V" or "W" -> the rating in that unit
     pos = 0
     while pos < len(s):
         m = _RATING_ITEM.match(s, pos)
@@ -445,27 +447,26 @@ def parse_rating(text: str) -> tuple[float | None, float | None]:
                 f"rating {text!r} is not understood at {s[pos:]!r}: "
                 "expected a voltage and/or power such as 16V, 0.1W, 1/8W or 50V 250mW"
             )
-        num = Decimal(m.group("num"))
-        if m.group("den") is not None:
-            den = Decimal(m.group("den"))
-            if den == 0:
-                raise ValueTextError(f"rating {text!r} divides by zero")
-            num = num / den
-        num = num.scaleb(_PREFIX_EXP.get(m.group("prefix"), 0))
-        v = float(num)
-        if v <= 0:
-            raise ValueTextError(f"rating {text!r} is zero: a rating must be positive")
-        kind = m.group("unit")[0].upper()
-        if kind == "V":
-            if volts is not None:
-                raise ValueTextError(f"rating {text!r} gives the voltage twice")
-            volts = v
-        else:
-            if watts is not None:
-                raise ValueTextError(f"rating {text!r} gives the power twice")
-            watts = v
+        kind, v = _rating_item(m, text)
+        if kind in found:
+            raise ValueTextError(f"rating {text!r} gives the {'voltage' if kind == 'V' else 'power'} twice")
+        found[kind] = v
         pos = m.end()
-    return volts, watts
+    return found.get("V"), found.get("W")
+
+
+def _rating_item(m: re.Match[str], text: str) -> tuple[str, float]:
+    """One matched rating item: ``("V", volts)`` or ``("W", watts)``, a fraction and prefix applied exactly."""
+    num = Decimal(m.group("num"))
+    if m.group("den") is not None:
+        den = Decimal(m.group("den"))
+        if den == 0:
+            raise ValueTextError(f"rating {text!r} divides by zero")
+        num = num / den
+    v = float(num.scaleb(_PREFIX_EXP.get(m.group("prefix"), 0)))
+    if v <= 0:
+        raise ValueTextError(f"rating {text!r} is zero: a rating must be positive")
+    return m.group("unit")[0].upper(), v
 
 
 # --------------------------------------------------------------------------
@@ -559,6 +560,25 @@ def format_mm(v: float) -> str:
     ('2.5', '3', '0.12', '1234')
     """
     return f"{v:.2f}".rstrip("0").rstrip(".") if abs(v) < 1000 else f"{v:.0f}"
+
+
+def format_fixed(v: float) -> str:
+    """A coordinate (mm) as the outputs write it: three decimals, never a negative zero.
+
+    >>> format_fixed(1.23456), format_fixed(-0.0001), format_fixed(2)
+    ('1.235', '0.000', '2.000')
+    """
+    s = f"{float(v):.3f}"
+    return "0.000" if s == "-0.000" else s
+
+
+def format_area(v: float) -> str:
+    """An area (mm^2) as the report writes it: one decimal and the unit.
+
+    >>> format_area(1234.56), format_area(0)
+    ('1234.6 mm\u00b2', '0.0 mm\u00b2')
+    """
+    return f"{float(v):.1f} mm\u00b2"
 
 
 def format_share(x: float | None) -> str:

@@ -140,3 +140,18 @@ def test_labels_inside_the_picture_apart_and_with_minus_signs(kind, values, targ
 
 def test_minus():
     assert minus("-3 dB") == "\u22123 dB" and minus("-10") == "\u221210" and minus("a-1") == "a-1"
+
+
+def test_a_block_name_is_escaped_as_all_user_text_is():
+    """A block name is a TOML key, so any text. Reference: XML 1.0 (fifth edition) section 2.2, whose
+    Char production leaves out U+0001: the inline SVG must not hold it (expat, behind xml.etree,
+    refuses such a document); the name is escaped by pipeline.export.markup like all user text."""
+    from dataclasses import replace
+
+    d = _design("rc-lowpass", {"R": 1e3, "C": 10e-9})
+    d = replace(d, stages=(replace(d.stages[0], name="it's \x01 <f>"),))
+    (rep,), _ = analyse_blocks(d, draws=0)
+    svg = response_svg(rep, 1)
+    root = ET.fromstring(svg)
+    assert "it&#39;s \ufffd &lt;f&gt;" in svg and "\x01" not in svg
+    assert root.get("aria-label") == "frequency response of block it's \ufffd <f>"

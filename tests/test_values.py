@@ -575,3 +575,27 @@ def test_format_value_formats_each_distinct_value_once():
     assert format_value(-0.0) == format_value(0.0) == "0"
     with pytest.raises(ValueError):
         format_value(float("nan"))
+
+
+@pytest.mark.parametrize("v", [0.0, -0.0, -0.0004, 0.0005, 1.0005, -2.5, 1234.56789, 1e-9, -1e-9, 3])
+def test_format_fixed_matches_decimal_rounding_without_negative_zero(v):
+    from decimal import ROUND_HALF_EVEN, Decimal
+
+    from pipeline.values import format_fixed
+
+    # Reference: Python's decimal module, rounding the exact binary value half-to-even to 0.001
+    # (the IEEE 754 rule printf's %.3f follows); a zero is written without its sign.
+    ref = Decimal(float(v)).quantize(Decimal("0.001"), rounding=ROUND_HALF_EVEN)
+    expected = "0.000" if ref == 0 else str(ref)
+    assert format_fixed(v) == expected
+
+
+@pytest.mark.parametrize("v", [0.0, 0.05, 0.25, 12.345, 599.5, 1234.56, 1e6])
+def test_format_area_matches_decimal_rounding(v):
+    from decimal import ROUND_HALF_EVEN, Decimal
+
+    from pipeline.values import format_area
+
+    # Reference: Python's decimal module rounding the exact binary value half-to-even to 0.1 (printf's rule).
+    ref = Decimal(float(v)).quantize(Decimal("0.1"), rounding=ROUND_HALF_EVEN)
+    assert format_area(v) == f"{ref} mm\u00b2"

@@ -16,6 +16,7 @@ __all__ = [
     "JOIN_TOL_MM", "REL_TOL", "MAX_FILE_BYTES", "MAX_ENTITIES", "MAX_VERTICES", "MAX_BLOCK_DEPTH",
     "MAX_COORDINATE_MM",
     "MIN_PLAUSIBLE_AREA_MM2", "MAX_PLAUSIBLE_SIDE_MM", "Limits", "DEFAULTS",
+    "DEFAULT_DEPTH_MM", "CHORD_TOL_MM", "DEFAULT_UNITS",
 ]
 
 #: End points of loose pieces closer than this (mm) are joined.
@@ -43,6 +44,13 @@ MAX_BLOCK_DEPTH = 16
 MIN_PLAUSIBLE_AREA_MM2 = 25.0
 #: Outline side above which the outline is implausibly large, mm.
 MAX_PLAUSIBLE_SIDE_MM = 1000.0
+#: Floor-to-lid depth wherever no depth zone says otherwise, mm (CONTRACT section 1;
+#: project.toml ``[cavity] depth_mm``).
+DEFAULT_DEPTH_MM = 5.0
+#: Largest distance between a curve and its flattened chords, mm (``[cavity] chord_tolerance_mm``).
+CHORD_TOL_MM = 0.02
+#: Units of a drawing that declares none (``[cavity] units``).
+DEFAULT_UNITS = "mm"
 
 
 @dataclass(frozen=True)

@@ -200,6 +200,12 @@ class _Measured:
                                      self.src.line(f"boss.{i}.mount")))
         return tuple(out)
 
+    def polygon(self, where: str, body: dict) -> Polygon:
+        """A table's ``points`` (a simple polygon of three or more) or, without them, its rectangle keys."""
+        if "points" in body:
+            return self.simple(f"{where}.points", Polygon(self.points(f"{where}.points", body["points"], 3)))
+        return self.rectangle(where, body)
+
     def rib(self, i: int, body: dict, pocket: Polygon) -> Polygon:
         where = f"rib[{i}]"
         if "path" in body:
@@ -214,10 +220,7 @@ class _Measured:
 
     def wire_entry(self, i: int, body: dict, pocket: Polygon) -> Polygon:
         where = f"wire_entry[{i}]"
-        if "points" in body:
-            shape = self.simple(f"{where}.points", Polygon(self.points(f"{where}.points", body["points"], 3)))
-        else:
-            shape = self.rectangle(where, body)
+        shape = self.polygon(where, body)
         if not shape.intersects(pocket):
             raise self.fail(where, "the wire-entry zone lies wholly outside the pocket: draw it where the "
                             "wires come in, overlapping the pocket")
@@ -226,10 +229,7 @@ class _Measured:
     def zone(self, i: int, body: dict, k: float) -> DepthZone:
         where = f"zone[{i}]"
         depth = self.number(f"{where}.depth", body.get("depth"), lo=0)
-        if "points" in body:
-            shape = self.simple(f"{where}.points", Polygon(self.points(f"{where}.points", body["points"], 3)))
-        else:
-            shape = self.rectangle(where, body)
+        shape = self.polygon(where, body)
         name = self.src.text(f"{where}.name", body.get("name", f"zone {i + 1}"), CavityError)
         return DepthZone(to_mm(shape, k), depth * k, name)
 

@@ -5,6 +5,17 @@ on role layers converting each to points, reports what it skipped, chains
 the pieces of each layer into loops and builds the outline, keep-outs,
 depth zones and board outline, converting to millimetres last (so every
 location in an error message is in drawing units).
+
+Example
+-------
+>>> import ezdxf, tempfile, pathlib
+>>> doc = ezdxf.new(units=ezdxf.units.MM)
+>>> _ = doc.modelspace().add_lwpolyline([(0, 0), (40, 0), (40, 20), (0, 20)],
+...     close=True, dxfattribs={"layer": "CAVITY"})
+>>> p = pathlib.Path(tempfile.mkdtemp()) / "bay.dxf"; doc.saveas(p)
+>>> cavity, findings = read_cavity(p, display_name="bay.dxf")
+>>> cavity.outline.area, cavity.unit_name, findings
+(800.0, 'mm', [])
 """
 
 from __future__ import annotations
@@ -23,7 +34,8 @@ from pipeline.model import Cavity, DepthZone, Finding
 
 from .chain import Ring, chain, fmt_pt, loop_polygon, one_outline, to_mm
 from .convert import CURVES, MeshPolyline, Piece, convert_leaf
-from .limits import JOIN_TOL_MM, MAX_PLAUSIBLE_SIDE_MM, MIN_PLAUSIBLE_AREA_MM2, Limits
+from .limits import (CHORD_TOL_MM, DEFAULT_DEPTH_MM, DEFAULT_UNITS, JOIN_TOL_MM, MAX_PLAUSIBLE_SIDE_MM,
+                     MIN_PLAUSIBLE_AREA_MM2, Limits)
 from .load import LoaderLog, load_dxf, printable, short
 from .measured import MEASURED_SUFFIX, read_measured
 from .mesh import MESH_SUFFIXES, mesh_settings, read_mesh
@@ -37,16 +49,9 @@ Progress = Callable[[str, float], None]
 
 
 def read_cavity(
-    path: Path,
-    *,
-    display_name: str | None = None,
-    layer_map: Mapping[str, Any] | None = None,
-    default_units: str = "mm",
-    depth_mm: float = 5.0,
-    chord_tol_mm: float = 0.02,
-    settings_file: str = "project.toml",
-    limits: Limits | None = None,
-    progress: Progress | None = None,
+    path: Path, *, display_name: str | None = None, layer_map: Mapping[str, Any] | None = None,
+    default_units: str = DEFAULT_UNITS, depth_mm: float = DEFAULT_DEPTH_MM, chord_tol_mm: float = CHORD_TOL_MM,
+    settings_file: str = "project.toml", limits: Limits | None = None, progress: Progress | None = None,
     mesh_options: Mapping[str, Any] | None = None,
 ) -> tuple[Cavity, list[Finding]]:
     """Read a cavity drawing into millimetre polygons.
@@ -72,8 +77,7 @@ def read_cavity(
         Name of the settings file in messages about ``layer_map``,
         ``default_units``, ``depth_mm`` and ``chord_tol_mm``.
     limits : Limits, optional
-        Size limits (project.toml ``[limits]``); the defaults of
-        :mod:`pipeline.cavity.limits` when not given.
+        Size limits (project.toml ``[limits]``; default :mod:`pipeline.cavity.limits`).
     progress : callable, optional
         ``progress(message, fraction)`` now and then.
     mesh_options : mapping, optional
@@ -83,7 +87,8 @@ def read_cavity(
     Returns
     -------
     (Cavity, list of Finding)
-        Geometry in mm in the drawing's frame; warnings and notes.
+        Geometry in mm in the drawing's frame; warnings and notes. Cost:
+        linear in the entities on role layers (example: the module docstring).
 
     Raises
     ------
@@ -93,31 +98,35 @@ def read_cavity(
         an open keep-out, depth zone or board outline; a bad ``DEPTH-<mm>``
         layer name or a bad setting; an entity that cannot be converted
         (named with its handle and layer). Locations are in drawing units.
-
-    Examples
-    --------
-    >>> import ezdxf, tempfile, pathlib
-    >>> doc = ezdxf.new(units=ezdxf.units.MM)
-    >>> _ = doc.modelspace().add_lwpolyline([(0, 0), (40, 0), (40, 20), (0, 20)],
-    ...     close=True, dxfattribs={"layer": "CAVITY"})
-    >>> p = pathlib.Path(tempfile.mkdtemp()) / "bay.dxf"; doc.saveas(p)
-    >>> cavity, findings = read_cavity(p, display_name="bay.dxf")
-    >>> cavity.outline.area, cavity.unit_name, findings
-    (800.0, 'mm', [])
     """
     name = printable(display_name if display_name is not None else str(path))
-    findings: list[Finding] = []
     roles = parse_layer_map(layer_map, source=settings_file)
     default_code = _check_settings(depth_mm, chord_tol_mm, default_units, settings_file)
     if Path(path).suffix.lower() in MESH_SUFFIXES:
-        cavity, findings = read_mesh(Path(path), display_name=name, unit_code=default_code, depth_mm=float(depth_mm),
-                                     options=mesh_settings(mesh_options, settings_file), progress=progress)
-        return cavity, findings + _plausibility(cavity.outline, cavity.unit_name, name)
+        return _read_mesh(Path(path), name, default_code, float(depth_mm), mesh_settings(mesh_options, settings_file),
+                          progress)
     if Path(path).suffix.lower() == MEASURED_SUFFIX:
         return read_measured(Path(path), display_name=name, depth_mm=float(depth_mm), chord_tol_mm=chord_tol_mm)
+    return _read_dxf(Path(path), name, roles, default_code, float(depth_mm), chord_tol_mm, progress, limits or Limits())
+
+
+def _read_mesh(path: Path, name: str, default_code: int, depth_mm: float, options: Any,
+               progress: Progress | None) -> tuple[Cavity, list[Finding]]:
+    """A shell mesh's cavity (:mod:`pipeline.cavity.mesh`), with the plausibility notes of its outline."""
+    cavity, findings = read_mesh(path, display_name=name, unit_code=default_code, depth_mm=depth_mm,
+                                 options=options, progress=progress)
+    return cavity, findings + _plausibility(cavity.outline, cavity.unit_name, name)
+
+
+def _read_dxf(path: Path, name: str, roles: LayerRoles, default_code: int, depth_mm: float,
+              chord_tol_mm: float, progress: Progress | None, limits: Limits) -> tuple[Cavity, list[Finding]]:
+    """A DXF drawing's cavity; the DXF library's own messages become one ``cavity.loader`` note.
+
+    Cost: linear in the entities on role layers (block inserts expanded).
+    """
+    findings: list[Finding] = []
     with LoaderLog() as log:
-        cavity = _read(Path(path), name, roles, default_code, float(depth_mm), chord_tol_mm,
-                       findings, progress, limits or Limits())
+        cavity = _read(path, name, roles, default_code, depth_mm, chord_tol_mm, findings, progress, limits)
     if log.messages:
         findings.append(Finding(
             "info", "cavity.loader", (name,),

@@ -19,6 +19,7 @@ import io
 from typing import Mapping
 
 from ..model import BoardOptions, FitResult
+from ..values import format_area
 from .markup import escape
 
 __all__ = ["order_section", "csv_table"]
@@ -81,7 +82,7 @@ def _board(fit: FitResult | None, board: BoardOptions | None, boards: str) -> st
     if outline is not None and not outline.is_empty:
         x0, y0, x1, y1 = outline.bounds
         rows.append(("Outline size", f"{x1 - x0:.2f} x {y1 - y0:.2f} mm (board-outline.dxf)"))
-        rows.append(("Outline area", f"{float(outline.area):.1f} mm\u00b2"))
+        rows.append(("Outline area", format_area(outline.area)))
     else:
         rows.append(("Outline", "none yet: no cavity drawing, so no outline was proposed"))
     if board is not None:

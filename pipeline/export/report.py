@@ -45,8 +45,9 @@ import hashlib
 import re
 from typing import Mapping, Sequence
 
-from ..model import SEVERITIES, BoardOptions, FitResult, Finding
+from ..model import SEVERITIES, SEVERITY_WORDS, BoardOptions, FitResult, Finding
 from ..order import natural_key
+from ..values import format_area, format_fixed
 from .markup import escape as _esc
 from ..verdict import Verdict, decide
 from .order_view import order_section
@@ -56,8 +57,6 @@ from .picture_js import SCRIPT as _SCRIPT
 __all__ = ["report_html"]
 
 _XML_PROLOG = re.compile(r"^\s*<\?xml[^>]*\?>\s*")
-
-_SEVERITY_HEADING = {"error": "Errors", "warning": "Warnings", "info": "Notes"}
 
 _CSS = """
 :root { --ink: #1f252d; --muted: #5b6470; --rule: #d5d9de; --band: #f4f6f8;
@@ -132,15 +131,9 @@ footer { margin-top: 2.5rem; font-size: .8rem; color: var(--muted); }
 
 
 def report_html(
-    *,
-    title: str,
-    fit: FitResult | None,
-    findings: Sequence[Finding],
-    fit_svg: bytes | None,
-    sections: Sequence[tuple[str, str]] = (),
-    verdict: Verdict | None = None,
-    order_files: Mapping[str, bytes] | None = None,
-    board: BoardOptions | None = None,
+    *, title: str, fit: FitResult | None, findings: Sequence[Finding], fit_svg: bytes | None,
+    sections: Sequence[tuple[str, str]] = (), verdict: Verdict | None = None,
+    order_files: Mapping[str, bytes] | None = None, board: BoardOptions | None = None,
 ) -> bytes:
     """Build the self-contained HTML report.
 
@@ -171,7 +164,8 @@ def report_html(
     Returns
     -------
     bytes
-        UTF-8 HTML5 document.
+        UTF-8 HTML5 document; lengths in mm, areas in mm^2. Cost: linear in
+        the findings, placements and the picture's size.
 
     Examples
     --------
@@ -184,9 +178,24 @@ def report_html(
     all_findings = _with_fit_warnings(findings, fit)
     if verdict is None:
         verdict = decide(all_findings, fit)
-    counts = {sev: sum(1 for f in all_findings if f.severity == sev) for sev in SEVERITIES}
+    script = _SCRIPT if fit_svg else ""
+    nav = _nav(fit, fit_svg, sections, bool(order_files))
+    main = _main(verdict, all_findings, fit, fit_svg, sections, order_files, board)
+    out = [*_head(title, script), *_header(title, nav), "<main>", *main, "</main>", _FOOTER]
+    if script:
+        out.append(f"<script>{script}</script>")
+    out += ["</body>", "</html>"]
+    return ("\n".join(out) + "\n").encode("utf-8")
+
+
+_FOOTER = '<footer>Written by snugboard. All lengths in millimetres, areas in mm\u00b2.</footer>'
+
+
+def _nav(fit: FitResult | None, fit_svg: bytes | None, sections: Sequence[tuple[str, str]],
+         has_order: bool) -> list[tuple[str, str]]:
+    """The ``(anchor, link text)`` pairs of the page's navigation, in the order of its sections."""
     nav = [("verdict", "Verdict")]
-    if order_files:
+    if has_order:
         nav.append(("order", "Order"))
     if fit is not None:
         nav.append(("areas", "Areas"))
@@ -195,49 +204,51 @@ def report_html(
         nav.append(("placements", "Placements"))
     nav.append(("findings", "Findings"))
     nav.extend((f"section-{i + 1}", heading) for i, (heading, _) in enumerate(sections))
-    script = _SCRIPT if fit_svg else ""
+    return nav
 
-    out: list[str] = []
-    add = out.append
-    add("<!DOCTYPE html>")
-    add('<html lang="en">')
-    add("<head>")
-    add('<meta charset="utf-8">')
-    add(f'<meta http-equiv="Content-Security-Policy" content="{_csp(script)}">')
-    add('<meta name="viewport" content="width=device-width, initial-scale=1">')
-    add('<meta name="generator" content="snugboard">')
-    add(f"<title>{_esc(title)}</title>")
-    add(f"<style>{_CSS}</style>")
-    add("</head>")
-    add("<body>")
-    add("<header>")
-    add(f"<h1>{_esc(title)}</h1>")
-    add("<nav>" + "".join(f'<a href="#{key}">{_esc(text)}</a>' for key, text in nav) + "</nav>")
-    add("</header>")
-    add("<main>")
-    add(_verdict(verdict, counts))
+
+def _head(title: str, script: str) -> list[str]:
+    """The document's lines up to ``<body>``: charset, security policy, title and style."""
+    return [
+        "<!DOCTYPE html>",
+        '<html lang="en">',
+        "<head>",
+        '<meta charset="utf-8">',
+        f'<meta http-equiv="Content-Security-Policy" content="{_csp(script)}">',
+        '<meta name="viewport" content="width=device-width, initial-scale=1">',
+        '<meta name="generator" content="snugboard">',
+        f"<title>{_esc(title)}</title>",
+        f"<style>{_CSS}</style>",
+        "</head>",
+        "<body>",
+    ]
+
+
+def _header(title: str, nav: Sequence[tuple[str, str]]) -> list[str]:
+    """The page header's lines: the heading and the navigation links (user text escaped)."""
+    links = "".join(f'<a href="#{key}">{_esc(text)}</a>' for key, text in nav)
+    return ["<header>", f"<h1>{_esc(title)}</h1>", f"<nav>{links}</nav>", "</header>"]
+
+
+def _main(verdict: Verdict, findings: Sequence[Finding], fit: FitResult | None, fit_svg: bytes | None,
+          sections: Sequence[tuple[str, str]], order_files: Mapping[str, bytes] | None,
+          board: BoardOptions | None) -> list[str]:
+    """The lines inside ``<main>``, one a section (see the module docstring for their order)."""
+    counts = {sev: sum(1 for f in findings if f.severity == sev) for sev in SEVERITIES}
+    out = [_verdict(verdict, counts)]
     if order_files:
-        add(order_section(order_files, fit, board))
+        out.append(order_section(order_files, fit, board))
     if fit is not None:
-        add(_areas(fit))
-        add(_blocked(fit))
+        out += [_areas(fit), _blocked(fit)]
         if fit_svg:
-            add(_picture(fit_svg))
-        add(_placements(fit))
+            out.append(_picture(fit_svg))
+        out.append(_placements(fit))
     elif fit_svg:
-        add(_picture(fit_svg))
-    add(_findings(all_findings))
+        out.append(_picture(fit_svg))
+    out.append(_findings(findings))
     for i, (heading, fragment) in enumerate(sections):
-        add(f'<section id="section-{i + 1}" class="extra"><h2>{_esc(heading)}</h2>')
-        add(fragment)
-        add("</section>")
-    add("</main>")
-    add('<footer>Written by snugboard. All lengths in millimetres, areas in mm\u00b2.</footer>')
-    if script:
-        add(f"<script>{script}</script>")
-    add("</body>")
-    add("</html>")
-    return ("\n".join(out) + "\n").encode("utf-8")
+        out += [f'<section id="section-{i + 1}" class="extra"><h2>{_esc(heading)}</h2>', fragment, "</section>"]
+    return out
 
 
 def _csp(script: str) -> str:
@@ -283,33 +294,29 @@ def _verdict(verdict: Verdict, counts: dict[str, int]) -> str:
 
 
 def _count(n: int, severity: str) -> str:
-    word = {"error": "error", "warning": "warning", "info": "note"}.get(severity, severity)
+    word = SEVERITY_WORDS.get(severity, severity)
     return f"{n} {word}" + ("" if n == 1 else "s")
 
 
 def _areas(fit: FitResult) -> str:
     est = fit.estimate
     rows = [
-        ("Usable board region", _area(fit.region_area_mm2)),
-        ("Courtyards of the fitted parts (sum)", _area(fit.courtyard_area_mm2)),
-        ("Estimated board area, low", _area(est.low_mm2)),
-        ("Estimated board area, expected", _area(est.expected_mm2)),
-        ("Estimated board area, high", _area(est.high_mm2)),
+        ("Usable board region", format_area(fit.region_area_mm2)),
+        ("Courtyards of the fitted parts (sum)", format_area(fit.courtyard_area_mm2)),
+        ("Estimated board area, low", format_area(est.low_mm2)),
+        ("Estimated board area, expected", format_area(est.expected_mm2)),
+        ("Estimated board area, high", format_area(est.high_mm2)),
     ]
     if fit.region_area_mm2 > 0:
         share = 100.0 * est.expected_mm2 / fit.region_area_mm2
         rows.append(("Expected area as a share of the region", f"{share:.1f} %"))
     if fit.board_outline is not None and not fit.board_outline.is_empty:
-        rows.append(("Board outline", _area(float(fit.board_outline.area))))
+        rows.append(("Board outline", format_area(float(fit.board_outline.area))))
     if fit.wirelength_mm > 0:
         rows.append(("Half-perimeter wirelength of the placement", f"{fit.wirelength_mm:.1f} mm"))
     body = "".join(f'<tr><th scope="row">{_esc(k)}</th><td class="num">{_esc(v)}</td></tr>' for k, v in rows)
     rule = f'<p class="quiet">Estimate: {_esc(est.rule)}</p>' if est.rule else ""
     return f'<section id="areas"><h2>Areas</h2><table class="figures">{body}</table>{rule}</section>'
-
-
-def _area(v: float) -> str:
-    return f"{float(v):.1f} mm\u00b2"
 
 
 def _blocked(fit: FitResult) -> str:
@@ -336,8 +343,8 @@ def _placements(fit: FitResult) -> str:
     )
     for p in sorted(fit.placements, key=lambda p: (natural_key(p.ref), p.side)):
         out.append(
-            f"<tr><td>{_esc(p.ref)}</td><td class=\"num\">{_fix(p.x_mm)}</td>"
-            f"<td class=\"num\">{_fix(p.y_mm)}</td><td class=\"num\">{int(p.rotation_deg)}</td>"
+            f"<tr><td>{_esc(p.ref)}</td><td class=\"num\">{format_fixed(p.x_mm)}</td>"
+            f"<td class=\"num\">{format_fixed(p.y_mm)}</td><td class=\"num\">{int(p.rotation_deg)}</td>"
             f"<td>{_esc(p.side)}</td></tr>"
         )
     out.append("</tbody></table></section>")
@@ -353,7 +360,7 @@ def _findings(findings: Sequence[Finding]) -> str:
         group = [f for f in findings if f.severity == sev]
         if not group:
             continue
-        head = _SEVERITY_HEADING.get(sev, sev.capitalize())
+        head = f"{SEVERITY_WORDS[sev].capitalize()}s" if sev in SEVERITY_WORDS else sev.capitalize()
         out.append(f'<h3 class="sev-{_esc(_slug(sev))}">{_esc(head)} ({len(group)})</h3>')
         out.append(
             f'<table class="findings findings-{_esc(_slug(sev))}">'
@@ -392,8 +399,3 @@ def _inline_svg(svg: bytes) -> str:
 
 def _slug(text: str) -> str:
     return re.sub(r"[^a-z0-9-]+", "-", text.lower()).strip("-") or "other"
-
-
-def _fix(v: float) -> str:
-    s = f"{float(v):.3f}"
-    return "0.000" if s == "-0.000" else s

@@ -18,7 +18,6 @@ U+2212.
 
 from __future__ import annotations
 
-import html
 import math
 from typing import Sequence
 
@@ -26,6 +25,7 @@ import numpy as np
 
 from ..model import BlockReport, Response
 from ..values import format_quantity as fmt
+from .markup import escape
 
 __all__ = ["plot_window", "response_svg", "DEPTH_DB", "MARGIN_DECADES", "minus"]
 
@@ -38,7 +38,7 @@ CHAR_W = 6.2
 
 _W, _H = 640, 330
 _ML, _MR, _MT, _MB = 58, 22, 62, 42
-_E = html.escape
+_E = escape  # user text (the block name) as all user text: pipeline.export.markup
 _FREQ_FIGURES = ("f0", "f_3db")
 
 

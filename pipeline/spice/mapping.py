@@ -8,7 +8,7 @@ from ..errors import DesignError
 from ..model import PartKind, PinDef
 from .lines import Line
 from .tokens import REF_RE
-from .partsmap import Spec
+from .partsmap import PART_LETTERS, Spec
 from .state import Build, Cand
 
 DEFAULTS = {
@@ -64,13 +64,8 @@ def resolve(b: Build, ln: Line, letter: str, spice_name: str, ref: str, model: s
     ref_spec = _lookup_specs(b, (spice_name, spice_name.replace(".", "_"), ref))
     rec_spec = _record_spec(b, spice_name, ln)
     chain: list[Spec] = [s for s in (ref_spec, rec_spec) if s is not None]
-    if subckt:
-        s = b.pm.subckt.get(subckt.lower())
-        if s is not None:
-            b.pm.used.add(s.key)
-            chain.append(s)
-    if model:
-        s = b.pm.models.get(model.lower())
+    for table, name in ((b.pm.subckt, subckt), (b.pm.models, model)):  # the parts map's subckt, then models
+        s = table.get(name.lower()) if name else None
         if s is not None:
             b.pm.used.add(s.key)
             chain.append(s)
@@ -96,7 +91,7 @@ def resolve(b: Build, ln: Line, letter: str, spice_name: str, ref: str, model: s
                               f"name its kind in the parts map ([refs.{spice_name}] kind = ...)", line=ln.line)
         defaulted = True
     if kind is not None and not package:
-        package = DEFAULTS.get(letter, ("", "SOT-23"))[1] if letter in "rcldqmj" else ""
+        package = DEFAULTS.get(letter, ("", "SOT-23"))[1] if letter in PART_LETTERS else ""
         if not package:
             raise DesignError(ln.file, f"{spice_name}: give its package in the parts map "
                               f"([refs.{spice_name}] package = ...)", line=ln.line)

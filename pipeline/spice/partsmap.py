@@ -19,6 +19,14 @@ _PM_REF_KEYS = ("kind", "package", "pins", "ref", "value", "tolerance", "rating"
                 "note", "dnp", "supplier", "order_code", "description")
 _PM_DEFAULT_KEYS = ("kind", "package")
 PASSTHROUGH = ("supplier", "order_code", "description")
+#: Element letters read as one board part each (``X``, a subcircuit instance, aside); lower case.
+PART_LETTERS = ("r", "c", "l", "d", "q", "m", "j")
+
+
+def letters_text(letters: tuple[str, ...]) -> str:
+    """Element letters as messages name them: ``("r", "c", "l")`` -> ``"R, C or L"``."""
+    up = [c.upper() for c in letters]
+    return ", ".join(up[:-1]) + " or " + up[-1]
 
 
 @dataclass(frozen=True)
@@ -65,8 +73,8 @@ def read_parts_map(path: Path, shown: str, library: Any) -> PartsMap:
     pm = PartsMap()
     for letter, body in rd.table("defaults", data.get("defaults", {})).items():
         key = f"defaults.{letter}"
-        if letter.lower() not in ("r", "c", "l", "d", "q", "m", "j"):
-            raise rd.err(key, f"defaults are per element letter R, C, L, D, Q, M or J, not '{letter}'")
+        if letter.lower() not in PART_LETTERS:
+            raise rd.err(key, f"defaults are per element letter {letters_text(PART_LETTERS)}, not '{letter}'")
         if letter.lower() in pm.defaults:
             raise rd.err(key, f"defaults for {letter.upper()} given twice")
         pm.defaults[letter.lower()] = rd.spec("defaults", key, rd.table(key, body), _PM_DEFAULT_KEYS)

@@ -1,30 +1,47 @@
-"""The entry point :func:`read_spice` and its named steps."""
+"""The entry point :func:`read_spice` and its named steps.
+
+Method, one step a function: physical lines -> logical lines (comments
+dropped, continuations joined) -> includes spliced in (:func:`_lines`) ->
+``.subckt`` bodies, ``.model``, ``.param`` and ``.global`` collected -> the
+top level elaborated, expanding each unmapped ``X`` instance into its body
+with the instance's node map and parameter scope (recursion refused, depth
+at most 50, element lines elaborated at most ``limits.expansion_parts``;
+:func:`_elaborated`) -> candidates grouped by board reference (sections
+merged) -> nets (:func:`_assembled`) -> the design (:func:`_design`).
+
+Example
+-------
+>>> import tempfile, pathlib
+>>> from pipeline.library import load_library
+>>> d = pathlib.Path(tempfile.mkdtemp())
+>>> _ = (d / "rc.cir").write_text("RC low-pass\\nR1 in out 10kOhm\\nC1 out 0 100n\\n.end\\n")
+>>> design, findings = read_spice(d / "rc.cir", load_library(), display_name="rc.cir")
+>>> design.name, [(p.ref, p.kind, p.package, p.value) for p in design.parts]
+('RC low-pass', [('R1', 'resistor', '0603', 10000.0), ('C1', 'capacitor', '0603', 1e-07)])
+>>> [(n.name, [str(p) for p in n.pins]) for n in design.nets]
+[('in', ['R1.1']), ('out', ['R1.2', 'C1.1']), ('GND', ['C1.2'])]
+"""
 
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Any
+from typing import Any, Callable
 
 from ..errors import DesignError
-from ..model import Design, Finding
+from ..model import Design, Finding, Net, Part, PartKind
 from .assemble import assemble
 from .collect import collect
 from .elaborate import elaborate
 from .limits import SpiceLimits
-from .lines import Reader, expand_includes, logical_lines, read_text
-from .partsmap import PartsMap, read_parts_map
-from .records import loose_part, record_kinds, sort_records, stage_tables
+from .lines import Line, Reader, expand_includes, logical_lines, read_text
+from .partsmap import PART_LETTERS, PartsMap, letters_text, read_parts_map
+from .records import RecordSet, loose_part, record_kinds, sort_records, stage_tables
 from .state import Build, Ctx, global_scope
 
 
 def read_spice(
-    path: Path,
-    library: Any,
-    *,
-    display_name: str | None = None,
-    parts_map: Path | None = None,
-    root: Path | None = None,
-    limits: SpiceLimits | None = None,
+    path: Path, library: Any, *, display_name: str | None = None, parts_map: Path | None = None,
+    root: Path | None = None, limits: SpiceLimits | None = None,
 ) -> tuple[Design, list[Finding]]:
     """Read a SPICE netlist as a sized design.
 
@@ -62,65 +79,72 @@ def read_spice(
 
     Notes
     -----
-    Method: physical lines -> logical lines (comments dropped,
-    continuations joined) -> includes spliced in -> ``.subckt`` bodies,
-    ``.model``, ``.param`` and ``.global`` collected -> the top level
-    elaborated, expanding each unmapped ``X`` instance into its body with
-    the instance's node map and parameter scope (recursion refused, depth at
-    most 50, element lines elaborated at most ``limits.expansion_parts``)
-    -> candidates grouped by board reference (sections merged) -> nets.
-    Cost: linear in the size of the flattened netlist; parameters are
-    evaluated lazily, once per scope, without recursion. Every count that
-    could grow from a small file (bytes, splices, element lines, expression
-    depth) is checked as it grows (:mod:`pipeline.spice.limits`).
-
-    Examples
-    --------
-    >>> import tempfile, pathlib
-    >>> from pipeline.library import load_library
-    >>> d = pathlib.Path(tempfile.mkdtemp())
-    >>> _ = (d / "rc.cir").write_text("RC low-pass\\nR1 in out 10kOhm\\nC1 out 0 100n\\n.end\\n")
-    >>> design, findings = read_spice(d / "rc.cir", load_library(), display_name="rc.cir")
-    >>> design.name, [(p.ref, p.kind, p.package, p.value) for p in design.parts]
-    ('RC low-pass', [('R1', 'resistor', '0603', 10000.0), ('C1', 'capacitor', '0603', 1e-07)])
-    >>> [(n.name, [str(p) for p in n.pins]) for n in design.nets]
-    [('in', ['R1.1']), ('out', ['R1.2', 'C1.1']), ('GND', ['C1.2'])]
+    Method and an example: this module's docstring. Cost: linear in the
+    size of the flattened netlist; parameters are evaluated lazily, once per
+    scope. Every count that could grow from a small file (bytes, splices,
+    element lines, expression depth) is checked as it grows (``limits``).
     """
-    path = Path(path)
-    shown = display_name or str(path)
-    root_dir, here = _resolved(path, root, shown)
+    shown = display_name or str(Path(path))
+    root_dir, here = _resolved(Path(path), root, shown)
     rd = Reader(root=root_dir, shown=shown, limits=limits or SpiceLimits())
-    pm_shown = _parts_map_shown(parts_map, root_dir) if parts_map is not None else ""
-    pm = read_parts_map(Path(parts_map), pm_shown, library) if parts_map is not None else PartsMap()
-
-    lines = expand_includes(logical_lines(read_text(here, shown, None, rd), shown, rd, has_title=True), here, rd,
-                            (here,))
+    read_map = _map_reader(parts_map, root_dir)
+    pm = read_map(library)
+    lines = _lines(here, shown, rd)
     kinds = record_kinds(rd)
     lib = library.with_kinds(kinds) if kinds else library
-    if kinds and parts_map is not None:  # the map may name a kind the design defines
-        pm = read_parts_map(Path(parts_map), pm_shown, lib)
+    pm = read_map(lib) if kinds and parts_map is not None else pm  # the map may name a design's kind
     nl = collect(lines, rd)
     recs = sort_records(rd)
+    b = _elaborated(Build(library=lib, pm=pm, nl=nl, rd=rd, records=recs.parts), recs, shown)
+    parts, nets = _assembled(b, recs, shown)
+    return _design(parts, nets, kinds, pm, recs, rd, shown, parts_map), pm.notes + rd.findings
 
-    b = Build(library=lib, pm=pm, nl=nl, rd=rd, records=recs.parts)
-    elaborate(nl.top, Ctx(path=(), ports={}, scope=global_scope(b), stack=()), b)
+
+def _map_reader(parts_map: Path | None, root_dir: Path) -> Callable[[Any], PartsMap]:
+    """Read the parts map against a library (an empty map when none is given)."""
+    if parts_map is None:
+        return lambda library: PartsMap()
+    pm_shown = _parts_map_shown(parts_map, root_dir)
+    return lambda library: read_parts_map(Path(parts_map), pm_shown, library)
+
+
+def _lines(here: Path, shown: str, rd: Reader) -> list[Line]:
+    """The top file's logical lines with every include spliced in."""
+    top = logical_lines(read_text(here, shown, None, rd), shown, rd, has_title=True)
+    return expand_includes(top, here, rd, (here,))
+
+
+def _elaborated(b: Build, recs: RecordSet, shown: str) -> Build:
+    """Elaborate the top level and the loose part records into ``b``; note unused map entries and defaults."""
+    elaborate(b.nl.top, Ctx(path=(), ports={}, scope=global_scope(b), stack=()), b)
     for kv, file, line in recs.loose:
         loose_part(b, kv, file, line)
-    _note_unused_map_entries(pm, rd, shown)
+    _note_unused_map_entries(b.pm, b.rd, shown)
     for what, refs in sorted(b.defaulted.items()):
-        rd.note("info", "spice.default-kind", tuple(refs),
-                f"{shown}: {', '.join(refs)} read as {what} by default; name others in the parts map.")
+        b.rd.note("info", "spice.default-kind", tuple(refs),
+                  f"{shown}: {', '.join(refs)} read as {what} by default; name others in the parts map.")
+    return b
 
+
+def _assembled(b: Build, recs: RecordSet, shown: str) -> tuple[tuple[Part, ...], tuple[Net, ...]]:
+    """The board parts and nets; a design without a board part is refused."""
     parts, nets = assemble(b, recs.nets)
     if not parts:
-        raise DesignError(shown, "no board parts found: expected R, C, L, D, Q, M, J or X element lines")
-    if parts_map is not None:
-        rd.inputs.add(str(Path(parts_map).resolve()))
-    design = Design(name=recs.design.get("name") or rd.dot_title or rd.title or Path(shown).stem,
-                    revision=pm.revision if pm.revision is not None else recs.design.get("revision", ""),
-                    source=shown, parts=parts, nets=nets, stages=stage_tables(pm.stages, recs),
-                    kinds=tuple(kinds), inputs=tuple(sorted(rd.inputs)))
-    return design, pm.notes + rd.findings
+        raise DesignError(shown, f"no board parts found: expected {letters_text((*PART_LETTERS, 'x'))} element lines")
+    return parts, nets
+
+
+def _design(parts: tuple[Part, ...], nets: tuple[Net, ...], kinds: list[PartKind], pm: PartsMap, recs: RecordSet,
+            rd: Reader, shown: str, parts_map: Path | None) -> Design:
+    """The design: name from a record, ``.title`` or the title line (else the file stem); revision from the map.
+
+    ``inputs`` are the files read (design, includes) and the parts map, resolved and sorted.
+    """
+    inputs = set(rd.inputs) | ({str(Path(parts_map).resolve())} if parts_map is not None else set())
+    return Design(name=recs.design.get("name") or rd.dot_title or rd.title or Path(shown).stem,
+                  revision=pm.revision if pm.revision is not None else recs.design.get("revision", ""),
+                  source=shown, parts=parts, nets=nets, stages=stage_tables(pm.stages, recs),
+                  kinds=tuple(kinds), inputs=tuple(sorted(inputs)))
 
 
 def _resolved(path: Path, root: Path | None, shown: str) -> tuple[Path, Path]:
