@@ -66,14 +66,22 @@ The method
    ``OPT_FANOUT`` parts (ground, supply) are left out of the improvement,
    as placers commonly do, but are counted in the reported wirelength.
    Callers that need only the verdict skip this step (``improve=False``).
-4. *Self-check.* Every placed courtyard is checked with shapely against the
+4. *Spreading* (:mod:`pipeline.place_spread`: proportional spreading,
+   Eisenmann and Johannes, DAC 1998, with greedy legalisation). The
+   packed block is spread over the board it is given (at most
+   ``place_spread.SPREAD_MAX`` times the courtyard sum), keeping the parts'
+   relative order (a near part keeps its offset from its target: the near
+   pass runs before it too), so tracks find room between the parts (swaps again on
+   the spread slots gained 1 % of the wirelength on the 60-part board of
+   bench/bench_route.py: not done). Skipped with the improvement.
+5. *Self-check.* Every placed courtyard is checked with shapely against the
    exact area, zones and its neighbours (STRtree); a failure would be a
    defect and drops the part with a warning instead of reporting a false
    fit.
 
 *Rules* (:mod:`pipeline.place_rules`): parts the user fixed hold their
 cells before step 2; wire pads and connectors are pre-placed at the board
-edge by the wire-entry zone and then count as fixed; after step 3 parts
+edge by the wire-entry zone and then count as fixed; after step 4 parts
 with a near rule (decoupling capacitors by default) move next to their
 target's pins; rules left unmet go to ``blocked_by`` or a warning.
 
@@ -106,7 +114,7 @@ from shapely.geometry.polygon import orient
 
 from .area import estimate_area
 from .errors import DesignError, ProjectError
-from . import place_rules
+from . import place_rules, place_spread
 from .improve import improve_swaps
 from .model import BoardOptions, FitResult, Finding, PlaceItem, Placement, Region
 from .mount import mount_keepout, raised_heads, with_mount_holes
@@ -327,19 +335,36 @@ class _Packer:
 
     def run(self, gap: float, sides: int, progress: Progress | None = None,
             frac: tuple[float, float] = (0.0, 1.0), cols: tuple[int, int] | None = None) -> _Run:
-        items = self.items
-        run = _Run(gap)
+        """One bottom-left packing with bottom gap ``gap`` (module notes, step 2), in column band ``cols``."""
+        run = self._classes(gap, sides)
         run.cols = cols
+        occ = self._occupancy(sides, gap)
+        bottom_mask = self.mask(self.level(gap) or 0) if "bottom" in occ else None
+        n_items = max(len(self.items), 1)
+        done = 0
+        for ci, (key, members) in enumerate(run.classes.items()):
+            bot, w0, h0, lvl = key
+            sides_here = ([("top", self.mask(lvl))] if lvl >= 0 else []) + \
+                ([("bottom", bottom_mask)] if bot and bottom_mask is not None else [])
+            maps = [m for side, base in sides_here for m in self._maps(side, base & ~occ[side], cols, w0, h0)]
+            self._place_class(run, members, maps, occ)
+            done += len(members)
+            if progress is not None and (ci % 4 == 0 or ci == len(run.classes) - 1):
+                progress("placing parts", frac[0] + (frac[1] - frac[0]) * done / n_items)
+        return run
+
+    def _classes(self, gap: float, sides: int) -> _Run:
+        """A fresh run with the packing classes (equal cell size, level, side), largest first, members
+        in connectivity order."""
+        run = _Run(gap)
         classes: dict[tuple, list[int]] = {}
-        for i, it in enumerate(items):
+        for i, it in enumerate(self.items):
             lvl = self.level(it.height_mm + gap)
             bot = sides == 2 and gap > 0 and it.height_mm <= gap + 1e-9
             run.top_level[i] = lvl
             run.bottom_ok[i] = bot
-            if i in self.fixed:
-                continue
-            key = (bot, self.wc[i], self.hc[i], -1 if lvl is None else lvl)
-            classes.setdefault(key, []).append(i)
+            if i not in self.fixed:
+                classes.setdefault((bot, self.wc[i], self.hc[i], -1 if lvl is None else lvl), []).append(i)
         for members in classes.values():
             members.sort(key=lambda i: self.rank[i])
 
@@ -347,80 +372,72 @@ class _Packer:
             bot, w, h, lvl = key
             return (bot, -(w * h), -max(w, h), -min(w, h), -lvl, w, h)
 
-        keys = sorted(classes, key=order)
-        run.classes = {k: classes[k] for k in keys}
-        for k, members in run.classes.items():
-            for i in members:
-                run.class_of[i] = k
+        run.classes = {k: classes[k] for k in sorted(classes, key=order)}
+        run.class_of = {i: k for k, members in run.classes.items() for i in members}
+        return run
+
+    def _occupancy(self, sides: int, gap: float) -> dict[str, np.ndarray]:
+        """Occupied cells per side before the packing: the fixed parts' cells."""
         g = self.grid
         occ = {"top": np.zeros((g.ny, g.nx), dtype=bool)}
         if sides == 2 and gap > 0:
             occ["bottom"] = np.zeros((g.ny, g.nx), dtype=bool)
-        bottom_mask = self.mask(self.level(gap) or 0) if "bottom" in occ else None
-        for side, (x1, y1, x2, y2) in self.fixed.values():  # fixed parts hold their cells first
+        for side, rect in self.fixed.values():  # fixed parts hold their cells first
             if side in occ:
-                c0, c1 = int(math.floor((x1 - g.x0) / g.cell + 1e-9)), int(math.ceil((x2 - g.x0) / g.cell - 1e-9))
-                r0, r1 = int(math.floor((y1 - g.y0) / g.cell + 1e-9)), int(math.ceil((y2 - g.y0) / g.cell - 1e-9))
-                occ[side][max(r0, 0):max(r1, 0), max(c0, 0):max(c1, 0)] = True
-        n_items = max(len(items), 1)
-        done = 0
-        for ci, key in enumerate(keys):
-            bot, w0, h0, lvl = key
-            members = run.classes[key]
-            sides_here = []
-            if lvl >= 0:
-                sides_here.append(("top", self.mask(lvl)))
-            if bot and bottom_mask is not None:
-                sides_here.append(("bottom", bottom_mask))
-            maps = []  # [side, orient, h, w, F, flat, pointer, row offset]
-            for side, base in sides_here:
-                free = base & ~occ[side]
-                if cols is not None:
-                    free[:, :cols[0]] = False
-                    free[:, cols[1]:] = False
-                # rows below the lowest free cell hold no origin: leave them out of the maps
-                rows_free = free.any(axis=1)
-                r0 = int(rows_free.argmax()) if rows_free.any() else free.shape[0]
-                free = free[r0:]
-                shapes = [(0, h0, w0)] + ([(1, w0, h0)] if w0 != h0 else [])
-                for o, h, w in shapes:
-                    F = _feasible(free, h, w)
-                    maps.append([side, o, h, w, F, F.reshape(-1), 0, r0])
-            for pos, i in enumerate(members):
-                best = None
-                for side_name in ("top", "bottom"):
-                    for m in maps:
-                        if m[0] != side_name or m[4].size == 0:
-                            continue
-                        p = _next_true(m[5], m[6])
-                        m[6] = p if p >= 0 else m[5].size
-                        if p < 0:
-                            continue
-                        ncol = m[4].shape[1]
-                        row, col = divmod(p, ncol)
-                        row += m[7]
-                        cand = (row + m[2], row, col, m[2], m[1])
-                        if best is None or cand < best[0]:
-                            best = (cand, m, row, col)
-                    if best is not None:
-                        break
-                if best is None:
-                    run.unplaced.extend(members[pos:])
-                    break
-                _, m, row, col = best
-                side, o, h, w = m[0], m[1], m[2], m[3]
-                occ[side][row:row + h, col:col + w] = True
-                run.slots[i] = (side, o, row, col)
-                for mm in maps:
-                    if mm[0] != side or mm[4].size == 0:
-                        continue
-                    hh, ww, r0 = mm[2], mm[3], mm[7]
-                    F = mm[4]
-                    F[max(0, row - r0 - hh + 1):max(0, row - r0 + h), max(0, col - ww + 1):col + w] = False
-            done += len(members)
-            if progress is not None and (ci % 4 == 0 or ci == len(keys) - 1):
-                progress("placing parts", frac[0] + (frac[1] - frac[0]) * done / n_items)
-        return run
+                r0, r1, c0, c1 = place_rules.cells_of(g, rect)
+                occ[side][r0:r1, c0:c1] = True
+        return occ
+
+    @staticmethod
+    def _maps(side: str, free: np.ndarray, cols, w0: int, h0: int) -> list:
+        """Feasible-origin maps ``[side, orient, h, w, F, flat F, pointer, row offset]`` of one class."""
+        if cols is not None:
+            free[:, :cols[0]] = False
+            free[:, cols[1]:] = False
+        # rows below the lowest free cell hold no origin: leave them out of the maps
+        rows_free = free.any(axis=1)
+        r0 = int(rows_free.argmax()) if rows_free.any() else free.shape[0]
+        free = free[r0:]
+        out = []
+        for o, h, w in [(0, h0, w0)] + ([(1, w0, h0)] if w0 != h0 else []):
+            F = _feasible(free, h, w)
+            out.append([side, o, h, w, F, F.reshape(-1), 0, r0])
+        return out
+
+    @staticmethod
+    def _lowest(maps: list, side_name: str):
+        """The origin whose top edge is lowest among the maps of one side (ties: row, column, flatter)."""
+        best = None
+        for m in maps:
+            if m[0] != side_name or m[4].size == 0:
+                continue
+            p = _next_true(m[5], m[6])
+            m[6] = p if p >= 0 else m[5].size
+            if p < 0:
+                continue
+            row, col = divmod(p, m[4].shape[1])
+            row += m[7]
+            cand = (row + m[2], row, col, m[2], m[1])
+            if best is None or cand < best[0]:
+                best = (cand, m, row, col)
+        return best
+
+    def _place_class(self, run: _Run, members: list, maps: list, occ: dict) -> None:
+        """Bottom-left fill of one class's members (top side first); the rest go to ``run.unplaced``."""
+        for pos, i in enumerate(members):
+            best = self._lowest(maps, "top") or self._lowest(maps, "bottom")
+            if best is None:
+                run.unplaced.extend(members[pos:])
+                return
+            _, m, row, col = best
+            side, o, h, w = m[0], m[1], m[2], m[3]
+            occ[side][row:row + h, col:col + w] = True
+            run.slots[i] = (side, o, row, col)
+            for mm in maps:  # origins whose window now overlaps this courtyard
+                if mm[0] != side or mm[4].size == 0:
+                    continue
+                hh, ww, r0 = mm[2], mm[3], mm[7]
+                mm[4][max(0, row - r0 - hh + 1):max(0, row - r0 + h), max(0, col - ww + 1):col + w] = False
 
     # -- geometry of a slot --------------------------------------------------
     def rect(self, i: int, slot) -> tuple[float, float, float, float]:
@@ -535,6 +552,8 @@ def place_and_fit(items: Sequence[PlaceItem], region: Region, board: BoardOption
                   improve: bool = True) -> FitResult:
     """Place every item's courtyard on a board inside ``region``, or say what blocks it.
 
+    Model, method and the cost of each step: the module notes.
+
     Parameters
     ----------
     items : sequence of PlaceItem
@@ -545,31 +564,20 @@ def place_and_fit(items: Sequence[PlaceItem], region: Region, board: BoardOption
         ``edge_clearance_mm``, ``sides``, ``layers`` (for the estimate),
         ``outline`` and ``min_inside_radius_mm`` (for the proposed outline).
     user_board : Polygon, optional
-        The user's own board outline (layer ``BOARD``): it is the outline;
-        the fit is checked on it, and a board reaching outside the usable
-        region does not fit.
+        The user's own outline (layer ``BOARD``); one outside the region does not fit.
     progress : callable(message, fraction), optional
     improve : bool
-        Run the wirelength improvement (step 3). Callers that need only the
-        verdict (the size sweep) pass False: fit, unplaced parts and board do
-        not depend on it.
+        Run the wirelength improvement and the spreading (steps 3 and 4).
+        Callers that need only the verdict (the size sweep, the smallest-board
+        screen) pass False: fit, unplaced parts and board do not depend on it.
 
     Returns
     -------
     FitResult
-        ``fits`` is true when every item is placed (and a user's board lies
-        inside the region); ``placements`` sorted by ref (natural order);
-        ``blocked_by`` plain sentences naming what to change;
-        ``wirelength_mm`` the total half-perimeter wirelength over all nets;
-        ``warnings`` findings (tight routing, bottom side used, ...).
-
-    Notes
-    -----
-    The model and the method are in the module notes. Cost for n parts
-    in c classes on a grid of G cells with P pins: O(c G log s + n) for the
-    packing, O(R (P log P + n log n)) for R rounds of the improvement
-    (:mod:`pipeline.improve`), O(n log n) for the self-check; the outline
-    costs O(V log V) in the cavity's vertices (bench/bench_scale.py).
+        ``fits`` when every item is placed (and a user's board lies in the
+        region); ``placements`` by ref (natural order); ``blocked_by`` plain
+        sentences naming what to change; ``wirelength_mm`` the total
+        half-perimeter wirelength; ``warnings`` findings.
 
     Examples
     --------
@@ -587,27 +595,35 @@ def place_and_fit(items: Sequence[PlaceItem], region: Region, board: BoardOption
     if progress is not None:
         progress("proposing the board outline", 0.0)
     outline, where, blocked, warnings = _board(region, board, user_board)
-    area = _inset(where, board.edge_clearance_mm) if not where.is_empty else where
-    area = shapely.union_all([p for p in polygons_of(area)]) if not area.is_empty else Polygon()
-    if region.mounts:  # no courtyard on a screw head's ring (top) or over a boss (bottom): pipeline/mount.py
-        area = area.difference(mount_keepout(region.mounts))
+    area = _placement_area(where, region, board)
     nets = _nets(items)
     if items and area.is_empty:
-        out = _Outcome(unplaced=sorted((it.ref for it in items), key=natural_key))
-        blocked.append(
+        out = _Outcome(unplaced=sorted((it.ref for it in items), key=natural_key), blocked=[
             f"Nothing is left to place parts on: the board area is {_area(where.area)} mm² and keeping "
-            f"{_fmt(board.edge_clearance_mm)} mm from its edges leaves no room.")
-    elif items:
-        out = _pack_and_check(items, area, region, board, estimate, nets, improve, progress)
+            f"{_fmt(board.edge_clearance_mm)} mm from its edges leaves no room."])
     else:
-        out = _Outcome()
-    blocked += out.blocked
-    warnings += out.warnings
+        out = _pack_and_check(items, area, region, board, estimate, nets, improve, progress) if items else _Outcome()
+    if progress is not None:
+        progress("placement done", 1.0)
+    return _fit_result(items, region, estimate, outline, nets, out, blocked + out.blocked, warnings + out.warnings)
+
+
+def _placement_area(where: BaseGeometry, region: Region, board: BoardOptions) -> BaseGeometry:
+    """Where courtyards may stand: the board inside the region less the edge clearance and the
+    mounting screws' keep-outs (pipeline/mount.py: no courtyard on a head's ring or over a boss)."""
+    area = _inset(where, board.edge_clearance_mm) if not where.is_empty else where
+    area = shapely.union_all([p for p in polygons_of(area)]) if not area.is_empty else Polygon()
+    if region.mounts:
+        area = area.difference(mount_keepout(region.mounts))
+    return area
+
+
+def _fit_result(items, region: Region, estimate, outline, nets, out: "_Outcome", blocked: list,
+                warnings: list) -> FitResult:
+    """The :class:`FitResult` of a packing outcome, with the verdict's closing notes."""
     fits = not out.unplaced and not blocked
     board_area = float(outline.area) if outline is not None else 0.0
     _verdict_notes(items, fits, board_area, estimate, blocked, warnings)
-    if progress is not None:
-        progress("placement done", 1.0)
     return FitResult(
         fits=fits,
         region_area_mm2=float(region.area_mm2),
@@ -691,7 +707,7 @@ def _best_run(packer: _Packer, tries: list, sides: int, progress: Progress | Non
 
 def _pack_and_check(items, area, region: Region, board: BoardOptions, estimate, nets, improve: bool,
                     progress: Progress | None) -> _Outcome:
-    """Steps 1 to 4 of the module notes: grid, packing, improvement, self-check."""
+    """Steps 1 to 5 of the module notes: grid, packing, improvement, spreading, self-check."""
     refs = [it.ref for it in items]
     out = _Outcome()
     fixed = _fixed_parts(items, region, board)
@@ -703,6 +719,8 @@ def _pack_and_check(items, area, region: Region, board: BoardOptions, estimate, 
     run = _best_run(packer, tries, board.sides, progress)
     if improve:
         _improve(packer, run, nets, progress)
+        place_rules.near_pass(packer, run, fixed)  # so the spreading keeps each near part by its target
+        place_spread.spread_block(packer, run, fixed, estimate.courtyard_area_mm2)  # room for routing
     place_rules.near_pass(packer, run, fixed)  # after the swaps, so they cannot undo it
     rects = {i: packer.rect(i, run.slots[i]) for i in run.slots}
     rects.update({i: r for i, (_, r) in fixed.items()})

@@ -324,7 +324,8 @@ def near_distance(rule: NearRule, own_at: tuple, target_at: tuple) -> float:
     return float(np.min(np.hypot(a[:, None, 0] - b[None, :, 0], a[:, None, 1] - b[None, :, 1])))
 
 
-def _cells(g, rect) -> tuple[int, int, int, int]:
+def cells_of(g, rect) -> tuple[int, int, int, int]:
+    """Rows and columns ``(r0, r1, c0, c1)`` of the grid ``g`` a rectangle ``(x1, y1, x2, y2)`` covers (rounded out)."""
     x1, y1, x2, y2 = rect
     c0 = int(math.floor((x1 - g.x0) / g.cell + 1e-9))
     c1 = int(math.ceil((x2 - g.x0) / g.cell - 1e-9))
@@ -369,13 +370,13 @@ class _TopBoard:
             self._put(j, slot, 1)
         for side, rect in fixed.values():
             if side == "top":
-                r0, r1, c0, c1 = _cells(g, rect)
+                r0, r1, c0, c1 = cells_of(g, rect)
                 self.occ[r0:r1, c0:c1] += 1
 
     def _put(self, j: int, slot, add: int) -> None:
         self.row[j], self.col[j], self.turn[j], self.top[j] = slot[2], slot[3], slot[1], slot[0] == "top"
         if slot[0] == "top":
-            r0, r1, c0, c1 = _cells(self.g, self.packer.rect(j, slot))
+            r0, r1, c0, c1 = cells_of(self.g, self.packer.rect(j, slot))
             self.occ[r0:r1, c0:c1] += add
 
     def move(self, j: int, slot) -> None:
@@ -390,7 +391,7 @@ class _TopBoard:
         occ = self.occ[rows, cols].copy()
         slot = self.run.slots[i]
         if slot[0] == "top":
-            r0, r1, c0, c1 = _cells(self.g, self.packer.rect(i, slot))
+            r0, r1, c0, c1 = cells_of(self.g, self.packer.rect(i, slot))
             r0, r1 = max(r0, rows.start) - rows.start, min(r1, rows.stop) - rows.start
             c0, c1 = max(c0, cols.start) - cols.start, min(c1, cols.stop) - cols.start
             if r1 > r0 and c1 > c0:
@@ -453,7 +454,7 @@ def _stands(packer, run, k: int, slot) -> bool:
     lvl = run.top_level.get(k)
     if lvl is None:
         return False
-    r0, r1, c0, c1 = _cells(packer.grid, packer.rect(k, slot))
+    r0, r1, c0, c1 = cells_of(packer.grid, packer.rect(k, slot))
     return bool(packer.mask(lvl)[r0:r1, c0:c1].all())
 
 

@@ -20,7 +20,8 @@ Each candidate passes cheap screens before the expensive routing:
 3. the RUDY demand estimate (:mod:`pipeline.route.demand`) of that
    placement: a 90th-percentile demand above ``P90_MAX`` of capacity is
    hopeless and is not routed;
-4. placement with the improvement pass and routing
+4. placement with the improvement pass and the spreading over the candidate
+   board (:mod:`pipeline.place_spread`), and routing
    (:func:`pipeline.route.route_fit`, which spreads the parts while they
    still place); the board counts only when the independent copper check is
    clean.
