@@ -147,14 +147,15 @@ def decoupling_caps(design: Design, g: nx.MultiGraph, cat: Mapping[str, str]) ->
     Common practice (REFERENCES.md section 7): a capacitor with one pin on
     each of two of the IC's supply nets decouples it. Only ICs with two or
     more supply pins on two or more nets are keys; caps in design order.
-    Cost O(ICs x caps).
+    Cost O(parts + ICs x supply-net pairs + caps found): the caps are indexed
+    by their net pair, so an IC looks up its pairs instead of scanning the caps.
     """
     caps = [p for p in design.parts if p.kind in ("capacitor", "capacitor-polarized")]
-    cap_nets = []
-    for c in caps:
+    by_pair: dict[frozenset, list[tuple[int, str]]] = {}  # net pair -> (design position, ref)
+    for k, c in enumerate(caps):
         nets = [ns[0] for ns in pin_nets(g, c.ref).values() if ns]
         if len(nets) == 2 and nets[0] != nets[1]:
-            cap_nets.append((c.ref, frozenset(nets)))
+            by_pair.setdefault(frozenset(nets), []).append((k, c.ref))
     out: dict[str, tuple[str, ...]] = {}
     for p in design.parts:
         if cat.get(p.kind) != "ic":
@@ -162,7 +163,8 @@ def decoupling_caps(design: Design, g: nx.MultiGraph, cat: Mapping[str, str]) ->
         supply, nets = _supply_nets(g, p.ref, p.pins)
         if len(supply) >= 2 and len(nets) >= 2:
             pairs = {frozenset(pair) for pair in combinations(nets, 2)}
-            out[p.ref] = tuple(ref for ref, cn in cap_nets if cn in pairs)
+            found = sorted(hit for pair in pairs for hit in by_pair.get(pair, ()))
+            out[p.ref] = tuple(ref for _k, ref in found)
     return out
 
 

@@ -52,11 +52,14 @@ orientations, whose pads come nearest the target's pins; when no free
 origin is near enough, it trades slots with the packed part of the same
 cell size whose slot brings it nearest (both stay legal: the cells are the
 same, and each must be allowed its height in the other's cells; a part
-with a near rule of its own only when the trade still meets that rule). Legal origins come from a
-summed-area table of the blocked cells (outside the level's mask or under
-another courtyard; Crow 1984, from memory), so a move is legal on the same
-grid the packer uses and the placer's shapely self-check still applies.
-Cost: O(cells) per moved part.
+with a near rule of its own only when the trade still meets that rule). Legal origins come from
+the packer's own window test over the blocked cells (outside the level's mask or under
+another courtyard, counted once for the board and updated as parts move), so a move is legal on
+the same grid the packer uses and the placer's shapely self-check still applies. The free
+origins are searched in a window round the goal, widened only as far as the best trade found
+allows (or, with no trade, until nothing outside can be nearer); trades are tried in order of
+a lower bound of their distance. Cost: O(window cells + n) per moved part for n parts, the
+window about the rule's distance (the trade's) across.
 
 Defaults (common practice, from memory)
 ---------------------------------------
@@ -65,9 +68,6 @@ the supply pins (REFERENCES.md section 7; application notes commonly ask
 for under about 3 mm, from memory). :data:`EDGE_BAND_MM` = 1 mm: a courtyard
 at most that far in from the edge still counts as at the edge (our own
 figure; a soldered wire leaves over it).
-
-Reference: F. C. Crow, "Summed-area tables for texture mapping", SIGGRAPH
-1984 (cited from memory).
 """
 
 from __future__ import annotations
@@ -80,7 +80,7 @@ import numpy as np
 import shapely
 from shapely.geometry.base import BaseGeometry
 
-from .library.lands import pads_on_board
+from .library.lands import board_xy, pads_on_board, turned_pads
 from .model import Finding, Fixed, NearRule, PlaceItem, Region
 from .order import natural_key
 from .values import format_mm as _fmt
@@ -345,6 +345,60 @@ def _where(packer, run, fixed: dict, i: int) -> tuple | None:
     return ((x1 + x2) / 2, (y1 + y2) / 2, 90 if run.slots[i][1] else 0, run.slots[i][0])
 
 
+class _TopBoard:
+    """The near pass's view of the packer's top side, kept up to date as parts move.
+
+    ``occ`` counts the top-side courtyards (packed and fixed) over each grid
+    cell, so a part's blocked cells are its level's closed cells plus every
+    cell another courtyard covers, read in a window instead of rebuilt for
+    the whole board per moved part; ``row``, ``col``, ``turn``, ``top`` hold
+    each item's slot as arrays for the swap search.
+    """
+
+    def __init__(self, packer: Any, run: Any, fixed: dict) -> None:
+        g = packer.grid
+        self.packer, self.run, self.g = packer, run, g
+        self.occ = np.zeros((g.ny, g.nx), dtype=np.int32)
+        n = len(packer.items)
+        self.row = np.zeros(n, dtype=np.int64)
+        self.col = np.zeros(n, dtype=np.int64)
+        self.turn = np.zeros(n, dtype=np.int64)
+        self.top = np.zeros(n, dtype=bool)
+        self.wc, self.hc = np.asarray(packer.wc), np.asarray(packer.hc)
+        self.index = {it.ref: k for k, it in enumerate(packer.items)}
+        for j, slot in run.slots.items():
+            self._put(j, slot, 1)
+        for side, rect in fixed.values():
+            if side == "top":
+                r0, r1, c0, c1 = cells_of(g, rect)
+                self.occ[r0:r1, c0:c1] += 1
+
+    def _put(self, j: int, slot, add: int) -> None:
+        self.row[j], self.col[j], self.turn[j], self.top[j] = slot[2], slot[3], slot[1], slot[0] == "top"
+        if slot[0] == "top":
+            r0, r1, c0, c1 = cells_of(self.g, self.packer.rect(j, slot))
+            self.occ[r0:r1, c0:c1] += add
+
+    def move(self, j: int, slot) -> None:
+        """Put item ``j`` in ``slot`` (``run.slots`` too)."""
+        self._put(j, self.run.slots[j], -1)
+        self.run.slots[j] = slot
+        self._put(j, slot, 1)
+
+    def blocked(self, i: int, rows: slice, cols: slice) -> np.ndarray:
+        """Cells of the window ``rows`` x ``cols`` that item ``i`` may not cover: outside its level's
+        mask or under another top-side courtyard (its own does not count)."""
+        occ = self.occ[rows, cols].copy()
+        slot = self.run.slots[i]
+        if slot[0] == "top":
+            r0, r1, c0, c1 = cells_of(self.g, self.packer.rect(i, slot))
+            r0, r1 = max(r0, rows.start) - rows.start, min(r1, rows.stop) - rows.start
+            c0, c1 = max(c0, cols.start) - cols.start, min(c1, cols.stop) - cols.start
+            if r1 > r0 and c1 > c0:
+                occ[r0:r1, c0:c1] -= 1
+        return ~self.packer.mask(self.run.top_level[i])[rows, cols] | (occ > 0)
+
+
 def near_pass(packer: Any, run: Any, fixed: dict) -> None:
     """Move each packed part whose near rule is unmet to its nearest legal slot (module notes).
 
@@ -353,7 +407,8 @@ def near_pass(packer: Any, run: Any, fixed: dict) -> None:
     parts move; fixed parts never do.
     """
     items = packer.items
-    index = {it.ref: n for n, it in enumerate(items)}
+    board = _TopBoard(packer, run, fixed)
+    index = board.index
     movers = sorted((i for i, it in enumerate(items) if it.near is not None and i in run.slots
                      and run.slots[i][0] == "top" and run.top_level.get(i) is not None),
                     key=lambda i: natural_key(items[i].ref))
@@ -363,19 +418,35 @@ def near_pass(packer: Any, run: Any, fixed: dict) -> None:
         if target is None or near_distance(rule, _where(packer, run, fixed, i), target) <= rule.within_mm + TOL:
             continue
         goal = _points(rule, False, *target, pins=rule.pins)
-        free = _nearest_slot(packer, run, fixed, i, goal)
-        swap = _nearest_swap(packer, run, fixed, i, goal)
-        if free is not None and (swap is None or free[0] <= max(rule.within_mm + TOL, swap[0])):
-            run.slots[i] = free[1]
+        swap = _nearest_swap(board, fixed, i, goal)
+        limit = math.inf if swap is None else max(rule.within_mm + TOL, swap[0])  # a free slot farther loses
+        free = _nearest_slot(board, i, goal, limit)
+        if free is not None and free[0] <= limit:
+            board.move(i, free[1])
         elif swap is not None:
             j = swap[1]
-            run.slots[i], run.slots[j] = run.slots[j], run.slots[i]
+            si, sj = run.slots[i], run.slots[j]
+            board.move(i, sj)
+            board.move(j, si)
 
 
 def _slot_distance(packer, i: int, slot, goal: np.ndarray) -> float:
+    """Nearest distance from item ``i``'s pads in ``slot`` to ``goal``: :func:`_points` with the
+    turned pad offsets of the package kept per turn (the same :func:`board_xy` positions)."""
     x1, y1, x2, y2 = packer.rect(i, slot)
-    own = _points(packer.items[i].near, True, (x1 + x2) / 2, (y1 + y2) / 2, 90 if slot[1] else 0, slot[0])
+    x, y = (x1 + x2) / 2, (y1 + y2) / 2
+    rule = packer.items[i].near
+    key = (id(rule.own_package), slot[1], slot[0], rule.level)
+    offs = _OFFSETS.get(key)
+    if offs is None or offs[0] is not rule.own_package:
+        offs = _OFFSETS[key] = (rule.own_package, [(dx, dy) for _p, dx, dy, _t in turned_pads(
+            rule.own_package, 90 if slot[1] else 0, slot[0], rule.level)])
+    own = np.array([board_xy(x, y, dx, dy) for dx, dy in offs[1]], dtype=float).reshape(-1, 2)
     return float(np.min(np.hypot(own[:, None, 0] - goal[None, :, 0], own[:, None, 1] - goal[None, :, 1])))
+
+
+#: turned pad offsets per (package id, turn, side, level); the package is kept to check the id
+_OFFSETS: dict[tuple, tuple] = {}
 
 
 def _stands(packer, run, k: int, slot) -> bool:
@@ -387,16 +458,41 @@ def _stands(packer, run, k: int, slot) -> bool:
     return bool(packer.mask(lvl)[r0:r1, c0:c1].all())
 
 
-def _nearest_swap(packer, run, fixed: dict, i: int, goal: np.ndarray):
+def _swap_bounds(board: _TopBoard, i: int, goal: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The packed top-side parts of ``i``'s cell size (``i`` left out) and, for each, a lower bound of
+    the distance from ``i``'s pads in its slot to ``goal``: :func:`_slot_distance` for all of them at
+    once with numpy (its rounding to the nanometre may differ in the last bit), less 1e-9 mm."""
+    packer, g = board.packer, board.g
+    cand = np.flatnonzero(board.top & (board.wc == board.wc[i]) & (board.hc == board.hc[i]))
+    cand = cand[cand != i]  # top is set only for items in run.slots
+    it = packer.items[i]
+    turned = board.turn[cand] != 0
+    x = g.x0 + board.col[cand] * g.cell
+    y = g.y0 + board.row[cand] * g.cell
+    cx = (x + (x + np.where(turned, it.width_mm, it.length_mm))) / 2
+    cy = (y + (y + np.where(turned, it.length_mm, it.width_mm))) / 2
+    low = np.full(len(cand), np.inf)
+    for t in (0, 1):
+        for _p, dx, dy, _r in turned_pads(it.near.own_package, 90 * t, "top", it.near.level):
+            px, py = np.round(cx + dx, 6), np.round(cy + dy, 6)
+            for tx, ty in goal:
+                low = np.where(turned == bool(t), np.minimum(low, np.hypot(px - tx, py - ty)), low)
+    return cand, low - 1e-9
+
+
+def _nearest_swap(board: _TopBoard, fixed: dict, i: int, goal: np.ndarray):
     """(distance, j) of the packed top-side part of ``i``'s cell size whose slot brings ``i``'s pads
     nearest ``goal``; a trade keeps both legal when each may stand, by height, in the other's cells
     (the cells are the same); a part with a near rule of its own is taken only when ``i``'s old slot
-    still meets it."""
-    index = {it.ref: n for n, it in enumerate(packer.items)}
+    still meets it. Candidates are visited by a lower bound of their distance (:func:`_swap_bounds`)
+    and the search stops once the bound passes the best found: the same answer as trying them all."""
+    packer, run, index = board.packer, board.run, board.index
+    cand, low = _swap_bounds(board, i, goal)
     best = None
-    for j in sorted(run.slots):
-        if j == i or (packer.wc[j], packer.hc[j]) != (packer.wc[i], packer.hc[i]) or run.slots[j][0] != "top":
-            continue
+    order = np.lexsort((cand, low))
+    for j, lb in zip(cand[order].tolist(), low[order].tolist()):
+        if best is not None and lb - 1e-6 > best[0]:
+            break
         if not (_stands(packer, run, i, run.slots[j]) and _stands(packer, run, j, run.slots[i])):
             continue
         d = round(_slot_distance(packer, i, run.slots[j], goal), 6)
@@ -426,13 +522,15 @@ def _window(g, goal: np.ndarray, reach: float) -> tuple[int, int, int, int]:
             c0, max(c0, int(math.ceil((gx1 + reach - g.x0) / g.cell))))
 
 
-def _scan(ok: np.ndarray, g, goal: np.ndarray, pads: np.ndarray, size: tuple, span) -> tuple | None:
-    """(distance, row, column) of the free origin in ``span`` (rows, columns) nearest the goal."""
+def _scan(ok: np.ndarray, g, goal: np.ndarray, pads: np.ndarray, size: tuple, span,
+          at: tuple[int, int] = (0, 0)) -> tuple | None:
+    """(distance, row, column) of the free origin in ``span`` (rows, columns) nearest the goal;
+    ``ok``'s first cell is the grid's row and column ``at``."""
     r0, r1, c0, c1 = span
     rows, cols = np.nonzero(ok[r0:r1, c0:c1])
     if not len(rows):
         return None
-    rows, cols = rows + r0, cols + c0
+    rows, cols = rows + r0 + at[0], cols + c0 + at[1]
     cx = g.x0 + cols * g.cell + size[0] / 2
     cy = g.y0 + rows * g.cell + size[1] / 2
     d = np.full(len(rows), np.inf)
@@ -443,33 +541,54 @@ def _scan(ok: np.ndarray, g, goal: np.ndarray, pads: np.ndarray, size: tuple, sp
     return round(float(d[k]), 6), int(rows[k]), int(cols[k])
 
 
-def _nearest_slot(packer, run, fixed: dict, i: int, goal: np.ndarray):
+def _scan_window(board: _TopBoard, i: int, h: int, w: int, goal, pads, size, span) -> tuple | None:
+    """:func:`_scan` over the free origins of ``span`` only: the packer's sliding window test
+    (``place._feasible``) over the window's cells, not the board's."""
+    g = board.g
+    r0, r1, c0, c1 = span
+    r1, c1 = min(r1, g.ny - h + 1), min(c1, g.nx - w + 1)
+    if r1 <= r0 or c1 <= c0:
+        return None
+    from .place import _feasible  # the packer's own window test (imported here: place imports us)
+
+    ok = _feasible(~board.blocked(i, slice(r0, r1 + h - 1), slice(c0, c1 + w - 1)), h, w)
+    return _scan(ok, g, goal, pads, size, (0, ok.shape[0], 0, ok.shape[1]), at=(r0, c0))
+
+
+def _nearest_slot(board: _TopBoard, i: int, goal: np.ndarray, limit: float = math.inf):
     """(distance, slot): the free legal top-side slot of item ``i`` whose pads come nearest ``goal``
-    (ties: row, column, turn), or None."""
-    g = packer.grid
-    blocked = ~packer.mask(run.top_level[i])
-    for j, slot in run.slots.items():
-        if j != i and slot[0] == "top":
-            r0, r1, c0, c1 = cells_of(g, packer.rect(j, slot))
-            blocked[r0:r1, c0:c1] = True
-    for side, rect in fixed.values():
-        if side == "top":
-            r0, r1, c0, c1 = cells_of(g, rect)
-            blocked[r0:r1, c0:c1] = True
-    sat = np.zeros((g.ny + 1, g.nx + 1), dtype=np.int64)
-    sat[1:, 1:] = np.cumsum(np.cumsum(blocked, axis=0), axis=1)
+    (ties: row, column, turn), or None; when that slot is farther than ``limit`` mm, None or a
+    slot farther than ``limit``.
+
+    The search looks in a window round the goal first (enough when a slot
+    there is within reach of the rule); otherwise in a window holding every
+    origin within ``limit``, or with no limit it doubles the window until
+    the nearest origin found is nearer than anything outside it can be
+    (``reach`` less the courtyard's size) or the window is the board.
+    Cost: the cells of the windows, not of the board.
+    """
+    g, packer = board.g, board.packer
     rule, it = packer.items[i].near, packer.items[i]
     best = None
     h0, w0 = packer.hc[i], packer.wc[i]
     for o, (h, w) in enumerate(((h0, w0), (w0, h0))):
         if h > g.ny or w > g.nx:
             continue
-        ok = (sat[h:, w:] - sat[:-h, w:] - sat[h:, :-w] + sat[:-h, :-w]) == 0
         size = (it.length_mm, it.width_mm) if o == 0 else (it.width_mm, it.length_mm)
         pads = _points(rule, True, 0.0, 0.0, 90 * o, "top")
-        found = _scan(ok, g, goal, pads, size, _window(g, goal, rule.within_mm + size[0] + size[1]))
-        if found is None or found[0] > rule.within_mm:  # nothing near enough close by: look everywhere
-            found = _scan(ok, g, goal, pads, size, (0, ok.shape[0], 0, ok.shape[1]))
+        reach = rule.within_mm + size[0] + size[1]
+        found = _scan_window(board, i, h, w, goal, pads, size, _window(g, goal, reach))
+        while found is None or found[0] > rule.within_mm:  # nothing near enough close by: look wider
+            # a finite limit: one window holding every origin within it; else double
+            reach = max(reach * 2 if math.isinf(limit) else limit + size[0] + size[1] + 1e-5, reach * 1.01)
+            span = _window(g, goal, reach)
+            whole = span[0] == 0 and span[2] == 0 and span[1] >= g.ny - h + 1 and span[3] >= g.nx - w + 1
+            found = _scan_window(board, i, h, w, goal, pads, size, span)
+            if whole or (found is not None and found[0] < reach - size[0] - size[1] - 1e-6):
+                break
+            if reach - size[0] - size[1] - 1e-6 > limit:  # whatever lies outside is farther than limit
+                found = None if found is None or found[0] > limit else found
+                break
         if found is not None and (found[0], found[1], found[2], o) < (best or (math.inf,)):
             best = (found[0], found[1], found[2], o)
     return None if best is None else (best[0], ("top", best[3], best[1], best[2]))

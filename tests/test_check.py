@@ -167,3 +167,44 @@ def test_per_pin_lookups_never_scan_the_parts(monkeypatch):
     assert calls == []
     assert g.number_of_edges() == 78 and out.count(b"\n") == 79
     assert design.part("R7") is parts[6] and calls == ["R7"]  # the counter can fail
+
+
+def test_decoupling_caps_index_caps_by_net_pair(monkeypatch, library):
+    """Cost guard (issue 11): decoupling_caps looks an IC's supply-net pairs up among the caps
+    instead of scanning every cap per IC (O(ICs x caps) at 16,000 parts); net-pair hashes are
+    counted, not timed. The result is checked against the plain scan of the rule (every cap with
+    one pin on each of two of the IC's supply nets, in design order)."""
+    import pipeline.check as check
+    from pipeline.model import Design, Net, Part, PinDef, PinRef
+
+    op = (PinDef("4", "V-", "supply"), PinDef("8", "V+", "supply"), PinDef("1", "OUT", "output"))
+    cap = (PinDef("1", "1", "passive"), PinDef("2", "2", "passive"))
+    ics = [Part(f"U{k}", "opamp-dual", "SOIC-8", op) for k in range(1, 31)]
+    caps = [Part(f"C{k}", "capacitor", "0603", cap) for k in range(1, 61)]
+    nets = {}
+    for k in range(1, 31):  # three supply rails, ten ICs each; two caps per IC, one of them on the wrong rail
+        rail = f"V{k % 3}"
+        nets.setdefault(rail, []).append(PinRef(f"U{k}", "8"))
+        nets.setdefault("GND", []).append(PinRef(f"U{k}", "4"))
+        nets[rail].append(PinRef(f"C{2 * k - 1}", "1"))
+        nets.setdefault(f"V{(k + 1) % 3}", []).append(PinRef(f"C{2 * k}", "1"))
+        nets["GND"] += [PinRef(f"C{2 * k - 1}", "2"), PinRef(f"C{2 * k}", "2")]
+        nets[f"O{k}"] = [PinRef(f"U{k}", "1")]
+    design = Design("x", "A", "x.toml", tuple(ics + caps), tuple(Net(n, tuple(p)) for n, p in nets.items()))
+    g = build_graph(design)
+    cats = {"opamp-dual": "ic", "capacitor": "passive"}
+    hashes = []
+
+    class Pair(frozenset):
+        def __hash__(self):
+            hashes.append(1)
+            return frozenset.__hash__(self)
+
+    monkeypatch.setattr(check, "frozenset", Pair, raising=False)
+    found = check.decoupling_caps(design, g, cats)
+    # the plain scan, written here: caps whose two nets are the IC's rail and GND
+    rail_of = {f"U{k}": f"V{k % 3}" for k in range(1, 31)}
+    cap_nets = {c.ref: {ns[0] for ns in pin_nets(g, c.ref).values()} for c in caps}
+    want = {u: tuple(c.ref for c in caps if cap_nets[c.ref] == {rail, "GND"}) for u, rail in rail_of.items()}
+    assert found == want and all(len(v) == 20 for v in found.values())
+    assert 0 < len(hashes) < 5 * (len(ics) + len(caps))  # a scan per IC would hash 30 x 60 = 1,800 times

@@ -287,3 +287,37 @@ def test_measured_zone_survives_the_dxf_writer(tmp_path):
     assert r.exit_code == 0, r.output
     cav, _ = read_cavity(out, depth_mm=6.0)
     assert len(cav.wire_entries) == 1 and cav.wire_entries[0].area == pytest.approx(21.0, abs=1e-6)
+
+
+# ---------------------------------------------------------------------------- the near pass's cost
+def _placed(fit) -> list[tuple]:
+    return sorted((p.ref, round(p.x_mm, 6), round(p.y_mm, 6), p.rotation_deg, p.side) for p in fit.placements)
+
+
+def test_near_pass_windows_give_the_whole_board_answer_and_scan_less(monkeypatch):
+    """The windowed near pass places every part as a search of the whole board and of every swap
+    does (the plain method of the module notes), and looks at far fewer cells than the board has per
+    moved part (a cost guard: cells counted, not seconds)."""
+    import pipeline.place_rules as pr
+
+    design, _ = read_design_text(_design(2, 40, None), LIB)
+    items = items_from_design(design, LIB, "nominal")
+    region = Region(box(0, 0, 60, 40), (HeightZone(box(0, 0, 60, 40), 5.0),), 0.8)
+    seen: list[int] = []
+    real = pr._scan_window
+
+    def counting(board, i, h, w, goal, pads, size, span):
+        seen.append((span[1] - span[0]) * (span[3] - span[2]))
+        seen.append(-board.g.nx * board.g.ny)  # the board's cells, marked negative
+        return real(board, i, h, w, goal, pads, size, span)
+
+    monkeypatch.setattr(pr, "_scan_window", counting)
+    fast = _placed(place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE)))
+    windows = [c for c in seen if c >= 0]
+    board = -min(seen)
+    assert windows and sum(windows) < 0.25 * board * len(windows)
+    monkeypatch.setattr(pr, "_window", lambda g, goal, reach: (0, g.ny, 0, g.nx))  # every origin, at once
+    real_bounds = pr._swap_bounds
+    monkeypatch.setattr(pr, "_swap_bounds",
+                        lambda board, i, goal: (lambda c, low: (c, low - math.inf))(*real_bounds(board, i, goal)))
+    assert _placed(place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE))) == fast
