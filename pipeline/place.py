@@ -719,8 +719,9 @@ def _pack_and_check(items, area, region: Region, board: BoardOptions, estimate, 
     run = _best_run(packer, tries, board.sides, progress)
     if improve:
         _improve(packer, run, nets, progress)
-        place_rules.near_pass(packer, run, fixed)  # so the spreading keeps each near part by its target
-        place_spread.spread_block(packer, run, fixed, estimate.courtyard_area_mm2)  # room for routing
+        if place_spread.spreads(run, fixed):  # a large board stays packed: no near pass for nothing
+            place_rules.near_pass(packer, run, fixed)  # so the spreading keeps each near part by its target
+            place_spread.spread_block(packer, run, fixed, estimate.courtyard_area_mm2)  # room for routing
     place_rules.near_pass(packer, run, fixed)  # after the swaps, so they cannot undo it
     rects = {i: packer.rect(i, run.slots[i]) for i in run.slots}
     rects.update({i: r for i, (_, r) in fixed.items()})

@@ -54,7 +54,7 @@ from typing import Any
 
 import numpy as np
 
-__all__ = ["spread_block", "SPREAD_MAX", "SPREAD_PARTS", "SPREAD_MIN_SCALE"]
+__all__ = ["spread_block", "spreads", "SPREAD_MAX", "SPREAD_PARTS", "SPREAD_MIN_SCALE"]
 
 #: the target box holds at most this many times the courtyard sum (our choice: long tracks and a large
 #: routing grid cost more than the room gains beyond it; bench/README.md "Routing").
@@ -72,9 +72,9 @@ def spread_block(packer: Any, run: Any, fixed: dict, courtyard_mm2: float) -> in
     run (``run.slots`` is updated in place); ``fixed`` its fixed parts;
     ``courtyard_mm2`` the courtyard sum, mm².
     """
-    movers = [i for i, s in run.slots.items() if s[0] == "top" and i not in fixed and run.top_level.get(i) is not None]
-    if len(movers) < 2 or len(movers) > SPREAD_PARTS:
+    if not spreads(run, fixed):
         return 0
+    movers = _movers(run, fixed)
     target = _targets(packer, run, movers, courtyard_mm2)
     if target is None:
         return 0
@@ -92,6 +92,20 @@ def spread_block(packer: Any, run: Any, fixed: dict, courtyard_mm2: float) -> in
         moved += new != slot
         run.slots[i] = new
     return moved
+
+
+def spreads(run: Any, fixed: dict) -> bool:
+    """Whether :func:`spread_block` will consider moving ``run``'s parts: 2 to :data:`SPREAD_PARTS` movers.
+
+    A caller that prepares the parts for the spreading (the near pass) asks first, so a
+    large board, left as packed, is not prepared for nothing. Cost: one pass over the slots.
+    """
+    return 2 <= len(_movers(run, fixed)) <= SPREAD_PARTS
+
+
+def _movers(run: Any, fixed: dict) -> list:
+    """The parts the spreading may move: top side, not fixed, on a placement level."""
+    return [i for i, s in run.slots.items() if s[0] == "top" and i not in fixed and run.top_level.get(i) is not None]
 
 
 def _targets(packer, run, movers: list, courtyard_mm2: float) -> dict | None:

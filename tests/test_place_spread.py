@@ -15,6 +15,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from shapely.geometry import box
 
+import pipeline.place_rules as place_rules
 import pipeline.place_spread as place_spread
 from pipeline.model import BoardOptions, HeightZone, PlaceItem, Region
 from pipeline.place import place_and_fit
@@ -97,22 +98,24 @@ def test_full_board_is_left_as_packed():
 
 
 def test_cost_guard_counts_movers(monkeypatch):
-    """More movable parts than SPREAD_PARTS: spread_block returns 0 moved (cost guard by count)."""
-    calls = []
-    real = place_spread.spread_block
+    """More movable parts than SPREAD_PARTS: no spreading and one near pass, not two (cost guard by count;
+    at 4,000 parts the near pass before a spreading that does not happen was most of the run)."""
+    calls, near = [], []
+    real, real_near = place_spread.spread_block, place_rules.near_pass
 
     def counting(*a):
         calls.append(real(*a))
         return calls[-1]
 
     monkeypatch.setattr(place_spread, "spread_block", counting)
+    monkeypatch.setattr(place_rules, "near_pass", lambda *a: near.append(1) or real_near(*a))
     items = _chain(20)
     region = Region(box(0, 0, 30, 15), (HeightZone(box(0, 0, 30, 15), 4.0),), 0.8)
     place_and_fit(items, region, BoardOptions())
-    assert calls and calls[-1] > 0
+    assert calls and calls[-1] > 0 and len(near) == 2
     monkeypatch.setattr(place_spread, "SPREAD_PARTS", 19)
     place_and_fit(items, region, BoardOptions())
-    assert calls[-1] == 0
+    assert len(calls) == 1 and len(near) == 3
 
 
 @settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
