@@ -71,6 +71,15 @@ def test_manifest_bytes_are_deterministic_and_name_sorted():
         "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
 
 
+@pytest.fixture
+def ctrl_c():
+    """Ctrl-C's own handler during the test, whatever the test run inherited (a shell starts a
+    background job with SIGINT ignored, and then no KeyboardInterrupt could come)."""
+    previous = signal.signal(signal.SIGINT, signal.default_int_handler)
+    yield
+    signal.signal(signal.SIGINT, previous)
+
+
 def _raise_interrupt():
     raise KeyboardInterrupt
 
@@ -81,7 +90,8 @@ def _send_sigint():
 
 @pytest.mark.parametrize("interrupt", [_raise_interrupt, _send_sigint])
 @pytest.mark.parametrize("at", range(4))
-def test_defect_15_interrupt_while_writing_keeps_old_set_and_leaves_nothing(tmp_path, monkeypatch, interrupt, at):
+def test_defect_15_interrupt_while_writing_keeps_old_set_and_leaves_nothing(tmp_path, monkeypatch, ctrl_c,
+                                                                           interrupt, at):
     out = tmp_path / "out"
     write_all(out, OLD)
     calls = {"n": 0}
@@ -100,7 +110,7 @@ def test_defect_15_interrupt_while_writing_keeps_old_set_and_leaves_nothing(tmp_
     assert _beside(out) == []
 
 
-def test_defect_15_sigint_during_the_swap_is_held_until_the_new_set_is_in(tmp_path, monkeypatch):
+def test_defect_15_sigint_during_the_swap_is_held_until_the_new_set_is_in(tmp_path, monkeypatch, ctrl_c):
     out = tmp_path / "out"
     write_all(out, OLD)
     real = atomic._exchange
