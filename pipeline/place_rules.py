@@ -80,7 +80,7 @@ import numpy as np
 import shapely
 from shapely.geometry.base import BaseGeometry
 
-from .library.lands import board_xy, pads_on_board, turned_pads
+from .library.lands import board_xy, turned_pads
 from .model import Finding, Fixed, NearRule, PlaceItem, Region
 from .order import natural_key
 from .values import format_mm as _fmt
@@ -303,12 +303,29 @@ def _best_edge_spot(spots, taken: list, placed: list, has_zone: bool):
 # --------------------------------------------------------------------------
 # the near rule: a post-pass on the packer's grid
 # --------------------------------------------------------------------------
+def _offsets(package, rot: int, side: str, level: str) -> tuple:
+    """``(pad number, dx, dy)`` per pad of ``package`` turned ``rot`` on ``side``
+    (:func:`turned_pads`), kept per (package, turn, side, level): a near pass asks for the same few
+    packages thousands of times. The package is kept beside the offsets to check the id."""
+    key = (id(package), rot, side, level)
+    offs = _OFFSETS.get(key)
+    if offs is None or offs[0] is not package:
+        offs = _OFFSETS[key] = (package, tuple((p.number, dx, dy) for p, dx, dy, _t in turned_pads(
+            package, rot, side, level)))
+    return offs[1]
+
+
+#: turned pad offsets per (package id, turn, side, level); the package is kept to check the id
+_OFFSETS: dict[tuple, tuple] = {}
+
+
 def _points(rule: NearRule, own: bool, x: float, y: float, rot: int, side: str, pins=()) -> np.ndarray:
+    """Board positions (mm, to 1 nm) of the own or the target package's pads (only ``pins`` when
+    given) for a part at (``x``, ``y``): :func:`pads_on_board`'s positions, without building pads."""
     pkg = rule.own_package if own else rule.target_package
-    pads = pads_on_board(pkg, x, y, rot, side, rule.level)
-    if pins:
-        pads = [p for p in pads if p.number in pins]
-    return np.array([(p.x_mm, p.y_mm) for p in pads], dtype=float).reshape(-1, 2)
+    pts = [board_xy(x, y, dx, dy) for number, dx, dy in _offsets(pkg, rot, side, rule.level)
+           if not pins or number in pins]
+    return np.array(pts, dtype=float).reshape(-1, 2)
 
 
 def near_distance(rule: NearRule, own_at: tuple, target_at: tuple) -> float:
@@ -366,6 +383,7 @@ class _TopBoard:
         self.top = np.zeros(n, dtype=bool)
         self.wc, self.hc = np.asarray(packer.wc), np.asarray(packer.hc)
         self.index = {it.ref: k for k, it in enumerate(packer.items)}
+        self.goals: dict[tuple, tuple] = {}
         for j, slot in run.slots.items():
             self._put(j, slot, 1)
         for side, rect in fixed.values():
@@ -378,6 +396,15 @@ class _TopBoard:
         if slot[0] == "top":
             r0, r1, c0, c1 = cells_of(self.g, self.packer.rect(j, slot))
             self.occ[r0:r1, c0:c1] += add
+
+    def goal(self, rule: NearRule, at: tuple) -> np.ndarray:
+        """:func:`_points` of ``rule``'s target pins with the target at ``at`` (x, y, rotation, side),
+        kept per (rule, place): many parts share a target, and the swap search asks once per candidate."""
+        key = (id(rule), at)
+        kept = self.goals.get(key)
+        if kept is None or kept[0] is not rule:
+            kept = self.goals[key] = (rule, _points(rule, False, *at, pins=rule.pins))
+        return kept[1]
 
     def move(self, j: int, slot) -> None:
         """Put item ``j`` in ``slot`` (``run.slots`` too)."""
@@ -417,7 +444,7 @@ def near_pass(packer: Any, run: Any, fixed: dict) -> None:
         target = _where(packer, run, fixed, index[rule.target])
         if target is None or near_distance(rule, _where(packer, run, fixed, i), target) <= rule.within_mm + TOL:
             continue
-        goal = _points(rule, False, *target, pins=rule.pins)
+        goal = board.goal(rule, target)
         swap = _nearest_swap(board, fixed, i, goal)
         limit = math.inf if swap is None else max(rule.within_mm + TOL, swap[0])  # a free slot farther loses
         free = _nearest_slot(board, i, goal, limit)
@@ -431,22 +458,11 @@ def near_pass(packer: Any, run: Any, fixed: dict) -> None:
 
 
 def _slot_distance(packer, i: int, slot, goal: np.ndarray) -> float:
-    """Nearest distance from item ``i``'s pads in ``slot`` to ``goal``: :func:`_points` with the
-    turned pad offsets of the package kept per turn (the same :func:`board_xy` positions)."""
+    """Nearest distance from item ``i``'s pads in ``slot`` to ``goal``: :func:`_points` at the
+    slot's centre (the same :func:`board_xy` positions)."""
     x1, y1, x2, y2 = packer.rect(i, slot)
-    x, y = (x1 + x2) / 2, (y1 + y2) / 2
-    rule = packer.items[i].near
-    key = (id(rule.own_package), slot[1], slot[0], rule.level)
-    offs = _OFFSETS.get(key)
-    if offs is None or offs[0] is not rule.own_package:
-        offs = _OFFSETS[key] = (rule.own_package, [(dx, dy) for _p, dx, dy, _t in turned_pads(
-            rule.own_package, 90 if slot[1] else 0, slot[0], rule.level)])
-    own = np.array([board_xy(x, y, dx, dy) for dx, dy in offs[1]], dtype=float).reshape(-1, 2)
+    own = _points(packer.items[i].near, True, (x1 + x2) / 2, (y1 + y2) / 2, 90 if slot[1] else 0, slot[0])
     return float(np.min(np.hypot(own[:, None, 0] - goal[None, :, 0], own[:, None, 1] - goal[None, :, 1])))
-
-
-#: turned pad offsets per (package id, turn, side, level); the package is kept to check the id
-_OFFSETS: dict[tuple, tuple] = {}
 
 
 def _stands(packer, run, k: int, slot) -> bool:
@@ -503,7 +519,7 @@ def _nearest_swap(board: _TopBoard, fixed: dict, i: int, goal: np.ndarray):
             there = _where(packer, run, fixed, index[other.target])
             if there is None or index[other.target] == i:
                 continue
-            theirs = _points(other, False, *there, pins=other.pins)
+            theirs = board.goal(other, there)
             if not len(theirs) or _slot_distance(packer, j, run.slots[i], theirs) > other.within_mm + TOL:
                 continue
         best = (d, j)

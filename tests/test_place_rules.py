@@ -321,3 +321,52 @@ def test_near_pass_windows_give_the_whole_board_answer_and_scan_less(monkeypatch
     monkeypatch.setattr(pr, "_swap_bounds",
                         lambda board, i, goal: (lambda c, low: (c, low - math.inf))(*real_bounds(board, i, goal)))
     assert _placed(place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE))) == fast
+
+
+def _decoupled(ics: int, caps: int, resistors: int) -> str:
+    """``ics`` dual op-amps sharing one supply, ``caps`` 0603 capacitors across it per op-amp
+    (each gets a decoupling near rule) and ``resistors`` 0603 resistors of the caps' size."""
+    out = ['[design]\nname = "t"\n']
+    vcc, gnd = [f"U{u}.8" for u in range(1, ics + 1)], [f"U{u}.4" for u in range(1, ics + 1)]
+    out += [f'[parts.U{u}]\nkind = "opamp-dual"\npackage = "SOIC-8"\n' for u in range(1, ics + 1)]
+    for c in range(1, ics * caps + 1):
+        out.append(f'[parts.C{c}]\nkind = "capacitor"\nvalue = "100n"\npackage = "0603"\n')
+        vcc.append(f"C{c}.1")
+        gnd.append(f"C{c}.2")
+    out += [f'[parts.R{k}]\nkind = "resistor"\nvalue = "10k"\npackage = "0603"\n' for k in range(1, resistors + 1)]
+    nets = {"VCC": vcc, "GND": gnd, "A": [f"R{k}.1" for k in range(1, resistors + 1)] + ["U1.3"],
+            "B": [f"R{k}.2" for k in range(1, resistors + 1)] + ["U1.1", "U1.2"]}
+    out.append("[nets]\n" + "".join(f"{n} = {v!r}\n".replace("'", '"') for n, v in nets.items()))
+    return "\n".join(out)
+
+
+def test_near_pass_finds_each_targets_pins_once_per_place(monkeypatch):
+    """A cost guard (calls counted, not seconds): the swap search asks for the target pins of every
+    candidate with a near rule of its own; they are worked out once per (rule, target place), not
+    once per candidate and mover (252 times against 12 places here before, 16,000-part profile of
+    issue 11). Only :func:`near_distance`'s own checks and each new near pass may ask again."""
+    import pipeline.place_rules as pr
+
+    design, _ = read_design_text(_decoupled(4, 3, 16), LIB)
+    items = items_from_design(design, LIB, "nominal")
+    region = Region(box(0, 0, 26, 17), (HeightZone(box(0, 0, 26, 17), 5.0),), 0.8)
+    asked: list[tuple] = []
+    checks: list[int] = []
+    passes: list[int] = []
+    real_points, real_distance, real_pass = pr._points, pr.near_distance, pr.near_pass
+
+    def points(rule, own, *at, **pins):
+        if not own:
+            asked.append((id(rule), at, tuple(pins.items())))
+        return real_points(rule, own, *at, **pins)
+
+    def distance(*args):
+        checks.append(1)
+        return real_distance(*args)
+
+    monkeypatch.setattr(pr, "_points", points)
+    monkeypatch.setattr(pr, "near_distance", distance)
+    monkeypatch.setattr(pr, "near_pass", lambda *a: (passes.append(1), real_pass(*a))[1])
+    fit = place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE))
+    assert fit.fits and checks and passes
+    assert len(asked) - len(set(asked)) <= len(checks) + (len(passes) - 1) * len(set(asked))
