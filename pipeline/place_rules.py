@@ -543,7 +543,7 @@ def _scan(ok: np.ndarray, g, goal: np.ndarray, pads: np.ndarray, size: tuple, sp
     """(distance, row, column) of the free origin in ``span`` (rows, columns) nearest the goal;
     ``ok``'s first cell is the grid's row and column ``at``."""
     r0, r1, c0, c1 = span
-    rows, cols = np.nonzero(ok[r0:r1, c0:c1])
+    rows, cols = _true_cells(ok[r0:r1, c0:c1])
     if not len(rows):
         return None
     rows, cols = rows + r0 + at[0], cols + c0 + at[1]
@@ -555,6 +555,15 @@ def _scan(ok: np.ndarray, g, goal: np.ndarray, pads: np.ndarray, size: tuple, sp
             d = np.minimum(d, np.hypot(cx + px - tx, cy + py - ty))
     k = int(np.lexsort((cols, rows, np.round(d, 6)))[0])
     return round(float(d[k]), 6), int(rows[k]), int(cols[k])
+
+
+def _true_cells(ok: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """``np.nonzero(ok)`` for a 2-D mask (the same arrays, row-major order), fast when few rows hold
+    a True cell: the rows are found with one ``any`` per row and only those are searched cell by
+    cell (a whole-board nonzero was a third of the near pass at 16,000 parts, issue 11)."""
+    rows = np.flatnonzero(ok.any(axis=1))
+    r, c = np.nonzero(ok[rows])
+    return rows[r], c
 
 
 def _scan_window(board: _TopBoard, i: int, h: int, w: int, goal, pads, size, span) -> tuple | None:
