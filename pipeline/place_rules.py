@@ -208,12 +208,14 @@ def pin_edge_parts(items: Sequence[PlaceItem], fixed: dict, area: BaseGeometry, 
     notes: list[Finding] = []
     placed: list[tuple[float, float]] = []
     spots: dict[tuple, tuple | None] = {}  # candidate spots by courtyard size and height (computed once)
+    struck: dict[tuple, list] = {}  # per key: [spots no taken courtyard covers, taken courtyards applied]
     for i in todo:
         it = items[i]
         key = (it.length_mm, it.width_mm, it.height_mm)
         if key not in spots:
             spots[key] = _spots(it, _allowed(area, region, it.height_mm), _outer_edge(area), zone)
-        best = _best_edge_spot(spots[key], taken, placed, zone is not None)
+            struck[key] = [None if spots[key] is None else np.ones(len(spots[key][0]), dtype=bool), 0]
+        best = _best_edge_spot(spots[key], taken, placed, zone is not None, struck[key])
         if best is None:
             notes.append(Finding("warning", "place.rule-unmet", (it.ref,),
                                  f"{it.ref} should sit at the board edge {_by(zone)}, but its courtyard fits "
@@ -274,17 +276,21 @@ def _spots(it: PlaceItem, allowed: BaseGeometry, edge: BaseGeometry, zone) -> tu
     return x, y, rot, boxes, tier, de, dz, shapely.STRtree(boxes)
 
 
-def _best_edge_spot(spots, taken: list, placed: list, has_zone: bool):
-    """(tier, x, y, rotation, distance) of the best free candidate, or None (module notes: tiers)."""
+def _best_edge_spot(spots, taken: list, placed: list, has_zone: bool, struck: list):
+    """(tier, x, y, rotation, distance) of the best free candidate, or None (module notes: tiers).
+
+    ``struck`` is ``[free, n]``: the spots none of ``taken[:n]`` covers, kept between calls, so each
+    taken courtyard is looked up in the spots' tree once, not once per later part (updated here)."""
     if spots is None:
         return None
     x, y, rot, boxes, tier, de, dz, tree = spots
-    free = np.ones(len(x), dtype=bool)
-    if taken:
-        r = np.array(taken, dtype=float).reshape(-1, 4) + np.array([1e-7, 1e-7, -1e-7, -1e-7])  # touching is legal
+    free, done = struck
+    if len(taken) > done:
+        r = np.array(taken[done:], dtype=float).reshape(-1, 4) + np.array([1e-7, 1e-7, -1e-7, -1e-7])  # touching is legal
         shrunk = shapely.box(*r.T)
         _, hit = tree.query(shrunk, predicate="intersects")
         free[hit] = False
+        struck[1] = len(taken)
     if not free.any():
         return None
     x, y, rot, tier, de, dz = x[free], y[free], rot[free], tier[free], de[free], dz[free]

@@ -411,3 +411,27 @@ def test_near_pass_reads_only_rows_holding_a_free_origin(monkeypatch):
     monkeypatch.setattr(pr.np, "nonzero", nonzero)
     assert place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE)).fits
     assert read and all(size <= rows_with_one for size, rows_with_one in read)
+
+
+def test_edge_parts_look_up_each_taken_courtyard_once(monkeypatch):
+    """A cost guard (lookups counted, not seconds): pre-placing the edge parts looks each taken
+    courtyard up in the candidate spots' tree once, not once per later edge part (quadratic in
+    the edge parts before: 671 wire pads of the 16,000-part run, issue 11)."""
+    import sys
+
+    design, _ = read_design_text(_design(12, 2, None), LIB)
+    items = items_from_design(design, LIB, "nominal")
+    region = Region(box(0, 0, 40, 30), (HeightZone(box(0, 0, 40, 30), 5.0),), 0.8)
+    looked: list[int] = []
+    real = shapely.STRtree.query
+
+    def query(self, geoms, *args, **kw):
+        if sys._getframe(1).f_globals["__name__"] == "pipeline.place_rules":  # the edge pre-placement's own
+            looked.append(len(geoms) if hasattr(geoms, "__len__") else 1)
+        return real(self, geoms, *args, **kw)
+
+    monkeypatch.setattr(shapely.STRtree, "query", query)
+    fit = place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE))
+    assert fit.fits
+    edge_parts = 12  # P1..P12, one courtyard size: one tree; each pad's courtyard is taken once
+    assert 0 < sum(looked) <= edge_parts
