@@ -286,7 +286,8 @@ def _best_edge_spot(spots, taken: list, placed: list, has_zone: bool, struck: li
     x, y, rot, boxes, tier, de, dz, tree = spots
     free, done = struck
     if len(taken) > done:
-        r = np.array(taken[done:], dtype=float).reshape(-1, 4) + np.array([1e-7, 1e-7, -1e-7, -1e-7])  # touching is legal
+        r = np.array(taken[done:], dtype=float).reshape(-1, 4) + np.array([1e-7, 1e-7, -1e-7, -1e-7])
+        # (touching is legal)
         shrunk = shapely.box(*r.T)
         _, hit = tree.query(shrunk, predicate="intersects")
         free[hit] = False
@@ -515,12 +516,7 @@ def _nearest_swap(board: _TopBoard, fixed: dict, i: int, goal: np.ndarray):
     for j, lb in zip(cand[order].tolist(), low[order].tolist()):
         if best is not None and lb - 1e-6 > best[0]:
             break
-        if not (_stands(packer, run, i, run.slots[j]) and _stands(packer, run, j, run.slots[i])):
-            continue
-        d = round(_slot_distance(packer, i, run.slots[j], goal), 6)
-        if best is not None and (d, j) >= best:
-            continue
-        other = packer.items[j].near
+        other = packer.items[j].near  # the test that turns most candidates down comes first
         if other is not None:
             there = _where(packer, run, fixed, index[other.target])
             if there is None or index[other.target] == i:
@@ -528,7 +524,11 @@ def _nearest_swap(board: _TopBoard, fixed: dict, i: int, goal: np.ndarray):
             theirs = board.goal(other, there)
             if not len(theirs) or _slot_distance(packer, j, run.slots[i], theirs) > other.within_mm + TOL:
                 continue
-        best = (d, j)
+        if not (_stands(packer, run, i, run.slots[j]) and _stands(packer, run, j, run.slots[i])):
+            continue
+        d = round(_slot_distance(packer, i, run.slots[j], goal), 6)
+        if best is None or (d, j) < best:
+            best = (d, j)
     if best is None or best[0] >= round(_slot_distance(packer, i, run.slots[i], goal), 6):
         return None
     return best
