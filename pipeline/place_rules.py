@@ -294,7 +294,9 @@ def _best_edge_spot(spots, taken: list, placed: list, has_zone: bool, struck: li
         struck[1] = len(taken)
     if not free.any():
         return None
-    x, y, rot, tier, de, dz = x[free], y[free], rot[free], tier[free], de[free], dz[free]
+    idx = np.flatnonzero(free)
+    idx = idx[tier[idx] == tier[idx].min()]  # the first sort key first: the rest only for its best tier
+    x, y, rot, tier, de, dz = x[idx], y[idx], rot[idx], tier[idx], de[idx], dz[idx]
     if has_zone:
         score, far = np.where(tier == 0, de + 1e-3 * dz, dz), dz
     else:
@@ -303,8 +305,21 @@ def _best_edge_spot(spots, taken: list, placed: list, has_zone: bool, struck: li
         if placed:
             cx, cy = np.mean(placed, axis=0)
             score = np.where(tier == 1, np.round(np.hypot(x - cx, y - cy), 6), de)
-    k = int(np.lexsort((rot, np.round(x, 6), np.round(y, 6), score, tier))[0])
+    k = _lex_first(score, lambda k: np.round(y[k], 6), lambda k: np.round(x[k], 6), rot)
     return int(tier[k]), float(x[k]), float(y[k]), int(rot[k]), float(far[k])
+
+
+def _lex_first(*keys) -> int:
+    """``np.lexsort(keys[::-1])[0]``: the index with the smallest first key, ties broken by the
+    next keys, then by index (lexsort is stable), found by narrowing to each key's minimum in turn
+    (linear, not a sort of every candidate per part). A key is an array or a function of indices."""
+    idx = np.arange(len(keys[0]))
+    for key in keys:
+        v = key(idx) if callable(key) else key[idx]
+        idx = idx[v == v.min()]
+        if len(idx) == 1:
+            break
+    return int(idx[0])
 
 
 # --------------------------------------------------------------------------
