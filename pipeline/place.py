@@ -549,7 +549,7 @@ def _check_inputs(items: Sequence[PlaceItem], board: BoardOptions) -> None:
 
 def place_and_fit(items: Sequence[PlaceItem], region: Region, board: BoardOptions, *,
                   user_board: BaseGeometry | None = None, progress: Progress | None = None,
-                  improve: bool = True) -> FitResult:
+                  improve: bool = True, spread: bool = True) -> FitResult:
     """Place every item's courtyard on a board inside ``region``, or say what blocks it.
 
     Model, method and the cost of each step: the module notes.
@@ -570,6 +570,10 @@ def place_and_fit(items: Sequence[PlaceItem], region: Region, board: BoardOption
         Run the wirelength improvement and the spreading (steps 3 and 4).
         Callers that need only the verdict (the size sweep, the smallest-board
         screen) pass False: fit, unplaced parts and board do not depend on it.
+    spread : bool
+        With ``improve``, spread the packed block over the room left (step 4).
+        False keeps the packing as packed (the density benchmark measures the
+        packing itself; the spreading only uses room a fit leaves).
 
     Returns
     -------
@@ -602,7 +606,8 @@ def place_and_fit(items: Sequence[PlaceItem], region: Region, board: BoardOption
             f"Nothing is left to place parts on: the board area is {_area(where.area)} mm² and keeping "
             f"{_fmt(board.edge_clearance_mm)} mm from its edges leaves no room."])
     else:
-        out = _pack_and_check(items, area, region, board, estimate, nets, improve, progress) if items else _Outcome()
+        out = _pack_and_check(items, area, region, board, estimate, nets, improve, progress,
+                              spread) if items else _Outcome()
     if progress is not None:
         progress("placement done", 1.0)
     return _fit_result(items, region, estimate, outline, nets, out, blocked + out.blocked, warnings + out.warnings)
@@ -706,7 +711,7 @@ def _best_run(packer: _Packer, tries: list, sides: int, progress: Progress | Non
 
 
 def _pack_and_check(items, area, region: Region, board: BoardOptions, estimate, nets, improve: bool,
-                    progress: Progress | None) -> _Outcome:
+                    progress: Progress | None, spread: bool = True) -> _Outcome:
     """Steps 1 to 5 of the module notes: grid, packing, improvement, spreading, self-check."""
     refs = [it.ref for it in items]
     out = _Outcome()
@@ -719,7 +724,7 @@ def _pack_and_check(items, area, region: Region, board: BoardOptions, estimate, 
     run = _best_run(packer, tries, board.sides, progress)
     if improve:
         _improve(packer, run, nets, progress)
-        if place_spread.spreads(run, fixed):  # a large board stays packed: no near pass for nothing
+        if spread and place_spread.spreads(run, fixed):  # a large board stays packed: no near pass for nothing
             place_rules.near_pass(packer, run, fixed)  # so the spreading keeps each near part by its target
             place_spread.spread_block(packer, run, fixed, estimate.courtyard_area_mm2)  # room for routing
     place_rules.near_pass(packer, run, fixed)  # after the swaps, so they cannot undo it

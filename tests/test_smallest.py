@@ -115,3 +115,24 @@ def test_the_search_is_deterministic():
 
 def test_nothing_found_when_nothing_works():
     assert smallest.search(_Oracle(box(0, 0, 10, 10), 50.0, lambda b: False)) is None
+
+
+class _Routes(_Oracle):
+    """Places from ``floor`` up; routes only from ``need`` mm2 up (a closed-form stand-in for the router)."""
+
+    def __init__(self, geom, floor, need):
+        super().__init__(geom, floor, lambda b: True)
+        self.need = need
+
+    def routes(self, shape, area):
+        return super().routes(shape, area) if area >= self.need else None
+
+
+@pytest.mark.parametrize("need", [130.0, 151.0, 177.0])
+def test_phase_4_brings_the_area_within_tight_of_the_least_that_routes(need):
+    # a 20 x 20 square, courtyards 100 mm2: every board from `need` mm2 up routes, none below (closed form),
+    # so the answer lies in [need, need x (1 + TIGHT)]
+    s = _Routes(box(0, 0, 20, 20), 100.0, need)
+    shape, area, (_, _, board, mode), failed = smallest.search(s)
+    assert need * (1 - 1e-9) <= board.area <= need * (1 + smallest.TIGHT)
+    assert failed < need and failed * (1 + smallest.TIGHT) >= area * (1 - 1e-9)

@@ -37,12 +37,15 @@ and so are all after it (branch and bound); only the ``SHAPES_ROUTED``
 shapes with the least bounds are routed at all (a screen that trades
 completeness for time: routing is the expensive step). Phase 3 refines the best
 shape's angle by ``REFINE_DEG`` either side and its aspect by
-``REFINE_ASPECT``, as in phase 2. Deterministic (shapes in a fixed order,
+``REFINE_ASPECT``, as in phase 2. Phase 4 bisects the best shape's area
+further, between its last failure and its best, until the two are within
+``TIGHT`` (at most ``TIGHT_STEPS`` more attempts). Deterministic (shapes in a fixed order,
 ties keep the first); the router's own time budget is the one outside
 influence.
 
 Cost: ``shapes x PLACE_STEPS`` placements (about 0.1 s each for 60 parts)
-plus, for the routed shapes, ``ROUTE_STEPS + 1`` route attempts each, an
+plus, for the routed shapes, ``ROUTE_STEPS + 1`` route attempts each (and
+``TIGHT_STEPS`` at most for the best), an
 attempt being up to ``len(SPREAD_STEPS)`` routings.
 """
 
@@ -57,7 +60,7 @@ from shapely.geometry import Polygon
 from .shapes import Shape, board_at
 
 __all__ = ["smallest_board", "search", "Smallest", "shapes_to_try", "ANGLE_STEP_DEG", "ASPECTS", "PLACE_STEPS",
-           "ROUTE_STEPS", "P90_MAX", "BEAT", "SHAPES_ROUTED"]
+           "ROUTE_STEPS", "P90_MAX", "BEAT", "SHAPES_ROUTED", "TIGHT", "TIGHT_STEPS"]
 
 #: orientation step over half a turn, degrees.
 ANGLE_STEP_DEG = 15.0
@@ -78,6 +81,11 @@ SHAPES_ROUTED = 10
 #: phase 3: angle steps either side of the best, degrees, and aspect factors.
 REFINE_DEG = (7.5, 3.75)
 REFINE_ASPECT = (1.25, 1.0 / 1.25)
+#: phase 4: the best shape is bisected further until its routed area is within this share of its last
+#: failure (our choice; four halvings over the first shape's span leave about 3 %).
+TIGHT = 0.01
+#: phase 4: at most this many more route attempts.
+TIGHT_STEPS = 3
 
 Progress = Callable[[str, float], None]
 
@@ -208,10 +216,10 @@ class _Search:
                 hi = mid
         return hi
 
-    def bisect_route(self, shape: Shape, lo: float, hi: float, found):
+    def bisect_route(self, shape: Shape, lo: float, hi: float, found, steps: int = ROUTE_STEPS):
         """Bisect log(area) in ``(lo, hi]`` (``found`` routes at ``hi``): the least routed area and the last failure."""
         failed = 0.0
-        for _ in range(ROUTE_STEPS):
+        for _ in range(steps):
             mid = math.sqrt(lo * hi)
             got = self.routes(shape, mid)
             if got is None:
@@ -269,7 +277,21 @@ def search(s: "_Search"):
         b = s.place_bound(shape)
         if b is not None:
             fresh.append((b, shape))
-    return _route_phase(s, sorted(fresh, key=lambda t: t[0]), best, 0.9, 0.1)
+    return _tighten(s, _route_phase(s, sorted(fresh, key=lambda t: t[0]), best, 0.9, 0.1))
+
+
+def _tighten(s: "_Search", best):
+    """Phase 4: bisect the best shape between its last failure (else the courtyard sum) and its area
+    until they are within ``TIGHT`` (at most ``TIGHT_STEPS`` more route attempts)."""
+    shape, area, found, failed = best
+    lo = failed if failed > 0 else s.floor
+    steps = 0
+    while steps < TIGHT_STEPS and lo > 0 and area / lo > (1.0 + TIGHT) ** (2 ** steps):
+        steps += 1
+    if steps == 0:
+        return best
+    hi, found, last = s.bisect_route(shape, lo, area, found, steps)
+    return shape, hi, found, last or failed
 
 
 def _route_phase(s: _Search, bounds, best, start: float, span: float):
