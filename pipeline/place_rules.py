@@ -72,6 +72,7 @@ figure; a soldered wire leaves over it).
 
 from __future__ import annotations
 
+import bisect
 import dataclasses
 import math
 from typing import Any, Sequence
@@ -139,14 +140,26 @@ def attach_rules(items: Sequence[PlaceItem], design: Any, library: Any, density:
 
 
 def _decoupling_targets(design: Any, pairs: dict[str, tuple[str, ...]], fitted: set[str]) -> dict[str, str]:
-    """cap ref -> the one IC it decouples: the paired IC nearest in part order (ties: the earlier)."""
+    """cap ref -> the one IC it decouples: the paired IC nearest in part order (ties: the earlier).
+
+    Caps on shared supply nets share one list of ICs: it is sorted once per distinct list and each
+    cap finds its nearest by bisection (not a scan of every IC per cap, issue 11)."""
     index = {p.ref: n for n, p in enumerate(design.parts)}
     ics_of: dict[str, list[str]] = {}
     for ic, caps in pairs.items():
         for c in caps:
             if ic in fitted and c in fitted:
                 ics_of.setdefault(c, []).append(ic)
-    return {c: min(ics, key=lambda ic: (abs(index[ic] - index[c]), index[ic])) for c, ics in ics_of.items()}
+    ordered: dict[tuple, list[int]] = {}
+    parts = design.parts
+    out = {}
+    for c, ics in ics_of.items():
+        at = ordered.get(tuple(ics))
+        if at is None:
+            at = ordered[tuple(ics)] = sorted(index[ic] for ic in ics)
+        k = bisect.bisect_left(at, index[c])  # the nearest is one of the two either side
+        out[c] = parts[min(at[max(k - 1, 0):k + 1], key=lambda n: (abs(n - index[c]), n))].ref
+    return out
 
 
 # --------------------------------------------------------------------------

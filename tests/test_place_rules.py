@@ -508,3 +508,48 @@ def test_edge_parts_sort_no_candidate_list(monkeypatch):
     monkeypatch.setattr(pr, "_lex_first", lambda *keys: (chosen.append(1), real_first(*keys))[1])
     assert place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE)).fits
     assert len(chosen) == 12 and "_best_edge_spot" not in sorts
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(st.booleans(), min_size=2, max_size=14), st.data())
+def test_decoupling_target_is_the_nearest_ic_in_part_order(is_ic, data):
+    """Each cap's IC is the paired one nearest in part order, ties to the earlier: checked against
+    the plain minimum over every pair (the rule as written, not the bisection)."""
+    from types import SimpleNamespace
+
+    from pipeline.place_rules import _decoupling_targets
+
+    refs = [f"{'U' if ic else 'C'}{n}" for n, ic in enumerate(is_ic)]
+    ics, caps = [r for r in refs if r[0] == "U"], [r for r in refs if r[0] == "C"]
+    pairs = {ic: tuple(c for c in caps if data.draw(st.booleans())) for ic in ics}
+    design = SimpleNamespace(parts=[SimpleNamespace(ref=r) for r in refs])
+    pos = {r: n for n, r in enumerate(refs)}
+    want = {c: min((ic for ic in ics if c in pairs[ic]), key=lambda ic: (abs(pos[ic] - pos[c]), pos[ic]))
+            for c in caps if any(c in pairs[ic] for ic in ics)}
+    assert _decoupling_targets(design, pairs, set(refs)) == want
+
+
+def test_decoupling_targets_sort_each_list_of_ics_once(monkeypatch):
+    """A cost guard (calls counted, not seconds): caps sharing a supply share one sorted list of
+    ICs; each cap then looks at two of them, not at every IC (929,296 pairs at 16,000 parts)."""
+    import builtins
+    from types import SimpleNamespace
+
+    from pipeline.place_rules import _decoupling_targets
+
+    refs = [f"U{n}" for n in range(30)] + [f"C{n}" for n in range(30)]
+    pairs = {f"U{n}": tuple(f"C{k}" for k in range(30)) for n in range(30)}
+    design = SimpleNamespace(parts=[SimpleNamespace(ref=r) for r in refs])
+    looked: list[int] = []
+    real_min = builtins.min
+
+    def counting_min(items, *a, **k):
+        items = list(items)
+        looked.append(len(items))
+        return real_min(items, *a, **k)
+
+    monkeypatch.setattr(builtins, "min", counting_min)
+    out = _decoupling_targets(design, pairs, set(refs))
+    monkeypatch.undo()
+    assert set(out.values()) == {"U29"} and len(out) == 30
+    assert sum(looked) <= 2 * 30
