@@ -42,6 +42,19 @@ the report's script).
 
 Bottom-side courtyards are drawn as seen from the top, through the board
 (not mirrored), dashed, under the top-side ones.
+
+Example
+-------
+>>> from shapely.geometry import box
+>>> from pipeline.model import AreaEstimate, Cavity, FitResult, Placement, Region
+>>> cav = Cavity("bay.dxf", box(0, 0, 40, 20), (), (), None, 5.0, "mm", 1.0)
+>>> reg = Region(box(0.3, 0.3, 39.7, 19.7), (), 0.8)
+>>> est = AreaEstimate(4.0, 5.0, 6.0, 8.0, "rule")
+>>> pl = Placement("R1", 10.0, 10.0, 0, "top", box(9, 9.5, 11, 10.5))
+>>> fit = FitResult(True, reg.area_mm2, 2.0, est, (pl,), box(1, 1, 39, 19), ())
+>>> svg = fit_svg(cav, reg, fit, title="A <demo>")
+>>> svg.startswith(b"<?xml") and b"A &lt;demo&gt;" in svg
+True
 """
 
 from __future__ import annotations
@@ -152,54 +165,73 @@ def fit_svg(cavity: Cavity, region: Region, fit: FitResult, *, title: str = "",
         UTF-8 SVG document. One SVG user unit = 1 mm; drawing ``(x, y)`` is
         SVG ``(x, -y)``.
 
-    Examples
-    --------
-    >>> from shapely.geometry import box
-    >>> from pipeline.model import AreaEstimate, Cavity, FitResult, Placement, Region
-    >>> cav = Cavity("bay.dxf", box(0, 0, 40, 20), (), (), None, 5.0, "mm", 1.0)
-    >>> reg = Region(box(0.3, 0.3, 39.7, 19.7), (), 0.8)
-    >>> est = AreaEstimate(4.0, 5.0, 6.0, 8.0, "rule")
-    >>> pl = Placement("R1", 10.0, 10.0, 0, "top", box(9, 9.5, 11, 10.5))
-    >>> fit = FitResult(True, reg.area_mm2, 2.0, est, (pl,), box(1, 1, 39, 19), ())
-    >>> svg = fit_svg(cav, reg, fit, title="A <demo>")
-    >>> svg.startswith(b"<?xml") and b"A &lt;demo&gt;" in svg
-    True
+    Example: the module notes.
     """
     board = fit.board_outline if fit.board_outline is not None else cavity.board
     placements = sorted(fit.placements, key=lambda p: (p.side != "bottom", natural_key(p.ref)))
+    lay = _layout(cavity, region, fit, board, placements, title, verdict, bool(pads), routing)
+    # the hover title says the verdict in the terminal's words (verdict.py words it)
+    named = lay.head[0][0] if verdict is None else f"{lay.head[0][0]} - verdict: {verdict.headline}"
+    out: list[str] = [*_prologue(lay.frame, lay.scale, named, lay.u)]
+    out += _ground(cavity, region, board, lay.colour_of, lay.u)
+    out += _copper_and_parts(placements, facts, pads, routing, demand, lay.u)
+    out += _furniture(lay, fit, verdict)
+    out.append("</svg>")
+    return ("\n".join(out) + "\n").encode("utf-8")
+
+
+@dataclass(frozen=True)
+class _Layout:
+    """Where everything of the picture goes (drawing mm; ``u`` drawing mm per paper mm)."""
+
+    bounds: tuple
+    scale: float
+    u: float
+    colour_of: Mapping
+    labels: list
+    head: list
+    head_h: float
+    left: float
+    top: float
+    legend_x: float
+    legend_lines: list
+    frame: tuple
+
+
+def _layout(cavity, region, fit, board, placements, title, verdict, has_pads, routing) -> _Layout:
+    """Scale, labels, header and legend, and the frame: drawing block on the left, legend on the right."""
     bounds = _bounds(
         [cavity.outline, region.board_region, board, *cavity.keepouts]
         + [z.polygon for z in cavity.depth_zones]
         + [p.courtyard for p in placements]
     )
     minx, miny, maxx, maxy = bounds
-    w, h = maxx - minx, maxy - miny
-    s = drawing_scale(max(w, h))
+    s = drawing_scale(max(maxx - minx, maxy - miny))
     u = 1.0 / s  # drawing mm per paper mm
     depths, colour_of = _depth_palette(cavity)
     labels, skipped = place_labels(placements, u, bounds)
     unplaced = sorted(fit.unplaced, key=natural_key) if not fit.fits else []
     head = _header_lines(title or "Board fit", fit, cavity, verdict)
     head_h = _head_height(head)
-    # frame: drawing block on the left, legend on the right
     left = minx - _MARGIN * u
     top = -maxy - (_MARGIN + head_h) * u
     legend_x = maxx + _GAP * u
     legend_lines = _legend(depths, colour_of, float(region.thickness_mm), placements, skipped, unplaced, s,
-                           bool(pads), routing, entry=region.wire_entry is not None)
+                           has_pads, routing, entry=region.wire_entry is not None)
     bottom = max(-miny + (_MARGIN + _FOOT_H) * u,
                  top + (head_h + 2 * _MARGIN + _legend_height(legend_lines)) * u)
     right = max(legend_x + (_LEGEND_W + _MARGIN) * u, left + (2 * _MARGIN + _header_width(head)) * u)
-    frame = (left, top, right - left, bottom - top)
+    return _Layout(bounds, s, u, colour_of, labels, head, head_h, left, top, legend_x, legend_lines,
+                   (left, top, right - left, bottom - top))
 
-    # the hover title says the verdict in the terminal's words (verdict.py words it)
-    named = head[0][0] if verdict is None else f"{head[0][0]} - verdict: {verdict.headline}"
-    out: list[str] = [*_prologue(frame, s, named, u)]
-    out += _ground(cavity, region, board, colour_of, u)
+
+def _copper_and_parts(placements, facts, pads, routing, demand, u: float) -> list[str]:
+    """Congestion shading, courtyards (bottom side first, under the board), pads and copper."""
+    out: list[str] = []
     if demand is not None:
         from .copper_svg import congestion_svg
         out.append(congestion_svg(demand, u))
-    if placements:  # courtyards: bottom side first (under the board), then top side
+    if placements:
         out.append('<g class="placements">')
         out += [_part(pl, (facts or {}).get(pl.ref), u) for pl in placements]
         out.append("</g>")
@@ -208,13 +240,18 @@ def fit_svg(cavity: Cavity, region: Region, fit: FitResult, *, title: str = "",
     if routing is not None:
         from .copper_svg import copper_svg
         out += copper_svg(routing, u)
-    out.append(_labels_svg(labels, u))
-    out.append(_scale_bar(minx, -miny + (_MARGIN - 1.0) * u, nice_length(w / 4.0), u))
-    out.append(_origin(minx, miny, maxx, maxy, u))
-    out.append(_header(left + _MARGIN * u, top, head, _verdict_colour(fit, verdict), u))
-    out.append(_legend_svg(legend_lines, legend_x, top + (head_h + _MARGIN) * u, u))
-    out.append("</svg>")
-    return ("\n".join(out) + "\n").encode("utf-8")
+    return out
+
+
+def _furniture(lay: _Layout, fit, verdict) -> list[str]:
+    """Labels, scale bar, origin mark, header and legend."""
+    minx, miny, maxx, maxy = lay.bounds
+    u = lay.u
+    return [_labels_svg(lay.labels, u),
+            _scale_bar(minx, -miny + (_MARGIN - 1.0) * u, nice_length((maxx - minx) / 4.0), u),
+            _origin(minx, miny, maxx, maxy, u),
+            _header(lay.left + _MARGIN * u, lay.top, lay.head, _verdict_colour(fit, verdict), u),
+            _legend_svg(lay.legend_lines, lay.legend_x, lay.top + (lay.head_h + _MARGIN) * u, u)]
 
 
 def _prologue(frame: tuple[float, float, float, float], s: float, heading: str, u: float) -> list[str]:
