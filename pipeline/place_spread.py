@@ -183,10 +183,10 @@ def _nearest_origin(packer, run, i: int, slot, goal: tuple[float, float], occ: n
     c0 = max(0, min(col, int(math.floor(gc))) - w)
     r1 = min(g.ny - h, max(row, int(math.ceil(gr))) + h)
     c1 = min(g.nx - w, max(col, int(math.ceil(gc))) + w)
-    blocked = ~packer.mask(run.top_level[i])[r0:r1 + h, c0:c1 + w] | (occ[r0:r1 + h, c0:c1 + w] > 0)
-    sat = np.zeros((blocked.shape[0] + 1, blocked.shape[1] + 1), dtype=np.int32)
-    sat[1:, 1:] = np.cumsum(np.cumsum(blocked, axis=0, dtype=np.int32), axis=1)
-    ok = (sat[h:, w:] - sat[:-h, w:] - sat[h:, :-w] + sat[:-h, :-w]) == 0
+    from .place import _feasible  # the packer's own window test (imported here: place imports us)
+
+    free = packer.mask(run.top_level[i])[r0:r1 + h, c0:c1 + w] & (occ[r0:r1 + h, c0:c1 + w] == 0)
+    ok = _feasible(free, h, w)
     rows, cols = np.nonzero(ok)
     d = np.round(np.hypot(rows + r0 - gr, cols + c0 - gc), 6)
     k = int(np.lexsort((cols, rows, d))[0])
