@@ -62,7 +62,6 @@ O(V log V) over the nodes of a window around the connection.
 
 from __future__ import annotations
 
-import heapq
 import math
 import time
 from dataclasses import dataclass
@@ -77,6 +76,8 @@ from .coarse import COARSE_PARTS, COARSE_SHARE, TILE_PITCHES, capacities, plan_c
 from .escape import ESCAPE_REACH, escape, island
 from .grid import BLOCKED, FREE, Grid, add_copper, as_polygons, build_grid, edge_rule
 from .rules import CopperRules
+from .search import astar as search_astar
+from .search import moves
 
 __all__ = ["Track", "Via", "Area", "Routing", "route_board", "VIA_COST", "MAX_ROUNDS"]
 
@@ -197,6 +198,7 @@ class _Router:
         self.wmax = max([n.width for n in self.nets] + [rules.track_width_mm])
         self._grids: dict[float, Grid] = {}
         self.coarse = False   # route globally on tiles first (route_board sets it)
+        self._moves: dict = {}  # (grid, net index, corridor) -> the steps a net may take (search.moves)
 
     # ---------------------------------------------------------------- setup
     def grid(self, width: float) -> Grid:
@@ -567,82 +569,19 @@ class _Router:
         return self._search(net, sources, targets, present, (0, 0, g.nx - 1, g.ny - 1), net.corridor)
 
     def _search(self, net, sources, targets, present, box, mask=None):
-        """A* (Hart, Nilsson and Raphael 1968) inside ``box`` (and the plane cells ``mask`` marks).
+        """A* (:func:`pipeline.route.search.astar`) inside ``box`` and the plane cells ``mask`` marks.
 
-        With ``targets`` None it is Dijkstra's search for the nearest
-        usable via site (the heuristic's box is the whole plane: it is 0).
-        The loop is :meth:`_expand`.
+        With ``targets`` None it is Dijkstra's search for the nearest usable
+        via site. The steps ``net`` may take (:func:`pipeline.route.search.moves`)
+        are built on its first search: the grid and its corridor do not change
+        while it is routed.
         """
-        g = net.grid
-        nx, plane = g.nx, g.nx * g.ny
-        tbox = _target_box(targets, nx, plane) if targets is not None else (-1 << 40, 1 << 40, -1 << 40, 1 << 40)
-        heap, best, parent = _seed(sources, tbox, nx, plane)
-        end = self._expand(net, heap, best, parent, targets, tbox, present, box, mask)
-        return None if end is None else self._path(parent, end)
-
-    def _expand(self, net, heap, best, parent, targets, tbox, present, box, mask):
-        """The A* loop; returns the node reached (a target, or a usable via site) or None.
-
-        It touches flat lists only: owners, history, sharers and the
-        occupancy near each node kept up to date by :meth:`commit`
-        (``self.near``, ``self.via_near``), so one expansion costs a few
-        list reads and at most one heap push per neighbour. The heuristic
-        is the Manhattan distance in steps to ``tbox`` (admissible: every
-        step costs at least 1).
-        """
-        g, k, aim = net.grid, net.k, targets is not None
-        nx, plane, nl = g.nx, g.nx * g.ny, len(self.layers)
-        node, ex, ey, via, hist, claim_occ = g.node, g.ex, g.ey, g.via, self.hist, self.claim_occ
-        near, via_near = self.near[net.halo_key], self.via_near
-        i0, j0, i1, j1 = box
-        ti0, ti1, tj0, tj1 = tbox
-        hstep, vstep = self.steps
-        vias = nl > 1 and aim
-        heappush, heappop, inf = heapq.heappush, heapq.heappop, math.inf
-        cnt = len(heap)
-        while heap:
-            _, _, n, gn = heappop(heap)
-            if gn > best[n] + 1e-12:
-                continue
-            li, r = divmod(n, plane)
-            if (n in targets) if aim else (via[r] == FREE or via[r] == k):
-                return n
-            j, i = divmod(r, nx)
-            hs, vs = hstep[li], vstep[li]
-            moves = []
-            if i < i1 and (ex[n] == FREE or ex[n] == k):
-                moves.append((n + 1, r + 1, i + 1, j, hs))
-            if i > i0 and (ex[n - 1] == FREE or ex[n - 1] == k):
-                moves.append((n - 1, r - 1, i - 1, j, hs))
-            if j < j1 and (ey[n] == FREE or ey[n] == k):
-                moves.append((n + nx, r + nx, i, j + 1, vs))
-            if j > j0 and (ey[n - nx] == FREE or ey[n - nx] == k):
-                moves.append((n - nx, r - nx, i, j - 1, vs))
-            if vias and (via[r] == FREE or via[r] == k):
-                step = VIA_COST + present * via_near[r]
-                for lj in range(nl):
-                    if lj != li:
-                        moves.append((lj * plane + r, r, i, j, step))
-            for m, rm, im, jm, step in moves:
-                o = node[m]
-                if (o != FREE and o != k) or (mask is not None and not mask[rm]):
-                    continue
-                gm = gn + (step * (1.0 + hist[m]) * (1.0 + present * claim_occ[m]) + present * near[m])
-                if gm < best.get(m, inf) - 1e-12:
-                    best[m] = gm
-                    parent[m] = n
-                    cnt += 1
-                    hv = ((ti0 - im if im < ti0 else (im - ti1 if im > ti1 else 0))
-                          + (tj0 - jm if jm < tj0 else (jm - tj1 if jm > tj1 else 0)))
-                    heappush(heap, (gm + hv, cnt, m, gm))
-        return None
-
-    @staticmethod
-    def _path(parent: dict[int, int], n: int) -> list[int]:
-        out = [n]
-        while parent[out[-1]] != -1:
-            out.append(parent[out[-1]])
-        return out[::-1]
+        key = (id(net.grid), net.k, id(mask))
+        bits = self._moves.get(key)
+        if bits is None:
+            bits = self._moves[key] = moves(net.grid, net.k, mask)
+        costs = (present, self.hist, self.claim_occ, self.near[net.halo_key], self.via_near)
+        return search_astar(net.grid, bits, sources, targets, box, costs, self.steps, VIA_COST)
 
     # ---------------------------------------------------------------- ending
     def settle(self, nets: list[_Net]) -> None:
@@ -790,31 +729,6 @@ def _span(pads) -> float:
     xs = [p.polygon.centroid.x for p in pads]
     ys = [p.polygon.centroid.y for p in pads]
     return (max(xs) - min(xs)) + (max(ys) - min(ys))
-
-
-def _target_box(targets, nx: int, plane: int) -> tuple[int, int, int, int]:
-    """``(i0, i1, j0, j1)``: the grid box around ``targets`` the A* heuristic measures to."""
-    ti = [t % nx for t in targets]
-    tj = [(t % plane) // nx for t in targets]
-    return min(ti), max(ti), min(tj), max(tj)
-
-
-def _seed(sources, tbox, nx: int, plane: int):
-    """The search's heap, best costs and parents with every source at cost 0 (sorted: deterministic)."""
-    ti0, ti1, tj0, tj1 = tbox
-    best: dict[int, float] = {}
-    parent: dict[int, int] = {}
-    heap: list = []
-    for cnt, s in enumerate(sorted(sources)):
-        best[s] = 0.0
-        parent[s] = -1
-        r = s % plane
-        i, j = r % nx, r // nx
-        hv = ((ti0 - i if i < ti0 else (i - ti1 if i > ti1 else 0))
-              + (tj0 - j if j < tj0 else (j - tj1 if j > tj1 else 0)))
-        heap.append((float(hv), cnt, s, 0.0))
-    heapq.heapify(heap)
-    return heap, best, parent
 
 
 def _box(g: Grid, nodes: set[int], margin: int) -> tuple[int, int, int, int]:
