@@ -67,10 +67,45 @@ class Grid:
         return n // (self.nx * self.ny)
 
 
-def _own(arr: np.ndarray, idx: np.ndarray, net: int) -> None:
-    """Mark ``idx`` as owned by ``net`` (BLOCKED where another net owns it)."""
-    cur = arr[idx]
-    arr[idx] = np.where(cur == FREE, net, np.where(cur == net, net, BLOCKED))
+def _own(arr: np.ndarray, idx: np.ndarray, net) -> None:
+    """Mark ``idx`` as owned by ``net`` (one net index, or one per entry of ``idx``): a place stays
+    (or becomes) a net's only when that net alone comes near it and it was free or that net's,
+    else it is BLOCKED.
+
+    Applying it once to all pairs equals applying it pair by pair in any
+    order (each step keeps a net's mark only while no other net comes),
+    so the marks of many pads are merged in one vectorised pass. Cost
+    O(h log h) for h pairs.
+    """
+    idx = np.asarray(idx, dtype=np.int64)
+    nets = np.broadcast_to(np.asarray(net, dtype=np.int64), idx.shape)
+    if idx.size == 0:
+        return
+    order = np.lexsort((nets, idx))
+    idx, nets = idx[order], nets[order]
+    cells, start = np.unique(idx, return_index=True)
+    first = nets[start]
+    mixed = np.logical_or.reduceat(nets != np.repeat(first, np.diff(np.append(start, idx.size))), start)
+    cur = arr[cells]
+    arr[cells] = np.where(~mixed & ((cur == FREE) | (cur == first)), first, BLOCKED)
+
+
+def _mark(arr: np.ndarray, tree, geoms: np.ndarray, cells: np.ndarray, copper: list, half: float) -> None:
+    """Own in ``arr`` the ``cells`` of the ``geoms`` (indexed in ``tree``) closer than ``half`` (less
+    ``EPS``) to a piece of ``copper`` (``[(net index, geometry), ...]``), by :func:`_own`.
+
+    One envelope query of the STRtree for all pieces (each piece's box
+    grown by ``half``: every geometry that close has its box meeting it),
+    then one vectorised exact distance test. Cost O((g + c) log g + h).
+    """
+    if not copper:
+        return
+    nets = np.array([net for net, _ in copper], dtype=np.int64)
+    pieces = np.array([geo for _, geo in copper], dtype=object)
+    lo, hi = shapely.bounds(pieces)[:, :2] - half, shapely.bounds(pieces)[:, 2:] + half
+    q, t = tree.query(shapely.box(lo[:, 0], lo[:, 1], hi[:, 0], hi[:, 1]))
+    close = shapely.distance(geoms[t], pieces[q]) < half - EPS
+    _own(arr, cells[t[close]], nets[q[close]])
 
 
 def build_grid(board: RouteBoard, rules: CopperRules, width: float, layers: tuple[str, ...],
@@ -95,19 +130,18 @@ def build_grid(board: RouteBoard, rules: CopperRules, width: float, layers: tupl
     ey = np.full_like(node, BLOCKED)
     half = width / 2 + rules.clearance_mm
     copper = _copper_by_layer(board, layers, index, extra or {})
+    tree = shapely.STRtree(pts)
+    inside: dict[float, np.ndarray] = {}   # _inside by margin: layers with the same edge rule share it
     for li, name in enumerate(layers):
         off = li * nx * ny
-        inside = _inside(board, pts, edge_rule(rules, name, len(layers)) + width / 2)
+        margin = edge_rule(rules, name, len(layers)) + width / 2
+        if margin not in inside:
+            inside[margin] = _inside(board, pts, margin)
         sl = node[off:off + nx * ny]
-        sl[~inside] = BLOCKED
-        tree = shapely.STRtree(pts)
-        for net, geo in copper[name]:
-            hit = tree.query(geo, predicate="dwithin", distance=half)
-            hit = hit[shapely.distance(pts[hit], geo) < half - EPS]
-            _own(sl, hit, net)
-        ex[off:off + nx * ny], ey[off:off + nx * ny] = _edges(board, sl, gx, gy, p, copper[name], half,
-                                                              edge_rule(rules, name, len(layers)) + width / 2)
-    via = _vias(board, rules, pts, layers, copper, len(layers))
+        sl[~inside[margin]] = BLOCKED
+        _mark(sl, tree, pts, np.arange(len(pts)), copper[name], half)
+        ex[off:off + nx * ny], ey[off:off + nx * ny] = _edges(board, sl, gx, gy, p, copper[name], half, margin)
+    via = _vias(board, rules, pts, tree, layers, copper, len(layers))
     return Grid(float(xmin), float(ymin), p, nx, ny, tuple(layers), node.tolist(), ex.tolist(), ey.tolist(),
                 via.tolist(), tuple(nets))
 
@@ -233,28 +267,17 @@ def _edges(board, sl, gx, gy, p, copper, half, margin):
         if board.holes:   # an edge wholly inside a hole has blocked ends already
             bad |= _closer(_rings(board.holes), lines, margin)
         arr[js[bad], is_[bad]] = BLOCKED
-        tree = shapely.STRtree(lines)
-        for net, geo in copper:
-            hit = tree.query(geo, predicate="dwithin", distance=half)
-            hit = hit[shapely.distance(lines[hit], geo) < half - EPS]
-            flat = arr.reshape(-1)
-            idx = js[hit] * nx + is_[hit]
-            _own(flat, idx, net)
+        _mark(arr.reshape(-1), shapely.STRtree(lines), lines, js * nx + is_, copper, half)
     return ex.ravel(), ey.ravel()
 
 
-def _vias(board, rules, pts, layers, copper, count) -> np.ndarray:
-    """Owners of via sites (one per grid point, through every layer)."""
+def _vias(board, rules, pts, tree, layers, copper, count) -> np.ndarray:
+    """Owners of via sites (one per grid point, through every layer); ``tree`` an STRtree of ``pts``."""
     rv = rules.via_diameter_mm / 2
     edge = max(edge_rule(rules, name, count) for name in layers)
     via = np.where(_inside(board, pts, edge + rv), FREE, BLOCKED).astype(np.int64)
-    tree = shapely.STRtree(pts)
     half = rv + rules.clearance_mm
-    for name in layers:
-        for net, geo in copper[name]:
-            hit = tree.query(geo, predicate="dwithin", distance=half)
-            hit = hit[shapely.distance(pts[hit], geo) < half - EPS]
-            _own(via, hit, net)
+    _mark(via, tree, pts, np.arange(len(pts)), [piece for name in layers for piece in copper[name]], half)
     if not rules.vias_in_pads:
         for pad in board.pads:
             if len(pad.layers) == 1:
