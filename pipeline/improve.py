@@ -35,6 +35,15 @@ swaps per movable part, so the budget grows with the design, and costs
 O(P log P) for P pins (the sorts) plus O(n k log n) for the k-d tree
 queries: the whole pass is O(R (P log P + n log n)) for R rounds.
 
+*Repair* (``movers`` given): after a few parts were moved by something
+else (the placer's near pass trades parts away from their nets), only those
+parts look for a swap in the first round, and in each later round only the
+parts that share a net with a part just swapped: the other parts' targets
+did not change, so they are not looked at again (*don't-look bits*,
+Bentley 1992). Rounds go on until one takes no swap (or ``MAX_ROUNDS``);
+each costs the sorts of all pins plus the candidates of the parts looked
+at, O(P log P + m k log n) for m of them.
+
 Nets with more than ``fanout`` parts (ground, supplies) are left out, as
 placers commonly do.
 
@@ -44,6 +53,8 @@ S. Goto, "An efficient algorithm for the two-dimensional placement problem
 in electrical circuit layout", IEEE Trans. Circuits and Systems 28(1), 1981.
 N. Sherwani, Algorithms for VLSI Physical Design Automation, 3rd ed.,
 Kluwer 1999, chapter 5 (placement; iterative improvement).
+J. L. Bentley, "Fast algorithms for geometric traveling salesman
+problems", ORSA J. Computing 4(4), 1992 (don't-look bits).
 """
 
 from __future__ import annotations
@@ -211,7 +222,8 @@ class _Swaps:
     occupant: list[np.ndarray]  # per group: the part in each of its slots (slot order = group order)
     where: np.ndarray  # index of a part's slot inside its group
     trees: list
-    movable: np.ndarray  # parts that look for a swap (the other side of a swap may be any group member)
+    eligible: np.ndarray  # (n,) bool: in a group of two or more and on a kept net
+    movable: np.ndarray  # parts that look for a swap this round (the other side may be any group member)
 
 
 def _setup(groups: Sequence[Sequence[int]], xy: np.ndarray, opt: list[list[int]],
@@ -233,11 +245,30 @@ def _setup(groups: Sequence[Sequence[int]], xy: np.ndarray, opt: list[list[int]]
         occupant.append(members.copy())
         where[members] = np.arange(len(members))
         trees.append(_NearestSlots(pos[members]) if len(members) > 1 else None)
-    may = np.zeros(n, dtype=bool)
-    may[list(range(n)) if movers is None else list(movers)] = True
-    movable = np.array([i for i in range(n) if may[i] and group_of[i] >= 0 and pins.deg[i] > 0
-                        and trees[group_of[i]] is not None], dtype=np.int64)
-    return _Swaps(pins, nets_of, len(opt), pos, np.arange(n), group_of, occupant, where, trees, movable)
+    eligible = (group_of >= 0) & (pins.deg > 0)
+    eligible &= np.array([g >= 0 and trees[g] is not None for g in group_of], dtype=bool)
+    st = _Swaps(pins, nets_of, len(opt), pos, np.arange(n), group_of, occupant, where, trees, eligible,
+                np.zeros(0, dtype=np.int64))
+    _look_at(st, None if movers is None else np.fromiter(movers, dtype=np.int64))
+    return st
+
+
+def _look_at(st: _Swaps, parts: np.ndarray | None) -> None:
+    """Make ``parts`` (all when None) the movable parts of the next round, the eligible ones only."""
+    if parts is None:
+        st.movable = np.flatnonzero(st.eligible)
+        return
+    may = np.zeros(len(st.eligible), dtype=bool)
+    may[parts] = True
+    st.movable = np.flatnonzero(may & st.eligible)
+
+
+def _neighbours(st: _Swaps, parts: np.ndarray) -> np.ndarray:
+    """``parts`` and every part sharing a kept net with one of them (the don't-look bits reset)."""
+    hit = np.zeros(st.n_nets, dtype=bool)
+    for i in parts.tolist():
+        hit[st.nets_of[i]] = True
+    return np.union1d(parts, st.pins.item[hit[st.pins.net]])
 
 
 def _candidates(st: _Swaps, tgt: np.ndarray) -> np.ndarray:
@@ -265,8 +296,9 @@ def _apply(st: _Swaps, a: np.ndarray, b: np.ndarray) -> None:
         st.occupant[g][v], st.occupant[g][u] = x, y
 
 
-def _round(st: _Swaps) -> tuple[float, float]:
-    """One round (steps 1 to 4 of the module notes): (HPWL before it, its gain), mm."""
+def _round(st: _Swaps) -> tuple[float, float, np.ndarray]:
+    """One round (steps 1 to 4 of the module notes): (HPWL before it, its gain) in mm, and the parts
+    it swapped."""
     pins, pos = st.pins, st.pos
     ex_x = _without_self(pins, pos[:, 0])
     ex_y = _without_self(pins, pos[:, 1])
@@ -279,7 +311,7 @@ def _round(st: _Swaps) -> tuple[float, float]:
     taken = _pick(pairs, gain, st.nets_of, st.n_nets)
     if taken:
         _apply(st, pairs[taken, 0], pairs[taken, 1])
-    return float(span.sum()), -float(gain[taken].sum()) if taken else 0.0
+    return float(span.sum()), -float(gain[taken].sum()) if taken else 0.0, pairs[taken].reshape(-1)
 
 
 def improve_swaps(groups: Sequence[Sequence[int]], xy: np.ndarray, nets: Sequence[Sequence[int]],
@@ -329,12 +361,14 @@ def improve_swaps(groups: Sequence[Sequence[int]], xy: np.ndarray, nets: Sequenc
     if not opt or n < 2:
         return np.arange(n)
     st = _setup(groups, xy, opt, movers)
-    if not len(st.movable):
-        return st.slot
     for rnd in range(MAX_ROUNDS):
-        total, got = _round(st)
+        if not len(st.movable):
+            break
+        total, got, swapped = _round(st)
         if progress is not None:
             progress("improving wirelength", (rnd + 1) / MAX_ROUNDS)
-        if got < MIN_GAIN * total:
-            break
+        if not len(swapped) or (movers is None and got < MIN_GAIN * total):
+            break  # a pass over every part runs rounds while they pay
+        if movers is not None:  # a repair: only the parts next to a swap look again (don't-look bits)
+            _look_at(st, _neighbours(st, swapped))
     return st.slot
