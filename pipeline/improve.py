@@ -68,11 +68,12 @@ __all__ = ["improve_swaps", "MAX_ROUNDS", "MIN_GAIN", "SWAP_CANDIDATES"]
 
 Progress = Callable[[str, float], None]
 
-#: Most rounds of the pass.
+#: Most rounds of the pass (a repair's rounds included).
 MAX_ROUNDS = 30
-#: A round gaining less than this share of the HPWL ends the pass. (1 %: at 16,000 parts the
-#: rounds after that gained 0.5 % each and took 40 % of the pass; bench/bench_scale.py keeps
-#: the wirelength at most 0.45 x a random legal permutation at every size.)
+#: A round gaining less than this share of the HPWL ends a pass over every part (not a repair).
+#: (1 %: at 16,000 parts the rounds after that gained 0.5 % each and took 40 % of the pass; going
+#: on with don't-look rounds there shortened the demo's nets so far that it needed spreading to
+#: route. bench/bench_scale.py measures the wirelength against random permutations.)
 MIN_GAIN = 1e-2
 #: Candidate slots looked at per part and round.
 SWAP_CANDIDATES = 12
