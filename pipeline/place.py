@@ -531,7 +531,8 @@ def _improve(packer: _Packer, run: _Run, nets: list[list[int]], progress: Progre
     """Swaps inside classes that lower the wirelength (module notes, step 3; :mod:`pipeline.improve`).
 
     ``pull``: each near rule counts as a two-pin net between the part and its target, so the swaps
-    bring near parts toward their targets themselves and the near pass has little left to trade.
+    bring near parts toward their targets themselves and a part the near pass trades away from its
+    target's side lands nearer its own nets.
     ``locked`` parts keep their slots; only ``movers`` (all when None) look for a swap.
     """
     placed = sorted(run.slots)
@@ -767,7 +768,7 @@ def _pack_and_check(items, area, region: Region, board: BoardOptions, estimate, 
     low = max((items[i].height_mm for i, (side, _) in fixed.items() if side == "bottom"), default=0.0)
     tries = [t for t in tries if t[0] >= low - 1e-9] or [(low, None)]  # bottom parts fixed: raise the board
     run = _best_run(packer, tries, board.sides, progress)
-    if improve:  # swaps pulling near parts toward their targets leave the near pass little to trade
+    if improve:  # swaps pulling near parts toward their targets: the near pass's trades go less far
         _improve(packer, run, nets, progress, pull=True)
         _near_and_repair(packer, run, fixed, nets, progress)
         if spread and place_spread.spreads(run, fixed):  # a near part keeps its offset from its target
