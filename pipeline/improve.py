@@ -35,6 +35,15 @@ swaps per movable part, so the budget grows with the design, and costs
 O(P log P) for P pins (the sorts) plus O(n k log n) for the k-d tree
 queries: the whole pass is O(R (P log P + n log n)) for R rounds.
 
+*Repair* (``movers`` given): after a few parts were moved by something
+else (the placer's near pass trades parts away from their nets), only those
+parts look for a swap in the first round, and in each later round only the
+parts that share a net with a part just swapped: the other parts' targets
+did not change, so they are not looked at again (*don't-look bits*,
+Bentley 1992). Rounds go on until one takes no swap (or ``MAX_ROUNDS``);
+each costs the sorts of all pins plus the candidates of the parts looked
+at, O(P log P + m k log n) for m of them.
+
 Nets with more than ``fanout`` parts (ground, supplies) are left out, as
 placers commonly do.
 
@@ -44,11 +53,14 @@ S. Goto, "An efficient algorithm for the two-dimensional placement problem
 in electrical circuit layout", IEEE Trans. Circuits and Systems 28(1), 1981.
 N. Sherwani, Algorithms for VLSI Physical Design Automation, 3rd ed.,
 Kluwer 1999, chapter 5 (placement; iterative improvement).
+J. L. Bentley, "Fast algorithms for geometric traveling salesman
+problems", ORSA J. Computing 4(4), 1992 (don't-look bits).
 """
 
 from __future__ import annotations
 
-from typing import Callable, Sequence
+from dataclasses import dataclass
+from typing import Callable, Iterable, Sequence
 
 import numpy as np
 
@@ -56,11 +68,12 @@ __all__ = ["improve_swaps", "MAX_ROUNDS", "MIN_GAIN", "SWAP_CANDIDATES"]
 
 Progress = Callable[[str, float], None]
 
-#: Most rounds of the pass.
+#: Most rounds of the pass (a repair's rounds included).
 MAX_ROUNDS = 30
-#: A round gaining less than this share of the HPWL ends the pass. (1 %: at 16,000 parts the
-#: rounds after that gained 0.5 % each and took 40 % of the pass; bench/bench_scale.py keeps
-#: the wirelength at most 0.45 x a random legal permutation at every size.)
+#: A round gaining less than this share of the HPWL ends a pass over every part (not a repair).
+#: (1 %: at 16,000 parts the rounds after that gained 0.5 % each and took 40 % of the pass; going
+#: on with don't-look rounds there shortened the demo's nets so far that it needed spreading to
+#: route. bench/bench_scale.py measures the wirelength against random permutations.)
 MIN_GAIN = 1e-2
 #: Candidate slots looked at per part and round.
 SWAP_CANDIDATES = 12
@@ -197,15 +210,121 @@ def _pick(pairs: np.ndarray, gain: np.ndarray, nets_of: list[list[int]], n_nets:
     return taken
 
 
+@dataclass
+class _Swaps:
+    """The pass's working state: pins, slots, each group's occupants and nearest-slot search."""
+
+    pins: _Pins
+    nets_of: list[list[int]]  # per part: its nets (indices into the kept nets)
+    n_nets: int
+    pos: np.ndarray  # (n, 2) position of each part, mm (moves with it)
+    slot: np.ndarray  # slot each part is in (a part index of the start)
+    group_of: np.ndarray
+    occupant: list[np.ndarray]  # per group: the part in each of its slots (slot order = group order)
+    where: np.ndarray  # index of a part's slot inside its group
+    trees: list
+    eligible: np.ndarray  # (n,) bool: in a group of two or more and on a kept net
+    movable: np.ndarray  # parts that look for a swap this round (the other side may be any group member)
+
+
+def _setup(groups: Sequence[Sequence[int]], xy: np.ndarray, opt: list[list[int]],
+           movers: Iterable[int] | None) -> _Swaps:
+    """The state at the start: every part in its own slot; one nearest-slot search per group."""
+    n = len(xy)
+    pins = _Pins(opt, n)
+    nets_of: list[list[int]] = [[] for _ in range(n)]
+    for k, m in enumerate(opt):
+        for i in m:
+            nets_of[i].append(k)
+    pos = np.array(xy, dtype=float)
+    group_of = np.full(n, -1)
+    occupant, trees = [], []
+    where = np.zeros(n, dtype=np.int64)
+    for g, members in enumerate(groups):
+        members = np.asarray(members, dtype=np.int64)
+        group_of[members] = g
+        occupant.append(members.copy())
+        where[members] = np.arange(len(members))
+        trees.append(_NearestSlots(pos[members]) if len(members) > 1 else None)
+    eligible = (group_of >= 0) & (pins.deg > 0)
+    eligible &= np.array([g >= 0 and trees[g] is not None for g in group_of], dtype=bool)
+    st = _Swaps(pins, nets_of, len(opt), pos, np.arange(n), group_of, occupant, where, trees, eligible,
+                np.zeros(0, dtype=np.int64))
+    _look_at(st, None if movers is None else np.fromiter(movers, dtype=np.int64))
+    return st
+
+
+def _look_at(st: _Swaps, parts: np.ndarray | None) -> None:
+    """Make ``parts`` (all when None) the movable parts of the next round, the eligible ones only."""
+    if parts is None:
+        st.movable = np.flatnonzero(st.eligible)
+        return
+    may = np.zeros(len(st.eligible), dtype=bool)
+    may[parts] = True
+    st.movable = np.flatnonzero(may & st.eligible)
+
+
+def _neighbours(st: _Swaps, parts: np.ndarray) -> np.ndarray:
+    """``parts`` and every part sharing a kept net with one of them (the don't-look bits reset)."""
+    hit = np.zeros(st.n_nets, dtype=bool)
+    for i in parts.tolist():
+        hit[st.nets_of[i]] = True
+    return np.union1d(parts, st.pins.item[hit[st.pins.net]])
+
+
+def _candidates(st: _Swaps, tgt: np.ndarray) -> np.ndarray:
+    """Candidate swaps ``(i, j)``: each movable part with the occupants of the ``SWAP_CANDIDATES``
+    slots of its group nearest its target (step 2 of the module notes)."""
+    gmov = st.group_of[st.movable]
+    pairs = []
+    for g in np.unique(gmov):
+        sel = st.movable[gmov == g]
+        k = min(SWAP_CANDIDATES, len(st.occupant[g]))
+        cand = np.asarray(st.trees[g].query(tgt[gmov == g], k)).reshape(len(sel), k)
+        pairs.append(np.stack((np.repeat(sel, k), st.occupant[g][cand].reshape(-1)), axis=1))
+    pairs = np.concatenate(pairs)
+    return pairs[pairs[:, 0] != pairs[:, 1]]
+
+
+def _apply(st: _Swaps, a: np.ndarray, b: np.ndarray) -> None:
+    """Swap the parts ``a[k]`` and ``b[k]`` (same group, pairwise disjoint) between their slots."""
+    pos, slot, where = st.pos, st.slot, st.where
+    pos[a], pos[b] = pos[b].copy(), pos[a].copy()
+    slot[a], slot[b] = slot[b].copy(), slot[a].copy()
+    wa, wb = where[a].copy(), where[b].copy()
+    where[a], where[b] = wb, wa
+    for g, x, y, u, v in zip(st.group_of[a], a, b, wa, wb):
+        st.occupant[g][v], st.occupant[g][u] = x, y
+
+
+def _round(st: _Swaps) -> tuple[float, float, np.ndarray]:
+    """One round (steps 1 to 4 of the module notes): (HPWL before it, its gain) in mm, and the parts
+    it swapped."""
+    pins, pos = st.pins, st.pos
+    ex_x = _without_self(pins, pos[:, 0])
+    ex_y = _without_self(pins, pos[:, 1])
+    ex = [ex_x[0], ex_x[1], ex_y[0], ex_y[1]]
+    span = ex_x[2] + ex_y[2]
+    pairs = _candidates(st, _targets(pins, st.movable, ex))
+    i, j = pairs[:, 0], pairs[:, 1]
+    gain = (_move_cost(pins, i, pos[j, 0], pos[j, 1], j, ex, span)
+            + _move_cost(pins, j, pos[i, 0], pos[i, 1], i, ex, span))
+    taken = _pick(pairs, gain, st.nets_of, st.n_nets)
+    if taken:
+        _apply(st, pairs[taken, 0], pairs[taken, 1])
+    return float(span.sum()), -float(gain[taken].sum()) if taken else 0.0, pairs[taken].reshape(-1)
+
+
 def improve_swaps(groups: Sequence[Sequence[int]], xy: np.ndarray, nets: Sequence[Sequence[int]],
-                  fanout: int, progress: Progress | None = None) -> np.ndarray:
+                  fanout: int, progress: Progress | None = None, *,
+                  movers: Iterable[int] | None = None) -> np.ndarray:
     """Swap parts between slots of their group to lower the half-perimeter wirelength.
 
     Parameters
     ----------
     groups : sequence of sequences of int
         Parts (indices into ``xy``) that may trade slots; each part in at
-        most one group.
+        most one group. A part in no group never moves.
     xy : (n, 2) array
         Slot centres, mm; part ``i`` starts in slot ``i``.
     nets : sequence of sequences of int
@@ -213,6 +332,11 @@ def improve_swaps(groups: Sequence[Sequence[int]], xy: np.ndarray, nets: Sequenc
         ``fanout`` parts or fewer than two are left out.
     fanout : int
     progress : callable(message, fraction), optional
+    movers : iterable of int, optional
+        Only these parts look for a swap (any part of their group may be
+        the other side of it); all parts when None. A repair after a few
+        parts were moved looks at those only: a round then costs the sorts
+        of all pins plus the candidates of the movers.
 
     Returns
     -------
@@ -234,68 +358,18 @@ def improve_swaps(groups: Sequence[Sequence[int]], xy: np.ndarray, nets: Sequenc
     [0, 2, 1]
     """
     n = len(xy)
-    slot = np.arange(n)
-    opt = [sorted(set(m)) for m in nets]
-    opt = [m for m in opt if 2 <= len(m) <= fanout]
+    opt = [m for m in (sorted(set(m)) for m in nets) if 2 <= len(m) <= fanout]
     if not opt or n < 2:
-        return slot
-    pins = _Pins(opt, n)
-    nets_of: list[list[int]] = [[] for _ in range(n)]
-    for k, m in enumerate(opt):
-        for i in m:
-            nets_of[i].append(k)
-    pos = np.array(xy, dtype=float)  # position of each part (moves with it)
-    group_of = np.full(n, -1)
-    occupant = []  # per group: part in each slot (slot order = group order)
-    where = np.zeros(n, dtype=np.int64)  # index of a part's slot inside its group
-    trees = []
-    for g, members in enumerate(groups):
-        members = np.asarray(members, dtype=np.int64)
-        group_of[members] = g
-        occupant.append(members.copy())
-        where[members] = np.arange(len(members))
-        trees.append(_NearestSlots(pos[members]) if len(members) > 1 else None)
-    movable = np.array([i for i in range(n) if group_of[i] >= 0 and pins.deg[i] > 0
-                        and trees[group_of[i]] is not None], dtype=np.int64)
-    if not len(movable):
-        return slot
-    gmov = group_of[movable]
+        return np.arange(n)
+    st = _setup(groups, xy, opt, movers)
     for rnd in range(MAX_ROUNDS):
-        ex_x = _without_self(pins, pos[:, 0])
-        ex_y = _without_self(pins, pos[:, 1])
-        ex = [ex_x[0], ex_x[1], ex_y[0], ex_y[1]]
-        span = ex_x[2] + ex_y[2]
-        total = float(span.sum())
-        tgt = _targets(pins, movable, ex)
-        pairs = []
-        for g in np.unique(gmov):
-            sel = movable[gmov == g]
-            k = min(SWAP_CANDIDATES, len(occupant[g]))
-            cand = trees[g].query(tgt[gmov == g], k)
-            cand = np.asarray(cand).reshape(len(sel), k)
-            j = occupant[g][cand]
-            pairs.append(np.stack((np.repeat(sel, k), j.reshape(-1)), axis=1))
-        pairs = np.concatenate(pairs)
-        pairs = pairs[pairs[:, 0] != pairs[:, 1]]
-        i, j = pairs[:, 0], pairs[:, 1]
-        gain = (_move_cost(pins, i, pos[j, 0], pos[j, 1], j, ex, span)
-                + _move_cost(pins, j, pos[i, 0], pos[i, 1], i, ex, span))
-        taken = _pick(pairs, gain, nets_of, len(opt))
-        if not taken:
+        if not len(st.movable):
             break
-        got = -float(gain[taken].sum())
-        a, b = pairs[taken, 0], pairs[taken, 1]
-        pa, pb = pos[a].copy(), pos[b].copy()
-        pos[a], pos[b] = pb, pa
-        sa, sb = slot[a].copy(), slot[b].copy()
-        slot[a], slot[b] = sb, sa
-        ga = group_of[a]
-        wa, wb = where[a].copy(), where[b].copy()
-        where[a], where[b] = wb, wa
-        for g, x, y, u, v in zip(ga, a, b, wa, wb):
-            occupant[g][v], occupant[g][u] = x, y
+        total, got, swapped = _round(st)
         if progress is not None:
             progress("improving wirelength", (rnd + 1) / MAX_ROUNDS)
-        if got < MIN_GAIN * total:
-            break
-    return slot
+        if not len(swapped) or (movers is None and got < MIN_GAIN * total):
+            break  # a pass over every part runs rounds while they pay
+        if movers is not None:  # a repair: only the parts next to a swap look again (don't-look bits)
+            _look_at(st, _neighbours(st, swapped))
+    return st.slot

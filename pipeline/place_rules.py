@@ -481,7 +481,8 @@ def near_pass(packer: Any, run: Any, fixed: dict) -> None:
             continue
         goal = board.goal(rule, target)
         swap = _nearest_swap(board, fixed, i, goal)
-        limit = math.inf if swap is None else max(rule.within_mm + TOL, swap[0])  # a free slot farther loses
+        here = round(_slot_distance(packer, i, run.slots[i], goal), 6)  # a free slot farther than here or
+        limit = here if swap is None else max(rule.within_mm + TOL, swap[0])  # than the trade loses
         free = _nearest_slot(board, i, goal, limit)
         if free is not None and free[0] <= limit:
             board.move(i, free[1])

@@ -1,12 +1,17 @@
-"""The swap pass's nearest-slot search against scipy's k-d tree (a general-purpose reference library)."""
+"""The swap pass: its nearest-slot search against scipy's k-d tree (a general-purpose reference library),
+its result against the half-perimeter definition and an exhaustive search on small boards."""
 
 from __future__ import annotations
 
+import itertools
+
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from scipy.spatial import cKDTree
 
-from pipeline.improve import BRUTE_FORCE_SLOTS, SWAP_CANDIDATES, _NearestSlots
+from pipeline.improve import BRUTE_FORCE_SLOTS, SWAP_CANDIDATES, _NearestSlots, improve_swaps
 
 
 @pytest.mark.parametrize("slots", [2, 5, SWAP_CANDIDATES, 40, BRUTE_FORCE_SLOTS, BRUTE_FORCE_SLOTS + 1, 300])
@@ -23,3 +28,64 @@ def test_nearest_slots_agree_with_a_kd_tree(slots):
 def test_equal_distances_go_to_the_earlier_slot():
     xy = np.array([[1.0, 0.0], [-1.0, 0.0], [0.0, 1.0], [0.0, 3.0]])
     assert _NearestSlots(xy).query(np.array([[0.0, 0.0]]), 3).tolist() == [[0, 1, 2]]
+
+
+# --------------------------------------------------------------------------
+# the pass itself, against the half-perimeter definition computed here and an exhaustive search
+# --------------------------------------------------------------------------
+def _hpwl(nets, pos):
+    """Half-perimeter wirelength by its definition (bounding box width + height of each net)."""
+    return sum(float(np.ptp(pos[m, 0]) + np.ptp(pos[m, 1])) for m in nets if len(m) >= 2)
+
+
+def _placed(xy, slot):
+    return xy[np.asarray(slot)]
+
+
+@st.composite
+def _boards(draw):
+    n = draw(st.integers(4, 24))
+    xy = np.array(draw(st.lists(st.tuples(st.integers(0, 40), st.integers(0, 40)), min_size=n, max_size=n)),
+                  dtype=float) * 0.5
+    parts = list(range(n))
+    cut = draw(st.integers(1, n))
+    groups = [parts[:cut], parts[cut:]] if cut < n else [parts]
+    nets = draw(st.lists(st.lists(st.integers(0, n - 1), min_size=2, max_size=5), min_size=1, max_size=2 * n))
+    return xy, groups, nets
+
+
+@settings(max_examples=60, deadline=None)
+@given(_boards())
+def test_swaps_keep_groups_and_never_lengthen(board):
+    xy, groups, nets = board
+    slot = improve_swaps(groups, xy, nets, 32)
+    for g in groups:  # a permutation of each group's own slots
+        assert sorted(slot[g].tolist()) == sorted(g)
+    # the pass only takes improving swaps (module notes, step 4): HPWL by definition, not the pass's own sums
+    assert _hpwl(nets, _placed(xy, slot)) <= _hpwl(nets, xy) + 1e-9
+
+
+@pytest.mark.parametrize("order", list(itertools.permutations(range(3))))
+def test_three_parts_on_a_line_reach_the_exhaustive_optimum(order):
+    # anchors 0..2 fixed at x = 0, 10, 20; movable parts 3..5 each on a net with one anchor;
+    # their slots at x = 1, 11, 21 in a shuffled order: the optimum (exhaustive search over the
+    # 6 assignments, computed here) puts each part beside its anchor, total 3 x 1 mm.
+    xy = np.array([[0, 0], [10, 0], [20, 0]] + [[1 + 10 * k, 0] for k in order], dtype=float)
+    nets = [[0, 3], [1, 4], [2, 5]]
+    best = min(_hpwl(nets, xy[[0, 1, 2, *p]]) for p in itertools.permutations([3, 4, 5]))
+    slot = improve_swaps([[3, 4, 5]], xy, nets, 32)
+    assert _hpwl(nets, _placed(xy, slot)) == pytest.approx(best) == pytest.approx(3.0)
+
+
+def test_only_movers_look_for_swaps():
+    # parts 1 and 2 want each other's slots; with neither a mover nothing moves, with either both do
+    xy = np.array([[0.0, 0.0], [10.0, 0.0], [1.0, 0.0], [20.0, 0.0]])
+    nets = [[0, 1], [3, 2]]
+    assert improve_swaps([[1, 2]], xy, nets, 32, movers=[0, 3]).tolist() == [0, 1, 2, 3]
+    assert improve_swaps([[1, 2]], xy, nets, 32, movers=[2]).tolist() == [0, 2, 1, 3]
+    assert improve_swaps([[1, 2]], xy, nets, 32).tolist() == [0, 2, 1, 3]
+
+
+def test_nets_over_the_fanout_are_left_out():
+    xy = np.array([[0.0, 0.0], [10.0, 0.0], [1.0, 0.0]])
+    assert improve_swaps([[1, 2]], xy, [[0, 1]], 1).tolist() == [0, 1, 2]

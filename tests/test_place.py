@@ -568,3 +568,72 @@ def test_fixed_keys_read_from_the_design_file(tmp_path):
         r = project(extra)
         assert r.exit_code == 2 and "design.toml" in r.output and key in r.output, (extra, r.output)
         assert "Traceback" not in r.output and not (tmp_path / "out").exists()
+
+
+# ---------------------------------------------------------------------------- swaps around the near rule
+def _generated(n: int):
+    """Items of the scale benchmark's generated design (op-amp blocks, a decoupling cap per IC:
+    bench/generate.py) and a rectangle holding them at about 55 % courtyard fill."""
+    import sys
+    from pathlib import Path
+
+    from pipeline.area import items_from_design
+    from pipeline.design import read_design_text
+    from pipeline.library import load_library
+
+    sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "bench"))
+    import generate
+
+    lib = load_library()
+    design, _ = read_design_text(generate.design_toml(n).toml, lib)
+    items = items_from_design(design, lib, "nominal")
+    side = math.sqrt(sum(it.length_mm * it.width_mm for it in items) / 0.55)
+    return items, _region(box(0, 0, 1.3 * side, side / 1.3))
+
+
+def _centres(packer, run) -> tuple[list[float], list[float]]:
+    xs, ys = [0.0] * len(packer.items), [0.0] * len(packer.items)
+    for i, slot in run.slots.items():
+        x1, y1, x2, y2 = packer.rect(i, slot)
+        xs[i], ys[i] = (x1 + x2) / 2, (y1 + y2) / 2
+    return xs, ys
+
+
+def _ptp_wirelength(nets, xs, ys) -> float:
+    """Half-perimeter wirelength by its definition (numpy's peak-to-peak of each net's centres)."""
+    x, y = np.asarray(xs), np.asarray(ys)
+    return sum(float(np.ptp(x[m]) + np.ptp(y[m])) for m in nets if len(m) >= 2)
+
+
+@pytest.mark.parametrize("n", [60, 150])
+def test_repair_swaps_keep_near_parts_and_shorten_the_nets(monkeypatch, n):
+    """Module notes, step 3: the swaps first pull each near part toward its target, the near pass
+    runs, and the swaps after it (only parts it traded away look) never move a near part or a
+    target and never lengthen the wirelength (by its definition, computed here)."""
+    import pipeline.place as place
+
+    items, region = _generated(n)
+    nets = place._nets(items)
+    pairs = {(i, items.index(next(t for t in items if t.ref == it.near.target)))
+             for i, it in enumerate(items) if it.near is not None}
+    locked_want = {k for p in pairs for k in p}
+    calls: list[dict] = []
+    real = place._improve
+
+    def spy(packer, run, nets_, progress, **kw):
+        before = dict(run.slots)
+        wl0 = _ptp_wirelength(nets_, *_centres(packer, run))
+        real(packer, run, nets_, progress, **kw)
+        calls.append(kw)
+        if kw.get("locked"):
+            assert set(kw["locked"]) == locked_want
+            assert all(run.slots[k] == before[k] for k in locked_want if k in before)
+            assert _ptp_wirelength(nets_, *_centres(packer, run)) <= wl0 + 1e-6
+
+    monkeypatch.setattr(place, "_improve", spy)
+    fit = place_and_fit(items, region, BoardOptions())
+    assert fit.fits and pairs
+    assert calls[0] == {"pull": True}
+    assert any(c.get("locked") for c in calls)  # the near pass traded something here, and it was repaired
+    assert fit.wirelength_mm == pytest.approx(_ptp_wirelength(nets, *zip(*[
+        next((p.x_mm, p.y_mm) for p in fit.placements if p.ref == it.ref) for it in items])))

@@ -553,3 +553,29 @@ def test_decoupling_targets_sort_each_list_of_ics_once(monkeypatch):
     monkeypatch.undo()
     assert set(out.values()) == {"U29"} and len(out) == 30
     assert sum(looked) <= 2 * 30
+
+
+@pytest.mark.parametrize("ics, caps, resistors, w, h", [(4, 3, 16, 26, 17), (3, 4, 8, 18, 14), (4, 1, 16, 30, 20)])
+def test_free_slot_search_stops_at_the_parts_own_distance(monkeypatch, ics, caps, resistors, w, h):
+    """A cost guard (cells counted, not seconds): with no trade to beat, the free-slot search looks only
+    as far as the part's own distance to its target (a slot farther than where it stands is no gain;
+    its own place counts as free, so the answer is the same), not over the whole board. The placement
+    is identical to a search without that limit, which scans more cells here."""
+    import pipeline.place_rules as pr
+
+    design, _ = read_design_text(_decoupled(ics, caps, resistors), LIB)
+    items = items_from_design(design, LIB, "nominal")
+    region = Region(box(0, 0, w, h), (HeightZone(box(0, 0, w, h), 5.0),), 0.8)
+    real_slot, real_scan = pr._nearest_slot, pr._scan_window
+    cells: list[int] = []
+
+    def scan(board, i, hh, ww, goal, pads, size, span):
+        cells.append((span[1] - span[0]) * (span[3] - span[2]))
+        return real_scan(board, i, hh, ww, goal, pads, size, span)
+
+    monkeypatch.setattr(pr, "_scan_window", scan)
+    limited = _placed(place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE)))
+    limited_cells, cells[:] = sum(cells), []
+    monkeypatch.setattr(pr, "_nearest_slot", lambda board, i, goal, limit=math.inf: real_slot(board, i, goal))
+    assert _placed(place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE))) == limited
+    assert 0 < limited_cells < 0.8 * sum(cells)
