@@ -142,21 +142,29 @@ def attach_rules(items: Sequence[PlaceItem], design: Any, library: Any, density:
 def _decoupling_targets(design: Any, pairs: dict[str, tuple[str, ...]], fitted: set[str]) -> dict[str, str]:
     """cap ref -> the one IC it decouples: the paired IC nearest in part order (ties: the earlier).
 
-    Caps on shared supply nets share one list of ICs: it is sorted once per distinct list and each
-    cap finds its nearest by bisection (not a scan of every IC per cap, issue 11)."""
+    ICs with the same caps (those on the same supply nets) form one group, so each distinct list
+    of caps is walked once, not once per IC (every IC pairs with every cap on shared rails:
+    O(ICs x caps) at 16,000 parts, issue 11); the caps in the same groups share one sorted list of
+    the groups' ICs and each cap finds its nearest by bisection. Cost: O(ICs + distinct cap lists'
+    lengths + caps x log ICs)."""
     index = {p.ref: n for n, p in enumerate(design.parts)}
-    ics_of: dict[str, list[str]] = {}
+    groups: dict[tuple[str, ...], list[int]] = {}  # caps -> part positions of the fitted ICs pairing them
     for ic, caps in pairs.items():
+        if ic in fitted:
+            groups.setdefault(tuple(caps), []).append(index[ic])
+    in_groups: dict[str, list[int]] = {}  # cap -> numbers of the groups that hold it
+    for k, caps in enumerate(groups):
         for c in caps:
-            if ic in fitted and c in fitted:
-                ics_of.setdefault(c, []).append(ic)
-    ordered: dict[tuple, list[int]] = {}
+            if c in fitted:
+                in_groups.setdefault(c, []).append(k)
+    lists = list(groups.values())
+    ordered: dict[tuple[int, ...], list[int]] = {}
     parts = design.parts
     out = {}
-    for c, ics in ics_of.items():
-        at = ordered.get(tuple(ics))
+    for c, ks in in_groups.items():
+        at = ordered.get(tuple(ks))
         if at is None:
-            at = ordered[tuple(ics)] = sorted(index[ic] for ic in ics)
+            at = ordered[tuple(ks)] = sorted(n for k in ks for n in lists[k])
         k = bisect.bisect_left(at, index[c])  # the nearest is one of the two either side
         out[c] = parts[min(at[max(k - 1, 0):k + 1], key=lambda n: (abs(n - index[c]), n))].ref
     return out
@@ -404,7 +412,11 @@ class _TopBoard:
     cell, so a part's blocked cells are its level's closed cells plus every
     cell another courtyard covers, read in a window instead of rebuilt for
     the whole board per moved part; ``row``, ``col``, ``turn``, ``top`` hold
-    each item's slot as arrays for the swap search.
+    each item's slot as arrays for the swap search. ``origins`` keeps, per
+    (height level, courtyard rows, columns), the board's free origins with
+    every courtyard counted (the packer's window test over the whole board,
+    once) and mends the few origins a move touches, so a wide search window
+    is a slice, not a new window test over its cells (issue 11).
     """
 
     def __init__(self, packer: Any, run: Any, fixed: dict) -> None:
@@ -419,6 +431,7 @@ class _TopBoard:
         self.wc, self.hc = np.asarray(packer.wc), np.asarray(packer.hc)
         self.index = {it.ref: k for k, it in enumerate(packer.items)}
         self.goals: dict[tuple, tuple] = {}
+        self.maps: dict[tuple[int, int, int], np.ndarray] = {}  # (level, h, w) -> free origins
         for j, slot in run.slots.items():
             self._put(j, slot, 1)
         for side, rect in fixed.values():
@@ -431,6 +444,38 @@ class _TopBoard:
         if slot[0] == "top":
             r0, r1, c0, c1 = cells_of(self.g, self.packer.rect(j, slot))
             self.occ[r0:r1, c0:c1] += add
+            for (lvl, h, w), ok in self.maps.items():  # origins whose courtyard covers a changed cell
+                a0, a1 = max(0, r0 - h + 1), min(ok.shape[0], r1)
+                b0, b1 = max(0, c0 - w + 1), min(ok.shape[1], c1)
+                if a1 > a0 and b1 > b0:
+                    ok[a0:a1, b0:b1] = _window_test(self._free(lvl, slice(a0, a1 + h - 1), slice(b0, b1 + w - 1)), h, w)
+
+    def _free(self, lvl: int, rows: slice, cols: slice) -> np.ndarray:
+        """Cells of the window inside level ``lvl``'s mask and under no top-side courtyard."""
+        return self.packer.mask(lvl)[rows, cols] & (self.occ[rows, cols] == 0)
+
+    def origins(self, i: int, h: int, w: int, span: tuple[int, int, int, int]) -> np.ndarray:
+        """Origins (rows ``span[0]:span[1]``, columns ``span[2]:span[3]``, inside the board's
+        ``ny - h + 1`` by ``nx - w + 1`` origins) where item ``i``'s ``h`` x ``w`` courtyard covers
+        only cells :meth:`free` for it: the kept whole-board origins of its level, with those whose
+        courtyard meets ``i``'s own recomputed without it. Cost: the window's cells once plus the
+        window test over ``i``'s own courtyard grown by ``h`` x ``w``."""
+        lvl = self.run.top_level[i]
+        r0, r1, c0, c1 = span
+        ok = self.maps.get((lvl, h, w))
+        if ok is None:
+            g = self.g
+            ok = self.maps[(lvl, h, w)] = _window_test(self._free(lvl, slice(0, g.ny), slice(0, g.nx)), h, w)
+        ok = ok[r0:r1, c0:c1].copy()
+        slot = self.run.slots[i]
+        if slot[0] == "top":
+            e0, e1, f0, f1 = cells_of(self.g, self.packer.rect(i, slot))
+            a0, a1 = max(r0, e0 - h + 1), min(r1, e1)
+            b0, b1 = max(c0, f0 - w + 1), min(c1, f1)
+            if a1 > a0 and b1 > b0:
+                ok[a0 - r0:a1 - r0, b0 - c0:b1 - c0] = _window_test(
+                    self.free(i, slice(a0, a1 + h - 1), slice(b0, b1 + w - 1)), h, w)
+        return ok
 
     def goal(self, rule: NearRule, at: tuple) -> np.ndarray:
         """:func:`_points` of ``rule``'s target pins with the target at ``at`` (x, y, rotation, side),
@@ -447,18 +492,21 @@ class _TopBoard:
         self.run.slots[j] = slot
         self._put(j, slot, 1)
 
-    def blocked(self, i: int, rows: slice, cols: slice) -> np.ndarray:
-        """Cells of the window ``rows`` x ``cols`` that item ``i`` may not cover: outside its level's
-        mask or under another top-side courtyard (its own does not count)."""
-        occ = self.occ[rows, cols].copy()
+    def free(self, i: int, rows: slice, cols: slice) -> np.ndarray:
+        """Cells of the window ``rows`` x ``cols`` that item ``i`` may cover: inside its level's mask
+        and under no other top-side courtyard (its own does not count: inside its own courtyard a
+        cell is free when only one courtyard covers it). One boolean array per call, no copy of
+        the counts."""
+        ok = self.packer.mask(self.run.top_level[i])[rows, cols] & (self.occ[rows, cols] == 0)
         slot = self.run.slots[i]
         if slot[0] == "top":
             r0, r1, c0, c1 = cells_of(self.g, self.packer.rect(i, slot))
-            r0, r1 = max(r0, rows.start) - rows.start, min(r1, rows.stop) - rows.start
-            c0, c1 = max(c0, cols.start) - cols.start, min(c1, cols.stop) - cols.start
+            r0, r1 = max(r0, rows.start), min(r1, rows.stop)
+            c0, c1 = max(c0, cols.start), min(c1, cols.stop)
             if r1 > r0 and c1 > c0:
-                occ[r0:r1, c0:c1] -= 1
-        return ~self.packer.mask(self.run.top_level[i])[rows, cols] | (occ > 0)
+                mine = (slice(r0 - rows.start, r1 - rows.start), slice(c0 - cols.start, c1 - cols.start))
+                ok[mine] = self.packer.mask(self.run.top_level[i])[r0:r1, c0:c1] & (self.occ[r0:r1, c0:c1] <= 1)
+        return ok
 
 
 def near_pass(packer: Any, run: Any, fixed: dict) -> None:
@@ -524,11 +572,30 @@ def _swap_bounds(board: _TopBoard, i: int, goal: np.ndarray) -> tuple[np.ndarray
     cy = (y + (y + np.where(turned, it.length_mm, it.width_mm))) / 2
     low = np.full(len(cand), np.inf)
     for t in (0, 1):
-        for _p, dx, dy, _r in turned_pads(it.near.own_package, 90 * t, "top", it.near.level):
-            px, py = np.round(cx + dx, 6), np.round(cy + dy, 6)
-            for tx, ty in goal:
-                low = np.where(turned == bool(t), np.minimum(low, np.hypot(px - tx, py - ty)), low)
+        sel = np.flatnonzero(turned == bool(t))
+        offs = np.array([(dx, dy) for _n, dx, dy in _offsets(it.near.own_package, 90 * t, "top", it.near.level)],
+                        dtype=float).reshape(-1, 2)
+        if not len(sel) or not len(offs) or not len(goal):
+            continue
+        px = np.round(cx[sel, None] + offs[None, :, 0], 6)[:, :, None]  # candidate, pad, goal point
+        py = np.round(cy[sel, None] + offs[None, :, 1], 6)[:, :, None]
+        low[sel] = np.hypot(px - goal[None, None, :, 0], py - goal[None, None, :, 1]).min(axis=(1, 2))
     return cand, low - 1e-9
+
+
+def _in_bound_order(cand: np.ndarray, low: np.ndarray, first: int = 128):
+    """``(j, bound)`` pairs in the order of ``np.lexsort((cand, low))``, lazily: the ``first``
+    lowest bounds (ties at the cut included) are sorted first and the rest only when the caller
+    reads past them (most searches stop within the first few). Cost O(n + k log k) for k read."""
+    if len(cand) > first:
+        head = low <= np.partition(low, first - 1)[first - 1]
+        parts = (head, ~head)  # every bound in the head is at most every bound after it
+    else:
+        parts = (slice(None),)
+    for part in parts:
+        c, lo = cand[part], low[part]
+        order = np.lexsort((c, lo))
+        yield from zip(c[order].tolist(), lo[order].tolist())
 
 
 def _nearest_swap(board: _TopBoard, fixed: dict, i: int, goal: np.ndarray):
@@ -540,8 +607,7 @@ def _nearest_swap(board: _TopBoard, fixed: dict, i: int, goal: np.ndarray):
     packer, run, index = board.packer, board.run, board.index
     cand, low = _swap_bounds(board, i, goal)
     best = None
-    order = np.lexsort((cand, low))
-    for j, lb in zip(cand[order].tolist(), low[order].tolist()):
+    for j, lb in _in_bound_order(cand, low):
         if best is not None and lb - 1e-6 > best[0]:
             break
         other = packer.items[j].near  # the test that turns most candidates down comes first
@@ -601,17 +667,22 @@ def _true_cells(ok: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _scan_window(board: _TopBoard, i: int, h: int, w: int, goal, pads, size, span) -> tuple | None:
-    """:func:`_scan` over the free origins of ``span`` only: the packer's sliding window test
-    (``place._feasible``) over the window's cells, not the board's."""
+    """:func:`_scan` over the free origins of ``span`` only (:meth:`_TopBoard.origins`)."""
     g = board.g
     r0, r1, c0, c1 = span
     r1, c1 = min(r1, g.ny - h + 1), min(c1, g.nx - w + 1)
     if r1 <= r0 or c1 <= c0:
         return None
-    from .place import _feasible  # the packer's own window test (imported here: place imports us)
-
-    ok = _feasible(~board.blocked(i, slice(r0, r1 + h - 1), slice(c0, c1 + w - 1)), h, w)
+    ok = board.origins(i, h, w, (r0, r1, c0, c1))
     return _scan(ok, g, goal, pads, size, (0, ok.shape[0], 0, ok.shape[1]), at=(r0, c0))
+
+
+def _window_test(free: np.ndarray, h: int, w: int) -> np.ndarray:
+    """The packer's own window test (``place._feasible``: origins whose ``h`` x ``w`` window of
+    ``free`` is all true), imported when called: :mod:`pipeline.place` imports this module."""
+    from .place import _feasible
+
+    return _feasible(free, h, w)
 
 
 def _nearest_slot(board: _TopBoard, i: int, goal: np.ndarray, limit: float = math.inf):
