@@ -101,6 +101,11 @@ EDGE_STEP_MM = 0.25
 EDGE_CANDIDATES = 40_000
 #: Geometric tolerance, mm.
 TOL = 1e-6
+#: The near pass's swap search first looks at parts with a pad this near the goal, mm (a search
+#: step, not a rule: farther parts are looked at when none of these will do).
+SWAP_REACH_MM = 12.0
+#: Side of the buckets the near pass files packed parts in by origin, mm.
+SWAP_BUCKET_MM = 4.0
 
 
 # --------------------------------------------------------------------------
@@ -432,6 +437,8 @@ class _TopBoard:
         self.index = {it.ref: k for k, it in enumerate(packer.items)}
         self.goals: dict[tuple, tuple] = {}
         self.maps: dict[tuple[int, int, int], np.ndarray] = {}  # (level, h, w) -> free origins
+        self.span = max(1, int(SWAP_BUCKET_MM / g.cell))  # grid cells per bucket side
+        self.buckets: dict[tuple[int, int, int, int], set[int]] = {}  # (wc, hc, row, col bucket) -> top items
         for j, slot in run.slots.items():
             self._put(j, slot, 1)
         for side, rect in fixed.values():
@@ -442,6 +449,11 @@ class _TopBoard:
     def _put(self, j: int, slot, add: int) -> None:
         self.row[j], self.col[j], self.turn[j], self.top[j] = slot[2], slot[3], slot[1], slot[0] == "top"
         if slot[0] == "top":
+            key = (int(self.wc[j]), int(self.hc[j]), slot[2] // self.span, slot[3] // self.span)
+            if add > 0:
+                self.buckets.setdefault(key, set()).add(j)
+            else:
+                self.buckets[key].discard(j)
             r0, r1, c0, c1 = cells_of(self.g, self.packer.rect(j, slot))
             self.occ[r0:r1, c0:c1] += add
             for (lvl, h, w), ok in self.maps.items():  # origins whose courtyard covers a changed cell
@@ -449,6 +461,25 @@ class _TopBoard:
                 b0, b1 = max(0, c0 - w + 1), min(ok.shape[1], c1)
                 if a1 > a0 and b1 > b0:
                     ok[a0:a1, b0:b1] = _window_test(self._free(lvl, slice(a0, a1 + h - 1), slice(b0, b1 + w - 1)), h, w)
+
+    def near(self, i: int, goal: np.ndarray, reach: float) -> np.ndarray:
+        """Top-side items of ``i``'s cell size (``i`` left out), ascending, among them every one
+        with a pad of ``i``'s package within ``reach`` mm of a ``goal`` point when ``i`` stands in
+        its slot: those whose origin lies within ``reach`` plus the courtyard's longer side and
+        the pads' farthest offset of the goal's box, read from the buckets it meets. Cost: the
+        buckets of that box."""
+        g, it, span = self.g, self.packer.items[i], self.span
+        offs = [abs(v) for t in (0, 90) for _n, dx, dy in _offsets(it.near.own_package, t, "top", it.near.level)
+                for v in (dx, dy)]
+        grow = reach + max(it.length_mm, it.width_mm) + max(offs, default=0.0) + g.cell
+        r0, r1, c0, c1 = _window(g, goal, grow)
+        wc, hc = int(self.wc[i]), int(self.hc[i])
+        found: list[int] = []
+        for br in range(r0 // span, r1 // span + 1):
+            for bc in range(c0 // span, c1 // span + 1):
+                found.extend(self.buckets.get((wc, hc, br, bc), ()))
+        out = np.array(sorted(found), dtype=np.int64)
+        return out[out != i]
 
     def _free(self, lvl: int, rows: slice, cols: slice) -> np.ndarray:
         """Cells of the window inside level ``lvl``'s mask and under no top-side courtyard."""
@@ -557,13 +588,17 @@ def _stands(packer, run, k: int, slot) -> bool:
     return bool(packer.mask(lvl)[r0:r1, c0:c1].all())
 
 
-def _swap_bounds(board: _TopBoard, i: int, goal: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """The packed top-side parts of ``i``'s cell size (``i`` left out) and, for each, a lower bound of
-    the distance from ``i``'s pads in its slot to ``goal``: :func:`_slot_distance` for all of them at
-    once with numpy (its rounding to the nanometre may differ in the last bit), less 1e-9 mm."""
-    packer, g = board.packer, board.g
+def _swap_candidates(board: _TopBoard, i: int) -> np.ndarray:
+    """Every packed top-side part of ``i``'s cell size, ``i`` left out, ascending. Cost O(n)."""
     cand = np.flatnonzero(board.top & (board.wc == board.wc[i]) & (board.hc == board.hc[i]))
-    cand = cand[cand != i]  # top is set only for items in run.slots
+    return cand[cand != i]  # top is set only for items in run.slots
+
+
+def _swap_bounds(board: _TopBoard, i: int, goal: np.ndarray, cand: np.ndarray) -> np.ndarray:
+    """For each of the items ``cand``, a lower bound of the distance from ``i``'s pads in its slot to
+    ``goal``: :func:`_slot_distance` for all of them at once with numpy (its rounding to the
+    nanometre may differ in the last bit), less 1e-9 mm."""
+    packer, g = board.packer, board.g
     it = packer.items[i]
     turned = board.turn[cand] != 0
     x = g.x0 + board.col[cand] * g.cell
@@ -580,34 +615,39 @@ def _swap_bounds(board: _TopBoard, i: int, goal: np.ndarray) -> tuple[np.ndarray
         px = np.round(cx[sel, None] + offs[None, :, 0], 6)[:, :, None]  # candidate, pad, goal point
         py = np.round(cy[sel, None] + offs[None, :, 1], 6)[:, :, None]
         low[sel] = np.hypot(px - goal[None, None, :, 0], py - goal[None, None, :, 1]).min(axis=(1, 2))
-    return cand, low - 1e-9
+    return low - 1e-9
 
 
-def _in_bound_order(cand: np.ndarray, low: np.ndarray, first: int = 128):
-    """``(j, bound)`` pairs in the order of ``np.lexsort((cand, low))``, lazily: the ``first``
-    lowest bounds (ties at the cut included) are sorted first and the rest only when the caller
-    reads past them (most searches stop within the first few). Cost O(n + k log k) for k read."""
-    if len(cand) > first:
-        head = low <= np.partition(low, first - 1)[first - 1]
-        parts = (head, ~head)  # every bound in the head is at most every bound after it
-    else:
-        parts = (slice(None),)
-    for part in parts:
-        c, lo = cand[part], low[part]
-        order = np.lexsort((c, lo))
-        yield from zip(c[order].tolist(), lo[order].tolist())
+def _swap_order(board: _TopBoard, i: int, goal: np.ndarray):
+    """``(j, bound)`` for every swap candidate of ``i`` (:func:`_swap_candidates`) in the order of
+    ``np.lexsort((cand, bound))`` (:func:`_swap_bounds`), lazily: first those with a bound within
+    :data:`SWAP_REACH_MM` of the goal, from the buckets round it (:meth:`_TopBoard.near`, a
+    superset of them); the whole size class only when the caller reads past them (most searches
+    end within the first few). Cost: the buckets near the goal, O(n) only for a search that
+    goes farther."""
+    cut = SWAP_REACH_MM - 1e-6
+    near = board.near(i, goal, SWAP_REACH_MM)
+    low = _swap_bounds(board, i, goal, near)
+    yield from _sorted_pairs(near[low <= cut], low[low <= cut])
+    cand = _swap_candidates(board, i)
+    low = _swap_bounds(board, i, goal, cand)
+    yield from _sorted_pairs(cand[low > cut], low[low > cut])
+
+
+def _sorted_pairs(cand: np.ndarray, low: np.ndarray):
+    order = np.lexsort((cand, low))
+    return zip(cand[order].tolist(), low[order].tolist())
 
 
 def _nearest_swap(board: _TopBoard, fixed: dict, i: int, goal: np.ndarray):
     """(distance, j) of the packed top-side part of ``i``'s cell size whose slot brings ``i``'s pads
     nearest ``goal``; a trade keeps both legal when each may stand, by height, in the other's cells
     (the cells are the same); a part with a near rule of its own is taken only when ``i``'s old slot
-    still meets it. Candidates are visited by a lower bound of their distance (:func:`_swap_bounds`)
+    still meets it. Candidates are visited by a lower bound of their distance (:func:`_swap_order`)
     and the search stops once the bound passes the best found: the same answer as trying them all."""
     packer, run, index = board.packer, board.run, board.index
-    cand, low = _swap_bounds(board, i, goal)
     best = None
-    for j, lb in _in_bound_order(cand, low):
+    for j, lb in _swap_order(board, i, goal):
         if best is not None and lb - 1e-6 > best[0]:
             break
         other = packer.items[j].near  # the test that turns most candidates down comes first

@@ -317,9 +317,8 @@ def test_near_pass_windows_give_the_whole_board_answer_and_scan_less(monkeypatch
     board = -min(seen)
     assert windows and sum(windows) < 0.25 * board * len(windows)
     monkeypatch.setattr(pr, "_window", lambda g, goal, reach: (0, g.ny, 0, g.nx))  # every origin, at once
-    real_bounds = pr._swap_bounds
-    monkeypatch.setattr(pr, "_swap_bounds",
-                        lambda board, i, goal: (lambda c, low: (c, low - math.inf))(*real_bounds(board, i, goal)))
+    monkeypatch.setattr(pr, "_swap_order",  # every candidate, none passed over by a bound
+                        lambda board, i, goal: ((j, -math.inf) for j in pr._swap_candidates(board, i).tolist()))
     assert _placed(place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE))) == fast
 
 
