@@ -104,8 +104,6 @@ TOL = 1e-6
 #: The near pass's swap search first looks at parts with a pad this near the goal, mm (a search
 #: step, not a rule: farther parts are looked at when none of these will do).
 SWAP_REACH_MM = 12.0
-#: Side of the buckets the near pass files packed parts in by origin, mm.
-SWAP_BUCKET_MM = 4.0
 
 
 # --------------------------------------------------------------------------
@@ -437,8 +435,6 @@ class _TopBoard:
         self.index = {it.ref: k for k, it in enumerate(packer.items)}
         self.goals: dict[tuple, tuple] = {}
         self.maps: dict[tuple[int, int, int], np.ndarray] = {}  # (level, h, w) -> free origins
-        self.span = max(1, int(SWAP_BUCKET_MM / g.cell))  # grid cells per bucket side
-        self.buckets: dict[tuple[int, int, int, int], set[int]] = {}  # (wc, hc, row, col bucket) -> top items
         for j, slot in run.slots.items():
             self._put(j, slot, 1)
         for side, rect in fixed.values():
@@ -449,11 +445,6 @@ class _TopBoard:
     def _put(self, j: int, slot, add: int) -> None:
         self.row[j], self.col[j], self.turn[j], self.top[j] = slot[2], slot[3], slot[1], slot[0] == "top"
         if slot[0] == "top":
-            key = (int(self.wc[j]), int(self.hc[j]), slot[2] // self.span, slot[3] // self.span)
-            if add > 0:
-                self.buckets.setdefault(key, set()).add(j)
-            else:
-                self.buckets[key].discard(j)
             r0, r1, c0, c1 = cells_of(self.g, self.packer.rect(j, slot))
             self.occ[r0:r1, c0:c1] += add
             for (lvl, h, w), ok in self.maps.items():  # origins whose courtyard covers a changed cell
@@ -462,24 +453,16 @@ class _TopBoard:
                 if a1 > a0 and b1 > b0:
                     ok[a0:a1, b0:b1] = _window_test(self._free(lvl, slice(a0, a1 + h - 1), slice(b0, b1 + w - 1)), h, w)
 
-    def near(self, i: int, goal: np.ndarray, reach: float) -> np.ndarray:
-        """Top-side items of ``i``'s cell size (``i`` left out), ascending, among them every one
-        with a pad of ``i``'s package within ``reach`` mm of a ``goal`` point when ``i`` stands in
-        its slot: those whose origin lies within ``reach`` plus the courtyard's longer side and
-        the pads' farthest offset of the goal's box, read from the buckets it meets. Cost: the
-        buckets of that box."""
-        g, it, span = self.g, self.packer.items[i], self.span
+    def reach_box(self, i: int, goal: np.ndarray, reach: float) -> tuple[tuple[int, int, int, int], bool]:
+        """Grid rows and columns ``(r0, r1, c0, c1)``, bounds included, holding the origin of every
+        slot in which a pad of ``i``'s package comes within ``reach`` mm of a ``goal`` point (the
+        goal's box grown by ``reach``, the courtyard's longer side and the pads' farthest offset);
+        and whether that box holds the whole board."""
+        g, it = self.g, self.packer.items[i]
         offs = [abs(v) for t in (0, 90) for _n, dx, dy in _offsets(it.near.own_package, t, "top", it.near.level)
                 for v in (dx, dy)]
-        grow = reach + max(it.length_mm, it.width_mm) + max(offs, default=0.0) + g.cell
-        r0, r1, c0, c1 = _window(g, goal, grow)
-        wc, hc = int(self.wc[i]), int(self.hc[i])
-        found: list[int] = []
-        for br in range(r0 // span, r1 // span + 1):
-            for bc in range(c0 // span, c1 // span + 1):
-                found.extend(self.buckets.get((wc, hc, br, bc), ()))
-        out = np.array(sorted(found), dtype=np.int64)
-        return out[out != i]
+        box = _window(g, goal, reach + max(it.length_mm, it.width_mm) + max(offs, default=0.0) + g.cell)
+        return box, box[0] == 0 and box[2] == 0 and box[1] >= g.ny and box[3] >= g.nx
 
     def _free(self, lvl: int, rows: slice, cols: slice) -> np.ndarray:
         """Cells of the window inside level ``lvl``'s mask and under no top-side courtyard."""
@@ -620,18 +603,28 @@ def _swap_bounds(board: _TopBoard, i: int, goal: np.ndarray, cand: np.ndarray) -
 
 def _swap_order(board: _TopBoard, i: int, goal: np.ndarray):
     """``(j, bound)`` for every swap candidate of ``i`` (:func:`_swap_candidates`) in the order of
-    ``np.lexsort((cand, bound))`` (:func:`_swap_bounds`), lazily: first those with a bound within
-    :data:`SWAP_REACH_MM` of the goal, from the buckets round it (:meth:`_TopBoard.near`, a
-    superset of them); the whole size class only when the caller reads past them (most searches
-    end within the first few). Cost: the buckets near the goal, O(n) only for a search that
-    goes farther."""
-    cut = SWAP_REACH_MM - 1e-6
-    near = board.near(i, goal, SWAP_REACH_MM)
-    low = _swap_bounds(board, i, goal, near)
-    yield from _sorted_pairs(near[low <= cut], low[low <= cut])
+    ``np.lexsort((cand, bound))`` (:func:`_swap_bounds`), lazily, ring by ring: first those with a
+    bound within :data:`SWAP_REACH_MM` of the goal (their origins lie in
+    :meth:`_TopBoard.reach_box`), then those within twice that, and so on; once the box holds the
+    board, the rest. Each candidate's bound is computed once, when its origin first lies in a box.
+    The caller stops at its first bound past the best trade, so most searches sort one ring, not
+    the size class. Cost: O(n) array work per ring read (a few vector operations) plus the bounds
+    and sorting of the candidates read."""
     cand = _swap_candidates(board, i)
-    low = _swap_bounds(board, i, goal, cand)
-    yield from _sorted_pairs(cand[low > cut], low[low > cut])
+    rows, cols = board.row[cand], board.col[cand]
+    low = np.full(len(cand), np.nan)
+    lo_cut, reach = -math.inf, SWAP_REACH_MM
+    while True:
+        (r0, r1, c0, c1), whole = board.reach_box(i, goal, reach)
+        inside = np.ones(len(cand), dtype=bool) if whole else (rows >= r0) & (rows <= r1) & (cols >= c0) & (cols <= c1)
+        new = np.flatnonzero(inside & np.isnan(low))
+        low[new] = _swap_bounds(board, i, goal, cand[new])
+        cut = math.inf if whole else reach - 1e-6
+        ring = inside & (low > lo_cut) & (low <= cut)
+        yield from _sorted_pairs(cand[ring], low[ring])
+        if whole:
+            return
+        lo_cut, reach = cut, 2 * reach
 
 
 def _sorted_pairs(cand: np.ndarray, low: np.ndarray):
