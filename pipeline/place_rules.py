@@ -304,11 +304,12 @@ def _best_edge_spot(spots, taken: list, placed: list, has_zone: bool, struck: li
     """(tier, x, y, rotation, distance) of the best free candidate, or None (module notes: tiers).
 
     ``struck`` is ``[free, n]``: the spots none of ``taken[:n]`` covers, kept between calls, so each
-    taken courtyard is looked up in the spots' tree once, not once per later part (updated here)."""
+    taken courtyard is looked up in the spots' tree once, not once per later part (updated here;
+    :func:`_tier_spots` appends the spots of each tier)."""
     if spots is None:
         return None
     x, y, rot, boxes, tier, de, dz, tree = spots
-    free, done = struck
+    free, done = struck[0], struck[1]
     if len(taken) > done:
         r = np.array(taken[done:], dtype=float).reshape(-1, 4) + np.array([1e-7, 1e-7, -1e-7, -1e-7])
         # (touching is legal)
@@ -316,10 +317,12 @@ def _best_edge_spot(spots, taken: list, placed: list, has_zone: bool, struck: li
         _, hit = tree.query(shrunk, predicate="intersects")
         free[hit] = False
         struck[1] = len(taken)
-    if not free.any():
+    # the first sort key first: the free spots of the best tier that has any (each tier's spots
+    # kept ascending, so only the tiers up to that one are read, not every spot)
+    tiers = _tier_spots(tier, struck)
+    idx = next((sub for sub in (t[free[t]] for t in tiers) if len(sub)), None)
+    if idx is None:
         return None
-    idx = np.flatnonzero(free)
-    idx = idx[tier[idx] == tier[idx].min()]  # the first sort key first: the rest only for its best tier
     x, y, rot, tier, de, dz = x[idx], y[idx], rot[idx], tier[idx], de[idx], dz[idx]
     if has_zone:
         score, far = np.where(tier == 0, de + 1e-3 * dz, dz), dz
@@ -331,6 +334,14 @@ def _best_edge_spot(spots, taken: list, placed: list, has_zone: bool, struck: li
             score = np.where(tier == 1, np.round(np.hypot(x - cx, y - cy), 6), de)
     k = _lex_first(score, lambda k: np.round(y[k], 6), lambda k: np.round(x[k], 6), rot)
     return int(tier[k]), float(x[k]), float(y[k]), int(rot[k]), float(far[k])
+
+
+def _tier_spots(tier: np.ndarray, struck: list) -> list[np.ndarray]:
+    """The spot indices of each tier present, best tier first, ascending within a tier; kept in
+    ``struck`` (its third item) after the first call."""
+    if len(struck) < 3:
+        struck.append([np.flatnonzero(tier == t) for t in np.unique(tier).tolist()])
+    return struck[2]
 
 
 def _lex_first(*keys) -> int:

@@ -646,8 +646,9 @@ class _BoxGrid:
     def hits(self, b) -> bool:
         bx0, by0, bx1, by1 = b
         get = self.cells.get
-        xs, ys = self._span(b)
-        for i in xs:
+        c = self.cell  # the cells of _span, inline (the label placer asks this for every spot it tries)
+        ys = range(math.floor(by0 / c), math.floor(by1 / c) + 1)
+        for i in range(math.floor(bx0 / c), math.floor(bx1 / c) + 1):
             for j in ys:
                 boxes = get((i, j))
                 if not boxes:
