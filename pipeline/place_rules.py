@@ -569,8 +569,13 @@ def _slot_distance(packer, i: int, slot, goal: np.ndarray) -> float:
     """Nearest distance from item ``i``'s pads in ``slot`` to ``goal``: :func:`_points` at the
     slot's centre (the same :func:`board_xy` positions)."""
     x1, y1, x2, y2 = packer.rect(i, slot)
-    own = _points(packer.items[i].near, True, (x1 + x2) / 2, (y1 + y2) / 2, 90 if slot[1] else 0, slot[0])
-    return float(np.min(np.hypot(own[:, None, 0] - goal[None, :, 0], own[:, None, 1] - goal[None, :, 1])))
+    rule = packer.items[i].near
+    cx, cy = (x1 + x2) / 2, (y1 + y2) / 2
+    own = [board_xy(cx, cy, dx, dy) for _n, dx, dy in _offsets(rule.own_package, 90 if slot[1] else 0, slot[0],
+                                                                 rule.level)]
+    # numpy's hypot on each pair, as near_distance's array does (the same floats), without building
+    # arrays for two to eight pairs: the swap search asks this for every candidate it reads
+    return float(min(np.hypot(px - tx, py - ty) for px, py in own for tx, ty in goal.tolist()))
 
 
 def _stands(packer, run, k: int, slot) -> bool:
