@@ -552,3 +552,50 @@ def test_decoupling_targets_sort_each_list_of_ics_once(monkeypatch):
     monkeypatch.undo()
     assert set(out.values()) == {"U29"} and len(out) == 30
     assert sum(looked) <= 2 * 30
+
+
+def test_decoupling_targets_walk_each_shared_cap_list_once():
+    """A cost guard (membership tests counted, not seconds): ICs on one shared rail all pair with
+    every cap; their equal lists are walked once, not once per IC (30 x 30 = 900 tests), and the
+    answer is the plain minimum over every pair (the rule as written, ties to the earlier IC)."""
+    from types import SimpleNamespace
+
+    from pipeline.place_rules import _decoupling_targets
+
+    refs = [r for n in range(30) for r in (f"U{n}", f"C{n}")]
+    caps = tuple(f"C{n}" for n in range(30))
+    pairs = {f"U{n}": tuple(caps) for n in range(30)}  # equal lists, not one object
+    design = SimpleNamespace(parts=[SimpleNamespace(ref=r) for r in refs])
+    asked: list[str] = []
+
+    class Counting(set):
+        def __contains__(self, item):
+            asked.append(item)
+            return set.__contains__(self, item)
+
+    out = _decoupling_targets(design, pairs, Counting(refs))
+    pos = {r: k for k, r in enumerate(refs)}
+    want = {c: min(pairs, key=lambda u: (abs(pos[u] - pos[c]), pos[u])) for c in caps}
+    assert out == want and out["C7"] == "U7"
+    assert len(asked) <= 2 * (len(pairs) + len(caps))
+
+
+def test_near_pass_swap_search_reads_rings_not_the_whole_size_class(monkeypatch):
+    """A cost guard (bounds counted, not seconds): the swap search works out the lower bounds of the
+    candidates ring by ring round the goal and stops at the first ring past its best trade, so on a
+    board of 600 resistors of the capacitors' size it computes far fewer bounds than movers x
+    candidates (every candidate per mover, O(n) per moved part, before issue 11's change)."""
+    import pipeline.place_rules as pr
+
+    design, _ = read_design_text(_decoupled(8, 3, 600), LIB)
+    items = items_from_design(design, LIB, "nominal")
+    region = Region(box(0, 0, 80, 50), (HeightZone(box(0, 0, 80, 50), 5.0),), 0.8)
+    bounds: list[int] = []
+    every: list[int] = []
+    real_bounds, real_candidates = pr._swap_bounds, pr._swap_candidates
+    monkeypatch.setattr(pr, "_swap_bounds", lambda b, i, g, c: (bounds.append(len(c)), real_bounds(b, i, g, c))[1])
+    monkeypatch.setattr(pr, "_swap_candidates", lambda b, i: (lambda c: (every.append(len(c)), c)[1])(
+        real_candidates(b, i)))
+    assert place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE)).fits
+    assert len(every) >= 10 and min(every) > 600  # movers, each seeing the whole size class
+    assert sum(bounds) < 0.5 * sum(every)
