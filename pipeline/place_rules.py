@@ -57,8 +57,11 @@ the packer's own window test over the blocked cells (outside the level's mask or
 another courtyard, counted once for the board and updated as parts move), so a move is legal on
 the same grid the packer uses and the placer's shapely self-check still applies. The free
 origins are searched in a window round the goal, widened only as far as the best trade found
-allows (or, with no trade, until nothing outside can be nearer); trades are tried in order of
-a lower bound of their distance. Cost: O(window cells + n) per moved part for n parts, the
+allows (or, with no trade, until nothing outside can be nearer), read from free origins kept
+for the whole board per height level and courtyard size and mended where a part moves; trades
+are tried in order of a lower bound of their distance, ring by ring round the goal (12, 24,
+48 mm ...), the bounds of a ring's candidates computed when it is read. Cost: O(window cells + n)
+per moved part for n parts (the n a few vector operations per ring over the size class), the
 window about the rule's distance (the trade's) across.
 
 Defaults (common practice, from memory)
