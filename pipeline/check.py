@@ -147,8 +147,11 @@ def decoupling_caps(design: Design, g: nx.MultiGraph, cat: Mapping[str, str]) ->
     Common practice (REFERENCES.md section 7): a capacitor with one pin on
     each of two of the IC's supply nets decouples it. Only ICs with two or
     more supply pins on two or more nets are keys; caps in design order.
-    Cost O(parts + ICs x supply-net pairs + caps found): the caps are indexed
-    by their net pair, so an IC looks up its pairs instead of scanning the caps.
+    Cost O(parts + ICs x supply-net pairs + caps found once per distinct set of
+    supply nets): the caps are indexed by their net pair, so an IC looks up its
+    pairs instead of scanning the caps, and ICs on the same supply nets share one
+    tuple (on shared rails every IC pairs with every cap: computing it per IC was
+    O(ICs x caps), issue 11).
     """
     caps = [p for p in design.parts if p.kind in ("capacitor", "capacitor-polarized")]
     by_pair: dict[frozenset, list[tuple[int, str]]] = {}  # net pair -> (design position, ref)
@@ -157,14 +160,18 @@ def decoupling_caps(design: Design, g: nx.MultiGraph, cat: Mapping[str, str]) ->
         if len(nets) == 2 and nets[0] != nets[1]:
             by_pair.setdefault(frozenset(nets), []).append((k, c.ref))
     out: dict[str, tuple[str, ...]] = {}
+    shared: dict[tuple[str, ...], tuple[str, ...]] = {}  # an IC's supply nets -> its caps
     for p in design.parts:
         if cat.get(p.kind) != "ic":
             continue
         supply, nets = _supply_nets(g, p.ref, p.pins)
         if len(supply) >= 2 and len(nets) >= 2:
-            pairs = {frozenset(pair) for pair in combinations(nets, 2)}
-            found = sorted(hit for pair in pairs for hit in by_pair.get(pair, ()))
-            out[p.ref] = tuple(ref for _k, ref in found)
+            found = shared.get(tuple(nets))
+            if found is None:
+                pairs = {frozenset(pair) for pair in combinations(nets, 2)}
+                hits = sorted(hit for pair in pairs for hit in by_pair.get(pair, ()))
+                found = shared[tuple(nets)] = tuple(ref for _k, ref in hits)
+            out[p.ref] = found
     return out
 
 

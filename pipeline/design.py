@@ -275,45 +275,15 @@ def _at(src: TomlSource, key: str) -> dict[str, Any]:
 
 
 def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dict[str, str]) -> Part:
+    """One ``[parts.REF]`` table as a :class:`Part`: its kind and package (:func:`_part_kind`), value,
+    tolerance and rating (:func:`_part_values`), then the plain keys. Cost O(keys of the table)."""
     key = f"parts.{ref}"
     if not _REF_RE.match(ref):
         raise _err(src, key, f"'{ref}' is not a usable reference: start with a letter, then letters, digits or _")
     body = _expect_table(src, key, body)
     _unknown(src, key, body, _PART_KEYS)
-    if "kind" not in body:
-        raise _err(src, f"{key}.kind", "every part needs a kind, e.g. kind = \"resistor\"")
-    kname = _expect_str(src, f"{key}.kind", body["kind"])
-    kind = lib.kind(kname, **_at(src, f"{key}.kind"))
-
-    pkg_name = body.get("package") or default_pkgs.get(kname, "")
-    if not pkg_name:
-        raise _err(src, f"{key}.package", "every part needs a package, e.g. package = \"0603\"")
-    pkg_name = _expect_str(src, f"{key}.package", pkg_name)
-    package = lib.package(pkg_name, **_at(src, f"{key}.package"))
-    pins = tuple(lib.pins_for(kind, package))
-    if not kind.pins_from_package and package.pin_count and package.pin_count != len(pins):
-        raise _err(src, f"{key}.package",
-                   f"package {package.name} has {package.pin_count} pins but kind {kind.name} has {len(pins)}")
-
-    value: float | None = None
-    value_text = ""
-    if "value" in body:
-        value_text = _expect_str(src, f"{key}.value", body["value"])
-        if kind.value_unit:
-            value = _values.parse_value(value_text, kind.value_unit, at=_where(src, f"{key}.value"))
-    elif kind.value_unit:
-        raise _err(src, f"{key}.value", f"a {kind.name} needs a value, e.g. value = \"10k\"")
-
-    tol = None
-    tol_text = ""
-    if "tolerance" in body:
-        tol_text = _expect_str(src, f"{key}.tolerance", body["tolerance"])
-        tol = _values.parse_tolerance(tol_text, at=_where(src, f"{key}.tolerance"))
-    rv = rw = None
-    rating_text = ""
-    if "rating" in body:
-        rating_text = _expect_str(src, f"{key}.rating", body["rating"])
-        rv, rw = _values.parse_rating(rating_text, at=_where(src, f"{key}.rating"))
+    kind, package, pins = _part_kind(src, key, body, lib, default_pkgs)
+    values = _part_values(src, key, body, kind)
     dnp = body.get("dnp", False)
     if not isinstance(dnp, bool):
         raise _err(src, f"{key}.dnp", "dnp must be true or false")
@@ -327,14 +297,57 @@ def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dic
                                             f"got {height!r}")
     return Part(
         fixed=_read_fixed(src, key, body), ask=_read_ask(src, key, body),
-        ref=ref, kind=kind.name, package=package.name, pins=pins, value=value, value_text=value_text,
-        tolerance=tol, tolerance_text=tol_text, rating_v=rv, rating_w=rw, rating_text=rating_text,
+        ref=ref, kind=kind.name, package=package.name, pins=pins, **values,
         manufacturer=_expect_str(src, f"{key}.manufacturer", body.get("manufacturer", "")),
         mpn=_expect_str(src, f"{key}.mpn", body.get("mpn", "")),
         note=_expect_str(src, f"{key}.note", body.get("note", "")),
         dnp=dnp, extra=extra, line=src.line(key) or 0,
         height_mm=None if height is None else float(height),
     )
+
+
+def _part_kind(src: TomlSource, key: str, body: dict, lib: Any, default_pkgs: dict[str, str]) -> tuple:
+    """``(kind, package, pins)`` of the part table ``key``: the kind and package looked up in the
+    library (the kind's default package when none is written), pins checked against the package."""
+    if "kind" not in body:
+        raise _err(src, f"{key}.kind", "every part needs a kind, e.g. kind = \"resistor\"")
+    kname = _expect_str(src, f"{key}.kind", body["kind"])
+    kind = lib.kind(kname, **_at(src, f"{key}.kind"))
+    pkg_name = body.get("package") or default_pkgs.get(kname, "")
+    if not pkg_name:
+        raise _err(src, f"{key}.package", "every part needs a package, e.g. package = \"0603\"")
+    pkg_name = _expect_str(src, f"{key}.package", pkg_name)
+    package = lib.package(pkg_name, **_at(src, f"{key}.package"))
+    pins = tuple(lib.pins_for(kind, package))
+    if not kind.pins_from_package and package.pin_count and package.pin_count != len(pins):
+        raise _err(src, f"{key}.package",
+                   f"package {package.name} has {package.pin_count} pins but kind {kind.name} has {len(pins)}")
+    return kind, package, pins
+
+
+def _part_values(src: TomlSource, key: str, body: dict, kind: Any) -> dict[str, Any]:
+    """The part's value (SI units of the kind's value unit), tolerance (a fraction) and rating
+    (V, W), each with its text as written: :class:`Part`'s fields of those names."""
+    value: float | None = None
+    value_text = ""
+    if "value" in body:
+        value_text = _expect_str(src, f"{key}.value", body["value"])
+        if kind.value_unit:
+            value = _values.parse_value(value_text, kind.value_unit, at=_where(src, f"{key}.value"))
+    elif kind.value_unit:
+        raise _err(src, f"{key}.value", f"a {kind.name} needs a value, e.g. value = \"10k\"")
+    tol = None
+    tol_text = ""
+    if "tolerance" in body:
+        tol_text = _expect_str(src, f"{key}.tolerance", body["tolerance"])
+        tol = _values.parse_tolerance(tol_text, at=_where(src, f"{key}.tolerance"))
+    rv = rw = None
+    rating_text = ""
+    if "rating" in body:
+        rating_text = _expect_str(src, f"{key}.rating", body["rating"])
+        rv, rw = _values.parse_rating(rating_text, at=_where(src, f"{key}.rating"))
+    return dict(value=value, value_text=value_text, tolerance=tol, tolerance_text=tol_text,
+                rating_v=rv, rating_w=rw, rating_text=rating_text)
 
 
 def _resolve_pin(src: TomlSource, key: str, text: str, by_ref: dict[str, Part]) -> PinRef:

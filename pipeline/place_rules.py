@@ -57,8 +57,11 @@ the packer's own window test over the blocked cells (outside the level's mask or
 another courtyard, counted once for the board and updated as parts move), so a move is legal on
 the same grid the packer uses and the placer's shapely self-check still applies. The free
 origins are searched in a window round the goal, widened only as far as the best trade found
-allows (or, with no trade, until nothing outside can be nearer); trades are tried in order of
-a lower bound of their distance. Cost: O(window cells + n) per moved part for n parts, the
+allows (or, with no trade, until nothing outside can be nearer), read from free origins kept
+for the whole board per height level and courtyard size and mended where a part moves; trades
+are tried in order of a lower bound of their distance, ring by ring round the goal (12, 24,
+48 mm ...), the bounds of a ring's candidates computed when it is read. Cost: O(window cells + n)
+per moved part for n parts (the n a few vector operations per ring over the size class), the
 window about the rule's distance (the trade's) across.
 
 Defaults (common practice, from memory)
@@ -101,6 +104,9 @@ EDGE_STEP_MM = 0.25
 EDGE_CANDIDATES = 40_000
 #: Geometric tolerance, mm.
 TOL = 1e-6
+#: The near pass's swap search first looks at parts with a pad this near the goal, mm (a search
+#: step, not a rule: farther parts are looked at when none of these will do).
+SWAP_REACH_MM = 12.0
 
 
 # --------------------------------------------------------------------------
@@ -142,21 +148,29 @@ def attach_rules(items: Sequence[PlaceItem], design: Any, library: Any, density:
 def _decoupling_targets(design: Any, pairs: dict[str, tuple[str, ...]], fitted: set[str]) -> dict[str, str]:
     """cap ref -> the one IC it decouples: the paired IC nearest in part order (ties: the earlier).
 
-    Caps on shared supply nets share one list of ICs: it is sorted once per distinct list and each
-    cap finds its nearest by bisection (not a scan of every IC per cap, issue 11)."""
+    ICs with the same caps (those on the same supply nets) form one group, so each distinct list
+    of caps is walked once, not once per IC (every IC pairs with every cap on shared rails:
+    O(ICs x caps) at 16,000 parts, issue 11); the caps in the same groups share one sorted list of
+    the groups' ICs and each cap finds its nearest by bisection. Cost: O(ICs + distinct cap lists'
+    lengths + caps x log ICs)."""
     index = {p.ref: n for n, p in enumerate(design.parts)}
-    ics_of: dict[str, list[str]] = {}
+    groups: dict[tuple[str, ...], list[int]] = {}  # caps -> part positions of the fitted ICs pairing them
     for ic, caps in pairs.items():
+        if ic in fitted:
+            groups.setdefault(tuple(caps), []).append(index[ic])
+    in_groups: dict[str, list[int]] = {}  # cap -> numbers of the groups that hold it
+    for k, caps in enumerate(groups):
         for c in caps:
-            if ic in fitted and c in fitted:
-                ics_of.setdefault(c, []).append(ic)
-    ordered: dict[tuple, list[int]] = {}
+            if c in fitted:
+                in_groups.setdefault(c, []).append(k)
+    lists = list(groups.values())
+    ordered: dict[tuple[int, ...], list[int]] = {}
     parts = design.parts
     out = {}
-    for c, ics in ics_of.items():
-        at = ordered.get(tuple(ics))
+    for c, ks in in_groups.items():
+        at = ordered.get(tuple(ks))
         if at is None:
-            at = ordered[tuple(ics)] = sorted(index[ic] for ic in ics)
+            at = ordered[tuple(ks)] = sorted(n for k in ks for n in lists[k])
         k = bisect.bisect_left(at, index[c])  # the nearest is one of the two either side
         out[c] = parts[min(at[max(k - 1, 0):k + 1], key=lambda n: (abs(n - index[c]), n))].ref
     return out
@@ -293,11 +307,12 @@ def _best_edge_spot(spots, taken: list, placed: list, has_zone: bool, struck: li
     """(tier, x, y, rotation, distance) of the best free candidate, or None (module notes: tiers).
 
     ``struck`` is ``[free, n]``: the spots none of ``taken[:n]`` covers, kept between calls, so each
-    taken courtyard is looked up in the spots' tree once, not once per later part (updated here)."""
+    taken courtyard is looked up in the spots' tree once, not once per later part (updated here;
+    :func:`_tier_spots` appends the spots of each tier)."""
     if spots is None:
         return None
     x, y, rot, boxes, tier, de, dz, tree = spots
-    free, done = struck
+    free, done = struck[0], struck[1]
     if len(taken) > done:
         r = np.array(taken[done:], dtype=float).reshape(-1, 4) + np.array([1e-7, 1e-7, -1e-7, -1e-7])
         # (touching is legal)
@@ -305,10 +320,12 @@ def _best_edge_spot(spots, taken: list, placed: list, has_zone: bool, struck: li
         _, hit = tree.query(shrunk, predicate="intersects")
         free[hit] = False
         struck[1] = len(taken)
-    if not free.any():
+    # the first sort key first: the free spots of the best tier that has any (each tier's spots
+    # kept ascending, so only the tiers up to that one are read, not every spot)
+    tiers = _tier_spots(tier, struck)
+    idx = next((sub for sub in (t[free[t]] for t in tiers) if len(sub)), None)
+    if idx is None:
         return None
-    idx = np.flatnonzero(free)
-    idx = idx[tier[idx] == tier[idx].min()]  # the first sort key first: the rest only for its best tier
     x, y, rot, tier, de, dz = x[idx], y[idx], rot[idx], tier[idx], de[idx], dz[idx]
     if has_zone:
         score, far = np.where(tier == 0, de + 1e-3 * dz, dz), dz
@@ -320,6 +337,14 @@ def _best_edge_spot(spots, taken: list, placed: list, has_zone: bool, struck: li
             score = np.where(tier == 1, np.round(np.hypot(x - cx, y - cy), 6), de)
     k = _lex_first(score, lambda k: np.round(y[k], 6), lambda k: np.round(x[k], 6), rot)
     return int(tier[k]), float(x[k]), float(y[k]), int(rot[k]), float(far[k])
+
+
+def _tier_spots(tier: np.ndarray, struck: list) -> list[np.ndarray]:
+    """The spot indices of each tier present, best tier first, ascending within a tier; kept in
+    ``struck`` (its third item) after the first call."""
+    if len(struck) < 3:
+        struck.append([np.flatnonzero(tier == t) for t in np.unique(tier).tolist()])
+    return struck[2]
 
 
 def _lex_first(*keys) -> int:
@@ -404,7 +429,11 @@ class _TopBoard:
     cell, so a part's blocked cells are its level's closed cells plus every
     cell another courtyard covers, read in a window instead of rebuilt for
     the whole board per moved part; ``row``, ``col``, ``turn``, ``top`` hold
-    each item's slot as arrays for the swap search.
+    each item's slot as arrays for the swap search. ``origins`` keeps, per
+    (height level, courtyard rows, columns), the board's free origins with
+    every courtyard counted (the packer's window test over the whole board,
+    once) and mends the few origins a move touches, so a wide search window
+    is a slice, not a new window test over its cells (issue 11).
     """
 
     def __init__(self, packer: Any, run: Any, fixed: dict) -> None:
@@ -419,6 +448,7 @@ class _TopBoard:
         self.wc, self.hc = np.asarray(packer.wc), np.asarray(packer.hc)
         self.index = {it.ref: k for k, it in enumerate(packer.items)}
         self.goals: dict[tuple, tuple] = {}
+        self.maps: dict[tuple[int, int, int], np.ndarray] = {}  # (level, h, w) -> free origins
         for j, slot in run.slots.items():
             self._put(j, slot, 1)
         for side, rect in fixed.values():
@@ -431,6 +461,49 @@ class _TopBoard:
         if slot[0] == "top":
             r0, r1, c0, c1 = cells_of(self.g, self.packer.rect(j, slot))
             self.occ[r0:r1, c0:c1] += add
+            for (lvl, h, w), ok in self.maps.items():  # origins whose courtyard covers a changed cell
+                a0, a1 = max(0, r0 - h + 1), min(ok.shape[0], r1)
+                b0, b1 = max(0, c0 - w + 1), min(ok.shape[1], c1)
+                if a1 > a0 and b1 > b0:
+                    ok[a0:a1, b0:b1] = _window_test(self._free(lvl, slice(a0, a1 + h - 1), slice(b0, b1 + w - 1)), h, w)
+
+    def reach_box(self, i: int, goal: np.ndarray, reach: float) -> tuple[tuple[int, int, int, int], bool]:
+        """Grid rows and columns ``(r0, r1, c0, c1)``, bounds included, holding the origin of every
+        slot in which a pad of ``i``'s package comes within ``reach`` mm of a ``goal`` point (the
+        goal's box grown by ``reach``, the courtyard's longer side and the pads' farthest offset);
+        and whether that box holds the whole board."""
+        g, it = self.g, self.packer.items[i]
+        offs = [abs(v) for t in (0, 90) for _n, dx, dy in _offsets(it.near.own_package, t, "top", it.near.level)
+                for v in (dx, dy)]
+        box = _window(g, goal, reach + max(it.length_mm, it.width_mm) + max(offs, default=0.0) + g.cell)
+        return box, box[0] == 0 and box[2] == 0 and box[1] >= g.ny and box[3] >= g.nx
+
+    def _free(self, lvl: int, rows: slice, cols: slice) -> np.ndarray:
+        """Cells of the window inside level ``lvl``'s mask and under no top-side courtyard."""
+        return self.packer.mask(lvl)[rows, cols] & (self.occ[rows, cols] == 0)
+
+    def origins(self, i: int, h: int, w: int, span: tuple[int, int, int, int]) -> np.ndarray:
+        """Origins (rows ``span[0]:span[1]``, columns ``span[2]:span[3]``, inside the board's
+        ``ny - h + 1`` by ``nx - w + 1`` origins) where item ``i``'s ``h`` x ``w`` courtyard covers
+        only cells :meth:`free` for it: the kept whole-board origins of its level, with those whose
+        courtyard meets ``i``'s own recomputed without it. Cost: the window's cells once plus the
+        window test over ``i``'s own courtyard grown by ``h`` x ``w``."""
+        lvl = self.run.top_level[i]
+        r0, r1, c0, c1 = span
+        ok = self.maps.get((lvl, h, w))
+        if ok is None:
+            g = self.g
+            ok = self.maps[(lvl, h, w)] = _window_test(self._free(lvl, slice(0, g.ny), slice(0, g.nx)), h, w)
+        ok = ok[r0:r1, c0:c1].copy()
+        slot = self.run.slots[i]
+        if slot[0] == "top":
+            e0, e1, f0, f1 = cells_of(self.g, self.packer.rect(i, slot))
+            a0, a1 = max(r0, e0 - h + 1), min(r1, e1)
+            b0, b1 = max(c0, f0 - w + 1), min(c1, f1)
+            if a1 > a0 and b1 > b0:
+                ok[a0 - r0:a1 - r0, b0 - c0:b1 - c0] = _window_test(
+                    self.free(i, slice(a0, a1 + h - 1), slice(b0, b1 + w - 1)), h, w)
+        return ok
 
     def goal(self, rule: NearRule, at: tuple) -> np.ndarray:
         """:func:`_points` of ``rule``'s target pins with the target at ``at`` (x, y, rotation, side),
@@ -447,18 +520,21 @@ class _TopBoard:
         self.run.slots[j] = slot
         self._put(j, slot, 1)
 
-    def blocked(self, i: int, rows: slice, cols: slice) -> np.ndarray:
-        """Cells of the window ``rows`` x ``cols`` that item ``i`` may not cover: outside its level's
-        mask or under another top-side courtyard (its own does not count)."""
-        occ = self.occ[rows, cols].copy()
+    def free(self, i: int, rows: slice, cols: slice) -> np.ndarray:
+        """Cells of the window ``rows`` x ``cols`` that item ``i`` may cover: inside its level's mask
+        and under no other top-side courtyard (its own does not count: inside its own courtyard a
+        cell is free when only one courtyard covers it). One boolean array per call, no copy of
+        the counts."""
+        ok = self.packer.mask(self.run.top_level[i])[rows, cols] & (self.occ[rows, cols] == 0)
         slot = self.run.slots[i]
         if slot[0] == "top":
             r0, r1, c0, c1 = cells_of(self.g, self.packer.rect(i, slot))
-            r0, r1 = max(r0, rows.start) - rows.start, min(r1, rows.stop) - rows.start
-            c0, c1 = max(c0, cols.start) - cols.start, min(c1, cols.stop) - cols.start
+            r0, r1 = max(r0, rows.start), min(r1, rows.stop)
+            c0, c1 = max(c0, cols.start), min(c1, cols.stop)
             if r1 > r0 and c1 > c0:
-                occ[r0:r1, c0:c1] -= 1
-        return ~self.packer.mask(self.run.top_level[i])[rows, cols] | (occ > 0)
+                mine = (slice(r0 - rows.start, r1 - rows.start), slice(c0 - cols.start, c1 - cols.start))
+                ok[mine] = self.packer.mask(self.run.top_level[i])[r0:r1, c0:c1] & (self.occ[r0:r1, c0:c1] <= 1)
+        return ok
 
 
 def near_pass(packer: Any, run: Any, fixed: dict) -> None:
@@ -497,8 +573,13 @@ def _slot_distance(packer, i: int, slot, goal: np.ndarray) -> float:
     """Nearest distance from item ``i``'s pads in ``slot`` to ``goal``: :func:`_points` at the
     slot's centre (the same :func:`board_xy` positions)."""
     x1, y1, x2, y2 = packer.rect(i, slot)
-    own = _points(packer.items[i].near, True, (x1 + x2) / 2, (y1 + y2) / 2, 90 if slot[1] else 0, slot[0])
-    return float(np.min(np.hypot(own[:, None, 0] - goal[None, :, 0], own[:, None, 1] - goal[None, :, 1])))
+    rule = packer.items[i].near
+    cx, cy = (x1 + x2) / 2, (y1 + y2) / 2
+    own = [board_xy(cx, cy, dx, dy) for _n, dx, dy in _offsets(rule.own_package, 90 if slot[1] else 0, slot[0],
+                                                                 rule.level)]
+    # numpy's hypot on each pair, as near_distance's array does (the same floats), without building
+    # arrays for two to eight pairs: the swap search asks this for every candidate it reads
+    return float(min(np.hypot(px - tx, py - ty) for px, py in own for tx, ty in goal.tolist()))
 
 
 def _stands(packer, run, k: int, slot) -> bool:
@@ -510,13 +591,17 @@ def _stands(packer, run, k: int, slot) -> bool:
     return bool(packer.mask(lvl)[r0:r1, c0:c1].all())
 
 
-def _swap_bounds(board: _TopBoard, i: int, goal: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """The packed top-side parts of ``i``'s cell size (``i`` left out) and, for each, a lower bound of
-    the distance from ``i``'s pads in its slot to ``goal``: :func:`_slot_distance` for all of them at
-    once with numpy (its rounding to the nanometre may differ in the last bit), less 1e-9 mm."""
-    packer, g = board.packer, board.g
+def _swap_candidates(board: _TopBoard, i: int) -> np.ndarray:
+    """Every packed top-side part of ``i``'s cell size, ``i`` left out, ascending. Cost O(n)."""
     cand = np.flatnonzero(board.top & (board.wc == board.wc[i]) & (board.hc == board.hc[i]))
-    cand = cand[cand != i]  # top is set only for items in run.slots
+    return cand[cand != i]  # top is set only for items in run.slots
+
+
+def _swap_bounds(board: _TopBoard, i: int, goal: np.ndarray, cand: np.ndarray) -> np.ndarray:
+    """For each of the items ``cand``, a lower bound of the distance from ``i``'s pads in its slot to
+    ``goal``: :func:`_slot_distance` for all of them at once with numpy (its rounding to the
+    nanometre may differ in the last bit), less 1e-9 mm."""
+    packer, g = board.packer, board.g
     it = packer.items[i]
     turned = board.turn[cand] != 0
     x = g.x0 + board.col[cand] * g.cell
@@ -525,24 +610,57 @@ def _swap_bounds(board: _TopBoard, i: int, goal: np.ndarray) -> tuple[np.ndarray
     cy = (y + (y + np.where(turned, it.length_mm, it.width_mm))) / 2
     low = np.full(len(cand), np.inf)
     for t in (0, 1):
-        for _p, dx, dy, _r in turned_pads(it.near.own_package, 90 * t, "top", it.near.level):
-            px, py = np.round(cx + dx, 6), np.round(cy + dy, 6)
-            for tx, ty in goal:
-                low = np.where(turned == bool(t), np.minimum(low, np.hypot(px - tx, py - ty)), low)
-    return cand, low - 1e-9
+        sel = np.flatnonzero(turned == bool(t))
+        offs = np.array([(dx, dy) for _n, dx, dy in _offsets(it.near.own_package, 90 * t, "top", it.near.level)],
+                        dtype=float).reshape(-1, 2)
+        if not len(sel) or not len(offs) or not len(goal):
+            continue
+        px = np.round(cx[sel, None] + offs[None, :, 0], 6)[:, :, None]  # candidate, pad, goal point
+        py = np.round(cy[sel, None] + offs[None, :, 1], 6)[:, :, None]
+        low[sel] = np.hypot(px - goal[None, None, :, 0], py - goal[None, None, :, 1]).min(axis=(1, 2))
+    return low - 1e-9
+
+
+def _swap_order(board: _TopBoard, i: int, goal: np.ndarray):
+    """``(j, bound)`` for every swap candidate of ``i`` (:func:`_swap_candidates`) in the order of
+    ``np.lexsort((cand, bound))`` (:func:`_swap_bounds`), lazily, ring by ring: first those with a
+    bound within :data:`SWAP_REACH_MM` of the goal (their origins lie in
+    :meth:`_TopBoard.reach_box`), then those within twice that, and so on; once the box holds the
+    board, the rest. Each candidate's bound is computed once, when its origin first lies in a box.
+    The caller stops at its first bound past the best trade, so most searches sort one ring, not
+    the size class. Cost: O(n) array work per ring read (a few vector operations) plus the bounds
+    and sorting of the candidates read."""
+    cand = _swap_candidates(board, i)
+    rows, cols = board.row[cand], board.col[cand]
+    low = np.full(len(cand), np.nan)
+    lo_cut, reach = -math.inf, SWAP_REACH_MM
+    while True:
+        (r0, r1, c0, c1), whole = board.reach_box(i, goal, reach)
+        inside = np.ones(len(cand), dtype=bool) if whole else (rows >= r0) & (rows <= r1) & (cols >= c0) & (cols <= c1)
+        new = np.flatnonzero(inside & np.isnan(low))
+        low[new] = _swap_bounds(board, i, goal, cand[new])
+        cut = math.inf if whole else reach - 1e-6
+        ring = inside & (low > lo_cut) & (low <= cut)
+        yield from _sorted_pairs(cand[ring], low[ring])
+        if whole:
+            return
+        lo_cut, reach = cut, 2 * reach
+
+
+def _sorted_pairs(cand: np.ndarray, low: np.ndarray):
+    order = np.lexsort((cand, low))
+    return zip(cand[order].tolist(), low[order].tolist())
 
 
 def _nearest_swap(board: _TopBoard, fixed: dict, i: int, goal: np.ndarray):
     """(distance, j) of the packed top-side part of ``i``'s cell size whose slot brings ``i``'s pads
     nearest ``goal``; a trade keeps both legal when each may stand, by height, in the other's cells
     (the cells are the same); a part with a near rule of its own is taken only when ``i``'s old slot
-    still meets it. Candidates are visited by a lower bound of their distance (:func:`_swap_bounds`)
+    still meets it. Candidates are visited by a lower bound of their distance (:func:`_swap_order`)
     and the search stops once the bound passes the best found: the same answer as trying them all."""
     packer, run, index = board.packer, board.run, board.index
-    cand, low = _swap_bounds(board, i, goal)
     best = None
-    order = np.lexsort((cand, low))
-    for j, lb in zip(cand[order].tolist(), low[order].tolist()):
+    for j, lb in _swap_order(board, i, goal):
         if best is not None and lb - 1e-6 > best[0]:
             break
         other = packer.items[j].near  # the test that turns most candidates down comes first
@@ -602,17 +720,22 @@ def _true_cells(ok: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _scan_window(board: _TopBoard, i: int, h: int, w: int, goal, pads, size, span) -> tuple | None:
-    """:func:`_scan` over the free origins of ``span`` only: the packer's sliding window test
-    (``place._feasible``) over the window's cells, not the board's."""
+    """:func:`_scan` over the free origins of ``span`` only (:meth:`_TopBoard.origins`)."""
     g = board.g
     r0, r1, c0, c1 = span
     r1, c1 = min(r1, g.ny - h + 1), min(c1, g.nx - w + 1)
     if r1 <= r0 or c1 <= c0:
         return None
-    from .place import _feasible  # the packer's own window test (imported here: place imports us)
-
-    ok = _feasible(~board.blocked(i, slice(r0, r1 + h - 1), slice(c0, c1 + w - 1)), h, w)
+    ok = board.origins(i, h, w, (r0, r1, c0, c1))
     return _scan(ok, g, goal, pads, size, (0, ok.shape[0], 0, ok.shape[1]), at=(r0, c0))
+
+
+def _window_test(free: np.ndarray, h: int, w: int) -> np.ndarray:
+    """The packer's own window test (``place._feasible``: origins whose ``h`` x ``w`` window of
+    ``free`` is all true), imported when called: :mod:`pipeline.place` imports this module."""
+    from .place import _feasible
+
+    return _feasible(free, h, w)
 
 
 def _nearest_slot(board: _TopBoard, i: int, goal: np.ndarray, limit: float = math.inf):

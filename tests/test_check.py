@@ -208,3 +208,29 @@ def test_decoupling_caps_index_caps_by_net_pair(monkeypatch, library):
     want = {u: tuple(c.ref for c in caps if cap_nets[c.ref] == {rail, "GND"}) for u, rail in rail_of.items()}
     assert found == want and all(len(v) == 20 for v in found.values())
     assert 0 < len(hashes) < 5 * (len(ics) + len(caps))  # a scan per IC would hash 30 x 60 = 1,800 times
+
+
+def test_decoupling_caps_share_one_tuple_per_supply_net_set(monkeypatch):
+    """Cost guard (issue 11): ICs on the same supply nets get one tuple of caps, found once, not a
+    list built per IC (every IC pairs with every cap on shared rails: O(ICs x caps)); counted by the
+    sorts of found caps, not timed. The tuple is the plain scan's (caps across VCC and GND, design order)."""
+    import builtins
+
+    import pipeline.check as check
+    from pipeline.model import Design, Net, Part, PinDef, PinRef
+
+    op = (PinDef("4", "V-", "supply"), PinDef("8", "V+", "supply"))
+    cap = (PinDef("1", "1", "passive"), PinDef("2", "2", "passive"))
+    ics = [Part(f"U{k}", "opamp-dual", "SOIC-8", op) for k in range(1, 21)]
+    caps = [Part(f"C{k}", "capacitor", "0603", cap) for k in range(1, 21)]
+    vcc = [PinRef(p.ref, "8") for p in ics] + [PinRef(c.ref, "1") for c in caps]
+    gnd = [PinRef(p.ref, "4") for p in ics] + [PinRef(c.ref, "2") for c in caps]
+    design = Design("x", "A", "x.toml", tuple(ics + caps), (Net("VCC", tuple(vcc)), Net("GND", tuple(gnd))))
+    g = build_graph(design)
+    sorts: list[int] = []
+    real = builtins.sorted
+    monkeypatch.setattr(check, "sorted", lambda it, **k: (sorts.append(1), real(it, **k))[1], raising=False)
+    found = check.decoupling_caps(design, g, {"opamp-dual": "ic", "capacitor": "passive"})
+    monkeypatch.undo()
+    assert found["U1"] == tuple(c.ref for c in caps) and all(found[u.ref] is found["U1"] for u in ics)
+    assert len(sorts) <= len(ics) + 2  # one sort of each IC's supply nets, one of the caps found

@@ -317,9 +317,8 @@ def test_near_pass_windows_give_the_whole_board_answer_and_scan_less(monkeypatch
     board = -min(seen)
     assert windows and sum(windows) < 0.25 * board * len(windows)
     monkeypatch.setattr(pr, "_window", lambda g, goal, reach: (0, g.ny, 0, g.nx))  # every origin, at once
-    real_bounds = pr._swap_bounds
-    monkeypatch.setattr(pr, "_swap_bounds",
-                        lambda board, i, goal: (lambda c, low: (c, low - math.inf))(*real_bounds(board, i, goal)))
+    monkeypatch.setattr(pr, "_swap_order",  # every candidate, none passed over by a bound
+                        lambda board, i, goal: ((j, -math.inf) for j in pr._swap_candidates(board, i).tolist()))
     assert _placed(place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE))) == fast
 
 
@@ -579,3 +578,50 @@ def test_free_slot_search_stops_at_the_parts_own_distance(monkeypatch, ics, caps
     monkeypatch.setattr(pr, "_nearest_slot", lambda board, i, goal, limit=math.inf: real_slot(board, i, goal))
     assert _placed(place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE))) == limited
     assert 0 < limited_cells < 0.8 * sum(cells)
+
+
+def test_decoupling_targets_walk_each_shared_cap_list_once():
+    """A cost guard (membership tests counted, not seconds): ICs on one shared rail all pair with
+    every cap; their equal lists are walked once, not once per IC (30 x 30 = 900 tests), and the
+    answer is the plain minimum over every pair (the rule as written, ties to the earlier IC)."""
+    from types import SimpleNamespace
+
+    from pipeline.place_rules import _decoupling_targets
+
+    refs = [r for n in range(30) for r in (f"U{n}", f"C{n}")]
+    caps = tuple(f"C{n}" for n in range(30))
+    pairs = {f"U{n}": tuple(caps) for n in range(30)}  # equal lists, not one object
+    design = SimpleNamespace(parts=[SimpleNamespace(ref=r) for r in refs])
+    asked: list[str] = []
+
+    class Counting(set):
+        def __contains__(self, item):
+            asked.append(item)
+            return set.__contains__(self, item)
+
+    out = _decoupling_targets(design, pairs, Counting(refs))
+    pos = {r: k for k, r in enumerate(refs)}
+    want = {c: min(pairs, key=lambda u: (abs(pos[u] - pos[c]), pos[u])) for c in caps}
+    assert out == want and out["C7"] == "U7"
+    assert len(asked) <= 2 * (len(pairs) + len(caps))
+
+
+def test_near_pass_swap_search_reads_rings_not_the_whole_size_class(monkeypatch):
+    """A cost guard (bounds counted, not seconds): the swap search works out the lower bounds of the
+    candidates ring by ring round the goal and stops at the first ring past its best trade, so on a
+    board of 600 resistors of the capacitors' size it computes far fewer bounds than movers x
+    candidates (every candidate per mover, O(n) per moved part, before issue 11's change)."""
+    import pipeline.place_rules as pr
+
+    design, _ = read_design_text(_decoupled(8, 3, 600), LIB)
+    items = items_from_design(design, LIB, "nominal")
+    region = Region(box(0, 0, 80, 50), (HeightZone(box(0, 0, 80, 50), 5.0),), 0.8)
+    bounds: list[int] = []
+    every: list[int] = []
+    real_bounds, real_candidates = pr._swap_bounds, pr._swap_candidates
+    monkeypatch.setattr(pr, "_swap_bounds", lambda b, i, g, c: (bounds.append(len(c)), real_bounds(b, i, g, c))[1])
+    monkeypatch.setattr(pr, "_swap_candidates", lambda b, i: (lambda c: (every.append(len(c)), c)[1])(
+        real_candidates(b, i)))
+    assert place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE)).fits
+    assert len(every) >= 10 and min(every) > 600  # movers, each seeing the whole size class
+    assert sum(bounds) < 0.5 * sum(every)

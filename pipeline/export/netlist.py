@@ -29,7 +29,7 @@ from typing import Any
 
 from ..order import natural_key
 from ..graph import pin_net_map
-from ..model import Design, PinRef
+from ..model import Design
 from ..values import format_value
 from .csvcell import csv_bytes
 
@@ -145,7 +145,9 @@ def _natural_sorted(names: list[str]) -> list[str]:
 
 
 def netlist_dict(design: Design) -> dict[str, Any]:
-    pin_nets = pin_net_map(design)
+    pin_nets: dict[str, dict[str, list]] = {}  # ref -> pin -> nets, read off the map without new keys
+    for pr, on in pin_net_map(design).items():
+        pin_nets.setdefault(pr.ref, {})[pr.pin] = on
     parts = []
     for p in sorted(design.parts, key=lambda p: natural_key(p.ref)):
         parts.append({
@@ -157,8 +159,8 @@ def netlist_dict(design: Design) -> dict[str, Any]:
             "dnp": p.dnp,
             "pins": [
                 {"number": d.number, "name": d.name, "role": d.role,
-                 "nets": _natural_sorted([n.name for n in pin_nets.get(PinRef(p.ref, d.number), [])])}
-                for d in p.pins
+                 "nets": _natural_sorted([n.name for n in mine.get(d.number, ())])}
+                for mine in (pin_nets.get(p.ref, {}),) for d in p.pins
             ],
         })
     nets = [{"name": n.name, "pins": [str(pr) for pr in n.pins]}

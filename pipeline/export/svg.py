@@ -534,7 +534,7 @@ def place_labels(placements: Sequence[Placement], u: float,
     the centre: ascent plus descent of common sans-serif faces, from
     memory). Cost: O(n) grid queries, each meeting O(1) boxes when labels
     and courtyards are of similar size (cells sized from them); a part's
-    rings x 8 spots are tested at once against the labels near them.
+    spots are tried in order until the first free one.
     """
     labels: list[Label] = []
     taken = _BoxGrid(4.0 * _LEADER_SIZE * u)  # about one leader label's width
@@ -582,16 +582,15 @@ def _inside_label(pl: Placement, u: float) -> Label | None:
 
 _DIRECTIONS = ((1, 0), (-1, 0), (0, 1), (0, -1), (1, 1), (-1, 1), (1, -1), (-1, -1))
 # the leader spots in the order tried: ring by ring, the eight directions in each
-_SPOT_DX = np.array([dx for _ in range(_LEADER_RINGS) for dx, _dy in _DIRECTIONS], dtype=float)
-_SPOT_DY = np.array([dy for _ in range(_LEADER_RINGS) for _dx, dy in _DIRECTIONS], dtype=float)
-_SPOT_RING = np.array([ring for ring in range(_LEADER_RINGS) for _ in _DIRECTIONS], dtype=float)
+_SPOTS = tuple((float(dx), float(dy), float(ring)) for ring in range(_LEADER_RINGS) for dx, dy in _DIRECTIONS)
 
 
 def _leader_label(pl: Placement, u: float, bounds, taken: _BoxGrid, courtyards: _BoxGrid) -> Label | None:
     """The first spot on the rings free of labels and courtyards (else the first free of labels), or None.
 
-    All the part's spots are tested at once against the labels near them (numpy),
-    then only the spots free of labels are tested against the courtyards.
+    Spots are tried in order and the search ends at the first that is inside the margin and
+    meets no label and no courtyard (:meth:`_BoxGrid.hits`: the boxes in the cells it touches);
+    most parts stop at one of the first few.
     """
     if pl.courtyard is None or pl.courtyard.is_empty:
         return None
@@ -601,25 +600,18 @@ def _leader_label(pl: Placement, u: float, bounds, taken: _BoxGrid, courtyards: 
     hh = _BOX_HALF_H * size
     fx0, fy0, fx1, fy1 = (bounds[0] - 0.8 * _MARGIN * u, bounds[1] - 0.8 * _MARGIN * u,
                           bounds[2] + 0.8 * _MARGIN * u, bounds[3] + 0.8 * _MARGIN * u)
-    gap = (1.0 + 1.6 * _SPOT_RING) * u
-    lx = pl.x_mm + _SPOT_DX * (0.5 * (cx1 - cx0) + hw + gap)
-    ly = pl.y_mm + _SPOT_DY * (0.5 * (cy1 - cy0) + hh + gap)
-    bx0, by0, bx1, by1 = lx - hw, ly - hh, lx + hw, ly + hh
-    free = (bx0 >= fx0) & (by0 >= fy0) & (bx1 <= fx1) & (by1 <= fy1)
-    near = taken.boxes_near((float(bx0.min()), float(by0.min()), float(bx1.max()), float(by1.max())))
-    if len(near):
-        o = near
-        over = ((bx0[:, None] < o[None, :, 2]) & (o[None, :, 0] < bx1[:, None])
-                & (by0[:, None] < o[None, :, 3]) & (o[None, :, 1] < by1[:, None]))
-        free &= ~over.any(axis=1)
+    half_w, half_h = 0.5 * (cx1 - cx0), 0.5 * (cy1 - cy0)
     fallback = None  # the first free spot over a courtyard, used when no spot avoids every part
-    for k in np.flatnonzero(free):
-        spot = (float(lx[k]), float(ly[k]))
-        b = (float(bx0[k]), float(by0[k]), float(bx1[k]), float(by1[k]))
+    for dx, dy, ring in _SPOTS:
+        gap = (1.0 + 1.6 * ring) * u
+        lx, ly = pl.x_mm + dx * (half_w + hw + gap), pl.y_mm + dy * (half_h + hh + gap)
+        b = (lx - hw, ly - hh, lx + hw, ly + hh)
+        if not (b[0] >= fx0 and b[1] >= fy0 and b[2] <= fx1 and b[3] <= fy1) or taken.hits(b):
+            continue
         if not courtyards.hits(b):
-            return _leader(pl, *spot, b, size)
+            return _leader(pl, lx, ly, b, size)
         if fallback is None:
-            fallback = (*spot, b)
+            fallback = (lx, ly, b)
     return None if fallback is None else _leader(pl, *fallback, size)
 
 
@@ -645,7 +637,6 @@ class _BoxGrid:
         self.cell = max(cell, 1e-9)
         self.cells: dict[tuple[int, int], list[tuple[float, float, float, float]]] = {}
         self.tests = 0
-        self._arrays: dict[tuple[int, int], np.ndarray] = {}  # boxes_near's per-cell arrays
 
     def _span(self, b) -> tuple[range, range]:
         c = self.cell
@@ -655,8 +646,9 @@ class _BoxGrid:
     def hits(self, b) -> bool:
         bx0, by0, bx1, by1 = b
         get = self.cells.get
-        xs, ys = self._span(b)
-        for i in xs:
+        c = self.cell  # the cells of _span, inline (the label placer asks this for every spot it tries)
+        ys = range(math.floor(by0 / c), math.floor(by1 / c) + 1)
+        for i in range(math.floor(bx0 / c), math.floor(bx1 / c) + 1):
             for j in ys:
                 boxes = get((i, j))
                 if not boxes:
@@ -667,31 +659,11 @@ class _BoxGrid:
                         return True
         return False
 
-    def boxes_near(self, b) -> np.ndarray:
-        """Every box stored in a cell that ``b`` touches, as a (k, 4) array (a box in several such cells
-        comes more than once). Each cell's array is built once after its last change."""
-        arrays = self._arrays
-        found = []
-        xs, ys = self._span(b)
-        for i in xs:
-            for j in ys:
-                a = arrays.get((i, j))
-                if a is None:
-                    boxes = self.cells.get((i, j))
-                    if not boxes:
-                        continue
-                    a = arrays[(i, j)] = np.array(boxes, dtype=float)
-                found.append(a)
-        out = np.concatenate(found) if found else np.zeros((0, 4))
-        self.tests += len(out)
-        return out
-
     def add(self, b) -> None:
         xs, ys = self._span(b)
         for i in xs:
             for j in ys:
                 self.cells.setdefault((i, j), []).append(b)
-                self._arrays.pop((i, j), None)
 
 
 def _part(pl: Placement, facts: PartFacts | None, u: float) -> str:
