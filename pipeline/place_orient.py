@@ -23,8 +23,12 @@ most :data:`PASSES`). Each kept turn lowers the total HPWL, so it never
 grows. Deterministic: a fixed order, ties keep the current rotation.
 
 Parts left as they are: those named in ``keep`` (the caller's fixed and
-edge parts) and parts with no connected pad (nothing to shorten). Nets in ``skip_nets`` (nets given to a copper area) count for
-nothing.
+edge parts) and parts with no connected pad (nothing to shorten). Nets in
+``skip_nets`` (nets given to a copper area) count for nothing. A half turn
+that would leave a near rule (:mod:`pipeline.place_rules`: a decoupling
+capacitor within reach of its IC's supply pins) unmet where it was met is
+not made: turning an IC moves its supply pins, turning a capacitor its
+pads.
 
 Cost: O(passes x sum over parts of the pins of their nets), with each
 package's turned pads computed once per (package, rotation, side).
@@ -78,6 +82,34 @@ class _Pins:
         return sum(_span(p for pts in self.at.get(net, {}).values() for p in pts) for net in nets)
 
 
+class _NearRules:
+    """The near rules touching each part (as the capacitor or as the target), and whether a turn keeps them."""
+
+    def __init__(self, items, placed: list):
+        self.index = {pl.ref: k for k, pl in enumerate(placed)}
+        self.touching: dict[str, list] = {}
+        for it in items:
+            if it.near is not None and it.ref in self.index and it.near.target in self.index:
+                for ref in {it.ref, it.near.target}:
+                    self.touching.setdefault(ref, []).append((it.ref, it.near))
+
+    def keeps(self, placed: list, k: int, rotation: int) -> bool:
+        """Whether turning part ``k`` to ``rotation`` leaves met every near rule touching it that is met now."""
+        from .place_rules import TOL, near_distance
+
+        def at(ref: str, turned: bool) -> tuple:
+            pl = placed[self.index[ref]]
+            return (pl.x_mm, pl.y_mm, rotation if turned else pl.rotation_deg, pl.side)
+
+        ref = placed[k].ref
+        for own, rule in self.touching.get(ref, ()):
+            if near_distance(rule, at(own, False), at(rule.target, False)) > rule.within_mm + TOL:
+                continue  # unmet already: a turn cannot break it
+            if near_distance(rule, at(own, own == ref), at(rule.target, rule.target == ref)) > rule.within_mm + TOL:
+                return False
+        return True
+
+
 def _span(points) -> float:
     """Half perimeter (mm) of the bounding box of ``points`` (0 for fewer than two)."""
     pts = list(points)
@@ -100,14 +132,17 @@ def pad_hpwl(placements: Iterable[Placement], design: Design, library, *, level:
 
 
 def orient_parts(placements: Iterable[Placement], design: Design, library, *, level: str = "nominal",
-                 keep: Iterable[str] = (), skip_nets: Iterable[str] = ()) -> tuple[Placement, ...]:
+                 keep: Iterable[str] = (), skip_nets: Iterable[str] = (), items: Iterable = ()
+                 ) -> tuple[Placement, ...]:
     """``placements`` with parts turned a half turn where that shortens their nets (module notes).
 
     Positions, sides and courtyards stay; only ``rotation_deg`` changes (by
-    180 degrees, modulo 360). ``keep``: refs never turned. Returns the
+    180 degrees, modulo 360). ``keep``: refs never turned; ``items``: the
+    placer's items, whose near rules a turn must not break. Returns the
     placements in the order given.
     """
     placed = list(placements)
+    rules = _NearRules(items, placed)
     pins = _Pins(design, library, level, frozenset(skip_nets))
     for pl in placed:
         pins.put(pl.ref, pins.of(pl, pl.rotation_deg))
@@ -125,7 +160,7 @@ def orient_parts(placements: Iterable[Placement], design: Design, library, *, le
             flipped = pins.of(pl, other)
             before = pins.hpwl(now)
             pins.put(pl.ref, flipped)
-            if pins.hpwl(flipped) < before - GAIN_MM:
+            if pins.hpwl(flipped) < before - GAIN_MM and rules.keeps(placed, k, other):
                 placed[k] = dataclasses.replace(pl, rotation_deg=other)
                 turned += 1
             else:

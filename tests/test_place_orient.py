@@ -91,3 +91,24 @@ def test_never_longer_never_moved_and_deterministic(n, data):
         assert (a.ref, a.x_mm, a.y_mm, a.side) == (b.ref, b.x_mm, b.y_mm, b.side)
         assert (b.rotation_deg - a.rotation_deg) % 180 == 0
     assert orient_parts(pl, d, LIB) == out
+
+
+@pytest.mark.parametrize("with_rule, expect", [(False, 180), (True, 0)])
+def test_a_turn_that_would_break_a_met_near_rule_is_not_made(with_rule, expect):
+    # R1's pads must stay within 1 mm of R2's pin 1 (a near rule). R2's pin 1 net runs to R3, 18 mm to
+    # the right, so turning R2 shortens it by the pad pitch, but moves pin 1 2 mm from R1's nearest pad
+    # (closed form: pads at x +-0.775 about the centres 0 and 2): the rule keeps R2 as it is
+    from pipeline.model import NearRule, PlaceItem
+    from pipeline.place_rules import near_distance
+
+    d = _design(3, {"A": ["R2.1", "R3.1"]})
+    pl = (Placement("R1", 0.0, 0.0, 0, "top", None), Placement("R2", 2.0, 0.0, 0, "top", None),
+          Placement("R3", 20.0, 0.0, 0, "top", None))
+    rule = NearRule("R2", ("1",), 1.0, "near", LIB.package("0603"), LIB.package("0603"))
+    items = (PlaceItem("R1", 1.6, 0.8, 0.5, (), near=rule),) if with_rule else ()
+    out = orient_parts(pl, d, LIB, items=items)
+    assert out[1].rotation_deg == expect
+    at = lambda p: (p.x_mm, p.y_mm, p.rotation_deg, p.side)  # noqa: E731
+    assert near_distance(rule, at(pl[0]), at(pl[1])) == pytest.approx(2.0 - _pitch())       # met before
+    turned = near_distance(rule, at(out[0]), at(out[1]))
+    assert (turned <= 1.0) if with_rule else turned == pytest.approx(2.0)                   # 2 mm: broken

@@ -219,7 +219,8 @@ class _Search:
 
     def oriented(self, f):
         """``f`` with its movable parts turned a half turn where that shortens their nets
-        (:func:`pipeline.place_orient.orient_parts`; fixed and edge parts stay, copper-area nets count nothing)."""
+        (:func:`pipeline.place_orient.orient_parts`; fixed and edge parts stay, copper-area nets count nothing,
+        near rules met stay met)."""
         import dataclasses
 
         from ..place_orient import orient_parts
@@ -227,7 +228,8 @@ class _Search:
         keep = [it.ref for it in self.items if it.fixed is not None or it.edge]
         skip = [n.name for n in self.design.nets if self.rules.area_layer(n.name) is not None]
         return dataclasses.replace(f, placements=orient_parts(f.placements, self.design, self.library,
-                                                              level=self.options.density, keep=keep, skip_nets=skip))
+                                                              level=self.options.density, keep=keep, skip_nets=skip,
+                                                              items=self.items))
 
     def place_bound(self, shape: Shape) -> float | None:
         """Least area (mm^2) found by bisection at which ``shape`` places; None when not even the region does."""
