@@ -62,3 +62,30 @@ def test_smallest_is_a_known_outline_mode(tmp_path):
                         tables={"board": {"outline": "tiniest"}})
     r = invoke("run", proj)
     assert r.exit_code == 2 and "board.outline" in r.output and "Traceback" not in r.output
+
+
+def test_the_route_screen_routes_the_oriented_placement(tmp_path, monkeypatch):
+    # screen 4 hands route_fit the placer's fit with its movable parts turned where that shortens their
+    # nets (pipeline/place_orient.py), never a longer one; the rest of the fit is the placer's
+    import pipeline.route as route_mod
+    from pipeline.place import place_and_fit
+    from pipeline.place_orient import orient_parts, pad_hpwl
+    from pipeline.route.shapes import Shape
+
+    seen = {}
+    monkeypatch.setattr(smallest_mod, "smallest_board", lambda *a, **kw: seen.setdefault("args", a) and None)
+    proj = make_project(tmp_path / "p", design=_resistors(6), cavity=rect_cavity(tmp_path / "c.dxf", 20.0, 14.0),
+                        tables={"board": {"outline": "smallest"}})
+    assert invoke("run", proj).exit_code == 0
+    fit, items, region, options, design, library, rules = seen["args"]
+    given = []
+    real = route_mod.route_fit
+    monkeypatch.setattr(route_mod, "route_fit", lambda f, *a, **kw: given.append(f) or real(f, *a, **kw))
+    s = smallest_mod._Search(fit, items, region, options, design, library, rules, None)
+    s.routes(Shape(0.0, 1.0), region.board_region.area)
+    board = board_at(region.board_region, Shape(0.0, 1.0), region.board_region.area)[0]
+    placed = place_and_fit(items, region, options, user_board=board, improve=True)
+    (f,) = given
+    assert f.placements == orient_parts(placed.placements, design, library, level=options.density)
+    assert pad_hpwl(f.placements, design, library) <= pad_hpwl(placed.placements, design, library) + 1e-9
+    assert [(p.ref, p.x_mm, p.y_mm) for p in f.placements] == [(p.ref, p.x_mm, p.y_mm) for p in placed.placements]

@@ -136,3 +136,43 @@ def test_phase_4_brings_the_area_within_tight_of_the_least_that_routes(need):
     shape, area, (_, _, board, mode), failed = smallest.search(s)
     assert need * (1 - 1e-9) <= board.area <= need * (1 + smallest.TIGHT)
     assert failed < need and failed * (1 + smallest.TIGHT) >= area * (1 - 1e-9)
+
+
+class _Island(_Routes):
+    """Routes from ``need`` mm2 up and on the island ``[lo, hi]`` below it (routing not monotone in area)."""
+
+    def __init__(self, geom, floor, need, lo, hi):
+        super().__init__(geom, floor, need)
+        self.lo, self.hi, self.calls = lo, hi, []
+
+    def routes(self, shape, area):
+        self.calls.append(area)
+        if self.lo <= area <= self.hi:
+            return _Oracle.routes(self, shape, area)
+        return super().routes(shape, area)
+
+
+def test_phase_5_finds_a_routed_island_below_the_bisection():
+    # a 20 x 20 square, courtyards 100 mm2: boards route from 200 mm2 up and also on [185, 190] mm2;
+    # the bisection stops near 200 (it never looks under a failure), the ladder from 10 % below finds
+    # the island (its rungs 1.5 % apart are finer than the island's 2.7 %)
+    s = _Island(box(0, 0, 20, 20), 100.0, 200.0, 185.0, 190.0)
+    shape, area, (_, _, board, mode), failed = smallest.search(s)
+    assert 185.0 * (1 - 1e-9) <= board.area <= 190.0 * (1 + 1e-9)
+    assert failed < 185.0 and failed * (1 + smallest.LADDER) >= area * (1 - 1e-9)  # the rung just below failed
+
+
+def test_phase_5_is_bounded():
+    # nothing routes below 200 mm2: the ladder's attempts are at most its stated cap and none below the
+    # start 10 % under the answer
+    s = _Island(box(0, 0, 20, 20), 100.0, 200.0, 0.0, -1.0)
+    shape, area, found, failed = smallest.search(s)
+    before = len(s.calls)
+    s2 = _Island(box(0, 0, 20, 20), 100.0, 200.0, 0.0, -1.0)
+    s2.calls = []
+    rungs = math.ceil(math.log((1 - smallest.TIGHT) / (1 - smallest.LADDER_SPAN)) / math.log(1 + smallest.LADDER))
+    best = (shape, area, found, failed)
+    smallest._ladder(s2, [(100.0, shape), (100.0, Shape(90.0, 2.0))], best)
+    assert 0 < len(s2.calls) <= smallest.LADDER_SHAPES * rungs
+    assert min(s2.calls) >= area * (1 - smallest.LADDER_SPAN) * (1 - 1e-9) and max(s2.calls) < area
+    assert before > len(s2.calls)

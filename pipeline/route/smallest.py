@@ -21,10 +21,14 @@ Each candidate passes cheap screens before the expensive routing:
    placement: a 90th-percentile demand above ``P90_MAX`` of capacity is
    hopeless and is not routed;
 4. placement with the improvement pass and the spreading over the candidate
-   board (:mod:`pipeline.place_spread`), and routing
-   (:func:`pipeline.route.route_fit`, which spreads the parts while they
-   still place); the board counts only when the independent copper check is
-   clean.
+   board (:mod:`pipeline.place_spread`), each movable part then turned a
+   half turn where that shortens its nets (:mod:`pipeline.place_orient`;
+   on the demo's board at 0 deg, aspect 1.5 and 1.45 x the courtyard sum
+   the placement routes with the half turns and leaves a net open without,
+   bench/README.md), and routing
+   (:func:`pipeline.route.route_fit`, which routes that placement first and
+   then spreads the parts while they still place); the board counts only
+   when the independent copper check is clean.
 
 Phase 1 bounds every shape from below: a bisection on area (``PLACE_STEPS``
 halvings of its logarithm) with screen 2 alone gives the least area at
@@ -39,13 +43,17 @@ completeness for time: routing is the expensive step). Phase 3 refines the best
 shape's angle by ``REFINE_DEG`` either side and its aspect by
 ``REFINE_ASPECT``, as in phase 2. Phase 4 bisects the best shape's area
 further, between its last failure and its best, until the two are within
-``TIGHT`` (at most ``TIGHT_STEPS`` more attempts). Deterministic (shapes in a fixed order,
+``TIGHT`` (at most ``TIGHT_STEPS`` more attempts). Phase 5 routes the
+``LADDER_SHAPES`` shapes with the least placement bounds on a ladder of
+areas rising by ``LADDER`` from ``LADDER_SPAN`` below the best (routing is
+not monotone in area, so a bisection can step over a smaller board that
+routes; :func:`_ladder`). Deterministic (shapes in a fixed order,
 ties keep the first); the router's own time budget is the one outside
 influence.
 
 Cost: ``shapes x PLACE_STEPS`` placements (about 0.1 s each for 60 parts)
 plus, for the routed shapes, ``ROUTE_STEPS + 1`` route attempts each (and
-``TIGHT_STEPS`` at most for the best), an
+``TIGHT_STEPS`` at most for the best, and up to 14 on the ladder), an
 attempt being up to ``len(SPREAD_STEPS)`` routings.
 """
 
@@ -60,7 +68,8 @@ from shapely.geometry import Polygon
 from .shapes import Shape, board_at
 
 __all__ = ["smallest_board", "search", "Smallest", "shapes_to_try", "ANGLE_STEP_DEG", "ASPECTS", "PLACE_STEPS",
-           "ROUTE_STEPS", "P90_MAX", "BEAT", "SHAPES_ROUTED", "TIGHT", "TIGHT_STEPS"]
+           "ROUTE_STEPS", "P90_MAX", "BEAT", "SHAPES_ROUTED", "TIGHT", "TIGHT_STEPS", "LADDER_SHAPES", "LADDER",
+           "LADDER_SPAN"]
 
 #: orientation step over half a turn, degrees.
 ANGLE_STEP_DEG = 15.0
@@ -86,6 +95,13 @@ REFINE_ASPECT = (1.25, 1.0 / 1.25)
 TIGHT = 0.01
 #: phase 4: at most this many more route attempts.
 TIGHT_STEPS = 3
+#: phase 5: how many shapes (least placement bounds first) are routed on a ladder of areas (our choice).
+LADDER_SHAPES = 2
+#: phase 5: the ladder's step, a share of the area (our choice: about the spread of the demo's
+#: routed / open areas at one shape, bench/README.md).
+LADDER = 0.015
+#: phase 5: the ladder starts this share below the best area (our choice).
+LADDER_SPAN = 0.1
 
 Progress = Callable[[str, float], None]
 
@@ -194,12 +210,26 @@ class _Search:
         if not f.fits:
             self.counts["does not place"] += 1
             return None
-        f, out = route_fit(f, self.items, self.region, self.options, self.design, self.library, self.rules,
-                           user_board=board)
+        f, out = route_fit(self.oriented(f), self.items, self.region, self.options, self.design, self.library,
+                           self.rules, user_board=board)
         if out.verdict.status != ROUTED:
             return None
         self.counts["routed"] += 1
         return f, out, board, mode
+
+    def oriented(self, f):
+        """``f`` with its movable parts turned a half turn where that shortens their nets
+        (:func:`pipeline.place_orient.orient_parts`; fixed and edge parts stay, copper-area nets count nothing,
+        near rules met stay met)."""
+        import dataclasses
+
+        from ..place_orient import orient_parts
+
+        keep = [it.ref for it in self.items if it.fixed is not None or it.edge]
+        skip = [n.name for n in self.design.nets if self.rules.area_layer(n.name) is not None]
+        return dataclasses.replace(f, placements=orient_parts(f.placements, self.design, self.library,
+                                                              level=self.options.density, keep=keep, skip_nets=skip,
+                                                              items=self.items))
 
     def place_bound(self, shape: Shape) -> float | None:
         """Least area (mm^2) found by bisection at which ``shape`` places; None when not even the region does."""
@@ -251,7 +281,7 @@ def smallest_board(fit, items, region, options, design, library, rules, *,
 
 
 def search(s: "_Search"):
-    """Phases 1 to 3 (module notes) over ``s`` (its ``places`` and ``routes`` screens).
+    """Phases 1 to 5 (module notes) over ``s`` (its ``places`` and ``routes`` screens).
 
     Returns ``(shape, area, found, failed_area)`` for the smallest routed
     board (``found`` is what ``s.routes`` returned), or None.
@@ -277,7 +307,32 @@ def search(s: "_Search"):
         b = s.place_bound(shape)
         if b is not None:
             fresh.append((b, shape))
-    return _tighten(s, _route_phase(s, sorted(fresh, key=lambda t: t[0]), best, 0.9, 0.1))
+    best = _tighten(s, _route_phase(s, sorted(fresh, key=lambda t: t[0]), best, 0.9, 0.1))
+    every = sorted([(b, k, sh) for b, k, sh in bounds] + [(b, len(shapes) + k, sh) for k, (b, sh) in enumerate(fresh)])
+    return _ladder(s, [(b, sh) for b, _, sh in every], best)
+
+
+def _ladder(s: "_Search", bounds, best):
+    """Phase 5: the ``LADDER_SHAPES`` shapes with the least placement bounds, each routed on a ladder of
+    areas rising by ``1 + LADDER`` from ``max(bound, (1 - LADDER_SPAN) x best)`` while below the best
+    area; a shape's first rung that routes is its answer, and the best so far when smaller.
+
+    Why: routing is not monotone in area (the packer's slots change with the board, so a smaller
+    board's placement can route where a larger one's does not), and a bisection that meets a failure
+    above such an island never looks below it: on the demo (bench/README.md) the shape at 0 deg,
+    aspect 1.5 failed at 1.58 x the courtyard sum and was left at 1.63 x, but routes at 1.45 x.
+    Cost: at most ``LADDER_SHAPES x ceil(log((1 - TIGHT) / (1 - LADDER_SPAN)) / log(1 + LADDER))``
+    route attempts (14 with the values here); a rung that does not place costs one placement.
+    """
+    for bound, shape in bounds[:LADDER_SHAPES]:
+        area, failed = max(bound, best[1] * (1.0 - LADDER_SPAN)), 0.0
+        while area < best[1] * (1.0 - TIGHT):
+            got = s.routes(shape, area)
+            if got is not None:
+                best = (shape, area, got, failed)
+                break
+            failed, area = area, area * (1.0 + LADDER)
+    return best
 
 
 def _tighten(s: "_Search", best):
