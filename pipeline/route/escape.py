@@ -125,17 +125,13 @@ def escape_within(reach: float, pad_polygon, layer_index: int, g, k: int, cut: s
         return None
     ii, jj = np.meshgrid(np.arange(ia, ib + 1), np.arange(ja, jb + 1))
     xs, ys = (g.x0 + ii * h).ravel(), (g.y0 + jj * h).ravel()
-    outline, holes = edge
-    keep_out = shapely.union_all([shapely.buffer(shapely.union_all(obstacles), half + SAG, quad_segs=16)]
-                                 + [shapely.buffer(r, edge_half + SAG, quad_segs=16)
-                                    for r in [outline.exterior, *holes]] + list(holes))
-    shapely.prepare(keep_out)
-    shapely.prepare(outline)
-    usable = shapely.contains_xy(outline, xs, ys) & ~shapely.intersects_xy(keep_out, xs, ys)
+    usable = _usable(xs, ys, (x0 - reach, y0 - reach, x1 + reach, y1 + reach), obstacles, edge, half, edge_half)
     start = usable & shapely.contains_xy(pad_polygon, xs, ys)
     on_grid = ((ii % FINE == 0) & (jj % FINE == 0)).ravel()
     node = (layer_index * g.nx * g.ny + (jj // FINE) * g.nx + ii // FINE).ravel()
-    owner = np.asarray(g.node, dtype=np.int64)[node]
+    owner = np.full(node.shape, -2, dtype=np.int64)   # read the grid's owners only where the lattice meets it:
+    at = np.flatnonzero(on_grid)                       # converting the whole grid cost O(board) per pad
+    owner[at] = [g.node[q] for q in node[at].tolist()]
     target = usable & on_grid & ((owner == -1) | (owner == k)) & ~np.isin(node, sorted(cut))
     for _ in range(TRIES):   # the nearest node first; one on another small island is dropped with it
         if not start.any() or not target.any():
@@ -150,6 +146,31 @@ def escape_within(reach: float, pad_polygon, layer_index: int, g, k: int, cut: s
             return _pull_tight([(float(xs[q]), float(ys[q])) for q in path], clear)
         target &= ~np.isin(node, sorted(small))
     return None
+
+
+def _usable(xs, ys, window, obstacles: list, edge, half: float, edge_half: float) -> np.ndarray:
+    """Which points ``(xs, ys)`` keep ``half + SAG`` from every obstacle and ``edge_half + SAG`` from the
+    board edge and holes, inside the board and out of the holes.
+
+    The obstacles and the edge's rings clipped to ``window`` (mm box) grown
+    by the margin are buffered (16 segments a quarter circle) and the points
+    tested against their union (prepared); the outline's containment is
+    tested only when the window is not inside it. Clipping keeps the cost
+    to the window's copper, not the board's 2,000-vertex outline. Cost
+    O(P log E) for P points and E edges of the keep-out.
+    """
+    outline, holes = edge
+    near = shapely.box(*window).buffer(edge_half + 2 * SAG, join_style="mitre")
+    rings = [r for r in shapely.intersection([outline.exterior, *(h.exterior for h in holes)], near)
+             if not r.is_empty]   # a point of the window nearer than that to a ring is so to its clipped piece
+    keep_out = shapely.union_all([shapely.buffer(shapely.union_all(obstacles), half + SAG, quad_segs=16)]
+                                 + [shapely.buffer(r, edge_half + SAG, quad_segs=16) for r in rings] + list(holes))
+    shapely.prepare(keep_out)
+    ok = ~shapely.intersects_xy(keep_out, xs, ys)
+    if not outline.contains(shapely.box(*window)):
+        shapely.prepare(outline)
+        ok &= shapely.contains_xy(outline, xs, ys)
+    return ok
 
 
 class _Clear:
