@@ -174,13 +174,13 @@ class _Net:
 
 def route_board(board: RouteBoard, rules: CopperRules, *, progress: Progress | None = None,
                 time_budget_s: float | None = None, coarse: bool | None = None,
-                clock: Callable[[], float] = time.monotonic) -> Routing:
+                clock: Callable[[], float] | None = None) -> Routing:
     """Route ``board`` under ``rules``; see the module docstring.
 
     ``time_budget_s`` defaults to ``rules.time_budget_s``; ``coarse`` routes
     globally on tiles first (:mod:`pipeline.route.coarse`), by default when
     the board has more than ``COARSE_PARTS`` parts. ``clock`` (seconds,
-    monotonic; tests pass a counter) is read before each pad's pin escape,
+    monotonic; default :func:`time.monotonic`; tests pass a counter) is read before each pad's pin escape,
     each net's global and detailed routing and each net of the last pass,
     so routing ends within the budget plus the slack of one such step
     (plus building the grid and the copper areas, which are not cut short).
@@ -190,13 +190,13 @@ def route_board(board: RouteBoard, rules: CopperRules, *, progress: Progress | N
     if coarse is None:
         coarse = len({p.ref for p in board.pads}) > COARSE_PARTS
     router = _Router(board, rules, progress, rules.time_budget_s if time_budget_s is None else time_budget_s,
-                     clock)
+                     clock or time.monotonic)
     router.coarse = coarse
     return router.run()
 
 
 class _Router:
-    def __init__(self, board: RouteBoard, rules: CopperRules, progress, budget, clock=time.monotonic):
+    def __init__(self, board: RouteBoard, rules: CopperRules, progress, budget, clock):
         self.board, self.rules, self.progress, self.clock = board, rules, progress, clock
         now = clock()
         self.deadline = now + budget
