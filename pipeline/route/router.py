@@ -50,6 +50,15 @@ Method
   search costs what its corridor holds, not the whole board. Nets the
   global router cannot fit are reported open with the overfull tile
   borders as the congestion; so are nets the time budget never reached.
+* **Time budget**: the clock is read before each pad's pin escape (escapes
+  stop at ``ESCAPE_SHARE`` of the budget), each net of global routing
+  (which stops at ``COARSE_SHARE`` of what is left), each net of each
+  negotiation round and each net of the last pass. When it runs out, the
+  nets never reached are open, the last pass gives the nets it did not
+  reach their negotiated copper back, and nets that still share are
+  dropped (most shared first), so whatever was routed legally is kept.
+  Past the budget: at most one step (one pad's escape or one net's
+  routing), plus the copper areas and the grid, which are not cut short.
 * **Copper areas**: a net given a layer fills it (board less edge
   clearance, holes and other nets' copper grown by the clearance); each of
   its pads not on that layer routes to the nearest via site.
