@@ -47,6 +47,7 @@ SAG = 0.001           #: mm kept beyond the clearance at lattice points (a 0.035
 ISLAND = 64           #: grid nodes: a pad whose flood stops below this is cut off (our choice; the trapped
                       #: 0402 and 0603 pads of the demo and the 60-part board held 2 to 16)
 TRIES = 6             #: nodes on small islands skipped before an escape gives up (our choice)
+ENCLOSED = LineString()   #: what escape_within returns for a pad walled in inside its window
 EPS = 1e-7            #: mm tolerance of the exact tests (as in pipeline.route.grid)
 
 
@@ -95,11 +96,12 @@ def island(g, k: int, terms: list[int], others=frozenset(), limit: int = ISLAND)
 def escape(pad_polygon, layer_index: int, g, k: int, cut: set[int], others: set[int], obstacles: list, edge,
            half: float, edge_half: float) -> LineString | None:
     """The shortest clear track out of ``pad_polygon`` within ``FIRST_REACH`` mm, else within
-    ``ESCAPE_REACH`` mm (:func:`escape_within`)."""
+    ``ESCAPE_REACH`` mm (:func:`escape_within`); the larger window is not searched when the pad's
+    clear lattice points are enclosed inside the first (walled in: no window holds a way out)."""
     for reach in (FIRST_REACH, ESCAPE_REACH):
         line = escape_within(reach, pad_polygon, layer_index, g, k, cut, others, obstacles, edge, half, edge_half)
         if line is not None:
-            return line
+            return None if line is ENCLOSED else line
     return None
 
 
@@ -134,11 +136,11 @@ def escape_within(reach: float, pad_polygon, layer_index: int, g, k: int, cut: s
     owner[at] = [g.node[q] for q in node[at].tolist()]
     target = usable & on_grid & ((owner == -1) | (owner == k)) & ~np.isin(node, sorted(cut))
     for _ in range(TRIES):   # the nearest node first; one on another small island is dropped with it
-        if not start.any() or not target.any():
-            return None
-        path = _lattice_path(usable, start, target, ii.shape)
+        if not start.any():
+            return ENCLOSED
+        path = _lattice_path(usable, start, target, ii.shape) if target.any() else None
         if path is None:
-            return None
+            return ENCLOSED if _enclosed(usable, start, ii.shape) else None
         end = int(node[path[-1]])
         small = island(g, k, [end], others)
         if small is None:
@@ -190,6 +192,22 @@ class _Clear:
         if self.holes is not None:
             ok &= ~shapely.intersects(lines, self.holes)
         return ok
+
+
+def _enclosed(usable: np.ndarray, start: np.ndarray, shape) -> bool:
+    """Whether the eight-connected pieces of ``usable`` holding ``start`` stay off the window's rim.
+
+    Then a larger window around the same pad adds no way out: the usable
+    points are the same where the windows overlap (the obstacles are the
+    same; the edge is clipped exactly). One labelling (scipy.ndimage,
+    O(L) for L lattice points).
+    """
+    from scipy import ndimage
+
+    lab, _ = ndimage.label(usable.reshape(shape), structure=np.ones((3, 3), dtype=int))
+    mine = np.unique(lab[start.reshape(shape)])
+    rim = np.concatenate([lab[0], lab[-1], lab[:, 0], lab[:, -1]])
+    return not np.isin(rim, mine[mine > 0]).any()
 
 
 def _lattice_path(usable: np.ndarray, start: np.ndarray, target: np.ndarray, shape) -> list[int] | None:

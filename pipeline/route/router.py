@@ -99,8 +99,9 @@ WINDOW = 12              #: grid steps around a connection's box searched first
 AREA_MARGIN = 0.005      #: extra gap (mm) where copper areas are cut: buffer arcs are chords
 STUB_CELL = 2.0          #: side (mm) of the buckets pin-access stubs are filed in
 ESCAPE_PASSES = 3        #: rounds of pin escapes (each on the grid with the escapes before it)
-ESCAPE_SHARE = 0.3       #: share of the time budget pin escapes may use (our choice: on the 2,000-part board of
-                         #: bench/bench_route.py unbounded escapes took more than the whole budget)
+ESCAPE_SHARE = 0.5       #: share of the time budget pin escapes may use (our choice: on the 2,000-part board of
+                         #: bench/bench_route.py unbounded escapes took more than the whole budget; at 0.3 they
+                         #: stopped with pads untried while 40 negotiation rounds then took a third of it)
 HARD = 1e6               #: the present-sharing factor of the last rip-up-and-reroute pass (sharing forbidden)
 DOT = 1e-3               #: length (mm) of the track that stands for a single node of copper
 
@@ -558,13 +559,10 @@ class _Router:
             done.append(nxt)
 
     def outside_corridor(self, net: _Net, sources: set[int], targets: set[int], present: float) -> list[int] | None:
-        """:meth:`astar` without the net's corridor: a tile border's capacity counts grid edges that
-        other nets' pads own, so a corridor can hold no way where the board has one."""
-        mask, net.corridor = net.corridor, None
-        try:
-            return self.astar(net, sources, targets, present)
-        finally:
-            net.corridor = mask
+        """A search without the net's corridor, in the box of ``sources`` and ``targets`` grown by
+        ``WINDOW`` (not the whole board: its cost stays that of the net's own box). A tile border's
+        capacity counts grid edges that other nets' pads own, so a corridor can miss a way the board has."""
+        return self._search(net, sources, targets, present, _box(net.grid, sources | targets, WINDOW), None)
 
     def pieces(self, net: _Net) -> list[tuple[tuple[int, ...], set[int]]]:
         """The pads of ``net`` grouped by the paths it has: ``[(pad indices, nodes), ...]``, the group
