@@ -148,3 +148,33 @@ def test_a_two_pin_part_grows_less_than_an_eight_pin_part_and_stays_centred():
             a, b = (g.length_mm, g.width_mm) if rot == 0 else (g.width_mm, g.length_mm)
             outer = box(10.0 - a / 2, 5.0 - b / 2, 10.0 + a / 2, 5.0 + b / 2)
             assert outer.contains(p.courtyard) and p.courtyard.centroid.equals_exact(outer.centroid, 1e-9)
+
+
+def test_pads_and_demand_count_against_the_routing_budget(monkeypatch):
+    # fake clock: building the pads takes 7 s and the demand 5 s of a 30 s budget, so the router gets 18 s
+    import pipeline.route.demand as demand
+    import pipeline.route.pads as pads
+    import pipeline.route.router as router
+
+    now, seen = [0.0], []
+
+    def step(seconds, value):
+        def f(*a, **k):
+            now[0] += seconds
+            return value
+        return f
+
+    class Stop(Exception):
+        pass
+
+    def fake_router(board, rules, *, time_budget_s=None, **kw):
+        seen.append(time_budget_s)
+        raise Stop
+
+    monkeypatch.setattr("time.monotonic", lambda: now[0])
+    monkeypatch.setattr(pads, "board_from_placement", step(7.0, "board"))
+    monkeypatch.setattr(demand, "routing_demand", step(5.0, "demand"))
+    monkeypatch.setattr(router, "route_board", fake_router)
+    with pytest.raises(Stop):
+        route.route_placed(None, (), None, None, CopperRules(time_budget_s=30.0))
+    assert seen == [pytest.approx(18.0)]

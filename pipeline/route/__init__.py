@@ -107,21 +107,26 @@ def route_placed(outline, placements, design, library, rules: CopperRules, *, le
 
     ``keepouts``: polygons copper keeps off on every layer, passed to the
     router as holes (so ``routes.json`` lists them under ``holes`` too).
-    ``time_budget_s``: seconds the router may take (default
-    ``rules.time_budget_s``).
+    ``time_budget_s``: seconds the pads, the demand and the router may
+    take together (default ``rules.time_budget_s``); the independent check
+    after them is not cut short.
 
     Cost: the router's (see :mod:`pipeline.route.router`) plus the check's
     O(n log n) in pieces of copper.
     """
+    import time
+
     from ..copper import check_copper
     from ..export.routes import routes_dict
     from .demand import routing_demand
     from .pads import board_from_placement
     from .router import route_board
 
+    start = time.monotonic()
     board = board_from_placement(outline, placements, design, library, rules.layer_names, keepouts, level=level)
     demand = routing_demand(board, rules)
-    routing = route_board(board, rules, progress=progress, time_budget_s=time_budget_s)
+    budget = (rules.time_budget_s if time_budget_s is None else time_budget_s) - (time.monotonic() - start)
+    routing = route_board(board, rules, progress=progress, time_budget_s=max(budget, 0.0))
     doc = routes_dict(board, rules, routing)
     check = check_copper(doc)
     defects = tuple(p.message + f" (at {p.x:.2f}, {p.y:.2f} mm)" for p in check.except_open(routing.open))
