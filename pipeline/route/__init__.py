@@ -36,8 +36,8 @@ PIN_STEPS = (0.5, 1, 1.5, 2, 3, 4)
 #: share of the time budget the compact fit's routing may use (our choice, measured on the 2,000-part board
 #: of bench/bench_route.py: its compact fit walls 967 of 1,052 nets in, yet took the whole budget, while the
 #: first spread placement, routed in what was left, left 928 open in one round; at 0.5 the spread placement
-#: left 890 open, bench/README.md)
-FIRST_SHARE = 0.3
+#: left 890 open, at 0.3 894, one run each under different loads, bench/README.md)
+FIRST_SHARE = 0.5
 
 
 @dataclass(frozen=True)
