@@ -138,9 +138,9 @@ def escape_within(reach: float, pad_polygon, layer_index: int, g, k: int, cut: s
     for _ in range(TRIES):   # the nearest node first; one on another small island is dropped with it
         if not start.any():
             return ENCLOSED
-        path = _lattice_path(usable, start, target, ii.shape) if target.any() else None
+        path, reached = _lattice_path(usable, start, target, ii.shape)
         if path is None:
-            return ENCLOSED if _enclosed(usable, start, ii.shape) else None
+            return ENCLOSED if _enclosed(reached) else None
         end = int(node[path[-1]])
         small = island(g, k, [end], others)
         if small is None:
@@ -194,24 +194,20 @@ class _Clear:
         return ok
 
 
-def _enclosed(usable: np.ndarray, start: np.ndarray, shape) -> bool:
-    """Whether the eight-connected pieces of ``usable`` holding ``start`` stay off the window's rim.
+def _enclosed(reached: np.ndarray) -> bool:
+    """Whether the lattice points a failed wavefront ``reached`` (2-D booleans) stay off the window's rim.
 
     Then a larger window around the same pad adds no way out: the usable
     points are the same where the windows overlap (the obstacles are the
-    same; the edge is clipped exactly). One labelling (scipy.ndimage,
-    O(L) for L lattice points).
+    same; the edge is clipped exactly). O(rim).
     """
-    from scipy import ndimage
-
-    lab, _ = ndimage.label(usable.reshape(shape), structure=np.ones((3, 3), dtype=int))
-    mine = np.unique(lab[start.reshape(shape)])
-    rim = np.concatenate([lab[0], lab[-1], lab[:, 0], lab[:, -1]])
-    return not np.isin(rim, mine[mine > 0]).any()
+    return not (reached[0].any() or reached[-1].any() or reached[:, 0].any() or reached[:, -1].any())
 
 
-def _lattice_path(usable: np.ndarray, start: np.ndarray, target: np.ndarray, shape) -> list[int] | None:
-    """Lee's wavefront on the eight-neighbour lattice: flat indices from a start to the nearest target.
+def _lattice_path(usable: np.ndarray, start: np.ndarray, target: np.ndarray,
+                  shape) -> tuple[list[int] | None, np.ndarray]:
+    """Lee's wavefront on the eight-neighbour lattice: flat indices from a start to the nearest target
+    (``None`` when the front dies first), and the points it reached (2-D booleans).
 
     Each step grows the front by one lattice point in every direction (a
     numpy dilation); the path is traced back through points one step
@@ -230,7 +226,7 @@ def _lattice_path(usable: np.ndarray, start: np.ndarray, target: np.ndarray, sha
         g2[:, :-1] |= grow[:, 1:]
         front = g2 & usable & (dist < 0)
         if not front.any():
-            return None
+            return None, dist >= 0
         d += 1
         dist[front] = d
     ny, nx = shape
@@ -242,7 +238,7 @@ def _lattice_path(usable: np.ndarray, start: np.ndarray, target: np.ndarray, sha
                 i, j = i + di, j + dj
                 break
         out.append(j * nx + i)
-    return out[::-1]
+    return out[::-1], dist >= 0
 
 
 def _pull_tight(coords, clear: _Clear) -> LineString | None:
