@@ -84,3 +84,22 @@ def test_escape_marked_in_place_equals_a_grid_built_with_it(line):
     add_copper(g, rules, 0.2, 0, "top", geo)
     ref = build_grid(board, rules, 0.2, ("top", "bottom"), ("A",), {"A": [("top", geo)]})
     assert (g.node, g.ex, g.ey, g.via) == (ref.node, ref.ex, ref.ey, ref.via)
+
+
+@pytest.mark.parametrize("gap, windows", [(0.58, (0.8,)), (0.62, (0.8, 2.0))])
+def test_a_walled_in_pad_is_not_searched_again_in_the_larger_window(monkeypatch, gap, windows):
+    # Cost guard (calls, not seconds): with a 0.58 mm slot (< w + 2 s = 0.6 mm) the pad's clear lattice
+    # points are enclosed in the first 0.8 mm window, so the 2 mm window is not searched (it would find
+    # the same enclosure); with 0.62 mm the way out (past x = 1.6 + 0.3) lies beyond the first window.
+    import pipeline.route.escape as esc
+
+    seen = []
+    real = esc.escape_within
+
+    def spy(reach, *a):
+        seen.append(reach)
+        return real(reach, *a)
+
+    monkeypatch.setattr(esc, "escape_within", spy)
+    route_board(_walled(gap), RULES)
+    assert (esc.FIRST_REACH, esc.ESCAPE_REACH) == (0.8, 2.0) and tuple(seen) == windows

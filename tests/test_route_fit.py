@@ -14,7 +14,7 @@ import pipeline.place
 import pipeline.route as route
 from pipeline.library import load_library
 from pipeline.model import PlaceItem
-from pipeline.route import OPEN, PIN_STEPS, ROUTED, SPREAD_STEPS, CopperRules, RouteOutcome, RouteVerdict
+from pipeline.route import FIRST_SHARE, OPEN, PIN_STEPS, ROUTED, SPREAD_STEPS, CopperRules, RouteOutcome, RouteVerdict
 from pipeline.route.inflate import inflate, pin_axes
 
 #: every attempt of the loop: the compact fit, the pin-side steps, the uniform steps after 0
@@ -38,12 +38,17 @@ class _Item:
     pin_count: int = 2
 
 
-def _run(monkeypatch, budget_s, open_counts, clock_step=0.0, places=lambda items: True):
+def _run(monkeypatch, budget_s, open_counts, clock_step=0.0, places=lambda items: True, place_step=0.0):
     """route_fit with a fake router returning ``open_counts[i]`` open nets on attempt i.
 
-    ``places(grown items)`` says whether the fake placer places them.
+    ``places(grown items)`` says whether the fake placer places them; each placement "takes"
+    ``place_step`` seconds of the fake clock.
     """
     calls, now = [], [0.0]
+
+    def fake_place(items, *a, **k):
+        now[0] += place_step
+        return _Fit(fits=places(items))
 
     def fake_route(outline, placements, design, library, rules, *, time_budget_s=None, **kw):
         n = open_counts[len(calls)]
@@ -53,7 +58,7 @@ def _run(monkeypatch, budget_s, open_counts, clock_step=0.0, places=lambda items
         return RouteOutcome(RouteVerdict(ROUTED if n == 0 else OPEN, nets), None, None, {})
 
     monkeypatch.setattr(route, "route_placed", fake_route)
-    monkeypatch.setattr(pipeline.place, "place_and_fit", lambda items, *a, **k: _Fit(fits=places(items)))
+    monkeypatch.setattr(pipeline.place, "place_and_fit", fake_place)
     monkeypatch.setattr(route, "_head_rings", lambda region: ())
     monkeypatch.setattr("time.monotonic", lambda: now[0])
     rules = CopperRules(time_budget_s=budget_s)
@@ -99,8 +104,16 @@ def test_a_sequence_stops_where_it_no_longer_places(monkeypatch):
 def test_one_budget_covers_all_attempts(monkeypatch, budget, step, attempts):
     calls, _ = _run(monkeypatch, budget, [1] * ATTEMPTS, clock_step=step)
     assert len(calls) == attempts
-    # each routing gets what the earlier ones left: budget - elapsed (closed form of the fake clock)
-    assert calls == pytest.approx([max(budget - i * step, 0.0) for i in range(attempts)])
+    # the compact fit's routing gets FIRST_SHARE of the budget, each later one what the earlier ones left:
+    # budget - elapsed (closed form of the fake clock)
+    assert calls == pytest.approx([budget * FIRST_SHARE] + [budget - i * step for i in range(1, attempts)])
+
+
+def test_a_re_placement_that_spends_the_budget_is_not_routed(monkeypatch):
+    # budget 100 s, the compact routing takes 10 s, each re-placement 50 s: the first spread placement
+    # ends at 60 s and is routed with 40 s; the second ends at 120 s, past the budget, and is not routed
+    calls, _ = _run(monkeypatch, 100.0, [1] * ATTEMPTS, clock_step=10.0, place_step=50.0)
+    assert calls == pytest.approx([100.0 * FIRST_SHARE, 40.0])
 
 
 def _item(ref, package, length, width, pins):
@@ -135,3 +148,33 @@ def test_a_two_pin_part_grows_less_than_an_eight_pin_part_and_stays_centred():
             a, b = (g.length_mm, g.width_mm) if rot == 0 else (g.width_mm, g.length_mm)
             outer = box(10.0 - a / 2, 5.0 - b / 2, 10.0 + a / 2, 5.0 + b / 2)
             assert outer.contains(p.courtyard) and p.courtyard.centroid.equals_exact(outer.centroid, 1e-9)
+
+
+def test_pads_and_demand_count_against_the_routing_budget(monkeypatch):
+    # fake clock: building the pads takes 7 s and the demand 5 s of a 30 s budget, so the router gets 18 s
+    import pipeline.route.demand as demand
+    import pipeline.route.pads as pads
+    import pipeline.route.router as router
+
+    now, seen = [0.0], []
+
+    def step(seconds, value):
+        def f(*a, **k):
+            now[0] += seconds
+            return value
+        return f
+
+    class Stop(Exception):
+        pass
+
+    def fake_router(board, rules, *, time_budget_s=None, **kw):
+        seen.append(time_budget_s)
+        raise Stop
+
+    monkeypatch.setattr("time.monotonic", lambda: now[0])
+    monkeypatch.setattr(pads, "board_from_placement", step(7.0, "board"))
+    monkeypatch.setattr(demand, "routing_demand", step(5.0, "demand"))
+    monkeypatch.setattr(router, "route_board", fake_router)
+    with pytest.raises(Stop):
+        route.route_placed(None, (), None, None, CopperRules(time_budget_s=30.0))
+    assert seen == [pytest.approx(18.0)]

@@ -1,5 +1,7 @@
 """The router against known answers, checked by the independent copper checker."""
 
+from types import SimpleNamespace
+
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
@@ -130,3 +132,95 @@ def test_routed_means_clean_and_every_pad_reached(pins, layers):
         assert check.clean, check.problems    # the checker's "open" rule is "every pad reached"
     else:
         assert not check.except_open(r.open), check.problems
+
+
+# ---------------------------------------------------------------- the time budget (a counting clock, no timing)
+class _Clock:
+    """A fake monotonic clock: each read advances it by ``tick`` seconds (``jump`` adds more)."""
+
+    def __init__(self, tick=1.0):
+        self.t, self.tick, self.reads = 0.0, tick, 0
+
+    def __call__(self):
+        self.reads += 1
+        self.t += self.tick
+        return self.t
+
+
+def _free_board(n):
+    """``n`` two-pad nets in separate rows, nothing in the way (each routes in one straight track)."""
+    pads = []
+    for k in range(n):
+        pads += [_pad(f"A{k}", "1", f"N{k}", 1.2, 1.2 + 1.6 * k), _pad(f"B{k}", "1", f"N{k}", 8.4, 1.2 + 1.6 * k)]
+    return RouteBoard(box(0, 0, 10, 1.6 * n + 1), (), tuple(pads))
+
+
+@pytest.mark.parametrize("budget, coarse", [(5, False), (7, False), (9, True), (13, True)])
+def test_routing_stops_at_the_budget_and_keeps_what_it_routed(monkeypatch, budget, coarse):
+    # Stop point counted, not timed: no net is (re)routed once the clock has passed the deadline, the
+    # clock is read at most twice past it, the nets routed before stay routed and legal (the independent
+    # check is clean but for the open nets), and the nets never reached are named open.
+    import pipeline.route.router as router
+
+    clock, starts = _Clock(), []
+    real = router._Router.reroute
+
+    def spy(self, net, present, bad=None):
+        starts.append((clock.t, self.deadline))
+        return real(self, net, present, bad)
+
+    monkeypatch.setattr(router._Router, "reroute", spy)
+    board, rules = _free_board(6), CopperRules(layers=1, time_budget_s=60)
+    r = route_board(board, rules, time_budget_s=budget, coarse=coarse, clock=clock)
+    deadline = 1 + budget                      # the router's first read returns 1
+    assert all(t <= d == deadline for t, d in starts)
+    assert clock.t <= deadline + 2
+    routed = {t.net for t in r.tracks}
+    assert routed and len(routed) + len(r.open) == 6 and not routed & set(r.open)
+    assert len(starts) == len(routed) < 6      # each reached net routed once, cleanly; the rest open
+    assert not _check(board, rules, r).except_open(r.open)
+
+
+def _walled_row(n):
+    """``n`` walled pads (each W{k}.1, net E{k}, in a copper pocket whose only way out is a 0.62 mm slot
+    off the 0.4 mm grid: the grid alone cannot leave it, a pin escape can) and, above them, ``n`` free
+    two-pad nets F{k}."""
+    from shapely.ops import unary_union
+
+    pads = []
+    for k in range(n):
+        x = 7.0 * k
+        wall = [box(x - 2.5, -2.5, x - 0.9, 2.5), box(x - 2.5, 0.9, x + 1.6, 2.5), box(x - 2.5, -2.5, x + 1.6, -0.9),
+                box(x + 0.9, 0.31, x + 1.6, 0.9), box(x + 0.9, -0.9, x + 1.6, -0.31)]
+        pads += [RoutePad(f"W{k}", "1", f"E{k}", ("top",), box(x - 0.45, -0.45, x + 0.45, 0.45)),
+                 RoutePad(f"W{k}", "2", f"E{k}", ("top",), box(x + 3.0, -0.45, x + 3.9, 0.45)),
+                 RoutePad(f"X{k}", "1", None, ("top",), unary_union(wall)),
+                 _pad(f"F{k}", "1", f"F{k}", x - 1.2, 4.4), _pad(f"F{k}", "2", f"F{k}", x + 3.6, 4.4)]
+    return RouteBoard(box(-3, -3, 7.0 * n - 2, 6), (), tuple(pads))
+
+
+def test_slow_pin_escapes_leave_the_budget_to_the_routing(monkeypatch):
+    # Regression (issue 9, the 2,000-part board: pin escapes took more than the whole budget, so the
+    # negotiation never started and every net was open). Each escape here costs 20 s of a fake clock
+    # and the board needs six (120 s) of a 100 s budget: escapes now stop at ESCAPE_SHARE (50 s) and
+    # the free nets route; the walled pads left without an escape are named open. (Before: six escapes,
+    # then the budget was spent and all twelve nets open.)
+    import pipeline.route.router as router
+
+    clock = _Clock(tick=0.001)
+    real = router._Router.stub
+    calls = []
+
+    def slow(self, *a, **k):
+        calls.append(clock.t)
+        clock.t += 20.0
+        return real(self, *a, **k)
+
+    monkeypatch.setattr(router._Router, "stub", slow)
+    monkeypatch.setattr(router, "time", SimpleNamespace(monotonic=clock))   # the default clock, as the CLI runs it
+    board, rules = _walled_row(6), CopperRules(layers=1, time_budget_s=100)
+    r = route_board(board, rules)
+    made = int(router.ESCAPE_SHARE * 100 // 20) + 1         # at 0, 20, ... s: the last starts before the share ends
+    assert router.ESCAPE_SHARE < 1 and len(calls) == made < 6
+    assert set(r.open) == {f"E{k}" for k in range(made, 6)}  # E0 .. E{made-1} escaped; every F net routed
+    assert not _check(board, rules, r).except_open(r.open)

@@ -97,13 +97,12 @@ def capacities(node, ex, ey, nx: int, ny: int, layers: int, tile: int) -> tuple[
 
 
 class _Coarse:
-    def __init__(self, caph, capv, ntx, nty, budget_deadline):
+    def __init__(self, caph, capv, ntx, nty):
         self.ntx, self.nty = ntx, nty
         self.cap = np.concatenate([caph.ravel(), capv.ravel()]).tolist()
         self.nh = caph.size
         self.use = [0] * len(self.cap)
         self.hist = [0.0] * len(self.cap)
-        self.deadline = budget_deadline
 
     def edge(self, t: int, u: int) -> int:
         """The border between neighbouring tiles ``t`` and ``u``."""
@@ -180,23 +179,24 @@ class _Coarse:
 
 def plan_corridors(net_tiles: dict[str, list[int]], caph, capv, ntx: int, nty: int, tile: int, pitch: float,
                    origin: tuple[float, float], schedule: tuple[float, float, float], deadline: float,
-                   progress=None) -> CoarsePlan:
+                   progress=None, clock=time.monotonic) -> CoarsePlan:
     """Route every net of ``net_tiles`` (name -> tiles of its pads, name order) on the tile graph.
 
     ``schedule`` is PathFinder's (first present factor, its growth per
-    round, history step); ``deadline`` a :func:`time.monotonic` time after
+    round, history step); ``deadline`` a ``clock`` time (seconds; read once
+    before each net and at the end of each round) after
     which negotiation stops: the nets routed keep their (perhaps crowded)
     corridors, nets not reached get none, and nothing is dropped, since
     the detailed router still negotiates.
     """
-    g = _Coarse(caph, capv, ntx, nty, deadline)
+    g = _Coarse(caph, capv, ntx, nty)
     present, growth, step = schedule
     routes: dict[str, list[int]] = {}
     dead: set[str] = set()
     todo = list(net_tiles)
     for rnd in range(1, COARSE_ROUNDS + 1):
         for idx, name in enumerate(todo):
-            if time.monotonic() > deadline:
+            if clock() > deadline:
                 break
             for e in routes.pop(name, []):
                 g.use[e] -= 1
@@ -210,7 +210,7 @@ def plan_corridors(net_tiles: dict[str, list[int]], caph, capv, ntx: int, nty: i
             if progress and idx % 50 == 0:
                 progress(f"global routing: round {rnd}, {name}", min(0.3, 0.3 * (rnd - 1 + idx / len(todo)) / 8))
         over = g.over()
-        if not over or time.monotonic() > deadline:
+        if not over or clock() > deadline:
             break
         for e in over:
             g.hist[e] += step
@@ -219,7 +219,7 @@ def plan_corridors(net_tiles: dict[str, list[int]], caph, capv, ntx: int, nty: i
     over = g.over()
     places = [_middle(e, g, tile, pitch, origin) for e in sorted(over, key=lambda e: (-(g.use[e] - g.cap[e]), e))]
     open_ = set(dead)
-    if time.monotonic() > deadline:
+    if clock() > deadline:
         over = set()   # cut short: the detailed router negotiates what is left (unreached nets: no corridor)
     while over:
         worst = max((n for n in routes if over.intersection(routes[n])),

@@ -47,6 +47,7 @@ SAG = 0.001           #: mm kept beyond the clearance at lattice points (a 0.035
 ISLAND = 64           #: grid nodes: a pad whose flood stops below this is cut off (our choice; the trapped
                       #: 0402 and 0603 pads of the demo and the 60-part board held 2 to 16)
 TRIES = 6             #: nodes on small islands skipped before an escape gives up (our choice)
+ENCLOSED = LineString()   #: what escape_within returns for a pad walled in inside its window
 EPS = 1e-7            #: mm tolerance of the exact tests (as in pipeline.route.grid)
 
 
@@ -95,11 +96,12 @@ def island(g, k: int, terms: list[int], others=frozenset(), limit: int = ISLAND)
 def escape(pad_polygon, layer_index: int, g, k: int, cut: set[int], others: set[int], obstacles: list, edge,
            half: float, edge_half: float) -> LineString | None:
     """The shortest clear track out of ``pad_polygon`` within ``FIRST_REACH`` mm, else within
-    ``ESCAPE_REACH`` mm (:func:`escape_within`)."""
+    ``ESCAPE_REACH`` mm (:func:`escape_within`); the larger window is not searched when the pad's
+    clear lattice points are enclosed inside the first (walled in: no window holds a way out)."""
     for reach in (FIRST_REACH, ESCAPE_REACH):
         line = escape_within(reach, pad_polygon, layer_index, g, k, cut, others, obstacles, edge, half, edge_half)
         if line is not None:
-            return line
+            return None if line is ENCLOSED else line
     return None
 
 
@@ -125,24 +127,20 @@ def escape_within(reach: float, pad_polygon, layer_index: int, g, k: int, cut: s
         return None
     ii, jj = np.meshgrid(np.arange(ia, ib + 1), np.arange(ja, jb + 1))
     xs, ys = (g.x0 + ii * h).ravel(), (g.y0 + jj * h).ravel()
-    outline, holes = edge
-    keep_out = shapely.union_all([shapely.buffer(shapely.union_all(obstacles), half + SAG, quad_segs=16)]
-                                 + [shapely.buffer(r, edge_half + SAG, quad_segs=16)
-                                    for r in [outline.exterior, *holes]] + list(holes))
-    shapely.prepare(keep_out)
-    shapely.prepare(outline)
-    usable = shapely.contains_xy(outline, xs, ys) & ~shapely.intersects_xy(keep_out, xs, ys)
+    usable = _usable(xs, ys, (x0 - reach, y0 - reach, x1 + reach, y1 + reach), obstacles, edge, half, edge_half)
     start = usable & shapely.contains_xy(pad_polygon, xs, ys)
     on_grid = ((ii % FINE == 0) & (jj % FINE == 0)).ravel()
     node = (layer_index * g.nx * g.ny + (jj // FINE) * g.nx + ii // FINE).ravel()
-    owner = np.asarray(g.node, dtype=np.int64)[node]
+    owner = np.full(node.shape, -2, dtype=np.int64)   # read the grid's owners only where the lattice meets it:
+    at = np.flatnonzero(on_grid)                       # converting the whole grid cost O(board) per pad
+    owner[at] = [g.node[q] for q in node[at].tolist()]
     target = usable & on_grid & ((owner == -1) | (owner == k)) & ~np.isin(node, sorted(cut))
     for _ in range(TRIES):   # the nearest node first; one on another small island is dropped with it
-        if not start.any() or not target.any():
-            return None
-        path = _lattice_path(usable, start, target, ii.shape)
+        if not start.any():
+            return ENCLOSED
+        path, reached = _lattice_path(usable, start, target, ii.shape)
         if path is None:
-            return None
+            return ENCLOSED if _enclosed(reached) else None
         end = int(node[path[-1]])
         small = island(g, k, [end], others)
         if small is None:
@@ -150,6 +148,31 @@ def escape_within(reach: float, pad_polygon, layer_index: int, g, k: int, cut: s
             return _pull_tight([(float(xs[q]), float(ys[q])) for q in path], clear)
         target &= ~np.isin(node, sorted(small))
     return None
+
+
+def _usable(xs, ys, window, obstacles: list, edge, half: float, edge_half: float) -> np.ndarray:
+    """Which points ``(xs, ys)`` keep ``half + SAG`` from every obstacle and ``edge_half + SAG`` from the
+    board edge and holes, inside the board and out of the holes.
+
+    The obstacles and the edge's rings clipped to ``window`` (mm box) grown
+    by the margin are buffered (16 segments a quarter circle) and the points
+    tested against their union (prepared); the outline's containment is
+    tested only when the window is not inside it. Clipping keeps the cost
+    to the window's copper, not the board's 2,000-vertex outline. Cost
+    O(P log E) for P points and E edges of the keep-out.
+    """
+    outline, holes = edge
+    near = shapely.box(*window).buffer(edge_half + 2 * SAG, join_style="mitre")
+    rings = [r for r in shapely.intersection([outline.exterior, *(h.exterior for h in holes)], near)
+             if not r.is_empty]   # a point of the window nearer than that to a ring is so to its clipped piece
+    keep_out = shapely.union_all([shapely.buffer(shapely.union_all(obstacles), half + SAG, quad_segs=16)]
+                                 + [shapely.buffer(r, edge_half + SAG, quad_segs=16) for r in rings] + list(holes))
+    shapely.prepare(keep_out)
+    ok = ~shapely.intersects_xy(keep_out, xs, ys)
+    if not outline.contains(shapely.box(*window)):
+        shapely.prepare(outline)
+        ok &= shapely.contains_xy(outline, xs, ys)
+    return ok
 
 
 class _Clear:
@@ -171,8 +194,20 @@ class _Clear:
         return ok
 
 
-def _lattice_path(usable: np.ndarray, start: np.ndarray, target: np.ndarray, shape) -> list[int] | None:
-    """Lee's wavefront on the eight-neighbour lattice: flat indices from a start to the nearest target.
+def _enclosed(reached: np.ndarray) -> bool:
+    """Whether the lattice points a failed wavefront ``reached`` (2-D booleans) stay off the window's rim.
+
+    Then a larger window around the same pad adds no way out: the usable
+    points are the same where the windows overlap (the obstacles are the
+    same; the edge is clipped exactly). O(rim).
+    """
+    return not (reached[0].any() or reached[-1].any() or reached[:, 0].any() or reached[:, -1].any())
+
+
+def _lattice_path(usable: np.ndarray, start: np.ndarray, target: np.ndarray,
+                  shape) -> tuple[list[int] | None, np.ndarray]:
+    """Lee's wavefront on the eight-neighbour lattice: flat indices from a start to the nearest target
+    (``None`` when the front dies first), and the points it reached (2-D booleans).
 
     Each step grows the front by one lattice point in every direction (a
     numpy dilation); the path is traced back through points one step
@@ -191,7 +226,7 @@ def _lattice_path(usable: np.ndarray, start: np.ndarray, target: np.ndarray, sha
         g2[:, :-1] |= grow[:, 1:]
         front = g2 & usable & (dist < 0)
         if not front.any():
-            return None
+            return None, dist >= 0
         d += 1
         dist[front] = d
     ny, nx = shape
@@ -203,7 +238,7 @@ def _lattice_path(usable: np.ndarray, start: np.ndarray, target: np.ndarray, sha
                 i, j = i + di, j + dj
                 break
         out.append(j * nx + i)
-    return out[::-1]
+    return out[::-1], dist >= 0
 
 
 def _pull_tight(coords, clear: _Clear) -> LineString | None:

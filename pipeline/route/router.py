@@ -50,6 +50,15 @@ Method
   search costs what its corridor holds, not the whole board. Nets the
   global router cannot fit are reported open with the overfull tile
   borders as the congestion; so are nets the time budget never reached.
+* **Time budget**: the clock is read before each pad's pin escape (escapes
+  stop at ``ESCAPE_SHARE`` of the budget), each net of global routing
+  (which stops at ``COARSE_SHARE`` of what is left), each net of each
+  negotiation round and each net of the last pass. When it runs out, the
+  nets never reached are open, the last pass gives the nets it did not
+  reach their negotiated copper back, and nets that still share are
+  dropped (most shared first), so whatever was routed legally is kept.
+  Past the budget: at most one step (one pad's escape or one net's
+  routing), plus the copper areas and the grid, which are not cut short.
 * **Copper areas**: a net given a layer fills it (board less edge
   clearance, holes and other nets' copper grown by the clearance); each of
   its pads not on that layer routes to the nearest via site.
@@ -91,6 +100,9 @@ WINDOW = 12              #: grid steps around a connection's box searched first
 AREA_MARGIN = 0.005      #: extra gap (mm) where copper areas are cut: buffer arcs are chords
 STUB_CELL = 2.0          #: side (mm) of the buckets pin-access stubs are filed in
 ESCAPE_PASSES = 3        #: rounds of pin escapes (each on the grid with the escapes before it)
+ESCAPE_SHARE = 0.5       #: share of the time budget pin escapes may use (our choice: on the 2,000-part board of
+                         #: bench/bench_route.py unbounded escapes took more than the whole budget; at 0.3 they
+                         #: stopped with pads untried while 40 negotiation rounds then took a third of it)
 HARD = 1e6               #: the present-sharing factor of the last rip-up-and-reroute pass (sharing forbidden)
 DOT = 1e-3               #: length (mm) of the track that stands for a single node of copper
 
@@ -172,24 +184,35 @@ class _Net:
 
 
 def route_board(board: RouteBoard, rules: CopperRules, *, progress: Progress | None = None,
-                time_budget_s: float | None = None, coarse: bool | None = None) -> Routing:
+                time_budget_s: float | None = None, coarse: bool | None = None,
+                clock: Callable[[], float] | None = None) -> Routing:
     """Route ``board`` under ``rules``; see the module docstring.
 
     ``time_budget_s`` defaults to ``rules.time_budget_s``; ``coarse`` routes
     globally on tiles first (:mod:`pipeline.route.coarse`), by default when
-    the board has more than ``COARSE_PARTS`` parts.
+    the board has more than ``COARSE_PARTS`` parts. ``clock`` (seconds,
+    monotonic; default :func:`time.monotonic`; tests pass a counter) is read before each pad's pin escape,
+    each net's global and detailed routing and each net of the last pass,
+    so routing ends within the budget plus the slack of one such step
+    (plus building the grid and the copper areas, which are not cut short).
+    When the budget runs out, the nets routed so far that share no copper
+    are kept and the rest reported open.
     """
     if coarse is None:
         coarse = len({p.ref for p in board.pads}) > COARSE_PARTS
-    router = _Router(board, rules, progress, rules.time_budget_s if time_budget_s is None else time_budget_s)
+    router = _Router(board, rules, progress, rules.time_budget_s if time_budget_s is None else time_budget_s,
+                     clock or time.monotonic)
     router.coarse = coarse
     return router.run()
 
 
 class _Router:
-    def __init__(self, board: RouteBoard, rules: CopperRules, progress, budget):
-        self.board, self.rules, self.progress = board, rules, progress
-        self.deadline = time.monotonic() + budget
+    def __init__(self, board: RouteBoard, rules: CopperRules, progress, budget, clock):
+        self.board, self.rules, self.progress, self.clock = board, rules, progress, clock
+        now = clock()
+        self.deadline = now + budget
+        self.escape_deadline = now + ESCAPE_SHARE * budget
+        self.escape_failed: set[tuple[int, int]] = set()   # (net, pad) whose escape found no way out
         self.layers = rules.layer_names
         netpads = board.nets()
         self.names = tuple(netpads)
@@ -199,6 +222,10 @@ class _Router:
         self._grids: dict[float, Grid] = {}
         self.coarse = False   # route globally on tiles first (route_board sets it)
         self._moves: dict = {}  # (grid, net index, corridor) -> the steps a net may take (search.moves)
+
+    def late(self, deadline: float | None = None) -> bool:
+        """Whether the clock has passed ``deadline`` (default: the budget's end); one clock read."""
+        return self.clock() > (self.deadline if deadline is None else deadline)
 
     # ---------------------------------------------------------------- setup
     def grid(self, width: float) -> Grid:
@@ -228,6 +255,7 @@ class _Router:
             for pi, layer, line in net.stubs:
                 net.terms[pi] = [self.node_at(net.grid, layer, line.coords[-1])]
             net.halo = _offsets(net.width / 2 + self.wmax / 2 + self.rules.clearance_mm, p)
+            net.dead = self.cut_off(net)
         n_nodes = len(self.layers) * self.nets[0].grid.nx * self.nets[0].grid.ny if self.nets else 0
         self.core_occ = [0] * n_nodes
         self.claim_occ = [0] * n_nodes
@@ -244,7 +272,13 @@ class _Router:
                       [1.0 if not prefer or li % 2 == 1 else OFF_DIRECTION for li in range(len(self.layers))])
 
     def escapes(self, buckets: dict) -> int:
-        """Pin escapes (:meth:`stub`) for the pads the current grid leaves on small islands; how many made."""
+        """Pin escapes (:meth:`stub`) for the pads the current grid leaves on small islands; how many made.
+
+        A pad whose escape found no way out is not tried again (later
+        escapes only add copper, so it would find none); the clock is read
+        before each pad and escapes stop at ``ESCAPE_SHARE`` of the budget
+        (the pads left route on the grid alone, or stay open).
+        """
         made = 0
         for net in self.nets:
             if len(net.pads) < 2:
@@ -253,11 +287,15 @@ class _Router:
             have = {pi for pi, *_ in net.stubs}
             terms = [self.terminals(g, net, pad) for pad in net.pads]
             for pi, pad in enumerate(net.pads):
-                if pi in have or (net.area and net.area in pad.layers):
+                if pi in have or (net.area and net.area in pad.layers) or (net.k, pi) in self.escape_failed:
                     continue
+                if self.late(self.escape_deadline):
+                    return 0
                 others = {n for q, t in enumerate(terms) if q != pi for n in t}
                 cut = island(g, net.k, terms[pi], others)
                 stub = None if cut is None else self.stub(g, net, pad, cut, others, buckets)
+                if cut is not None and stub is None:
+                    self.escape_failed.add((net.k, pi))
                 if stub is not None:
                     net.stubs.append((pi, *stub))
                     geo = stub[1].buffer(net.width / 2 + 0.002)
@@ -266,6 +304,18 @@ class _Router:
                         add_copper(other, self.rules, width, net.k, stub[0], geo)
                     made += 1
         return made
+
+    def cut_off(self, net: _Net) -> bool:
+        """Whether a pad of ``net`` (a tree net) sits on a grid island away from the net's other pads:
+        then no search can join it (:func:`pipeline.route.escape.island`, O(``ISLAND``) per pad),
+        and it is open without spending a search on the whole board."""
+        if net.area or len(net.terms) < 2:
+            return False
+        for pi, terms in enumerate(net.terms):
+            others = {n for q, t in enumerate(net.terms) if q != pi for n in t}
+            if terms and island(net.grid, net.k, terms, others) is not None:
+                return True
+        return False
 
     def node_at(self, g: Grid, layer: str, xy) -> int:
         i = round((xy[0] - g.x0) / g.pitch)
@@ -397,13 +447,13 @@ class _Router:
         bad: set[int] = set()
         for rounds in range(1, MAX_ROUNDS + 1):
             for idx, net in enumerate(todo):
-                if time.monotonic() > self.deadline:
+                if self.late():
                     break
                 self.reroute(net, present, bad if rounds > 1 else None)
                 if self.progress:
                     self.progress(f"routing: round {rounds}, {net.name}", min(0.99, (rounds - 1 + idx / len(todo)) / 8))
             bad, involved = self.shared()
-            if not bad or time.monotonic() > self.deadline or (not self.coarse and any(n.dead for n in self.nets)):
+            if not bad or self.late() or (not self.coarse and any(n.dead for n in self.nets)):
                 break   # done, out of time, or a connection has no path at all: negotiating cannot help
             for n in bad:
                 self.hist[n] += HISTORY_STEP
@@ -422,7 +472,7 @@ class _Router:
 
     def plan(self):
         """Global routing on tiles: each net's corridor; the nets it leaves open are not routed in detail."""
-        now = time.monotonic()
+        now = self.clock()
         g = self.nets[0].grid
         tile = TILE_PITCHES
         ntx, nty = -(-g.nx // tile), -(-g.ny // tile)
@@ -436,7 +486,7 @@ class _Router:
             net_tiles[net.name] = list(dict.fromkeys(tiles))
         plan = plan_corridors(net_tiles, caph, capv, ntx, nty, tile, g.pitch, (g.x0, g.y0),
                               (PRESENT_START, PRESENT_GROWTH, HISTORY_STEP),
-                              now + COARSE_SHARE * max(self.deadline - now, 0.0), self.progress)
+                              now + COARSE_SHARE * max(self.deadline - now, 0.0), self.progress, clock=self.clock)
         for net in self.nets:
             if net.name in plan.open:
                 net.failed = net.tried = True
@@ -499,15 +549,22 @@ class _Router:
             joined = [d for part in done for d in part[0]]
             nxt = min(todo, key=lambda c: (min(cents[q].distance(cents[d]) for q in c[0] for d in joined), c[0]))
             path = self.astar(net, tree, set(nxt[1]), present)
+            if path is None and net.corridor is not None:   # the corridor may miss a way the tiles hide
+                path = self.outside_corridor(net, tree, set(nxt[1]), present)
             if path is None:
-                net.failed = True
-                net.dead = net.corridor is None   # outside a corridor a path may still exist
+                net.failed = net.dead = True
                 return
             self.add_path(net, path)
             tree.update(path)
             tree.update(nxt[1])
             todo.remove(nxt)
             done.append(nxt)
+
+    def outside_corridor(self, net: _Net, sources: set[int], targets: set[int], present: float) -> list[int] | None:
+        """A search without the net's corridor, in the box of ``sources`` and ``targets`` grown by
+        ``WINDOW`` (not the whole board: its cost stays that of the net's own box). A tile border's
+        capacity counts grid edges that other nets' pads own, so a corridor can miss a way the board has."""
+        return self._search(net, sources, targets, present, _box(net.grid, sources | targets, WINDOW), None)
 
     def pieces(self, net: _Net) -> list[tuple[tuple[int, ...], set[int]]]:
         """The pads of ``net`` grouped by the paths it has: ``[(pad indices, nodes), ...]``, the group
@@ -592,12 +649,18 @@ class _Router:
         takes a path clear of every other net's copper when one exists; a
         net whose best path still shares is ripped up and left open (the
         classic sequential rip-up-and-reroute pass after negotiation).
+        When the budget runs out first, the nets not reached get their
+        negotiated copper back (:meth:`resolve` then drops those that share).
         """
+        saved = [(net, net.paths, net.vias) for net in nets]
         for net in nets:
             self.drop(net)
-        for net in nets:
-            if time.monotonic() > self.deadline:
-                break
+        for q, net in enumerate(nets):
+            if self.late():
+                for other, paths, vias in saved[q:]:
+                    other.paths, other.vias, other.failed = paths, vias, False
+                    self.commit(other, +1)
+                return
             self.reroute(net, HARD)
             if net.failed or self.shares(net):
                 self.drop(net)
