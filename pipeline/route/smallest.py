@@ -53,7 +53,7 @@ influence.
 
 Cost: ``shapes x PLACE_STEPS`` placements (about 0.1 s each for 60 parts)
 plus, for the routed shapes, ``ROUTE_STEPS + 1`` route attempts each (and
-``TIGHT_STEPS`` at most for the best, and up to 14 on the ladder), an
+``TIGHT_STEPS`` at most for the best, and up to 20 on the ladder), an
 attempt being up to ``len(SPREAD_STEPS)`` routings.
 """
 
@@ -97,9 +97,9 @@ TIGHT = 0.01
 TIGHT_STEPS = 3
 #: phase 5: how many shapes (least placement bounds first) are routed on a ladder of areas (our choice).
 LADDER_SHAPES = 2
-#: phase 5: the ladder's step, a share of the area (our choice: about the spread of the demo's
-#: routed / open areas at one shape, bench/README.md).
-LADDER = 0.015
+#: phase 5: the ladder's step, a share of the area: the search's own resolution ``TIGHT`` (one rule
+#: for how close a failure must be to the answer; 1.5 % was tried first, bench/README.md).
+LADDER = TIGHT
 #: phase 5: the ladder starts this share below the best area (our choice).
 LADDER_SPAN = 0.1
 
@@ -322,7 +322,7 @@ def _ladder(s: "_Search", bounds, best):
     above such an island never looks below it: on the demo (bench/README.md) the shape at 0 deg,
     aspect 1.5 failed at 1.58 x the courtyard sum and was left at 1.63 x, but routes at 1.45 x.
     Cost: at most ``LADDER_SHAPES x ceil(log((1 - TIGHT) / (1 - LADDER_SPAN)) / log(1 + LADDER))``
-    route attempts (14 with the values here); a rung that does not place costs one placement.
+    route attempts (20 with the values here); a rung that does not place costs one placement.
     """
     for bound, shape in bounds[:LADDER_SHAPES]:
         area, failed = max(bound, best[1] * (1.0 - LADDER_SPAN)), 0.0
