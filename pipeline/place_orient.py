@@ -31,7 +31,8 @@ not made: turning an IC moves its supply pins, turning a capacitor its
 pads.
 
 Cost: O(passes x sum over parts of the pins of their nets), with each
-package's turned pads computed once per (package, rotation, side).
+package's turned pads computed once per (package, rotation, side)
+(:func:`pipeline.library.lands.turned_pads` keeps them).
 """
 
 from __future__ import annotations
@@ -53,22 +54,18 @@ GAIN_MM = 1e-6
 
 
 class _Pins:
-    """Pad centres per net and part, and the turned pads of each (package, rotation, side)."""
+    """Pad centres per net and part (the turned pads: :func:`pipeline.library.lands.turned_pads`)."""
 
     def __init__(self, design: Design, library, level: str, skip_nets: frozenset):
         self.design, self.library, self.level = design, library, level
         self.net_of = {(pr.ref, pr.pin): n.name for n in design.nets for pr in n.pins if n.name not in skip_nets}
-        self.turned: dict[tuple, tuple] = {}
         self.at: dict[str, dict[str, list[tuple[float, float]]]] = {}  # net -> ref -> pad centres
 
     def of(self, pl: Placement, rotation: int) -> dict[str, list[tuple[float, float]]]:
         """The part's connected pad centres (mm) by net, turned to ``rotation``."""
-        package = self.design.part(pl.ref).package
-        key = (package, rotation, pl.side)
-        if key not in self.turned:
-            self.turned[key] = turned_pads(self.library.package(package), rotation, pl.side, self.level)
+        package = self.library.package(self.design.part(pl.ref).package)
         out: dict[str, list[tuple[float, float]]] = {}
-        for pad, dx, dy, _ in self.turned[key]:
+        for pad, dx, dy, _ in turned_pads(package, rotation, pl.side, self.level):
             net = self.net_of.get((pl.ref, pad.number))
             if net is not None:
                 out.setdefault(net, []).append((pl.x_mm + dx, pl.y_mm + dy))

@@ -363,28 +363,12 @@ def _lex_first(*keys) -> int:
 # --------------------------------------------------------------------------
 # the near rule: a post-pass on the packer's grid
 # --------------------------------------------------------------------------
-def _offsets(package, rot: int, side: str, level: str) -> tuple:
-    """``(pad number, dx, dy)`` per pad of ``package`` turned ``rot`` on ``side``
-    (:func:`turned_pads`), kept per (package, turn, side, level): a near pass asks for the same few
-    packages thousands of times. The package is kept beside the offsets to check the id."""
-    key = (id(package), rot, side, level)
-    offs = _OFFSETS.get(key)
-    if offs is None or offs[0] is not package:
-        offs = _OFFSETS[key] = (package, tuple((p.number, dx, dy) for p, dx, dy, _t in turned_pads(
-            package, rot, side, level)))
-    return offs[1]
-
-
-#: turned pad offsets per (package id, turn, side, level); the package is kept to check the id
-_OFFSETS: dict[tuple, tuple] = {}
-
-
 def _points(rule: NearRule, own: bool, x: float, y: float, rot: int, side: str, pins=()) -> np.ndarray:
     """Board positions (mm, to 1 nm) of the own or the target package's pads (only ``pins`` when
     given) for a part at (``x``, ``y``): :func:`pads_on_board`'s positions, without building pads."""
     pkg = rule.own_package if own else rule.target_package
-    pts = [board_xy(x, y, dx, dy) for number, dx, dy in _offsets(pkg, rot, side, rule.level)
-           if not pins or number in pins]
+    pts = [board_xy(x, y, dx, dy) for pad, dx, dy, _t in turned_pads(pkg, rot, side, rule.level)
+           if not pins or pad.number in pins]
     return np.array(pts, dtype=float).reshape(-1, 2)
 
 
@@ -473,7 +457,7 @@ class _TopBoard:
         goal's box grown by ``reach``, the courtyard's longer side and the pads' farthest offset);
         and whether that box holds the whole board."""
         g, it = self.g, self.packer.items[i]
-        offs = [abs(v) for t in (0, 90) for _n, dx, dy in _offsets(it.near.own_package, t, "top", it.near.level)
+        offs = [abs(v) for t in (0, 90) for _p, dx, dy, _t in turned_pads(it.near.own_package, t, "top", it.near.level)
                 for v in (dx, dy)]
         box = _window(g, goal, reach + max(it.length_mm, it.width_mm) + max(offs, default=0.0) + g.cell)
         return box, box[0] == 0 and box[2] == 0 and box[1] >= g.ny and box[3] >= g.nx
@@ -525,7 +509,7 @@ class _TopBoard:
         and under no other top-side courtyard (its own does not count: inside its own courtyard a
         cell is free when only one courtyard covers it). One boolean array per call, no copy of
         the counts."""
-        ok = self.packer.mask(self.run.top_level[i])[rows, cols] & (self.occ[rows, cols] == 0)
+        ok = self._free(self.run.top_level[i], rows, cols)
         slot = self.run.slots[i]
         if slot[0] == "top":
             r0, r1, c0, c1 = cells_of(self.g, self.packer.rect(i, slot))
@@ -556,8 +540,8 @@ def near_pass(packer: Any, run: Any, fixed: dict) -> None:
         if target is None or near_distance(rule, _where(packer, run, fixed, i), target) <= rule.within_mm + TOL:
             continue
         goal = board.goal(rule, target)
-        swap = _nearest_swap(board, fixed, i, goal)
         here = round(_slot_distance(packer, i, run.slots[i], goal), 6)  # a free slot farther than here or
+        swap = _nearest_swap(board, fixed, i, goal, here)
         limit = here if swap is None else max(rule.within_mm + TOL, swap[0])  # than the trade loses
         free = _nearest_slot(board, i, goal, limit)
         if free is not None and free[0] <= limit:
@@ -575,8 +559,8 @@ def _slot_distance(packer, i: int, slot, goal: np.ndarray) -> float:
     x1, y1, x2, y2 = packer.rect(i, slot)
     rule = packer.items[i].near
     cx, cy = (x1 + x2) / 2, (y1 + y2) / 2
-    own = [board_xy(cx, cy, dx, dy) for _n, dx, dy in _offsets(rule.own_package, 90 if slot[1] else 0, slot[0],
-                                                                 rule.level)]
+    turned = turned_pads(rule.own_package, 90 if slot[1] else 0, slot[0], rule.level)
+    own = [board_xy(cx, cy, dx, dy) for _p, dx, dy, _t in turned]
     # numpy's hypot on each pair, as near_distance's array does (the same floats), without building
     # arrays for two to eight pairs: the swap search asks this for every candidate it reads
     return float(min(np.hypot(px - tx, py - ty) for px, py in own for tx, ty in goal.tolist()))
@@ -611,7 +595,7 @@ def _swap_bounds(board: _TopBoard, i: int, goal: np.ndarray, cand: np.ndarray) -
     low = np.full(len(cand), np.inf)
     for t in (0, 1):
         sel = np.flatnonzero(turned == bool(t))
-        offs = np.array([(dx, dy) for _n, dx, dy in _offsets(it.near.own_package, 90 * t, "top", it.near.level)],
+        offs = np.array([(dx, dy) for _p, dx, dy, _t in turned_pads(it.near.own_package, 90 * t, "top", it.near.level)],
                         dtype=float).reshape(-1, 2)
         if not len(sel) or not len(offs) or not len(goal):
             continue
@@ -652,12 +636,13 @@ def _sorted_pairs(cand: np.ndarray, low: np.ndarray):
     return zip(cand[order].tolist(), low[order].tolist())
 
 
-def _nearest_swap(board: _TopBoard, fixed: dict, i: int, goal: np.ndarray):
+def _nearest_swap(board: _TopBoard, fixed: dict, i: int, goal: np.ndarray, here: float):
     """(distance, j) of the packed top-side part of ``i``'s cell size whose slot brings ``i``'s pads
     nearest ``goal``; a trade keeps both legal when each may stand, by height, in the other's cells
     (the cells are the same); a part with a near rule of its own is taken only when ``i``'s old slot
     still meets it. Candidates are visited by a lower bound of their distance (:func:`_swap_order`)
-    and the search stops once the bound passes the best found: the same answer as trying them all."""
+    and the search stops once the bound passes the best found: the same answer as trying them all.
+    ``here``: ``i``'s own distance (mm, rounded as the trades'); None when no trade comes nearer."""
     packer, run, index = board.packer, board.run, board.index
     best = None
     for j, lb in _swap_order(board, i, goal):
@@ -676,7 +661,7 @@ def _nearest_swap(board: _TopBoard, fixed: dict, i: int, goal: np.ndarray):
         d = round(_slot_distance(packer, i, run.slots[j], goal), 6)
         if best is None or (d, j) < best:
             best = (d, j)
-    if best is None or best[0] >= round(_slot_distance(packer, i, run.slots[i], goal), 6):
+    if best is None or best[0] >= here:
         return None
     return best
 

@@ -450,9 +450,9 @@ def test_swap_search_measures_the_mover_only_where_the_partner_keeps_its_rule(mo
     measured: list[int] = []
     real_swap, real_distance = pr._nearest_swap, pr._slot_distance
 
-    def swap(board, fixed, i, goal):
+    def swap(board, fixed, i, goal, here):
         state.update(board=board, mover=i, last=None)
-        return real_swap(board, fixed, i, goal)
+        return real_swap(board, fixed, i, goal, here)
 
     def distance(packer, k, slot, goal):
         d = real_distance(packer, k, slot, goal)

@@ -82,20 +82,25 @@ def test_true_pad_shapes_placed_independently(package, side, rot):
 
 def test_turned_pads_computed_once_per_package_rotation_side(monkeypatch):
     # cost guard: 40 parts of one package in two orientations turn the land pattern twice, not 40 times
-    import pipeline.route.pads as pads_mod
-    calls = []
-    real = pads_mod.turned_pads
+    # (lands.turned_pads keeps each turning: the package's pads are read once per kept key)
+    import pipeline.library.lands as lands
+    from pipeline.model import Package
 
-    def counting(*a, **k):
-        calls.append(a[1:3])
-        return real(*a, **k)
+    read = []
+    real = Package.pads_at
 
-    monkeypatch.setattr(pads_mod, "turned_pads", counting)
+    def counting(self, level):
+        read.append(level)
+        return real(self, level)
+
+    monkeypatch.setattr(lands, "_TURNED", {})
+    monkeypatch.setattr(Package, "pads_at", counting)
     pins = (PinDef("1", "1", "passive"), PinDef("2", "2", "passive"))
     parts = tuple(Part(f"R{i}", "resistor", "0603", pins) for i in range(40))
     pl = tuple(Placement(f"R{i}", 2.0 * i, 5, 90 * (i % 2), "top", None) for i in range(40))
     b = board_from_placement(box(0, 0, 100, 10), pl, Design("t", "", "", parts, ()), LIB, ("top", "bottom"))
-    assert sorted(calls) == [(0, "top"), (90, "top")] and len(b.pads) == 80
+    assert sorted((k[1], k[2]) for k in lands._TURNED) == [(0, "top"), (90, "top")]
+    assert len(read) == 2 and len(b.pads) == 80
 
 
 @pytest.mark.parametrize("pad", [

@@ -340,11 +340,16 @@ def turned_pads(package: Package, rotation_deg: float, side: str,
     now stands turned by 90 degrees. The part is turned ``rotation_deg``
     anticlockwise (a multiple of 90) seen from the top; a part on the
     ``"bottom"`` side is first mirrored in x (it is seen through the board).
-    It depends on the package, rotation, side and level only, so a caller
-    placing many parts of one package computes it once per such key
-    (:func:`pipeline.route.pads.board_from_placement`). Cost: one pass over
-    the pads.
+    It depends on the package, rotation, side and level only, so it is kept
+    per such key after the first call (callers place thousands of parts of a
+    few packages: the router's pads, the near pass, the orientation pass);
+    the package is kept beside its pads, so a key's id is never another
+    package's. Cost: one pass over the pads the first time, O(1) after.
     """
+    key = (id(package), rotation_deg, side, level)
+    kept = _TURNED.get(key)
+    if kept is not None and kept[0] is package:
+        return kept[1]
     quarter = round(rotation_deg / 90.0)
     if abs(quarter * 90.0 - rotation_deg) > 1e-9:
         raise ValueError(f"rotation {rotation_deg} is not a multiple of 90 degrees")
@@ -355,7 +360,12 @@ def turned_pads(package: Package, rotation_deg: float, side: str,
     for p in package.pads_at(level):
         px = -p.x_mm if side == "bottom" else p.x_mm
         out.append((p, px * cos - p.y_mm * sin, px * sin + p.y_mm * cos, (p.rotation + 90 * (quarter % 2)) % 180))
-    return tuple(out)
+    _TURNED[key] = (package, tuple(out))
+    return _TURNED[key][1]
+
+
+#: :func:`turned_pads` per (package id, rotation, side, level), the package kept beside to check the id
+_TURNED: dict[tuple, tuple] = {}
 
 
 def board_xy(x: float, y: float, dx: float, dy: float) -> tuple[float, float]:

@@ -83,19 +83,15 @@ def board_from_placement(outline, placements: Iterable[Placement], design: Desig
     MultiPolygon; its interiors become holes), ``library`` anything with
     ``package(name)``, ``layers`` the copper layer names top first,
     ``level`` the IPC-7351B density level of the lands. Each package's
-    turned pads are computed once per (package, rotation, side)
-    (:func:`pipeline.library.lands.turned_pads`) and moved per part; the
-    outlines are made in bulk (:func:`pad_polygons`).
+    turned pads (:func:`pipeline.library.lands.turned_pads`, kept per
+    package, rotation and side) are moved per part; the outlines are made
+    in bulk (:func:`pad_polygons`).
     """
     net_of = {(pr.ref, pr.pin): n.name for n in design.nets for pr in n.pins}
-    turned: dict[tuple, tuple] = {}
     rows, cols = [], ([], [], [], [], [], [])
     for pl in placements:
-        package = design.part(pl.ref).package
-        key = (package, pl.rotation_deg, pl.side)
-        if key not in turned:
-            turned[key] = turned_pads(library.package(package), pl.rotation_deg, pl.side, level)
-        for pad, dx, dy, rot in turned[key]:
+        package = library.package(design.part(pl.ref).package)
+        for pad, dx, dy, rot in turned_pads(package, pl.rotation_deg, pl.side, level):
             if pad.drill_mm > 0:
                 on = layers
             else:
