@@ -224,3 +224,28 @@ def test_nearest_origin_alone_is_legal(monkeypatch):
     _legal(items, region, board, fit)
     x0, y0, x1, y1 = _union_box(fit)
     assert (x1 - x0) * (y1 - y0) > 2.5 * 20 * 2.8 * 1.3  # spread beyond the packed block's size
+
+
+def test_free_targets_are_kept(monkeypatch):
+    """Worked example of the linear map (module notes) on the chain board: the block's box maps onto
+    the target box (29 x 14 mm placement area scaled by k, centred on the block, inside the area);
+    both scales are above 1, so the targets do not overlap and each part ends at its own target
+    within one grid cell (0.05 mm) per axis (before the swaps on the spread slots)."""
+    import pipeline.place as place
+
+    items, region, board = _chain_board()
+    monkeypatch.setattr(place_spread, "spread_block", lambda *a: 0)
+    packed = place_and_fit(items, region, board)
+    monkeypatch.undo()
+    monkeypatch.setattr(place, "improve_swaps", _only_first(place.improve_swaps))
+    spread = place_and_fit(items, region, board)
+    bx0, by0, bx1, by1 = _union_box(packed)
+    k = math.sqrt(place_spread.SPREAD_MAX * 20 * 2.8 * 1.3 / (29 * 14))
+    tw, th = 29 * k, 14 * k
+    tx0 = min(max((bx0 + bx1 - tw) / 2, 0.5), 29.5 - tw)
+    ty0 = min(max((by0 + by1 - th) / 2, 0.5), 14.5 - th)
+    at = {p.ref: (p.x_mm, p.y_mm) for p in spread.placements}
+    for p in packed.placements:
+        x = tx0 + (p.x_mm - bx0) * tw / (bx1 - bx0)
+        y = ty0 + (p.y_mm - by0) * th / (by1 - by0)
+        assert at[p.ref][0] == pytest.approx(x, abs=0.05 + 1e-9) and at[p.ref][1] == pytest.approx(y, abs=0.05 + 1e-9)
