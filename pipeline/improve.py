@@ -317,7 +317,7 @@ def _round(st: _Swaps) -> tuple[float, float, np.ndarray]:
 
 def improve_swaps(groups: Sequence[Sequence[int]], xy: np.ndarray, nets: Sequence[Sequence[int]],
                   fanout: int, progress: Progress | None = None, *,
-                  movers: Iterable[int] | None = None) -> np.ndarray:
+                  movers: Iterable[int] | None = None, min_gain: float = MIN_GAIN) -> np.ndarray:
     """Swap parts between slots of their group to lower the half-perimeter wirelength.
 
     Parameters
@@ -337,6 +337,9 @@ def improve_swaps(groups: Sequence[Sequence[int]], xy: np.ndarray, nets: Sequenc
         the other side of it); all parts when None. A repair after a few
         parts were moved looks at those only: a round then costs the sorts
         of all pins plus the candidates of the movers.
+    min_gain : float
+        A pass over every part stops after a round gaining less than this
+        share of the HPWL (default :data:`MIN_GAIN`).
 
     Returns
     -------
@@ -368,7 +371,7 @@ def improve_swaps(groups: Sequence[Sequence[int]], xy: np.ndarray, nets: Sequenc
         total, got, swapped = _round(st)
         if progress is not None:
             progress("improving wirelength", (rnd + 1) / MAX_ROUNDS)
-        if not len(swapped) or (movers is None and got < MIN_GAIN * total):
+        if not len(swapped) or (movers is None and got < min_gain * total):
             break  # a pass over every part runs rounds while they pay
         if movers is not None:  # a repair: only the parts next to a swap look again (don't-look bits)
             _look_at(st, _neighbours(st, swapped))

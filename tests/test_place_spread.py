@@ -134,3 +134,118 @@ def test_spread_placements_are_legal_and_deterministic(w, h, n, tall, sizes):
     again = place_and_fit(items, region, board)
     assert [(p.ref, p.x_mm, p.y_mm, p.rotation_deg) for p in fit.placements] == \
         [(p.ref, p.x_mm, p.y_mm, p.rotation_deg) for p in again.placements]
+
+
+def _chain_board():
+    """20 chained 2.8 x 1.3 mm parts on a 30 x 15 mm board (0.5 mm edge clearance): a roomy board."""
+    items = _chain(20)
+    region = Region(box(0, 0, 30, 15), (HeightZone(box(0, 0, 30, 15), 4.0),), 0.8)
+    return items, region, BoardOptions(edge_clearance_mm=0.5)
+
+
+def test_spread_keeps_the_linear_maps_wirelength(monkeypatch):
+    """Closed form: a map scaling x by sx and y by sy turns a net's half-perimeter w + h into
+    sx w + sy h <= max(sx, sy) (w + h). The spread placement (legalised, without the swaps on the
+    spread slots) stays within that bound of the packed one, plus two grid cells (0.05 mm) per net
+    and axis for the rounding of the origins: the legalisation keeps the parts at their targets."""
+    items, region, board = _chain_board()
+    monkeypatch.setattr(place_spread, "spread_block", lambda *a: 0)
+    packed = place_and_fit(items, region, board)
+    monkeypatch.undo()
+    import pipeline.place as place
+
+    monkeypatch.setattr(place, "SPREAD_MIN_GAIN", 1.0)  # the swaps on the spread slots stop after one round
+    monkeypatch.setattr(place, "improve_swaps", _only_first(place.improve_swaps))
+    spread = place_and_fit(items, region, board)
+    _legal(items, region, board, spread)
+    x0, y0, x1, y1 = _union_box(packed)
+    k = math.sqrt(place_spread.SPREAD_MAX * 20 * 2.8 * 1.3 / (29 * 14))  # the target box, as in the test above
+    sx, sy = 29 * k / (x1 - x0), 14 * k / (y1 - y0)
+    assert min(sx, sy) >= place_spread.SPREAD_MIN_SCALE  # both axes are spread
+    nets = 21
+    assert spread.wirelength_mm <= max(sx, sy) * packed.wirelength_mm + nets * 2 * 2 * 0.05
+
+
+def _only_first(real):
+    """``improve_swaps`` that swaps only on its first call (the pass before the spreading)."""
+    calls = []
+
+    def wrapped(groups, xy, nets, fanout, progress=None, **kw):
+        calls.append(kw)
+        if len(calls) == 1:
+            return real(groups, xy, nets, fanout, progress, **kw)
+        import numpy as np
+
+        return np.arange(len(xy))
+    return wrapped
+
+
+def test_spread_slots_get_one_more_swap_pass(monkeypatch):
+    """Cost guard by count: a spread board gets one more swap pass over every part (after the
+    spreading, with SPREAD_MIN_GAIN); a board left as packed gets none."""
+    import pipeline.place as place
+
+    passes = []
+    real = place.improve_swaps
+
+    def counting(groups, xy, nets, fanout, progress=None, **kw):
+        passes.append((kw.get("movers") is None, kw.get("min_gain")))
+        return real(groups, xy, nets, fanout, progress, **kw)
+
+    monkeypatch.setattr(place, "improve_swaps", counting)
+    items, region, board = _chain_board()
+    place_and_fit(items, region, board)
+    assert [p for p in passes if p[0]] == [(True, place.MIN_GAIN), (True, place.SPREAD_MIN_GAIN)]
+    passes.clear()
+    monkeypatch.setattr(place_spread, "SPREAD_PARTS", 19)
+    place_and_fit(items, region, board)
+    assert [p for p in passes if p[0]] == [(True, place.MIN_GAIN)]
+
+
+def test_no_room_left_keeps_the_block_as_packed(monkeypatch):
+    """When a part finds no free origin the spreading puts every part back: the placement is the
+    packed one, exactly (every goal made unusable, so each part looks for a free origin)."""
+    items, region, board = _chain_board()
+    monkeypatch.setattr(place_spread, "spread_block", lambda *a: 0)
+    packed = place_and_fit(items, region, board)
+    monkeypatch.undo()
+    monkeypatch.setattr(place_spread, "_at_goal", lambda packer, slot, i, goal: (slot[0], slot[1], -1, -1))
+    monkeypatch.setattr(place_spread, "_nearest_origin", lambda *a: None)
+    fit = place_and_fit(items, region, board)
+    assert [(p.ref, p.x_mm, p.y_mm) for p in fit.placements] == [(p.ref, p.x_mm, p.y_mm) for p in packed.placements]
+
+
+def test_nearest_origin_alone_is_legal(monkeypatch):
+    """Every goal made unusable: each part goes to the free origin nearest its target (the doubling
+    window); the result is still legal (shapely, from scratch) and moved off the packing."""
+    items, region, board = _chain_board()
+    monkeypatch.setattr(place_spread, "_at_goal", lambda packer, slot, i, goal: (slot[0], slot[1], -1, -1))
+    fit = place_and_fit(items, region, board)
+    _legal(items, region, board, fit)
+    x0, y0, x1, y1 = _union_box(fit)
+    assert (x1 - x0) * (y1 - y0) > 2.5 * 20 * 2.8 * 1.3  # spread beyond the packed block's size
+
+
+def test_free_targets_are_kept(monkeypatch):
+    """Worked example of the linear map (module notes) on the chain board: the block's box maps onto
+    the target box (29 x 14 mm placement area scaled by k, centred on the block, inside the area);
+    both scales are above 1, so the targets do not overlap and each part ends at its own target
+    within one grid cell (0.05 mm) per axis (before the swaps on the spread slots)."""
+    import pipeline.place as place
+
+    items, region, board = _chain_board()
+    monkeypatch.setattr(place_spread, "spread_block", lambda *a: 0)
+    packed = place_and_fit(items, region, board)
+    monkeypatch.undo()
+    monkeypatch.setattr(place, "improve_swaps", _only_first(place.improve_swaps))
+    spread = place_and_fit(items, region, board)
+    bx0, by0, bx1, by1 = _union_box(packed)
+    k = math.sqrt(place_spread.SPREAD_MAX * 20 * 2.8 * 1.3 / (29 * 14))
+    tw, th = 29 * k, 14 * k
+    tx0 = min(max((bx0 + bx1 - tw) / 2, 0.5), 29.5 - tw)
+    ty0 = min(max((by0 + by1 - th) / 2, 0.5), 14.5 - th)
+    at = {p.ref: (p.x_mm, p.y_mm) for p in spread.placements}
+    for p in packed.placements:
+        x = tx0 + (p.x_mm - bx0) * tw / (bx1 - bx0)
+        y = ty0 + (p.y_mm - by0) * th / (by1 - by0)
+        assert at[p.ref][0] == pytest.approx(x, abs=0.05 + 1e-9) and at[p.ref][1] == pytest.approx(y, abs=0.05 + 1e-9)
