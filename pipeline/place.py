@@ -157,8 +157,8 @@ MAX_GAPS = 8
 #: A board at least this many times the courtyard sum first gets a compact block of parts.
 ROOMY = 2.5
 #: The swap pass on the spread slots stops after a round gaining less than this share of the HPWL (our
-#: choice: 1e-3 and 0 gave the same 0.433 of a random permutation on bench/bench_scale.py's 250-part board,
-#: 1e-2 gave 0.449; boards of at most place_spread.SPREAD_PARTS parts only, so the rounds are cheap).
+#: choice: 1e-3 and 0 gave the same 0.413 of a random permutation on bench/bench_scale.py's 250-part board,
+#: 1e-2 gave 0.420; boards of at most place_spread.SPREAD_PARTS parts only, so the rounds are cheap).
 SPREAD_MIN_GAIN = 1e-3
 
 
