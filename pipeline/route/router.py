@@ -376,42 +376,26 @@ class _Router:
 
     # ---------------------------------------------------------------- occupancy
     def claims(self, net: _Net) -> tuple[set[int], set[int]]:
+        """``(core, claim)`` of ``net``: the nodes its copper stands on, and those plus every node
+        within its halo (same layer) and within the via halo of its vias (every layer)."""
         g = net.grid
         plane = g.nx * g.ny
         core: set[int] = set()
         for path in net.paths:
             core.update(path)
         claim = set(core)
-        for n in core:
-            claim.update(self.around(g, n, net.halo, same_layer=True))
+        claim.update(_around(g, core, net.halo).tolist())
         for site in net.vias:
             for li in range(len(self.layers)):
                 core.add(li * plane + site)
                 claim.add(li * plane + site)
-            claim.update(self.around(g, site, self.via_halo, same_layer=False))
+        claim.update(_around(g, net.vias, self.via_halo, len(self.layers)).tolist())
         return core, claim
 
-    def around(self, g: Grid, n: int, offsets, *, same_layer: bool) -> list[int]:
-        plane = g.nx * g.ny
-        li, rest = divmod(n, plane)
-        j, i = divmod(rest, g.nx)
-        layers = [li] if same_layer else range(len(self.layers))
-        out = []
-        for di, dj in offsets:
-            ii, jj = i + di, j + dj
-            if 0 <= ii < g.nx and 0 <= jj < g.ny:
-                for lj in layers:
-                    out.append(lj * plane + jj * g.nx + ii)
-        return out
-
-    def _spread(self, g: Grid, nodes, offsets, *, same_layer: bool) -> list[int]:
-        """Every node within ``offsets`` of each of ``nodes`` (with repeats: one per pair)."""
-        out: list[int] = []
-        for n in nodes:
-            out.extend(self.around(g, n, offsets, same_layer=same_layer))
-        return out
-
     def commit(self, net: _Net, sign: int) -> None:
+        """Add (``sign`` +1) or take away (-1) ``net``'s copper in the occupancy counts the searches
+        read: ``core_occ``, ``claim_occ``, ``near`` (per halo shape) and ``via_near``. Cost
+        O(core x halo) numpy work plus O(claim) list updates and one list copy per halo shape."""
         if sign > 0:
             net.core, net.claim = self.claims(net)
         core_occ = self.core_occ
@@ -420,14 +404,12 @@ class _Router:
         if net.core:
             g = net.grid
             plane = g.nx * g.ny
-            for halo, near in self.near.items():
-                for m in self._spread(g, net.core, halo, same_layer=True):
-                    near[m] += sign
-            via_near = self.via_near
-            for m in self._spread(g, [n % plane for n in net.core], self.via_halo, same_layer=True):
-                via_near[m] += sign
+            for halo in self.near:
+                self.near[halo] = _bumped(self.near[halo], _around(g, net.core, halo), sign)
+            self.via_near = _bumped(self.via_near, _around(g, [n % plane for n in net.core], self.via_halo), sign)
+        claim_occ = self.claim_occ
         for n in net.claim:
-            self.claim_occ[n] += sign
+            claim_occ[n] += sign
 
     def shared(self) -> tuple[set[int], list[_Net]]:
         """Nodes where one net's copper stands on another's claim, and the nets involved."""
@@ -526,11 +508,9 @@ class _Router:
             if path[0] not in held or bad.intersection(path):
                 continue
             claim = set(path)
-            for n in path:
-                claim.update(self.around(g, n, net.halo, same_layer=True))
-            for a, b in zip(path, path[1:]):
-                if a // plane != b // plane:
-                    claim.update(self.around(g, a % plane, self.via_halo, same_layer=False))
+            claim.update(_around(g, path, net.halo).tolist())
+            sites = [a % plane for a, b in zip(path, path[1:]) if a // plane != b // plane]
+            claim.update(_around(g, sites, self.via_halo, len(self.layers)).tolist())
             if claim & bad:
                 continue
             out.append(path)
@@ -760,6 +740,28 @@ def _runs(g: Grid, path: list[int], plane: int, layers) -> list[tuple[str, tuple
                            != (pts[q][1] - pts[q - 1][1]) * (pts[q + 1][0] - pts[q][0])] + pts[-1:]
         result.append((layers[r[0] // plane], tuple(keep) if len(pts) > 1 else ()))
     return result
+
+
+def _around(g: Grid, nodes, offsets, layers: int = 0) -> np.ndarray:
+    """The nodes at ``offsets`` (grid steps ``(di, dj)``) from each of ``nodes`` that lie on the grid,
+    with repeats (one per pair): on each node's own layer, or with ``layers`` > 0 at those plane
+    places on every one of the ``layers`` layers. Cost O(len(nodes) x len(offsets)), vectorised."""
+    n = np.fromiter(nodes, dtype=np.int64, count=len(nodes))
+    off = np.asarray(offsets, dtype=np.int64).reshape(-1, 2)
+    plane = g.nx * g.ny
+    rest = n % plane
+    ii = (rest % g.nx)[:, None] + off[:, 0]
+    jj = (rest // g.nx)[:, None] + off[:, 1]
+    ok = (ii >= 0) & (ii < g.nx) & (jj >= 0) & (jj < g.ny)
+    at = (jj * g.nx + ii)[ok]
+    if layers:
+        return (np.arange(layers, dtype=np.int64)[:, None] * plane + at).ravel()
+    return ((n // plane)[:, None] * plane + jj * g.nx + ii)[ok]
+
+
+def _bumped(counts: list[int], nodes: np.ndarray, sign: int) -> list[int]:
+    """``counts`` with ``sign`` added once per entry of ``nodes`` (repeats count), as a new list."""
+    return (np.asarray(counts, dtype=np.int64) + sign * np.bincount(nodes, minlength=len(counts))).tolist()
 
 
 def _offsets(radius: float, pitch: float) -> list[tuple[int, int]]:
