@@ -262,11 +262,13 @@ class _Router:
         self.hist = [0.0] * n_nodes
         # copper of other nets near each node (per halo shape) and near each via site (all layers),
         # kept up to date by commit() so that a search step reads one number instead of summing
+        # (counts as numpy arrays, updated there; read as lists by the searches: see costs())
         self.near = {}
         for net in self.nets:
             net.halo_key = tuple(net.halo)
-            self.near.setdefault(net.halo_key, [0] * n_nodes)
-        self.via_near = [0] * (n_nodes // len(self.layers) if self.layers else 0)
+            self.near.setdefault(net.halo_key, np.zeros(n_nodes, dtype=np.int64))
+        self.via_near = np.zeros(n_nodes // len(self.layers) if self.layers else 0, dtype=np.int64)
+        self._read: dict = {}   # the lists of near and via_near read by searches, until the next commit
         prefer = len(self.layers) - len(self.rules.areas) > 1
         self.steps = ([1.0 if not prefer or li % 2 == 0 else OFF_DIRECTION for li in range(len(self.layers))],
                       [1.0 if not prefer or li % 2 == 1 else OFF_DIRECTION for li in range(len(self.layers))])
@@ -395,7 +397,8 @@ class _Router:
     def commit(self, net: _Net, sign: int) -> None:
         """Add (``sign`` +1) or take away (-1) ``net``'s copper in the occupancy counts the searches
         read: ``core_occ``, ``claim_occ``, ``near`` (per halo shape) and ``via_near``. Cost
-        O(core x halo) numpy work plus O(claim) list updates and one list copy per halo shape."""
+        O(core x halo) numpy work plus O(claim) list updates; the lists the searches read are made
+        again on the next search (:meth:`read_counts`), once per reroute instead of once per commit."""
         if sign > 0:
             net.core, net.claim = self.claims(net)
         core_occ = self.core_occ
@@ -404,12 +407,21 @@ class _Router:
         if net.core:
             g = net.grid
             plane = g.nx * g.ny
-            for halo in self.near:
-                self.near[halo] = _bumped(self.near[halo], _around(g, net.core, halo), sign)
-            self.via_near = _bumped(self.via_near, _around(g, [n % plane for n in net.core], self.via_halo), sign)
+            for halo, near in self.near.items():
+                near += sign * np.bincount(_around(g, net.core, halo), minlength=near.size)
+            self.via_near += sign * np.bincount(_around(g, [n % plane for n in net.core], self.via_halo),
+                                                minlength=self.via_near.size)
+            self._read.clear()
         claim_occ = self.claim_occ
         for n in net.claim:
             claim_occ[n] += sign
+
+    def read_counts(self, halo) -> list[int]:
+        """``near[halo]`` (``via_near`` for None) as a list, the form a search reads fastest; made
+        once after each commit that changed them."""
+        if halo not in self._read:
+            self._read[halo] = (self.via_near if halo is None else self.near[halo]).tolist()
+        return self._read[halo]
 
     def shared(self) -> tuple[set[int], list[_Net]]:
         """Nodes where one net's copper stands on another's claim, and the nets involved."""
@@ -617,7 +629,7 @@ class _Router:
         bits = self._moves.get(key)
         if bits is None:
             bits = self._moves[key] = moves(net.grid, net.k, mask)
-        costs = (present, self.hist, self.claim_occ, self.near[net.halo_key], self.via_near)
+        costs = (present, self.hist, self.claim_occ, self.read_counts(net.halo_key), self.read_counts(None))
         return search_astar(net.grid, bits, sources, targets, box, costs, self.steps, VIA_COST)
 
     # ---------------------------------------------------------------- ending
@@ -757,11 +769,6 @@ def _around(g: Grid, nodes, offsets, layers: int = 0) -> np.ndarray:
     if layers:
         return (np.arange(layers, dtype=np.int64)[:, None] * plane + at).ravel()
     return ((n // plane)[:, None] * plane + jj * g.nx + ii)[ok]
-
-
-def _bumped(counts: list[int], nodes: np.ndarray, sign: int) -> list[int]:
-    """``counts`` with ``sign`` added once per entry of ``nodes`` (repeats count), as a new list."""
-    return (np.asarray(counts, dtype=np.int64) + sign * np.bincount(nodes, minlength=len(counts))).tolist()
 
 
 def _offsets(radius: float, pitch: float) -> list[tuple[int, int]]:
