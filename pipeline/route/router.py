@@ -16,7 +16,9 @@ Method
   E. Hart, N. J. Nilsson and B. Raphael, "A formal basis for the heuristic
   determination of minimum cost paths", IEEE Trans. SSC 4(2), 1968) from
   every node of the tree and the connected pads to the next pad, with the
-  Manhattan distance to that pad's nodes as an admissible heuristic. Each
+  Manhattan distance to that pad's nodes, weighted by
+  ``search.HEURISTIC_WEIGHT``, as its heuristic (weighted A*: a path costs
+  at most that factor x the least, for far fewer expansions). Each
   layer prefers one direction (horizontal on top, vertical below: common
   practice), a via costs ``VIA_COST`` steps.
 * **Pin escape** (:mod:`pipeline.route.escape`): a pad the grid leaves on
