@@ -166,7 +166,7 @@ class Routing:
 # --------------------------------------------------------------------------
 class _Net:
     __slots__ = ("name", "k", "pads", "width", "area", "grid", "terms", "paths", "vias", "core", "claim",
-                 "failed", "stubs", "halo", "dead", "halo_key", "corridor", "tried")
+                 "failed", "stubs", "halo", "dead", "halo_key", "corridor", "tried", "gaps")
 
     def __init__(self, name, k, pads, width, area):
         self.name, self.k, self.pads, self.width, self.area = name, k, pads, width, area
@@ -183,6 +183,7 @@ class _Net:
         self.halo_key: tuple = ()
         self.corridor = None  # plane cells (bytearray, 1 = usable) the detailed search keeps to, or None
         self.tried = False    # routed at least once (a net the time budget never reached is open)
+        self.gaps: list[list[float]] | None = None   # distances between pad centroids (route_tree's order)
 
 
 def route_board(board: RouteBoard, rules: CopperRules, *, progress: Progress | None = None,
@@ -537,11 +538,11 @@ class _Router:
         parts = self.pieces(net)
         done = [parts[0]]
         tree: set[int] = set(parts[0][1])
-        cents = [p.polygon.centroid for p in net.pads]
+        gap = self.pad_gaps(net)
         todo = parts[1:]
         while todo:
             joined = [d for part in done for d in part[0]]
-            nxt = min(todo, key=lambda c: (min(cents[q].distance(cents[d]) for q in c[0] for d in joined), c[0]))
+            nxt = min(todo, key=lambda c: (min(gap[q][d] for q in c[0] for d in joined), c[0]))
             path = self.astar(net, tree, set(nxt[1]), present)
             if path is None and net.corridor is not None:   # the corridor may miss a way the tiles hide
                 path = self.outside_corridor(net, tree, set(nxt[1]), present)
@@ -553,6 +554,14 @@ class _Router:
             tree.update(nxt[1])
             todo.remove(nxt)
             done.append(nxt)
+
+    def pad_gaps(self, net: _Net) -> list[list[float]]:
+        """Distances (mm) between the centroids of ``net``'s pads, ``[q][d]``; one vectorised shapely
+        call on the net's first tree, kept for its later ones. Cost O(pads^2)."""
+        if net.gaps is None:
+            cents = shapely.centroid(np.array([p.polygon for p in net.pads], dtype=object))
+            net.gaps = shapely.distance(cents[:, None], cents[None, :]).tolist()
+        return net.gaps
 
     def outside_corridor(self, net: _Net, sources: set[int], targets: set[int], present: float) -> list[int] | None:
         """A search without the net's corridor, in the box of ``sources`` and ``targets`` grown by
