@@ -77,9 +77,10 @@ def _reference(g, costs, steps, box, mask, via_cost):
 
 
 @settings(max_examples=300, deadline=None)
-@given(_cases())
-def test_path_cost_is_the_least_cost_networkx_finds(case):
-    # reference: networkx.multi_source_dijkstra_path_length (Dijkstra 1959) on the same graph, edge by edge
+@given(_cases(), st.sampled_from([1.0, search.HEURISTIC_WEIGHT, 2.0]))
+def test_path_cost_is_the_least_cost_networkx_finds(case, weight):
+    # reference: networkx.multi_source_dijkstra_path_length (Dijkstra 1959) on the same graph, edge by edge;
+    # weight 1: the least cost itself; weight w > 1: at most w x the least (weighted A*'s bound, Pohl 1970)
     g, costs, steps, box, mask, sources, targets = case
     i0, j0, i1, j1 = box
     plane = g.nx * g.ny
@@ -94,13 +95,16 @@ def test_path_cost_is_the_least_cost_networkx_finds(case):
     G.add_nodes_from(sources)
     dist = nx.multi_source_dijkstra_path_length(G, sources)
     want = min((dist[t] for t in goal if t in dist), default=None)
-    path = astar(g, moves(g, K, mask), sources, targets, box, costs, steps, 4.0)
+    path = astar(g, moves(g, K, mask), sources, targets, box, costs, steps, 4.0, weight)
     if want is None:
         assert path is None
         return
     assert path is not None and path[0] in sources and path[-1] in goal
     got = sum(G[a][b]["weight"] for a, b in zip(path, path[1:]))   # every step is an edge of G
-    assert math.isclose(got, want, rel_tol=1e-9, abs_tol=1e-9)
+    if weight == 1.0 or targets is None:   # the via-site search has no heuristic to weight
+        assert math.isclose(got, want, rel_tol=1e-9, abs_tol=1e-9)
+    else:
+        assert want - 1e-9 <= got <= weight * want + 1e-9
 
 
 @pytest.mark.parametrize("owner, bit", [(FREE, True), (K, True), (1, False), (BLOCKED, False)])
@@ -177,3 +181,27 @@ def test_cost_guard_the_router_builds_each_nets_moves_once(monkeypatch):
     routing = router.route_board(RouteBoard(rect(0, 0, 9, 9), (), pads), CopperRules(layers=2, time_budget_s=60))
     assert routing.status == "routed"
     assert sorted(built) == [0, 1] and searched[0] >= 3
+
+
+def test_cost_guard_the_weighted_heuristic_pops_fewer_behind_a_costly_wall(monkeypatch):
+    # cost guard (counts): a wall of costly nodes (history 99: entering one costs 100 steps) across a
+    # 30 x 30 window between source (5, 5) and target (25, 5), open at rows 27 to 29. Closed form of the
+    # least cost: around the wall, 20 steps across and 2 x 22 up and down = 64 (through it: 19 + 100).
+    # Unweighted A* (Hart et al. 1968) finds it after popping every node with f below 64; with
+    # HEURISTIC_WEIGHT it pops fewer, and its path costs at most that factor x 64 (Pohl 1970)
+    n = 30
+    g = _grid(n, n, 1, [FREE] * n * n, [FREE] * n * n, [FREE] * n * n, [FREE] * n * n)
+    zeros = [0] * n * n
+    hist = [99.0 if i == 15 and j < 27 else 0.0 for j in range(n) for i in range(n)]
+    s, t = 5 * n + 5, 5 * n + 25
+    runs = {}
+    for w in (1.0, search.HEURISTIC_WEIGHT):
+        pops = _counted(monkeypatch)
+        path = astar(g, moves(g, K), {s}, {t}, (0, 0, n - 1, n - 1), (1.0, hist, zeros, zeros, zeros),
+                     ([1.0], [1.0]), 4.0, w)
+        runs[w] = (pops[0], sum(1.0 + hist[m] for m in path[1:]))
+        monkeypatch.undo()
+    (p1, c1), (pw, cw) = runs[1.0], runs[search.HEURISTIC_WEIGHT]
+    assert c1 == 64.0
+    assert c1 <= cw <= search.HEURISTIC_WEIGHT * c1
+    assert pw < p1

@@ -16,7 +16,9 @@ Method
   E. Hart, N. J. Nilsson and B. Raphael, "A formal basis for the heuristic
   determination of minimum cost paths", IEEE Trans. SSC 4(2), 1968) from
   every node of the tree and the connected pads to the next pad, with the
-  Manhattan distance to that pad's nodes as an admissible heuristic. Each
+  Manhattan distance to that pad's nodes, weighted by
+  ``search.HEURISTIC_WEIGHT``, as its heuristic (weighted A*: a path costs
+  at most that factor x the least, for far fewer expansions). Each
   layer prefers one direction (horizontal on top, vertical below: common
   practice), a via costs ``VIA_COST`` steps.
 * **Pin escape** (:mod:`pipeline.route.escape`): a pad the grid leaves on
@@ -164,7 +166,7 @@ class Routing:
 # --------------------------------------------------------------------------
 class _Net:
     __slots__ = ("name", "k", "pads", "width", "area", "grid", "terms", "paths", "vias", "core", "claim",
-                 "failed", "stubs", "halo", "dead", "halo_key", "corridor", "tried")
+                 "failed", "stubs", "halo", "dead", "halo_key", "corridor", "tried", "gaps")
 
     def __init__(self, name, k, pads, width, area):
         self.name, self.k, self.pads, self.width, self.area = name, k, pads, width, area
@@ -181,6 +183,7 @@ class _Net:
         self.halo_key: tuple = ()
         self.corridor = None  # plane cells (bytearray, 1 = usable) the detailed search keeps to, or None
         self.tried = False    # routed at least once (a net the time budget never reached is open)
+        self.gaps: list[list[float]] | None = None   # distances between pad centroids (route_tree's order)
 
 
 def route_board(board: RouteBoard, rules: CopperRules, *, progress: Progress | None = None,
@@ -262,11 +265,13 @@ class _Router:
         self.hist = [0.0] * n_nodes
         # copper of other nets near each node (per halo shape) and near each via site (all layers),
         # kept up to date by commit() so that a search step reads one number instead of summing
+        # (counts as numpy arrays, updated there; read as lists by the searches: see costs())
         self.near = {}
         for net in self.nets:
             net.halo_key = tuple(net.halo)
-            self.near.setdefault(net.halo_key, [0] * n_nodes)
-        self.via_near = [0] * (n_nodes // len(self.layers) if self.layers else 0)
+            self.near.setdefault(net.halo_key, np.zeros(n_nodes, dtype=np.int64))
+        self.via_near = np.zeros(n_nodes // len(self.layers) if self.layers else 0, dtype=np.int64)
+        self._read: dict = {}   # the lists of near and via_near read by searches, until the next commit
         prefer = len(self.layers) - len(self.rules.areas) > 1
         self.steps = ([1.0 if not prefer or li % 2 == 0 else OFF_DIRECTION for li in range(len(self.layers))],
                       [1.0 if not prefer or li % 2 == 1 else OFF_DIRECTION for li in range(len(self.layers))])
@@ -376,42 +381,27 @@ class _Router:
 
     # ---------------------------------------------------------------- occupancy
     def claims(self, net: _Net) -> tuple[set[int], set[int]]:
+        """``(core, claim)`` of ``net``: the nodes its copper stands on, and those plus every node
+        within its halo (same layer) and within the via halo of its vias (every layer)."""
         g = net.grid
         plane = g.nx * g.ny
         core: set[int] = set()
         for path in net.paths:
             core.update(path)
         claim = set(core)
-        for n in core:
-            claim.update(self.around(g, n, net.halo, same_layer=True))
+        claim.update(_around(g, core, net.halo).tolist())
         for site in net.vias:
             for li in range(len(self.layers)):
                 core.add(li * plane + site)
                 claim.add(li * plane + site)
-            claim.update(self.around(g, site, self.via_halo, same_layer=False))
+        claim.update(_around(g, net.vias, self.via_halo, len(self.layers)).tolist())
         return core, claim
 
-    def around(self, g: Grid, n: int, offsets, *, same_layer: bool) -> list[int]:
-        plane = g.nx * g.ny
-        li, rest = divmod(n, plane)
-        j, i = divmod(rest, g.nx)
-        layers = [li] if same_layer else range(len(self.layers))
-        out = []
-        for di, dj in offsets:
-            ii, jj = i + di, j + dj
-            if 0 <= ii < g.nx and 0 <= jj < g.ny:
-                for lj in layers:
-                    out.append(lj * plane + jj * g.nx + ii)
-        return out
-
-    def _spread(self, g: Grid, nodes, offsets, *, same_layer: bool) -> list[int]:
-        """Every node within ``offsets`` of each of ``nodes`` (with repeats: one per pair)."""
-        out: list[int] = []
-        for n in nodes:
-            out.extend(self.around(g, n, offsets, same_layer=same_layer))
-        return out
-
     def commit(self, net: _Net, sign: int) -> None:
+        """Add (``sign`` +1) or take away (-1) ``net``'s copper in the occupancy counts the searches
+        read: ``core_occ``, ``claim_occ``, ``near`` (per halo shape) and ``via_near``. Cost
+        O(core x halo) numpy work plus O(claim) list updates; the lists the searches read are made
+        again on the next search (:meth:`read_counts`), once per reroute instead of once per commit."""
         if sign > 0:
             net.core, net.claim = self.claims(net)
         core_occ = self.core_occ
@@ -421,13 +411,20 @@ class _Router:
             g = net.grid
             plane = g.nx * g.ny
             for halo, near in self.near.items():
-                for m in self._spread(g, net.core, halo, same_layer=True):
-                    near[m] += sign
-            via_near = self.via_near
-            for m in self._spread(g, [n % plane for n in net.core], self.via_halo, same_layer=True):
-                via_near[m] += sign
+                near += sign * np.bincount(_around(g, net.core, halo), minlength=near.size)
+            self.via_near += sign * np.bincount(_around(g, [n % plane for n in net.core], self.via_halo),
+                                                minlength=self.via_near.size)
+            self._read.clear()
+        claim_occ = self.claim_occ
         for n in net.claim:
-            self.claim_occ[n] += sign
+            claim_occ[n] += sign
+
+    def read_counts(self, halo) -> list[int]:
+        """``near[halo]`` (``via_near`` for None) as a list, the form a search reads fastest; made
+        once after each commit that changed them."""
+        if halo not in self._read:
+            self._read[halo] = (self.via_near if halo is None else self.near[halo]).tolist()
+        return self._read[halo]
 
     def shared(self) -> tuple[set[int], list[_Net]]:
         """Nodes where one net's copper stands on another's claim, and the nets involved."""
@@ -526,11 +523,9 @@ class _Router:
             if path[0] not in held or bad.intersection(path):
                 continue
             claim = set(path)
-            for n in path:
-                claim.update(self.around(g, n, net.halo, same_layer=True))
-            for a, b in zip(path, path[1:]):
-                if a // plane != b // plane:
-                    claim.update(self.around(g, a % plane, self.via_halo, same_layer=False))
+            claim.update(_around(g, path, net.halo).tolist())
+            sites = [a % plane for a, b in zip(path, path[1:]) if a // plane != b // plane]
+            claim.update(_around(g, sites, self.via_halo, len(self.layers)).tolist())
             if claim & bad:
                 continue
             out.append(path)
@@ -543,11 +538,11 @@ class _Router:
         parts = self.pieces(net)
         done = [parts[0]]
         tree: set[int] = set(parts[0][1])
-        cents = [p.polygon.centroid for p in net.pads]
+        gap = self.pad_gaps(net)
         todo = parts[1:]
         while todo:
             joined = [d for part in done for d in part[0]]
-            nxt = min(todo, key=lambda c: (min(cents[q].distance(cents[d]) for q in c[0] for d in joined), c[0]))
+            nxt = min(todo, key=lambda c: (min(gap[q][d] for q in c[0] for d in joined), c[0]))
             path = self.astar(net, tree, set(nxt[1]), present)
             if path is None and net.corridor is not None:   # the corridor may miss a way the tiles hide
                 path = self.outside_corridor(net, tree, set(nxt[1]), present)
@@ -559,6 +554,14 @@ class _Router:
             tree.update(nxt[1])
             todo.remove(nxt)
             done.append(nxt)
+
+    def pad_gaps(self, net: _Net) -> list[list[float]]:
+        """Distances (mm) between the centroids of ``net``'s pads, ``[q][d]``; one vectorised shapely
+        call on the net's first tree, kept for its later ones. Cost O(pads^2)."""
+        if net.gaps is None:
+            cents = shapely.centroid(np.array([p.polygon for p in net.pads], dtype=object))
+            net.gaps = shapely.distance(cents[:, None], cents[None, :]).tolist()
+        return net.gaps
 
     def outside_corridor(self, net: _Net, sources: set[int], targets: set[int], present: float) -> list[int] | None:
         """A search without the net's corridor, in the box of ``sources`` and ``targets`` grown by
@@ -637,7 +640,7 @@ class _Router:
         bits = self._moves.get(key)
         if bits is None:
             bits = self._moves[key] = moves(net.grid, net.k, mask)
-        costs = (present, self.hist, self.claim_occ, self.near[net.halo_key], self.via_near)
+        costs = (present, self.hist, self.claim_occ, self.read_counts(net.halo_key), self.read_counts(None))
         return search_astar(net.grid, bits, sources, targets, box, costs, self.steps, VIA_COST)
 
     # ---------------------------------------------------------------- ending
@@ -760,6 +763,23 @@ def _runs(g: Grid, path: list[int], plane: int, layers) -> list[tuple[str, tuple
                            != (pts[q][1] - pts[q - 1][1]) * (pts[q + 1][0] - pts[q][0])] + pts[-1:]
         result.append((layers[r[0] // plane], tuple(keep) if len(pts) > 1 else ()))
     return result
+
+
+def _around(g: Grid, nodes, offsets, layers: int = 0) -> np.ndarray:
+    """The nodes at ``offsets`` (grid steps ``(di, dj)``) from each of ``nodes`` that lie on the grid,
+    with repeats (one per pair): on each node's own layer, or with ``layers`` > 0 at those plane
+    places on every one of the ``layers`` layers. Cost O(len(nodes) x len(offsets)), vectorised."""
+    n = np.fromiter(nodes, dtype=np.int64, count=len(nodes))
+    off = np.asarray(offsets, dtype=np.int64).reshape(-1, 2)
+    plane = g.nx * g.ny
+    rest = n % plane
+    ii = (rest % g.nx)[:, None] + off[:, 0]
+    jj = (rest // g.nx)[:, None] + off[:, 1]
+    ok = (ii >= 0) & (ii < g.nx) & (jj >= 0) & (jj < g.ny)
+    at = (jj * g.nx + ii)[ok]
+    if layers:
+        return (np.arange(layers, dtype=np.int64)[:, None] * plane + at).ravel()
+    return ((n // plane)[:, None] * plane + jj * g.nx + ii)[ok]
 
 
 def _offsets(radius: float, pitch: float) -> list[tuple[int, int]]:
