@@ -152,7 +152,8 @@ def _read(src: TomlSource, library: Any) -> tuple[Design, list[Finding]]:
     parts_tbl = _expect_table(src, "parts", data.get("parts", {}))
     if not parts_tbl:
         raise _err(src, "parts", "the design has no parts: add [parts.REF] tables")
-    parts = tuple(_read_part(src, ref, body, lib, default_pkgs) for ref, body in parts_tbl.items())
+    memo: dict = {}  # lookups and parses already made: the same text gives the same result
+    parts = tuple(_read_part(src, ref, body, lib, default_pkgs, memo) for ref, body in parts_tbl.items())
     by_ref = {p.ref: p for p in parts}
     _check_near(src, parts, by_ref)
     warnings.extend(_height_notes(parts, lib))
@@ -274,16 +275,28 @@ def _at(src: TomlSource, key: str) -> dict[str, Any]:
     return {"file": src.display, "line": src.line(key), "key": key}
 
 
-def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dict[str, str]) -> Part:
+def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dict[str, str],
+               memo: dict | None = None) -> Part:
     """One ``[parts.REF]`` table as a :class:`Part`: its kind and package (:func:`_part_kind`), value,
-    tolerance and rating (:func:`_part_values`), then the plain keys. Cost O(keys of the table)."""
+    tolerance and rating (:func:`_part_values`), then the plain keys. Cost O(keys of the table).
+
+    ``memo`` keeps what was looked up or parsed from the same text before (a kind and package
+    pair, a value, tolerance or rating), shared by the parts of one file: only text that was
+    read without error is kept, so an error still names the first part that shows it."""
+    memo = {} if memo is None else memo
     key = f"parts.{ref}"
     if not _REF_RE.match(ref):
         raise _err(src, key, f"'{ref}' is not a usable reference: start with a letter, then letters, digits or _")
     body = _expect_table(src, key, body)
     _unknown(src, key, body, _PART_KEYS)
-    kind, package, pins = _part_kind(src, key, body, lib, default_pkgs)
-    values = _part_values(src, key, body, kind)
+    pair = (body.get("kind"), body.get("package"))
+    found = memo.get(pair) if all(isinstance(t, str) or t is None for t in pair) else None
+    if found is None:
+        found = _part_kind(src, key, body, lib, default_pkgs)
+        if all(isinstance(t, str) or t is None for t in pair):
+            memo[pair] = found
+    kind, package, pins = found
+    values = _part_values(src, key, body, kind, memo)
     dnp = body.get("dnp", False)
     if not isinstance(dnp, bool):
         raise _err(src, f"{key}.dnp", "dnp must be true or false")
@@ -325,27 +338,40 @@ def _part_kind(src: TomlSource, key: str, body: dict, lib: Any, default_pkgs: di
     return kind, package, pins
 
 
-def _part_values(src: TomlSource, key: str, body: dict, kind: Any) -> dict[str, Any]:
+def _parsed(memo: dict, what: tuple, parse: Any) -> Any:
+    """``parse()``, kept in ``memo`` under ``what`` (the parser's name and its text); a parse that
+    raises keeps nothing."""
+    if what not in memo:
+        memo[what] = parse()
+    return memo[what]
+
+
+def _part_values(src: TomlSource, key: str, body: dict, kind: Any, memo: dict | None = None) -> dict[str, Any]:
     """The part's value (SI units of the kind's value unit), tolerance (a fraction) and rating
-    (V, W), each with its text as written: :class:`Part`'s fields of those names."""
+    (V, W), each with its text as written: :class:`Part`'s fields of those names. ``memo``: see
+    :func:`_read_part`."""
+    memo = {} if memo is None else memo
     value: float | None = None
     value_text = ""
     if "value" in body:
         value_text = _expect_str(src, f"{key}.value", body["value"])
         if kind.value_unit:
-            value = _values.parse_value(value_text, kind.value_unit, at=_where(src, f"{key}.value"))
+            value = _parsed(memo, ("value", kind.value_unit, value_text), lambda: _values.parse_value(
+                value_text, kind.value_unit, at=_where(src, f"{key}.value")))
     elif kind.value_unit:
         raise _err(src, f"{key}.value", f"a {kind.name} needs a value, e.g. value = \"10k\"")
     tol = None
     tol_text = ""
     if "tolerance" in body:
         tol_text = _expect_str(src, f"{key}.tolerance", body["tolerance"])
-        tol = _values.parse_tolerance(tol_text, at=_where(src, f"{key}.tolerance"))
+        tol = _parsed(memo, ("tolerance", tol_text), lambda: _values.parse_tolerance(
+            tol_text, at=_where(src, f"{key}.tolerance")))
     rv = rw = None
     rating_text = ""
     if "rating" in body:
         rating_text = _expect_str(src, f"{key}.rating", body["rating"])
-        rv, rw = _values.parse_rating(rating_text, at=_where(src, f"{key}.rating"))
+        rv, rw = _parsed(memo, ("rating", rating_text), lambda: _values.parse_rating(
+            rating_text, at=_where(src, f"{key}.rating")))
     return dict(value=value, value_text=value_text, tolerance=tol, tolerance_text=tol_text,
                 rating_v=rv, rating_w=rw, rating_text=rating_text)
 

@@ -432,6 +432,7 @@ class _TopBoard:
         self.wc, self.hc = np.asarray(packer.wc), np.asarray(packer.hc)
         self.index = {it.ref: k for k, it in enumerate(packer.items)}
         self.goals: dict[tuple, tuple] = {}
+        self.reach: dict[int, float] = {}  # item -> farthest pad offset (pad_reach)
         self.maps: dict[tuple[int, int, int], np.ndarray] = {}  # (level, h, w) -> free origins
         for j, slot in run.slots.items():
             self._put(j, slot, 1)
@@ -488,6 +489,15 @@ class _TopBoard:
                 ok[a0 - r0:a1 - r0, b0 - c0:b1 - c0] = _window_test(
                     self.free(i, slice(a0, a1 + h - 1), slice(b0, b1 + w - 1)), h, w)
         return ok
+
+    def pad_reach(self, j: int) -> float:
+        """The farthest pad offset (mm, from the origin) of item ``j``'s near-rule package, kept per item."""
+        kept = self.reach.get(j)
+        if kept is None:
+            rule = self.packer.items[j].near
+            kept = self.reach[j] = max((math.hypot(dx, dy) for _p, dx, dy, _t in
+                                        turned_pads(rule.own_package, 0, "top", rule.level)), default=0.0)
+        return kept
 
     def goal(self, rule: NearRule, at: tuple) -> np.ndarray:
         """:func:`_points` of ``rule``'s target pins with the target at ``at`` (x, y, rotation, side),
@@ -564,6 +574,18 @@ def _slot_distance(packer, i: int, slot, goal: np.ndarray) -> float:
     # numpy's hypot on each pair, as near_distance's array does (the same floats), without building
     # arrays for two to eight pairs: the swap search asks this for every candidate it reads
     return float(min(np.hypot(px - tx, py - ty) for px, py in own for tx, ty in goal.tolist()))
+
+
+def _far_for(board: _TopBoard, j: int, slot, goal: np.ndarray, limit: float) -> bool:
+    """Whether :func:`_slot_distance` of item ``j`` in ``slot`` to ``goal`` surely exceeds ``limit``
+    (mm): a lower bound by the triangle inequality, the distance from the slot's centre to the
+    nearest goal point less the farthest pad offset of ``j``'s package (a turn keeps the offsets'
+    lengths) and 1e-5 mm for the pads' rounding to the nanometre. Cost O(goal points), no pads
+    laid out: the swap search rejects most partners with a near rule of their own this way."""
+    x1, y1, x2, y2 = board.packer.rect(j, slot)
+    cx, cy = (x1 + x2) / 2, (y1 + y2) / 2
+    near = min(math.hypot(cx - tx, cy - ty) for tx, ty in goal.tolist())
+    return near - board.pad_reach(j) - 1e-5 > limit
 
 
 def _stands(packer, run, k: int, slot) -> bool:
@@ -654,7 +676,8 @@ def _nearest_swap(board: _TopBoard, fixed: dict, i: int, goal: np.ndarray, here:
             if there is None or index[other.target] == i:
                 continue
             theirs = board.goal(other, there)
-            if not len(theirs) or _slot_distance(packer, j, run.slots[i], theirs) > other.within_mm + TOL:
+            if not len(theirs) or _far_for(board, j, run.slots[i], theirs, other.within_mm + TOL) \
+                    or _slot_distance(packer, j, run.slots[i], theirs) > other.within_mm + TOL:
                 continue
         if not (_stands(packer, run, i, run.slots[j]) and _stands(packer, run, j, run.slots[i])):
             continue

@@ -313,3 +313,51 @@ def test_height_note_is_linear_in_parts(n):
     assert notes[0].subject == tuple(p.ref for p in parts)  # every capacitor named, in order
     assert "0402 0.50 mm, 0603 0.50 mm" in notes[0].message
     assert _CountingRef.compared <= 2 * n  # a list scan would make n * (n + 1) / 2
+
+
+def _repeated_parts(n: int, bad_at: int | None = None) -> str:
+    """n resistors of three values (a bad value text at part ``bad_at``, counted from 1)."""
+    tables = []
+    for i in range(1, n + 1):
+        value = "4k7x" if i == bad_at else ("10k", "4k7", "1R5")[i % 3]
+        tables.append(f'[parts.R{i}]\nkind = "resistor"\npackage = "0603"\nvalue = "{value}"\n'
+                      f'tolerance = "1%"\nrating = "50V"\n')
+    return "\n".join(tables)
+
+
+@pytest.mark.parametrize("n", [30, 300])
+def test_repeated_value_texts_are_parsed_once(design_from, monkeypatch, n):
+    """Issue 11: each distinct value / tolerance / rating text and kind + package pair is parsed
+    or looked up once per file, whatever the part count; the parts read are the same as read
+    one file a part (reference: 10k = 10,000 ohm, 4k7 = 4,700 ohm, 1R5 = 1.5 ohm, IEC 60062
+    RKM code)."""
+    import pipeline.design as dz
+
+    calls = {"value": 0, "kind": 0}
+    real_value, real_kind = dz._values.parse_value, dz._part_kind
+
+    def counted_value(*a, **k):
+        calls["value"] += 1
+        return real_value(*a, **k)
+
+    def counted_kind(*a, **k):
+        calls["kind"] += 1
+        return real_kind(*a, **k)
+
+    monkeypatch.setattr(dz._values, "parse_value", counted_value)
+    monkeypatch.setattr(dz, "_part_kind", counted_kind)
+    d, _ = design_from(_repeated_parts(n))
+    assert calls == {"value": 3, "kind": 1}
+    assert [p.value for p in d.parts[:3]] == [4700.0, 1.5, 10000.0]
+    for p in d.parts[:4]:
+        alone, _ = design_from(_repeated_parts(n)[: _repeated_parts(n).index(f"[parts.R{int(p.ref[1:]) + 1}]")])
+        assert alone.parts[-1] == p
+    assert (d.parts[0].tolerance, d.parts[0].rating_v) == (0.01, 50.0)
+
+
+def test_a_bad_value_after_good_ones_is_still_located(design_from):
+    # the memo keeps only text read without error: the bad text at part 7 is reported at its own line
+    text = _repeated_parts(9, bad_at=7)
+    with pytest.raises(DesignError) as e:
+        design_from(text)
+    assert e.value.line == text.splitlines().index("[parts.R7]") + 4 and "R7" in str(e.value)

@@ -326,3 +326,30 @@ def test_defect_19_user_strings_stay_inside_edif_strings(tmp_path, payload):
     assert sum(1 for i, t in enumerate(toks) if t == ("word", "instance") and toks[i - 1][0] == "open") == 2
     nl = _parse(tmp_path, d)  # and an independent reader takes it
     assert {_decode(i.name) for i in nl.top_instance.reference.children} == {"R1", "U" + payload}
+
+
+_WORDS = st.text(alphabet="abcXYZ09_", min_size=1, max_size=45)
+_LEAF_LISTS = st.lists(_WORDS, min_size=1, max_size=4)
+_TREES = st.recursive(_LEAF_LISTS, lambda kids: st.tuples(st.lists(_WORDS, min_size=1, max_size=2),
+                                                           st.lists(kids, min_size=1, max_size=4)),
+                      max_leaves=12)
+
+
+def _as_lists(tree, leaf):
+    """The tree as the writer's nested lists; a list of words only becomes ``leaf(*words)``."""
+    if isinstance(tree, list):
+        return leaf(*tree)
+    words, kids = tree
+    return [*words, *(_as_lists(k, leaf) for k in kids)]
+
+
+@given(st.tuples(st.lists(_WORDS, min_size=1, max_size=2), st.lists(_TREES, min_size=1, max_size=4)),
+       st.integers(0, 40))
+@settings(max_examples=150, deadline=None)
+def test_prewritten_word_lists_render_as_plain_lists(tree, indent):
+    # reference: the renderer on plain nested lists (issue 11 writes lists of words as text once,
+    # _Leaf); the bytes must not change, long leaves (over the 100-character line) included
+    from pipeline.export.edif import _Leaf, _render
+
+    plain = _render(_as_lists(tree, lambda *w: list(w)), indent)
+    assert _render(_as_lists(tree, _Leaf), indent) == plain

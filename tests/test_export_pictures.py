@@ -751,9 +751,12 @@ def _dense_grid(n: int, pitch: float = 1.0):
     return [_placement(f"C{k + 1}", (k % side) * pitch, (k // side) * pitch, 0.6, 0.3) for k in range(n)]
 
 
-def _count_box_tests(monkeypatch, placements):
+def _count_box_tests(monkeypatch, placements, u=1.0, plain=False):
+    """Labels, unlabelled refs and the box tests made; ``plain``: every spot box-tested (no raster)."""
     import pipeline.export.svg as svg
 
+    if plain:
+        monkeypatch.setattr(svg._CoveredCells, "open_spots", lambda self, cells, ref: range(len(svg._SPOTS)))
     grids = []
 
     class Counting(svg._BoxGrid):
@@ -763,7 +766,8 @@ def _count_box_tests(monkeypatch, placements):
 
     monkeypatch.setattr(svg, "_BoxGrid", Counting)
     b = svg._bounds([p.courtyard for p in placements])
-    labels, skipped = svg.place_labels(placements, 1.0, b)
+    labels, skipped = svg.place_labels(placements, u, b)
+    monkeypatch.undo()
     return sum(g.tests for g in grids), labels, skipped
 
 
@@ -801,3 +805,36 @@ def test_svg_path_numbers_are_the_plain_three_decimal_text(x, text):
 
     d = _path_d(LineString([(x, 1.0), (1.0, -x)]))
     assert d == f"M{text},-1.000 L1.000,{text}"
+
+
+@given(st.lists(st.tuples(st.floats(0, 12), st.floats(0, 12), st.sampled_from([(0.6, 0.3), (2.2, 1.2), (6.0, 4.0)]),
+                          st.sampled_from(["R", "C", "TP", "U"]), st.integers(1, 12000)),
+                min_size=1, max_size=60),
+       st.sampled_from([0.5, 1.0, 3.0]))
+@settings(max_examples=60, deadline=None)
+def test_label_raster_skips_only_spots_the_box_tests_refuse(parts, u):
+    # reference: the same greedy search with every spot box-tested (no raster); the labels and the
+    # unlabelled list must be identical, so the raster only ever skips spots that meet a label
+    import pipeline.export.svg as svg
+
+    pls = [_placement(f"{p}{n}", x, y, ln, wd) for (x, y, (ln, wd), p, n) in parts]
+    seen, unique = set(), []
+    for p in pls:
+        if p.ref not in seen:
+            seen.add(p.ref)
+            unique.append(p)
+    _, *plain = _count_box_tests(pytest.MonkeyPatch(), unique, u, plain=True)
+    assert svg.place_labels(unique, u, svg._bounds([p.courtyard for p in unique])) == tuple(plain)
+
+
+def test_label_raster_spares_box_tests_on_a_crowded_board(monkeypatch):
+    # 3,600 small parts at 1 mm pitch drawn at 4 drawing mm per paper mm: the leader labels (about
+    # 10 x 5 mm) cover the picture, so most parts end unlabelled; the plain search box-tests every
+    # spot of each of them (64 spots), the raster skips the spots whose centre lies in a label grown
+    # by the spot's half sizes. Same labels both ways (reference: the plain search).
+    pls = _dense_grid(3600)
+    plain_tests, *plain = _count_box_tests(monkeypatch, pls, 4.0, plain=True)
+    fast_tests, *fast = _count_box_tests(monkeypatch, pls, 4.0)
+    assert fast == plain
+    assert len(plain[1]) > len(pls) / 2  # most parts unlabelled: the crowded case
+    assert fast_tests < plain_tests / 5, (fast_tests, plain_tests)

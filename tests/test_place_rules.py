@@ -625,3 +625,51 @@ def test_near_pass_swap_search_reads_rings_not_the_whole_size_class(monkeypatch)
     assert place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE)).fits
     assert len(every) >= 10 and min(every) > 600  # movers, each seeing the whole size class
     assert sum(bounds) < 0.5 * sum(every)
+
+
+@pytest.mark.parametrize("ics, caps, resistors, w, h", [(4, 3, 16, 26, 17), (6, 2, 30, 30, 20)])
+def test_swap_search_bound_rejects_partners_without_laying_out_pads(monkeypatch, ics, caps, resistors, w, h):
+    """The triangle-inequality bound (``_far_for``: centre-to-goal distance less the farthest pad
+    offset) turns down partners whose own near rule would break, without working out their pads:
+    the placement is the one made with the bound switched off (the plain test of every partner),
+    and fewer pad distances are worked out (a cost guard: calls counted, not seconds)."""
+    import pipeline.place_rules as pr
+
+    design, _ = read_design_text(_decoupled(ics, caps, resistors), LIB)
+    items = items_from_design(design, LIB, "nominal")
+    region = Region(box(0, 0, w, h), (HeightZone(box(0, 0, w, h), 5.0),), 0.8)
+    calls: list[int] = []
+    real_distance, real_far = pr._slot_distance, pr._far_for
+    monkeypatch.setattr(pr, "_slot_distance", lambda *a: (calls.append(1), real_distance(*a))[1])
+    bounded = _placed(place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE)))
+    with_bound = len(calls)
+    calls.clear()
+    monkeypatch.setattr(pr, "_far_for", lambda *a: False)
+    assert _placed(place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE))) == bounded
+    assert with_bound < len(calls)
+
+
+@given(st.floats(-20, 20), st.floats(-20, 20), st.lists(st.tuples(st.floats(-30, 30), st.floats(-30, 30)),
+                                                        min_size=1, max_size=6), st.floats(0, 40))
+@settings(max_examples=80, deadline=None)
+def test_far_for_is_a_lower_bound_of_the_pad_distance(x, y, goal, limit):
+    # reference: the exact distance of pipeline.place_rules._slot_distance (pads laid out one by one)
+    # for an 0603 capacitor with a near rule; the bound may only say "far" when that distance exceeds limit
+    import types
+
+    import numpy as np
+
+    import pipeline.place_rules as pr
+
+    design, _ = read_design_text(_decoupled(1, 1, 0), LIB)
+    items = items_from_design(design, LIB, "nominal")
+    k = next(n for n, it in enumerate(items) if it.near is not None)
+    it = items[k]
+    for turn in (0, 1):
+        dx, dy = (it.width_mm, it.length_mm) if turn else (it.length_mm, it.width_mm)
+        packer = types.SimpleNamespace(items=items, rect=lambda i, s, dx=dx, dy=dy: (x, y, x + dx, y + dy))
+        board = types.SimpleNamespace(packer=packer, reach={})
+        board.pad_reach = lambda j, board=board: pr._TopBoard.pad_reach(board, j)
+        pts = np.array(goal, dtype=float)
+        if pr._far_for(board, k, ("top", turn, 0, 0), pts, limit):
+            assert pr._slot_distance(packer, k, ("top", turn, 0, 0), pts) > limit

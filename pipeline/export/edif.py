@@ -55,6 +55,7 @@ What the file holds
 from __future__ import annotations
 
 import datetime as _dt
+import functools
 import re
 from typing import Iterable
 
@@ -75,8 +76,11 @@ _PLAIN_RE = re.compile(r"[\x20\x21\x23\x24\x26-\x5a\x5c\x5e-\x7e]*")
 _MAX_EPOCH = 253402300799  # 9999-12-31 23:59:59 UTC
 
 
+@functools.lru_cache(maxsize=4096)
 def edif_string(text: str) -> str:
     """An EDIF string token: quoted, with ``%N%`` escapes.
+
+    Kept for the last 4,096 texts (a netlist repeats its kinds, packages and values).
 
     Examples
     --------
@@ -263,13 +267,14 @@ def _contents(design: Design, cell_scope: _Scope, inst_scope: _Scope, port_scope
     """The board cell's contents: one instance per part, one net per net (a dict lookup per pin)."""
     contents: list = ["contents"]
     ports_of = {p.ref: port_scopes[_cell_name(p)] for p in design.parts}
+    parts_lib = _Leaf("libraryRef", _PARTS_LIB)
     for part in design.parts:
         inst: list = ["instance", inst_scope.define(part.ref),
-                      ["viewRef", "netlist", ["cellRef", cell_scope.ref(_cell_name(part)), ["libraryRef", _PARTS_LIB]]]]
+                      ["viewRef", "netlist", ["cellRef", cell_scope.ref(_cell_name(part)), parts_lib]]]
         for k, v in (("value", _value(part)), ("kind", part.kind), ("package", part.package),
                      ("manufacturer", part.manufacturer), ("mpn", part.mpn), ("dnp", "true" if part.dnp else "")):
             if v:
-                inst.append(["property", k, ["string", edif_string(v)]])
+                inst.append(["property", k, _Leaf("string", edif_string(v))])
         contents.append(inst)
     net_scope = _Scope(n.name for n in design.nets)
     for net in design.nets:
@@ -277,13 +282,28 @@ def _contents(design: Design, cell_scope: _Scope, inst_scope: _Scope, port_scope
         for pr in net.pins:
             scope = ports_of.get(pr.ref)
             if scope is not None:
-                joined.append(["portRef", scope.ref(pr.pin), ["instanceRef", inst_scope.ref(pr.ref)]])
+                joined.append(["portRef", scope.ref(pr.pin), _Leaf("instanceRef", inst_scope.ref(pr.ref))])
         contents.append(["net", net_scope.define(net.name), joined])
     return contents
 
 
 #: Widest line, indent included, that a list is written on as a whole.
 _WIDTH = 100
+
+
+class _Leaf(str):
+    """A list of words only (no list inside), already written: ``(word word ...)``.
+
+    Such a list is written the same way wherever it stands (on its parent's line or on a line
+    of its own, however long), so it is built as text once; :func:`_one_line` and
+    :func:`_render` treat it as a list (its own line when the parent is broken), not as a word.
+
+    >>> _Leaf("libraryRef", "SNUG_PARTS")
+    '(libraryRef SNUG_PARTS)'
+    """
+
+    def __new__(cls, *words: str) -> "_Leaf":
+        return super().__new__(cls, "(" + " ".join(words) + ")")
 
 
 def _one_line(tree: list) -> dict[int, str]:
@@ -301,7 +321,9 @@ def _one_line(tree: list) -> dict[int, str]:
         parts: list[str] = []
         long = False
         for c in node:
-            if isinstance(c, str):
+            if type(c) is str:
+                parts.append(c)
+            elif type(c) is _Leaf:  # a list of words: a long one makes its parent long by its length
                 parts.append(c)
             else:
                 text = visit(c)
@@ -333,15 +355,18 @@ def _render(tree: list, indent: int) -> str:
         if one and len(one) + level <= _WIDTH:
             out.append(one)
             return
-        kids = [c for c in node if not isinstance(c, str)]
+        kids = [c for c in node if type(c) is not str]
         if not kids:
             out.append("(" + " ".join(node) + ")")
             return
-        out.append("(" + " ".join(c for c in node if isinstance(c, str)))
+        out.append("(" + " ".join(c for c in node if type(c) is str))
         pad = "\n" + " " * (level + 2)
         for c in kids:
             out.append(pad)
-            emit(c, level + 2)
+            if type(c) is _Leaf:
+                out.append(c)
+            else:
+                emit(c, level + 2)
         out.append(")")
 
     emit(tree, indent)

@@ -534,41 +534,54 @@ def place_labels(placements: Sequence[Placement], u: float,
     the centre: ascent plus descent of common sans-serif faces, from
     memory). Cost: O(n) grid queries, each meeting O(1) boxes when labels
     and courtyards are of similar size (cells sized from them); a part's
-    spots are tried in order until the first free one.
+    spots are tried in order until the first free one, leaving out those
+    whose centre a raster of grown labels already shows to meet a label
+    (:class:`_CoveredCells`: the same labels, without the box tests that
+    filled most of the time on a crowded board).
     """
     labels: list[Label] = []
     taken = _BoxGrid(4.0 * _LEADER_SIZE * u)  # about one leader label's width
     rest: list[Placement] = []
+    boxes = _courtyard_boxes(placements)
     for pl in sorted(placements, key=lambda p: (p.side == "bottom", natural_key(p.ref))):
-        lab = _inside_label(pl, u)
+        lab = _inside_label(pl, u, boxes[id(pl)])
         if lab is None or taken.hits(lab.box):
             rest.append(pl)
         else:
             taken.add(lab.box)
             labels.append(lab)
-    drawn = [tuple(pl.courtyard.bounds) for pl in placements
-             if pl.courtyard is not None and not pl.courtyard.is_empty]
+    drawn = [b for b in boxes.values() if b is not None]
     # cells about twice the mean courtyard side: a query meets a few courtyards per cell
     mean_side = sum(b[2] - b[0] + b[3] - b[1] for b in drawn) / max(2 * len(drawn), 1)
     courtyards = _BoxGrid(max(2.0 * mean_side, _LEADER_SIZE * u))
     for b in drawn:
         courtyards.add(b)
     skipped: list[str] = []
-    for pl in sorted(rest, key=lambda p: natural_key(p.ref)):
-        lab = _leader_label(pl, u, bounds, taken, courtyards)
+    rest.sort(key=lambda p: natural_key(p.ref))
+    covered = _CoveredCells(_frame(bounds, u), _LEADER_SIZE * u, (len(pl.ref) for pl in rest))
+    spot_cells = covered.spot_cells(rest, [boxes[id(pl)] for pl in rest], u)
+    for pl, cells in zip(rest, spot_cells):
+        lab = _leader_label(pl, boxes[id(pl)], u, bounds, taken, courtyards, covered.open_spots(cells, pl.ref))
         if lab is None:
             skipped.append(pl.ref)
         else:
             taken.add(lab.box)
+            covered.add(lab.box)
             labels.append(lab)
     return labels, sorted(set(skipped), key=natural_key)
 
 
-def _inside_label(pl: Placement, u: float) -> Label | None:
-    g = pl.courtyard
-    if g is None or g.is_empty:
+def _courtyard_boxes(placements: Sequence[Placement]) -> dict[int, tuple[float, float, float, float] | None]:
+    """Each placement's courtyard bounds by ``id`` (None without a courtyard or for an empty one); one shapely call."""
+    arr = shapely.bounds(np.array([pl.courtyard for pl in placements] + [None], dtype=object))[:-1]
+    return {id(pl): (None if math.isnan(row[0]) else tuple(row)) for pl, row in zip(placements, arr.tolist())}
+
+
+def _inside_label(pl: Placement, u: float, cb: tuple[float, float, float, float] | None) -> Label | None:
+    """The label inside the courtyard (bounds ``cb``) at the largest size that fits, or None under ``_LABEL_MIN``."""
+    if cb is None:
         return None
-    x0, y0, x1, y1 = g.bounds
+    x0, y0, x1, y1 = cb
     w, h = x1 - x0, y1 - y0
     n = max(len(pl.ref), 1)
     across = min(_LABEL_MAX * u, 0.8 * h, 0.86 * w / (_EM_ADVANCE * n))
@@ -585,43 +598,123 @@ _DIRECTIONS = ((1, 0), (-1, 0), (0, 1), (0, -1), (1, 1), (-1, 1), (1, -1), (-1, 
 _SPOTS = tuple((float(dx), float(dy), float(ring)) for ring in range(_LEADER_RINGS) for dx, dy in _DIRECTIONS)
 
 
-def _leader_label(pl: Placement, u: float, bounds, taken: _BoxGrid, courtyards: _BoxGrid) -> Label | None:
+def _frame(bounds, u: float) -> tuple[float, float, float, float]:
+    """The area leader labels must stay in: ``bounds`` grown by 0.8 of the paper margin (drawing mm)."""
+    grow = 0.8 * _MARGIN * u
+    return (bounds[0] - grow, bounds[1] - grow, bounds[2] + grow, bounds[3] + grow)
+
+
+def _leader_label(pl: Placement, cb, u: float, bounds, taken: _BoxGrid, courtyards: _BoxGrid,
+                  spots: Iterable[int] | None = None) -> Label | None:
     """The first spot on the rings free of labels and courtyards (else the first free of labels), or None.
 
     Spots are tried in order and the search ends at the first that is inside the margin and
     meets no label and no courtyard (:meth:`_BoxGrid.hits`: the boxes in the cells it touches);
-    most parts stop at one of the first few.
+    most parts stop at one of the first few. ``spots`` (indices into ``_SPOTS``, in order) leaves
+    out spots already known to meet a label (:class:`_CoveredCells`); default all. ``cb``: the
+    courtyard's bounds, or None (no label).
     """
-    if pl.courtyard is None or pl.courtyard.is_empty:
+    if cb is None:
         return None
-    cx0, cy0, cx1, cy1 = pl.courtyard.bounds
+    cx0, cy0, cx1, cy1 = cb
     size = _LEADER_SIZE * u
     hw = 0.5 * _BOX_ADVANCE * max(len(pl.ref), 1) * size
     hh = _BOX_HALF_H * size
-    fx0, fy0, fx1, fy1 = (bounds[0] - 0.8 * _MARGIN * u, bounds[1] - 0.8 * _MARGIN * u,
-                          bounds[2] + 0.8 * _MARGIN * u, bounds[3] + 0.8 * _MARGIN * u)
+    fx0, fy0, fx1, fy1 = _frame(bounds, u)
     half_w, half_h = 0.5 * (cx1 - cx0), 0.5 * (cy1 - cy0)
     fallback = None  # the first free spot over a courtyard, used when no spot avoids every part
-    for dx, dy, ring in _SPOTS:
+    for k in (range(len(_SPOTS)) if spots is None else spots):
+        dx, dy, ring = _SPOTS[k]
         gap = (1.0 + 1.6 * ring) * u
         lx, ly = pl.x_mm + dx * (half_w + hw + gap), pl.y_mm + dy * (half_h + hh + gap)
         b = (lx - hw, ly - hh, lx + hw, ly + hh)
         if not (b[0] >= fx0 and b[1] >= fy0 and b[2] <= fx1 and b[3] <= fy1) or taken.hits(b):
             continue
         if not courtyards.hits(b):
-            return _leader(pl, lx, ly, b, size)
+            return _leader(pl, cb, lx, ly, b, size)
         if fallback is None:
             fallback = (lx, ly, b)
-    return None if fallback is None else _leader(pl, *fallback, size)
+    return None if fallback is None else _leader(pl, cb, *fallback, size)
 
 
-def _leader(pl: Placement, lx: float, ly: float, b: tuple[float, float, float, float], size: float) -> Label:
-    """A leader label centred at ``(lx, ly)`` covering ``b``, its line joining the nearest points."""
+def _leader(pl: Placement, cb, lx: float, ly: float, b: tuple[float, float, float, float], size: float) -> Label:
+    """A leader label centred at ``(lx, ly)`` covering ``b``, its line joining the nearest points (``cb``: courtyard bounds)."""
     x, y = pl.x_mm, pl.y_mm
-    cx0, cy0, cx1, cy1 = pl.courtyard.bounds
+    cx0, cy0, cx1, cy1 = cb
     ax, ay = min(max(x, b[0]), b[2]), min(max(y, b[1]), b[3])  # label end: box point nearest the part
     px, py = min(max(lx, cx0), cx1), min(max(ly, cy0), cy1)  # part end: courtyard point nearest the label
     return Label(pl.ref, pl.side, lx, ly, size, False, b, (ax, ay, px, py))
+
+
+class _CoveredCells:
+    """Rasters of square cells over ``frame`` marking where a leader spot's centre means a clash.
+
+    A leader spot of a ref of ``n`` characters is a box of half sizes ``(hw(n), hh)``; it meets a
+    label box ``L`` when its centre lies strictly inside ``L`` grown by those half sizes (the
+    Minkowski sum of the two boxes). One raster per ref length marks each cell lying wholly
+    inside such a grown label, so the leader search skips a spot whose centre falls in a marked
+    cell without a box test: on a large board, whose labels fill the picture, that is every spot
+    of most parts. Marked cells keep a margin ``eps`` inside, so the centres worked out here with
+    numpy may differ from the search's own by rounding without a wrong skip. Cost: O(cells a
+    label covers x ref lengths) to mark; O(parts x spots) numpy work once for the spots' cells,
+    then one array lookup per part. Method: our own (an occupancy raster of the configuration
+    space, common practice in label placement and motion planning).
+    """
+
+    _MAX_CELLS = 1_000_000
+
+    def __init__(self, frame: tuple[float, float, float, float], size: float, lengths: Iterable[int]) -> None:
+        fx0, fy0, fx1, fy1 = frame
+        w, h = max(fx1 - fx0, 0.0), max(fy1 - fy0, 0.0)
+        self.size = size
+        self.hh = _BOX_HALF_H * size
+        cell = max(0.5 * self.hh, math.sqrt(w * h / self._MAX_CELLS), 1e-9)
+        self.x0, self.y0, self.cell = fx0, fy0, cell
+        self.nx, self.ny = int(w / cell) + 2, int(h / cell) + 2
+        self.eps = 1e-6 * cell + 1e-9 * (abs(fx0) + abs(fy0) + abs(fx1) + abs(fy1))
+        # per ref length; one more cell, never marked, for spots outside the raster
+        self.marked = {n: np.zeros(self.nx * self.ny + 1, dtype=bool) for n in sorted(set(lengths))}
+
+    def half_width(self, n: int) -> float:
+        """Half the width of a leader label of ``n`` characters (as :func:`_leader_label`)."""
+        return 0.5 * _BOX_ADVANCE * max(n, 1) * self.size
+
+    def spot_cells(self, placements: Sequence[Placement], boxes: Sequence, u: float) -> np.ndarray:
+        """The cell of each spot's centre, ``(len(placements), len(_SPOTS))`` flat indices (as _leader_label).
+
+        ``boxes``: each placement's courtyard bounds, or None.
+        """
+        n = len(placements)
+        xs, ys, half_w, half_h, hw = (np.zeros(n) for _ in range(5))
+        for k, (pl, cb) in enumerate(zip(placements, boxes)):
+            xs[k], ys[k] = pl.x_mm, pl.y_mm
+            hw[k] = self.half_width(len(pl.ref))
+            if cb is not None:
+                half_w[k], half_h[k] = 0.5 * (cb[2] - cb[0]), 0.5 * (cb[3] - cb[1])
+        dx, dy, ring = (np.array(col) for col in zip(*_SPOTS))
+        gap = (1.0 + 1.6 * ring) * u
+        lx = xs[:, None] + dx * ((half_w + hw)[:, None] + gap)
+        ly = ys[:, None] + dy * ((half_h + self.hh)[:, None] + gap)
+        i = np.floor((lx - self.x0) / self.cell)
+        j = np.floor((ly - self.y0) / self.cell)
+        inside = (i >= 0) & (i < self.nx) & (j >= 0) & (j < self.ny)
+        return np.where(inside, i * self.ny + j, self.nx * self.ny).astype(np.int64)
+
+    def open_spots(self, cells: np.ndarray, ref: str) -> list[int]:
+        """Indices (in order) of the spots of ``ref`` whose centre cell is not marked."""
+        return np.flatnonzero(~self.marked[len(ref)][cells]).tolist()
+
+    def add(self, b: tuple[float, float, float, float]) -> None:
+        """Mark, per ref length, the cells inside ``b`` grown by the spot's half sizes, ``2 eps`` to spare."""
+        c, e2 = self.cell, 2.0 * self.eps
+        j0 = max(math.floor((b[1] - self.hh + e2 - self.y0) / c) + 1, 0)
+        j1 = min(math.floor((b[3] + self.hh - e2 - self.y0) / c) - 1, self.ny - 1)
+        for n, marked in self.marked.items():
+            hw = self.half_width(n)
+            i0 = max(math.floor((b[0] - hw + e2 - self.x0) / c) + 1, 0)
+            i1 = min(math.floor((b[2] + hw - e2 - self.x0) / c) - 1, self.nx - 1)
+            if i0 <= i1 and j0 <= j1:
+                marked[:-1].reshape(self.nx, self.ny)[i0:i1 + 1, j0:j1 + 1] = True
 
 
 class _BoxGrid:
