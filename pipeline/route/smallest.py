@@ -17,18 +17,20 @@ Each candidate passes cheap screens before the expensive routing:
 1. area at least the courtyard sum (nothing smaller holds the parts);
 2. the placer without routing and without the improvement pass
    (:func:`pipeline.place.place_and_fit`): it must place every part;
-3. the RUDY demand estimate (:mod:`pipeline.route.demand`) of that
-   placement: a 90th-percentile demand above ``P90_MAX`` of capacity is
-   hopeless and is not routed;
-4. placement with the improvement pass and the spreading over the candidate
+3. placement with the improvement pass and the spreading over the candidate
    board (:mod:`pipeline.place_spread`), each movable part then turned a
    half turn where that shortens its nets (:mod:`pipeline.place_orient`;
    on the demo's board at 0 deg, aspect 1.5 and 1.45 x the courtyard sum
    the placement routes with the half turns and leaves a net open without,
-   bench/README.md), and routing
-   (:func:`pipeline.route.route_fit`, which routes that placement first and
-   then spreads the parts while they still place); the board counts only
-   when the independent copper check is clean.
+   bench/README.md), and the RUDY demand estimate (:mod:`pipeline.route.demand`)
+   of that placement, the one routed: a 90th-percentile demand above
+   ``P90_MAX`` of capacity is hopeless and is not routed (screening screen
+   2's compact placement instead stopped boards whose spread placement
+   demands half as much, bench/README.md);
+4. routing (:func:`pipeline.route.route_fit`, which routes that placement
+   first and then spreads the parts while they still place, each spread
+   placement given the same half turns); the board counts only when the
+   independent copper check is clean.
 
 Phase 1 bounds every shape from below: a bisection on area (``PLACE_STEPS``
 halvings of its logarithm) with screen 2 alone gives the least area at
@@ -81,8 +83,9 @@ PLACE_STEPS = 5
 ROUTE_STEPS = 4
 #: a later shape must beat the best area so far by this share to be tried (our choice).
 BEAT = 0.02
-#: RUDY 90th-percentile demand / capacity above which a placement is not routed (our choice: only the
-#: hopeless; it stopped nothing on the demo and 22 candidates on the 60-part board, bench/README.md).
+#: RUDY 90th-percentile demand / capacity of the placement to be routed above which it is not routed
+#: (our choice: only the hopeless; on the 60-part board the spread placements at 2.4 to 2.5 x the courtyard
+#: sum demand 0.44 to 0.51 where the compact ones demand 0.95 to 1.16, bench/README.md).
 P90_MAX = 1.0
 #: phase 2 routes at most this many shapes, those with the least placement bounds (a screen: routing
 #: is the expensive step; our choice).
@@ -199,19 +202,20 @@ class _Search:
         placed = self.places(shape, area)
         if placed is None:
             return None
-        (board, mode), f = placed
+        (board, mode), _ = placed
+        f = place_and_fit(self.items, self.region, self.options, user_board=board, improve=True)
+        if not f.fits:
+            self.counts["does not place"] += 1
+            return None
+        f = self.oriented(f)
         pads = board_from_placement(board, f.placements, self.design, self.library, self.rules.layer_names,
                                     level=self.options.density)
         if routing_demand(pads, self.rules).p90 > P90_MAX:
             self.counts["demand too high"] += 1
             return None
         self.counts["route attempts"] += 1
-        f = place_and_fit(self.items, self.region, self.options, user_board=board, improve=True)
-        if not f.fits:
-            self.counts["does not place"] += 1
-            return None
-        f, out = route_fit(self.oriented(f), self.items, self.region, self.options, self.design, self.library,
-                           self.rules, user_board=board)
+        f, out = route_fit(f, self.items, self.region, self.options, self.design, self.library, self.rules,
+                           user_board=board, arrange=self.oriented)
         if out.verdict.status != ROUTED:
             return None
         self.counts["routed"] += 1
