@@ -1,7 +1,11 @@
 """Orientation for routing: a part turned a half turn when that shortens its nets.
 
-Entry point: :func:`orient_parts` (a placement in, the same placement with
-some parts turned by 180 degrees out).
+Entry points: :func:`orient_parts` (a placement in, the same placement with
+some parts turned by 180 degrees out) and :func:`open_gaps` (parts shifted
+by whole routing pitches where facing pads of two parts leave no room for
+a track between them; its own notes). The smallest-board search
+(:mod:`pipeline.route.smallest`) runs both, in that order, on every
+placement it routes; the default run uses neither.
 
 Why. The packer (:mod:`pipeline.place`) chooses each courtyard's position
 and whether it stands at 0 or 90 degrees, but never which way round: a

@@ -91,9 +91,10 @@ BEAT = 0.02
 #: sum demand 0.44 to 0.51 where the compact ones demand 0.95 to 1.16, bench/README.md).
 P90_MAX = 1.0
 #: share of the copper rules' routing time budget one candidate's routing (all of route_fit's attempts) may
-#: spend in the search (our choice: on the 60-part board of bench/bench_route.py a candidate that routed did
-#: so in 33 s, on its second placement, while every candidate that did not spent the whole 180 s, so a
-#: failure cost the search as much as the full budget; bench/README.md).
+#: spend in the search (our choice: on the 60-part board of bench/bench_route.py at 2.4 to 2.5 x the
+#: courtyard sum, two candidates routed, in 33 s (second placement) and 141 s (fifth, loaded machine), and
+#: the four that did not each spent the whole 180 s; half the budget loses the slow successes but tries
+#: twice the candidates in the same time; bench/README.md).
 ATTEMPT_SHARE = 0.5
 #: phase 2 routes at most this many shapes, those with the least placement bounds (a screen: routing
 #: is the expensive step; our choice).
