@@ -112,3 +112,92 @@ def test_a_turn_that_would_break_a_met_near_rule_is_not_made(with_rule, expect):
     assert near_distance(rule, at(pl[0]), at(pl[1])) == pytest.approx(2.0 - _pitch())       # met before
     turned = near_distance(rule, at(out[0]), at(out[1]))
     assert (turned <= 1.0) if with_rule else turned == pytest.approx(2.0)                   # 2 mm: broken
+
+
+# -- open_gaps: shifts that open a track's way between facing pads -------------------------------------------
+
+from shapely.geometry import box  # noqa: E402
+
+from pipeline.place_orient import MOVES, open_gaps  # noqa: E402
+
+#: the default copper rules' track and clearance (pipeline/route/rules.py): a track between two pads needs
+#: 0.2 + 2 x 0.2 mm (common practice for small-batch fabrication, REFERENCES.md section 4)
+GAP, STEP = 0.2 + 2 * 0.2, 0.2 + 0.2
+
+
+def _land_w(package: str = "0603") -> float:
+    """Width (mm) along x of one of ``package``'s pads at rotation 0, from the library's lands."""
+    return pads_on_board(LIB.package(package), 0.0, 0.0, 0, "top")[0].width_mm
+
+
+def _abutting(margin: float, n: int = 2):
+    """``n`` 0603s in a row, courtyard against courtyard, whose facing pads are ``margin`` mm apart."""
+    length, height = _pitch() + _land_w() + margin, 2.0
+    return tuple(Placement(f"R{k + 1}", k * length, 0.0, 0, "top",
+                           box(k * length - length / 2, -height / 2, k * length + length / 2, height / 2))
+                 for k in range(n)), length
+
+
+@pytest.mark.parametrize("margin", [0.1, 0.3, 0.5])
+def test_facing_pads_closer_than_a_track_are_pulled_apart_by_whole_steps(margin):
+    # closed form: the facing pads of R1 (pin 2) and R2 (pin 1) are ``margin`` apart; the first part in
+    # natural order (R1) moves away from R2 by the fewest steps k with margin + k x STEP >= GAP
+    # (moving towards R2 overlaps it; up or down keeps the gap, the pads being taller than a step)
+    d = _design(2, {"A": ["R1.1"], "B": ["R1.2"], "C": ["R2.1"], "D": ["R2.2"]})
+    row, length = _abutting(margin)
+    out = open_gaps(row, d, LIB, box(-20, -20, 20, 20), gap_mm=GAP, step_mm=STEP)
+    k = next(k for k in (1, 2) if margin + k * STEP >= GAP - 1e-9)
+    assert out[0].x_mm == pytest.approx(-k * STEP) and out[0].y_mm == 0.0
+    assert (out[1].x_mm, out[1].y_mm) == (length, 0.0)
+    # the courtyard moved with it
+    assert out[0].courtyard.bounds == pytest.approx(tuple(v - k * STEP * (i % 2 == 0)
+                                                          for i, v in enumerate(row[0].courtyard.bounds)))
+
+
+def test_pads_a_track_apart_and_pads_of_one_net_stay():
+    # nothing to open: 0.6 mm apart already, or the facing pads share a net (they may touch)
+    apart, _ = _abutting(GAP)
+    d = _design(2, {"A": ["R1.1"], "B": ["R1.2"], "C": ["R2.1"], "D": ["R2.2"]})
+    assert open_gaps(apart, d, LIB, box(-20, -20, 20, 20), gap_mm=GAP, step_mm=STEP) == apart
+    close, _ = _abutting(0.1)
+    same = _design(2, {"A": ["R1.1"], "B": ["R1.2", "R2.1"], "D": ["R2.2"]})
+    assert open_gaps(close, same, LIB, box(-20, -20, 20, 20), gap_mm=GAP, step_mm=STEP) == close
+
+
+def test_kept_parts_stay_and_a_part_with_no_room_stays():
+    d = _design(2, {"A": ["R1.1"], "B": ["R1.2"], "C": ["R2.1"], "D": ["R2.2"]})
+    row, length = _abutting(0.3)
+    # R1 kept: R2 moves away from it instead (+x, one step)
+    out = open_gaps(row, d, LIB, box(-20, -20, 20, 20), gap_mm=GAP, step_mm=STEP, keep=["R1"])
+    assert out[0] == row[0] and out[1].x_mm == pytest.approx(length + STEP)
+    # both kept, or the area holding exactly the two courtyards: nothing moves
+    assert open_gaps(row, d, LIB, box(-20, -20, 20, 20), gap_mm=GAP, step_mm=STEP, keep=["R1", "R2"]) == row
+    tight_area = box(-length / 2, -1.0, 1.5 * length, 1.0)
+    assert open_gaps(row, d, LIB, tight_area, gap_mm=GAP, step_mm=STEP) == row
+
+
+@settings(max_examples=30, deadline=None)
+@given(n=st.integers(2, 5), margins=st.lists(st.floats(0.0, 0.8), min_size=1, max_size=1), data=st.data())
+def test_shifts_stay_legal_whole_and_never_add_tight_pairs(n, margins, data):
+    # properties: every part stays in the area, no two courtyards overlap, each shift is a multiple of the
+    # step within the largest move, and the count of pads closer than GAP never grows
+    row, length = _abutting(margins[0], n)
+    nets = {f"N{k}": [f"R{k // 2 + 1}.{k % 2 + 1}"] for k in range(2 * n)}
+    d = _design(n, nets)
+    area = box(-length, -3.0, n * length, 3.0)
+    out = open_gaps(row, d, LIB, area, gap_mm=GAP, step_mm=STEP)
+    big = max(abs(c) for m in MOVES for c in m) * STEP * 4   # PASSES moves at most
+    for a, b in zip(row, out):
+        assert area.buffer(1e-6).covers(b.courtyard)
+        for c in (b.x_mm - a.x_mm, b.y_mm - a.y_mm):
+            assert abs(c / STEP - round(c / STEP)) < 1e-6 and abs(c) <= big + 1e-9
+    for i in range(n):
+        for j in range(i + 1, n):
+            assert out[i].courtyard.intersection(out[j].courtyard).area < 1e-9
+
+    def tight(pls):
+        pads = [(pl.ref, p) for pl in pls for p in pads_on_board(LIB.package("0603"), pl.x_mm, pl.y_mm, 0, "top")]
+        from pipeline.route.pads import pad_polygon
+        return sum(1 for i, (r, p) in enumerate(pads) for s, q in pads[i + 1:]
+                   if r != s and pad_polygon(p).distance(pad_polygon(q)) < GAP - 1e-6)
+    assert tight(out) <= tight(row)

@@ -38,11 +38,13 @@ class _Item:
     pin_count: int = 2
 
 
-def _run(monkeypatch, budget_s, open_counts, clock_step=0.0, places=lambda items: True, place_step=0.0):
+def _run(monkeypatch, budget_s, open_counts, clock_step=0.0, places=lambda items: True, place_step=0.0,
+         arrange=None, routed=None):
     """route_fit with a fake router returning ``open_counts[i]`` open nets on attempt i.
 
     ``places(grown items)`` says whether the fake placer places them; each placement "takes"
-    ``place_step`` seconds of the fake clock.
+    ``place_step`` seconds of the fake clock. ``routed`` (a list) collects the placements each routing
+    was given; ``arrange`` is passed on to route_fit.
     """
     calls, now = [], [0.0]
 
@@ -53,6 +55,8 @@ def _run(monkeypatch, budget_s, open_counts, clock_step=0.0, places=lambda items
     def fake_route(outline, placements, design, library, rules, *, time_budget_s=None, **kw):
         n = open_counts[len(calls)]
         calls.append(time_budget_s)
+        if routed is not None:
+            routed.append(placements)
         now[0] += clock_step                       # each routing "takes" clock_step seconds
         nets = tuple(f"N{i}" for i in range(n))
         return RouteOutcome(RouteVerdict(ROUTED if n == 0 else OPEN, nets), None, None, {})
@@ -63,7 +67,7 @@ def _run(monkeypatch, budget_s, open_counts, clock_step=0.0, places=lambda items
     monkeypatch.setattr("time.monotonic", lambda: now[0])
     rules = CopperRules(time_budget_s=budget_s)
     _, out = route.route_fit(_Fit(), (_Item(),), None, type("O", (), {"density": "nominal"})(), None,
-                             load_library(), rules)
+                             load_library(), rules, arrange=arrange)
     return calls, out
 
 
@@ -80,6 +84,19 @@ def test_pin_side_steps_follow_the_uniform_ones(monkeypatch):
     assert len(calls) == len(SPREAD_STEPS) + 1 and out.verdict.status == ROUTED
     # the first pin-side step: the 0603 grew in length only (its pads lie along x), by one step of pitches
     assert out.verdict.spread_mm == pytest.approx(PIN_STEPS[0] * CopperRules().pitch_mm)
+
+
+@pytest.mark.parametrize("arrange, given", [
+    (None, ()),                                                          # the default run: routed as placed
+    (lambda f: type(f)(placements=f.placements + ("turned",)), ("turned",)),  # every attempt arranged once
+])
+def test_every_attempt_is_arranged_before_it_is_routed(monkeypatch, arrange, given):
+    # the smallest-board search passes its half turns as ``arrange``: the compact fit and each spread
+    # placement alike are routed as arranged (route_fit's docstring)
+    routed = []
+    calls, out = _run(monkeypatch, 60.0, [3, 2, 1, 0], arrange=arrange, routed=routed)
+    assert len(calls) == 4 and out.verdict.status == ROUTED
+    assert routed == [given] * 4
 
 
 def test_fewest_open_nets_kept_when_nothing_routes(monkeypatch):

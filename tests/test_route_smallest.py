@@ -50,12 +50,18 @@ def test_smallest_board_routes_and_one_step_smaller_does_not(tmp_path, monkeypat
         assert smaller.area < found.board.area
         f = place_and_fit(items, region, options, user_board=smaller, improve=False)
         if f.fits:
-            pads = board_from_placement(smaller, f.placements, design, library, rules.layer_names)
-            if routing_demand(pads, rules).p90 <= smallest_mod.P90_MAX:
-                f = place_and_fit(items, region, options, user_board=smaller)
-                if f.fits:
-                    _, out = route_fit(f, items, region, options, design, library, rules, user_board=smaller)
+            f = place_and_fit(items, region, options, user_board=smaller)
+            if f.fits:
+                s = smallest_mod._Search(fit0, items, region, options, design, library, rules, None)
+                f = s.oriented(f)   # screen 3 judges the placement to be routed, turned as it is routed
+                pads = board_from_placement(smaller, f.placements, design, library, rules.layer_names)
+                if routing_demand(pads, rules).p90 <= smallest_mod.P90_MAX:
+                    import dataclasses
+                    share = dataclasses.replace(rules, time_budget_s=smallest_mod.ATTEMPT_SHARE * rules.time_budget_s)
+                    _, out = route_fit(f, items, region, options, design, library, share, user_board=smaller,
+                                       arrange=s.oriented)
                     assert out.verdict.status != ROUTED
+
 
 def test_smallest_is_a_known_outline_mode(tmp_path):
     proj = make_project(tmp_path / "q", design=_resistors(2), cavity=rect_cavity(tmp_path / "c.dxf"),
@@ -78,14 +84,29 @@ def test_the_route_screen_routes_the_oriented_placement(tmp_path, monkeypatch):
                         tables={"board": {"outline": "smallest"}})
     assert invoke("run", proj).exit_code == 0
     fit, items, region, options, design, library, rules = seen["args"]
-    given = []
+    import pipeline.route.demand as demand_mod
+
+    given, judged = [], []
     real = route_mod.route_fit
-    monkeypatch.setattr(route_mod, "route_fit", lambda f, *a, **kw: given.append(f) or real(f, *a, **kw))
+    monkeypatch.setattr(route_mod, "route_fit", lambda f, *a, **kw: given.append((f, a[5])) or real(f, *a, **kw))
+    real_demand = demand_mod.routing_demand
+    monkeypatch.setattr(demand_mod, "routing_demand", lambda b, *a, **kw: judged.append(b) or real_demand(b, *a, **kw))
     s = smallest_mod._Search(fit, items, region, options, design, library, rules, None)
     s.routes(Shape(0.0, 1.0), region.board_region.area)
     board = board_at(region.board_region, Shape(0.0, 1.0), region.board_region.area)[0]
     placed = place_and_fit(items, region, options, user_board=board, improve=True)
-    (f,) = given
-    assert f.placements == orient_parts(placed.placements, design, library, level=options.density)
-    assert pad_hpwl(f.placements, design, library) <= pad_hpwl(placed.placements, design, library) + 1e-9
-    assert [(p.ref, p.x_mm, p.y_mm) for p in f.placements] == [(p.ref, p.x_mm, p.y_mm) for p in placed.placements]
+    ((f, used),) = given
+    turned = orient_parts(placed.placements, design, library, level=options.density)
+    assert pad_hpwl(turned, design, library) <= pad_hpwl(placed.placements, design, library) + 1e-9
+    # the half turns, then shifts by whole routing pitches (open_gaps), which turn nothing
+    assert [(p.ref, p.rotation_deg) for p in f.placements] == [(p.ref, p.rotation_deg) for p in turned]
+    for a, b in zip(placed.placements, f.placements):
+        for d in (b.x_mm - a.x_mm, b.y_mm - a.y_mm):
+            assert abs(d / rules.pitch_mm - round(d / rules.pitch_mm)) < 1e-6
+    # one candidate's routing spends at most ATTEMPT_SHARE of the rules' budget
+    assert used.time_budget_s == smallest_mod.ATTEMPT_SHARE * rules.time_budget_s
+    # screen 3 judged the very placement handed to the router (its pads where the routed fit puts them),
+    # not the compact one of screen 2
+    from pipeline.route.pads import board_from_placement
+    pads = board_from_placement(board, f.placements, design, library, rules.layer_names).pads
+    assert [(p.ref, p.pin, p.polygon.wkt) for p in judged[0].pads] == [(p.ref, p.pin, p.polygon.wkt) for p in pads]

@@ -139,7 +139,7 @@ def route_placed(outline, placements, design, library, rules: CopperRules, *, le
 
 
 def route_fit(fit, items, region, options, design, library, rules: CopperRules, *, user_board=None,
-              progress: Callable[[str, float], None] | None = None):
+              progress: Callable[[str, float], None] | None = None, arrange: Callable[[Any], Any] | None = None):
     """Route a fit; when it does not route, spread the parts and try again.
 
     Placement for routing by iterating placement and routing: the placer
@@ -161,6 +161,11 @@ def route_fit(fit, items, region, options, design, library, rules: CopperRules, 
     fit's routing gets ``FIRST_SHARE`` of it, each later routing what the
     earlier ones left, and no further spread is tried (or, once placed,
     routed) once it is spent (the first attempt always runs).
+
+    ``arrange`` (a fit to a fit with the same courtyards, e.g. the
+    smallest-board search's half turns, :func:`pipeline.place_orient.orient_parts`)
+    is applied to every placement before it is routed, the compact fit's and
+    each spread one's alike; None routes them as placed (the default run).
     """
     import dataclasses
     import time
@@ -183,6 +188,8 @@ def route_fit(fit, items, region, options, design, library, rules: CopperRules, 
                 continue
             f = dataclasses.replace(fit, placements=_true_courtyards(spread.placements, items),
                                     board_outline=spread.board_outline, wirelength_mm=spread.wirelength_mm)
+        if arrange is not None:
+            f = arrange(f)
         left = deadline - time.monotonic()
         if best is not None and left <= 0:
             break   # the re-placement spent what was left: no routing past the budget

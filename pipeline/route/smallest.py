@@ -17,18 +17,23 @@ Each candidate passes cheap screens before the expensive routing:
 1. area at least the courtyard sum (nothing smaller holds the parts);
 2. the placer without routing and without the improvement pass
    (:func:`pipeline.place.place_and_fit`): it must place every part;
-3. the RUDY demand estimate (:mod:`pipeline.route.demand`) of that
-   placement: a 90th-percentile demand above ``P90_MAX`` of capacity is
-   hopeless and is not routed;
-4. placement with the improvement pass and the spreading over the candidate
+3. placement with the improvement pass and the spreading over the candidate
    board (:mod:`pipeline.place_spread`), each movable part then turned a
    half turn where that shortens its nets (:mod:`pipeline.place_orient`;
    on the demo's board at 0 deg, aspect 1.5 and 1.45 x the courtyard sum
    the placement routes with the half turns and leaves a net open without,
-   bench/README.md), and routing
-   (:func:`pipeline.route.route_fit`, which routes that placement first and
-   then spreads the parts while they still place); the board counts only
-   when the independent copper check is clean.
+   bench/README.md), and shifted by routing pitches where that opens a
+   track's way between facing pads (:func:`pipeline.place_orient.open_gaps`;
+   on that board it freed the pads that were walled in), and the RUDY demand estimate (:mod:`pipeline.route.demand`)
+   of that placement, the one routed: a 90th-percentile demand above
+   ``P90_MAX`` of capacity is hopeless and is not routed (screening screen
+   2's compact placement instead stopped boards whose spread placement
+   demands half as much, bench/README.md);
+4. routing (:func:`pipeline.route.route_fit`, which routes that placement
+   first and then spreads the parts while they still place, each spread
+   placement given the same half turns and shifts), within ``ATTEMPT_SHARE``
+   of the routing time budget; the board counts only when the independent
+   copper check is clean.
 
 Phase 1 bounds every shape from below: a bisection on area (``PLACE_STEPS``
 halvings of its logarithm) with screen 2 alone gives the least area at
@@ -68,8 +73,8 @@ from shapely.geometry import Polygon
 from .shapes import Shape, board_at
 
 __all__ = ["smallest_board", "search", "Smallest", "shapes_to_try", "ANGLE_STEP_DEG", "ASPECTS", "PLACE_STEPS",
-           "ROUTE_STEPS", "P90_MAX", "BEAT", "SHAPES_ROUTED", "TIGHT", "TIGHT_STEPS", "LADDER_SHAPES", "LADDER",
-           "LADDER_SPAN"]
+           "ROUTE_STEPS", "P90_MAX", "ATTEMPT_SHARE", "BEAT", "SHAPES_ROUTED", "TIGHT", "TIGHT_STEPS",
+           "LADDER_SHAPES", "LADDER", "LADDER_SPAN"]
 
 #: orientation step over half a turn, degrees.
 ANGLE_STEP_DEG = 15.0
@@ -81,9 +86,16 @@ PLACE_STEPS = 5
 ROUTE_STEPS = 4
 #: a later shape must beat the best area so far by this share to be tried (our choice).
 BEAT = 0.02
-#: RUDY 90th-percentile demand / capacity above which a placement is not routed (our choice: only the
-#: hopeless; it stopped nothing on the demo and 22 candidates on the 60-part board, bench/README.md).
+#: RUDY 90th-percentile demand / capacity of the placement to be routed above which it is not routed
+#: (our choice: only the hopeless; on the 60-part board the spread placements at 2.4 to 2.5 x the courtyard
+#: sum demand 0.44 to 0.51 where the compact ones demand 0.95 to 1.16, bench/README.md).
 P90_MAX = 1.0
+#: share of the copper rules' routing time budget one candidate's routing (all of route_fit's attempts) may
+#: spend in the search (our choice: on the 60-part board of bench/bench_route.py at 2.4 to 2.5 x the
+#: courtyard sum, two candidates routed, in 33 s (second placement) and 141 s (fifth, loaded machine), and
+#: the four that did not each spent the whole 180 s; half the budget loses the slow successes but tries
+#: twice the candidates in the same time; bench/README.md).
+ATTEMPT_SHARE = 0.5
 #: phase 2 routes at most this many shapes, those with the least placement bounds (a screen: routing
 #: is the expensive step; our choice).
 SHAPES_ROUTED = 10
@@ -190,7 +202,10 @@ class _Search:
         return got, f
 
     def routes(self, shape: Shape, area: float):
-        """All four screens: ``(fit, outcome, board, mode)`` when the board routes, else None."""
+        """All four screens: ``(fit, outcome, board, mode)`` when the board routes, else None; the routing
+        (screen 4) may spend ``ATTEMPT_SHARE`` of the rules' time budget."""
+        import dataclasses
+
         from ..place import place_and_fit
         from . import ROUTED, route_fit
         from .demand import routing_demand
@@ -199,19 +214,21 @@ class _Search:
         placed = self.places(shape, area)
         if placed is None:
             return None
-        (board, mode), f = placed
+        (board, mode), _ = placed
+        f = place_and_fit(self.items, self.region, self.options, user_board=board, improve=True)
+        if not f.fits:
+            self.counts["does not place"] += 1
+            return None
+        f = self.oriented(f)
         pads = board_from_placement(board, f.placements, self.design, self.library, self.rules.layer_names,
                                     level=self.options.density)
         if routing_demand(pads, self.rules).p90 > P90_MAX:
             self.counts["demand too high"] += 1
             return None
         self.counts["route attempts"] += 1
-        f = place_and_fit(self.items, self.region, self.options, user_board=board, improve=True)
-        if not f.fits:
-            self.counts["does not place"] += 1
-            return None
-        f, out = route_fit(self.oriented(f), self.items, self.region, self.options, self.design, self.library,
-                           self.rules, user_board=board)
+        rules = dataclasses.replace(self.rules, time_budget_s=ATTEMPT_SHARE * self.rules.time_budget_s)
+        f, out = route_fit(f, self.items, self.region, self.options, self.design, self.library, rules,
+                           user_board=board, arrange=self.oriented)
         if out.verdict.status != ROUTED:
             return None
         self.counts["routed"] += 1
@@ -219,17 +236,23 @@ class _Search:
 
     def oriented(self, f):
         """``f`` with its movable parts turned a half turn where that shortens their nets
-        (:func:`pipeline.place_orient.orient_parts`; fixed and edge parts stay, copper-area nets count nothing,
-        near rules met stay met)."""
+        (:func:`pipeline.place_orient.orient_parts`) and then shifted by routing pitches where that opens
+        a track's way between facing pads (:func:`pipeline.place_orient.open_gaps`); fixed and edge parts
+        stay, copper-area nets count nothing for the turns, near rules met stay met."""
         import dataclasses
 
-        from ..place_orient import orient_parts
+        from ..place_orient import open_gaps, orient_parts
 
         keep = [it.ref for it in self.items if it.fixed is not None or it.edge]
         skip = [n.name for n in self.design.nets if self.rules.area_layer(n.name) is not None]
-        return dataclasses.replace(f, placements=orient_parts(f.placements, self.design, self.library,
-                                                              level=self.options.density, keep=keep, skip_nets=skip,
-                                                              items=self.items))
+        level = self.options.density
+        placed = orient_parts(f.placements, self.design, self.library, level=level, keep=keep, skip_nets=skip,
+                              items=self.items)
+        area = f.board_outline.intersection(self.region.board_region)
+        placed = open_gaps(placed, self.design, self.library, area, zones=self.region.zones, level=level, keep=keep,
+                           items=self.items, gap_mm=self.rules.track_width_mm + 2 * self.rules.clearance_mm,
+                           step_mm=self.rules.pitch_mm)
+        return dataclasses.replace(f, placements=placed)
 
     def place_bound(self, shape: Shape) -> float | None:
         """Least area (mm^2) found by bisection at which ``shape`` places; None when not even the region does."""
