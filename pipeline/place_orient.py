@@ -254,12 +254,15 @@ def open_gaps(placements: Iterable[Placement], design: Design, library, area, *,
     (at most :data:`PASSES`) end. Rotations, sides and the parts in
     ``keep`` stay. Deterministic (fixed orders, ties keep the first).
 
-    Cost: O(passes x parts x moves x pads^2) rectangle distances (pads of
-    parts whose courtyards lie within reach only); one shapely cover test
-    per candidate move.
+    Cost: O(passes x parts^2) courtyard bound distances to find each part's
+    neighbours within reach, and O(passes x parts x moves x pads^2)
+    rectangle distances against those neighbours' pads; one shapely cover
+    test per candidate move. Meant for the smallest-board search's boards
+    (tens to a few hundred parts).
     """
     import shapely
     from shapely.geometry import box
+    from shapely.affinity import translate
 
     placed = list(placements)
     near = _NearRules(items, placed)
@@ -290,7 +293,7 @@ def open_gaps(placements: Iterable[Placement], design: Design, library, area, *,
                 cand = (x0 + dx, y0 + dy, x1 + dx, y1 + dy)
                 if _overlaps(cand, walls) or not shapely.covers(room, box(*cand)):
                     continue
-                shifted = dataclasses.replace(pl, x_mm=pl.x_mm + dx, y_mm=pl.y_mm + dy, courtyard=box(*cand))
+                shifted = dataclasses.replace(pl, x_mm=pl.x_mm + dx, y_mm=pl.y_mm + dy, courtyard=translate(pl.courtyard, dx, dy))
                 tight = _tight(lands.lands(shifted), others, gap_mm)
                 if tight >= now or not near.keeps(placed, k, shifted):
                     continue

@@ -1,5 +1,7 @@
 """Half turns that shorten nets (pipeline/place_orient.py): closed-form cases and properties."""
 
+import dataclasses
+
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -152,6 +154,21 @@ def test_facing_pads_closer_than_a_track_are_pulled_apart_by_whole_steps(margin)
     # the courtyard moved with it
     assert out[0].courtyard.bounds == pytest.approx(tuple(v - k * STEP * (i % 2 == 0)
                                                           for i, v in enumerate(row[0].courtyard.bounds)))
+
+
+def test_a_shifted_courtyard_keeps_its_own_shape():
+    # a courtyard that is not a rectangle (corners cut by 0.2 mm) moves whole: the shifted courtyard is
+    # the original translated by the shift (shapely's translate as the reference), not its bounding box
+    from shapely.affinity import translate
+    d = _design(2, {"A": ["R1.1"], "B": ["R1.2"], "C": ["R2.1"], "D": ["R2.2"]})
+    row, _ = _abutting(0.1)
+    cut = row[0].courtyard.buffer(-0.2, join_style="mitre").buffer(0.2, join_style="bevel")
+    assert len(cut.exterior.coords) > 5
+    row = (dataclasses.replace(row[0], courtyard=cut),) + row[1:]
+    out = open_gaps(row, d, LIB, box(-20, -20, 20, 20), gap_mm=GAP, step_mm=STEP)
+    dx = out[0].x_mm - row[0].x_mm
+    assert dx < 0
+    assert out[0].courtyard.equals_exact(translate(cut, dx, 0.0), 1e-9)
 
 
 def test_pads_a_track_apart_and_pads_of_one_net_stay():
