@@ -512,7 +512,7 @@ class Label:
 
 def _text_box(x: float, y: float, ref: str, size: float, vertical: bool) -> tuple[float, float, float, float]:
     """The box a centred label covers as rendered: _BOX_ADVANCE em per character, _BOX_HALF_H em each side."""
-    half_long, half_short = 0.5 * _BOX_ADVANCE * max(len(ref), 1) * size, _BOX_HALF_H * size
+    half_long, half_short = _label_half_width(len(ref), size), _BOX_HALF_H * size
     hx, hy = (half_short, half_long) if vertical else (half_long, half_short)
     return (x - hx, y - hy, x + hx, y + hy)
 
@@ -618,15 +618,13 @@ def _leader_label(pl: Placement, cb, u: float, bounds, taken: _BoxGrid, courtyar
         return None
     cx0, cy0, cx1, cy1 = cb
     size = _LEADER_SIZE * u
-    hw = 0.5 * _BOX_ADVANCE * max(len(pl.ref), 1) * size
+    hw = _label_half_width(len(pl.ref), size)
     hh = _BOX_HALF_H * size
     fx0, fy0, fx1, fy1 = _frame(bounds, u)
     half_w, half_h = 0.5 * (cx1 - cx0), 0.5 * (cy1 - cy0)
     fallback = None  # the first free spot over a courtyard, used when no spot avoids every part
     for k in (range(len(_SPOTS)) if spots is None else spots):
-        dx, dy, ring = _SPOTS[k]
-        gap = (1.0 + 1.6 * ring) * u
-        lx, ly = pl.x_mm + dx * (half_w + hw + gap), pl.y_mm + dy * (half_h + hh + gap)
+        lx, ly = _spot_centre(pl.x_mm, pl.y_mm, half_w, half_h, hw, hh, *_SPOTS[k], u)
         b = (lx - hw, ly - hh, lx + hw, ly + hh)
         if not (b[0] >= fx0 and b[1] >= fy0 and b[2] <= fx1 and b[3] <= fy1) or taken.hits(b):
             continue
@@ -635,6 +633,20 @@ def _leader_label(pl: Placement, cb, u: float, bounds, taken: _BoxGrid, courtyar
         if fallback is None:
             fallback = (lx, ly, b)
     return None if fallback is None else _leader(pl, cb, *fallback, size)
+
+
+def _label_half_width(n: int, size: float) -> float:
+    """Half the width (drawing mm) of a label of ``n`` characters at text height ``size`` (inside or leader)."""
+    return 0.5 * _BOX_ADVANCE * max(n, 1) * size
+
+
+def _spot_centre(x, y, half_w, half_h, hw, hh, dx, dy, ring, u):
+    """Centre of the leader spot ``(dx, dy, ring)`` of :data:`_SPOTS` for a part at ``(x, y)`` whose
+    courtyard has half sizes ``(half_w, half_h)`` and whose label has half sizes ``(hw, hh)`` (drawing
+    mm, ``u`` mm per board mm); floats or numpy arrays alike (the leader search and its raster,
+    :class:`_CoveredCells`, both use it, so they find the same centres)."""
+    gap = (1.0 + 1.6 * ring) * u
+    return x + dx * (half_w + hw + gap), y + dy * (half_h + hh + gap)
 
 
 def _leader(pl: Placement, cb, lx: float, ly: float, b: tuple[float, float, float, float], size: float) -> Label:
@@ -677,7 +689,7 @@ class _CoveredCells:
 
     def half_width(self, n: int) -> float:
         """Half the width of a leader label of ``n`` characters (as :func:`_leader_label`)."""
-        return 0.5 * _BOX_ADVANCE * max(n, 1) * self.size
+        return _label_half_width(n, self.size)
 
     def spot_cells(self, placements: Sequence[Placement], boxes: Sequence, u: float) -> np.ndarray:
         """The cell of each spot's centre, ``(len(placements), len(_SPOTS))`` flat indices (as _leader_label).
@@ -692,9 +704,8 @@ class _CoveredCells:
             if cb is not None:
                 half_w[k], half_h[k] = 0.5 * (cb[2] - cb[0]), 0.5 * (cb[3] - cb[1])
         dx, dy, ring = (np.array(col) for col in zip(*_SPOTS))
-        gap = (1.0 + 1.6 * ring) * u
-        lx = xs[:, None] + dx * ((half_w + hw)[:, None] + gap)
-        ly = ys[:, None] + dy * ((half_h + self.hh)[:, None] + gap)
+        lx, ly = _spot_centre(xs[:, None], ys[:, None], half_w[:, None], half_h[:, None], hw[:, None], self.hh,
+                              dx, dy, ring, u)
         i = np.floor((lx - self.x0) / self.cell)
         j = np.floor((ly - self.y0) / self.cell)
         inside = (i >= 0) & (i < self.nx) & (j >= 0) & (j < self.ny)
