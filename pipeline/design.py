@@ -290,10 +290,11 @@ def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dic
     body = _expect_table(src, key, body)
     _unknown(src, key, body, _PART_KEYS)
     pair = (body.get("kind"), body.get("package"))
-    found = memo.get(pair) if all(isinstance(t, str) or t is None for t in pair) else None
+    plain = all(isinstance(t, str) or t is None for t in pair)  # text only: a usable memo key
+    found = memo.get(pair) if plain else None
     if found is None:
         found = _part_kind(src, key, body, lib, default_pkgs)
-        if all(isinstance(t, str) or t is None for t in pair):
+        if plain:
             memo[pair] = found
     kind, package, pins = found
     values = _part_values(src, key, body, kind, memo)
