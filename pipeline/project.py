@@ -43,6 +43,7 @@ from pathlib import Path
 from typing import Any, Callable
 
 from .errors import OutputError, ProjectError
+from .findings_group import group_findings
 from .model import DENSITY_LEVELS, BoardOptions, Design, FitResult, Finding, OrderOptions
 from .cavity.limits import CHORD_TOL_MM, DEFAULT_DEPTH_MM, DEFAULT_UNITS
 from .cavity.limits import DEFAULTS as CAVITY_LIMITS
@@ -406,7 +407,7 @@ def check_design(path: Path, *, shown: str | None = None, parts_map: Path | None
     """Read a design file alone and run every check that needs no drawing: connections, values
     and the declared blocks (Monte Carlo with the default draws and seed of ``[analysis]``)."""
     design, _, findings, _ = _read_and_check(Path(path), shown or str(path), parts_map, root)
-    return design, tuple(findings)
+    return design, group_findings(findings)  # grouped as run() groups them: check and run agree
 
 
 def inspect_cavity(path: Path, *, shown: str | None = None, project: Project | None = None):
@@ -480,7 +481,8 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     Returns
     -------
     RunResult
-        Findings in the order the stages made them, the fit, the verdict and the files written.
+        Findings in the order the stages made them (notes of one kind grouped into one:
+        :func:`pipeline.findings_group.group_findings`), the fit, the verdict and the files written.
 
     Notes
     -----
@@ -499,6 +501,10 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
                                                     **_analysis(project))
     files, order_files = _design_files(design, lib, project, reports, timestamp)
     placed, findings = _placed(project, design, lib, sweep, route, files, [*project.warnings, *checked], progress)
+    findings = list(group_findings(findings))  # every finding made: notes of one kind as one (findings_group)
+    if placed.fit is not None:  # fit.json's warnings and the report show the same grouped notes
+        placed = dataclasses.replace(placed, fit=dataclasses.replace(placed.fit,
+                                                                     warnings=group_findings(placed.fit.warnings)))
     verdict = _run_verdict(findings, placed)
     fit_json, svg = _drawing_files(project, design, lib, placed, verdict, files)
     files.update(_report_files(project, design, reports, placed, findings, svg, verdict, order_files))
