@@ -20,7 +20,7 @@ a count, so it is never taken for a member again). Findings of one
 * ``message``: how many parts, the kind's one sentence and the parts listed
   (with the rest of each one's subject in brackets where the kind says so:
   ``C5 (U2)``, a capacitor and its IC), shortened past
-  :data:`LIST_LIMIT` with "and N more";
+  :data:`LIST_LIMIT` with "and N more", in one sentence (CONTRACT section 4);
 * ``severity`` and ``check`` (the code) as the members had them, so the
   verdict's level and the exit status do not change.
 
@@ -46,7 +46,7 @@ Examples
 >>> fs = [Finding("error", "connect.unconnected-part", (r,), f"{r} (resistor) is connected to nothing: "
 ...               "add it to nets or remove it.") for r in ("R10", "R2")]
 >>> [(g.subject, g.message) for g in group_findings(fs)]  # doctest: +NORMALIZE_WHITESPACE
-[(('R2', 'R10'), '2 parts are connected to nothing: R2, R10. Add each to its nets or remove it.')]
+[(('R2', 'R10'), '2 parts are connected to nothing: R2, R10; add each to its nets or remove it.')]
 """
 
 from __future__ import annotations
@@ -98,19 +98,19 @@ class Kind:
 KINDS: tuple[Kind, ...] = (
     Kind("place.rule-unmet", "decoupling", "(decoupling, the default rule)",
          "{n} decoupling capacitors are farther from their IC's supply pins than the default rule allows "
-         "(the IC in brackets): {parts}. Give the board more room, or fix their places with at.",
+         "(the IC in brackets): {parts}; give the board more room, or fix their places with at.",
          brackets=True),
     Kind("place.rule-unmet", "edge", " should sit at the board edge ",
          "{n} parts should sit at the board edge, nearest the wire entry where one is drawn (edge rule), "
-         "but no room is left there for them: {parts}. Give the board more edge room, or fix their places "
+         "but no room is left there for them: {parts}; give the board more edge room, or fix their places "
          "with at."),
     Kind("connect.no-decoupling", "no-decoupling", " has no capacitor across its supply nets ",
-         "{n} ICs have no capacitor across their supply nets (in brackets): {parts}. Common practice is "
+         "{n} ICs have no capacitor across their supply nets (in brackets): {parts}; common practice is "
          "a ceramic capacitor close to each IC's supply pins.", brackets=True),
     Kind("connect.unconnected-part", "unconnected-part", " is connected to nothing",
-         "{n} parts are connected to nothing: {parts}. Add each to its nets or remove it."),
+         "{n} parts are connected to nothing: {parts}; add each to its nets or remove it."),
     Kind("values.zero", "zero", " of value 0, which is no part",
-         "{n} capacitors or inductors have the value 0, which is no part: {parts}. Give each its real "
+         "{n} capacitors or inductors have the value 0, which is no part: {parts}; give each its real "
          "value, or remove it (a link is a 0 ohm resistor)."),
 )
 

@@ -79,6 +79,7 @@ def test_kinds_grouped_apart_and_in_natural_order(findings, want):
     for g, (code, severity, subject, opening, parts) in zip(got, want):
         assert (g.check, g.severity, g.subject) == (code, severity, subject)
         assert g.message.startswith(opening) and parts in g.message
+        assert g.message.endswith(".") and not re.search(r"\. [A-Z]", g.message), g.message
         assert list(g.subject) == sorted(g.subject, key=_natural)
 
 
@@ -109,6 +110,7 @@ def test_long_lists_shortened_in_the_message_full_in_the_subject(n):
     assert len(shown) == min(n, LIST_LIMIT)
     assert shown == [f"C{k} (U1)" for k in range(1, min(n, LIST_LIMIT) + 1)]
     assert (f"and {n - LIST_LIMIT} more" in g.message) == (n > LIST_LIMIT)
+    assert g.message.count(". ") == 0 and g.message.endswith(".")  # one sentence (CONTRACT section 4)
     assert g.to_dict()["subject"] == [f"C{k}" for k in range(1, n + 1)]  # findings.json keeps them all
 
 
