@@ -113,13 +113,15 @@ class _Progress:
 
 
 def _echo_findings(findings, err: bool, verbose: bool = False) -> None:
-    """Errors and warnings always; notes (info) only with --verbose."""
+    """Errors and warnings always; notes (info) only with --verbose. A long subject is shortened
+    ("and N more"); findings.json and --json keep it whole."""
+    from .findings_group import listed
     from .model import SEVERITY_WORDS
 
     for f in findings:
         if f.severity == "info" and not verbose:
             continue
-        subj = f" [{', '.join(f.subject)}]" if f.subject else ""
+        subj = f" [{listed(f.subject)}]" if f.subject else ""
         _say(f"{SEVERITY_WORDS[f.severity]}: {f.message}{subj}", err=err)
 
 

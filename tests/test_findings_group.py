@@ -278,3 +278,17 @@ def test_two_caps_off_their_rule_make_one_finding_and_the_same_verdict(tmp_path,
     assert [f["subject"] for f in members] == [["C1", "U1"], ["C2", "U1"]]
     assert plain.exit_code == r.exit_code == pdoc["exit_status"] == doc["exit_status"] == 0
     assert pdoc["verdict"]["level"] == doc["verdict"]["level"] == "attention"
+
+
+def test_the_terminal_shortens_a_long_subject_json_keeps_it(tmp_path):
+    """LIST_LIMIT + 2 loose resistors: one line naming LIST_LIMIT of them and "and 2 more", twice (the
+    message and its subject in brackets); --json lists every one."""
+    n = LIST_LIMIT + 2
+    extra = "".join(_part(f"R{k}", "resistor", "0603", "1k") for k in range(10, 10 + n))
+    path = _project(tmp_path, _check_design(extra)) / "design.toml"
+    text = CliRunner().invoke(main, ["check", str(path)])
+    (line,) = [ln for ln in text.output.splitlines() if ln.startswith("error:") and "connected to nothing" in ln]
+    assert line.count("and 2 more") == 2 and f"R{10 + LIST_LIMIT - 1}" in line and f"R{10 + LIST_LIMIT}" not in line
+    doc = json.loads(CliRunner().invoke(main, ["check", str(path), "--json"]).stdout)
+    (g,) = [f for f in doc["findings"] if f["check"] == "connect.unconnected-part"]
+    assert g["subject"] == [f"R{k}" for k in range(10, 10 + n)]
