@@ -564,6 +564,7 @@ def _placed(project: Project, design: Design, lib: Any, sweep: bool, route: bool
     if route_verdict.spread_mm:  # the routed placement is a spread one: say where its rules stand
         from .place_rules import refresh_near_notes
         findings = refresh_near_notes(findings, items, fit.placements)
+        fit = dataclasses.replace(fit, warnings=tuple(refresh_near_notes(fit.warnings, items, fit.placements)))
     findings = [*findings, *_route_findings(route_verdict)]
     extra["routing"] = route_verdict.to_dict()
     return _Placed(cavity, region, items, fit, sweep_result, route_verdict, routed, extra), findings

@@ -185,3 +185,32 @@ def test_drawing_is_a_cavity_units_word_only_for_the_outline(tmp_path):
     proj = _proj(tmp_path, '[project]\ndesign = "design.toml"\n[cavity]\nunits = "drawing"\n')
     r = _run(proj)
     assert r.exit_code == 2 and "project.toml:4: cavity.units: unknown units 'drawing'" in r.stderr, r.stderr
+
+
+def test_spread_refresh_reaches_fit_json_warnings_too(tmp_path, monkeypatch):
+    """When routing spreads the parts, the near-rule notes are recomputed for the spread placement in
+    the findings and in fit.json's warnings alike (before, fit.json kept the compact placement's notes).
+
+    The routed placement is faked: every capacitor moved 60 mm off, so each decoupling rule breaks and
+    the refreshed notes must name them in both outputs. The outputs agreeing is the check (no figure)."""
+    import dataclasses
+
+    import pipeline.project as project
+
+    proj = Path(__file__).resolve().parents[1] / "demo_project"   # read only: the run writes to tmp_path
+    real = project._route
+
+    def moved(*args, **kwargs):
+        fit, verdict, out = real(*args, **kwargs)
+        far = tuple(dataclasses.replace(p, x_mm=p.x_mm + 60.0) if p.ref.startswith("C") else p
+                    for p in fit.placements)
+        return dataclasses.replace(fit, placements=far), dataclasses.replace(verdict, spread_mm=0.4), out
+
+    monkeypatch.setattr(project, "_route", moved)
+    res = CliRunner().invoke(main, ["run", str(proj), "--out", str(tmp_path / "out")])
+    assert res.exit_code in (0, 1), res.output
+    findings = json.loads((tmp_path / "out" / "findings.json").read_text())
+    warnings = json.loads((tmp_path / "out" / "fit.json").read_text())["warnings"]
+    unmet = [f for f in findings if f["check"] == "place.rule-unmet"]
+    assert unmet, "the moved capacitors must break their decoupling rules"
+    assert unmet == [w for w in warnings if w["check"] == "place.rule-unmet"]
