@@ -271,6 +271,22 @@ def _rect(it: PlaceItem, x: float, y: float, rot: int) -> tuple[float, float, fl
     return (x - dx / 2, y - dy / 2, x + dx / 2, y + dy / 2)
 
 
+def _edge_distance(edge: BaseGeometry, boxes: np.ndarray) -> np.ndarray:
+    """``shapely.distance(edge, boxes)`` (mm) for the lines ``edge``: the distance to the nearest of
+    its segments, found in an STRtree of the segments (the same GEOS segment distances, so the same
+    figures; a 558-vertex edge and 40,000 boxes took 1.2 s instead of 1.6 s here). Cost:
+    O(boxes x log segments)."""
+    segs = []
+    for line in shapely.get_parts(edge):
+        c = shapely.get_coordinates(line)
+        segs.append(shapely.linestrings(np.stack((c[:-1], c[1:]), axis=1)))
+    (at, _seg), d = shapely.STRtree(np.concatenate(segs)).query_nearest(boxes, return_distance=True,
+                                                                        all_matches=False)
+    out = np.full(len(boxes), np.inf)
+    out[at] = d
+    return out
+
+
 def _spots(it: PlaceItem, allowed: BaseGeometry, edge: BaseGeometry, zone) -> tuple | None:
     """Every legal candidate centre of ``it`` on an empty board: (x, y, rotation, boxes, tier,
     distance to the edge, distance to the zone or None), in both orientations."""
@@ -286,7 +302,7 @@ def _spots(it: PlaceItem, allowed: BaseGeometry, edge: BaseGeometry, zone) -> tu
         boxes = shapely.box(x - dx / 2, y - dy / 2, x + dx / 2, y + dy / 2)
         ok = shapely.covers(allowed, boxes)
         x, y, boxes = x[ok], y[ok], boxes[ok]
-        de = np.round(shapely.distance(edge, boxes), 6)
+        de = np.round(_edge_distance(edge, boxes), 6)
         dz = np.round(shapely.distance(zone, boxes), 6) if zone is not None else np.full(len(x), np.inf)
         if zone is not None:
             inside = shapely.contains_xy(zone, x, y)

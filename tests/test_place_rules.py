@@ -740,3 +740,17 @@ def test_surely_off_only_turns_down_partners_the_exact_test_turns_down(x, y, goa
     part.tgt[k] = len(items)  # never the mover
     if part.surely_off(-1, ("top", turn, 0, 0), np.array([k]))[0]:
         assert pr._slot_distance(packer, k, ("top", turn, 0, 0), pts) > limit
+
+
+@given(st.lists(st.tuples(st.floats(-40, 40), st.floats(-40, 40), st.floats(0.1, 6), st.floats(0.1, 6)),
+                min_size=1, max_size=30))
+@settings(max_examples=60, deadline=None)
+def test_edge_distance_is_shapelys_distance(rects):
+    # reference: shapely.distance (GEOS) from the outer edge (two rings, one a 64-gon) to each box
+    import pipeline.place_rules as pr
+
+    area = shapely.union_all([shapely.Point(0, 0).buffer(20, quad_segs=16), box(25, -5, 35, 5)])
+    edge = pr._outer_edge(area)
+    x, y, w, h = (np.array(c) for c in zip(*rects))
+    boxes = shapely.box(x, y, x + w, y + h)
+    assert pr._edge_distance(edge, boxes).tolist() == shapely.distance(edge, boxes).tolist()
