@@ -478,21 +478,23 @@ class _TopBoard:
         """Origins (rows ``span[0]:span[1]``, columns ``span[2]:span[3]``, inside the board's
         ``ny - h + 1`` by ``nx - w + 1`` origins) where item ``i``'s ``h`` x ``w`` courtyard covers
         only cells :meth:`free` for it: the kept whole-board origins of its level, with those whose
-        courtyard meets ``i``'s own recomputed without it. Cost: the window's cells once plus the
-        window test over ``i``'s own courtyard grown by ``h`` x ``w``."""
+        courtyard meets ``i``'s own recomputed without it (a read-only view of the kept origins when
+        none does). Cost: the window test over ``i``'s own courtyard grown by ``h`` x ``w``, plus a
+        copy of the window's cells when that meets the window."""
         lvl = self.run.top_level[i]
         r0, r1, c0, c1 = span
         ok = self.maps.get((lvl, h, w))
         if ok is None:
             g = self.g
             ok = self.maps[(lvl, h, w)] = _window_test(self._free(lvl, slice(0, g.ny), slice(0, g.nx)), h, w)
-        ok = ok[r0:r1, c0:c1].copy()
+        ok = ok[r0:r1, c0:c1]  # a view: copied only when i's own courtyard meets the window
         slot = self.run.slots[i]
         if slot[0] == "top":
             e0, e1, f0, f1 = cells_of(self.g, self.packer.rect(i, slot))
             a0, a1 = max(r0, e0 - h + 1), min(r1, e1)
             b0, b1 = max(c0, f0 - w + 1), min(c1, f1)
             if a1 > a0 and b1 > b0:
+                ok = ok.copy()
                 ok[a0 - r0:a1 - r0, b0 - c0:b1 - c0] = _window_test(
                     self.free(i, slice(a0, a1 + h - 1), slice(b0, b1 + w - 1)), h, w)
         return ok
