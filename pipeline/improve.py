@@ -20,7 +20,8 @@ own HPWL is smallest. One *round*:
    its class nearest the target (a k-d tree per class, queried in one
    batch; a class of at most ``BRUTE_FORCE_SLOTS`` slots uses one
    distance matrix instead, so small boards do not import scipy) are its
-   candidate swaps.
+   candidate swaps. The slots never move, so a part whose target did not change since its
+   last query keeps the candidate slots found then (only the others are queried again).
 3. Every candidate swap ``(i, j)`` is evaluated at once with numpy: the
    change of HPWL of every net of ``i`` when ``i`` moves to ``j``'s slot,
    plus the same for ``j``; nets holding both parts do not change and are

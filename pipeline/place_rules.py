@@ -60,9 +60,12 @@ origins are searched in a window round the goal, widened only as far as the best
 allows (or, with no trade, until nothing outside can be nearer), read from free origins kept
 for the whole board per height level and courtyard size and mended where a part moves; trades
 are tried in order of a lower bound of their distance, ring by ring round the goal (12, 24,
-48 mm ...), the bounds of a ring's candidates computed when it is read. Cost: O(window cells + n)
-per moved part for n parts (the n a few vector operations per ring over the size class), the
-window about the rule's distance (the trade's) across.
+48 mm ... by a cheaper bound from the courtyard centre, never past the best trade found or the
+part's own distance), the bounds of a ring's candidates computed when it is read; partners whose
+own near rule would surely break in the mover's slot (a bound from their goal's bounding box) are
+dropped with vector operations before that. Cost: O(window cells + n) per moved part for n parts
+(the n a few vector operations per ring over the size class), the window about the rule's
+distance (the trade's) across.
 
 Defaults (common practice, from memory)
 ---------------------------------------
