@@ -20,7 +20,8 @@ own HPWL is smallest. One *round*:
    its class nearest the target (a k-d tree per class, queried in one
    batch; a class of at most ``BRUTE_FORCE_SLOTS`` slots uses one
    distance matrix instead, so small boards do not import scipy) are its
-   candidate swaps.
+   candidate swaps. The slots never move, so a part whose target did not change since its
+   last query keeps the candidate slots found then (only the others are queried again).
 3. Every candidate swap ``(i, j)`` is evaluated at once with numpy: the
    change of HPWL of every net of ``i`` when ``i`` moves to ``j``'s slot,
    plus the same for ``j``; nets holding both parts do not change and are
@@ -231,6 +232,10 @@ class _Swaps:
     trees: list
     eligible: np.ndarray  # (n,) bool: in a group of two or more and on a kept net
     movable: np.ndarray  # parts that look for a swap this round (the other side may be any group member)
+    # kept between rounds: per part the target of its last query and the slots (group order) of
+    # its candidates then (the slots never move, so the same target has the same candidates)
+    target: np.ndarray = None  # (n, 2), NaN: not asked yet
+    near: np.ndarray = None  # (n, SWAP_CANDIDATES) slot indices inside the group
 
 
 def _setup(groups: Sequence[Sequence[int]], xy: np.ndarray, opt: list[list[int]],
@@ -255,7 +260,7 @@ def _setup(groups: Sequence[Sequence[int]], xy: np.ndarray, opt: list[list[int]]
     eligible = (group_of >= 0) & (pins.deg > 0)
     eligible &= np.array([g >= 0 and trees[g] is not None for g in group_of], dtype=bool)
     st = _Swaps(pins, nets_of, len(opt), pos, np.arange(n), group_of, occupant, where, trees, eligible,
-                np.zeros(0, dtype=np.int64))
+                np.zeros(0, dtype=np.int64), np.full((n, 2), np.nan), np.zeros((n, SWAP_CANDIDATES), dtype=np.int64))
     _look_at(st, None if movers is None else np.fromiter(movers, dtype=np.int64))
     return st
 
@@ -280,14 +285,22 @@ def _neighbours(st: _Swaps, parts: np.ndarray) -> np.ndarray:
 
 def _candidates(st: _Swaps, tgt: np.ndarray) -> np.ndarray:
     """Candidate swaps ``(i, j)``: each movable part with the occupants of the ``SWAP_CANDIDATES``
-    slots of its group nearest its target (step 2 of the module notes)."""
+    slots of its group nearest its target (step 2 of the module notes). The slots never move, so
+    a part whose target is the one of its last query keeps its slots: only the parts whose target
+    changed are queried again (the same answer as querying every part)."""
     gmov = st.group_of[st.movable]
+    moved = ~np.all(st.target[st.movable] == tgt, axis=1)  # NaN (never asked) compares unequal
     pairs = []
     for g in np.unique(gmov):
-        sel = st.movable[gmov == g]
+        here = gmov == g
+        sel = st.movable[here]
         k = min(SWAP_CANDIDATES, len(st.occupant[g]))
-        cand = np.asarray(st.trees[g].query(tgt[gmov == g], k)).reshape(len(sel), k)
-        pairs.append(np.stack((np.repeat(sel, k), st.occupant[g][cand].reshape(-1)), axis=1))
+        ask = moved[here]
+        if ask.any():
+            who = sel[ask]
+            st.near[who, :k] = np.asarray(st.trees[g].query(tgt[here][ask], k)).reshape(len(who), k)
+        pairs.append(np.stack((np.repeat(sel, k), st.occupant[g][st.near[sel, :k]].reshape(-1)), axis=1))
+    st.target[st.movable] = tgt
     pairs = np.concatenate(pairs)
     return pairs[pairs[:, 0] != pairs[:, 1]]
 

@@ -60,9 +60,12 @@ origins are searched in a window round the goal, widened only as far as the best
 allows (or, with no trade, until nothing outside can be nearer), read from free origins kept
 for the whole board per height level and courtyard size and mended where a part moves; trades
 are tried in order of a lower bound of their distance, ring by ring round the goal (12, 24,
-48 mm ...), the bounds of a ring's candidates computed when it is read. Cost: O(window cells + n)
-per moved part for n parts (the n a few vector operations per ring over the size class), the
-window about the rule's distance (the trade's) across.
+48 mm ... by a cheaper bound from the courtyard centre, never past the best trade found or the
+part's own distance), the bounds of a ring's candidates computed when it is read; partners whose
+own near rule would surely break in the mover's slot (a bound from their goal's bounding box) are
+dropped with vector operations before that. Cost: O(window cells + n) per moved part for n parts
+(the n a few vector operations per ring over the size class), the window about the rule's
+distance (the trade's) across.
 
 Defaults (common practice, from memory)
 ---------------------------------------
@@ -271,6 +274,22 @@ def _rect(it: PlaceItem, x: float, y: float, rot: int) -> tuple[float, float, fl
     return (x - dx / 2, y - dy / 2, x + dx / 2, y + dy / 2)
 
 
+def _edge_distance(edge: BaseGeometry, boxes: np.ndarray) -> np.ndarray:
+    """``shapely.distance(edge, boxes)`` (mm) for the lines ``edge``: the distance to the nearest of
+    its segments, found in an STRtree of the segments (the same GEOS segment distances, so the same
+    figures; a 558-vertex edge and 40,000 boxes took 1.2 s instead of 1.6 s here). Cost:
+    O(boxes x log segments)."""
+    segs = []
+    for line in shapely.get_parts(edge):
+        c = shapely.get_coordinates(line)
+        segs.append(shapely.linestrings(np.stack((c[:-1], c[1:]), axis=1)))
+    (at, _seg), d = shapely.STRtree(np.concatenate(segs)).query_nearest(boxes, return_distance=True,
+                                                                        all_matches=False)
+    out = np.full(len(boxes), np.inf)
+    out[at] = d
+    return out
+
+
 def _spots(it: PlaceItem, allowed: BaseGeometry, edge: BaseGeometry, zone) -> tuple | None:
     """Every legal candidate centre of ``it`` on an empty board: (x, y, rotation, boxes, tier,
     distance to the edge, distance to the zone or None), in both orientations."""
@@ -286,7 +305,7 @@ def _spots(it: PlaceItem, allowed: BaseGeometry, edge: BaseGeometry, zone) -> tu
         boxes = shapely.box(x - dx / 2, y - dy / 2, x + dx / 2, y + dy / 2)
         ok = shapely.covers(allowed, boxes)
         x, y, boxes = x[ok], y[ok], boxes[ok]
-        de = np.round(shapely.distance(edge, boxes), 6)
+        de = np.round(_edge_distance(edge, boxes), 6)
         dz = np.round(shapely.distance(zone, boxes), 6) if zone is not None else np.full(len(x), np.inf)
         if zone is not None:
             inside = shapely.contains_xy(zone, x, y)
@@ -434,6 +453,8 @@ class _TopBoard:
         self.goals: dict[tuple, tuple] = {}
         self.reach: dict[int, float] = {}  # item -> farthest pad offset (pad_reach)
         self.maps: dict[tuple[int, int, int], np.ndarray] = {}  # (level, h, w) -> free origins
+        self.fixed = fixed
+        self._partners: _Partners | None = None  # the swap search's view of the near rules (partners)
         for j, slot in run.slots.items():
             self._put(j, slot, 1)
         for side, rect in fixed.values():
@@ -452,17 +473,6 @@ class _TopBoard:
                 if a1 > a0 and b1 > b0:
                     ok[a0:a1, b0:b1] = _window_test(self._free(lvl, slice(a0, a1 + h - 1), slice(b0, b1 + w - 1)), h, w)
 
-    def reach_box(self, i: int, goal: np.ndarray, reach: float) -> tuple[tuple[int, int, int, int], bool]:
-        """Grid rows and columns ``(r0, r1, c0, c1)``, bounds included, holding the origin of every
-        slot in which a pad of ``i``'s package comes within ``reach`` mm of a ``goal`` point (the
-        goal's box grown by ``reach``, the courtyard's longer side and the pads' farthest offset);
-        and whether that box holds the whole board."""
-        g, it = self.g, self.packer.items[i]
-        offs = [abs(v) for t in (0, 90) for _p, dx, dy, _t in turned_pads(it.near.own_package, t, "top", it.near.level)
-                for v in (dx, dy)]
-        box = _window(g, goal, reach + max(it.length_mm, it.width_mm) + max(offs, default=0.0) + g.cell)
-        return box, box[0] == 0 and box[2] == 0 and box[1] >= g.ny and box[3] >= g.nx
-
     def _free(self, lvl: int, rows: slice, cols: slice) -> np.ndarray:
         """Cells of the window inside level ``lvl``'s mask and under no top-side courtyard."""
         return self.packer.mask(lvl)[rows, cols] & (self.occ[rows, cols] == 0)
@@ -471,21 +481,23 @@ class _TopBoard:
         """Origins (rows ``span[0]:span[1]``, columns ``span[2]:span[3]``, inside the board's
         ``ny - h + 1`` by ``nx - w + 1`` origins) where item ``i``'s ``h`` x ``w`` courtyard covers
         only cells :meth:`free` for it: the kept whole-board origins of its level, with those whose
-        courtyard meets ``i``'s own recomputed without it. Cost: the window's cells once plus the
-        window test over ``i``'s own courtyard grown by ``h`` x ``w``."""
+        courtyard meets ``i``'s own recomputed without it (a read-only view of the kept origins when
+        none does). Cost: the window test over ``i``'s own courtyard grown by ``h`` x ``w``, plus a
+        copy of the window's cells when that meets the window."""
         lvl = self.run.top_level[i]
         r0, r1, c0, c1 = span
         ok = self.maps.get((lvl, h, w))
         if ok is None:
             g = self.g
             ok = self.maps[(lvl, h, w)] = _window_test(self._free(lvl, slice(0, g.ny), slice(0, g.nx)), h, w)
-        ok = ok[r0:r1, c0:c1].copy()
+        ok = ok[r0:r1, c0:c1]  # a view: copied only when i's own courtyard meets the window
         slot = self.run.slots[i]
         if slot[0] == "top":
             e0, e1, f0, f1 = cells_of(self.g, self.packer.rect(i, slot))
             a0, a1 = max(r0, e0 - h + 1), min(r1, e1)
             b0, b1 = max(c0, f0 - w + 1), min(c1, f1)
             if a1 > a0 and b1 > b0:
+                ok = ok.copy()
                 ok[a0 - r0:a1 - r0, b0 - c0:b1 - c0] = _window_test(
                     self.free(i, slice(a0, a1 + h - 1), slice(b0, b1 + w - 1)), h, w)
         return ok
@@ -513,6 +525,15 @@ class _TopBoard:
         self._put(j, self.run.slots[j], -1)
         self.run.slots[j] = slot
         self._put(j, slot, 1)
+        if self._partners is not None:
+            self._partners.moved(j)
+
+    @property
+    def partners(self) -> "_Partners":
+        """The near rules of the swap partners as arrays (:class:`_Partners`), made on first use."""
+        if self._partners is None:
+            self._partners = _Partners(self)
+        return self._partners
 
     def free(self, i: int, rows: slice, cols: slice) -> np.ndarray:
         """Cells of the window ``rows`` x ``cols`` that item ``i`` may cover: inside its level's mask
@@ -627,35 +648,128 @@ def _swap_bounds(board: _TopBoard, i: int, goal: np.ndarray, cand: np.ndarray) -
     return low - 1e-9
 
 
-def _swap_order(board: _TopBoard, i: int, goal: np.ndarray):
-    """``(j, bound)`` for every swap candidate of ``i`` (:func:`_swap_candidates`) in the order of
-    ``np.lexsort((cand, bound))`` (:func:`_swap_bounds`), lazily, ring by ring: first those with a
-    bound within :data:`SWAP_REACH_MM` of the goal (their origins lie in
-    :meth:`_TopBoard.reach_box`), then those within twice that, and so on; once the box holds the
-    board, the rest. Each candidate's bound is computed once, when its origin first lies in a box.
-    The caller stops at its first bound past the best trade, so most searches sort one ring, not
-    the size class. Cost: O(n) array work per ring read (a few vector operations) plus the bounds
-    and sorting of the candidates read."""
+def _box_distance(cx: np.ndarray, cy: np.ndarray, box) -> np.ndarray:
+    """Distance (mm) from each point (``cx``, ``cy``) to the axis-aligned box ``(x1, y1, x2, y2)``
+    (columns of an array, or one box for every point): 0 inside, else to its nearest side or corner;
+    at most the distance to any point in the box."""
+    b = np.asarray(box, dtype=float)
+    ex = np.maximum(np.maximum(b[..., 0] - cx, cx - b[..., 2]), 0.0)
+    ey = np.maximum(np.maximum(b[..., 1] - cy, cy - b[..., 3]), 0.0)
+    return np.hypot(ex, ey)
+
+
+def _swap_order(board: _TopBoard, i: int, goal: np.ndarray, drop=None, cut=lambda: math.inf):
+    """The swap candidates of ``i`` (:func:`_swap_candidates`) ring by ring, as ``(items, bounds)``
+    arrays each in the order of ``np.lexsort((items, bounds))`` (:func:`_swap_bounds`), lazily.
+
+    A ring is read by a cheap lower bound of every candidate's bound (its courtyard centre's
+    distance to the goal's bounding box less the farthest pad offset of ``i``'s package and 1e-5 mm
+    for the pads' rounding, O(n) vector operations once): first the candidates whose cheap bound is
+    within :data:`SWAP_REACH_MM`, then within twice that, and so on, and never one whose cheap
+    bound is past ``cut()`` (the caller's best trade so far, mm: such a candidate is never taken).
+    A ring yields the candidates read whose bound lies past the earlier rings' reach and within its
+    own, so every bound of a ring is at least every bound of the rings before it; the last ring
+    (its reach past every cheap bound or past ``cut()``) yields all the rest read. Each
+    candidate's bound is computed once, when it is first read, and only when ``drop`` (a function
+    of an array of items, True for the ones never to be yielded) keeps it. The caller stops at its
+    first bound past the best trade, so most searches sort one ring, not the size class. Cost: O(n)
+    array work per ring plus the bounds and sorting of the candidates read."""
     cand = _swap_candidates(board, i)
-    rows, cols = board.row[cand], board.col[cand]
+    g, it = board.g, board.packer.items[i]
+    turned = board.turn[cand] != 0
+    cx = g.x0 + board.col[cand] * g.cell + np.where(turned, it.width_mm, it.length_mm) / 2
+    cy = g.y0 + board.row[cand] * g.cell + np.where(turned, it.length_mm, it.width_mm) / 2
+    cheap = _box_distance(cx, cy, (*goal.min(axis=0), *goal.max(axis=0))) - board.pad_reach(i) - 1e-5
+    top = float(cheap.max()) if len(cand) else -math.inf
     low = np.full(len(cand), np.nan)
+    gone = np.zeros(len(cand), dtype=bool)
     lo_cut, reach = -math.inf, SWAP_REACH_MM
     while True:
-        (r0, r1, c0, c1), whole = board.reach_box(i, goal, reach)
-        inside = np.ones(len(cand), dtype=bool) if whole else (rows >= r0) & (rows <= r1) & (cols >= c0) & (cols <= c1)
-        new = np.flatnonzero(inside & np.isnan(low))
+        now = cut() + 1e-6
+        last = reach >= top or now <= reach
+        new = np.flatnonzero(np.isnan(low) & (cheap <= min(reach, now)))
+        if drop is not None and len(new):
+            out = drop(cand[new])
+            gone[new[out]] = True
+            low[new[out]] = np.inf
+            new = new[~out]
         low[new] = _swap_bounds(board, i, goal, cand[new])
-        cut = math.inf if whole else reach - 1e-6
-        ring = inside & (low > lo_cut) & (low <= cut)
-        yield from _sorted_pairs(cand[ring], low[ring])
-        if whole:
+        hi = math.inf if last else reach - 1e-6
+        ring = ~np.isnan(low) & ~gone & (low > lo_cut) & (low <= hi)
+        order = np.lexsort((cand[ring], low[ring]))
+        yield cand[ring][order], low[ring][order]
+        if last:
             return
-        lo_cut, reach = cut, 2 * reach
+        lo_cut, reach = hi, 2 * reach
 
 
-def _sorted_pairs(cand: np.ndarray, low: np.ndarray):
-    order = np.lexsort((cand, low))
-    return zip(cand[order].tolist(), low[order].tolist())
+class _Partners:
+    """The near rules of the swap search's partners as arrays, so a ring of candidates whose own rule
+    would surely break in the mover's slot is turned down with a few vector operations instead of
+    one :func:`_far_for` per candidate (77 per mover at 16,000 parts, issue 11).
+
+    Per item with a near rule: its target (``tgt``, -1 for none), its limit (``within_mm`` plus
+    :data:`TOL`), its farthest pad offset (:meth:`_TopBoard.pad_reach`) and the bounding box of its
+    goal points (:meth:`_TopBoard.goal` at the target's place), the last two worked out when the item
+    is first a candidate and the box again after its target moved (:meth:`moved`)."""
+
+    def __init__(self, board: _TopBoard) -> None:
+        items = board.packer.items
+        n = len(items)
+        self.board = board
+        self.tgt = np.full(n, -1, dtype=np.int64)
+        self.limit = np.zeros(n)
+        self.length = np.array([it.length_mm for it in items], dtype=float)
+        self.width = np.array([it.width_mm for it in items], dtype=float)
+        self.reach = np.zeros(n)
+        self.box = np.full((n, 4), np.nan)  # goal box (x1, y1, x2, y2); NaN: not worked out yet
+        self.by_target: dict[int, list[int]] = {}
+        for j, it in enumerate(items):
+            if it.near is not None:
+                t = board.index[it.near.target]
+                self.tgt[j], self.limit[j] = t, it.near.within_mm + TOL
+                self.by_target.setdefault(t, []).append(j)
+
+    def moved(self, k: int) -> None:
+        """Item ``k`` moved: the goal boxes of the items whose target it is are stale."""
+        for j in self.by_target.get(k, ()):
+            self.box[j] = np.nan
+
+    def _fill(self, js: np.ndarray) -> None:
+        board = self.board
+        for j in js.tolist():
+            rule = board.packer.items[j].near
+            there = _where(board.packer, board.run, board.fixed, int(self.tgt[j]))
+            pts = board.goal(rule, there) if there is not None else np.zeros((0, 2))
+            # no place or no goal point: the exact test turns the partner down, so does the box
+            self.box[j] = (*pts.min(axis=0), *pts.max(axis=0)) if len(pts) else (np.inf, np.inf, -np.inf, -np.inf)
+            self.reach[j] = board.pad_reach(j)
+
+    def surely_off(self, i: int, slot, cand: np.ndarray) -> np.ndarray:
+        """For each candidate ``j``: True when trading it into ``i``'s ``slot`` surely breaks its own
+        near rule (its target is ``i``, or a lower bound of its pads' distance to its goal exceeds its
+        limit), False when the exact test (:func:`_far_for`, :func:`_slot_distance`) must decide.
+        The bound: the distance from ``j``'s courtyard centre in ``slot`` to its goal's bounding box
+        (at most the distance to the nearest goal point) less its farthest pad offset, 1e-5 mm for
+        the pads' rounding and 1e-6 mm more for this arithmetic's own rounding: never more than
+        :func:`_far_for`'s bound, so it turns down only partners that test turns down. Cost: a few
+        vector operations over ``cand`` plus one goal per partner not seen before."""
+        out = np.zeros(len(cand), dtype=bool)
+        has = np.flatnonzero(self.tgt[cand] >= 0)
+        if not len(has):
+            return out
+        js = cand[has]
+        stale = np.isnan(self.box[js, 0])
+        if stale.any():
+            self._fill(js[stale])
+        g = self.board.g
+        x = g.x0 + slot[3] * g.cell
+        y = g.y0 + slot[2] * g.cell
+        dx, dy = (self.width[js], self.length[js]) if slot[1] else (self.length[js], self.width[js])
+        cx, cy = x + dx / 2, y + dy / 2
+        far = _box_distance(cx, cy, self.box[js]) - self.reach[js] - 1e-5 - 1e-6 > self.limit[js]
+        out[has] = far | (self.tgt[js] == i)
+        return out
 
 
 def _nearest_swap(board: _TopBoard, fixed: dict, i: int, goal: np.ndarray, here: float):
@@ -663,27 +777,40 @@ def _nearest_swap(board: _TopBoard, fixed: dict, i: int, goal: np.ndarray, here:
     nearest ``goal``; a trade keeps both legal when each may stand, by height, in the other's cells
     (the cells are the same); a part with a near rule of its own is taken only when ``i``'s old slot
     still meets it. Candidates are visited by a lower bound of their distance (:func:`_swap_order`)
-    and the search stops once the bound passes the best found: the same answer as trying them all.
+    and the search stops once the bound passes the best found or ``here`` (a trade no nearer than
+    ``here`` is never the answer): the same answer as trying them all. Partners whose own rule
+    surely breaks are dropped before their bounds are worked out (:meth:`_Partners.surely_off`).
     ``here``: ``i``'s own distance (mm, rounded as the trades'); None when no trade comes nearer."""
     packer, run, index = board.packer, board.run, board.index
     best = None
-    for j, lb in _swap_order(board, i, goal):
-        if best is not None and lb - 1e-6 > best[0]:
+    mine = run.slots[i]
+
+    def cut() -> float:  # a trade no nearer than this is never the answer
+        return here if best is None else min(best[0], here)
+
+    for ring, lows in _swap_order(board, i, goal, lambda c: board.partners.surely_off(i, mine, c), cut):
+        m = int(np.searchsorted(lows, cut() + 1e-6, side="right"))  # bounds past cut: never taken
+        last = m < len(ring)  # the later rings' bounds are larger still
+        for j, lb in zip(ring[:m].tolist(), lows[:m].tolist()):
+            if lb - 1e-6 > cut():
+                last = True
+                break
+            other = packer.items[j].near
+            if other is not None:
+                there = _where(packer, run, fixed, index[other.target])
+                if there is None or index[other.target] == i:
+                    continue
+                theirs = board.goal(other, there)
+                if not len(theirs) or _far_for(board, j, run.slots[i], theirs, other.within_mm + TOL) \
+                        or _slot_distance(packer, j, run.slots[i], theirs) > other.within_mm + TOL:
+                    continue
+            if not (_stands(packer, run, i, run.slots[j]) and _stands(packer, run, j, run.slots[i])):
+                continue
+            d = round(_slot_distance(packer, i, run.slots[j], goal), 6)
+            if best is None or (d, j) < best:
+                best = (d, j)
+        if last:
             break
-        other = packer.items[j].near  # the test that turns most candidates down comes first
-        if other is not None:
-            there = _where(packer, run, fixed, index[other.target])
-            if there is None or index[other.target] == i:
-                continue
-            theirs = board.goal(other, there)
-            if not len(theirs) or _far_for(board, j, run.slots[i], theirs, other.within_mm + TOL) \
-                    or _slot_distance(packer, j, run.slots[i], theirs) > other.within_mm + TOL:
-                continue
-        if not (_stands(packer, run, i, run.slots[j]) and _stands(packer, run, j, run.slots[i])):
-            continue
-        d = round(_slot_distance(packer, i, run.slots[j], goal), 6)
-        if best is None or (d, j) < best:
-            best = (d, j)
     if best is None or best[0] >= here:
         return None
     return best

@@ -124,3 +124,32 @@ def test_shared_net_lookups_skip_lengthened_nets_with_the_same_result(seed, monk
     every = improve_swaps([list(range(len(xy)))], xy, nets, 32)
     assert slot.tolist() == every.tolist()
     assert 0 < filtered < 0.6 * looked[0]
+
+
+@pytest.mark.parametrize("seed", [3, 11])
+def test_kept_candidate_slots_give_the_same_swaps_with_fewer_queries(seed, monkeypatch):
+    # A part whose target did not change keeps the candidate slots of its last query (the slots never
+    # move). Reference: the pass with every part queried every round (the kept targets forgotten
+    # before each round); the slots must be the same and the queried points (counted) fewer.
+    xy, nets = _random_board(seed, n=200)
+    asked = [0]
+    query = _NearestSlots.query
+
+    def counting(self, at, k):
+        asked[0] += len(at)
+        return query(self, at, k)
+
+    monkeypatch.setattr(_NearestSlots, "query", counting)
+    groups = [list(range(0, 200, 2)), list(range(1, 200, 2))]
+    kept = improve_swaps(groups, xy, nets, 32, min_gain=0.0)
+    with_cache = asked[0]
+    asked[0] = 0
+    real = improve._candidates
+
+    def forgetting(st, tgt):
+        st.target[:] = np.nan
+        return real(st, tgt)
+
+    monkeypatch.setattr(improve, "_candidates", forgetting)
+    assert improve_swaps(groups, xy, nets, 32, min_gain=0.0).tolist() == kept.tolist()
+    assert with_cache < asked[0]

@@ -637,3 +637,30 @@ def test_repair_swaps_keep_near_parts_and_shorten_the_nets(monkeypatch, n):
     assert any(c.get("locked") for c in calls)  # the near pass traded something here, and it was repaired
     assert fit.wirelength_mm == pytest.approx(_ptp_wirelength(nets, *zip(*[
         next((p.x_mm, p.y_mm) for p in fit.placements if p.ref == it.ref) for it in items])))
+
+
+@given(st.lists(st.tuples(st.floats(-2, 22), st.floats(-2, 12), st.floats(0.2, 5), st.floats(0.2, 5)),
+                min_size=1, max_size=25))
+@settings(max_examples=50, deadline=None)
+def test_self_check_rejects_what_plain_shapely_rejects(rects):
+    # reference: shapely.covers and shapely.intersection on unprepared geometry, rule by rule: a
+    # courtyard leaving the area (a disc with a notch) or the zone allowing its height, or
+    # overlapping an earlier one by area, is rejected
+    import types
+
+    from pipeline.place import TOL, _self_check
+
+    area = shapely.difference(shapely.Point(10, 5).buffer(9, quad_segs=8), box(9, 0, 11, 3))
+    zone = box(0, 0, 14, 10)
+    packer = types.SimpleNamespace(area=area, zones=[(2.0, zone)], items=[PlaceItem(f"R{k}", 1, 1, 1.0, ())
+                                                                          for k in range(len(rects))],
+                                   level=lambda h: 0 if h <= 2.0 else None,
+                                   zone_union=lambda k: zone)
+    got_rects = {k: (x, y, x + w, y + h) for k, (x, y, w, h) in enumerate(rects)}
+    got = _self_check(packer, {k: "top" for k in got_rects}, got_rects, 0.0)
+    plain_area, plain_zone = area.buffer(TOL, join_style="mitre"), zone.buffer(TOL, join_style="mitre")
+    courts = [box(*r) for r in got_rects.values()]
+    want = {k for k, c in enumerate(courts) if not plain_area.covers(c) or not plain_zone.covers(c)}
+    want |= {b for a in range(len(courts)) for b in range(a + 1, len(courts))
+             if courts[a].intersection(courts[b]).area > 1e-9}
+    assert got == want

@@ -11,6 +11,7 @@ import math
 from pathlib import Path
 
 import ezdxf
+import numpy as np
 import pytest
 import shapely
 from click.testing import CliRunner
@@ -317,8 +318,9 @@ def test_near_pass_windows_give_the_whole_board_answer_and_scan_less(monkeypatch
     board = -min(seen)
     assert windows and sum(windows) < 0.25 * board * len(windows)
     monkeypatch.setattr(pr, "_window", lambda g, goal, reach: (0, g.ny, 0, g.nx))  # every origin, at once
-    monkeypatch.setattr(pr, "_swap_order",  # every candidate, none passed over by a bound
-                        lambda board, i, goal: ((j, -math.inf) for j in pr._swap_candidates(board, i).tolist()))
+    monkeypatch.setattr(pr, "_swap_order",  # every candidate in one ring, none passed over by a bound
+                        lambda board, i, goal, drop=None, cut=None: iter([(
+                            c, np.full(len(c), -math.inf)) for c in [pr._swap_candidates(board, i)]]))
     assert _placed(place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE))) == fast
 
 
@@ -673,3 +675,82 @@ def test_far_for_is_a_lower_bound_of_the_pad_distance(x, y, goal, limit):
         pts = np.array(goal, dtype=float)
         if pr._far_for(board, k, ("top", turn, 0, 0), pts, limit):
             assert pr._slot_distance(packer, k, ("top", turn, 0, 0), pts) > limit
+
+
+@given(st.floats(-50, 50), st.floats(-50, 50), st.floats(-20, 20), st.floats(-20, 20), st.floats(0, 15),
+       st.floats(0, 15))
+@settings(max_examples=80, deadline=None)
+def test_box_distance_is_shapelys_point_to_box_distance(x, y, x1, y1, w, h):
+    # reference: shapely.distance (GEOS) from a point to a rectangle, 0 inside
+    import pipeline.place_rules as pr
+
+    want = shapely.distance(shapely.Point(x, y), box(x1, y1, x1 + w, y1 + h))
+    got = float(pr._box_distance(np.array([x]), np.array([y]), (x1, y1, x1 + w, y1 + h))[0])
+    assert got == pytest.approx(want, abs=1e-9)
+
+
+@pytest.mark.parametrize("ics, caps, resistors, w, h", [(4, 3, 16, 26, 17), (6, 2, 30, 30, 20), (8, 3, 60, 40, 26)])
+def test_swap_search_drops_partners_in_vectors_with_the_same_placement(monkeypatch, ics, caps, resistors, w, h):
+    """The swap search's vector test of the partners' own near rules (``_Partners.surely_off``: the
+    distance to the goal's box less the farthest pad offset) turns partners down without a
+    ``_far_for`` call each, and the placement is the one made with that test switched off (every
+    partner then goes through the exact test); a cost guard counting calls, not seconds."""
+    import pipeline.place_rules as pr
+
+    design, _ = read_design_text(_decoupled(ics, caps, resistors), LIB)
+    items = items_from_design(design, LIB, "nominal")
+    region = Region(box(0, 0, w, h), (HeightZone(box(0, 0, w, h), 5.0),), 0.8)
+    calls: list[int] = []
+    real_far = pr._far_for
+    monkeypatch.setattr(pr, "_far_for", lambda *a: (calls.append(1), real_far(*a))[1])
+    fast = _placed(place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE)))
+    with_vectors = len(calls)
+    calls.clear()
+    monkeypatch.setattr(pr._Partners, "surely_off", lambda self, i, slot, cand: np.zeros(len(cand), dtype=bool))
+    assert _placed(place_and_fit(items, region, BoardOptions(edge_clearance_mm=EDGE))) == fast
+    assert with_vectors < len(calls)
+
+
+@given(st.floats(-20, 20), st.floats(-20, 20), st.lists(st.tuples(st.floats(-30, 30), st.floats(-30, 30)),
+                                                        min_size=1, max_size=6), st.floats(0, 40),
+       st.integers(0, 1))
+@settings(max_examples=80, deadline=None)
+def test_surely_off_only_turns_down_partners_the_exact_test_turns_down(x, y, goal, limit, turn):
+    # reference: the exact distance of pipeline.place_rules._slot_distance (pads laid out one by one)
+    # for an 0603 capacitor with a near rule: the vector test may only say "off" when it exceeds limit
+    import types
+
+    import pipeline.place_rules as pr
+
+    design, _ = read_design_text(_decoupled(1, 1, 0), LIB)
+    items = items_from_design(design, LIB, "nominal")
+    k = next(n for n, it in enumerate(items) if it.near is not None)
+    it = items[k]
+    dx, dy = (it.width_mm, it.length_mm) if turn else (it.length_mm, it.width_mm)
+    packer = types.SimpleNamespace(items=items, rect=lambda i, s: (x, y, x + dx, y + dy))
+    grid = types.SimpleNamespace(x0=x, y0=y, cell=0.05)
+    index = {p.ref: n for n, p in enumerate(items)}
+    board = types.SimpleNamespace(packer=packer, g=grid, index=index, reach={}, run=None, fixed=None)
+    board.pad_reach = lambda j: pr._TopBoard.pad_reach(board, j)
+    pts = np.array(goal, dtype=float)
+    part = pr._Partners(board)
+    part.limit[k] = limit
+    part.box[k] = (*pts.min(axis=0), *pts.max(axis=0))
+    part.reach[k] = board.pad_reach(k)
+    part.tgt[k] = len(items)  # never the mover
+    if part.surely_off(-1, ("top", turn, 0, 0), np.array([k]))[0]:
+        assert pr._slot_distance(packer, k, ("top", turn, 0, 0), pts) > limit
+
+
+@given(st.lists(st.tuples(st.floats(-40, 40), st.floats(-40, 40), st.floats(0.1, 6), st.floats(0.1, 6)),
+                min_size=1, max_size=30))
+@settings(max_examples=60, deadline=None)
+def test_edge_distance_is_shapelys_distance(rects):
+    # reference: shapely.distance (GEOS) from the outer edge (two rings, one a 64-gon) to each box
+    import pipeline.place_rules as pr
+
+    area = shapely.union_all([shapely.Point(0, 0).buffer(20, quad_segs=16), box(25, -5, 35, 5)])
+    edge = pr._outer_edge(area)
+    x, y, w, h = (np.array(c) for c in zip(*rects))
+    boxes = shapely.box(x, y, x + w, y + h)
+    assert pr._edge_distance(edge, boxes).tolist() == shapely.distance(edge, boxes).tolist()
