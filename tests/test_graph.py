@@ -37,3 +37,33 @@ def test_pins_on_net_match_edge_views(net):
     want = sorted(((v[1], d["pin"], d["role"]) for _, v, d in g.edges(net_node(net), data=True)),
                   key=lambda t: (natural_key(t[0]), natural_key(t[1])))
     assert pins_on_net(g, net) == want
+
+
+def test_the_graph_is_built_once_per_design_and_frozen():
+    import networkx as nx
+
+    from pipeline import graph
+
+    d = _design()
+    g = build_graph(d)
+    assert build_graph(d) is g and nx.is_frozen(g)
+    with pytest.raises(nx.NetworkXError):  # shared between callers, so nobody may change it
+        g.add_node(("part", "X1"))
+    other = build_graph(_design())  # an equal design but another object: its own graph
+    assert other is not g and nx.utils.graphs_equal(other, g)
+    assert graph._LAST[0]() is not d
+
+
+def test_a_run_builds_the_graph_once(monkeypatch, tmp_path):
+    """Cost guard (issue 11): the checks and the placement rules share one graph; counted, not timed."""
+    from pathlib import Path
+
+    from pipeline import graph
+    from pipeline.project import load_project, run
+
+    calls = []
+    real = graph._build
+    monkeypatch.setattr(graph, "_build", lambda design: calls.append(design.name) or real(design))
+    demo = Path(__file__).resolve().parents[1] / "demo_project"
+    run(load_project(demo, out=tmp_path / "out"), route=False)
+    assert len(calls) == 1
