@@ -11,7 +11,8 @@ The graph of a design is built once: :func:`build_graph` keeps the last
 graph it built with a weak reference to its design and hands the same,
 frozen graph (:func:`networkx.freeze`: it refuses changes) to every later
 caller with that design object (the checks and the placement rules both ask
-for it, issue 11).
+for it, issue 11); :func:`pin_net_map` keeps its index the same way (the
+value checks, the block analysis and two writers ask for it).
 
 The queries are plain functions over the graph, in the manner of networkx
 algorithms; each costs O(degree) of the node it starts from except
@@ -41,10 +42,12 @@ Examples
 from __future__ import annotations
 
 import weakref
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Callable, TypeVar
 
 from .model import Design, Net, PinRef
 from .order import natural_key
+
+T = TypeVar("T")
 
 if TYPE_CHECKING:  # pragma: no cover - networkx is imported where a graph is built (it is heavy)
     import networkx as nx
@@ -65,6 +68,7 @@ __all__ = [
     "SPICE_GROUND_NODES",
     "SPICE_GROUND_NET",
     "pin_net_map",
+    "pin_order",
 ]
 
 #: Net names that mean ground (0 V when a net declares no voltage), compared
@@ -90,12 +94,33 @@ def is_ground(name: str) -> bool:
     return name.upper() in GROUND_NAMES
 
 
+#: per builder function, the last value built and a weak reference to its design (:func:`_once`)
+_LAST: dict[Callable, tuple] = {}
+
+
+def _once(design: Design, build: Callable[[Design], T]) -> T:
+    """``build(design)``, kept for the same design object (held weakly) until another is asked
+    for: the checks, the placement rules and the writers ask for the same index of one design."""
+    hit = _LAST.get(build)
+    if hit is not None and hit[0]() is design:
+        return hit[1]
+    value = build(design)
+    _LAST[build] = (weakref.ref(design), value)
+    return value
+
+
 def pin_net_map(design: Design) -> dict[PinRef, list[Net]]:
-    """Every connected pin -> the nets it is on, in design order. Cost O(pins).
+    """Every connected pin -> the nets it is on, in design order; shared by every caller with the
+    same design object: do not change it. Cost O(pins) the first time, O(1) after.
 
     A pin listed on two nets (a check finding) maps to both; callers that
     want one take the first.
     """
+    return _once(design, _pin_net_map)
+
+
+def _pin_net_map(design: Design) -> dict[PinRef, list[Net]]:
+    """Build :func:`pin_net_map`'s index. Cost O(pins)."""
     out: dict[PinRef, list[Net]] = {}
     for net in design.nets:
         for p in net.pins:
@@ -111,10 +136,6 @@ def net_node(name: str) -> tuple[str, str]:
     return ("net", name)
 
 
-#: the last graph built and a weak reference to its design (:func:`build_graph`)
-_LAST: list = []
-
-
 def build_graph(design: Design) -> nx.MultiGraph:
     """The part-net graph of ``design``, built once per design object.
 
@@ -124,17 +145,11 @@ def build_graph(design: Design) -> nx.MultiGraph:
     call with the same design object returns the same graph. Cost
     O(parts + pins) the first time, O(1) after.
     """
-    if _LAST and _LAST[0]() is design:
-        return _LAST[1]
-    import networkx as nx
-
-    g = nx.freeze(_build(design))
-    _LAST[:] = [weakref.ref(design), g]
-    return g
+    return _once(design, _build)
 
 
 def _build(design: Design) -> nx.MultiGraph:
-    """Build the graph of :func:`build_graph` (module notes). Cost O(parts + pins)."""
+    """Build the graph of :func:`build_graph` (module notes), frozen. Cost O(parts + pins)."""
     import networkx as nx
 
     g = nx.MultiGraph(design=design.name)
@@ -147,7 +162,7 @@ def _build(design: Design) -> nx.MultiGraph:
             pd = parts[pr.ref].pin(pr.pin)
             g.add_edge(part_node(pr.ref), net_node(n.name), key=pr.pin, pin=pr.pin,
                        pin_name=pd.name, role=pd.role)
-    return g
+    return nx.freeze(g)
 
 
 def parts_on_net(g: nx.MultiGraph, net: str) -> list[str]:
@@ -160,14 +175,16 @@ def nets_of_part(g: nx.MultiGraph, ref: str) -> list[str]:
     return sorted({n[1] for n in g._adj[part_node(ref)]}, key=natural_key)
 
 
-def _pin_key(t: tuple[str, str, str]) -> tuple:
+def pin_order(t: tuple[str, ...]) -> tuple:
+    """Sort key of a ``(ref, pin, ...)`` tuple: natural order of the ref, then of the pin."""
     return natural_key(t[0]), natural_key(t[1])
 
 
-def pins_on_net(g: nx.MultiGraph, net: str) -> list[tuple[str, str, str]]:
-    """``(ref, pin, role)`` of every pin on ``net``, natural order."""
+def pins_on_net(g: nx.MultiGraph, net: str, ordered: bool = True) -> list[tuple[str, str, str]]:
+    """``(ref, pin, role)`` of every pin on ``net``, natural order (``ordered=False``: the graph's
+    order, for a caller that only counts or tests them; saves the sort)."""
     out = [(part[1], d["pin"], d["role"]) for part, keyed in g._adj[net_node(net)].items() for d in keyed.values()]
-    return sorted(out, key=_pin_key) if len(out) > 1 else out
+    return sorted(out, key=pin_order) if ordered and len(out) > 1 else out
 
 
 def pin_count(g: nx.MultiGraph, net: str) -> int:
