@@ -30,6 +30,7 @@ from typing import Any, Iterable
 from . import values as _values
 from .blocktables import OLD_TABLE, TABLE, block_tables
 from .errors import DesignError, Where
+from .gcpause import paused_gc
 from .library.custom import package_from_table
 from .library.kinds import CATEGORIES
 from .model import Package, OLD_PIN_ROLES, PIN_ROLES, Ask, Design, Finding, Fixed, Net, Part, PartKind, PinDef, PinRef, RawTable
@@ -76,8 +77,9 @@ def read_design(path: Path, library: Any, *, display: str | None = None) -> tupl
     DesignError
         Any bad input, naming the file, line and key (or ref / pin).
     """
-    src = load(Path(path), display or str(path), DesignError)
-    return _read(src, library)
+    with paused_gc():  # many long-lived objects and no cycles (pipeline.gcpause)
+        src = load(Path(path), display or str(path), DesignError)
+        return _read(src, library)
 
 
 def read_design_text(text: str, library: Any, *, display: str = "design.toml") -> tuple[Design, list[Finding]]:

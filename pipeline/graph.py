@@ -44,6 +44,7 @@ from __future__ import annotations
 import weakref
 from typing import TYPE_CHECKING, Callable, TypeVar
 
+from .gcpause import paused_gc
 from .model import Design, Net, PinRef
 from .order import natural_key
 
@@ -153,15 +154,16 @@ def _build(design: Design) -> nx.MultiGraph:
     import networkx as nx
 
     g = nx.MultiGraph(design=design.name)
-    for p in design.parts:
-        g.add_node(part_node(p.ref), kind=p.kind, package=p.package, dnp=p.dnp, pins=p.pins)
-    parts = design.by_ref
-    for n in design.nets:
-        g.add_node(net_node(n.name), voltage=n.voltage)
-        for pr in n.pins:
-            pd = parts[pr.ref].pin(pr.pin)
-            g.add_edge(part_node(pr.ref), net_node(n.name), key=pr.pin, pin=pr.pin,
-                       pin_name=pd.name, role=pd.role)
+    with paused_gc():  # many long-lived dicts and no cycles (pipeline.gcpause)
+        for p in design.parts:
+            g.add_node(part_node(p.ref), kind=p.kind, package=p.package, dnp=p.dnp, pins=p.pins)
+        parts = design.by_ref
+        for n in design.nets:
+            g.add_node(net_node(n.name), voltage=n.voltage)
+            for pr in n.pins:
+                pd = parts[pr.ref].pin(pr.pin)
+                g.add_edge(part_node(pr.ref), net_node(n.name), key=pr.pin, pin=pr.pin,
+                           pin_name=pd.name, role=pd.role)
     return nx.freeze(g)
 
 
