@@ -79,7 +79,8 @@ def items_from_design(design: Design, library, density: str,
                            key="board.density")
     override = dict(package_override or {})
     nets_of = _nets_of(design)
-    items = [_item(design, part, library, density, override.get(part.ref, part.package), nets_of)
+    seen: dict[tuple[str, str], tuple] = {}  # (package, kind) -> what _item looked up for them
+    items = [_item(design, part, library, density, override.get(part.ref, part.package), nets_of, seen)
              for part in design.parts if not part.dnp]
     from .place_rules import attach_rules  # where parts must sit (edge, near)
     return attach_rules(items, design, library, density)
@@ -94,19 +95,28 @@ def _nets_of(design: Design) -> dict[str, set[str]]:
     return nets_of
 
 
-def _item(design: Design, part, library, density: str, package: str, nets_of: dict[str, set[str]]) -> PlaceItem:
-    """One part as a placer item, in ``package``'s courtyard at ``density`` (mm)."""
-    where = dict(line=part.line or None, key=f"parts.{part.ref}.package")
-    pkg = library.package(package, file=design.source, **where)
-    try:
-        cy = pkg.courtyard(density)
-    except KeyError:
-        raise DesignError(design.source, f"package {pkg.name!r} has no {density!r} courtyard", **where) from None
+def _item(design: Design, part, library, density: str, package: str, nets_of: dict[str, set[str]],
+          seen: dict[tuple[str, str], tuple]) -> PlaceItem:
+    """One part as a placer item, in ``package``'s courtyard at ``density`` (mm).
+
+    ``seen`` keeps the package, courtyard (mm) and library height (mm) of each package and kind
+    pair once looked up without error, so the library is asked once per pair, not per part."""
+    looked = seen.get((package, part.kind))
+    if looked is None:
+        where = dict(line=part.line or None, key=f"parts.{part.ref}.package")
+        pkg = library.package(package, file=design.source, **where)
+        try:
+            cy = pkg.courtyard(density)
+        except KeyError:
+            raise DesignError(design.source, f"package {pkg.name!r} has no {density!r} courtyard", **where) from None
+        looked = seen[(package, part.kind)] = (pkg, float(cy.length_mm), float(cy.width_mm),
+                                               float(library.part_height(part.kind, pkg)[0]))
+    pkg, length, width, height = looked
     return PlaceItem(
         ref=part.ref,
-        length_mm=float(cy.length_mm),
-        width_mm=float(cy.width_mm),
-        height_mm=float(part.height_mm if part.height_mm is not None else library.part_height(part.kind, pkg)[0]),
+        length_mm=length,
+        width_mm=width,
+        height_mm=float(part.height_mm) if part.height_mm is not None else height,
         nets=tuple(sorted(nets_of.get(part.ref, ()))),
         pin_count=len(part.pins) if part.pins else int(getattr(pkg, "pin_count", 2) or 2),
         package=pkg.name,

@@ -38,7 +38,7 @@ from typing import Callable, Mapping
 
 import networkx as nx
 
-from .graph import part_node, pin_count, pin_nets, pins_on_net, unconnected_pins
+from .graph import part_node, pin_count, pin_nets, pin_order, pins_on_net, unconnected_pins
 from .model import Design, Finding
 from .order import natural_key
 
@@ -112,21 +112,26 @@ def check_unconnected(design: Design, g: nx.MultiGraph, cat: Mapping[str, str]) 
     return out
 
 
+def _named(pins: list[tuple[str, str, str]]) -> list[str]:
+    """``REF.PIN`` of ``pins`` (from :func:`pins_on_net`), in natural order."""
+    return [f"{ref}.{pin}" for ref, pin, _ in sorted(pins, key=pin_order)]
+
+
 def check_drivers(design: Design, g: nx.MultiGraph, cat: Mapping[str, str]) -> list[Finding]:
     out = []
     for n in design.nets:
-        pins = pins_on_net(g, n.name)
+        pins = pins_on_net(g, n.name, ordered=False)  # only the pins a message names are sorted
         if len(pins) < 2:
             continue
         roles = [r for _, _, r in pins]
         if not any(r in _DRIVERS for r in roles):
-            sinks = [f"{ref}.{pin}" for ref, pin, r in pins if r in ("in", "supply")]
+            sinks = _named([t for t in pins if t[2] in ("in", "supply")])
             if sinks:
                 kind = "supply" if all(r == "supply" for r in roles if r != "nc") else "input"
                 out.append(Finding("error", "connect.undriven-input", (n.name, *sinks),
                                    f"Net {n.name} has {kind} pins ({', '.join(sinks)}) but nothing drives it: "
                                    "connect an output, a supply or a resistor to it."))
-        drivers = [f"{ref}.{pin}" for ref, pin, r in pins if r in _PUSH_PULL]
+        drivers = _named([t for t in pins if t[2] in _PUSH_PULL])
         if len(drivers) > 1:
             out.append(Finding("error", "connect.output-conflict", (n.name, *drivers),
                                f"Net {n.name} joins {len(drivers)} push-pull outputs ({', '.join(drivers)}): "

@@ -30,6 +30,7 @@ from typing import Any, Iterable
 from . import values as _values
 from .blocktables import OLD_TABLE, TABLE, block_tables
 from .errors import DesignError, Where
+from .gcpause import paused_gc
 from .library.custom import package_from_table
 from .library.kinds import CATEGORIES
 from .model import Package, OLD_PIN_ROLES, PIN_ROLES, Ask, Design, Finding, Fixed, Net, Part, PartKind, PinDef, PinRef, RawTable
@@ -76,8 +77,9 @@ def read_design(path: Path, library: Any, *, display: str | None = None) -> tupl
     DesignError
         Any bad input, naming the file, line and key (or ref / pin).
     """
-    src = load(Path(path), display or str(path), DesignError)
-    return _read(src, library)
+    with paused_gc():  # many long-lived objects and no cycles (pipeline.gcpause)
+        src = load(Path(path), display or str(path), DesignError)
+        return _read(src, library)
 
 
 def read_design_text(text: str, library: Any, *, display: str = "design.toml") -> tuple[Design, list[Finding]]:
@@ -275,21 +277,42 @@ def _at(src: TomlSource, key: str) -> dict[str, Any]:
     return {"file": src.display, "line": src.line(key), "key": key}
 
 
+#: the keys that place a part (their values carry its line): a table with one is read on its own
+_PLACING_KEYS = ("at", "rotation", "side", "near", "within_mm", "at_edge")
+
+
 def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dict[str, str],
                memo: dict | None = None) -> Part:
     """One ``[parts.REF]`` table as a :class:`Part`: its kind and package (:func:`_part_kind`), value,
-    tolerance and rating (:func:`_part_values`), then the plain keys. Cost O(keys of the table).
+    tolerance and rating (:func:`_part_values`), then the plain keys (:func:`_part_fields`). Cost
+    O(keys of the table).
 
-    ``memo`` keeps what was looked up or parsed from the same text before (a kind and package
-    pair, a value, tolerance or rating), shared by the parts of one file: only text that was
-    read without error is kept, so an error still names the first part that shows it."""
+    ``memo`` keeps what was read from the same text before, shared by the parts of one file: a
+    kind and package pair, a value, tolerance or rating, and the fields of a whole table of plain
+    keys (text, numbers and flags, each with its type: ``dnp = 1`` is not ``dnp = true``), so
+    the many parts that read alike cost one dictionary lookup each. Only text that was read
+    without error is kept, so an error still names the first part that shows it."""
     memo = {} if memo is None else memo
     key = f"parts.{ref}"
     if not _REF_RE.match(ref):
         raise _err(src, key, f"'{ref}' is not a usable reference: start with a letter, then letters, digits or _")
     body = _expect_table(src, key, body)
+    same = None
+    if all(type(v) in (str, int, float, bool) for v in body.values()) and not any(k in body for k in _PLACING_KEYS):
+        same = ("table", tuple((k, type(v), v) for k, v in body.items()))
+    fields = memo.get(same) if same is not None else None
+    if fields is None:
+        fields = _part_fields(src, key, body, lib, default_pkgs, memo)
+        if same is not None:
+            memo[same] = fields
+    return Part(ref=ref, line=src.line(key) or 0, **fields)
+
+
+def _part_fields(src: TomlSource, key: str, body: dict, lib: Any, default_pkgs: dict[str, str],
+                 memo: dict) -> dict[str, Any]:
+    """The fields of :class:`Part` read from the table ``key`` (all but ``ref`` and ``line``)."""
     _unknown(src, key, body, _PART_KEYS)
-    pair = (body.get("kind"), body.get("package"))
+    pair = ("pair", body.get("kind"), body.get("package"))
     plain = all(isinstance(t, str) or t is None for t in pair)  # text only: a usable memo key
     found = memo.get(pair) if plain else None
     if found is None:
@@ -309,13 +332,13 @@ def _read_part(src: TomlSource, ref: str, body: Any, lib: Any, default_pkgs: dic
                                or not 0 < height < 100):
         raise _err(src, f"{key}.height_mm", f"height_mm must be a number of millimetres above 0, "
                                             f"got {height!r}")
-    return Part(
+    return dict(
         fixed=_read_fixed(src, key, body), ask=_read_ask(src, key, body),
-        ref=ref, kind=kind.name, package=package.name, pins=pins, **values,
+        kind=kind.name, package=package.name, pins=pins, **values,
         manufacturer=_expect_str(src, f"{key}.manufacturer", body.get("manufacturer", "")),
         mpn=_expect_str(src, f"{key}.mpn", body.get("mpn", "")),
         note=_expect_str(src, f"{key}.note", body.get("note", "")),
-        dnp=dnp, extra=extra, line=src.line(key) or 0,
+        dnp=dnp, extra=extra,
         height_mm=None if height is None else float(height),
     )
 
@@ -387,9 +410,11 @@ def _resolve_pin(src: TomlSource, key: str, text: str, by_ref: dict[str, Part]) 
         close = [r for r in by_ref if r.lower() == ref.lower()]
         hint = f"; did you mean {close[0]}?" if close else ""
         raise _err(src, key, f"no part '{ref}' in the design{hint}", ref=text)
-    numbers = [p.number for p in part.pins]
-    if pin in numbers:
+    try:
+        part.pin(pin)
         return PinRef(ref, pin)
+    except KeyError:
+        pass
     named = [p.number for p in part.pins if p.name == pin]
     if not named:
         named = [p.number for p in part.pins if p.name.lower() == pin.lower()]

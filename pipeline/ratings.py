@@ -76,6 +76,7 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import dataclass
+from functools import lru_cache
 
 from pipeline.graph import is_ground, pin_net_map
 from pipeline.model import Design, Finding, Net, Part, PinRef
@@ -257,36 +258,38 @@ def _capacitor_type(part: Part) -> str | None:
 # Preferred values
 # --------------------------------------------------------------------------
 def _value_findings(part: Part) -> list[Finding]:
-    unit = _VALUE_UNIT.get(part.kind)
-    if unit is None or part.value is None or not (part.value > 0 and math.isfinite(part.value)):
-        return []
-    v = float(part.value)
+    """The part's ``values.series`` or ``values.off-series`` finding (none for a value of no series
+    unit, or not above 0)."""
+    note = _value_note(part.kind, part.value, part.tolerance)
+    return [] if note is None else [Finding(note[0], note[1], (part.ref,), f"{part.ref} {note[2]}")]
+
+
+@lru_cache(maxsize=4096)  # pure; a design repeats few kind, value and tolerance triples (issue 11)
+def _value_note(kind: str, value: float | None, tolerance: float | None) -> tuple[str, str, str] | None:
+    """``(severity, code, message after the ref)`` of :func:`_value_findings`, or None."""
+    unit = _VALUE_UNIT.get(kind)
+    if unit is None or value is None or not (value > 0 and math.isfinite(value)):
+        return None
+    v = float(value)
     shown = _show(v, unit)
     found = series_of(v)
     if found:
         also = f"; also in {', '.join(found[1:])}" if len(found) > 1 else ""
-        return [
-            Finding(
-                "info",
-                "values.series",
-                (part.ref,),
-                f"{part.ref} {shown} is an {found[0]} preferred value (IEC 60063){also}.",
-            )
-        ]
+        return "info", "values.series", f"{shown} is an {found[0]} preferred value (IEC 60063){also}."
     lo, hi = nearest_in_series(v, "E192")
-    msg = f"{part.ref} {shown} is in no E-series (IEC 60063): nearest E192 values {_show(lo, unit)} and {_show(hi, unit)}"
-    if part.tolerance is not None:
-        tseries = series_for_tolerance(part.tolerance)
-        why = f"its {_pct(part.tolerance)} tolerance suggests {tseries}"
+    msg = f"{shown} is in no E-series (IEC 60063): nearest E192 values {_show(lo, unit)} and {_show(hi, unit)}"
+    if tolerance is not None:
+        tseries = series_for_tolerance(tolerance)
+        why = f"its {_pct(tolerance)} tolerance suggests {tseries}"
     else:
-        tseries = _DEFAULT_SERIES[part.kind]
-        why = f"no tolerance given, {tseries} assumed for a {part.kind}"
+        tseries = _DEFAULT_SERIES[kind]
+        why = f"no tolerance given, {tseries} assumed for a {kind}"
     if tseries == "E192":
         msg += f" ({why})."
     else:
         tlo, thi = nearest_in_series(v, tseries)
         msg += f"; nearest {tseries} values {_show(tlo, unit)} and {_show(thi, unit)} ({why})."
-    return [Finding("warning", "values.off-series", (part.ref,), msg)]
+    return "warning", "values.off-series", msg
 
 
 # --------------------------------------------------------------------------
@@ -520,12 +523,15 @@ def check_values(design: Design) -> tuple[Finding, ...]:
     pin_nets = pin_net_map(design)
     head = _caution(design) + _no_voltages(design)
     per_part: list[tuple[tuple, list[Finding]]] = []
-    in_series: list[Finding] = []
+    in_series: list[Part] = []
     missing: list[_Missing] = []
     for part in design.parts:
         found = _zero_value(part)
-        for f in _value_findings(part):
-            (in_series if f.check == "values.series" else found).append(f)
+        note = _value_note(part.kind, part.value, part.tolerance)
+        if note is not None and note[1] == "values.series":
+            in_series.append(part)  # summarized below: no finding of its own unless it is the only one
+        elif note is not None:
+            found += _value_findings(part)
         if not part.dnp:
             if part.kind in ("capacitor", "capacitor-polarized"):
                 found += _capacitor_findings(part, pin_nets)
@@ -536,8 +542,7 @@ def check_values(design: Design) -> tuple[Finding, ...]:
         if found:
             per_part.append((natural_key(part.ref), found))
     per_part.sort(key=lambda t: t[0])
-    parts = {p.ref: p for p in design.parts}
-    return tuple(head + _series_summary(in_series, parts) + _missing_summary(missing)
+    return tuple(head + _series_summary(in_series) + _missing_summary(missing)
                  + [f for _, fs in per_part for f in fs])
 
 
@@ -551,20 +556,20 @@ def _zero_value(part: Part) -> list:
                     f"remove it (a link is a 0 ohm resistor).")]
 
 
-def _series_summary(found: list[Finding], parts: dict[str, Part]) -> list[Finding]:
+def _series_summary(in_series: list[Part]) -> list[Finding]:
     """One ``values.series`` finding for all parts on preferred values, grouped
     by the coarsest series each belongs to (one line per part would drown
     the findings that need action); a single part keeps its own message."""
-    if len(found) <= 1:
-        return found
+    if len(in_series) <= 1:
+        return [f for part in in_series for f in _value_findings(part)]
     by_series: dict[str, list[str]] = {}
-    refs = sorted((f.subject[0] for f in found), key=natural_key)
-    for ref in refs:
-        part = parts[ref]
+    ordered = sorted(in_series, key=lambda p: natural_key(p.ref))
+    for part in ordered:
         v = float(part.value)
-        by_series.setdefault(series_of(v)[0], []).append(f"{ref} {_show(v, _VALUE_UNIT[part.kind])}")
+        by_series.setdefault(series_of(v)[0], []).append(f"{part.ref} {_show(v, _VALUE_UNIT[part.kind])}")
     order = sorted(by_series, key=lambda name: int(name[1:]))
     groups = "; ".join(f"{name}: {', '.join(by_series[name])}" for name in order)
-    return [Finding("info", "values.series", tuple(refs),
+    refs = tuple(p.ref for p in ordered)
+    return [Finding("info", "values.series", refs,
                     f"{len(refs)} values are IEC 60063 preferred values, each listed under the coarsest "
                     f"series that holds it: {groups}.")]

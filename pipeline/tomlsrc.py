@@ -125,27 +125,52 @@ def _scan_value(rest: str, depth: int, array_key: str | None, elements: int, no:
     return depth, elements, None
 
 
-def _scan_lines(text: str) -> dict[str, int]:
+#: a line the scan can take whole (:func:`_scan_lines`, outside any value): a plain ``[a.b]`` header,
+#: ``key = value`` with a bare key and a value that leaves the scan's state as it was (as
+#: ``_INERT_RE``, or an array of plain basic strings closed on the line), a comment or nothing
+_PLAIN_LINE_RE = re.compile(
+    r"[ \t]*(?:\[(?P<h>[A-Za-z0-9_\-]+(?:\.[A-Za-z0-9_\-]+)*)\][ \t]*(?:#.*)?"
+    r"|(?P<k>[A-Za-z0-9_\-]+)[ \t]*=[^#\"'\[\]{}]*"
+    r"(?:\"[^\"\\]*\"[^#\"'\[\]{}]*|\[(?:[^#\"'\[\]{}]|\"[^\"\\]*\")*\][^#\"'\[\]{}]*)?"
+    r"|(?:#.*)?)")
+
+
+def _scan_lines(text: str, plain: bool = True) -> dict[str, int]:
     """Map dotted key paths to 1-based line numbers (first occurrence).
 
     Cost: each line is read once, and within a value only the characters
     that matter (quotes, brackets, braces, ``#``) are visited, found by a
-    compiled pattern (:func:`_scan_value`).
+    compiled pattern (:func:`_scan_value`). A plain line outside any value
+    (``_PLAIN_LINE_RE``: most lines of a design) is taken by that one
+    pattern match; ``plain=False`` sends every line the general way (the
+    tests compare the two).
     """
     lines: dict[str, int] = {}
     table: list[str] = []
+    prefix = ""  # the table's path and a dot ("" at the top)
     depth = 0  # bracket / brace depth of an unfinished value
     in_ml: str | None = None  # inside a multi-line string: its delimiter
     array_counts: dict[str, int] = {}
     array_key: str | None = None  # the key whose multi-line array is open
     elements = 0  # inline tables seen so far in that array
-    for no, raw in enumerate(text.splitlines(), start=1):
-        line = raw
+    fast = _PLAIN_LINE_RE.fullmatch if plain else None
+    for no, line in enumerate(text.splitlines(), start=1):
         if in_ml:
             if in_ml in line:
                 in_ml = None
             continue
         if depth == 0:
+            if fast is not None:
+                m = fast(line)
+                if m is not None:
+                    key, head = m.group("k", "h")
+                    if key is not None:
+                        array_key, elements = prefix + key, 0
+                        lines.setdefault(array_key, no)
+                    elif head is not None:
+                        table, prefix = head.split("."), head + "."
+                        lines.setdefault(head, no)
+                    continue
             h = _HEADER_RE.match(line)
             if h:
                 keys = _split_dotted(h.group(2))
@@ -156,6 +181,7 @@ def _scan_lines(text: str) -> dict[str, int]:
                     path = f"{path}.{n}"
                     keys = path.split(".")
                 table = keys
+                prefix = ".".join(table) + "." if table else ""
                 lines.setdefault(path, no)
                 continue
             k = _KEY_RE.match(line)

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import dataclasses
+
 import pytest
 
 from pipeline.errors import DesignError
@@ -361,3 +363,39 @@ def test_a_bad_value_after_good_ones_is_still_located(design_from):
     with pytest.raises(DesignError) as e:
         design_from(text)
     assert e.value.line == text.splitlines().index("[parts.R7]") + 4 and "R7" in str(e.value)
+
+
+def test_alike_part_tables_are_read_once(design_from, monkeypatch):
+    """Issue 11: part tables of the same plain keys and values (each with its type) are read once
+    per file; the parts are the same as read one by one, each with its own ref and line."""
+    import pipeline.design as dz
+
+    calls = []
+    real = dz._part_fields
+    monkeypatch.setattr(dz, "_part_fields", lambda src, key, *a: calls.append(key) or real(src, key, *a))
+    body = 'kind = "resistor"\npackage = "0603"\nvalue = "10k"\ndnp = true\n'
+    text = "".join(f"[parts.R{i}]\n{body}" for i in range(1, 21))
+    d, _ = design_from(text)
+    assert calls == ["parts.R1"]
+    assert [(p.ref, p.line) for p in d.parts[:3]] == [("R1", 1), ("R2", 6), ("R3", 11)]  # 5 lines a part
+    alone, _ = design_from(f"[parts.R7]\n{body}")
+    assert d.parts[6] == dataclasses.replace(alone.parts[0], line=31) and d.parts[6].dnp is True
+
+
+@pytest.mark.parametrize("second, where", [
+    ('dnp = 1', "dnp"),             # 1 == True in Python: the memo must tell them apart by type
+    ('dnp = "true"', "dnp"),
+])
+def test_a_table_like_a_read_one_but_of_another_type_is_still_refused(design_from, second, where):
+    first = '[parts.R1]\nkind = "resistor"\npackage = "0603"\nvalue = "10k"\ndnp = true\n'
+    text = first + f'[parts.R2]\nkind = "resistor"\npackage = "0603"\nvalue = "10k"\n{second}\n'
+    with pytest.raises(DesignError) as e:
+        design_from(text)
+    assert e.value.line == 10 and f"parts.R2.{where}" in str(e.value)
+
+
+def test_placed_parts_keep_their_own_lines(design_from):
+    # a table that places its part (at = [x, y]) is read on its own: its Fixed carries its line
+    body = 'kind = "resistor"\npackage = "0603"\nvalue = "10k"\nat = [1.0, 2.0]\n'
+    d, _ = design_from(f"[parts.R1]\n{body}[parts.R2]\n{body}")
+    assert [p.fixed.line for p in d.parts] == [1, 6]

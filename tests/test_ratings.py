@@ -365,3 +365,23 @@ def test_series_findings_grouped_into_one():
     import eseries
     assert 1.02 in [round(v, 2) for v in eseries.erange(eseries.E96, 1, 10)]
     assert 1.02 not in [round(v, 2) for v in eseries.erange(eseries.E48, 1, 10)]
+
+
+def test_each_kind_value_and_tolerance_is_judged_once():
+    """Cost guard (issue 11): the series test and message of a value are made once per distinct
+    kind, value and tolerance, however many parts share them (counted by the cache, not timed); the
+    summary still lists every part (reference: IEC 60063, E3 = 1.0, 2.2, 4.7 and E6 adds 1.5, 3.3, 6.8;
+    so 10k and 4.7k are E3 values and 1.5 ohm an E6 one)."""
+    from pipeline import ratings
+    from pipeline.model import Design, Part, PinDef
+
+    pins = (PinDef("1", "1", "passive"), PinDef("2", "2", "passive"))
+    values = (10e3, 4.7e3, 1.5)
+    parts = tuple(Part(f"R{i}", "resistor", "0603", pins, value=values[i % 3]) for i in range(1, 301))
+    ratings._value_note.cache_clear()
+    found = ratings.check_values(Design("d", "A", "d.toml", parts, ()))
+    assert ratings._value_note.cache_info().misses == 3
+    series = [f for f in found if f.check == "values.series"]
+    assert len(series) == 1 and len(series[0].subject) == 300
+    assert "E3: R1 4.7k ohm, R3 10k ohm, R4 4.7k ohm" in series[0].message
+    assert "E6: R2 1.5 ohm, R5 1.5 ohm" in series[0].message

@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from pipeline import tomlsrc
 from pipeline.tomlsrc import TomlSource
@@ -58,3 +60,39 @@ def test_scan_lines_reads_each_line_once_and_only_its_significant_characters(mon
     assert calls["scan"] <= text.count("\n")
     assert calls["search"] <= significant + text.count("\n")
     assert calls["search"] < len(text) / 20  # a per-character loop would visit every one
+
+
+# The plain-line shortcut of the scan (one pattern match per plain line) must give exactly what the
+# general scan gives (the reference here: the same function with plain=False, every line the long way).
+_FRAGMENTS = [
+    "[parts.R1]", "[ parts . R2 ]", "[[pin]]", '["q.k"]', "[t] # c", "kind = \"resistor\"",
+    "value = \"4k7\" # note", "v = 'lit'", "n = 3", "a.b = 1", "pins = [\"R1.1\", \"U1.4\"]",
+    "pins = [\"R1.1\",", "  \"U2.3\"]", "arr = [", "  {a = 1},", "]", "s = \"\"\"", "k = 1", "\"\"\"",
+    "e = \"q\\\"[\"", "", "   ", "# comment", "x = {a = 1}", "m = [[1, 2],", " [3]]", "t = '''a'''",
+    "l = '''", "'''", "odd = [\"a]\"]", "w\t=\t\"x\"", "\x0c", "k = [\"a\" # [\n",
+]
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(st.sampled_from(_FRAGMENTS), max_size=30))
+def test_plain_line_shortcut_gives_what_the_general_scan_gives(rows):
+    text = "\n".join(rows) + "\n"
+    assert tomlsrc._scan_lines(text) == tomlsrc._scan_lines(text, plain=False)
+
+
+@pytest.mark.parametrize("text", [c[0] for c in CASES])
+def test_plain_line_shortcut_on_the_worked_examples(text):
+    assert tomlsrc._scan_lines(text) == tomlsrc._scan_lines(text, plain=False)
+
+
+def test_plain_lines_skip_the_value_scan(monkeypatch):
+    # cost guard: a design's usual lines (headers, key = "text", one-line pin lists) take one pattern
+    # match each and no value scan
+    text = "".join(f'[parts.R{i}]\nkind = "resistor"\nvalue = "10k"\n\n' for i in range(200))
+    text += "[nets]\n" + "".join(f'N{i} = ["R{i}.1", "R{i + 1}.2"]\n' for i in range(199))
+    calls = []
+    real = tomlsrc._scan_value
+    monkeypatch.setattr(tomlsrc, "_scan_value", lambda *a: calls.append(1) or real(*a))
+    lines = tomlsrc._scan_lines(text)
+    assert calls == []
+    assert lines["parts.R199.value"] == 199 * 4 + 3 and lines["nets.N0"] == 802  # counted by hand

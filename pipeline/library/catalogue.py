@@ -76,6 +76,8 @@ class Library:
     _by_compact: Mapping[str, Package] = field(init=False, compare=False, hash=False, repr=False)
     _kinds: Mapping[str, PartKind] = field(init=False, compare=False, hash=False, repr=False)
     _infos: Mapping[str, PackageInfo] = field(init=False, compare=False, hash=False, repr=False)
+    #: family members and pin-row packages already built, by the text asked for (each is built once)
+    _made: dict[str, Package] = field(init=False, compare=False, hash=False, repr=False)
 
     def __post_init__(self) -> None:
         by_name: dict[str, Package] = {}
@@ -90,6 +92,7 @@ class Library:
             self, "_kinds", MappingProxyType({k.name.casefold(): k for k in self.kind_table}))
         object.__setattr__(
             self, "_infos", MappingProxyType({i.name.casefold(): i for i in self.infos}))
+        object.__setattr__(self, "_made", {})
 
     # ---------------------------------------------------------------- packages
     def _rule(self, name: str) -> CourtyardRule:
@@ -108,7 +111,8 @@ class Library:
         Names are matched without regard to case; a second try ignores
         ``-``, ``_`` and spaces (``SOT23-5`` finds ``SOT-23-5``). Family
         members such as ``header-1x7-2.54`` and ``pad-1.5mm`` are expanded
-        from ``families.toml``.
+        from ``families.toml``, once per name asked for (kept for the next
+        ask). Cost O(1) for a listed or already built name.
 
         Raises
         ------
@@ -124,10 +128,13 @@ class Library:
         if not text:
             raise UnknownNameError(file, "empty package name", name=text, **where)
         hit = self._by_name.get(text.casefold())
+        if hit is None:
+            hit = self._made.get(text)
         if hit is not None:
             return hit
         pin_row = self._pin_row(text, file, where)
         if pin_row is not None:
+            self._made[text] = pin_row
             return pin_row
         fam_hit = self._family_lookup(text)
         if fam_hit is not None:
@@ -135,7 +142,8 @@ class Library:
             if not fam.in_range(value):
                 raise UnknownNameError(file, f"unknown package '{text}': {fam.range_text()}",
                                        name=text, suggestions=(fam.name,), **where)
-            return fam.expand(value, self._rule(fam.courtyard_class), self.grid_mm)
+            made = self._made[text] = fam.expand(value, self._rule(fam.courtyard_class), self.grid_mm)
+            return made
         hit = self._by_compact.get(compact(text))
         if hit is not None:
             return hit
