@@ -353,3 +353,19 @@ def test_prewritten_word_lists_render_as_plain_lists(tree, indent):
 
     plain = _render(_as_lists(tree, lambda *w: list(w)), indent)
     assert _render(_as_lists(tree, _Leaf), indent) == plain
+
+
+@given(st.tuples(st.lists(_WORDS, min_size=1, max_size=2), st.lists(_TREES, min_size=1, max_size=5)),
+       st.integers(0, 40), st.data())
+@settings(max_examples=150, deadline=None)
+def test_lists_written_ahead_render_as_plain_lists(tree, indent, data):
+    # reference: the renderer on plain nested lists; children written ahead at their indent
+    # (_done: how the contents' instances and nets are written, issue 11) must give the same bytes
+    from pipeline.export.edif import _Leaf, _done, _render
+
+    plain = _render(_as_lists(tree, lambda *w: list(w)), indent)
+    words, kids = tree
+    ahead = [data.draw(st.booleans()) for _ in kids]
+    mixed = [*words, *(_done(_as_lists(k, _Leaf), indent + 2) if a and not isinstance(k, list)
+                       else _as_lists(k, _Leaf) for k, a in zip(kids, ahead))]
+    assert _render(mixed, indent) == plain

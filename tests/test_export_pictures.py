@@ -807,6 +807,79 @@ def test_svg_path_numbers_are_the_plain_three_decimal_text(x, text):
     assert d == f"M{text},-1.000 L1.000,{text}"
 
 
+_coord = st.floats(-50, 50, allow_nan=False).map(lambda v: round(v, 4))
+_some_geometry = st.one_of(
+    st.none(),
+    st.just(Polygon()),
+    st.builds(lambda x, y, w, h: box(x, y, x + w, y + h), _coord, _coord, st.floats(0.1, 9), st.floats(0.1, 9)),
+    st.builds(lambda x, y, r: Point(x, y).buffer(r, quad_segs=3).difference(Point(x, y).buffer(r / 3, quad_segs=2)),
+              _coord, _coord, st.floats(0.5, 5)),
+    st.builds(lambda x, y: MultiPolygon([box(x, y, x + 1, y + 1), box(x + 3, y, x + 4, y + 2)]), _coord, _coord),
+    st.builds(lambda pts: LineString(pts), st.lists(st.tuples(_coord, _coord), min_size=2, max_size=6)),
+)
+
+
+def _rings_of(geom) -> list[tuple[list, bool]]:
+    """The reference: each ring's coordinates read one at a time off shapely, as (points, closed)."""
+    if geom is None or geom.is_empty:
+        return []
+    if isinstance(geom, LineString):
+        return [(list(geom.coords), False)]
+    polys = list(geom.geoms) if hasattr(geom, "geoms") else [geom]
+    return [(list(r.coords)[:-1], True) for p in polys for r in (p.exterior, *p.interiors)]
+
+
+@given(st.lists(_some_geometry, max_size=12))
+@settings(max_examples=80, deadline=None)
+def test_svg_paths_in_bulk_hold_every_ring_of_every_geometry(geoms):
+    # reference: shapely's coordinates read ring by ring; each number within half a unit of the
+    # third decimal of x and -y ("%.3f", correctly rounded), rings in order, Z on closed ones
+    from pipeline.export.svg import _path_d, _paths_d
+
+    ds = _paths_d(geoms)
+    assert ds == [_path_d(g) for g in geoms]  # a geometry's text does not depend on its neighbours
+    for g, d in zip(geoms, ds):
+        rings = _rings_of(g)
+        texts = [t for t in re.split(r" ?M", d) if t]
+        assert len(texts) == len(rings)
+        for text, (pts, closed) in zip(texts, rings):
+            assert text.endswith(" Z") == closed
+            got = [tuple(map(float, p.split(","))) for p in text.removesuffix(" Z").split(" L")]
+            assert len(got) == len(pts)
+            for (gx, gy), (x, y) in zip(got, pts):
+                assert abs(gx - x) <= 0.0005 + 1e-9 and abs(gy + y) <= 0.0005 + 1e-9
+
+
+def test_svg_paths_of_many_polygons_read_coordinates_once(monkeypatch):
+    # cost guard (calls, not seconds): 300 courtyards -> one bulk coordinate read and one format
+    import shapely as shp
+
+    import pipeline.export.svg as svg
+
+    calls = []
+    real = shp.get_coordinates
+    monkeypatch.setattr(svg.shapely, "get_coordinates", lambda *a, **k: calls.append(1) or real(*a, **k))
+    ds = svg._paths_d([box(k, 0, k + 0.5, 1) for k in range(300)])
+    assert len(calls) == 1 and ds[7] == "M7.500,0.000 L7.500,-1.000 L7.000,-1.000 L7.000,0.000 Z"
+
+
+@given(st.text(max_size=30))
+@settings(max_examples=200, deadline=None)
+def test_markup_escape_matches_the_standard_library(text):
+    # reference: xml.sax.saxutils.escape with the two quote entities, after replacing what XML 1.0
+    # cannot hold (its Char production) and DEL (markup.py's rule) by U+FFFD
+    from xml.sax.saxutils import escape as sax_escape
+
+    from pipeline.export.markup import escape
+
+    def xml_char(c):
+        o = ord(c)
+        return o in (9, 10, 13) or 0x20 <= o <= 0xD7FF and o != 0x7F or 0xE000 <= o <= 0xFFFD or o >= 0x10000
+
+    clean = "".join(c if xml_char(c) else "\ufffd" for c in text)
+    assert escape(text) == sax_escape(clean, {'"': "&quot;", "'": "&#39;"})
+
+
 @given(st.lists(st.tuples(st.floats(0, 12), st.floats(0, 12), st.sampled_from([(0.6, 0.3), (2.2, 1.2), (6.0, 4.0)]),
                           st.sampled_from(["R", "C", "TP", "U"]), st.integers(1, 12000)),
                 min_size=1, max_size=60),

@@ -41,3 +41,15 @@ def test_dump_json_refuses_what_json_refuses(bad, error):
         _reference(bad)
     with pytest.raises(error):
         dump_json(bad)
+
+
+_NASTY = st.text(alphabet='"\\,[]{}: a\n\u00e9', max_size=8)
+_NASTY_TREES = st.recursive(_NASTY | st.integers(-3, 3), lambda kids: st.lists(kids, max_size=3)
+                            | st.dictionaries(_NASTY, kids, max_size=3), max_leaves=25)
+
+
+@given(_NASTY_TREES)
+@settings(max_examples=400, deadline=None)
+def test_dump_json_matches_on_strings_full_of_quotes_backslashes_and_brackets(obj):
+    # the line breaks go outside strings only: a quote after an even run of backslashes ends one
+    assert dump_json(obj) == _reference(obj)

@@ -126,3 +126,27 @@ def test_bulk_outlines_equal_one_at_a_time(pad):
     got = pad_polygons([pad.shape] * 3, [x] * 3, [y] * 3, [pad.width_mm] * 3, [pad.height_mm] * 3,
                        [pad.rotation] * 3)
     assert all(list(g.exterior.coords) == list(want.exterior.coords) for g in got)
+
+
+@pytest.mark.parametrize("package", ["0603", "pad-1.5mm", "header-1x2"])
+def test_library_asked_once_per_package_name(package):
+    # cost guard: 30 parts of one package ask the library once (a family member such as pad-1.5mm is
+    # expanded anew by each ask, which also defeated turned_pads' per-package keeping); the pads
+    # are the library's own placed pads (pads_on_board) one part at a time
+    asked = []
+
+    class Counting:
+        def package(self, name):
+            asked.append(name)
+            return LIB.package(name)
+
+    n_pins = len(LIB.package(package).pads_at("nominal"))
+    pins = tuple(PinDef(str(k), str(k), "passive") for k in range(1, n_pins + 1))
+    parts = tuple(Part(f"P{i}", "wire-pad", package, pins) for i in range(30))
+    pl = tuple(Placement(f"P{i}", 3.0 * i, 5, 90 * (i % 2), "top", None) for i in range(30))
+    b = board_from_placement(box(-5, 0, 100, 10), pl, Design("t", "", "", parts, ()), Counting(), ("top", "bottom"))
+    assert asked == [package]
+    want = sorted((p.ref, q.number, round(q.x_mm, 6), round(q.y_mm, 6)) for p in pl
+                  for q in pads_on_board(LIB.package(package), p.x_mm, p.y_mm, p.rotation_deg, p.side))
+    assert sorted((r.ref, r.pin, round(r.polygon.centroid.x, 6), round(r.polygon.centroid.y, 6))
+                  for r in b.pads) == want

@@ -228,19 +228,20 @@ def _cells(design: Design) -> tuple[dict[str, dict[str, PinDef]], dict[str, tupl
     """One cell per kind and package: its ports by pin number, and its (kind, package)."""
     cells: dict[str, dict[str, PinDef]] = {}
     cell_info: dict[str, tuple[str, str]] = {}
+    cell_of: dict[str, str] = {}  # ref -> its cell name
     for part in design.parts:
         cname = _cell_name(part)
+        cell_of[part.ref] = cname
         pins = cells.setdefault(cname, {})
         cell_info[cname] = (part.kind, part.package)
         for p in part.pins:
             pins.setdefault(p.number, p)
     # Pins a net names that the part does not list still need a port.
-    by_ref = {p.ref: p for p in design.parts}
     for net in design.nets:
         for pr in net.pins:
-            part = by_ref.get(pr.ref)
-            if part is not None:
-                cells[_cell_name(part)].setdefault(pr.pin, PinDef(pr.pin, pr.pin, "passive"))
+            cname = cell_of.get(pr.ref)
+            if cname is not None and pr.pin not in cells[cname]:
+                cells[cname][pr.pin] = PinDef(pr.pin, pr.pin, "passive")
     return cells, cell_info
 
 
@@ -264,18 +265,33 @@ def _parts_library(cells: dict[str, dict[str, PinDef]], cell_info: dict[str, tup
 
 
 def _contents(design: Design, cell_scope: _Scope, inst_scope: _Scope, port_scopes: dict[str, _Scope]) -> list:
-    """The board cell's contents: one instance per part, one net per net (a dict lookup per pin)."""
+    """The board cell's contents: one instance per part, one net per net (a dict lookup per pin).
+
+    Each instance and net is written as soon as it is built (:func:`_done`, at
+    the level the contents' children stand at), so the tree never holds a
+    list per pin; a cell's ``viewRef`` and a repeated property are written once.
+    """
     contents: list = ["contents"]
-    ports_of = {p.ref: port_scopes[_cell_name(p)] for p in design.parts}
+    ports_of = {}
     parts_lib = _Leaf("libraryRef", _PARTS_LIB)
+    view_refs: dict[str, _Done] = {}
+    properties: dict[tuple[str, str], _Done] = {}
     for part in design.parts:
-        inst: list = ["instance", inst_scope.define(part.ref),
-                      ["viewRef", "netlist", ["cellRef", cell_scope.ref(_cell_name(part)), parts_lib]]]
+        cname = _cell_name(part)
+        ports_of[part.ref] = port_scopes[cname]
+        if cname not in view_refs:
+            view_refs[cname] = _done(["viewRef", "netlist", ["cellRef", cell_scope.ref(cname), parts_lib]],
+                                     _CONTENTS_LEVEL + 4)
+        inst: list = ["instance", inst_scope.define(part.ref), view_refs[cname]]
         for k, v in (("value", _value(part)), ("kind", part.kind), ("package", part.package),
                      ("manufacturer", part.manufacturer), ("mpn", part.mpn), ("dnp", "true" if part.dnp else "")):
             if v:
-                inst.append(["property", k, _Leaf("string", edif_string(v))])
-        contents.append(inst)
+                prop = properties.get((k, v))
+                if prop is None:
+                    prop = properties[(k, v)] = _done(["property", k, _Leaf("string", edif_string(v))],
+                                                      _CONTENTS_LEVEL + 4)
+                inst.append(prop)
+        contents.append(_done(inst, _CONTENTS_LEVEL + 2))
     net_scope = _Scope(n.name for n in design.nets)
     for net in design.nets:
         joined: list = ["joined"]
@@ -283,7 +299,7 @@ def _contents(design: Design, cell_scope: _Scope, inst_scope: _Scope, port_scope
             scope = ports_of.get(pr.ref)
             if scope is not None:
                 joined.append(["portRef", scope.ref(pr.pin), _Leaf("instanceRef", inst_scope.ref(pr.ref))])
-        contents.append(["net", net_scope.define(net.name), joined])
+        contents.append(_done(["net", net_scope.define(net.name), joined], _CONTENTS_LEVEL + 2))
     return contents
 
 
@@ -306,6 +322,32 @@ class _Leaf(str):
         return super().__new__(cls, "(" + " ".join(words) + ")")
 
 
+class _Done:
+    """A list already written: ``text`` as :func:`_render` writes it at indent ``level``, and
+    ``one``, its one-line form (``""`` when too long for a line, as :func:`_one_line` maps it).
+
+    :func:`_one_line` and :func:`_render` take it as the list it was made from; its parent
+    must stand at ``level - 2`` (:func:`_render` checks).
+    """
+
+    __slots__ = ("one", "text", "level")
+
+    def __init__(self, one: str, text: str, level: int) -> None:
+        self.one, self.text, self.level = one, text, level
+
+
+#: Indent of the board cell's ``contents`` whenever it is broken over lines: the fifth list down
+#: (edif, library, cell, view, contents), each broken one two deeper (a list holding a broken list
+#: is broken itself).
+_CONTENTS_LEVEL = 8
+
+
+def _done(node: list, level: int) -> _Done:
+    """``node`` written now, as it will stand at indent ``level`` (:class:`_Done`)."""
+    flat = _one_line(node)
+    return _Done(flat[id(node)], _emit(node, level, flat), level)
+
+
 def _one_line(tree: list) -> dict[int, str]:
     """The one-line form of every list short enough to be written whole, by ``id``.
 
@@ -325,6 +367,9 @@ def _one_line(tree: list) -> dict[int, str]:
                 parts.append(c)
             elif type(c) is _Leaf:  # a list of words: a long one makes its parent long by its length
                 parts.append(c)
+            elif type(c) is _Done:
+                long = long or not c.one
+                parts.append(c.one)
             else:
                 text = visit(c)
                 long = long or not text
@@ -347,7 +392,11 @@ def _render(tree: list, indent: int) -> str:
     two more. Cost: linear in the output (:func:`_one_line`); recursion as
     deep as the tree.
     """
-    flat = _one_line(tree)
+    return _emit(tree, indent, _one_line(tree))
+
+
+def _emit(tree: list, indent: int, flat: dict[int, str]) -> str:
+    """The text of ``tree`` at ``indent`` (:func:`_render`), given its lists' one-line forms ``flat``."""
     out: list[str] = []
 
     def emit(node: list, level: int) -> None:
@@ -365,6 +414,10 @@ def _render(tree: list, indent: int) -> str:
             out.append(pad)
             if type(c) is _Leaf:
                 out.append(c)
+            elif type(c) is _Done:
+                if c.level != level + 2:
+                    raise AssertionError(f"a list written at indent {c.level} stands at {level + 2}")
+                out.append(c.text)
             else:
                 emit(c, level + 2)
         out.append(")")

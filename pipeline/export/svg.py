@@ -233,7 +233,11 @@ def _copper_and_parts(placements, facts, pads, routing, demand, u: float) -> lis
         out.append(congestion_svg(demand, u))
     if placements:
         out.append('<g class="placements">')
-        out += [_part(pl, (facts or {}).get(pl.ref), u) for pl in placements]
+        facts = facts or {}
+        paths = _paths_d([pl.courtyard for pl in placements])
+        look = {side: _part_look(side, u) for side in ("top", "bottom")}
+        out += [_part(pl, facts.get(pl.ref), d, look["bottom" if pl.side == "bottom" else "top"])
+                for pl, d in zip(placements, paths)]
         out.append("</g>")
     if pads:
         out.append(_pads_svg(pads, u))
@@ -376,29 +380,90 @@ def _polygons(geom: BaseGeometry | None) -> Iterable[Polygon]:
             yield from _polygons(g)
 
 
-def _ring_d(xy: np.ndarray, closed: bool) -> str:
-    """Path data of one ring or line from its (k, 2) coordinates: ``_f`` text of x and -y, joined once."""
-    pts = xy.tolist()
-    if closed and len(pts) > 1 and pts[0] == pts[-1]:
-        pts.pop()
-    if not pts:
-        return ""
-    # "%.3f" is _f's format; "-0.000" can only be a whole number here (3 decimals, then a separator)
-    d = ("M" + " L".join(["%.3f,%.3f" % (x, -y) for x, y in pts])).replace("-0.000", "0.000")
-    return d + (" Z" if closed else "")
+#: the pieces of :func:`_rings_d`'s one format string: a ring's first point, its other points, the
+#: close of a closed ring and the end of a ring ("%.3f" is _f's format)
+_D_PIECES = np.array(["M%.3f,%.3f", " L%.3f,%.3f", " Z", "\x00"], dtype=object)
+
+
+def _rings_d(xy: np.ndarray, counts: np.ndarray, closed: np.ndarray) -> list[str]:
+    """Path data of many rings or lines: ``xy`` (n, 2) holds ring after ring, ``counts`` points each.
+
+    A closed ring drops its last point when it repeats the first and ends in
+    ``Z``; a ring without points gives ``""``. Numbers are x and -y as
+    :func:`_f` writes them. Cost O(points): numpy, then one ``%`` format over
+    all the numbers (no Python step per point).
+    """
+    if len(counts) == 0:
+        return []
+    counts = np.asarray(counts, dtype=np.int64)
+    shut = np.asarray(closed, dtype=bool)
+    ends = np.cumsum(counts)
+    starts = ends - counts
+    drop = shut & (counts > 1)
+    if len(xy):
+        last, first = np.maximum(ends - 1, 0), np.minimum(starts, len(xy) - 1)
+        drop &= (xy[last, 0] == xy[first, 0]) & (xy[last, 1] == xy[first, 1])
+    keep = np.ones(len(xy), dtype=bool)
+    keep[ends[drop] - 1] = False
+    kept = counts - drop
+    # tokens per ring: its points (the first M, the others L), Z when closed and drawn, the ring's end
+    zed = shut & (kept > 0)
+    token_end = np.cumsum(kept + zed + 1)
+    codes = np.ones(int(token_end[-1]), dtype=np.int64)
+    codes[(token_end - kept - zed - 1)[kept > 0]] = 0
+    codes[token_end[zed] - 2] = 2
+    codes[token_end - 1] = 3
+    pts = xy[keep]
+    values = np.column_stack([pts[:, 0], -pts[:, 1]]).ravel().tolist()
+    text = ("".join(_D_PIECES[codes].tolist()) % tuple(values)).replace("-0.000", "0.000")
+    return text.split("\x00")[:-1]
+
+
+#: shapely's type id of a Polygon (shapely.get_type_id)
+_POLYGON_TYPE = 3
+
+
+def _paths_d(geoms: Sequence[BaseGeometry | None]) -> list[str]:
+    """SVG path data of many geometries (y flipped), as :func:`_path_d` of each, made in bulk.
+
+    A polygon's rings (exterior, then holes; a multi-part geometry's
+    polygons in order) are joined by spaces; a line or ring is one stroke;
+    None, an empty geometry or one holding no polygon gives ``""``.
+    Coordinates come from shapely in bulk (``get_rings``,
+    ``get_coordinates``) and are written by :func:`_rings_d`. Cost
+    O(points) plus O(geometries) list work.
+    """
+    out = [""] * len(geoms)
+    arr = np.array([*geoms, None], dtype=object)[:-1]
+    kind = np.where(shapely.is_empty(arr), -1, shapely.get_type_id(arr))  # None and empty: -1
+    simple = np.flatnonzero(kind == _POLYGON_TYPE)  # the common case, without a Python step each
+    polys: list[BaseGeometry] = arr[simple].tolist()
+    poly_owner: list[int] = simple.tolist()
+    lines: list[tuple[int, BaseGeometry]] = []
+    for i in np.flatnonzero((kind != _POLYGON_TYPE) & (kind >= 0)).tolist():
+        g = arr[i]
+        if isinstance(g, (LineString, LinearRing)):
+            lines.append((i, g))
+        else:
+            for p in _polygons(g):
+                polys.append(p)
+                poly_owner.append(i)
+    for i, g in lines:
+        xy = shapely.get_coordinates(g)
+        out[i] = _rings_d(xy, np.array([len(xy)]), np.array([isinstance(g, LinearRing)]))[0]
+    if polys:
+        rings, ring_poly = shapely.get_rings(np.array(polys + [None], dtype=object)[:-1], return_index=True)
+        xy, ring_of = shapely.get_coordinates(rings, return_index=True)
+        texts = _rings_d(xy, np.bincount(ring_of, minlength=len(rings)), np.ones(len(rings), dtype=bool))
+        for i, d in zip(np.asarray(poly_owner, dtype=np.int64)[ring_poly].tolist(), texts):
+            if d:  # a geometry's rings come in order, one after another
+                out[i] = d if not out[i] else out[i] + " " + d
+    return out
 
 
 def _path_d(geom: BaseGeometry | None) -> str:
-    """SVG path data of a geometry's polygons (y flipped); rings and lines as strokes."""
-    if geom is None or geom.is_empty:
-        return ""
-    if isinstance(geom, (LineString, LinearRing)):
-        return _ring_d(shapely.get_coordinates(geom), isinstance(geom, LinearRing))
-    parts = []
-    for poly in _polygons(geom):
-        parts.append(_ring_d(shapely.get_coordinates(poly.exterior), True))
-        parts.extend(_ring_d(shapely.get_coordinates(r), True) for r in poly.interiors)
-    return " ".join(p for p in parts if p)
+    """SVG path data of a geometry's polygons (y flipped); rings and lines as strokes (:func:`_paths_d`)."""
+    return _paths_d([geom])[0]
 
 
 def _bounds(geoms: Iterable[BaseGeometry | None]) -> tuple[float, float, float, float]:
@@ -770,33 +835,40 @@ class _BoxGrid:
                 self.cells.setdefault((i, j), []).append(b)
 
 
-def _part(pl: Placement, facts: PartFacts | None, u: float) -> str:
-    """A courtyard with its hover title and the ``data-*`` attributes the report's script reads."""
-    bottom = pl.side == "bottom"
+def _part_look(side: str, u: float) -> tuple[str, str]:
+    """The class and the courtyard path's style of a part on ``side`` (the same for every part there)."""
+    bottom = side == "bottom"
     colour = _BOTTOM if bottom else _TOP
-    side = "bottom" if bottom else "top"
     dash = f' stroke-dasharray="{_f(1.2 * u)} {_f(0.7 * u)}"' if bottom else ""
+    return (f"part part-{side}", f'fill="{colour}" fill-opacity="{"0.10" if bottom else "0.20"}" '
+            f'stroke="{colour}" stroke-width="{_f(_W_LINE * u)}"{dash}/></g>')
+
+
+def _part(pl: Placement, facts: PartFacts | None, d: str, look: tuple[str, str]) -> str:
+    """A courtyard (path data ``d``) with its hover title and the ``data-*`` attributes the report's script
+    reads; ``look``: :func:`_part_look` of its side."""
+    side = "bottom" if pl.side == "bottom" else "top"
     f = facts or PartFacts()
     height = _mm(f.height_mm) if f.height_mm is not None else ""
     about = " ".join(t for t in (f.value, f.package) if t)
     tip = f"{pl.ref}{' ' + about if about else ''} ({side}, {pl.rotation_deg} deg"
     tip += f", {height} mm tall" if height else ""
-    tip += f"; nets {' '.join(f.nets)})" if f.nets else ")"
+    nets = " ".join(f.nets)
+    tip += f"; nets {nets})" if f.nets else ")"
     return (
-        f'<g class="part part-{side}" data-ref="{_esc(pl.ref)}" data-value="{_esc(f.value)}" '
+        f'<g class="{look[0]}" data-ref="{_esc(pl.ref)}" data-value="{_esc(f.value)}" '
         f'data-package="{_esc(f.package)}" data-height="{height}" data-side="{side}" '
-        f'data-nets="{_esc(" ".join(f.nets))}">'
+        f'data-nets="{_esc(nets)}">'
         f"<title>{_esc(tip)}</title>"
-        f'<path d="{_path_d(pl.courtyard)}" fill="{colour}" fill-opacity="{"0.10" if bottom else "0.20"}" '
-        f'stroke="{colour}" stroke-width="{_f(_W_LINE * u)}"{dash}/></g>'
+        f'<path d="{d}" {look[1]}'
     )
 
 
 def _pads_svg(pads: Sequence, u: float) -> str:
     """Copper pads, sorted by ref and pin, each naming its net for the report's net picker."""
     out = [f'<g class="pads" fill="{_COPPER}" fill-opacity="0.85">']
-    for p in sorted(pads, key=lambda p: (natural_key(p.ref), natural_key(str(p.pin)))):
-        d = _path_d(p.polygon)
+    ordered = sorted(pads, key=lambda p: (natural_key(p.ref), natural_key(str(p.pin))))
+    for p, d in zip(ordered, _paths_d([p.polygon for p in ordered])):
         if d:
             net = f' data-net="{_esc(p.net)}"' if p.net is not None else ""
             out.append(f'<path class="pad" d="{d}" data-ref="{_esc(p.ref)}" data-pin="{_esc(p.pin)}"{net}/>')

@@ -88,18 +88,26 @@ def board_from_placement(outline, placements: Iterable[Placement], design: Desig
     in bulk (:func:`pad_polygons`).
     """
     net_of = {(pr.ref, pr.pin): n.name for n in design.nets for pr in n.pins}
+    by_ref = design.by_ref
+    packages: dict[str, object] = {}  # package name -> package: one library look-up per name
     rows, cols = [], ([], [], [], [], [], [])
+    shapes, xs, ys, widths, heights, rots = cols
     for pl in placements:
-        package = library.package(design.part(pl.ref).package)
+        name = by_ref[pl.ref].package
+        package = packages.get(name)
+        if package is None:
+            package = packages[name] = library.package(name)
+        top = (layers[0],) if pl.side == "top" else (layers[-1],)
+        x0, y0 = pl.x_mm, pl.y_mm
         for pad, dx, dy, rot in turned_pads(package, pl.rotation_deg, pl.side, level):
-            if pad.drill_mm > 0:
-                on = layers
-            else:
-                on = (layers[0],) if pl.side == "top" else (layers[-1],)
-            rows.append((pl.ref, pad.number, net_of.get((pl.ref, pad.number)), on))
-            x, y = board_xy(pl.x_mm, pl.y_mm, dx, dy)
-            for col, v in zip(cols, (pad.shape, x, y, pad.width_mm, pad.height_mm, rot)):
-                col.append(v)
+            rows.append((pl.ref, pad.number, net_of.get((pl.ref, pad.number)), layers if pad.drill_mm > 0 else top))
+            x, y = board_xy(x0, y0, dx, dy)
+            shapes.append(pad.shape)
+            xs.append(x)
+            ys.append(y)
+            widths.append(pad.width_mm)
+            heights.append(pad.height_mm)
+            rots.append(rot)
     polygons = pad_polygons(*cols) if rows else []
     pads = [RoutePad(*row, poly) for row, poly in zip(rows, polygons)]
     if getattr(outline, "geom_type", "") == "MultiPolygon":
