@@ -365,3 +365,25 @@ def test_defect_13_check_cost_grows_linearly_with_parts(tmp_path):
     assert _invoke("check", str(files[20])).exit_code == 0  # imports, caches: not counted
     cost = {n: _lines_run(lambda n=n: _invoke("check", str(files[n]))) for n in (150, 300)}
     assert cost[300] / cost[150] < 2.3, cost  # linear: 2; with one n-long scan per pin: near 4
+
+
+def test_a_run_keeps_the_cyclic_collector_rare_and_restores_its_thresholds(tmp_path):
+    """Cost guard (counts, not seconds): the demo's placement-only run starts few garbage
+    collections (about 220 at the interpreter's default thresholds, 19 full ones at 16,000 parts:
+    pipeline.cli.GC_THRESHOLDS), and the caller's thresholds are back when the command returns."""
+    import gc
+
+    from pipeline.cli import GC_THRESHOLDS
+
+    runs = []
+    callback = lambda phase, info: runs.append(info["generation"]) if phase == "stop" else None  # noqa: E731
+    before = gc.get_threshold()
+    gc.callbacks.append(callback)
+    try:
+        res = CliRunner().invoke(main, ["run", str(ROOT / "demo_project"), "--out", str(tmp_path / "o"),
+                                        "--no-route"])
+    finally:
+        gc.callbacks.remove(callback)
+    assert res.exit_code == 0, res.output
+    assert len(runs) <= 20 and runs.count(2) == 0, runs
+    assert gc.get_threshold() == before != GC_THRESHOLDS
