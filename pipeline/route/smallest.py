@@ -116,9 +116,10 @@ SEARCH_SHARE = 4.0
 #: phase 2 routes at most this many shapes besides the first, those with the least RUDY demand (a screen:
 #: routing is the expensive step; our choice).
 SHAPES_ROUTED = 6
-#: the descent's step: from an area that routes, the next tried is this share of it (our choice: 5 % in
-#: side length, so a board of 3.2 x the courtyard sum reaches 2.5 x in three routed steps).
-DESCENT = 0.9
+#: the descent's step: from an area that routes, the next tried is this share of it (our choice: on the
+#: 60-part board a step of 0.9 met a failure 7 to 10 % under each later shape's least routed area, at 70 s
+#: each, where the routed steps above cost 10 to 35 s; bench/README.md).
+DESCENT = 0.95
 #: phase 3: angle steps either side of the best, degrees, and aspect factors.
 REFINE_DEG = (7.5, 3.75)
 REFINE_ASPECT = (1.25, 1.0 / 1.25)
@@ -204,7 +205,8 @@ class _Search:
         self.counts = {"below courtyard sum": 0, "outside region": 0, "does not place": 0, "demand too high": 0,
                        "routed": 0, "route attempts": 0, "placements": 0, "same board": 0}
         self.tries = 0
-        self.prepared: dict = {}   # board key -> (board, mode, fit to route, RUDY p90) or None
+        self.placed: dict = {}     # board key -> screen 2's compact fit
+        self.prepared: dict = {}   # board key -> (key, board, mode, fit to route, RUDY p90) or None
         self.routed: dict = {}     # board key -> what routes returned
         self.slowest_ok_s = 0.0    # the longest routing (s) of a candidate that routed
         self.routing_s = 0.0       # seconds all route attempts took together
@@ -225,7 +227,7 @@ class _Search:
         return min(share, max(CAP_MIN_S, CAP_FACTOR * self.slowest_ok_s))
 
     def places(self, shape: Shape, area: float):
-        """Screens 1 and 2: the board and its compact placement, or None."""
+        """Screens 1 and 2: the board and its compact placement, or None (placed once per board)."""
         from ..place import place_and_fit
 
         self.tries += 1
@@ -236,8 +238,14 @@ class _Search:
         if got is None or got[0].is_empty:
             self.counts["outside region"] += 1
             return None
-        self.counts["placements"] += 1
-        f = place_and_fit(self.items, self.region, self.options, user_board=got[0], improve=False)
+        key = _board_key(got[0])
+        if key in self.placed:
+            self.counts["same board"] += 1
+            f = self.placed[key]
+        else:
+            self.counts["placements"] += 1
+            f = self.placed[key] = place_and_fit(self.items, self.region, self.options, user_board=got[0],
+                                                 improve=False)
         if not f.fits:
             self.counts["does not place"] += 1
             return None
