@@ -8,6 +8,16 @@ from pipeline.route.shapes import board_at
 from test_contract import _resistors, invoke, make_project, rect_cavity
 
 
+def _search_args(tmp_path, monkeypatch, resistors: int):
+    """The arguments the run hands the search (``smallest_board`` stubbed), for ``resistors`` resistors."""
+    seen = {}
+    monkeypatch.setattr(smallest_mod, "smallest_board", lambda *a, **kw: seen.setdefault("args", a) and None)
+    proj = make_project(tmp_path / "p", design=_resistors(resistors),
+                        cavity=rect_cavity(tmp_path / "c.dxf", 20.0, 14.0), tables={"board": {"outline": "smallest"}})
+    assert invoke("run", proj).exit_code == 0
+    return seen["args"]
+
+
 def test_smallest_board_routes_and_one_step_smaller_does_not(tmp_path, monkeypatch):
     seen = {}
     original = smallest_mod.smallest_board
@@ -78,12 +88,7 @@ def test_the_route_screen_routes_the_oriented_placement(tmp_path, monkeypatch):
     from pipeline.place_orient import orient_parts, pad_hpwl
     from pipeline.route.shapes import Shape
 
-    seen = {}
-    monkeypatch.setattr(smallest_mod, "smallest_board", lambda *a, **kw: seen.setdefault("args", a) and None)
-    proj = make_project(tmp_path / "p", design=_resistors(6), cavity=rect_cavity(tmp_path / "c.dxf", 20.0, 14.0),
-                        tables={"board": {"outline": "smallest"}})
-    assert invoke("run", proj).exit_code == 0
-    fit, items, region, options, design, library, rules = seen["args"]
+    fit, items, region, options, design, library, rules = _search_args(tmp_path, monkeypatch, 6)
     import pipeline.route.demand as demand_mod
 
     given, judged = [], []
@@ -119,12 +124,7 @@ def test_equal_boards_are_placed_and_routed_once(tmp_path, monkeypatch):
     import pipeline.route as route_mod
     from pipeline.route.shapes import Shape
 
-    seen = {}
-    monkeypatch.setattr(smallest_mod, "smallest_board", lambda *a, **kw: seen.setdefault("args", a) and None)
-    proj = make_project(tmp_path / "p", design=_resistors(4), cavity=rect_cavity(tmp_path / "c.dxf", 20.0, 14.0),
-                        tables={"board": {"outline": "smallest"}})
-    assert invoke("run", proj).exit_code == 0
-    fit, items, region, options, design, library, rules = seen["args"]
+    fit, items, region, options, design, library, rules = _search_args(tmp_path, monkeypatch, 4)
     placed, routed = [], []
     real_place, real_route = place_mod.place_and_fit, route_mod.route_fit
     monkeypatch.setattr(place_mod, "place_and_fit", lambda *a, **kw: placed.append(kw.get("improve")) or real_place(*a, **kw))
