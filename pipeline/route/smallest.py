@@ -109,9 +109,9 @@ CAP_MIN_S = 40.0
 #: the whole search routes at most this many candidates (our choice: the demo's searches made 13 to 20)...
 ROUTE_ATTEMPTS = 60
 #: ... and starts no route attempt once they took this many times the rules' time budget together (our
-#: choice: 4 x the default 180 s is 12 minutes of routing, so the 60-part board's search ends within 15 to
-#: 20 minutes on this machine with its placements; the demo's routings take a second or two and never
-#: reach it; bench/README.md).
+#: choice: 4 x the default 180 s is 12 minutes of routing; the 60-part board's whole search took 20 minutes
+#: with its placements at a load average of 5 and stopped on this bound, the demo's routed for 88 s in all;
+#: bench/README.md).
 SEARCH_SHARE = 4.0
 #: phase 2 routes at most this many shapes besides the first, those with the least RUDY demand (a screen:
 #: routing is the expensive step; our choice).
