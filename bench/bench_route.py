@@ -4,7 +4,7 @@ Run from the repository root::
 
     .venv/bin/python bench/bench_route.py                # all three boards and both smallest-board searches
     .venv/bin/python bench/bench_route.py --no-large     # without the 2,000-part board
-    .venv/bin/python bench/bench_route.py --no-smallest  # without the smallest-board searches (together 20 to 25 min loaded)
+    .venv/bin/python bench/bench_route.py --no-smallest  # without the smallest-board searches (20 to 25 min loaded)
 
 For each board it runs the whole pipeline twice (``--no-route`` and
 routed) and prints side by side: the time of the rest of the run, the

@@ -127,7 +127,8 @@ def test_equal_boards_are_placed_and_routed_once(tmp_path, monkeypatch):
     fit, items, region, options, design, library, rules = _search_args(tmp_path, monkeypatch, 4)
     placed, routed = [], []
     real_place, real_route = place_mod.place_and_fit, route_mod.route_fit
-    monkeypatch.setattr(place_mod, "place_and_fit", lambda *a, **kw: placed.append(kw.get("improve")) or real_place(*a, **kw))
+    monkeypatch.setattr(place_mod, "place_and_fit",
+                        lambda *a, **kw: placed.append(kw.get("improve")) or real_place(*a, **kw))
     monkeypatch.setattr(route_mod, "route_fit", lambda *a, **kw: routed.append(1) or real_route(*a, **kw))
     s = smallest_mod._Search(fit, items, region, options, design, library, rules, None)
     top = region.board_region.area
