@@ -8,6 +8,16 @@ from pipeline.route.shapes import board_at
 from test_contract import _resistors, invoke, make_project, rect_cavity
 
 
+def _search_args(tmp_path, monkeypatch, resistors: int):
+    """The arguments the run hands the search (``smallest_board`` stubbed), for ``resistors`` resistors."""
+    seen = {}
+    monkeypatch.setattr(smallest_mod, "smallest_board", lambda *a, **kw: seen.setdefault("args", a) and None)
+    proj = make_project(tmp_path / "p", design=_resistors(resistors),
+                        cavity=rect_cavity(tmp_path / "c.dxf", 20.0, 14.0), tables={"board": {"outline": "smallest"}})
+    assert invoke("run", proj).exit_code == 0
+    return seen["args"]
+
+
 def test_smallest_board_routes_and_one_step_smaller_does_not(tmp_path, monkeypatch):
     seen = {}
     original = smallest_mod.smallest_board
@@ -78,12 +88,7 @@ def test_the_route_screen_routes_the_oriented_placement(tmp_path, monkeypatch):
     from pipeline.place_orient import orient_parts, pad_hpwl
     from pipeline.route.shapes import Shape
 
-    seen = {}
-    monkeypatch.setattr(smallest_mod, "smallest_board", lambda *a, **kw: seen.setdefault("args", a) and None)
-    proj = make_project(tmp_path / "p", design=_resistors(6), cavity=rect_cavity(tmp_path / "c.dxf", 20.0, 14.0),
-                        tables={"board": {"outline": "smallest"}})
-    assert invoke("run", proj).exit_code == 0
-    fit, items, region, options, design, library, rules = seen["args"]
+    fit, items, region, options, design, library, rules = _search_args(tmp_path, monkeypatch, 6)
     import pipeline.route.demand as demand_mod
 
     given, judged = [], []
@@ -110,3 +115,26 @@ def test_the_route_screen_routes_the_oriented_placement(tmp_path, monkeypatch):
     from pipeline.route.pads import board_from_placement
     pads = board_from_placement(board, f.placements, design, library, rules.layer_names).pads
     assert [(p.ref, p.pin, p.polygon.wkt) for p in judged[0].pads] == [(p.ref, p.pin, p.polygon.wkt) for p in pads]
+
+
+def test_equal_boards_are_placed_and_routed_once(tmp_path, monkeypatch):
+    # every shape's board at the region's own area is the region itself (pipeline/route/shapes.py), so two
+    # shapes there are one candidate: one compact placement, one improved placement, one routing
+    import pipeline.place as place_mod
+    import pipeline.route as route_mod
+    from pipeline.route.shapes import Shape
+
+    fit, items, region, options, design, library, rules = _search_args(tmp_path, monkeypatch, 4)
+    placed, routed = [], []
+    real_place, real_route = place_mod.place_and_fit, route_mod.route_fit
+    monkeypatch.setattr(place_mod, "place_and_fit",
+                        lambda *a, **kw: placed.append(kw.get("improve")) or real_place(*a, **kw))
+    monkeypatch.setattr(route_mod, "route_fit", lambda *a, **kw: routed.append(1) or real_route(*a, **kw))
+    s = smallest_mod._Search(fit, items, region, options, design, library, rules, None)
+    top = region.board_region.area
+    first = s.routes(Shape(0.0, 1.0), top)
+    again = s.routes(Shape(90.0, 2.0), top)
+    assert first is not None and again is first
+    assert placed == [False, True] and routed == [1]
+    assert s.counts["route attempts"] == 1 and s.counts["same board"] == 1
+    assert s.places(Shape(45.0, 3.0), top) is not None and placed == [False, True]   # screen 2 cached too

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from types import SimpleNamespace
 
 import pytest
 from hypothesis import given, settings
@@ -20,18 +21,30 @@ def _region(geom) -> Region:
 
 
 class _Oracle(smallest._Search):
-    """The search with a closed-form test in place of placing and routing: ``ok(board)``."""
+    """The search with a closed-form test in place of placing and routing: ``ok(board)``; every route
+    attempt counted (and charged ``cost_s`` seconds of routing) as the real screen counts it."""
 
-    def __init__(self, geom, floor, ok):
+    def __init__(self, geom, floor, ok, cost_s=0.0):
         self.region, self.floor, self.ok = _region(geom), floor, ok
-        self.progress, self.tries, self.counts = None, 0, {}
+        self.progress, self.tries, self.counts = None, 0, {"route attempts": 0}
+        self.rules, self.routing_s, self.cost_s = SimpleNamespace(time_budget_s=180.0), 0.0, cost_s
+        self.slowest_ok_s = 0.0
 
     def places(self, shape, area):
         self.tries += 1
         got = board_at(self.region.board_region, shape, area) if area >= self.floor else None
         return (got, None) if got is not None and self.ok(got[0]) else None
 
+    def demand(self, shape, area):
+        got = board_at(self.region.board_region, shape, area) if area >= self.floor else None
+        return (0.0, got[0].wkt) if got is not None else (math.inf, None)
+
     def routes(self, shape, area):
+        self.counts["route attempts"] += 1
+        self.routing_s += self.cost_s
+        return self.answer(shape, area)
+
+    def answer(self, shape, area):
         placed = self.places(shape, area)
         return None if placed is None else (None, None, placed[0][0], placed[0][1])
 
@@ -124,12 +137,12 @@ class _Routes(_Oracle):
         super().__init__(geom, floor, lambda b: True)
         self.need = need
 
-    def routes(self, shape, area):
-        return super().routes(shape, area) if area >= self.need else None
+    def answer(self, shape, area):
+        return super().answer(shape, area) if area >= self.need else None
 
 
 @pytest.mark.parametrize("need", [130.0, 151.0, 177.0])
-def test_phase_4_brings_the_area_within_tight_of_the_least_that_routes(need):
+def test_the_descent_brings_the_area_within_tight_of_the_least_that_routes(need):
     # a 20 x 20 square, courtyards 100 mm2: every board from `need` mm2 up routes, none below (closed form),
     # so the answer lies in [need, need x (1 + TIGHT)]
     s = _Routes(box(0, 0, 20, 20), 100.0, need)
@@ -145,14 +158,14 @@ class _Island(_Routes):
         super().__init__(geom, floor, need)
         self.lo, self.hi, self.calls = lo, hi, []
 
-    def routes(self, shape, area):
+    def answer(self, shape, area):
         self.calls.append(area)
         if self.lo <= area <= self.hi:
-            return _Oracle.routes(self, shape, area)
-        return super().routes(shape, area)
+            return _Oracle.answer(self, shape, area)
+        return super().answer(shape, area)
 
 
-def test_phase_5_finds_a_routed_island_below_the_bisection():
+def test_the_ladder_finds_a_routed_island_below_the_bisection():
     # a 20 x 20 square, courtyards 100 mm2: boards route from 200 mm2 up and also on [185, 190] mm2;
     # the bisection stops near 200 (it never looks under a failure), the ladder from 10 % below finds
     # the island (its rungs 1.5 % apart are finer than the island's 2.7 %)
@@ -162,7 +175,7 @@ def test_phase_5_finds_a_routed_island_below_the_bisection():
     assert failed < 185.0 and failed * (1 + smallest.LADDER) >= area * (1 - 1e-9)  # the rung just below failed
 
 
-def test_phase_5_is_bounded():
+def test_the_ladder_is_bounded():
     # nothing routes below 200 mm2: the ladder's attempts are at most its stated cap and none below the
     # start 10 % under the answer
     s = _Island(box(0, 0, 20, 20), 100.0, 200.0, 0.0, -1.0)
@@ -176,3 +189,67 @@ def test_phase_5_is_bounded():
     assert 0 < len(s2.calls) <= smallest.LADDER_SHAPES * rungs
     assert min(s2.calls) >= area * (1 - smallest.LADDER_SPAN) * (1 - 1e-9) and max(s2.calls) < area
     assert before > len(s2.calls)
+
+
+# ---------------------------------------------------------------- the search's bounds
+@pytest.mark.parametrize("attempts", [1, 4, 9])
+def test_the_search_makes_at_most_route_attempts(monkeypatch, attempts):
+    # a 20 x 20 square, courtyards 100 mm2, boards route from 151 mm2 up: the search left alone makes more
+    # attempts than these caps (counted below), and with a cap it stops at exactly the cap
+    free = _Routes(box(0, 0, 20, 20), 100.0, 151.0)
+    assert smallest.search(free) is not None and free.counts["route attempts"] > 9
+    monkeypatch.setattr(smallest, "ROUTE_ATTEMPTS", attempts)
+    s = _Routes(box(0, 0, 20, 20), 100.0, 151.0)
+    best = smallest.search(s)
+    assert s.counts["route attempts"] == attempts
+    assert best is not None and best[2][2].area >= 151.0 * (1 - 1e-9)   # the whole region routed first
+
+
+@pytest.mark.parametrize("cost_s", [50.0, 100.0, 300.0])
+def test_the_search_starts_no_attempt_past_its_routing_time(cost_s):
+    # each attempt charged cost_s seconds: attempts start while the sum is under SEARCH_SHARE x 180 s, so
+    # the search makes ceil(SEARCH_SHARE x 180 / cost_s) of them (closed form), when it wants more
+    s = _Routes(box(0, 0, 20, 20), 100.0, 151.0)
+    s.cost_s = cost_s
+    smallest.search(s)
+    assert s.counts["route attempts"] == math.ceil(smallest.SEARCH_SHARE * 180.0 / cost_s)
+
+
+def test_the_descent_starts_from_the_whole_region_and_fails_once_above_the_bracket():
+    # boards route from 151 mm2 up in a 20 x 20 square (400 mm2): the descent tries 400, 360, 324, ...
+    # (DESCENT steps) down to the first failure, then bisects; every step above the bracket routed
+    s = _Island(box(0, 0, 20, 20), 100.0, 151.0, 0.0, -1.0)
+    smallest.search(s)
+    steps = math.floor(math.log(151.0 / 400.0) / math.log(smallest.DESCENT)) + 1   # 400 x DESCENT^k >= 151
+    first = s.calls[:steps + 1]
+    assert first == pytest.approx([400.0 * smallest.DESCENT ** k for k in range(steps + 1)])
+    assert all(a >= 151.0 for a in first[:-1]) and first[-1] < 151.0
+
+
+def test_later_shapes_are_routed_in_order_of_their_demand():
+    # every shape places from 100 mm2; a stand-in demand rises with the aspect ratio: after the first shape,
+    # the later shapes are tried least demand first (so least aspect first), and at most SHAPES_ROUTED of them
+    class Ranked(_Routes):
+        def demand(self, shape, area):
+            p90, key = super().demand(shape, area)
+            return 0.1 * shape.aspect, key
+
+    s = Ranked(box(0, 0, 20, 20), 100.0, 151.0)
+    seen = []
+    real = s.answer
+    s.answer = lambda shape, area: seen.append(shape) or real(shape, area)
+    first_shape, *_ = smallest.search(s) or (None,)
+    later = list(dict.fromkeys(sh for sh in seen if sh != seen[0]))[:smallest.SHAPES_ROUTED]
+    aspects = [sh.aspect for sh in later]
+    assert aspects == sorted(aspects)
+
+
+@pytest.mark.parametrize("slowest, cap", [(0.0, 90.0), (1.0, 40.0), (30.0, 60.0), (44.0, 88.0), (1000.0, 90.0)])
+def test_the_attempt_cap_follows_the_slowest_routed_attempt(monkeypatch, slowest, cap):
+    # the first attempt may take ATTEMPT_SHARE of the budget; later ones CAP_FACTOR x the slowest that routed,
+    # at least CAP_MIN_S, at most that share: worked by hand for a 180 s budget, share 0.5, factor 2, 40 s
+    for name, value in [("ATTEMPT_SHARE", 0.5), ("CAP_FACTOR", 2.0), ("CAP_MIN_S", 40.0)]:
+        monkeypatch.setattr(smallest, name, value)
+    s = _Oracle(box(0, 0, 10, 10), 10.0, lambda b: True)
+    s.slowest_ok_s = slowest
+    assert s.attempt_cap_s() == pytest.approx(cap)

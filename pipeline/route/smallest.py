@@ -2,8 +2,8 @@
 
 Entry point: :func:`smallest_board`.
 
-Method: branch and bound over rectangle shapes with a bisection on area
-per shape (ours; bisection: R. L. Burden and J. D. Faires, "Numerical
+Method: branch and bound over rectangle shapes with a descent and a
+bisection on area per shape (ours; bisection: R. L. Burden and J. D. Faires, "Numerical
 analysis", section 2.1; branch and bound: A. H. Land and A. G. Doig,
 Econometrica 28, 1960). A candidate board is a rectangle of a given
 orientation, aspect ratio and area at the best position inside the usable
@@ -31,35 +31,42 @@ Each candidate passes cheap screens before the expensive routing:
    demands half as much, bench/README.md);
 4. routing (:func:`pipeline.route.route_fit`, which routes that placement
    first and then spreads the parts while they still place, each spread
-   placement given the same half turns and shifts), within ``ATTEMPT_SHARE``
-   of the routing time budget; the board counts only when the independent
-   copper check is clean.
+   placement given the same half turns and shifts), within the attempt's
+   cap (below); the board counts only when the independent copper check is
+   clean.
 
 Phase 1 bounds every shape from below: a bisection on area (``PLACE_STEPS``
 halvings of its logarithm) with screen 2 alone gives the least area at
-which the shape places. Phase 2 takes the shapes in order of that bound
-and routes: the first shape that routes at all is bisected on area
-(``ROUTE_STEPS`` halvings, screens 1 to 4); every later shape is first
-tried at ``1 - BEAT`` of the best area so far and bisected only when it
-routes there; a shape whose placement bound is not below that is skipped,
-and so are all after it (branch and bound); only the ``SHAPES_ROUTED``
-shapes with the least bounds are routed at all (a screen that trades
-completeness for time: routing is the expensive step). Phase 3 refines the best
-shape's angle by ``REFINE_DEG`` either side and its aspect by
-``REFINE_ASPECT``, as in phase 2. Phase 4 bisects the best shape's area
-further, between its last failure and its best, until the two are within
-``TIGHT`` (at most ``TIGHT_STEPS`` more attempts). Phase 5 routes the
+which the shape places. Phase 2 routes the whole region (every shape's
+board at the region's area is the region itself) and descends from there
+with the shape of the least placement bound (:func:`_descend`: steps of
+``DESCENT`` down until a board does not route, then a bisection until the
+least routed area and the last failure are within ``TIGHT``); then the
+other shapes whose bound is below ``1 - BEAT`` of the best area, ranked by
+screen 3's RUDY demand at that area (:func:`_ranked`, the ``SHAPES_ROUTED``
+least), are each tried there and descended when they route (branch and
+bound). Phase 3 refines the best shape's angle by ``REFINE_DEG`` either side
+and its aspect by ``REFINE_ASPECT``, as in phase 2. Phase 4 routes the
 ``LADDER_SHAPES`` shapes with the least placement bounds on a ladder of
 areas rising by ``LADDER`` from ``LADDER_SPAN`` below the best (routing is
-not monotone in area, so a bisection can step over a smaller board that
-routes; :func:`_ladder`). Deterministic (shapes in a fixed order,
-ties keep the first); the router's own time budget is the one outside
-influence.
+not monotone in area, so a descent can step over a smaller board that
+routes; :func:`_ladder`). Deterministic (shapes in a fixed order, ties keep
+the first; equal boards are placed and routed once); the router's time
+budget is the one outside influence.
 
-Cost: ``shapes x PLACE_STEPS`` placements (about 0.1 s each for 60 parts)
-plus, for the routed shapes, ``ROUTE_STEPS + 1`` route attempts each (and
-``TIGHT_STEPS`` at most for the best, and up to 20 on the ladder), an
-attempt being up to ``len(SPREAD_STEPS)`` routings.
+Bounded: the search starts no route attempt once ``ROUTE_ATTEMPTS`` were
+made or their routing took ``SEARCH_SHARE`` x the routing time budget
+together (what it found by then is its answer); the first attempt may take
+``ATTEMPT_SHARE`` of the budget and each later one ``CAP_FACTOR`` x the
+slowest attempt that routed, at least ``CAP_MIN_S`` (a board that does not
+route spends its whole cap trying route_fit's spread placements, one that
+routes stops at the first that does; :meth:`_Search.attempt_cap_s`).
+
+Cost: ``shapes x (PLACE_STEPS + 2)`` placements (about 0.1 s each for 60
+parts), one improved placement and RUDY map per ranked shape, and at most
+``ROUTE_ATTEMPTS`` route attempts, each up to ``len(SPREAD_STEPS) +
+len(PIN_STEPS)`` routings within its cap: the routing part at most
+``SEARCH_SHARE x budget`` plus one attempt's cap.
 """
 
 from __future__ import annotations
@@ -73,8 +80,8 @@ from shapely.geometry import Polygon
 from .shapes import Shape, board_at
 
 __all__ = ["smallest_board", "search", "Smallest", "shapes_to_try", "ANGLE_STEP_DEG", "ASPECTS", "PLACE_STEPS",
-           "ROUTE_STEPS", "P90_MAX", "ATTEMPT_SHARE", "BEAT", "SHAPES_ROUTED", "TIGHT", "TIGHT_STEPS",
-           "LADDER_SHAPES", "LADDER", "LADDER_SPAN"]
+           "P90_MAX", "ATTEMPT_SHARE", "BEAT", "SHAPES_ROUTED", "TIGHT", "DESCENT", "ROUTE_ATTEMPTS", "CAP_FACTOR",
+           "CAP_MIN_S", "SEARCH_SHARE", "LADDER_SHAPES", "LADDER", "LADDER_SPAN"]
 
 #: orientation step over half a turn, degrees.
 ANGLE_STEP_DEG = 15.0
@@ -82,37 +89,49 @@ ANGLE_STEP_DEG = 15.0
 ASPECTS = (1.0, 1.5, 2.0, 3.0, 4.0)
 #: bisection halvings of log(area) for the placement bound of each shape.
 PLACE_STEPS = 5
-#: bisection halvings of log(area) for the routed area of a shape.
-ROUTE_STEPS = 4
 #: a later shape must beat the best area so far by this share to be tried (our choice).
 BEAT = 0.02
 #: RUDY 90th-percentile demand / capacity of the placement to be routed above which it is not routed
 #: (our choice: only the hopeless; on the 60-part board the spread placements at 2.4 to 2.5 x the courtyard
 #: sum demand 0.44 to 0.51 where the compact ones demand 0.95 to 1.16, bench/README.md).
 P90_MAX = 1.0
-#: share of the copper rules' routing time budget one candidate's routing (all of route_fit's attempts) may
-#: spend in the search (our choice: on the 60-part board of bench/bench_route.py at 2.4 to 2.5 x the
-#: courtyard sum, two candidates routed, in 33 s (second placement) and 141 s (fifth, loaded machine), and
-#: the four that did not each spent the whole 180 s; half the budget loses the slow successes but tries
-#: twice the candidates in the same time; bench/README.md).
+#: share of the copper rules' routing time budget the first candidate's routing (all of route_fit's
+#: attempts) may spend in the search, and the most any later one may (our choice: on the 60-part board of
+#: bench/bench_route.py at 2.4 to 2.5 x the courtyard sum, two candidates routed, in 33 s and 141 s, and the
+#: four that did not each spent the whole 180 s, bench/README.md).
 ATTEMPT_SHARE = 0.5
-#: phase 2 routes at most this many shapes, those with the least placement bounds (a screen: routing
-#: is the expensive step; our choice).
-SHAPES_ROUTED = 10
+#: a later candidate's routing may take this many times the slowest candidate that routed (our choice:
+#: on the 60-part board the boards from 2.45 to 3.2 x routed in 3 to 32 s, the slowest near the least
+#: routed area, where one that does not route would otherwise spend ATTEMPT_SHARE x 180 s; bench/README.md).
+CAP_FACTOR = 2.0
+#: ... and at least this many seconds (our choice: what the 60-part board's slow successes took).
+CAP_MIN_S = 40.0
+#: the whole search routes at most this many candidates (our choice: the demo's searches made 13 to 20)...
+ROUTE_ATTEMPTS = 60
+#: ... and starts no route attempt once they took this many times the rules' time budget together (our
+#: choice: 4 x the default 180 s is 12 minutes of routing; the 60-part board's whole search took 20 minutes
+#: with its placements at a load average of 5 and stopped on this bound, the demo's routed for 88 s in all;
+#: bench/README.md).
+SEARCH_SHARE = 4.0
+#: phase 2 routes at most this many shapes besides the first, those with the least RUDY demand (a screen:
+#: routing is the expensive step; our choice).
+SHAPES_ROUTED = 6
+#: the descent's step: from an area that routes, the next tried is this share of it (our choice: on the
+#: 60-part board a step of 0.9 met a failure 7 to 10 % under each later shape's least routed area, at 70 s
+#: each, where the routed steps above cost 10 to 35 s; bench/README.md).
+DESCENT = 0.95
 #: phase 3: angle steps either side of the best, degrees, and aspect factors.
 REFINE_DEG = (7.5, 3.75)
 REFINE_ASPECT = (1.25, 1.0 / 1.25)
-#: phase 4: the best shape is bisected further until its routed area is within this share of its last
-#: failure (our choice; four halvings over the first shape's span leave about 3 %).
+#: the descent's bisection stops when the least routed area is within this share of the last failure
+#: (our choice: the ratio is reported to two decimals, and 1 % of 1.5 to 2.5 is 0.015 to 0.025).
 TIGHT = 0.01
-#: phase 4: at most this many more route attempts.
-TIGHT_STEPS = 3
-#: phase 5: how many shapes (least placement bounds first) are routed on a ladder of areas (our choice).
+#: phase 4: how many shapes (least placement bounds first) are routed on a ladder of areas (our choice).
 LADDER_SHAPES = 2
-#: phase 5: the ladder's step, a share of the area: the search's own resolution ``TIGHT`` (one rule
+#: phase 4: the ladder's step, a share of the area: the search's own resolution ``TIGHT`` (one rule
 #: for how close a failure must be to the answer; 1.5 % was tried first, bench/README.md).
 LADDER = TIGHT
-#: phase 5: the ladder starts this share below the best area (our choice).
+#: phase 4: the ladder starts this share below the best area (our choice).
 LADDER_SPAN = 0.1
 
 Progress = Callable[[str, float], None]
@@ -172,18 +191,43 @@ def shapes_to_try(region, angle_step: float = ANGLE_STEP_DEG, aspects=ASPECTS) -
 
 
 class _Search:
-    """The screens and the bookkeeping; ``works(shape, area)`` is the whole test of one candidate."""
+    """The screens and the bookkeeping; ``routes(shape, area)`` is the whole test of one candidate.
+
+    Candidates are keyed by their board (:func:`_board_key`): shapes that
+    give the same board (a rectangle the region cuts the same way at two
+    orientations, or the whole region) are placed, screened and routed once.
+    """
 
     def __init__(self, fit, items, region, options, design, library, rules, progress):
         self.fit, self.items, self.region, self.options = fit, items, region, options
         self.design, self.library, self.rules, self.progress = design, library, rules, progress
         self.floor = fit.courtyard_area_mm2
         self.counts = {"below courtyard sum": 0, "outside region": 0, "does not place": 0, "demand too high": 0,
-                       "routed": 0, "route attempts": 0, "placements": 0}
+                       "routed": 0, "route attempts": 0, "placements": 0, "same board": 0}
         self.tries = 0
+        self.placed: dict = {}     # board key -> screen 2's compact fit
+        self.prepared: dict = {}   # board key -> (key, board, mode, fit to route, RUDY p90) or None
+        self.routed: dict = {}     # board key -> what routes returned
+        self.slowest_ok_s = 0.0    # the longest routing (s) of a candidate that routed
+        self.routing_s = 0.0       # seconds all route attempts took together
+
+    def left(self) -> bool:
+        """Whether the search may route another candidate: fewer than ``ROUTE_ATTEMPTS`` made and their
+        routing under ``SEARCH_SHARE`` x the rules' time budget in all."""
+        return (self.counts.get("route attempts", 0) < ROUTE_ATTEMPTS
+                and self.routing_s < SEARCH_SHARE * self.rules.time_budget_s)
+
+    def attempt_cap_s(self) -> float:
+        """Seconds the next candidate's routing may take: ``CAP_FACTOR`` x the slowest routed candidate so
+        far, at least ``CAP_MIN_S``, at most ``ATTEMPT_SHARE`` of the rules' time budget (that share
+        until a candidate has routed)."""
+        share = ATTEMPT_SHARE * self.rules.time_budget_s
+        if self.slowest_ok_s <= 0.0:
+            return share
+        return min(share, max(CAP_MIN_S, CAP_FACTOR * self.slowest_ok_s))
 
     def places(self, shape: Shape, area: float):
-        """Screens 1 and 2: the board and its compact placement, or None."""
+        """Screens 1 and 2: the board and its compact placement, or None (placed once per board)."""
         from ..place import place_and_fit
 
         self.tries += 1
@@ -194,45 +238,85 @@ class _Search:
         if got is None or got[0].is_empty:
             self.counts["outside region"] += 1
             return None
-        self.counts["placements"] += 1
-        f = place_and_fit(self.items, self.region, self.options, user_board=got[0], improve=False)
+        key = _board_key(got[0])
+        if key in self.placed:
+            self.counts["same board"] += 1
+            f = self.placed[key]
+        else:
+            self.counts["placements"] += 1
+            f = self.placed[key] = place_and_fit(self.items, self.region, self.options, user_board=got[0],
+                                                 improve=False)
         if not f.fits:
             self.counts["does not place"] += 1
             return None
         return got, f
 
-    def routes(self, shape: Shape, area: float):
-        """All four screens: ``(fit, outcome, board, mode)`` when the board routes, else None; the routing
-        (screen 4) may spend ``ATTEMPT_SHARE`` of the rules' time budget."""
-        import dataclasses
-
+    def prepare(self, shape: Shape, area: float):
+        """Screens 1 to 3 once per board: ``(key, board, mode, fit, p90)`` with the placement to be routed and
+        its RUDY 90th-percentile demand / capacity, or None when a screen before the demand stops it."""
         from ..place import place_and_fit
-        from . import ROUTED, route_fit
         from .demand import routing_demand
         from .pads import board_from_placement
 
+        got = board_at(self.region.board_region, shape, area) if area >= self.floor else None
+        key = _board_key(got[0]) if got is not None and not got[0].is_empty else None
+        if key is not None and key in self.prepared:
+            self.counts["same board"] += 1
+            return self.prepared[key]
         placed = self.places(shape, area)
-        if placed is None:
+        ready = None
+        if placed is not None:
+            (board, mode), _ = placed
+            f = place_and_fit(self.items, self.region, self.options, user_board=board, improve=True)
+            if not f.fits:
+                self.counts["does not place"] += 1
+            else:
+                f = self.oriented(f)
+                pads = board_from_placement(board, f.placements, self.design, self.library, self.rules.layer_names,
+                                            level=self.options.density)
+                ready = (key, board, mode, f, routing_demand(pads, self.rules).p90)
+        if key is not None:
+            self.prepared[key] = ready
+        return ready
+
+    def routes(self, shape: Shape, area: float):
+        """All four screens: ``(fit, outcome, board, mode)`` when the board routes, else None; the routing
+        (screen 4) may spend :meth:`attempt_cap_s`. Call only while :meth:`left` holds."""
+        import dataclasses
+        import time
+
+        from . import ROUTED, route_fit
+
+        ready = self.prepare(shape, area)
+        if ready is None:
             return None
-        (board, mode), _ = placed
-        f = place_and_fit(self.items, self.region, self.options, user_board=board, improve=True)
-        if not f.fits:
-            self.counts["does not place"] += 1
-            return None
-        f = self.oriented(f)
-        pads = board_from_placement(board, f.placements, self.design, self.library, self.rules.layer_names,
-                                    level=self.options.density)
-        if routing_demand(pads, self.rules).p90 > P90_MAX:
+        key, board, mode, f, p90 = ready
+        if key in self.routed:
+            return self.routed[key]
+        if p90 > P90_MAX:
             self.counts["demand too high"] += 1
+            self.routed[key] = None
             return None
         self.counts["route attempts"] += 1
-        rules = dataclasses.replace(self.rules, time_budget_s=ATTEMPT_SHARE * self.rules.time_budget_s)
+        rules = dataclasses.replace(self.rules, time_budget_s=self.attempt_cap_s())
+        start = time.monotonic()
         f, out = route_fit(f, self.items, self.region, self.options, self.design, self.library, rules,
                            user_board=board, arrange=self.oriented)
-        if out.verdict.status != ROUTED:
-            return None
-        self.counts["routed"] += 1
-        return f, out, board, mode
+        took = time.monotonic() - start
+        self.routing_s += took
+        got = None
+        if out.verdict.status == ROUTED:
+            self.counts["routed"] += 1
+            self.slowest_ok_s = max(self.slowest_ok_s, took)
+            got = (f, out, board, mode)
+        self.routed[key] = got
+        return got
+
+    def demand(self, shape: Shape, area: float) -> tuple[float, str | None]:
+        """Screen 3's figure for ``shape`` at ``area`` (RUDY p90 / capacity; infinity when it does not place)
+        and the board's key (None when there is no board)."""
+        ready = self.prepare(shape, area)
+        return (math.inf, None) if ready is None else (ready[4], ready[0])
 
     def oriented(self, f):
         """``f`` with its movable parts turned a half turn where that shortens their nets
@@ -269,17 +353,12 @@ class _Search:
                 hi = mid
         return hi
 
-    def bisect_route(self, shape: Shape, lo: float, hi: float, found, steps: int = ROUTE_STEPS):
-        """Bisect log(area) in ``(lo, hi]`` (``found`` routes at ``hi``): the least routed area and the last failure."""
-        failed = 0.0
-        for _ in range(steps):
-            mid = math.sqrt(lo * hi)
-            got = self.routes(shape, mid)
-            if got is None:
-                lo = failed = mid
-            else:
-                hi, found = mid, got
-        return hi, found, failed
+
+def _board_key(board: Polygon) -> str:
+    """One text per board, the same for equal boards (vertices to 1e-6 mm, normalised ring order)."""
+    import shapely
+
+    return shapely.set_precision(board, 1e-6).normalize().wkt
 
 
 def smallest_board(fit, items, region, options, design, library, rules, *,
@@ -304,7 +383,7 @@ def smallest_board(fit, items, region, options, design, library, rules, *,
 
 
 def search(s: "_Search"):
-    """Phases 1 to 5 (module notes) over ``s`` (its ``places`` and ``routes`` screens).
+    """Phases 1 to 4 (module notes) over ``s`` (its ``places``, ``demand`` and ``routes`` screens).
 
     Returns ``(shape, area, found, failed_area)`` for the smallest routed
     board (``found`` is what ``s.routes`` returned), or None.
@@ -313,14 +392,18 @@ def search(s: "_Search"):
     bounds = []
     for k, shape in enumerate(shapes):
         if s.progress is not None:
-            s.progress(f"smallest board: placement bound {k + 1}/{len(shapes)}", 0.5 * k / len(shapes))
+            s.progress(f"smallest board: placement bound {k + 1}/{len(shapes)}", 0.4 * k / len(shapes))
         b = s.place_bound(shape)
         if b is not None:
             bounds.append((b, k, shape))
     bounds.sort()
-    best = _route_phase(s, [(b, sh) for b, _, sh in bounds[:SHAPES_ROUTED]], None, 0.5, 0.4)
+    ordered = [(b, sh) for b, _, sh in bounds]
+    best = _route_phase(s, ordered[:1], None, 0.4, 0.1)
     if best is None:
-        return None
+        best = _route_phase(s, ordered[1:], None, 0.5, 0.0)   # the first shape's board did not route at all
+        if best is None:
+            return None
+    best = _route_phase(s, _ranked(s, ordered, best), best, 0.5, 0.3)
     refined = []
     for d in REFINE_DEG:
         refined += [Shape((best[0].angle_deg + sign * d) % 180.0, best[0].aspect) for sign in (-1, 1)]
@@ -330,13 +413,65 @@ def search(s: "_Search"):
         b = s.place_bound(shape)
         if b is not None:
             fresh.append((b, shape))
-    best = _tighten(s, _route_phase(s, sorted(fresh, key=lambda t: t[0]), best, 0.9, 0.1))
+    best = _route_phase(s, _ranked(s, sorted(fresh, key=lambda t: t[0]), best), best, 0.8, 0.1)
     every = sorted([(b, k, sh) for b, k, sh in bounds] + [(b, len(shapes) + k, sh) for k, (b, sh) in enumerate(fresh)])
     return _ladder(s, [(b, sh) for b, _, sh in every], best)
 
 
+def _ranked(s: "_Search", bounds, best):
+    """The shapes worth routing against ``best``, best first: those whose placement bound is below the
+    area they would be tried at, ``(1 - BEAT) x`` the best area, ordered by screen 3's RUDY demand there
+    (least first; ties by bound, then by the order given), one shape per board, at most ``SHAPES_ROUTED``.
+
+    Why by demand: the 60-part board's shapes all place from 1.2 x the courtyard sum (their bounds tie),
+    while at 2.5 x some route and some do not (bench/README.md). Cost: one placement with the improvement
+    pass, the half turns and one RUDY map per shape (about 1 s each for 60 parts).
+    """
+    target = best[1] * (1.0 - BEAT)
+    scored, boards = [], set()
+    for k, (bound, shape) in enumerate(bounds):
+        if bound >= target or shape == best[0]:
+            continue
+        p90, key = s.demand(shape, target)
+        if p90 > P90_MAX or (key is not None and key in boards):
+            continue
+        boards.add(key)
+        scored.append((p90, bound, k, shape))
+    scored.sort(key=lambda t: t[:3])
+    return [(bound, shape) for _, bound, _, shape in scored[:SHAPES_ROUTED]]
+
+
+def _descend(s: "_Search", shape: Shape, area: float, found):
+    """From a routed ``area``, step down by ``DESCENT`` until a board does not route, then bisect log(area)
+    between that failure and the least routed area until they are within ``TIGHT`` (an exponential search
+    then a bisection: J. L. Bentley and A. C. Yao, "An almost optimal algorithm for unbounded searching",
+    Information Processing Letters 5(3), 1976, with a fixed step). Stops early when the route attempts run
+    out. Returns ``(area, found, failed)``; ``failed`` is 0 when no failure was met.
+
+    Why downwards: a board well above the least routed area routes in a few seconds (the 60-part board's
+    top and 2.8 x: 4 and 3 s), while one that does not route spends its whole cap, so steps from above
+    meet one failure before the bracket where a bisection from the placement bound meets one per halving.
+    """
+    failed = 0.0
+    while s.left():
+        nxt = area * DESCENT
+        got = s.routes(shape, nxt)
+        if got is None:
+            failed = nxt
+            break
+        area, found = nxt, got
+    while failed > 0.0 and area > failed * (1.0 + TIGHT) and s.left():
+        mid = math.sqrt(failed * area)
+        got = s.routes(shape, mid)
+        if got is None:
+            failed = mid
+        else:
+            area, found = mid, got
+    return area, found, failed
+
+
 def _ladder(s: "_Search", bounds, best):
-    """Phase 5: the ``LADDER_SHAPES`` shapes with the least placement bounds, each routed on a ladder of
+    """Phase 4: the ``LADDER_SHAPES`` shapes with the least placement bounds, each routed on a ladder of
     areas rising by ``1 + LADDER`` from ``max(bound, (1 - LADDER_SPAN) x best)`` while below the best
     area; a shape's first rung that routes is its answer, and the best so far when smaller.
 
@@ -345,11 +480,12 @@ def _ladder(s: "_Search", bounds, best):
     above such an island never looks below it: on the demo (bench/README.md) the shape at 0 deg,
     aspect 1.5 failed at 1.58 x the courtyard sum and was left at 1.63 x, but routes at 1.45 x.
     Cost: at most ``LADDER_SHAPES x ceil(log((1 - TIGHT) / (1 - LADDER_SPAN)) / log(1 + LADDER))``
-    route attempts (20 with the values here); a rung that does not place costs one placement.
+    route attempts (20 with the values here), fewer when the search's ``ROUTE_ATTEMPTS`` run out; a
+    rung that does not place costs one placement.
     """
     for bound, shape in bounds[:LADDER_SHAPES]:
         area, failed = max(bound, best[1] * (1.0 - LADDER_SPAN)), 0.0
-        while area < best[1] * (1.0 - TIGHT):
+        while area < best[1] * (1.0 - TIGHT) and s.left():
             got = s.routes(shape, area)
             if got is not None:
                 best = (shape, area, got, failed)
@@ -358,38 +494,23 @@ def _ladder(s: "_Search", bounds, best):
     return best
 
 
-def _tighten(s: "_Search", best):
-    """Phase 4: bisect the best shape between its last failure (else the courtyard sum) and its area
-    until they are within ``TIGHT`` (at most ``TIGHT_STEPS`` more route attempts)."""
-    shape, area, found, failed = best
-    lo = failed if failed > 0 else s.floor
-    steps = 0
-    while steps < TIGHT_STEPS and lo > 0 and area / lo > (1.0 + TIGHT) ** (2 ** steps):
-        steps += 1
-    if steps == 0:
-        return best
-    hi, found, last = s.bisect_route(shape, lo, area, found, steps)
-    return shape, hi, found, last or failed
-
-
 def _route_phase(s: _Search, bounds, best, start: float, span: float):
-    """Phase 2/3: route the shapes in order of their placement bound; ``best`` is (shape, area, found, failed)."""
+    """Phases 2 and 3: route the shapes in the order given; ``best`` is (shape, area, found, failed).
+
+    Without a best the shape is routed on the whole region first and descended from there
+    (:func:`_descend`); with one, it is tried at ``1 - BEAT`` of the best area and descended only when it
+    routes there. Stops when the search's ``ROUTE_ATTEMPTS`` run out.
+    """
     for k, (bound, shape) in enumerate(bounds):
+        if not s.left():
+            break
         if s.progress is not None:
             s.progress(f"smallest board: routing shape {k + 1}/{len(bounds)}", start + span * k / max(len(bounds), 1))
-        if best is None:
-            top = s.region.board_region.area
-            got = s.routes(shape, top)
-            if got is None:
-                continue
-            area, found, failed = s.bisect_route(shape, bound, top, got)
-            best = (shape, area, found, failed)
-            continue
-        target = best[1] * (1.0 - BEAT)
-        if bound >= target:
-            break  # every later shape places only on a board at least this large
-        got = s.routes(shape, target)
+        area = s.region.board_region.area if best is None else best[1] * (1.0 - BEAT)
+        if best is not None and bound >= area:
+            continue  # it places only on a board at least this large
+        got = s.routes(shape, area)
         if got is not None:
-            area, found, failed = s.bisect_route(shape, bound, target, got)
+            area, found, failed = _descend(s, shape, area, got)
             best = (shape, area, found, failed)
     return best
