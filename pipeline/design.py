@@ -30,6 +30,7 @@ from typing import Any, Iterable
 from . import values as _values
 from .blocktables import OLD_TABLE, TABLE, block_tables
 from .errors import DesignError, Where
+from .findings_group import listed
 from .gcpause import paused_gc
 from .library.custom import package_from_table
 from .library.kinds import CATEGORIES
@@ -262,7 +263,7 @@ def _height_notes(parts: tuple[Part, ...], lib: Any) -> list[Finding]:
     sizes = sorted({p.package for p in parts if p.ref in named})
     shown = ", ".join(f"{s} {lib.package(s).height_mm:.2f} mm" for s in sizes)
     return [Finding("info", "design.height-default", tuple(refs),
-                    f"{', '.join(refs)}: chip capacitors take the package height ({shown}, a "
+                    f"{listed(refs)}: chip capacitors take the package height ({shown}, a "
                     "thick capacitor's); chip resistors take the resistor thickness. Give "
                     "height_mm on a part to use its datasheet figure")]
 

@@ -118,16 +118,19 @@ KINDS: tuple[Kind, ...] = (
 GROUPED_CODES: tuple[str, ...] = tuple(dict.fromkeys(k.code for k in KINDS))
 
 
-def listed(names: Iterable[str], limit: int = LIST_LIMIT) -> str:
-    """``names`` joined by commas, the first ``limit`` of them and "and N more" past that.
+def listed(names: Iterable[str], limit: int = LIST_LIMIT, sep: str = ", ") -> str:
+    """``names`` joined by ``sep``, the first ``limit`` of them and "and N more" past that (the one
+    rule for a list of parts in a message; the finding's subject keeps them all).
 
     >>> listed(["R1", "R2", "R3"], limit=2)
     'R1, R2 and 1 more'
+    >>> listed(["R1 needs 0.1 W", "R2 needs 0.2 W"], sep="; ")
+    'R1 needs 0.1 W; R2 needs 0.2 W'
     """
     names = list(names)
     if len(names) <= limit:
-        return ", ".join(names)
-    return ", ".join(names[:limit]) + f" and {len(names) - limit} more"
+        return sep.join(names)
+    return sep.join(names[:limit]) + f" and {len(names) - limit} more"
 
 
 def _kind_of(f: Finding) -> Kind | None:

@@ -78,6 +78,7 @@ import re
 from dataclasses import dataclass
 from functools import lru_cache
 
+from pipeline.findings_group import listed
 from pipeline.graph import is_ground, pin_net_map
 from pipeline.model import Design, Finding, Net, Part, PinRef
 from pipeline.order import natural_key
@@ -232,9 +233,9 @@ def _missing_summary(found: list[_Missing]) -> list[Finding]:
                 refs = tuple(m.ref for m in group)
                 if known:
                     msg = (f"{len(refs)} parts have no {what} rating and need one: "
-                           + "; ".join(f"{m.ref} {m.need}" for m in group) + ".")
+                           + listed((f"{m.ref} {m.need}" for m in group), sep="; ") + ".")
                 else:
-                    msg = (f"{', '.join(refs)} have no {what} rating and the voltage across them is "
+                    msg = (f"{listed(refs)} have no {what} rating and the voltage across them is "
                            f"unknown: declare their nets' voltages and give them ratings.")
                 out.append(Finding("info", "ratings.missing", refs, msg))
     return out
@@ -568,7 +569,7 @@ def _series_summary(in_series: list[Part]) -> list[Finding]:
         v = float(part.value)
         by_series.setdefault(series_of(v)[0], []).append(f"{part.ref} {_show(v, _VALUE_UNIT[part.kind])}")
     order = sorted(by_series, key=lambda name: int(name[1:]))
-    groups = "; ".join(f"{name}: {', '.join(by_series[name])}" for name in order)
+    groups = "; ".join(f"{name}: {listed(by_series[name])}" for name in order)
     refs = tuple(p.ref for p in ordered)
     return [Finding("info", "values.series", refs,
                     f"{len(refs)} values are IEC 60063 preferred values, each listed under the coarsest "

@@ -385,3 +385,17 @@ def test_each_kind_value_and_tolerance_is_judged_once():
     assert len(series) == 1 and len(series[0].subject) == 300
     assert "E3: R1 4.7k ohm, R3 10k ohm, R4 4.7k ohm" in series[0].message
     assert "E6: R2 1.5 ohm, R5 1.5 ohm" in series[0].message
+
+
+@pytest.mark.parametrize("count, tail", [(12, None), (13, " and 1 more"), (40, " and 28 more")])
+def test_long_part_lists_are_shortened_in_the_message_and_kept_whole_in_the_subject(count, tail):
+    # Issue 10 item 7: a note listing every part drowned a 1,000-part run (12,000 characters); past
+    # pipeline.findings_group.LIST_LIMIT (12) parts a message counts the rest, the subject keeps all.
+    parts = [res(f"R{i}", 10e3) for i in range(1, count + 1)]
+    wiring = {"A": [(p.ref, "1") for p in parts], "B": [(p.ref, "2") for p in parts]}
+    found = check_values(design(parts, {}, wiring))
+    for code in ("ratings.missing", "values.series"):
+        f = [x for x in found if x.check == code]
+        assert len(f) == 1 and f[0].subject == tuple(p.ref for p in parts)
+        assert f"R{count} " not in f[0].message + " " if tail else f"R{count}" in f[0].message
+        assert (tail in f[0].message) if tail else ("more" not in f[0].message)
