@@ -132,6 +132,7 @@ from shapely.geometry.polygon import orient
 
 from .area import estimate_area
 from .errors import DesignError, ProjectError
+from .findings_group import listed
 from . import place_rules, place_spread
 from .improve import MIN_GAIN, improve_swaps
 from .model import BoardOptions, FitResult, Finding, PlaceItem, Placement, Region
@@ -169,13 +170,6 @@ SPREAD_MIN_GAIN = 1e-3
 
 def _area(v: float) -> str:
     return f"{v:.1f}" if v < 100 else f"{v:.0f}"
-
-
-def _names(refs: Sequence[str], limit: int = 12) -> str:
-    refs = list(refs)
-    if len(refs) <= limit:
-        return ", ".join(refs)
-    return ", ".join(refs[:limit]) + f" and {len(refs) - limit} more"
 
 
 def _inset(geom: BaseGeometry, d: float) -> BaseGeometry:
@@ -973,7 +967,7 @@ def _diagnose(packer: _Packer, run: _Run, not_placed: Sequence[int], region: Reg
         {"big": too_big, "zone": no_zone_room, "room": no_room}[static[key]].append(i)
 
     def refs(ids):
-        return _names(sorted((items[i].ref for i in ids), key=natural_key))
+        return listed(sorted((items[i].ref for i in ids), key=natural_key))
 
     deepest = packer.heights[-1] if packer.heights else math.inf
     for i in sorted(too_tall, key=lambda i: (-items[i].height_mm, natural_key(items[i].ref))):
