@@ -104,6 +104,10 @@ def _expand(g, bits, heap, best, parent, targets, heuristic, box, costs, steps, 
     One expansion: a heap pop, one read of ``bits`` for the legal steps, and
     per step a few list reads and at most one heap push. Ties in the heap
     break on push order (a running count), so the path is deterministic.
+    The four plane steps are written out one by one rather than gathered in
+    a list and looped over: this loop is most of a routed run's time, and
+    the written-out form does a third less work per expansion (same pushes,
+    same order, same floating-point expressions, so the same paths).
     """
     nx, plane, nl = g.nx, g.nx * g.ny, len(g.layers)
     present, hist, claim_occ, near, via_near = costs
@@ -119,32 +123,57 @@ def _expand(g, bits, heap, best, parent, targets, heuristic, box, costs, steps, 
         if gn > best[n] + 1e-12:
             continue
         b = bits[n]
-        if (n in targets) if aim else b & VIA:
+        if aim:
+            if n in targets:
+                return n
+        elif b & VIA:
             return n
         li, r = divmod(n, plane)
         j, i = divmod(r, nx)
-        hs, vs = hstep[li], vstep[li]
-        out = []
         if b & EAST and i < i1:
-            out.append((n + 1, hs, hx[i + 1] + hy[j]))
-        if b & WEST and i > i0:
-            out.append((n - 1, hs, hx[i - 1] + hy[j]))
-        if b & NORTH and j < j1:
-            out.append((n + nx, vs, hx[i] + hy[j + 1]))
-        if b & SOUTH and j > j0:
-            out.append((n - nx, vs, hx[i] + hy[j - 1]))
-        if vias and b & VIA:
-            step = via_cost + present * via_near[r]
-            for lj in range(nl):
-                if lj != li and bits[lj * plane + r] & ENTER:
-                    out.append((lj * plane + r, step, hx[i] + hy[j]))
-        for m, step, hv in out:
-            gm = gn + (step * (1.0 + hist[m]) * (1.0 + present * claim_occ[m]) + present * near[m])
+            m = n + 1
+            gm = gn + (hstep[li] * (1.0 + hist[m]) * (1.0 + present * claim_occ[m]) + present * near[m])
             if gm < best[m] - 1e-12:
                 best[m] = gm
                 parent[m] = n
                 cnt += 1
-                heappush(heap, (gm + hv, cnt, m, gm))
+                heappush(heap, (gm + (hx[i + 1] + hy[j]), cnt, m, gm))
+        if b & WEST and i > i0:
+            m = n - 1
+            gm = gn + (hstep[li] * (1.0 + hist[m]) * (1.0 + present * claim_occ[m]) + present * near[m])
+            if gm < best[m] - 1e-12:
+                best[m] = gm
+                parent[m] = n
+                cnt += 1
+                heappush(heap, (gm + (hx[i - 1] + hy[j]), cnt, m, gm))
+        if b & NORTH and j < j1:
+            m = n + nx
+            gm = gn + (vstep[li] * (1.0 + hist[m]) * (1.0 + present * claim_occ[m]) + present * near[m])
+            if gm < best[m] - 1e-12:
+                best[m] = gm
+                parent[m] = n
+                cnt += 1
+                heappush(heap, (gm + (hx[i] + hy[j + 1]), cnt, m, gm))
+        if b & SOUTH and j > j0:
+            m = n - nx
+            gm = gn + (vstep[li] * (1.0 + hist[m]) * (1.0 + present * claim_occ[m]) + present * near[m])
+            if gm < best[m] - 1e-12:
+                best[m] = gm
+                parent[m] = n
+                cnt += 1
+                heappush(heap, (gm + (hx[i] + hy[j - 1]), cnt, m, gm))
+        if vias and b & VIA:
+            step = via_cost + present * via_near[r]
+            hv = hx[i] + hy[j]
+            for lj in range(nl):
+                m = lj * plane + r
+                if lj != li and bits[m] & ENTER:
+                    gm = gn + (step * (1.0 + hist[m]) * (1.0 + present * claim_occ[m]) + present * near[m])
+                    if gm < best[m] - 1e-12:
+                        best[m] = gm
+                        parent[m] = n
+                        cnt += 1
+                        heappush(heap, (gm + hv, cnt, m, gm))
     return None
 
 
