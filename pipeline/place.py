@@ -1,7 +1,7 @@
 """Placement that proves the fit: every courtyard on the board, or why not.
 
 Entry point: :func:`place_and_fit`. Also :func:`hpwl` (total half-perimeter
-wirelength of placed parts) for the benchmark and tests.
+wirelength of placed parts, from :mod:`pipeline.wirelength`) for the benchmark and tests.
 
 The model (millimetres; heights above the board's top face)
 ------------------------------------------------------------
@@ -140,6 +140,7 @@ from .mount import mount_keepout, raised_heads, with_mount_holes
 from .order import natural_key
 from .outline import QUAD_SEGS, cells_inside, polygons_of, propose_outline
 from .values import format_mm as _fmt
+from .wirelength import hpwl
 
 __all__ = ["place_and_fit", "hpwl", "CELL_BUDGET", "OPT_FANOUT"]
 
@@ -222,28 +223,6 @@ def _next_true(flat: np.ndarray, p: int) -> int:
         p = e
         step *= 2
     return -1
-
-
-def hpwl(nets: Iterable[Sequence[int]], xs: Sequence[float], ys: Sequence[float]) -> float:
-    """Total half-perimeter wirelength of ``nets`` (lists of item indices), mm.
-
-    For each net with two or more members: (max x - min x) + (max y - min y)
-    of the members' courtyard centres.
-
-    Examples
-    --------
-    >>> hpwl([[0, 1, 2], [1]], [0.0, 3.0, 1.0], [0.0, 1.0, 4.0])
-    7.0
-    """
-    total = 0.0
-    x = np.asarray(xs, dtype=float)
-    y = np.asarray(ys, dtype=float)
-    for m in nets:
-        if len(m) < 2:
-            continue
-        idx = np.asarray(m)
-        total += float(x[idx].max() - x[idx].min() + y[idx].max() - y[idx].min())
-    return total
 
 
 # --------------------------------------------------------------------------

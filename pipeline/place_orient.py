@@ -48,6 +48,7 @@ from typing import Iterable
 from .library.lands import turned_pads
 from .model import Design, Placement
 from .order import natural_key
+from .wirelength import half_perimeter
 
 __all__ = ["orient_parts", "open_gaps", "pad_hpwl", "PASSES", "GAIN_MM", "MOVES"]
 
@@ -81,7 +82,11 @@ class _Pins:
             self.at.setdefault(net, {})[ref] = pts
 
     def hpwl(self, nets: Iterable[str]) -> float:
-        return sum(_span(p for pts in self.at.get(net, {}).values() for p in pts) for net in nets)
+        total = 0.0
+        for net in nets:
+            pts = [p for pts in self.at.get(net, {}).values() for p in pts]
+            total += half_perimeter([p[0] for p in pts], [p[1] for p in pts])
+        return total
 
 
 class _NearRules:
@@ -111,15 +116,6 @@ class _NearRules:
             if near_distance(rule, at(own, own == ref), at(rule.target, rule.target == ref)) > rule.within_mm + TOL:
                 return False
         return True
-
-
-def _span(points) -> float:
-    """Half perimeter (mm) of the bounding box of ``points`` (0 for fewer than two)."""
-    pts = list(points)
-    if len(pts) < 2:
-        return 0.0
-    xs, ys = [p[0] for p in pts], [p[1] for p in pts]
-    return (max(xs) - min(xs)) + (max(ys) - min(ys))
 
 
 def pad_hpwl(placements: Iterable[Placement], design: Design, library, *, level: str = "nominal",

@@ -89,6 +89,7 @@ from .grid import BLOCKED, FREE, Grid, add_copper, as_polygons, build_grid, edge
 from .rules import CopperRules
 from .search import astar as search_astar
 from .search import moves
+from ..wirelength import half_perimeter
 
 __all__ = ["Track", "Via", "Area", "Routing", "route_board", "VIA_COST", "MAX_ROUNDS"]
 
@@ -434,7 +435,7 @@ class _Router:
     # ---------------------------------------------------------------- routing
     def run(self) -> Routing:
         self.setup()
-        order = sorted(self.nets, key=lambda n: (_span(n.pads), n.name))
+        order = sorted(self.nets, key=lambda n: (_pads_span(n.pads), n.name))
         plan = self.plan() if self.coarse and self.nets else None
         if plan is not None:
             order = [n for n in order if n.name not in plan.open]
@@ -808,10 +809,9 @@ def _bucket_near(buckets: dict, bounds, reach: float) -> list:
     return list(out.values())
 
 
-def _span(pads) -> float:
-    xs = [p.polygon.centroid.x for p in pads]
-    ys = [p.polygon.centroid.y for p in pads]
-    return (max(xs) - min(xs)) + (max(ys) - min(ys))
+def _pads_span(pads) -> float:
+    cs = [p.polygon.centroid for p in pads]
+    return half_perimeter([c.x for c in cs], [c.y for c in cs])
 
 
 def _box(g: Grid, nodes: set[int], margin: int) -> tuple[int, int, int, int]:
