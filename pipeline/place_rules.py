@@ -92,7 +92,7 @@ from .model import Finding, Fixed, NearRule, PlaceItem, Region
 from .order import natural_key
 from .values import format_mm as _fmt
 
-__all__ = ["attach_rules", "pin_edge_parts", "near_pass", "unmet_rules", "near_distance", "refresh_near_notes",
+__all__ = ["top_occupancy", "attach_rules", "pin_edge_parts", "near_pass", "unmet_rules", "near_distance", "refresh_near_notes",
            "EDGE_KINDS", "EDGE_BAND_MM", "NEAR_WITHIN_MM", "EDGE_STEP_MM"]
 
 #: Kinds that go to the board edge by the wire entry unless ``at_edge = false``.
@@ -414,6 +414,20 @@ def cells_of(g, rect) -> tuple[int, int, int, int]:
     return max(r0, 0), max(r1, 0), max(c0, 0), max(c1, 0)
 
 
+def top_occupancy(packer: Any, run: Any, fixed: dict) -> np.ndarray:
+    """How many courtyards cover each top-side cell of ``packer``'s grid: the packed parts of ``run``
+    and the ``fixed`` parts (``ref -> (side, rect)``). The one count the near pass and the spreading
+    pass (:mod:`pipeline.place_spread`) start from. Cost O(cells covered)."""
+    g = packer.grid
+    occ = np.zeros((g.ny, g.nx), dtype=np.int32)
+    rects = [packer.rect(j, slot) for j, slot in run.slots.items() if slot[0] == "top"]
+    rects += [rect for side, rect in fixed.values() if side == "top"]
+    for rect in rects:
+        r0, r1, c0, c1 = cells_of(g, rect)
+        occ[r0:r1, c0:c1] += 1
+    return occ
+
+
 def _where(packer, run, fixed: dict, i: int) -> tuple | None:
     """(x, y, rotation, side) of item ``i`` as placed, or None when it is not."""
     if i in fixed:
@@ -442,7 +456,6 @@ class _TopBoard:
     def __init__(self, packer: Any, run: Any, fixed: dict) -> None:
         g = packer.grid
         self.packer, self.run, self.g = packer, run, g
-        self.occ = np.zeros((g.ny, g.nx), dtype=np.int32)
         n = len(packer.items)
         self.row = np.zeros(n, dtype=np.int64)
         self.col = np.zeros(n, dtype=np.int64)
@@ -455,15 +468,15 @@ class _TopBoard:
         self.maps: dict[tuple[int, int, int], np.ndarray] = {}  # (level, h, w) -> free origins
         self.fixed = fixed
         self._partners: _Partners | None = None  # the swap search's view of the near rules (partners)
+        self.occ = top_occupancy(packer, run, fixed)
         for j, slot in run.slots.items():
-            self._put(j, slot, 1)
-        for side, rect in fixed.values():
-            if side == "top":
-                r0, r1, c0, c1 = cells_of(g, rect)
-                self.occ[r0:r1, c0:c1] += 1
+            self._record(j, slot)
+
+    def _record(self, j: int, slot) -> None:
+        self.row[j], self.col[j], self.turn[j], self.top[j] = slot[2], slot[3], slot[1], slot[0] == "top"
 
     def _put(self, j: int, slot, add: int) -> None:
-        self.row[j], self.col[j], self.turn[j], self.top[j] = slot[2], slot[3], slot[1], slot[0] == "top"
+        self._record(j, slot)
         if slot[0] == "top":
             r0, r1, c0, c1 = cells_of(self.g, self.packer.rect(j, slot))
             self.occ[r0:r1, c0:c1] += add

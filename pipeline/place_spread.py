@@ -65,6 +65,8 @@ from typing import Any
 
 import numpy as np
 
+from .place_rules import cells_of, top_occupancy
+
 __all__ = ["spread_block", "spreads", "SPREAD_MAX", "SPREAD_PARTS", "SPREAD_MIN_SCALE"]
 
 #: the target box holds at most this many times the courtyard sum (our choice: long tracks and a large
@@ -89,7 +91,7 @@ def spread_block(packer: Any, run: Any, fixed: dict, courtyard_mm2: float) -> in
     target = _targets(packer, run, movers, courtyard_mm2)
     if target is None:
         return 0
-    occ = _occupied(packer, run, fixed)
+    occ = top_occupancy(packer, run, fixed)
     before = {i: run.slots[i] for i in movers}
     for i in movers:  # every mover lifted: only the fixed parts and the parts already moved block
         r0, r1, c0, c1 = _cells(packer, i, before[i])
@@ -183,26 +185,7 @@ def _keep_near(packer, movers: list, target: dict, centre: dict) -> dict:
 
 def _cells(packer, i: int, slot) -> tuple[int, int, int, int]:
     """Rows and columns ``[r0, r1) x [c0, c1)`` a slot's courtyard covers on the grid."""
-    _, o, row, col = slot
-    h, w = (packer.hc[i], packer.wc[i]) if o == 0 else (packer.wc[i], packer.hc[i])
-    return row, row + h, col, col + w
-
-
-def _occupied(packer, run, fixed: dict) -> np.ndarray:
-    """Courtyards covering each top-side cell (packed and fixed parts)."""
-    from .place_rules import cells_of
-
-    g = packer.grid
-    occ = np.zeros((g.ny, g.nx), dtype=np.int16)
-    for i, slot in run.slots.items():
-        if slot[0] == "top":
-            r0, r1, c0, c1 = _cells(packer, i, slot)
-            occ[r0:r1, c0:c1] += 1
-    for side, rect in fixed.values():
-        if side == "top":
-            r0, r1, c0, c1 = cells_of(g, rect)
-            occ[r0:r1, c0:c1] += 1
-    return occ
+    return cells_of(packer.grid, packer.rect(i, slot))
 
 
 def _nearest_origin(packer, run, i: int, slot, goal: tuple[float, float], occ: np.ndarray):
