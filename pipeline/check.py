@@ -84,7 +84,8 @@ def check_unconnected(design: Design, g: nx.MultiGraph, cat: Mapping[str, str]) 
     for p in design.parts:
         if g.degree(part_node(p.ref)) == 0:
             out.append(Finding("error", "connect.unconnected-part", (p.ref,),
-                               f"{p.ref} ({p.kind}) is connected to nothing: add it to nets or remove it."))
+                               f"{p.ref} ({p.kind}) is connected to nothing: add it to nets or remove it.",
+                               kind="unconnected-part"))
             continue
         if cat.get(p.kind) != "ic":
             # passives, connectors and semiconductors with a free pin show up
@@ -198,7 +199,8 @@ def check_supplies(design: Design, g: nx.MultiGraph, cat: Mapping[str, str]) -> 
         if not decoupled.get(p.ref):
             out.append(Finding("warning", "connect.no-decoupling", (p.ref, *nets),
                                f"{p.ref} ({p.kind}) has no capacitor across its supply nets ({', '.join(nets)}): "
-                               "common practice is a 100 nF ceramic close to its supply pins."))
+                               "common practice is a 100 nF ceramic close to its supply pins.",
+                               kind="no-decoupling"))
     return out
 
 

@@ -9,9 +9,10 @@ the same grouped finding and ``run`` and ``check`` agree.
 What is grouped
 ---------------
 Only the kinds in :data:`KINDS` (their codes: :data:`GROUPED_CODES`, the one
-list). A kind is a code and one kind of message of it: a message that opens
-with its part's ref and holds the kind's phrase (a grouped message opens with
-a count, so it is never taken for a member again). Findings of one
+list). A kind is a code and one kind of message of it, named by the step that
+makes the finding (:attr:`pipeline.model.Finding.kind`: ``"decoupling"``,
+``"edge"``, ...), so the grouping never reads a message's wording; a grouped
+finding has no kind, so it is never taken for a member again. Findings of one
 ``(code, kind, severity)`` that number two or more become one finding:
 
 * ``subject``: the parts' refs, once each, in natural order
@@ -44,7 +45,7 @@ Examples
 --------
 >>> from pipeline.model import Finding
 >>> fs = [Finding("error", "connect.unconnected-part", (r,), f"{r} (resistor) is connected to nothing: "
-...               "add it to nets or remove it.") for r in ("R10", "R2")]
+...               "add it to nets or remove it.", kind="unconnected-part") for r in ("R10", "R2")]
 >>> [(g.subject, g.message) for g in group_findings(fs)]  # doctest: +NORMALIZE_WHITESPACE
 [(('R2', 'R10'), '2 parts are connected to nothing: R2, R10; add each to its nets or remove it.')]
 """
@@ -67,8 +68,8 @@ LIST_LIMIT = 12
 class Kind:
     """One kind of message of a code that is grouped.
 
-    A finding is of this kind when its code is ``code`` and its message opens
-    with its first subject (the part's ref) and holds ``phrase``; with
+    A finding is of this kind when its code is ``code``, its ``kind`` is
+    ``name`` and it names a part (its first subject, the ref); with
     ``brackets`` the rest of its subject (the part it goes with, or its nets)
     is listed after the ref in brackets (``C5 (U2)``). ``sentence`` is the
     grouped message, with ``{n}`` (how many parts) and ``{parts}`` (the list).
@@ -76,14 +77,12 @@ class Kind:
 
     code: str
     name: str
-    phrase: str
     sentence: str
     brackets: bool = False
 
     def matches(self, f: Finding) -> bool:
         """Whether ``f`` is a finding of this kind."""
-        return (f.check == self.code and bool(f.subject) and f.message.startswith(f.subject[0] + " ")
-                and self.phrase in f.message)
+        return f.check == self.code and f.kind == self.name and bool(f.subject)
 
     def label(self, f: Finding) -> str:
         """How a member is listed: its ref, and the rest of its subject in brackets where asked."""
@@ -92,24 +91,24 @@ class Kind:
 
 
 #: The grouped kinds, one home: each code's kinds of message and their grouped sentence. The
-#: phrases follow the messages made in pipeline/place_rules.py (unmet_rules, pin_edge_parts),
-#: pipeline/check.py and pipeline/ratings.py; tests/test_findings_group.py makes those findings
-#: through the real steps, so a changed wording fails there instead of going ungrouped unnoticed.
+#: steps that make these findings name the kind (pipeline/place_rules.py: unmet_rules,
+#: pin_edge_parts; pipeline/check.py; pipeline/ratings.py); tests/test_findings_group.py makes them
+#: through the real steps, so a kind left unnamed fails there instead of going ungrouped unnoticed.
 KINDS: tuple[Kind, ...] = (
-    Kind("place.rule-unmet", "decoupling", "(decoupling, the default rule)",
+    Kind("place.rule-unmet", "decoupling",
          "{n} decoupling capacitors are farther from their IC's supply pins than the default rule allows "
          "(the IC in brackets): {parts}; give the board more room, or fix their places with at.",
          brackets=True),
-    Kind("place.rule-unmet", "edge", " should sit at the board edge ",
+    Kind("place.rule-unmet", "edge",
          "{n} parts should sit at the board edge, nearest the wire entry where one is drawn (edge rule), "
          "but no room is left there for them: {parts}; give the board more edge room, or fix their places "
          "with at."),
-    Kind("connect.no-decoupling", "no-decoupling", " has no capacitor across its supply nets ",
+    Kind("connect.no-decoupling", "no-decoupling",
          "{n} ICs have no capacitor across their supply nets (in brackets): {parts}; common practice is "
          "a ceramic capacitor close to each IC's supply pins.", brackets=True),
-    Kind("connect.unconnected-part", "unconnected-part", " is connected to nothing",
+    Kind("connect.unconnected-part", "unconnected-part",
          "{n} parts are connected to nothing: {parts}; add each to its nets or remove it."),
-    Kind("values.zero", "zero", " of value 0, which is no part",
+    Kind("values.zero", "zero",
          "{n} capacitors or inductors have the value 0, which is no part: {parts}; give each its real "
          "value, or remove it (a link is a 0 ohm resistor)."),
 )

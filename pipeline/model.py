@@ -57,13 +57,17 @@ class Finding:
     ``check`` is a stable dotted code (``"connect.single-pin-net"``) so that
     scripts can filter findings; ``subject`` lists the refs, ``REF.PIN``
     pins or net names concerned; ``message`` is one sentence a user can act
-    on.
+    on. ``kind`` names, for the few codes whose findings are grouped
+    (:data:`pipeline.findings_group.KINDS`), which kind of message of its
+    code this is; it is not part of the finding's value (not compared, not
+    written out): the grouping reads it instead of the message's wording.
     """
 
     severity: Severity
     check: str
     subject: tuple[str, ...]
     message: str
+    kind: str = field(default="", compare=False, repr=False)
 
     def __post_init__(self) -> None:
         if not allowed(self.check, self.severity):

@@ -249,7 +249,8 @@ def pin_edge_parts(items: Sequence[PlaceItem], fixed: dict, area: BaseGeometry, 
         if best is None:
             notes.append(Finding("warning", "place.rule-unmet", (it.ref,),
                                  f"{it.ref} should sit at the board edge {_by(zone)}, but its courtyard fits "
-                                 "nowhere beside the parts fixed there; it is placed with the other parts."))
+                                 "nowhere beside the parts fixed there; it is placed with the other parts.",
+                                 kind="edge"))
             continue
         tier, x, y, rot, far = best
         rect = _rect(it, x, y, rot)
@@ -261,7 +262,7 @@ def pin_edge_parts(items: Sequence[PlaceItem], fixed: dict, area: BaseGeometry, 
             notes.append(Finding("warning", "place.rule-unmet", (it.ref,),
                                  f"{it.ref} should sit at the board edge {_by(zone)} (edge rule), but no room "
                                  f"is left there: it ended {_fmt(far)} mm from "
-                                 + ("the zone." if zone is not None else "the edge band.")))
+                                 + ("the zone." if zone is not None else "the edge band."), kind="edge"))
     return tuple(items), fixed, notes
 
 
@@ -950,7 +951,8 @@ def unmet_rules(items: Sequence[PlaceItem], placements: Sequence[Any]) -> tuple[
                                   "or raise within_mm.")
         else:
             notes.append(Finding("warning", "place.rule-unmet", (it.ref, rule.target),
-                                 text + ": give the board more room or fix the capacitor's place with at."))
+                                 text + ": give the board more room or fix the capacitor's place with at.",
+                                 kind="decoupling"))
     return blocked, notes
 
 

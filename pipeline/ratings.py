@@ -554,7 +554,7 @@ def _zero_value(part: Part) -> list:
         return []
     return [Finding("error", "values.zero", (part.ref,),
                     f"{part.ref} is a {part.kind} of value 0, which is no part: give its real value, or "
-                    f"remove it (a link is a 0 ohm resistor).")]
+                    f"remove it (a link is a 0 ohm resistor).", kind="zero")]
 
 
 def _series_summary(in_series: list[Part]) -> list[Finding]:

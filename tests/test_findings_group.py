@@ -28,24 +28,25 @@ def _natural(ref: str) -> tuple:
     return (m.group(1), int(m.group(2)))
 
 
-# messages written the way the steps write them (pipeline/place_rules.py, check.py, ratings.py); the
-# tests below that run the real steps check that those wordings are still grouped
+# findings made the way the steps make them (pipeline/place_rules.py, check.py, ratings.py: each names
+# its kind); the tests below that run the real steps check that those steps still name it
 def _decoupling(cap: str, ic: str, d: float = 7.5) -> Finding:
     return Finding("warning", "place.rule-unmet", (cap, ic),
                    f"{cap} should have a pad within 3 mm of {ic}'s supply pins 4, 8 (decoupling, the default "
                    f"rule), but the nearest place left for it is {d} mm away: give the board more room or fix "
-                   "the capacitor's place with at.")
+                   "the capacitor's place with at.", kind="decoupling")
 
 
 def _edge(ref: str) -> Finding:
     return Finding("warning", "place.rule-unmet", (ref,),
                    f"{ref} should sit at the board edge nearest the wire-entry zone (edge rule), but no room is "
-                   "left there: it ended 4 mm from the zone.")
+                   "left there: it ended 4 mm from the zone.", kind="edge")
 
 
 def _loose(ref: str) -> Finding:
     return Finding("error", "connect.unconnected-part", (ref,),
-                   f"{ref} (resistor) is connected to nothing: add it to nets or remove it.")
+                   f"{ref} (resistor) is connected to nothing: add it to nets or remove it.",
+                   kind="unconnected-part")
 
 
 def _off_series(ref: str) -> Finding:
