@@ -245,22 +245,32 @@ def _echo_verdict(verdict, err: bool) -> None:
 
 
 @main.command("check")
-@click.argument("design_file", type=click.Path(dir_okay=False))
+@click.argument("design_file", metavar="DESIGN_FILE|PROJECT_DIR", type=click.Path())
 @click.option("--parts-map", metavar="FILE", help="Parts map for a SPICE design (kinds and packages).")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object to stdout.")
 @click.option("-v", "--verbose", is_flag=True, help="Also show notes (info findings).")
 @click.pass_context
 def check_cmd(ctx: click.Context, design_file: str, parts_map: str | None, as_json: bool, verbose: bool) -> None:
-    """Check a design file alone: connections, values and declared blocks (everything but the fit)."""
+    """Check a design without its drawing: connections, values and declared blocks (everything but the fit).
+
+    Given a project folder, its design with the project's parts map, limits and [analysis] settings:
+    the same findings and verdict that run gives before the cavity.
+    """
     from pathlib import Path
 
-    from .project import check_design
+    from .project import check_design, check_project, load_project
 
     ctx.meta["snugboard.json"] = as_json
     from .verdict import decide
 
-    design, findings = check_design(Path(design_file), shown=design_file,
-                                    parts_map=Path(parts_map) if parts_map else None)
+    if Path(design_file).is_dir():
+        if parts_map:
+            raise click.UsageError("--parts-map is for a design file; a project folder names its own "
+                                   "([project] parts_map in project.toml)")
+        design, findings = check_project(load_project(design_file))
+    else:
+        design, findings = check_design(Path(design_file), shown=design_file,
+                                        parts_map=Path(parts_map) if parts_map else None)
     verdict = decide(findings, None, fit_asked=False)
     if as_json:
         from .export.results import findings_list

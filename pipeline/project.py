@@ -2,7 +2,8 @@
 
 Entry points: :func:`load_project` (the project file to a frozen
 :class:`Project`), :func:`run` (every stage, then all outputs written at
-once) and :func:`check_design` (a design file alone: read, graph, checks).
+once), :func:`check_design` (a design file alone: read, graph, checks) and
+:func:`check_project` (the same for a project folder, with its settings).
 
 Nothing here prints or exits; :mod:`pipeline.cli` shows the
 :class:`RunResult`. Bad input raises :class:`~pipeline.errors.InputError`
@@ -52,7 +53,7 @@ from .spice.limits import DEFAULTS as SPICE_LIMITS
 from .route.rules import COPPER_KEYS, CopperRules, read_copper
 from .tomlsrc import TomlSource, load
 
-__all__ = ["Project", "RunResult", "load_project", "run", "check_design", "inspect_cavity", "read_any_design",
+__all__ = ["Project", "RunResult", "load_project", "run", "check_design", "check_project", "inspect_cavity", "read_any_design",
            "SPICE_SUFFIXES"]
 
 NOT_FITTING = "the parts do not fit, so routing was not tried"
@@ -408,6 +409,19 @@ def check_design(path: Path, *, shown: str | None = None, parts_map: Path | None
     and the declared blocks (Monte Carlo with the default draws and seed of ``[analysis]``)."""
     design, _, findings, _ = _read_and_check(Path(path), shown or str(path), parts_map, root)
     return design, group_findings(findings)  # grouped as run() groups them: check and run agree
+
+
+def check_project(project: Project) -> tuple[Design, tuple[Finding, ...]]:
+    """Every check of ``project`` that needs no drawing, as :func:`run` makes it: the project file's
+    own warnings, then the design's reading, connection, value and block findings with the project's
+    parts map, ``[limits]`` and ``[analysis]`` draws and seed, grouped as :func:`run` groups them.
+
+    The findings are those :func:`run` reports before the cavity's (the same design, settings and
+    seed give the same figures). Nothing is written. Cost: reading and the block analysis.
+    """
+    design, _, checked, _ = _read_and_check(project.design_path, project.design_shown, project.parts_map,
+                                            project.root, limits=project.limits, **_analysis(project))
+    return design, group_findings((*project.warnings, *checked))
 
 
 def inspect_cavity(path: Path, *, shown: str | None = None, project: Project | None = None):

@@ -950,6 +950,26 @@ def test_check_gives_the_same_findings_and_status_as_run(tmp_path, target):
     assert run_status == check_status == (0 if target is None else 1)
     assert any(f["check"] == "block.summary" for f in check_findings)
     assert any(f["check"] == "block.target-missed" for f in check_findings) == (target is not None)
+    # the project folder itself gives the same findings and status
+    assert _cli_json("check", str(proj)) == (check_status, check_findings)
+
+
+def test_check_of_a_project_folder_uses_its_analysis_settings(tmp_path):
+    # [analysis] draws and seed change the Monte Carlo's percentiles: `check PROJECT_DIR` reads them
+    # as `run` does (same findings), `check DESIGN_FILE` uses the defaults (other percentiles).
+    root = Path(__file__).resolve().parents[1]
+    proj = tmp_path / "p"
+    shutil.copytree(root / "demo_project", proj)
+    toml = (proj / "project.toml").read_text(encoding="utf-8")
+    toml = toml.replace('cavity = "../outlines/controller-bay.dxf"\n', "") + "\n[analysis]\ndraws = 500\nseed = 7\n"
+    (proj / "project.toml").write_text(toml, encoding="utf-8")
+    run_status, run_findings = _cli_json("run", str(proj), "--out", str(tmp_path / "out"))
+    folder = _cli_json("check", str(proj))
+    alone = _cli_json("check", str(proj / "design.toml"))
+    assert folder == (run_status, [f for f in run_findings if f["check"] != "fit.no-cavity"])
+    summaries = [[f["message"] for f in fs if f["check"] == "block.summary"] for fs in (folder[1], alone[1])]
+    assert summaries[0] and summaries[1] and summaries[0] != summaries[1]
+    assert "500 builds" in summaries[0][0] and "10000 builds" in summaries[1][0]
 
 
 # --------------------------------------------------------------------------

@@ -387,3 +387,16 @@ def test_a_run_keeps_the_cyclic_collector_rare_and_restores_its_thresholds(tmp_p
     assert res.exit_code == 0, res.output
     assert len(runs) <= 20 and runs.count(2) == 0, runs
     assert gc.get_threshold() == before != GC_THRESHOLDS
+
+
+@pytest.mark.parametrize("args, needle", [
+    (["--parts-map", "parts.toml"], "--parts-map is for a design file"),   # a folder names its own parts map
+    ([], "project.toml: file not found"),                                 # a folder that is no project
+])
+def test_check_of_a_folder_refuses_what_it_cannot_use(tmp_path, args, needle):
+    folder = tmp_path / "d"
+    folder.mkdir()
+    if args:
+        shutil.copytree(ROOT / "demo_project", folder, dirs_exist_ok=True)
+    r = CliRunner().invoke(main, ["check", str(folder), *args])
+    assert r.exit_code == 2 and needle in r.output and "Traceback" not in r.output
