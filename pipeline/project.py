@@ -199,6 +199,9 @@ def load_project(
     root = Path(project_dir)
     if not root.is_dir():
         raise ProjectError(str(project_dir), "not a folder: give the project folder that holds project.toml")
+    if not (root / "project.toml").is_file():
+        raise ProjectError(str(root / "project.toml"), "file not found: a project folder holds project.toml "
+                           "(snugboard new DIR writes one to start from)")
     src = load(root / "project.toml", "project.toml", ProjectError)
     _check_tables(src)
     data = src.data

@@ -391,7 +391,7 @@ def test_a_run_keeps_the_cyclic_collector_rare_and_restores_its_thresholds(tmp_p
 
 @pytest.mark.parametrize("args, needle", [
     (["--parts-map", "parts.toml"], "--parts-map is for a design file"),   # a folder names its own parts map
-    ([], "project.toml: file not found"),                                 # a folder that is no project
+    ([], "project.toml: file not found: a project folder holds project.toml"),  # a folder that is no project
 ])
 def test_check_of_a_folder_refuses_what_it_cannot_use(tmp_path, args, needle):
     folder = tmp_path / "d"
@@ -400,3 +400,4 @@ def test_check_of_a_folder_refuses_what_it_cannot_use(tmp_path, args, needle):
         shutil.copytree(ROOT / "demo_project", folder, dirs_exist_ok=True)
     r = CliRunner().invoke(main, ["check", str(folder), *args])
     assert r.exit_code == 2 and needle in r.output and "Traceback" not in r.output
+    assert args or str(folder / "project.toml") in r.output  # the folder the user gave, named
