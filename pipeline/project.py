@@ -627,9 +627,14 @@ def _report_files(project: Project, design: Design, reports: Any, placed: _Place
 
     return {"findings.json": results.findings_json(findings),
             "report.html": report_out.report_html(
-                title=f"{design.name} {design.revision}".strip(), fit=placed.fit, findings=findings, fit_svg=svg,
+                title=_report_title(design), fit=placed.fit, findings=findings, fit_svg=svg,
                 sections=list(block_sections(reports)), verdict=verdict, order_files=order_files,
                 board=project.board)}
+
+
+def _report_title(design: Design) -> str:
+    """The report's title: the design's name, and its revision said as one ("Trigger click, revision A")."""
+    return f"{design.name}, revision {design.revision}" if design.revision else design.name
 
 
 def _protected(project: Project, design: Design) -> list[Path]:

@@ -214,3 +214,26 @@ def test_spread_refresh_reaches_fit_json_warnings_too(tmp_path, monkeypatch):
     unmet = [f for f in findings if f["check"] == "place.rule-unmet"]
     assert unmet, "the moved capacitors must break their decoupling rules"
     assert unmet == [w for w in warnings if w["check"] == "place.rule-unmet"]
+
+
+@pytest.mark.parametrize("revision, heading", [
+    ('revision = "A"', "Trigger click, revision A"),   # said as one, not "Trigger click A"
+    ("", "Trigger click"),                              # no revision: the name alone
+])
+def test_report_heading_names_the_revision_as_such(tmp_path, revision, heading):
+    import shutil
+
+    root = Path(__file__).resolve().parents[1]
+    proj = tmp_path / "p"
+    shutil.copytree(root / "demo_project", proj)
+    design = proj / "design.toml"
+    text = design.read_text(encoding="utf-8")
+    assert 'revision = "A"\n' in text
+    design.write_text(text.replace('revision = "A"\n', revision + "\n" if revision else ""), encoding="utf-8")
+    toml = (proj / "project.toml").read_text(encoding="utf-8")
+    (proj / "project.toml").write_text(toml.replace('cavity = "../outlines/controller-bay.dxf"\n', ""),
+                                       encoding="utf-8")
+    r = CliRunner().invoke(main, ["run", str(proj), "--out", str(tmp_path / "out")])
+    assert r.exit_code == 0, r.output
+    html = (tmp_path / "out" / "report.html").read_text(encoding="utf-8")
+    assert f"<h1>{heading}</h1>" in html and f"<title>{heading}</title>" in html
