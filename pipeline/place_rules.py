@@ -92,7 +92,7 @@ from .model import Finding, Fixed, NearRule, PlaceItem, Region
 from .order import natural_key
 from .values import format_mm as _fmt
 
-__all__ = ["top_occupancy", "attach_rules", "pin_edge_parts", "near_pass", "unmet_rules", "near_distance", "refresh_near_notes",
+__all__ = ["slot_cells", "top_occupancy", "attach_rules", "pin_edge_parts", "near_pass", "unmet_rules", "near_distance", "refresh_near_notes",
            "EDGE_KINDS", "EDGE_BAND_MM", "NEAR_WITHIN_MM", "EDGE_STEP_MM"]
 
 #: Kinds that go to the board edge by the wire entry unless ``at_edge = false``.
@@ -415,16 +415,21 @@ def cells_of(g, rect) -> tuple[int, int, int, int]:
     return max(r0, 0), max(r1, 0), max(c0, 0), max(c1, 0)
 
 
+def slot_cells(packer: Any, i: int, slot) -> tuple[int, int, int, int]:
+    """Rows and columns ``(r0, r1, c0, c1)`` of ``packer``'s grid that item ``i``'s courtyard covers
+    in ``slot`` (:func:`cells_of` of its rectangle)."""
+    return cells_of(packer.grid, packer.rect(i, slot))
+
+
 def top_occupancy(packer: Any, run: Any, fixed: dict) -> np.ndarray:
     """How many courtyards cover each top-side cell of ``packer``'s grid: the packed parts of ``run``
     and the ``fixed`` parts (``ref -> (side, rect)``). The one count the near pass and the spreading
     pass (:mod:`pipeline.place_spread`) start from. Cost O(cells covered)."""
     g = packer.grid
     occ = np.zeros((g.ny, g.nx), dtype=np.int32)
-    rects = [packer.rect(j, slot) for j, slot in run.slots.items() if slot[0] == "top"]
-    rects += [rect for side, rect in fixed.values() if side == "top"]
-    for rect in rects:
-        r0, r1, c0, c1 = cells_of(g, rect)
+    cells = [slot_cells(packer, j, slot) for j, slot in run.slots.items() if slot[0] == "top"]
+    cells += [cells_of(g, rect) for side, rect in fixed.values() if side == "top"]
+    for r0, r1, c0, c1 in cells:
         occ[r0:r1, c0:c1] += 1
     return occ
 
@@ -479,7 +484,7 @@ class _TopBoard:
     def _put(self, j: int, slot, add: int) -> None:
         self._record(j, slot)
         if slot[0] == "top":
-            r0, r1, c0, c1 = cells_of(self.g, self.packer.rect(j, slot))
+            r0, r1, c0, c1 = slot_cells(self.packer, j, slot)
             self.occ[r0:r1, c0:c1] += add
             for (lvl, h, w), ok in self.maps.items():  # origins whose courtyard covers a changed cell
                 a0, a1 = max(0, r0 - h + 1), min(ok.shape[0], r1)
@@ -507,7 +512,7 @@ class _TopBoard:
         ok = ok[r0:r1, c0:c1]  # a view: copied only when i's own courtyard meets the window
         slot = self.run.slots[i]
         if slot[0] == "top":
-            e0, e1, f0, f1 = cells_of(self.g, self.packer.rect(i, slot))
+            e0, e1, f0, f1 = slot_cells(self.packer, i, slot)
             a0, a1 = max(r0, e0 - h + 1), min(r1, e1)
             b0, b1 = max(c0, f0 - w + 1), min(c1, f1)
             if a1 > a0 and b1 > b0:
@@ -557,7 +562,7 @@ class _TopBoard:
         ok = self._free(self.run.top_level[i], rows, cols)
         slot = self.run.slots[i]
         if slot[0] == "top":
-            r0, r1, c0, c1 = cells_of(self.g, self.packer.rect(i, slot))
+            r0, r1, c0, c1 = slot_cells(self.packer, i, slot)
             r0, r1 = max(r0, rows.start), min(r1, rows.stop)
             c0, c1 = max(c0, cols.start), min(c1, cols.stop)
             if r1 > r0 and c1 > c0:
@@ -628,7 +633,7 @@ def _stands(packer, run, k: int, slot) -> bool:
     lvl = run.top_level.get(k)
     if lvl is None:
         return False
-    r0, r1, c0, c1 = cells_of(packer.grid, packer.rect(k, slot))
+    r0, r1, c0, c1 = slot_cells(packer, k, slot)
     return bool(packer.mask(lvl)[r0:r1, c0:c1].all())
 
 

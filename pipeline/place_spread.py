@@ -65,7 +65,7 @@ from typing import Any
 
 import numpy as np
 
-from .place_rules import cells_of, top_occupancy
+from .place_rules import slot_cells, top_occupancy
 
 __all__ = ["spread_block", "spreads", "SPREAD_MAX", "SPREAD_PARTS", "SPREAD_MIN_SCALE"]
 
@@ -94,7 +94,7 @@ def spread_block(packer: Any, run: Any, fixed: dict, courtyard_mm2: float) -> in
     occ = top_occupancy(packer, run, fixed)
     before = {i: run.slots[i] for i in movers}
     for i in movers:  # every mover lifted: only the fixed parts and the parts already moved block
-        r0, r1, c0, c1 = _cells(packer, i, before[i])
+        r0, r1, c0, c1 = slot_cells(packer, i, before[i])
         occ[r0:r1, c0:c1] -= 1
     mid = np.mean([target[i] for i in movers], axis=0)
     size = {i: packer.hc[i] * packer.wc[i] for i in movers}
@@ -120,7 +120,7 @@ def _at_goal(packer, slot, i: int, goal: tuple[float, float]):
 def _take(packer, run, i: int, slot, occ: np.ndarray) -> bool:
     """Put part ``i`` at ``slot`` when its cells are free cells of its height level; say whether it was."""
     g = packer.grid
-    r0, r1, c0, c1 = _cells(packer, i, slot)
+    r0, r1, c0, c1 = slot_cells(packer, i, slot)
     if r0 < 0 or c0 < 0 or r1 > g.ny or c1 > g.nx:
         return False
     if not packer.mask(run.top_level[i])[r0:r1, c0:c1].all() or occ[r0:r1, c0:c1].any():
@@ -181,11 +181,6 @@ def _keep_near(packer, movers: list, target: dict, centre: dict) -> dict:
         else:
             out[i] = centre[i]
     return out
-
-
-def _cells(packer, i: int, slot) -> tuple[int, int, int, int]:
-    """Rows and columns ``[r0, r1) x [c0, c1)`` a slot's courtyard covers on the grid."""
-    return cells_of(packer.grid, packer.rect(i, slot))
 
 
 def _nearest_origin(packer, run, i: int, slot, goal: tuple[float, float], occ: np.ndarray):
