@@ -92,8 +92,8 @@ from .model import Finding, Fixed, NearRule, PlaceItem, Region
 from .order import natural_key
 from .values import format_mm as _fmt
 
-__all__ = ["slot_cells", "top_occupancy", "attach_rules", "pin_edge_parts", "near_pass", "unmet_rules", "near_distance", "refresh_near_notes",
-           "EDGE_KINDS", "EDGE_BAND_MM", "NEAR_WITHIN_MM", "EDGE_STEP_MM"]
+__all__ = ["attach_rules", "pin_edge_parts", "near_pass", "unmet_rules", "near_distance", "refresh_near_notes",
+           "slot_cells", "top_occupancy", "EDGE_KINDS", "EDGE_BAND_MM", "NEAR_WITHIN_MM", "EDGE_STEP_MM"]
 
 #: Kinds that go to the board edge by the wire entry unless ``at_edge = false``.
 EDGE_KINDS = ("wire-pad", "header")

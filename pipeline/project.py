@@ -53,8 +53,8 @@ from .spice.limits import DEFAULTS as SPICE_LIMITS
 from .route.rules import COPPER_KEYS, CopperRules, read_copper
 from .tomlsrc import TomlSource, load
 
-__all__ = ["Project", "RunResult", "load_project", "run", "check_design", "check_project", "inspect_cavity", "read_any_design",
-           "SPICE_SUFFIXES"]
+__all__ = ["Project", "RunResult", "load_project", "run", "check_design", "check_project", "inspect_cavity",
+           "read_any_design", "SPICE_SUFFIXES"]
 
 NOT_FITTING = "the parts do not fit, so routing was not tried"
 SPICE_SUFFIXES = (".cir", ".sp", ".spice", ".net")
@@ -422,9 +422,16 @@ def check_project(project: Project) -> tuple[Design, tuple[Finding, ...]]:
     The findings are those :func:`run` reports before the cavity's (the same design, settings and
     seed give the same figures). Nothing is written. Cost: reading and the block analysis.
     """
-    design, _, checked, _ = _read_and_check(project.design_path, project.design_shown, project.parts_map,
-                                            project.root, limits=project.limits, **_analysis(project))
+    design, _, checked, _ = _read_and_check_project(project)
     return design, group_findings((*project.warnings, *checked))
+
+
+def _read_and_check_project(project: Project, progress: Progress | None = None):
+    """:func:`_read_and_check` of ``project``'s design with its parts map, ``[limits]`` and
+    ``[analysis]`` settings: the one call :func:`run` and :func:`check_project` share, so the two
+    check the design alike."""
+    return _read_and_check(project.design_path, project.design_shown, project.parts_map, project.root,
+                           limits=project.limits, progress=progress, **_analysis(project))
 
 
 def inspect_cavity(path: Path, *, shown: str | None = None, project: Project | None = None):
@@ -513,9 +520,7 @@ def run(project: Project, *, progress: Progress | None = None, sweep: bool = Fal
     from .export import atomic
 
     timestamp = _source_date_epoch()
-    design, lib, checked, reports = _read_and_check(project.design_path, project.design_shown, project.parts_map,
-                                                    project.root, limits=project.limits, progress=progress,
-                                                    **_analysis(project))
+    design, lib, checked, reports = _read_and_check_project(project, progress)
     files, order_files = _design_files(design, lib, project, reports, timestamp)
     placed, findings = _placed(project, design, lib, sweep, route, files, [*project.warnings, *checked], progress)
     findings = list(group_findings(findings))  # every finding made: notes of one kind as one (findings_group)
